@@ -1,0 +1,83 @@
+"""Exceptions for bad input.
+
+Every error that comes from the drawing names the DXF entity handle and the
+layer, says what is wrong and what to do.  The CLI prints ``str(error)`` as
+one line and exits with status 2; nothing is written.
+"""
+from __future__ import annotations
+
+__all__ = [
+    "Dxf2FrameError",
+    "DrawingError",
+    "UnitError",
+    "GeometryError",
+    "UnsupportedEntityError",
+    "UnknownBlockError",
+    "SettingsError",
+    "InputFileError",
+]
+
+
+class Dxf2FrameError(Exception):
+    """Base class of everything dxf2frame reports as bad input (exit 2)."""
+
+    exit_code = 2
+
+
+class DrawingError(Dxf2FrameError):
+    """A problem with one entity of the drawing.
+
+    Parameters
+    ----------
+    message : what is wrong
+    handle : DXF handle of the offending entity ("" if none)
+    layer : its layer ("" if none)
+    hint : what the user can do about it
+    """
+
+    def __init__(self, message: str, *, handle: str = "", layer: str = "", hint: str = "") -> None:
+        self.message = message
+        self.handle = handle
+        self.layer = layer
+        self.hint = hint
+        super().__init__(str(self))
+
+    def __str__(self) -> str:
+        where = []
+        if self.handle:
+            where.append(f"entity #{self.handle}")
+        if self.layer:
+            where.append(f"on layer '{self.layer}'")
+        head = (" ".join(where) + ": ") if where else ""
+        tail = f" ({self.hint})" if self.hint else ""
+        return f"{head}{self.message}{tail}"
+
+
+class UnitError(DrawingError):
+    """An attribute value with no parsable quantity or a unit of the wrong kind."""
+
+
+class GeometryError(DrawingError):
+    """Linework that cannot become a planar frame (3D, arcs, off-member blocks...)."""
+
+
+class UnsupportedEntityError(GeometryError):
+    """An entity type the reader does not understand on a tagged layer."""
+
+
+class UnknownBlockError(DrawingError):
+    """A block reference on a tagged layer whose name is not in the convention."""
+
+
+class SettingsError(Dxf2FrameError):
+    """A settings file that cannot be read or holds an invalid value."""
+
+    def __init__(self, message: str, *, path: str = "", key: str = "") -> None:
+        self.path, self.key = path, key
+        where = f"{path}: " if path else ""
+        k = f"[{key}] " if key else ""
+        super().__init__(f"{where}{k}{message}")
+
+
+class InputFileError(Dxf2FrameError):
+    """The file is missing, unreadable, not a DXF, or over the size limits."""
