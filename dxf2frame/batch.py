@@ -1,0 +1,153 @@
+"""Many drawings at once: a process pool (or a Dask cluster), per-file
+progress, and a summary table.  One bad drawing never stops the batch.
+"""
+from __future__ import annotations
+
+import glob
+import os
+import sys
+import time
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from pathlib import Path
+from typing import Callable, Iterable
+
+from .pipeline import EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_OK, EXIT_UNSTABLE, FileOutcome, SolveRequest, solve_file
+
+__all__ = ["expand_inputs", "run_batch", "solve_many", "summary_table", "batch_exit_code"]
+
+
+def expand_inputs(patterns: Iterable[str]) -> list[Path]:
+    """Files named or matched by glob patterns, in order, without repeats.
+    A name that matches nothing is kept, so that it is reported as missing."""
+    seen: dict[Path, None] = {}
+    for pat in patterns:
+        hits = sorted(glob.glob(pat)) if glob.has_magic(pat) else [pat]
+        p0 = Path(pat)
+        if not glob.has_magic(pat) and p0.is_dir():
+            hits = sorted(str(p) for p in p0.glob("*.dxf"))
+        for h in hits:
+            seen.setdefault(Path(h), None)
+    return list(seen)
+
+
+def _default_workers() -> int:
+    try:
+        return len(os.sched_getaffinity(0))
+    except AttributeError:  # pragma: no cover - not Linux
+        return os.cpu_count() or 1
+
+
+def solve_many(
+    files: list[Path],
+    req: SolveRequest,
+    *,
+    workers: int | None = None,
+    scheduler: str | None = None,
+    on_done: Callable[[FileOutcome, int, int], None] | None = None,
+) -> list[FileOutcome]:
+    """Solve every file; outcomes come back in the order of ``files``.
+
+    ``workers``: processes (default: the cores available; 1 runs in this
+    process).  ``scheduler``: address of a Dask distributed scheduler, or
+    ``"local"`` for an in-process Dask cluster (needs the ``dask`` extra).
+    ``on_done(outcome, done_count, total)`` is called as each file finishes.
+    """
+    n = len(files)
+    results: dict[int, FileOutcome] = {}
+    if scheduler:
+        from .distributed import solve_on_dask
+
+        for k, (i, out) in enumerate(solve_on_dask(files, req, scheduler), start=1):
+            results[i] = out
+            if on_done:
+                on_done(out, k, n)
+        return [results[i] for i in range(n)]
+
+    workers = max(1, workers if workers is not None else _default_workers())
+    if workers == 1 or n == 1:
+        for k, f in enumerate(files, start=1):
+            results[k - 1] = out = solve_file(f, req)
+            if on_done:
+                on_done(out, k, n)
+    else:
+        with ProcessPoolExecutor(max_workers=min(workers, n)) as pool:
+            futs = {pool.submit(solve_file, f, req): i for i, f in enumerate(files)}
+            for k, fut in enumerate(as_completed(futs), start=1):
+                i = futs[fut]
+                try:
+                    out = fut.result()
+                except Exception as exc:  # noqa: BLE001 - a worker died
+                    out = FileOutcome(str(files[i]), "internal error", EXIT_INTERNAL, f"{type(exc).__name__}: {exc}")
+                results[i] = out
+                if on_done:
+                    on_done(out, k, n)
+    return [results[i] for i in range(n)]
+
+
+def batch_exit_code(outcomes: list[FileOutcome]) -> int:
+    """2 if any drawing was bad input, else 1 if any internal error, else 3
+    if any frame was unstable, else 0."""
+    codes = {o.exit_code for o in outcomes}
+    for code in (EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_UNSTABLE):
+        if code in codes:
+            return code
+    return EXIT_OK
+
+
+def _fmt(v: float | None, digits: int = 4) -> str:
+    return "-" if v is None else f"{v:.{digits}g}"
+
+
+def summary_table(outcomes: list[FileOutcome]) -> str:
+    """Plain-text table: file, status, determinacy, governing |M|, |V|, |N|,
+    worst span/deflection, time."""
+    head = ["file", "status", "determinacy", "max |M|", "max |V|", "max |N|", "span/defl", "time s"]
+    rows = []
+    for o in outcomes:
+        u = o.units
+        det = o.determinacy + (f" ({o.degree})" if o.degree else "") if o.determinacy else "-"
+        rows.append([
+            Path(o.source).name, o.status, det,
+            _fmt(o.max_m) + (f" {u[0]}*{u[1]}" if u and o.max_m is not None else ""),
+            _fmt(o.max_v) + (f" {u[0]}" if u and o.max_v is not None else ""),
+            _fmt(o.max_n) + (f" {u[0]}" if u and o.max_n is not None else ""),
+            "-" if o.worst_deflection_ratio is None else f"L/{o.worst_deflection_ratio:.0f}",
+            f"{o.seconds:.2f}",
+        ])
+    widths = [max(len(r[i]) for r in [head] + rows) for i in range(len(head))]
+    line = lambda r: "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip()  # noqa: E731
+    return "\n".join([line(head), line(["-" * w for w in widths])] + [line(r) for r in rows])
+
+
+def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = None,
+              scheduler: str | None = None, stream=None) -> int:
+    """Solve, print progress and messages, print the summary; return the exit status."""
+    stream = stream or sys.stdout
+    err = sys.stderr
+    single = len(files) == 1
+    t0 = time.perf_counter()
+
+    def progress(out: FileOutcome, k: int, n: int) -> None:
+        if single:
+            return
+        bar = "#" * int(20 * k / n)
+        print(f"[{bar:<20}] {k}/{n}  {Path(out.source).name}: {out.status}", file=err, flush=True)
+
+    outcomes = solve_many(files, req, workers=workers, scheduler=scheduler, on_done=progress)
+    for o in outcomes:
+        if o.status == "bad input":
+            print(f"dxf2frame: error: {o.source}: {o.message}", file=err)
+        elif o.status == "internal error":
+            print(f"dxf2frame: internal error: {o.source}: {o.message} (please report it)", file=err)
+        elif o.status == "unstable":
+            print(f"dxf2frame: {o.source}: the frame is unstable (a mechanism); no results. {o.message}", file=err)
+    if single:
+        o = outcomes[0]
+        if o.outputs:
+            print("\n".join(f"wrote {p}" for p in o.outputs), file=stream)
+        if o.status == "ok":
+            print(summary_table(outcomes), file=stream)
+    else:
+        print(summary_table(outcomes), file=stream)
+        print(f"{len(outcomes)} drawings in {time.perf_counter() - t0:.1f} s", file=stream)
+    return batch_exit_code(outcomes)

@@ -1,0 +1,190 @@
+"""Command line: ``dxf2frame <command> ...``.
+
+Exit status: 0 done; 2 bad input (one line naming the entity handle and
+layer, no output written); 3 the frame is unstable (report and mechanism
+drawing written, no numbers); 1 an internal error (please report it).
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+import textwrap
+from pathlib import Path
+
+from . import CAUTION, __version__
+from .errors import Dxf2FrameError
+
+__all__ = ["main", "build_parser"]
+
+EPILOG = (
+    "exit status: 0 done, 2 bad input (nothing written), 3 frame unstable "
+    "(report and mechanism drawing written), 1 internal error.\n\n" + CAUTION
+)
+
+
+def _probe(text: str) -> tuple[float, float]:
+    try:
+        x, y = (float(v) for v in text.split(","))
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"--probe takes X,Y in drawing units, got {text!r}") from None
+    return x, y
+
+
+def _common(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--settings", type=Path, metavar="TOML",
+                   help="settings file (default: dxf2frame.toml beside the drawing, else built-in defaults)")
+    p.add_argument("--length-unit", metavar="UNIT",
+                   help="length unit of the drawing when its $INSUNITS header is missing (m, mm, cm, ft, in)")
+    p.add_argument("--debug", action="store_true", help="show a traceback for internal errors")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    fmt = argparse.RawDescriptionHelpFormatter
+    parser = argparse.ArgumentParser(
+        prog="dxf2frame",
+        formatter_class=fmt,
+        description=textwrap.dedent("""\
+            Analyse a planar frame sketched in a DXF drawing: member centrelines on
+            FRAME layers, support/hinge/load blocks on SUPPORTS, CONNECTIONS and LOADS.
+            Results are written as new layers in a copy of the drawing, never into it."""),
+        epilog=EPILOG,
+    )
+    parser.add_argument("--version", action="version", version=f"dxf2frame {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    p = sub.add_parser(
+        "check", formatter_class=fmt, epilog=EPILOG,
+        help="read a drawing and say what frame it describes and whether it is stable",
+        description=textwrap.dedent("""\
+            Read the drawing, clean the linework and print a model summary (nodes,
+            members, supports, hinges, loads per case) and the determinacy result:
+            determinate, indeterminate (with degree) or unstable (with the mechanism
+            described). Writes nothing.
+
+            example:  dxf2frame check drawings/packing-shed-rev-A.dxf"""),
+    )
+    p.add_argument("drawing", type=Path, help="DXF file to read")
+    _common(p)
+
+    p = sub.add_parser(
+        "solve", formatter_class=fmt, epilog=EPILOG,
+        help="solve drawings and write result drawings, reports and previews",
+        description=textwrap.dedent("""\
+            Solve every load case and load combination and write, per drawing:
+            a copy of the drawing with result layers (N, V, M, reactions, deflected
+            shape, notes), a JSON report, a CSV of member extremes and a PNG preview.
+            Several drawings or glob patterns may be given; they are solved in
+            parallel and a summary table is printed.
+
+            examples:
+              dxf2frame solve drawings/packing-shed-rev-A.dxf
+              dxf2frame solve shed.dxf --out results/shed.dxf --units kip,ft --probe 4.5,2.8
+              dxf2frame solve 'revisions/*.dxf' --workers 2"""),
+    )
+    p.add_argument("drawings", nargs="+", help="DXF files or glob patterns")
+    p.add_argument("--out", type=Path, metavar="PATH",
+                   help="result drawing (.dxf, one input) or folder (default: 'solved' beside each input)")
+    p.add_argument("--report", type=Path, metavar="JSON",
+                   help="JSON report path (one input only; default beside the result drawing)")
+    p.add_argument("--units", metavar="FORCE,LENGTH",
+                   help="units of the report, e.g. kN,m or kip,ft (default: settings force unit, drawing unit)")
+    p.add_argument("--probe", type=_probe, action="append", default=[], metavar="X,Y",
+                   help="report N, V, M at this drawing point (repeatable)")
+    p.add_argument("--show", metavar="NAME",
+                   help="what to draw: a load case, a combination ('1.2D+1.6L+0.5S'), "
+                        "or 'envelope:LRFD' / 'envelope:ASD' / 'envelope:all' (default from settings: envelope:LRFD)")
+    p.add_argument("--no-png", action="store_true", help="skip the PNG preview")
+    p.add_argument("--sheets", action="store_true",
+                   help="also write hand-check calculation sheets for the probes and governing extremes")
+    p.add_argument("--workers", type=int, default=None, metavar="N",
+                   help="parallel processes for many drawings (default: number of cores)")
+    p.add_argument("--scheduler", metavar="ADDRESS",
+                   help="run the batch on a Dask distributed scheduler (needs the 'dask' extra)")
+    _common(p)
+
+    p = sub.add_parser(
+        "compare", formatter_class=fmt, epilog=EPILOG,
+        help="compare revisions of a drawing and flag what changed in the results",
+        description=textwrap.dedent("""\
+            Given two or more revisions (drawings or JSON reports, oldest first),
+            match members by geometry and report the change in governing N, V, M,
+            deflection and reactions between consecutive revisions; changes above the
+            threshold are flagged. Writes a CSV/JSON table and a copy of the newest
+            drawing with the changed members marked.
+
+            example:  dxf2frame compare drawings/packing-shed-rev-A.dxf drawings/packing-shed-rev-B.dxf"""),
+    )
+    p.add_argument("revisions", nargs="+", help="two or more DXF files or report JSON files, oldest first")
+    p.add_argument("--out", type=Path, metavar="FOLDER", help="where to write (default: 'compared' beside the newest)")
+    p.add_argument("--threshold", type=float, metavar="FRACTION",
+                   help="flag changes larger than this fraction (default from settings: 0.05)")
+    p.add_argument("--units", metavar="FORCE,LENGTH", help="units of the comparison, e.g. kN,m")
+    _common(p)
+
+    p = sub.add_parser(
+        "explain", formatter_class=fmt, epilog=EPILOG,
+        help="write hand-check sheets: the free-body equations behind values at points",
+        description=textwrap.dedent("""\
+            For each point (or, with no --at, each member's governing extremes), cut
+            the member there, choose the free body a checker would choose, and write
+            the equilibrium equations with the numbers substituted, a free-body
+            figure, Markdown and PDF.
+
+            example:  dxf2frame explain drawings/packing-shed-rev-A.dxf --at 4.5,2.8 --result D"""),
+    )
+    p.add_argument("drawing", type=Path, help="DXF file")
+    p.add_argument("--at", type=_probe, action="append", default=[], metavar="X,Y",
+                   help="cut point in drawing units (repeatable)")
+    p.add_argument("--result", metavar="NAME",
+                   help="load case or combination (default: the governing strength combination per point)")
+    p.add_argument("--out", type=Path, metavar="FOLDER", help="where to write (default: 'sheets' beside the drawing)")
+    p.add_argument("--units", metavar="FORCE,LENGTH", help="units on the sheet, e.g. kN,m")
+    _common(p)
+
+    p = sub.add_parser(
+        "template", formatter_class=fmt, epilog=EPILOG,
+        help="write an empty drawing with the input layers and symbol blocks ready to use",
+        description=textwrap.dedent("""\
+            Start a new framing sketch: the layers FRAME, SUPPORTS, CONNECTIONS, LOADS
+            and the support, connection and load blocks with their attributes.
+
+            example:  dxf2frame template my-frame.dxf --length-unit m"""),
+    )
+    p.add_argument("path", type=Path, help="new DXF file to write")
+    p.add_argument("--length-unit", default="m", metavar="UNIT", help="drawing unit: m, mm, cm, ft, in (default m)")
+    return parser
+
+
+def _fail(exc: BaseException, debug: bool) -> int:
+    if isinstance(exc, Dxf2FrameError):
+        print(f"dxf2frame: error: {exc}", file=sys.stderr)
+        return exc.exit_code
+    if debug:
+        raise exc
+    print(f"dxf2frame: internal error: {type(exc).__name__}: {exc} (rerun with --debug and report it)",
+          file=sys.stderr)
+    return 1
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return 2
+    from . import commands
+
+    handler = getattr(commands, f"run_{args.command}")
+    try:
+        return handler(args)
+    except Dxf2FrameError as exc:
+        return _fail(exc, getattr(args, "debug", False))
+    except KeyboardInterrupt:
+        print("dxf2frame: interrupted", file=sys.stderr)
+        return 130
+    except Exception as exc:  # noqa: BLE001
+        return _fail(exc, getattr(args, "debug", False))
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

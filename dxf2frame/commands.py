@@ -1,0 +1,109 @@
+"""What each CLI command does, given parsed arguments; returns the exit status.
+
+Bad input raises :class:`~dxf2frame.errors.Dxf2FrameError`, which the CLI
+prints as one line (exit 2).
+"""
+from __future__ import annotations
+
+import sys
+from collections import Counter
+from pathlib import Path
+
+from . import CAUTION
+
+__all__ = ["run_check", "run_solve", "run_compare", "run_explain", "run_template"]
+
+
+def _say(*lines: str) -> None:
+    print("\n".join(lines))
+
+
+def run_check(args) -> int:
+    from solver import check
+
+    from .pipeline import EXIT_OK, EXIT_UNSTABLE
+    from .reader import read_drawing
+    from .settings import load_settings
+
+    settings = load_settings(args.settings, args.drawing)
+    model = read_drawing(args.drawing, settings, length_unit=args.length_unit)
+    frame = model.frame
+    det = check(frame)
+    loads_per_case = Counter(ld.case for ld in frame.loads)
+    kinds = Counter(s.kind for s in frame.supports)
+    _say(
+        f"drawing      {args.drawing}",
+        f"units        length {model.length_unit}, force {model.force_unit}",
+        f"nodes        {len(frame.nodes)}",
+        f"members      {len(frame.members)} analysis members "
+        f"({len({m.group for m in frame.members})} reported)",
+        f"supports     {len(frame.supports)}" + (f" ({', '.join(f'{n} {k}' for k, n in sorted(kinds.items()))})" if kinds else ""),
+        f"hinges       {model.hinges}",
+        f"loads        {model.n_loads} blocks; per case: "
+        + (", ".join(f"{c} {n}" for c, n in loads_per_case.items()) or "none"),
+        f"sections     {'given for every member' if frame.has_sections else 'missing for some members (deflections need them)'}",
+        "",
+        f"determinacy  {det.status}" + (f", degree {det.degree}" if det.status == "indeterminate" else "")
+        + (f", {det.mechanisms} mechanism(s)" if det.mechanisms else ""),
+        f"count        {det.count_check}",
+        f"detail       {det.detail}",
+    )
+    for w in list(model.warnings) + list(det.warnings):
+        _say(f"warning      {w}")
+    return EXIT_UNSTABLE if det.status == "unstable" else EXIT_OK
+
+
+def run_solve(args) -> int:
+    from .batch import expand_inputs, run_batch
+    from .errors import InputFileError
+    from .pipeline import SolveRequest
+
+    files = expand_inputs(args.drawings)
+    if not files:
+        raise InputFileError(f"no drawing matches {' '.join(args.drawings)}")
+    single = len(files) == 1
+    if not single and args.report is not None:
+        raise InputFileError("--report names one file; with several drawings leave it out "
+                             "(each report goes beside its result drawing)")
+    req = SolveRequest(
+        out=args.out, report=args.report, units=args.units, probes=list(args.probe), show=args.show,
+        png=not args.no_png, sheets=args.sheets, settings_path=args.settings,
+        length_unit=args.length_unit, single=single,
+    )
+    return run_batch(files, req, workers=args.workers, scheduler=args.scheduler)
+
+
+def run_compare(args) -> int:
+    from .compare import run_compare_command
+
+    return run_compare_command(args)
+
+
+def run_explain(args) -> int:
+    from .handcheck import run_explain_command
+
+    return run_explain_command(args)
+
+
+def run_template(args) -> int:
+    import ezdxf
+
+    from .atomic import atomic_path
+    from .errors import InputFileError
+    from .symbols import define_blocks, define_layers
+
+    units = {"in": 1, "inch": 1, "ft": 2, "feet": 2, "foot": 2, "mm": 4, "cm": 5, "m": 6}
+    code = units.get(args.length_unit.lower())
+    if code is None:
+        raise InputFileError(f"--length-unit must be one of {', '.join(sorted(units))}, got {args.length_unit!r}")
+    if args.path.exists():
+        raise InputFileError(f"{args.path} exists already; choose a new file name")
+    doc = ezdxf.new("R2018", setup=True)
+    doc.header["$INSUNITS"] = code
+    define_layers(doc)
+    define_blocks(doc)
+    with atomic_path(args.path) as tmp:
+        doc.saveas(tmp)
+    _say(f"wrote {args.path}: layers FRAME, SUPPORTS, CONNECTIONS, LOADS and the symbol blocks",
+         CAUTION)
+    return 0
