@@ -1,0 +1,713 @@
+"""Drawn linework and symbols -> a clean ``solver.Frame``.
+
+Pure geometry on plain tuples: nothing here knows about DXF, so it is
+tested without drawings.  All coordinates, tolerances and loads are SI
+(m, N, N/m, N*m); the caller converts drawing units first.
+
+What :func:`build_frame` does, in order:
+
+1. Segments not longer than the tolerance are dropped (warning naming the
+   handle).
+2. Endpoints, support points and connection points closer than the
+   tolerance are merged (KD-tree pairs, clusters keep their first point).
+3. A segment is split where another segment's end, a support, a JOINT or a
+   HINGE lies on its interior (within tolerance; candidates come from a
+   shapely STRtree, so no all-pairs loop).  Two segments that merely cross
+   stay unjoined.  FORCE and COUPLE loads do not split anything.
+4. Pieces get ids ``"<handle>-<k>"``, k = 1, 2, ... counted along the drawn
+   entity from its first vertex.  A piece split only by a HINGE that
+   touches nothing else becomes elements ``"<handle>-<k>a"``,
+   ``"<handle>-<k>b"``, ... (lettered from the piece's start) sharing
+   ``group = "<handle>-<k>"``.
+5. Exact duplicates (same two nodes) are dropped with a warning naming
+   both handles.
+6. Each member starts at its end with the smaller X; when the X values
+   differ by no more than the tolerance the smaller Y is the start.
+7. Supports, hinge releases, settlements; every connected part must hold a
+   support.
+8. Loads: FORCE/COUPLE on a node -> ``NodalLoad``, inside a span ->
+   ``PointLoad`` / ``MemberCouple`` at distance ``a`` from the member
+   start; UDL -> ``DistributedLoad`` on the piece (group) under its
+   insertion point, ``FROM``/``TO`` measured from that piece's start.
+
+Examples
+--------
+>>> res = build_frame([Segment((0.0, 0.0), (6.0, 0.0), "2A", "FRAME")],
+...                   supports=[SupportSpec((0.0, 0.0), "pin", handle="3B"),
+...                             SupportSpec((6.0, 0.0), "roller", handle="3C")],
+...                   tol=1e-4)
+>>> [(m.id, m.start, m.end) for m in res.frame.members]
+[('2A-1', 0, 1)]
+"""
+from __future__ import annotations
+
+import math
+import string
+from collections import defaultdict
+from dataclasses import dataclass, field
+from typing import Callable, Iterable, Literal, Sequence, Union
+
+import networkx as nx
+import numpy as np
+import shapely
+from scipy.sparse import coo_matrix
+from scipy.sparse.csgraph import connected_components
+from scipy.spatial import cKDTree
+
+from solver import (
+    DistributedLoad,
+    Frame,
+    MemberCouple,
+    NodalLoad,
+    PointLoad,
+    Section,
+    Settlement,
+)
+
+from .errors import DrawingError, GeometryError
+
+__all__ = [
+    "Point",
+    "Segment",
+    "SupportSpec",
+    "ConnectionSpec",
+    "ForceSpec",
+    "CoupleSpec",
+    "UdlSpec",
+    "LoadSpec",
+    "CleanResult",
+    "build_frame",
+    "default_tolerance",
+]
+
+Point = tuple[float, float]
+
+
+# ---------------------------------------------------------------------------
+# input records
+# ---------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Segment:
+    """One straight piece of drawn linework [m].
+
+    ``index`` orders the pieces of one drawn entity (polyline segments, arc
+    chords) from its first vertex; member numbering follows it.
+    """
+
+    p0: Point
+    p1: Point
+    handle: str
+    layer: str
+    index: int = 0
+
+
+@dataclass(frozen=True)
+class SupportSpec:
+    """A support symbol.
+
+    kind : pin, roller, fixed, slider, spring
+    angle : [rad] counter-clockwise turn of the support axes x', y'
+    kx, ky : spring stiffness along x', y' [N/m]; kr rotational [N*m/rad]
+    settle : prescribed (dx [m], dy [m], rz [rad]) in global axes, or None
+    settle_case : load case of the settlement
+    """
+
+    at: Point
+    kind: str
+    angle: float = 0.0
+    kx: float | None = None
+    ky: float | None = None
+    kr: float | None = None
+    settle: tuple[float, float, float] | None = None
+    settle_case: str = "D"
+    handle: str = ""
+    layer: str = ""
+
+
+@dataclass(frozen=True)
+class ConnectionSpec:
+    """A JOINT or HINGE symbol.  ``layers``: for a hinge, the member layers
+    whose ends are released (None = all member ends at the joint)."""
+
+    at: Point
+    kind: Literal["joint", "hinge"]
+    layers: tuple[str, ...] | None = None
+    handle: str = ""
+    layer: str = ""
+
+
+@dataclass(frozen=True)
+class ForceSpec:
+    """Concentrated force (fx, fy) [N] along global X, Y at ``at``."""
+
+    at: Point
+    fx: float
+    fy: float
+    case: str = "D"
+    handle: str = ""
+    layer: str = ""
+
+
+@dataclass(frozen=True)
+class CoupleSpec:
+    """Concentrated couple ``m`` [N*m], counter-clockwise positive, at ``at``."""
+
+    at: Point
+    m: float
+    case: str = "D"
+    handle: str = ""
+    layer: str = ""
+
+
+@dataclass(frozen=True)
+class UdlSpec:
+    """Distributed load on the member piece under ``at``.
+
+    w1, w2 : intensity [N/m] at the start and end of the loaded length
+        (positive along ``direction``: GRAVITY acts toward -Y, NORMAL toward
+        local -y, X and Y along +X, +Y)
+    start, end : FROM and TO [m] from the piece's start (None: piece ends)
+    projected : True when w is per unit horizontal projection
+    """
+
+    at: Point
+    w1: float
+    w2: float
+    start: float | None = None
+    end: float | None = None
+    direction: Literal["GRAVITY", "X", "Y", "NORMAL"] = "GRAVITY"
+    projected: bool = False
+    case: str = "D"
+    handle: str = ""
+    layer: str = ""
+
+
+LoadSpec = Union[ForceSpec, CoupleSpec, UdlSpec]
+
+
+@dataclass
+class CleanResult:
+    """Output of :func:`build_frame`.
+
+    frame : the analysis model (SI)
+    warnings : texts naming entity handles
+    extents : (xmin, ymin, xmax, ymax) of the members [m]
+    """
+
+    frame: Frame
+    warnings: list[str] = field(default_factory=list)
+    extents: tuple[float, float, float, float] = (0.0, 0.0, 0.0, 0.0)
+
+
+def default_tolerance(points: np.ndarray, *, floor: float = 0.5e-3, rel: float = 1e-6) -> float:
+    """Default snap tolerance [m]: the larger of ``floor`` (0.5 mm) and ``rel``
+    times the diagonal of the points' bounding box."""
+    pts = np.asarray(points, dtype=float).reshape(-1, 2)
+    if len(pts) == 0:
+        return floor
+    diag = float(np.hypot(*(pts.max(axis=0) - pts.min(axis=0))))
+    return max(floor, rel * diag)
+
+
+# ---------------------------------------------------------------------------
+# helpers
+# ---------------------------------------------------------------------------
+
+
+class _Units:
+    """Formats lengths in drawing units for messages."""
+
+    def __init__(self, name: str, scale: float) -> None:
+        self.name, self.scale = name, scale
+
+    def fmt(self, metres: float) -> str:
+        return f"{metres / self.scale:.6g} {self.name}"
+
+
+def _cluster(points: np.ndarray, tol: float) -> np.ndarray:
+    """Label of each point's cluster: points within ``tol`` (transitively)
+    share a label; the label is the index of the cluster's first point."""
+    n = len(points)
+    if n == 0:
+        return np.zeros(0, dtype=np.int64)
+    pairs = cKDTree(points).query_pairs(tol, output_type="ndarray")
+    if len(pairs) == 0:
+        return np.arange(n)
+    g = coo_matrix((np.ones(len(pairs), dtype=np.int8), (pairs[:, 0], pairs[:, 1])), shape=(n, n))
+    _, comp = connected_components(g, directed=False)
+    first = np.full(comp.max() + 1, n, dtype=np.int64)
+    np.minimum.at(first, comp, np.arange(n))
+    return first[comp]
+
+
+def _handles_text(handles: Iterable[str], limit: int = 8) -> str:
+    hs = list(dict.fromkeys(h for h in handles if h))
+    text = ", ".join(f"#{h}" for h in hs[:limit])
+    if len(hs) > limit:
+        text += f" and {len(hs) - limit} more"
+    return text
+
+
+def _starts_first(a: np.ndarray, b: np.ndarray, tol: float) -> bool:
+    """True when point ``a`` is the member start per the convention."""
+    dx = b[0] - a[0]
+    if abs(dx) > tol:
+        return dx > 0
+    return b[1] >= a[1]
+
+
+@dataclass
+class _Element:
+    id: str
+    group: str
+    n0: int  # cluster label of the start
+    n1: int  # cluster label of the end
+    handle: str
+    layer: str
+
+
+# ---------------------------------------------------------------------------
+# main entry
+# ---------------------------------------------------------------------------
+
+
+def build_frame(
+    segments: Sequence[Segment],
+    supports: Sequence[SupportSpec] = (),
+    connections: Sequence[ConnectionSpec] = (),
+    loads: Sequence[LoadSpec] = (),
+    *,
+    tol: float,
+    section_for: Callable[[str], Section | None] | None = None,
+    unit: tuple[str, float] = ("m", 1.0),
+) -> CleanResult:
+    """Snap, split and assemble the analysis model.
+
+    Parameters
+    ----------
+    segments : drawn straight pieces [m]
+    supports, connections, loads : symbols (SI)
+    tol : snap tolerance [m] (> 0)
+    section_for : layer name -> Section or None
+    unit : (name, metres per unit) of the drawing, used to state distances
+        in error messages in drawing units
+
+    Returns
+    -------
+    CleanResult
+
+    Raises
+    ------
+    GeometryError
+        No members, a part without supports.
+    DrawingError
+        A symbol off every member, two supports on one node, an ambiguous
+        or invalid load.
+    """
+    if not tol > 0:
+        raise ValueError("tolerance must be positive")
+    units = _Units(*unit)
+    section_for = section_for or (lambda layer: None)
+    warnings: list[str] = []
+
+    # -- 1. zero-length -------------------------------------------------
+    segs: list[Segment] = []
+    for s in segments:
+        if math.hypot(s.p1[0] - s.p0[0], s.p1[1] - s.p0[1]) <= tol:
+            warnings.append(
+                f"zero-length member #{s.handle} on layer '{s.layer}' dropped (shorter than the snap tolerance)"
+            )
+        else:
+            segs.append(s)
+    if not segs:
+        raise GeometryError(
+            "the drawing has no members",
+            hint="draw member centrelines as LINE or LWPOLYLINE on layer FRAME or FRAME-*",
+        )
+    n = len(segs)
+    nsup, ncon = len(supports), len(connections)
+
+    # -- 2. snap ------------------------------------------------------------
+    # segment ends in drawing order (start, end of the first segment, ...), then
+    # support and connection points: a cluster keeps the first drawn point
+    pts = np.empty((2 * n + nsup + ncon, 2))
+    pts[0 : 2 * n : 2] = [s.p0 for s in segs]
+    pts[1 : 2 * n : 2] = [s.p1 for s in segs]
+    if nsup:
+        pts[2 * n : 2 * n + nsup] = [s.at for s in supports]
+    if ncon:
+        pts[2 * n + nsup :] = [c.at for c in connections]
+    label = _cluster(pts, tol)
+    e0, e1 = label[0 : 2 * n : 2].copy(), label[1 : 2 * n : 2].copy()
+    sup_lab = label[2 * n : 2 * n + nsup]
+    con_lab = label[2 * n + nsup :]
+
+    collapsed = e0 == e1
+    if collapsed.any():
+        for i in np.flatnonzero(collapsed):
+            s = segs[i]
+            warnings.append(f"zero-length member #{s.handle} on layer '{s.layer}' dropped (its ends snap together)")
+        keep = ~collapsed
+        segs = [s for s, k in zip(segs, keep) if k]
+        e0, e1 = e0[keep], e1[keep]
+        n = len(segs)
+        if n == 0:
+            raise GeometryError("the drawing has no members after snapping")
+
+    # -- 3. split points ----------------------------------------------------
+    endpoint_labels = np.unique(np.concatenate([e0, e1]))
+    joint_labels = {int(l) for l, c in zip(con_lab, connections) if c.kind == "joint"}
+    hinge_labels = {int(l) for l, c in zip(con_lab, connections) if c.kind == "hinge"}
+    support_labels = {int(l) for l in sup_lab}
+    cand = np.unique(np.concatenate([endpoint_labels, sup_lab, con_lab]).astype(np.int64))
+    cand_xy = pts[cand]
+
+    A, B = pts[e0], pts[e1]
+    lines = shapely.linestrings(np.stack([A, B], axis=1))
+    tree = shapely.STRtree(lines)
+    pi, si = tree.query(shapely.points(cand_xy), predicate="dwithin", distance=tol)
+    lab = cand[pi]
+    ok = (lab != e0[si]) & (lab != e1[si])
+    pi, si, lab = pi[ok], si[ok], lab[ok]
+    d = B[si] - A[si]
+    L = np.hypot(d[:, 0], d[:, 1])
+    rel = cand_xy[pi] - A[si]
+    s_along = (rel[:, 0] * d[:, 0] + rel[:, 1] * d[:, 1]) / L
+    inside = (s_along > 0) & (s_along < L)
+    pi, si, lab, s_along = pi[inside], si[inside], lab[inside], s_along[inside]
+    order = np.lexsort((s_along, si))
+    si, lab, s_along = si[order], lab[order], s_along[order]
+    interior_count = defaultdict(int)
+    for l_ in lab.tolist():
+        interior_count[l_] += 1
+    endpoint_set = set(endpoint_labels.tolist())
+
+    def hinge_only(lbl: int) -> bool:
+        return (
+            lbl in hinge_labels
+            and lbl not in endpoint_set
+            and lbl not in support_labels
+            and lbl not in joint_labels
+            and interior_count[lbl] == 1
+        )
+
+    splits: dict[int, list[int]] = defaultdict(list)
+    for s_i, l_ in zip(si.tolist(), lab.tolist()):
+        if not splits[s_i] or splits[s_i][-1] != l_:
+            splits[s_i].append(l_)
+
+    # -- 4. pieces and ids ------------------------------------------------------
+    first_seen: dict[str, int] = {}
+    for i, s in enumerate(segs):
+        first_seen.setdefault(s.handle, i)
+    seg_order = sorted(range(n), key=lambda i: (first_seen[segs[i].handle], segs[i].index, i))
+    k_of_handle: dict[str, int] = defaultdict(int)
+    elements: list[_Element] = []
+    for i in seg_order:
+        s = segs[i]
+        chain = [int(e0[i]), *splits.get(i, []), int(e1[i])]
+        # pieces: runs between non-hinge-only boundaries
+        runs: list[list[int]] = [[chain[0]]]
+        for lbl in chain[1:-1]:
+            runs[-1].append(lbl)
+            if not hinge_only(lbl):
+                runs.append([lbl])
+        runs[-1].append(chain[-1])
+        for run in runs:
+            k_of_handle[s.handle] += 1
+            gid = f"{s.handle}-{k_of_handle[s.handle]}"
+            if len(run) == 2:
+                a, b = run
+                if not _starts_first(pts[a], pts[b], tol):
+                    a, b = b, a
+                elements.append(_Element(gid, gid, a, b, s.handle, s.layer))
+                continue
+            if not _starts_first(pts[run[0]], pts[run[-1]], tol):
+                run = run[::-1]
+            for j, (a, b) in enumerate(zip(run[:-1], run[1:])):
+                suffix = string.ascii_lowercase[j] if j < 26 else f"_{j + 1}"
+                elements.append(_Element(gid + suffix, gid, a, b, s.handle, s.layer))
+
+    # -- 5. duplicates -----------------------------------------------------------
+    seen: dict[tuple[int, int], _Element] = {}
+    kept: list[_Element] = []
+    dup_pairs: dict[tuple[str, str], tuple[str, str]] = {}
+    for el in elements:
+        key = (min(el.n0, el.n1), max(el.n0, el.n1))
+        if key in seen:
+            first = seen[key]
+            dup_pairs.setdefault((first.handle, el.handle), (first.layer, el.layer))
+            continue
+        seen[key] = el
+        kept.append(el)
+    for (h1, h2), (l1, l2) in dup_pairs.items():
+        if h1 == h2:
+            warnings.append(f"member #{h1} on layer '{l1}' overlaps itself; the repeated part was dropped")
+        else:
+            warnings.append(
+                f"duplicate member #{h2} on layer '{l2}' dropped: it repeats #{h1} on layer '{l1}'"
+            )
+
+    # -- 6. nodes and members ----------------------------------------------------
+    frame = Frame()
+    node_of: dict[int, int] = {}
+    node_sources: dict[int, list[str]] = defaultdict(list)
+    for el in kept:
+        for lbl in (el.n0, el.n1):
+            if lbl not in node_of:
+                node_of[lbl] = len(node_of)
+            node_sources[lbl].append(el.handle)
+    for s, lbl in zip(supports, sup_lab.tolist()):
+        node_sources[lbl].append(s.handle)
+    for c, lbl in zip(connections, con_lab.tolist()):
+        node_sources[lbl].append(c.handle)
+    for lbl, nid in sorted(node_of.items(), key=lambda kv: kv[1]):
+        frame.add_node(pts[lbl, 0], pts[lbl, 1], tuple(dict.fromkeys(node_sources[lbl])))
+    for el in kept:  # already oriented: start = smaller X (ties: smaller Y)
+        frame.add_member(
+            node_of[el.n0],
+            node_of[el.n1],
+            section_for(el.layer),
+            id=el.id,
+            layer=el.layer,
+            handle=el.handle,
+            group=el.group,
+        )
+
+    node_xy = np.array([[nd.x, nd.y] for nd in frame.nodes])
+    node_tree = cKDTree(node_xy)
+    mA = node_xy[[m.start for m in frame.members]]
+    mB = node_xy[[m.end for m in frame.members]]
+    mtree = shapely.STRtree(shapely.linestrings(np.stack([mA, mB], axis=1)))
+
+    def distance_to_members(p: Point) -> float:
+        _, dist = mtree.query_nearest(shapely.points(p), return_distance=True)
+        return float(dist[0])
+
+    def off_member(kind: str, spec) -> DrawingError:
+        return DrawingError(
+            f"{kind} is not on any member: its insertion point ({spec.at[0] / units.scale:.6g}, "
+            f"{spec.at[1] / units.scale:.6g}) is {units.fmt(distance_to_members(spec.at))} from the nearest member",
+            handle=spec.handle,
+            layer=spec.layer,
+            hint="move the block's insertion point onto a member centreline",
+        )
+
+    # -- 7. supports, hinges, settlements ---------------------------------------
+    support_at: dict[int, SupportSpec] = {}
+    for spec, lbl in zip(supports, sup_lab.tolist()):
+        if lbl not in node_of:
+            raise off_member(f"{spec.kind} support", spec)
+        nid = node_of[lbl]
+        if nid in support_at:
+            other = support_at[nid]
+            raise DrawingError(
+                f"two supports on one node: #{other.handle} and #{spec.handle}",
+                handle=spec.handle,
+                layer=spec.layer,
+                hint="keep one support per node (use SPRING attributes or a FIXED block to combine restraints)",
+            )
+        support_at[nid] = spec
+        if spec.kind == "spring" and spec.kx is None and spec.ky is None and spec.kr is None:
+            warnings.append(f"spring support #{spec.handle} has no KX, KY or KR: it restrains nothing")
+        frame.add_support(
+            nid,
+            spec.kind,
+            spec.angle,
+            kx=spec.kx,
+            ky=spec.ky,
+            kr=spec.kr,
+            handle=spec.handle,
+            layer=spec.layer,
+        )
+        if spec.settle is not None and any(v != 0.0 for v in spec.settle):
+            dx, dy, rz = spec.settle
+            frame.add_load(Settlement(nid, dx, dy, rz, case=spec.settle_case, handle=spec.handle))
+
+    ends_at: dict[int, list[tuple[int, str]]] = defaultdict(list)
+    for mi, m in enumerate(frame.members):
+        ends_at[m.start].append((mi, "start"))
+        ends_at[m.end].append((mi, "end"))
+    for spec, lbl in zip(connections, con_lab.tolist()):
+        if lbl not in node_of:
+            raise off_member(spec.kind.upper(), spec)
+        if spec.kind != "hinge":
+            continue
+        nid = node_of[lbl]
+        wanted = {x.upper() for x in spec.layers} if spec.layers else None
+        released = 0
+        for mi, side in ends_at[nid]:
+            m = frame.members[mi]
+            if wanted is not None and m.layer.upper() not in wanted:
+                continue
+            setattr(m, f"release_{side}", True)
+            released += 1
+        if released == 0:
+            warnings.append(
+                f"hinge #{spec.handle} releases no member end: no member at it is on layer(s) "
+                f"{', '.join(sorted(wanted or []))}"
+            )
+
+    # -- 8. every part needs a support ---------------------------------------------
+    g = nx.Graph()
+    g.add_nodes_from(range(len(frame.nodes)))
+    g.add_edges_from((m.start, m.end, {"mi": mi}) for mi, m in enumerate(frame.members))
+    for comp in nx.connected_components(g):
+        if not any(nid in support_at for nid in comp):
+            mis = sorted({d["mi"] for _, _, d in g.subgraph(comp).edges(data=True)})
+            first = frame.members[mis[0]]
+            raise GeometryError(
+                f"part made of members {_handles_text(frame.members[i].handle for i in mis)} has no support",
+                handle=first.handle,
+                layer=first.layer,
+                hint="add a support block on layer SUPPORTS, or connect the part to the rest of the frame",
+            )
+
+    # -- 9. loads -----------------------------------------------------------------------
+    lengths = {m.id: frame.geometry(m) for m in frame.members}
+    groups: dict[str, list[int]] = defaultdict(list)
+    for mi, m in enumerate(frame.members):
+        groups[m.group].append(mi)
+
+    # all load points at once: nearest node and members within tolerance
+    load_xy = np.array([ld.at for ld in loads], dtype=float).reshape(-1, 2)
+    near_node: list[int | None] = []
+    near_members: list[np.ndarray] = []
+    if len(load_xy):
+        nd, ni = node_tree.query(load_xy)
+        near_node = [int(i) if d <= tol else None for d, i in zip(nd.tolist(), ni.tolist())]
+        lp, lm = mtree.query(shapely.points(load_xy), predicate="dwithin", distance=tol)
+        order = np.argsort(lp, kind="stable")
+        lp, lm = lp[order], lm[order]
+        cuts = np.searchsorted(lp, np.arange(len(load_xy) + 1))
+        near_members = [lm[cuts[i] : cuts[i + 1]] for i in range(len(load_xy))]
+
+    def position(mi: int, p: Point) -> float:
+        m = frame.members[mi]
+        L_, c, s_ = lengths[m.id]
+        a = frame.nodes[m.start]
+        return min(max((p[0] - a.x) * c + (p[1] - a.y) * s_, 0.0), L_)
+
+    def member_under(kind: str, spec, cands: np.ndarray) -> int:
+        if len(cands) == 0:
+            raise off_member(kind, spec)
+        if len(cands) == 1:
+            return int(cands[0])
+        dists = shapely.distance(shapely.points(spec.at), mtree.geometries.take(cands))
+        best = int(cands[int(np.argmin(dists))])
+        gset = {frame.members[int(c)].group for c in cands}
+        if len(gset) > 1:
+            warnings.append(
+                f"{kind} #{spec.handle} lies on members {', '.join(sorted(gset))}, which cross without "
+                f"a JOINT; applied to {frame.members[best].id}"
+            )
+        return best
+
+    for li, spec in enumerate(loads):
+        nid, cands = near_node[li], near_members[li]
+        if isinstance(spec, ForceSpec):
+            if nid is not None:
+                frame.add_load(NodalLoad(nid, spec.fx, spec.fy, 0.0, case=spec.case, handle=spec.handle))
+            else:
+                mi = member_under("force", spec, cands)
+                frame.add_load(
+                    PointLoad(frame.members[mi].id, position(mi, spec.at), spec.fx, spec.fy,
+                              axes="global", case=spec.case, handle=spec.handle)
+                )
+        elif isinstance(spec, CoupleSpec):
+            if nid is not None:
+                frame.add_load(NodalLoad(nid, 0.0, 0.0, spec.m, case=spec.case, handle=spec.handle))
+            else:
+                mi = member_under("couple", spec, cands)
+                frame.add_load(
+                    MemberCouple(frame.members[mi].id, position(mi, spec.at), spec.m,
+                                 case=spec.case, handle=spec.handle)
+                )
+        elif isinstance(spec, UdlSpec):
+            if nid is not None:
+                touching = {frame.members[mi].group for mi, _ in ends_at[nid]}
+                if len(touching) != 1:
+                    raise DrawingError(
+                        f"UDL sits on the joint of members {', '.join(sorted(touching))}; "
+                        "it is not clear which one it loads",
+                        handle=spec.handle,
+                        layer=spec.layer,
+                        hint="move its insertion point inside the span of the member it loads",
+                    )
+                group = touching.pop()
+            else:
+                group = frame.members[member_under("UDL", spec, cands)].group
+            _add_udl(frame, spec, groups[group], group, lengths, tol, units)
+        else:  # pragma: no cover - programming error
+            raise TypeError(f"unknown load spec {spec!r}")
+
+    ext = (
+        float(node_xy[:, 0].min()), float(node_xy[:, 1].min()),
+        float(node_xy[:, 0].max()), float(node_xy[:, 1].max()),
+    )
+    return CleanResult(frame, warnings, ext)
+
+
+def _add_udl(frame: Frame, spec: UdlSpec, mis: list[int], group: str, lengths, tol: float, units: _Units) -> None:
+    """Distribute one UDL over the elements ``mis`` of member ``group``."""
+    first, last = frame.members[mis[0]], frame.members[mis[-1]]
+    g0 = frame.nodes[first.start]
+    # elements of a group are collinear and lettered from the group start
+    offsets = []
+    for mi in mis:
+        m = frame.members[mi]
+        a = frame.nodes[m.start]
+        offsets.append(math.hypot(a.x - g0.x, a.y - g0.y))
+    Lg = offsets[-1] + lengths[last.id][0]
+
+    a0 = 0.0 if spec.start is None else spec.start
+    b0 = Lg if spec.end is None else spec.end
+    if b0 > Lg and b0 - Lg <= tol:
+        b0 = Lg
+    if a0 < 0 and a0 >= -tol:
+        a0 = 0.0
+    if not (0.0 <= a0 < b0 <= Lg):
+        raise DrawingError(
+            f"UDL loaded length FROM {units.fmt(a0)} TO {units.fmt(b0)} does not fit member {group} "
+            f"of length {units.fmt(Lg)}",
+            handle=spec.handle,
+            layer=spec.layer,
+            hint="FROM and TO are distances from the member start (its end with the smaller X); 0 <= FROM < TO <= length",
+        )
+
+    def w_at(x: float) -> float:
+        return spec.w1 + (spec.w2 - spec.w1) * (x - a0) / (b0 - a0)
+
+    if spec.direction == "GRAVITY":
+        vec, axes = (0.0, -1.0), "global"
+    elif spec.direction == "X":
+        vec, axes = (1.0, 0.0), "global"
+    elif spec.direction == "Y":
+        vec, axes = (0.0, 1.0), "global"
+    else:  # NORMAL: local -y
+        vec, axes = (0.0, -1.0), "local"
+
+    for mi, off in zip(mis, offsets):
+        m = frame.members[mi]
+        L = lengths[m.id][0]
+        lo, hi = max(a0, off), min(b0, off + L)
+        if hi - lo <= 1e-12 * max(1.0, Lg):
+            continue
+        wl, wh = w_at(lo), w_at(hi)
+        a_loc = lo - off
+        b_loc = hi - off
+        frame.add_load(
+            DistributedLoad(
+                m.id,
+                q1=(vec[0] * wl, vec[1] * wl),
+                q2=(vec[0] * wh, vec[1] * wh),
+                a=0.0 if a_loc <= tol * 1e-3 else a_loc,
+                b=None if L - b_loc <= tol * 1e-3 else b_loc,
+                axes=axes,
+                projected=spec.projected,
+                case=spec.case,
+                handle=spec.handle,
+            )
+        )

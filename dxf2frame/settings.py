@@ -1,0 +1,503 @@
+"""Per-project settings file (``dxf2frame.toml``).
+
+The file is TOML and is found, in this order: the path given explicitly
+(``--settings``), ``dxf2frame.toml`` beside the drawing, else built-in
+defaults.  Every key is optional; an unknown key is an error naming it, so
+a typo never passes silently.  The schema (see DEVELOPERS.md):
+
+``[units]``
+    ``force`` (unit of bare numbers in force attributes, default ``"kN"``),
+    ``length`` (drawing unit when ``$INSUNITS`` is missing, unitless or not
+    one of inch/ft/mm/cm/m; no default).
+``[geometry]``
+    ``snap`` (snap tolerance: a quantity string such as ``"5 mm"`` or a bare
+    number in drawing units; default: the larger of 0.5 mm and 1e-6 of the
+    frame's extents diagonal), ``arc_segments`` (0: arcs and bulges are an
+    error; N > 0: chord each into N straight members).
+``[limits]``
+    ``max_file_mb`` (200), ``max_entities`` (500000).
+``[layers]``
+    input layer names ``frame``, ``supports``, ``connections``, ``loads``.
+``[blocks]``
+    block names by kind: ``pin roller fixed slider spring joint hinge force
+    couple udl``, e.g. ``pin = "SUP-PIN"``.  A remapped kind no longer
+    answers to its default name.
+``[attributes]``
+    attribute tags by their convention name, e.g. ``P = "FORCE_VALUE"``.
+``[output_layers]``
+    result layer names ``axial shear moment reactions deflected notes
+    mechanism changes``.
+``[sections.default]``, ``[sections."<LAYER>"]``
+    ``E``, ``A``, ``I`` as quantity strings with units (``"200 GPa"``,
+    ``"5000 mm**2"``, ``"8e7 mm**4"``) and an optional ``name``.  A layer
+    section may leave out values that the default section gives.
+``[combinations]``
+    ``builtin`` (subset of ``["LRFD", "ASD"]``), ``extra`` (list of
+    combination strings, parsed by the solver), ``draw`` (what the
+    diagrams in the output drawing show).
+``[deflection]``
+    ``limit`` (span / limit, default 240), ``[deflection.layers]`` per
+    member layer.
+``[compare]``
+    ``threshold`` (relative change reported by the revision comparison,
+    default 0.05).
+
+Layer names are matched case-insensitively, as CAD programs do.  Quantity
+strings are parsed by :mod:`dxf2frame.units`; this module itself does not
+touch pint.
+"""
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Mapping
+
+from solver import Section
+
+from .errors import SettingsError, UnitError
+from .units import normalise_length_unit, parse_quantity, unit_factor
+
+__all__ = [
+    "Settings",
+    "load_settings",
+    "SETTINGS_FILENAME",
+    "BLOCK_KINDS",
+    "ATTRIBUTE_TAGS",
+    "OUTPUT_LAYER_KEYS",
+]
+
+SETTINGS_FILENAME = "dxf2frame.toml"
+
+#: convention block names (the kinds), upper case
+BLOCK_KINDS: tuple[str, ...] = (
+    "PIN", "ROLLER", "FIXED", "SLIDER", "SPRING", "JOINT", "HINGE", "FORCE", "COUPLE", "UDL",
+)
+
+#: attribute tags of the convention
+ATTRIBUTE_TAGS: tuple[str, ...] = (
+    "P", "M", "W", "W1", "W2", "FROM", "TO", "DIR", "BASIS", "CASE", "ANGLE",
+    "KX", "KY", "KR", "SETTLE_X", "SETTLE_Y", "SETTLE_R", "MEMBERS",
+)
+
+_DEFAULT_OUTPUT_LAYERS: dict[str, str] = {
+    "axial": "RESULT-AXIAL",
+    "shear": "RESULT-SHEAR",
+    "moment": "RESULT-MOMENT",
+    "reactions": "RESULT-REACTIONS",
+    "deflected": "RESULT-DEFLECTED",
+    "notes": "RESULT-NOTES",
+    "mechanism": "RESULT-MECHANISM",
+    "changes": "RESULT-CHANGES",
+}
+OUTPUT_LAYER_KEYS: tuple[str, ...] = tuple(_DEFAULT_OUTPUT_LAYERS)
+
+#: any layer starting with this is treated as written by this tool
+RESULT_LAYER_PREFIX = "RESULT-"
+
+_DEFAULT_LAYERS = {"frame": "FRAME", "supports": "SUPPORTS", "connections": "CONNECTIONS", "loads": "LOADS"}
+_BUILTIN_COMBOS = ("LRFD", "ASD")
+_TOP_KEYS = {
+    "units", "geometry", "limits", "layers", "blocks", "attributes",
+    "output_layers", "sections", "combinations", "deflection", "compare",
+}
+
+
+def _ro(d: Mapping) -> dict:
+    """A copy of ``d``; Settings holds plain dicts so that it pickles (batch
+    workers) -- treat them as read-only."""
+    return dict(d)
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Validated settings.  Build with :func:`load_settings` or
+    :meth:`Settings.from_dict`; ``Settings()`` gives the defaults.
+
+    Attributes
+    ----------
+    force_unit : pint unit text of bare numbers in force attributes
+    length_unit : drawing unit when the header does not say (None: must be given)
+    snap : snap tolerance; str (quantity with unit), float (drawing units) or None (automatic)
+    arc_segments : 0 = arcs are errors, N = chord each arc into N members
+    max_file_mb, max_entities : input limits
+    layers : {"frame"|"supports"|"connections"|"loads": layer name}
+    blocks : {kind (upper case, e.g. "PIN"): block name (upper case)}
+    attributes : {convention tag: tag used in the drawing (upper case)}
+    output_layers : {key: result layer name}
+    sections : {"DEFAULT" or upper-case layer name: solver.Section in SI (Pa, m**2, m**4)}
+    combinations_builtin : names of built-in sets ("LRFD", "ASD")
+    combinations_extra : combination strings such as "1.2D + 1.6L"
+    combinations_draw : what the output drawing shows ("envelope:LRFD", a case or combination)
+    deflection_limit : span / limit, default 240
+    deflection_layers : {upper-case layer: limit}
+    compare_threshold : relative change flagged by the revision comparison
+    source : the settings file read, or None for defaults
+    """
+
+    force_unit: str = "kN"
+    length_unit: str | None = None
+    snap: str | float | None = None
+    arc_segments: int = 0
+    max_file_mb: float = 200.0
+    max_entities: int = 500_000
+    layers: Mapping[str, str] = field(default_factory=lambda: _ro(_DEFAULT_LAYERS))
+    blocks: Mapping[str, str] = field(default_factory=lambda: _ro({k: k for k in BLOCK_KINDS}))
+    attributes: Mapping[str, str] = field(default_factory=lambda: _ro({t: t for t in ATTRIBUTE_TAGS}))
+    output_layers: Mapping[str, str] = field(default_factory=lambda: _ro(_DEFAULT_OUTPUT_LAYERS))
+    sections: Mapping[str, Section] = field(default_factory=lambda: _ro({}))
+    combinations_builtin: tuple[str, ...] = _BUILTIN_COMBOS
+    combinations_extra: tuple[str, ...] = ()
+    combinations_draw: str = "envelope:LRFD"
+    deflection_limit: float = 240.0
+    deflection_layers: Mapping[str, float] = field(default_factory=lambda: _ro({}))
+    compare_threshold: float = 0.05
+    source: Path | None = None
+
+    # derived lookups (built once)
+    def __post_init__(self) -> None:
+        kind_of = {}
+        for kind, name in self.blocks.items():
+            kind_of[name.upper()] = kind.upper()
+        object.__setattr__(self, "_kind_of_block", kind_of)
+        object.__setattr__(self, "_tag_of_drawing", {v.upper(): k for k, v in self.attributes.items()})
+        object.__setattr__(self, "_result_layers", {v.upper() for v in self.output_layers.values()})
+
+    # -- construction -------------------------------------------------------
+    @classmethod
+    def from_dict(cls, data: Mapping[str, Any], path: str | Path | None = None) -> "Settings":
+        """Validate a parsed TOML mapping.  Raises ``SettingsError`` naming the key."""
+        return _build(data, str(path) if path else "", Path(path) if path else None)
+
+    # -- lookups ------------------------------------------------------------
+    def section_for(self, layer: str) -> Section | None:
+        """Section of members on ``layer``: the layer's own, else the default,
+        else None (no sections given: a determinate frame still solves)."""
+        return self.sections.get(layer.upper(), self.sections.get("DEFAULT"))
+
+    def block_kind(self, name: str) -> str | None:
+        """Convention kind ("PIN", "ROLLER", ..., "UDL") of a block name
+        (case-insensitive, after remapping), or None if not a convention block."""
+        return self._kind_of_block.get(name.upper())  # type: ignore[attr-defined]
+
+    def attr(self, tag: str) -> str:
+        """Tag used in the drawing for the convention tag ``tag`` (upper case)."""
+        return self.attributes.get(tag.upper(), tag.upper())
+
+    def canonical_tag(self, drawing_tag: str) -> str | None:
+        """Convention tag of a tag found in the drawing (inverse of :meth:`attr`).
+
+        A convention tag that the settings remapped to another name returns
+        None (it no longer counts); other tags are returned upper-cased."""
+        t = drawing_tag.upper()
+        mapped = self._tag_of_drawing.get(t)  # type: ignore[attr-defined]
+        if mapped is not None:
+            return mapped
+        if t in self.attributes:
+            return None
+        return t
+
+    def output_layer(self, key: str) -> str:
+        """Result layer name for ``key`` (axial, shear, moment, reactions,
+        deflected, notes, mechanism, changes)."""
+        try:
+            return self.output_layers[key]
+        except KeyError:
+            raise KeyError(f"unknown output layer key {key!r}; expected one of {OUTPUT_LAYER_KEYS}") from None
+
+    def layer(self, key: str) -> str:
+        """Input layer name for ``key`` (frame, supports, connections, loads)."""
+        return self.layers[key]
+
+    def is_frame_layer(self, name: str) -> bool:
+        """True for the frame layer and any layer named ``<frame>-...``."""
+        n, f = name.upper(), self.layers["frame"].upper()
+        return n == f or n.startswith(f + "-")
+
+    def is_result_layer(self, name: str) -> bool:
+        """True for layers this tool writes (the output layers, and any layer
+        starting with ``RESULT-``); the reader ignores them."""
+        n = name.upper()
+        return n in self._result_layers or n.startswith(RESULT_LAYER_PREFIX)  # type: ignore[attr-defined]
+
+    def deflection_limit_for(self, layer: str) -> float:
+        """Span / limit ratio for members on ``layer``."""
+        return self.deflection_layers.get(layer.upper(), self.deflection_limit)
+
+    def deflection_limits(self) -> dict[str, Any]:
+        """``{"limit": 240.0, "layers": {"FRAME-BEAMS": 360.0}}`` (layer names upper case)."""
+        return {"limit": self.deflection_limit, "layers": dict(self.deflection_layers)}
+
+
+# ---------------------------------------------------------------------------
+# validation
+# ---------------------------------------------------------------------------
+
+
+def _table(data: Mapping[str, Any], key: str, path: str) -> Mapping[str, Any]:
+    v = data.get(key, {})
+    if not isinstance(v, Mapping):
+        raise SettingsError("must be a table", path=path, key=key)
+    return v
+
+
+def _check_keys(table: Mapping[str, Any], allowed, where: str, path: str) -> None:
+    allowed_upper = {a.upper(): a for a in allowed}
+    for k in table:
+        if str(k).upper() not in allowed_upper:
+            raise SettingsError(
+                f"unknown key {k!r}; expected one of {', '.join(sorted(allowed))}",
+                path=path,
+                key=f"{where}.{k}" if where else str(k),
+            )
+
+
+def _str(v: Any, key: str, path: str) -> str:
+    if not isinstance(v, str) or not v.strip():
+        raise SettingsError(f"must be a non-empty string, got {v!r}", path=path, key=key)
+    return v.strip()
+
+
+def _number(v: Any, key: str, path: str, *, positive: bool = True, allow_zero: bool = False) -> float:
+    if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
+        raise SettingsError(f"must be a number, got {v!r}", path=path, key=key)
+    if positive and (v < 0 or (v == 0 and not allow_zero)):
+        raise SettingsError(f"must be {'>= 0' if allow_zero else '> 0'}, got {v!r}", path=path, key=key)
+    return float(v)
+
+
+def _is_bare_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
+
+
+def _quantity(v: Any, kind: str, key: str, path: str) -> float:
+    if isinstance(v, bool) or not isinstance(v, str):
+        raise SettingsError(
+            f"give a quantity with its unit as a string (e.g. E = \"200 GPa\"), got {v!r}",
+            path=path,
+            key=key,
+        )
+    if _is_bare_number(v):
+        raise SettingsError(f"{v!r} has no unit; write it with one (e.g. \"200 GPa\")", path=path, key=key)
+    try:
+        value = parse_quantity(v, kind, default_unit="")
+    except UnitError as exc:
+        raise SettingsError(exc.message, path=path, key=key) from None
+    if value <= 0:
+        raise SettingsError(f"must be positive, got {v!r}", path=path, key=key)
+    return value
+
+
+def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
+    _check_keys(data, _TOP_KEYS, "", path)
+    kw: dict[str, Any] = {"source": source}
+
+    # [units]
+    u = _table(data, "units", path)
+    _check_keys(u, {"force", "length"}, "units", path)
+    if "force" in u:
+        f = _str(u["force"], "units.force", path)
+        try:
+            unit_factor(f, "force")
+        except UnitError as exc:
+            raise SettingsError(exc.message, path=path, key="units.force") from None
+        kw["force_unit"] = f
+    if "length" in u:
+        try:
+            kw["length_unit"] = normalise_length_unit(_str(u["length"], "units.length", path))
+        except UnitError as exc:
+            raise SettingsError(exc.message, path=path, key="units.length") from None
+
+    # [geometry]
+    g = _table(data, "geometry", path)
+    _check_keys(g, {"snap", "arc_segments"}, "geometry", path)
+    if "snap" in g:
+        s = g["snap"]
+        if isinstance(s, str) and _is_bare_number(s):
+            kw["snap"] = _number(float(s), "geometry.snap", path, allow_zero=True)
+        elif isinstance(s, str):
+            try:
+                if parse_quantity(s, "length", default_unit="") < 0:
+                    raise SettingsError("must not be negative", path=path, key="geometry.snap")
+            except UnitError as exc:
+                raise SettingsError(exc.message, path=path, key="geometry.snap") from None
+            kw["snap"] = s.strip()
+        else:
+            kw["snap"] = _number(s, "geometry.snap", path, allow_zero=True)
+    if "arc_segments" in g:
+        n = g["arc_segments"]
+        if isinstance(n, bool) or not isinstance(n, int) or n < 0 or n > 10_000:
+            raise SettingsError(f"must be an integer 0..10000, got {n!r}", path=path, key="geometry.arc_segments")
+        kw["arc_segments"] = n
+
+    # [limits]
+    lim = _table(data, "limits", path)
+    _check_keys(lim, {"max_file_mb", "max_entities"}, "limits", path)
+    if "max_file_mb" in lim:
+        kw["max_file_mb"] = _number(lim["max_file_mb"], "limits.max_file_mb", path)
+    if "max_entities" in lim:
+        kw["max_entities"] = int(_number(lim["max_entities"], "limits.max_entities", path))
+
+    # [layers]
+    lay = _table(data, "layers", path)
+    _check_keys(lay, set(_DEFAULT_LAYERS), "layers", path)
+    layers = dict(_DEFAULT_LAYERS)
+    for k, v in lay.items():
+        layers[k.lower()] = _str(v, f"layers.{k}", path)
+    if len({v.upper() for v in layers.values()}) != len(layers):
+        raise SettingsError("two input roles share one layer name", path=path, key="layers")
+    kw["layers"] = _ro(layers)
+
+    # [blocks]
+    bl = _table(data, "blocks", path)
+    _check_keys(bl, {k.lower() for k in BLOCK_KINDS}, "blocks", path)
+    blocks = {k: k for k in BLOCK_KINDS}
+    for k, v in bl.items():
+        blocks[k.upper()] = _str(v, f"blocks.{k}", path).upper()
+    names = list(blocks.values())
+    dup = {n for n in names if names.count(n) > 1}
+    if dup:
+        raise SettingsError(f"block name(s) {sorted(dup)} used for two kinds", path=path, key="blocks")
+    kw["blocks"] = _ro(blocks)
+
+    # [attributes]
+    at = _table(data, "attributes", path)
+    _check_keys(at, set(ATTRIBUTE_TAGS), "attributes", path)
+    attrs = {t: t for t in ATTRIBUTE_TAGS}
+    for k, v in at.items():
+        attrs[k.upper()] = _str(v, f"attributes.{k}", path).upper()
+    tags = list(attrs.values())
+    dup = {t for t in tags if tags.count(t) > 1}
+    if dup:
+        raise SettingsError(f"tag(s) {sorted(dup)} used for two attributes", path=path, key="attributes")
+    kw["attributes"] = _ro(attrs)
+
+    # [output_layers]
+    ol = _table(data, "output_layers", path)
+    _check_keys(ol, set(OUTPUT_LAYER_KEYS), "output_layers", path)
+    outs = dict(_DEFAULT_OUTPUT_LAYERS)
+    for k, v in ol.items():
+        outs[k.lower()] = _str(v, f"output_layers.{k}", path)
+    inputs = {v.upper() for v in layers.values()}
+    for k, v in outs.items():
+        if v.upper() in inputs or v.upper().startswith(layers["frame"].upper() + "-"):
+            raise SettingsError(f"result layer {v!r} clashes with an input layer", path=path, key=f"output_layers.{k}")
+    kw["output_layers"] = _ro(outs)
+
+    # [sections]
+    sec = _table(data, "sections", path)
+    raw: dict[str, Mapping[str, Any]] = {}
+    for name, tab in sec.items():
+        key = f"sections.{name}"
+        if not isinstance(tab, Mapping):
+            raise SettingsError("must be a table with E, A, I (and optionally name)", path=path, key=key)
+        _check_keys(tab, {"E", "A", "I", "name"}, key, path)
+        raw[str(name).upper()] = {
+            ("name" if str(k).lower() == "name" else str(k).upper()): v for k, v in tab.items()
+        }
+    default_vals: dict[str, float] = {}
+    if "DEFAULT" in raw:
+        for q, kind in (("E", "stress"), ("A", "area"), ("I", "inertia")):
+            if q in raw["DEFAULT"]:
+                default_vals[q] = _quantity(raw["DEFAULT"][q], kind, f"sections.default.{q}", path)
+    sections: dict[str, Section] = {}
+    for name, tab in raw.items():
+        vals = dict(default_vals)
+        for q, kind in (("E", "stress"), ("A", "area"), ("I", "inertia")):
+            if q in tab:
+                vals[q] = _quantity(tab[q], kind, f"sections.{name}.{q}", path)
+        missing = [q for q in ("E", "A", "I") if q not in vals]
+        if missing:
+            raise SettingsError(
+                f"missing {', '.join(missing)} (give them here or in [sections.default])",
+                path=path,
+                key=f"sections.{name}",
+            )
+        label = tab.get("name", "" if name == "DEFAULT" else name)
+        if not isinstance(label, str):
+            raise SettingsError("must be a string", path=path, key=f"sections.{name}.name")
+        sections[name] = Section(E=vals["E"], A=vals["A"], I=vals["I"], name=label)
+    kw["sections"] = _ro(sections)
+
+    # [combinations]
+    co = _table(data, "combinations", path)
+    _check_keys(co, {"builtin", "extra", "draw"}, "combinations", path)
+    if "builtin" in co:
+        b = co["builtin"]
+        if not isinstance(b, list) or not all(isinstance(x, str) for x in b):
+            raise SettingsError("must be a list of strings", path=path, key="combinations.builtin")
+        bad = [x for x in b if x.upper() not in _BUILTIN_COMBOS]
+        if bad:
+            raise SettingsError(f"unknown built-in set(s) {bad}; expected LRFD and/or ASD", path=path, key="combinations.builtin")
+        kw["combinations_builtin"] = tuple(x.upper() for x in b)
+    if "extra" in co:
+        e = co["extra"]
+        if not isinstance(e, list) or not all(isinstance(x, str) and x.strip() for x in e):
+            raise SettingsError("must be a list of non-empty strings", path=path, key="combinations.extra")
+        kw["combinations_extra"] = tuple(x.strip() for x in e)
+    if "draw" in co:
+        kw["combinations_draw"] = _str(co["draw"], "combinations.draw", path)
+
+    # [deflection]
+    de = _table(data, "deflection", path)
+    _check_keys(de, {"limit", "layers"}, "deflection", path)
+    if "limit" in de:
+        kw["deflection_limit"] = _number(de["limit"], "deflection.limit", path)
+    if "layers" in de:
+        dl = de["layers"]
+        if not isinstance(dl, Mapping):
+            raise SettingsError("must be a table of layer = limit", path=path, key="deflection.layers")
+        kw["deflection_layers"] = _ro(
+            {str(k).upper(): _number(v, f"deflection.layers.{k}", path) for k, v in dl.items()}
+        )
+
+    # [compare]
+    cp = _table(data, "compare", path)
+    _check_keys(cp, {"threshold"}, "compare", path)
+    if "threshold" in cp:
+        kw["compare_threshold"] = _number(cp["threshold"], "compare.threshold", path, allow_zero=True)
+
+    return Settings(**kw)
+
+
+def load_settings(path: Path | str | None = None, drawing: Path | str | None = None) -> Settings:
+    """Read settings.
+
+    Parameters
+    ----------
+    path : explicit settings file; must exist
+    drawing : the drawing being read; ``dxf2frame.toml`` beside it is used
+        when ``path`` is None and the file exists
+
+    Returns
+    -------
+    Settings (defaults when no file is given or found)
+
+    Raises
+    ------
+    SettingsError
+        Missing explicit file, invalid TOML, unknown key or invalid value.
+    """
+    if path is None:
+        if drawing is None:
+            return Settings()
+        candidate = Path(drawing).parent / SETTINGS_FILENAME
+        if not candidate.is_file():
+            return Settings()
+        path = candidate
+    p = Path(path)
+    try:
+        with open(p, "rb") as fh:
+            data = tomllib.load(fh)
+    except FileNotFoundError:
+        raise SettingsError("settings file not found", path=str(p)) from None
+    except tomllib.TOMLDecodeError as exc:
+        raise SettingsError(f"not valid TOML: {exc}", path=str(p)) from None
+    except OSError as exc:
+        raise SettingsError(f"cannot read settings file: {exc.strerror or exc}", path=str(p)) from None
+    return _build(data, str(p), p)

@@ -1,0 +1,267 @@
+"""Physical quantities in attribute text -> SI floats.
+
+Attribute values in a drawing may carry their own unit (``"2 kip/ft"``,
+``"35 kN"``, ``"15 kip*ft"``, ``"200 GPa"``, ``"204 in**4"``); a bare number
+takes a default unit chosen by the caller (the settings file's force unit,
+the drawing's length unit, ...).  Everything is returned in SI base units:
+
+==================  ============================  ======================
+kind                dimension                     SI unit returned
+==================  ============================  ======================
+force               force                         N
+distributed         force / length                N/m
+moment              force * length                N*m
+length              length                        m
+stress              force / length**2 (E)         Pa
+area                length**2                     m**2
+inertia             length**4                     m**4
+spring_linear       force / length                N/m
+spring_rotational   force * length / angle        N*m/rad
+angle               angle (dimensionless)         rad
+==================  ============================  ======================
+
+One pint ``UnitRegistry`` is created lazily per process
+(:func:`registry`); parsed strings are cached, so a drawing with 20,000
+identical load attributes parses each distinct text once.
+
+Exponents are limited to two digits (``in**4`` is fine, ``10**10**10`` is
+rejected) so that hostile attribute text cannot make the parser compute
+huge integers.
+
+Examples
+--------
+>>> round(parse_quantity("2 kip/ft", "distributed", default_unit="kN/m"), 3)
+29187.806
+>>> parse_quantity("35", "force", default_unit="kN")
+35000.0
+"""
+from __future__ import annotations
+
+import math
+import re
+from functools import lru_cache
+
+from .errors import UnitError
+
+__all__ = [
+    "KINDS",
+    "registry",
+    "parse_quantity",
+    "unit_factor",
+    "length_unit_scale",
+    "normalise_length_unit",
+    "INSUNITS",
+]
+
+#: kind -> (SI unit pint string, human description, example)
+KINDS: dict[str, tuple[str, str, str]] = {
+    "force": ("N", "a force", "35 kN"),
+    "distributed": ("N/m", "a distributed load (force per length)", "4.5 kN/m"),
+    "moment": ("N*m", "a moment (force times length)", "15 kip*ft"),
+    "length": ("m", "a length", "1.5 m"),
+    "stress": ("Pa", "a modulus (force per area)", "200 GPa"),
+    "area": ("m**2", "an area", "5000 mm**2"),
+    "inertia": ("m**4", "a second moment of area (length**4)", "204 in**4"),
+    "spring_linear": ("N/m", "a spring stiffness (force per length)", "500 kN/m"),
+    "spring_rotational": ("N*m/rad", "a rotational stiffness (force*length per radian)", "2000 kN*m/rad"),
+    "angle": ("rad", "an angle", "30 deg"),
+}
+
+#: $INSUNITS codes the reader understands -> short pint name of the unit
+INSUNITS: dict[int, str] = {1: "inch", 2: "ft", 4: "mm", 5: "cm", 6: "m"}
+
+# Exact metres per unit (by definition; avoids 12 * 0.0254 float noise).
+_EXACT_LENGTH: dict[str, float] = {
+    "inch": 0.0254,
+    "ft": 0.3048,
+    "mm": 1e-3,
+    "cm": 1e-2,
+    "m": 1.0,
+}
+_LENGTH_ALIASES: dict[str, str] = {
+    "in": "inch", "inch": "inch", "inches": "inch", '"': "inch",
+    "ft": "ft", "foot": "ft", "feet": "ft", "'": "ft",
+    "mm": "mm", "millimeter": "mm", "millimetre": "mm", "millimeters": "mm", "millimetres": "mm",
+    "cm": "cm", "centimeter": "cm", "centimetre": "cm", "centimeters": "cm", "centimetres": "cm",
+    "m": "m", "meter": "m", "metre": "m", "meters": "m", "metres": "m",
+}
+
+_MAX_TEXT = 80
+_POWER = re.compile(r"\*\*|\^")
+_SMALL_EXPONENT = re.compile(r"\s*\(?\s*[-+]?\d{1,2}(?:\.\d+)?(?![\d.])\s*\)?")
+_CHAINED_POWER = re.compile(r"\s*(\*\*|\^)")
+_HAS_DIGIT = re.compile(r"\d")
+
+
+@lru_cache(maxsize=1)
+def registry():
+    """The process-wide pint ``UnitRegistry`` (created on first use)."""
+    import pint
+
+    return pint.UnitRegistry()
+
+
+class _ParseFailure(Exception):
+    """Internal: a message without the entity context."""
+
+
+def _check_text(text: str) -> str:
+    t = text.strip()
+    if not t:
+        raise _ParseFailure("empty value")
+    if len(t) > _MAX_TEXT:
+        raise _ParseFailure(f"value longer than {_MAX_TEXT} characters")
+    if not _HAS_DIGIT.search(t):
+        raise _ParseFailure(f"no number in {t!r}")
+    for m in _POWER.finditer(t):
+        e = _SMALL_EXPONENT.match(t, m.end())
+        if e is None or _CHAINED_POWER.match(t, e.end()):
+            raise _ParseFailure(f"exponent too large or not a plain number in {t!r}")
+    return t
+
+
+@lru_cache(maxsize=256)
+def _unit_si_factor(unit: str, kind: str) -> float:
+    """SI value of one ``unit`` (which must have the dimension of ``kind``)."""
+    import pint
+
+    ureg = registry()
+    si, what, example = KINDS[kind]
+    try:
+        q = ureg.parse_expression(unit) if unit else ureg.Quantity(1.0)
+        if not isinstance(q, ureg.Quantity):
+            q = ureg.Quantity(float(q))
+        return float(q.to(si).magnitude)
+    except pint.DimensionalityError:
+        raise _ParseFailure(f"unit {unit!r} is not {what} (e.g. '{example}')") from None
+    except Exception as exc:  # pint raises many kinds for bad text
+        raise _ParseFailure(f"unknown unit {unit!r} ({exc})") from None
+
+
+
+def _describe_dimension(q) -> str:
+    """A short human name of a quantity's dimension, for error messages."""
+    for kind, (si, what, _) in KINDS.items():
+        try:
+            q.to(si)
+            return what
+        except Exception:
+            continue
+    return f"of dimension {q.dimensionality}"
+
+
+@lru_cache(maxsize=8192)
+def _parse_cached(text: str, kind: str, default_unit: str) -> float:
+    import pint
+
+    if kind not in KINDS:
+        raise ValueError(f"unknown quantity kind {kind!r}; expected one of {sorted(KINDS)}")
+    t = text.strip()
+    # fast path: a bare number
+    try:
+        bare = float(t)
+    except ValueError:
+        bare = None
+    if bare is not None:
+        value = bare * _unit_si_factor(default_unit, kind)
+    else:
+        t = _check_text(t)
+        ureg = registry()
+        si, what, example = KINDS[kind]
+        try:
+            q = ureg.parse_expression(t)
+        except Exception as exc:
+            raise _ParseFailure(f"cannot read {t!r} as a quantity ({type(exc).__name__}: {exc})") from None
+        if not isinstance(q, ureg.Quantity):
+            q = ureg.Quantity(float(q))
+        if q.unitless:
+            value = float(q.magnitude) * _unit_si_factor(default_unit, kind)
+        else:
+            try:
+                value = float(q.to(si).magnitude)
+            except pint.DimensionalityError:
+                raise _ParseFailure(
+                    f"{t!r} is {_describe_dimension(q)}, expected {what} (e.g. '{example}')"
+                ) from None
+            except Exception as exc:
+                raise _ParseFailure(f"cannot convert {t!r} ({exc})") from None
+    if not math.isfinite(value):
+        raise _ParseFailure(f"{text.strip()!r} is not a finite number")
+    return value
+
+
+def parse_quantity(
+    text: str,
+    kind: str,
+    *,
+    default_unit: str,
+    handle: str = "",
+    layer: str = "",
+    tag: str = "",
+) -> float:
+    """Parse attribute text as a physical quantity and return it in SI units.
+
+    Parameters
+    ----------
+    text : attribute text, e.g. ``"2 kip/ft"`` or a bare ``"12.5"``
+    kind : one of :data:`KINDS` (force, distributed, moment, length, stress,
+        area, inertia, spring_linear, spring_rotational, angle)
+    default_unit : pint unit text applied to a bare number (``"kN"``,
+        ``"(kN)/(ft)"``, ``"deg"``, ...)
+    handle, layer, tag : where the text came from, for the error message
+
+    Returns
+    -------
+    float in the SI unit of ``kind`` (N, N/m, N*m, m, Pa, m**2, m**4, N/m,
+    N*m/rad, rad).
+
+    Raises
+    ------
+    UnitError
+        Empty, NaN or infinite values, text pint cannot read, or a unit of
+        the wrong dimension; the message names handle, layer and tag.
+    """
+    try:
+        return _parse_cached(str(text), kind, default_unit)
+    except _ParseFailure as exc:
+        what = KINDS[kind][1]
+        label = f"attribute {tag}: " if tag else ""
+        raise UnitError(
+            f"{label}{exc}",
+            handle=handle,
+            layer=layer,
+            hint=f"write {what} with a unit, e.g. '{KINDS[kind][2]}'",
+        ) from None
+
+
+def unit_factor(unit: str, kind: str) -> float:
+    """SI value of one ``unit`` of the given kind, e.g. ``unit_factor("kip", "force")``.
+
+    Raises ``UnitError`` when the unit is unknown or of another dimension.
+    """
+    try:
+        return _unit_si_factor(unit, kind)
+    except _ParseFailure as exc:
+        raise UnitError(str(exc), hint=f"use a unit of {KINDS[kind][1]}") from None
+
+
+def normalise_length_unit(name: str) -> str:
+    """Short name of a length unit (``"feet"`` -> ``"ft"``, ``"in"`` -> ``"inch"``).
+
+    Unknown names are returned stripped but otherwise unchanged after
+    checking that pint reads them as a length (``UnitError`` if not).
+    """
+    key = name.strip()
+    short = _LENGTH_ALIASES.get(key.lower())
+    if short:
+        return short
+    unit_factor(key, "length")
+    return key
+
+
+def length_unit_scale(name: str) -> float:
+    """Metres per one ``name`` (exact for inch, ft, mm, cm, m)."""
+    short = normalise_length_unit(name)
+    if short in _EXACT_LENGTH:
+        return _EXACT_LENGTH[short]
+    return unit_factor(short, "length")
