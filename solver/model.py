@@ -20,8 +20,8 @@ A simply supported 6 m beam under 10 kN/m (SI units):
 >>> f = Frame()
 >>> a, b = f.add_node(0.0, 0.0), f.add_node(6.0, 0.0)
 >>> m = f.add_member(a, b, Section(E=200e9, A=5e-3, I=8e-5))
->>> f.add_support(a, "pin"); f.add_support(b, "roller")
->>> f.add_load(DistributedLoad(m.id, q1=(0.0, -10e3), case="D"))
+>>> _ = f.add_support(a, "pin"); _ = f.add_support(b, "roller")
+>>> _ = f.add_load(DistributedLoad(m.id, q1=(0.0, -10e3), case="D"))
 >>> res = solve(f)["D"]
 >>> round(res.members[m.id].moment(3.0) / 1e3, 6)   # wL^2/8 = 45 kN*m
 45.0
