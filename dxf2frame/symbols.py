@@ -35,7 +35,7 @@ BLOCK_ATTRIBUTES: dict[str, dict[str, str]] = {
     "HINGE": {"MEMBERS": ""},
     "FORCE": {"P": "", "ANGLE": "", "CASE": "D"},
     "COUPLE": {"M": "", "CASE": "D"},
-    "UDL": {"W": "", "W1": "", "W2": "", "FROM": "", "TO": "", "DIR": "GRAVITY", "BASIS": "LENGTH", "CASE": "D"},
+    "UDL": {"W": "", "W1": "", "W2": "", "FROM": "", "TO": "", "DIR": "", "BASIS": "", "CASE": "D"},
 }
 
 #: input layers and their colours (ACI) in a fresh template
