@@ -11,7 +11,9 @@ from concurrent.futures import ProcessPoolExecutor, as_completed
 from pathlib import Path
 from typing import Callable, Iterable
 
-from .pipeline import EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_OK, EXIT_UNSTABLE, FileOutcome, SolveRequest, solve_file
+from .errors import InputFileError
+from .pipeline import (EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_OK, EXIT_UNSTABLE, FileOutcome, SolveRequest,
+                       output_paths, solve_file)
 
 __all__ = ["expand_inputs", "run_batch", "solve_many", "summary_table", "batch_exit_code"]
 
@@ -37,6 +39,20 @@ def _default_workers() -> int:
         return os.cpu_count() or 1
 
 
+def _check_output_clash(files: list[Path], req: SolveRequest) -> None:
+    """Two inputs whose results would land on the same path (same name in
+    different folders, one --out folder) would overwrite each other:
+    refuse before solving anything."""
+    seen: dict[Path, Path] = {}
+    for f in files:
+        target = output_paths(Path(f), req)["drawing"].resolve()
+        if target in seen:
+            raise InputFileError(
+                f"{seen[target]} and {f} would both write {target.name}; "
+                "give them different names or leave out --out (results then go beside each drawing)")
+        seen[target] = Path(f)
+
+
 def solve_many(
     files: list[Path],
     req: SolveRequest,
@@ -53,6 +69,7 @@ def solve_many(
     ``on_done(outcome, done_count, total)`` is called as each file finishes.
     """
     n = len(files)
+    _check_output_clash(files, req)
     results: dict[int, FileOutcome] = {}
     if scheduler:
         from .distributed import solve_on_dask
