@@ -10,6 +10,7 @@ from collections import Counter
 from pathlib import Path
 
 from . import CAUTION
+from .errors import one_line
 
 __all__ = ["run_check", "run_solve", "run_compare", "run_explain", "run_template"]
 
@@ -28,7 +29,7 @@ def run_check(args) -> int:
     settings = load_settings(args.settings, args.drawing)
     model = read_drawing(args.drawing, settings, length_unit=args.length_unit)
     frame = model.frame
-    det = check(frame)
+    det = check(frame, unit_scale=model.unit_scale)
     loads_per_case = Counter(ld.case for ld in frame.loads)
     kinds = Counter(s.kind for s in frame.supports)
     _say(
@@ -49,7 +50,7 @@ def run_check(args) -> int:
         f"detail       {det.detail}",
     )
     for w in list(model.warnings) + list(det.warnings):
-        _say(f"warning      {w}")
+        _say(f"warning      {one_line(w)}")
     return EXIT_UNSTABLE if det.status == "unstable" else EXIT_OK
 
 

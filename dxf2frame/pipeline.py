@@ -6,6 +6,8 @@ whose status says what happened, so one bad drawing cannot stop a batch.
 """
 from __future__ import annotations
 
+import contextlib
+import errno
 import math
 import os
 import shutil
@@ -14,11 +16,14 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import numpy as np
+
 from solver import CaseResult, Determinacy, check, combine, solve
 from solver.combinations import builtin_combinations, format_combination, parse_combination
+from solver.errors import MissingSectionError, SolverError, UnstableFrameError
 
 from .drawing_model import DrawingModel
-from .errors import Dxf2FrameError, SettingsError
+from .errors import AnalysisError, Dxf2FrameError, InputFileError, SettingsError, one_line
 from .reader import read_drawing
 from .settings import Settings, load_settings
 
@@ -30,6 +35,7 @@ __all__ = [
     "combination_specs",
     "solve_file",
     "output_paths",
+    "check_outputs",
     "EXIT_OK",
     "EXIT_BAD_INPUT",
     "EXIT_UNSTABLE",
@@ -87,6 +93,72 @@ def combination_specs(settings: Settings, present: list[str]) -> list[tuple[str,
     return specs
 
 
+def _member_where(model: DrawingModel, ids) -> tuple[str, str]:
+    """(handle, layer) of the first member named in ``ids`` (for messages)."""
+    for mid in ids:
+        for m in model.frame.members:
+            if m.id == mid or m.group == mid:
+                return m.handle, m.layer
+    return "", ""
+
+
+def _solve_checked(model: DrawingModel, det: Determinacy) -> dict[str, CaseResult]:
+    """``solver.solve`` with its errors turned into bad-input errors that name
+    the drawing entity, and every number of the results checked finite (a
+    nearly singular model must not pass as an answer)."""
+    frame = model.frame
+    try:
+        cases = solve(frame, determinate=det.status == "determinate")
+    except MissingSectionError as exc:
+        handle, layer = _member_where(model, exc.members)
+        names = ", ".join(exc.members[:6]) + (" ..." if len(exc.members) > 6 else "")
+        raise AnalysisError(
+            f"the frame is statically indeterminate and {len(exc.members) or 'some'} member(s) have no "
+            f"section ({names}); their stiffness decides the forces",
+            handle=handle or exc.handle, layer=layer,
+            hint="give E, A and I under [sections.default] (or per layer) in dxf2frame.toml",
+        ) from None
+    except UnstableFrameError as exc:
+        where = ", ".join(f"({frame.nodes[n].x / model.unit_scale:.6g}, {frame.nodes[n].y / model.unit_scale:.6g})"
+                          for n in exc.nodes[:4] if 0 <= n < len(frame.nodes))
+        raise AnalysisError(
+            "the stiffness of the frame is (nearly) singular although the determinacy check found it stable"
+            + (f"; no stiffness at the joint(s) {where} {model.length_unit}" if where else ""),
+            handle=exc.handle,
+            hint="look for very short members, members of very different sizes, or springs of very "
+                 "different stiffness there",
+        ) from None
+    except SolverError as exc:
+        handle, layer = _member_where(model, exc.members)
+        raise AnalysisError(exc.message, handle=exc.handle or handle, layer=layer) from None
+    for res in cases.values():
+        bad = _first_non_finite(res)
+        if bad is not None:
+            handle, layer = _member_where(model, [bad]) if bad else ("", "")
+            raise AnalysisError(
+                f"load case {res.name}: the analysis gave numbers that are not finite"
+                + (f" in member {bad}" if bad else " in the reactions or displacements"),
+                handle=handle, layer=layer,
+                hint="the model is numerically ill-conditioned; look for very short members or extreme "
+                     "values in the sections, springs or loads",
+            )
+    return cases
+
+
+def _first_non_finite(res: CaseResult) -> str | None:
+    """Id of the first member whose end forces are not finite, "" for a
+    reaction or displacement that is not, None when all are finite."""
+    for mid, mr in res.members.items():
+        if not np.all(np.isfinite(np.asarray(mr.end_forces, dtype=float))):
+            return mid
+    for r in res.reactions:
+        if not all(math.isfinite(v) for v in (r.fx, r.fy, r.m)):
+            return ""
+    if res.displacements is not None and not np.all(np.isfinite(res.displacements)):
+        return ""
+    return None
+
+
 def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | None = None) -> Analysis:
     """Read, check and (when stable) solve one drawing.
 
@@ -101,14 +173,14 @@ def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | 
     t["read"] = time.perf_counter() - t0
 
     t0 = time.perf_counter()
-    det = check(model.frame)
+    det = check(model.frame, unit_scale=model.unit_scale)
     t["check"] = time.perf_counter() - t0
     analysis = Analysis(model, settings, det, timings=t)
     if det.status == "unstable":
         return analysis
 
     t0 = time.perf_counter()
-    cases = solve(model.frame, determinate=det.status == "determinate")
+    cases = _solve_checked(model, det)
     t["solve"] = time.perf_counter() - t0
 
     t0 = time.perf_counter()
@@ -163,6 +235,7 @@ class FileOutcome:
     seconds: float = 0.0
     outputs: list[str] = field(default_factory=list)
     timings: dict[str, float] = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)
 
 
 def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
@@ -208,18 +281,109 @@ def _governing(report: dict) -> dict[str, float | None]:
     return {"max_m": big["m"], "max_v": big["v"], "max_n": big["n"], "worst_deflection_ratio": ratio}
 
 
+def _same_file(a: Path, b: Path) -> bool:
+    """True when ``a`` and ``b`` name the same file (symlinks, hard links,
+    ``..`` and case-insensitive file systems included)."""
+    try:
+        if a.exists() and b.exists():
+            return os.path.samefile(a, b)
+        return a.resolve() == b.resolve()
+    except OSError:
+        return a.absolute() == b.absolute()
+
+
+def check_outputs(source: Path, paths: dict[str, Path]) -> None:
+    """Refuse output paths that would overwrite the input drawing, each
+    other, or an existing folder, and an output folder that is a file.
+
+    Raises :class:`~dxf2frame.errors.SettingsError` (bad input, exit 2)
+    before anything is computed or written.
+    """
+    seen: dict[Path, str] = {}
+    for key, target in paths.items():
+        if _same_file(target, source):
+            flag = "--report" if key == "report" else "--out"
+            raise SettingsError(f"the {key} output {target} would overwrite the input drawing; choose another {flag}")
+        if target.is_dir():
+            raise SettingsError(f"the {key} output {target} is an existing folder; choose another --out")
+        norm = target.absolute()
+        if norm in seen:
+            raise SettingsError(f"the {seen[norm]} and the {key} would both be written to {target}")
+        seen[norm] = key
+    for folder in {t.parent for t in paths.values()}:
+        for parent in (folder, *folder.parents):
+            if parent.exists():
+                if not parent.is_dir():
+                    raise InputFileError(f"cannot write into {folder}: {parent} is a file, not a folder")
+                break
+
+
+def _make_folders(folder: Path) -> list[Path]:
+    """``mkdir -p``; returns the folders it created, outermost first."""
+    missing = []
+    for parent in (folder, *folder.parents):
+        if parent.exists():
+            break
+        missing.append(parent)
+    folder.mkdir(parents=True, exist_ok=True)
+    return missing[::-1]
+
+
+def _remove(path: Path) -> None:
+    if path.is_dir() and not path.is_symlink():
+        shutil.rmtree(path, ignore_errors=True)
+    else:
+        with contextlib.suppress(OSError):
+            path.unlink()
+
+
+def _move_into_place(staged: Path, target: Path) -> None:
+    """Rename ``staged`` to ``target`` (atomic on one file system; across file
+    systems a hidden copy beside the target is renamed)."""
+    if staged.is_dir() and target.exists():
+        shutil.rmtree(target)
+    try:
+        os.replace(staged, target)
+    except OSError as exc:
+        if exc.errno != errno.EXDEV:
+            raise
+        tmp = target.with_name(f".{target.name}.{os.getpid()}.tmp")
+        try:
+            if staged.is_dir():
+                shutil.copytree(staged, tmp)
+            else:
+                shutil.copy2(staged, tmp)
+            os.replace(tmp, target)
+        except BaseException:
+            _remove(tmp)
+            raise
+
+
 def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
-    """Run the whole ``solve`` command on one drawing; never raises for bad input."""
+    """Run the whole ``solve`` command on one drawing; never raises for bad input.
+
+    Outputs are written into a hidden staging folder beside the result
+    drawing and moved into place only when all of them are complete; on any
+    failure the staging folder, outputs already moved and folders created
+    for them are removed, so bad input leaves nothing behind.  The input
+    drawing is only read.
+    """
     from . import report as report_mod  # writers are imported lazily: check-only runs stay light
     from . import writer, preview
 
     source = Path(source)
     t_start = time.perf_counter()
     outcome = FileOutcome(source=str(source), status="ok", exit_code=EXIT_OK)
+    created: list[Path] = []
+    moved: list[Path] = []
+    done = False
     try:
         settings = load_settings(req.settings_path, source)
+        paths = output_paths(source, req)
+        check_outputs(source, paths)
         analysis = analyse(source, settings, length_unit=req.length_unit)
         model, det = analysis.model, analysis.determinacy
+        outcome.warnings = list(model.warnings) + list(det.warnings)
         force_u, length_u = _report_units(req, model, settings)
         outcome.units = (force_u, length_u)
         outcome.determinacy, outcome.degree = det.status, det.degree
@@ -230,11 +394,8 @@ def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             probes=req.probes, deflection_limits=settings.deflection_limits(),
         )
         analysis.timings["report"] = time.perf_counter() - t0
-        paths = output_paths(source, req)
         final = paths["drawing"].parent
-        final.mkdir(parents=True, exist_ok=True)
-        if paths["drawing"].resolve() == source.resolve():
-            raise SettingsError("the output drawing would overwrite the input; choose another --out")
+        created += _make_folders(final)
         # everything is written into a staging folder first and moved into
         # place at the end, so a failure leaves no partial output
         staging = Path(tempfile.mkdtemp(prefix=".dxf2frame-", dir=final))
@@ -271,28 +432,34 @@ def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 staged["sheets"] = sheet_dir
             for key in written:
                 target = paths[key]
-                target.parent.mkdir(parents=True, exist_ok=True)
-                if staged[key].is_dir() and target.exists():
-                    shutil.rmtree(target)
-                os.replace(staged[key], target)
-                outcome.outputs.append(str(target))
+                created += _make_folders(target.parent)
+                _move_into_place(staged[key], target)
+                moved.append(target)
+            outcome.outputs = [str(t) for t in moved]
         finally:
             shutil.rmtree(staging, ignore_errors=True)
 
         outcome.timings = analysis.timings
         if not analysis.stable:
             outcome.status, outcome.exit_code = "unstable", EXIT_UNSTABLE
-            outcome.message = det.detail
+            outcome.message = one_line(det.detail)
         else:
             for k, v in _governing(rep).items():
                 setattr(outcome, k, v)
             outcome.message = f"{det.status}" + (f", degree {det.degree}" if det.degree else "")
+        done = True
     except Dxf2FrameError as exc:
-        outcome.status, outcome.exit_code, outcome.message = "bad input", EXIT_BAD_INPUT, str(exc)
-        outcome.outputs = []
+        outcome.status, outcome.exit_code, outcome.message = "bad input", EXIT_BAD_INPUT, one_line(str(exc))
     except Exception as exc:  # noqa: BLE001 - a batch must survive anything
         outcome.status, outcome.exit_code = "internal error", EXIT_INTERNAL
-        outcome.message = f"{type(exc).__name__}: {exc}"
-        outcome.outputs = []
+        outcome.message = one_line(f"{type(exc).__name__}: {exc}")
+    finally:
+        if not done:  # also on KeyboardInterrupt: a finished set of outputs or none
+            for target in reversed(moved):
+                _remove(target)
+            for folder in reversed(created):
+                with contextlib.suppress(OSError):
+                    folder.rmdir()  # only if empty
+            outcome.outputs = []
     outcome.seconds = time.perf_counter() - t_start
     return outcome

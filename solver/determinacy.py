@@ -61,7 +61,7 @@ How the null space is found
        at most ``dense_limit`` unknowns (default :data:`DENSE_LIMIT`).
        Larger parts: ``K0 = B^T B`` (sparse, symmetric positive
        semidefinite) is factorised once (sparse LU) with a small shift,
-       ``K0 + 1e-9 * lam_bound * I`` (lam_bound: Gershgorin bound of its
+       ``K0 + 1e-12 * lam_bound * I`` (lam_bound: Gershgorin bound of its
        largest eigenvalue), and a block of vectors is driven into its lowest
        eigenvectors by shifted inverse (subspace) iteration; the singular
        values of ``B @ X`` then decide, and the block doubles while every
@@ -73,8 +73,11 @@ How the null space is found
        Tolerance, both paths: a singular value counts as zero below
        ``max(10 * max(shape) * eps, 1e-10) * sigma_max`` (sigma_max by power
        iteration on the sparse path).  The floor treats hinges collinear to
-       within the rounding of drawing coordinates as collinear; a stable
-       frame whose ratio is below 1e-7 gets a near-mechanism warning.
+       within the rounding of drawing coordinates as collinear: it is
+       raised to ``100 * eps * max|coordinate| / Lc`` for frames drawn far
+       from the origin, whose coordinate differences carry that relative
+       rounding.  A stable frame whose ratio is below 1e-7 gets a
+       near-mechanism warning.
 
 Mode shapes
     Each mechanism is returned as an ``(n_nodes, 3)`` array of global
@@ -119,10 +122,11 @@ DENSE_LIMIT = 300
 
 _EPS = float(np.finfo(float).eps)
 _SVD_FACTOR = 10.0          # safety factor over max(shape) * eps * sigma_max
-_SVD_FLOOR = 1e-10          # relative floor of the dense rank tolerance
-_SHIFT = 1e-9               # shift of the sparse factorisation, * lam_bound
-_ITERATIONS = 6             # shifted inverse iterations per block
-_MAX_BLOCK = 512            # largest block of the sparse null-space search
+_SVD_FLOOR = 1e-10          # relative floor of the rank tolerance
+_COORD_FACTOR = 100.0       # floor >= this * eps * max|coordinate| / Lc
+_SHIFT = 1e-12              # shift of the sparse factorisation, * lam_bound
+_ITERATIONS = 4             # shifted inverse iterations per block
+_MAX_BLOCK = 256            # largest block of the sparse null-space search
 _MAX_MODES = 50             # mode shapes kept (the count is always complete)
 _NEAR_RATIO = 1e-7          # sigma_min / sigma_max below this: near-mechanism warning
 _MOVE_TOL = 1e-6            # a normalised translation above this "moves"
@@ -211,6 +215,7 @@ class _Geometry:
     r: int                  # reaction components
     n_rigid_ends: np.ndarray    # (n,) rigid member ends at each node
     n_ends: np.ndarray          # (n,) member ends at each node
+    floor: float                # relative floor of the rank tolerance (see module docstring)
 
     @property
     def pure_pin(self) -> np.ndarray:
@@ -284,6 +289,7 @@ def _geometry(frame: Frame) -> _Geometry:
         r=r,
         n_rigid_ends=rigid,
         n_ends=ends,
+        floor=max(_SVD_FLOOR, _COORD_FACTOR * _EPS * float(np.abs(xy).max()) / Lc),
     )
 
 
@@ -342,6 +348,8 @@ def _rows(cols_a, cx_a, cy_a, d, cols_b=None, cx_b=None, cy_b=None):
 
 
 def _reduce(geo: _Geometry) -> _Reduced:
+    """Contract rigid clusters and assemble the compatibility rows (see the
+    module docstring, step 1)."""
     n, m = len(geo.xy), len(geo.start)
     has_rigid = ~(geo.rel_s & geo.rel_e)
     # graph of rigid member-end connections: vertices = nodes, then members
@@ -402,9 +410,6 @@ def _reduce(geo: _Geometry) -> _Reduced:
         has = n_free_dof > j
         dof_node[free_start[has] + j] = free[has]
 
-    red = _Reduced(sp.csr_matrix((0, n_dof)), np.zeros(0, dtype=np.int64), n_dof, node_cluster,
-                   member_cluster, ref, rad, node_cols, node_cx, node_cy, node_rcol, node_rcoef, dof_node)
-
     blocks: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []  # (cols, vals, row_node)
     # bars: no stretch
     bars = np.flatnonzero(~has_rigid)
@@ -458,9 +463,8 @@ def _reduce(geo: _Geometry) -> _Reduced:
     else:
         A = sp.csr_matrix((0, n_dof))
         row_node = np.zeros(0, dtype=np.int64)
-    red.A = A
-    red.row_node = row_node
-    return red
+    return _Reduced(A, row_node, n_dof, node_cluster, member_cluster, ref, rad, node_cols, node_cx, node_cy,
+                    node_rcol, node_rcoef, dof_node)
 
 
 # ---------------------------------------------------------------------------
@@ -468,7 +472,7 @@ def _reduce(geo: _Geometry) -> _Reduced:
 # ---------------------------------------------------------------------------
 
 
-def _null_space_dense(A: np.ndarray) -> tuple[np.ndarray, float | None]:
+def _null_space_dense(A: np.ndarray, floor: float = _SVD_FLOOR) -> tuple[np.ndarray, float | None]:
     """Orthonormal null-space basis (n, k) of a dense matrix and the ratio
     sigma_min / sigma_max of the smallest singular value counted nonzero."""
     m, n = A.shape
@@ -477,13 +481,13 @@ def _null_space_dense(A: np.ndarray) -> tuple[np.ndarray, float | None]:
     _, s, vt = np.linalg.svd(A, full_matrices=m < n)
     if s[0] == 0.0:
         return np.eye(n), None
-    tol = max(_SVD_FACTOR * max(m, n) * _EPS, _SVD_FLOOR) * s[0]
+    tol = max(_SVD_FACTOR * max(m, n) * _EPS, floor) * s[0]
     rank = int(np.count_nonzero(s > tol))
     ratio = float(s[rank - 1] / s[0]) if rank else None
     return vt[rank:].T.copy(), ratio
 
 
-def _null_space_sparse(A: sp.csr_matrix, lower: int = 0) -> tuple[np.ndarray, float | None, bool]:
+def _null_space_sparse(A: sp.csr_matrix, lower: int = 0, floor: float = _SVD_FLOOR) -> tuple[np.ndarray, float | None, bool]:
     """Null space of a sparse matrix by shifted inverse block iteration on
     ``A^T A`` (see the module docstring).
 
@@ -509,9 +513,9 @@ def _null_space_sparse(A: sp.csr_matrix, lower: int = 0) -> tuple[np.ndarray, fl
         x = K @ x
         x /= np.linalg.norm(x) or 1.0
     sigma_max = math.sqrt(max(float(x @ (K @ x)), _EPS * lam_bound))
-    tol = max(_SVD_FACTOR * max(m, n) * _EPS, _SVD_FLOOR) * sigma_max
+    tol = max(_SVD_FACTOR * max(m, n) * _EPS, floor) * sigma_max
     lu = splu((K + (_SHIFT * lam_bound) * sp.identity(n, format="csc")).tocsc(), permc_spec="MMD_AT_PLUS_A")
-    k = min(n, max(8, lower + 8))
+    k = min(n, max(8, lower + 8), _MAX_BLOCK)
     while True:
         X, _ = np.linalg.qr(rng.standard_normal((n, k)))
         for _ in range(_ITERATIONS):
@@ -527,13 +531,6 @@ def _null_space_sparse(A: sp.csr_matrix, lower: int = 0) -> tuple[np.ndarray, fl
         if k >= _MAX_BLOCK:
             return X @ vt[null].T, None, True
         k = min(n, 2 * k, _MAX_BLOCK)
-
-
-def _null_space_of(A: sp.csr_matrix, dense_limit: int, lower: int) -> tuple[np.ndarray, float | None, bool]:
-    if A.shape[1] <= dense_limit:
-        N, ratio = _null_space_dense(A.toarray())
-        return N, ratio, False
-    return _null_space_sparse(A, lower)
 
 
 def _localise(Z: np.ndarray) -> np.ndarray:
@@ -565,8 +562,18 @@ class _Split:
     members: list[np.ndarray]
     dofs: list[np.ndarray]          # global unknowns of each part
     sup: list[np.ndarray]           # indices into geo.sup_node
-    mats: list[sp.csr_matrix]       # rows of each part on its own unknowns
+    entries: list[tuple[np.ndarray, np.ndarray, np.ndarray, int]]  # (row, col, value, n_rows), part-local
     local: np.ndarray               # (n_dof,) position of an unknown within its part
+
+    def matrix(self, c: int, dense: bool) -> np.ndarray | sp.csr_matrix:
+        """Rows of part ``c`` on its own unknowns, dense or sparse."""
+        r, col, v, n_rows = self.entries[c]
+        shape = (n_rows, len(self.dofs[c]))
+        if dense:
+            A = np.zeros(shape)
+            A[r, col] = v
+            return A
+        return sp.csr_matrix((v, (r, col)), shape=shape)
 
 
 def _split(geo: _Geometry, red: _Reduced, comp_of_node: np.ndarray, n_comp: int) -> _Split:
@@ -581,10 +588,9 @@ def _split(geo: _Geometry, red: _Reduced, comp_of_node: np.ndarray, n_comp: int)
     for r in rows:
         local_row[r] = np.arange(len(r))
     coo = red.A.tocoo()
-    entries = _groups(dof_comp[coo.col], n_comp)
-    mats = [
-        sp.csr_matrix((coo.data[e], (local_row[coo.row[e]], local[coo.col[e]])), shape=(len(rows[c]), len(dofs[c])))
-        for c, e in enumerate(entries)
+    entries = [
+        (local_row[coo.row[e]], local[coo.col[e]], coo.data[e], len(rows[c]))
+        for c, e in enumerate(_groups(dof_comp[coo.col], n_comp))
     ]
     sup = _groups(comp_of_node[geo.sup_node], n_comp) if len(geo.sup_node) else [np.zeros(0, dtype=np.int64)] * n_comp
     return _Split(
@@ -592,7 +598,7 @@ def _split(geo: _Geometry, red: _Reduced, comp_of_node: np.ndarray, n_comp: int)
         members=_groups(comp_of_node[geo.start], n_comp),
         dofs=dofs,
         sup=sup,
-        mats=mats,
+        entries=entries,
         local=local,
     )
 
@@ -617,10 +623,11 @@ class _Part:
     ratio: float | None
     truncated: bool
     parallel_dir: tuple[float, float] | None = None
+    unresolved: int = 0     # mechanisms known from the count but beyond the search block
 
     @property
     def mechanisms(self) -> int:
-        return len(self.modes)
+        return len(self.modes) + self.unresolved
 
 
 def _rigid_params(geo: _Geometry, red: _Reduced, nodes: np.ndarray, sup: np.ndarray, local: np.ndarray,
@@ -667,28 +674,33 @@ def _rigid_params(geo: _Geometry, red: _Reduced, nodes: np.ndarray, sup: np.ndar
     return S, G, centre, radius
 
 
-def _small_null(S: np.ndarray, p: int) -> np.ndarray:
-    """Orthonormal null space (p, k) of a small dense restraint matrix."""
+def _small_null(S: np.ndarray, p: int, scale: float | None = None, floor: float = _SVD_FLOOR) -> np.ndarray:
+    """Orthonormal null space (p, k) of a small dense restraint matrix;
+    ``scale`` replaces its largest singular value in the tolerance (so the
+    columns of a matrix can be tested against the whole matrix's scale)."""
     if S.shape[0] == 0:
         return np.eye(p)
     _, s, vt = np.linalg.svd(S, full_matrices=True)
-    tol = max(_SVD_FACTOR * max(S.shape) * _EPS, _SVD_FLOOR) * s[0]
+    tol = max(_SVD_FACTOR * max(S.shape) * _EPS, floor) * (s[0] if scale is None else scale)
     rank = int(np.count_nonzero(s > tol))
     return vt[rank:].T
 
 
 def _part(geo: _Geometry, red: _Reduced, split: _Split, c: int, dense_limit: int) -> _Part:
-    nodes, dofs, A = split.nodes[c], split.dofs[c], split.mats[c]
+    nodes, dofs = split.nodes[c], split.dofs[c]
+    dense = len(dofs) <= dense_limit
+    A = split.matrix(c, dense)
     S, G, centre, radius = _rigid_params(geo, red, nodes, split.sup[c], split.local, len(dofs))
     p = G.shape[1]
     supported = S.shape[0] > 0
-    Qp = _small_null(S, p)                    # rigid mechanisms in parameter space
+    Qp = _small_null(S, p, floor=geo.floor)   # rigid mechanisms in parameter space
     modes: list[_Mode] = []
     parallel_dir = None
     if Qp.shape[1] == p or not supported:
         modes = [_Mode("free", G @ Qp[:, j]) for j in range(Qp.shape[1])]
     else:
-        trans = _small_null(S[:, :2], 2)      # translations every reaction is normal to
+        # translations every reaction is normal to (same tolerance as for S)
+        trans = _small_null(S[:, :2], 2, scale=float(np.linalg.norm(S, 2)), floor=geo.floor)
         for j in range(trans.shape[1]):
             t = np.array(_unit(trans[:, j]))
             q = np.zeros(p)
@@ -714,12 +726,17 @@ def _part(geo: _Geometry, red: _Reduced, split: _Split, c: int, dense_limit: int
         R_local = np.column_stack([md.z for md in modes])
         _, _, piv = sla.qr(R_local.T, mode="economic", pivoting=True)
         E = sp.csr_matrix((np.ones(n_rigid), (np.arange(n_rigid), piv[:n_rigid])), shape=(n_rigid, len(dofs)))
-        Ar = sp.vstack([A, E]).tocsr()
+        Ar = np.vstack([A, E.toarray()]) if dense else sp.vstack([A, E]).tocsr()
     lower = max(0, len(dofs) - Ar.shape[0])
-    Z, ratio, truncated = _null_space_of(Ar, dense_limit, lower)
+    if dense:
+        Z, ratio = _null_space_dense(Ar, geo.floor)
+        truncated = False
+    else:
+        Z, ratio, truncated = _null_space_sparse(Ar, lower, geo.floor)
     Z = _localise(Z)
     modes += [_Mode("internal", Z[:, j]) for j in range(Z.shape[1])]
-    return _Part(nodes, split.members[c], dofs, modes, supported, ratio, truncated, parallel_dir)
+    unresolved = max(0, lower - Z.shape[1]) if truncated else 0
+    return _Part(nodes, split.members[c], dofs, modes, supported, ratio, truncated, parallel_dir, unresolved)
 
 
 # ---------------------------------------------------------------------------
