@@ -5,18 +5,34 @@ quantities are in one consistent unit system chosen by the caller.
 """
 from .model import *  # noqa: F401,F403
 from .model import __all__ as _model_all
-
-__all__ = list(_model_all)
 from .errors import LoadError, MissingSectionError, SolverError, SupportError, UnstableFrameError
-from .forces import MemberResult
-from .results import CaseResult, Reaction, combine, envelope
+from .forces import DeflectionCheck, LoadSet, MemberLayout, MemberResult, MemberResults
+from .results import CaseResult, Reaction, combine, combine_many, envelope, reaction_envelope
 from .combinations import builtin_combinations, format_combination, parse_combination
 from .stiffness import solve
 from .determinacy import check, Determinacy
 
-__all__ += [
-    "solve", "check", "Determinacy", "CaseResult", "Reaction", "MemberResult",
-    "combine", "envelope",
-    "parse_combination", "format_combination", "builtin_combinations",
-    "SolverError", "UnstableFrameError", "MissingSectionError", "LoadError", "SupportError",
+__all__ = list(_model_all) + [
+    "solve",
+    "CaseResult",
+    "Reaction",
+    "MemberResult",
+    "MemberResults",
+    "MemberLayout",
+    "LoadSet",
+    "DeflectionCheck",
+    "combine",
+    "combine_many",
+    "envelope",
+    "reaction_envelope",
+    "parse_combination",
+    "format_combination",
+    "builtin_combinations",
+    "SolverError",
+    "UnstableFrameError",
+    "MissingSectionError",
+    "LoadError",
+    "SupportError",
+    "check",
+    "Determinacy",
 ]

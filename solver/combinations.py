@@ -1,40 +1,56 @@
-"""Load combinations: parsing, naming, and the built-in ASCE/SEI 7 sets.
+"""Load combinations: text such as ``1.2D + 1.6L + 0.5S`` <-> factors, and
+the built-in basic combinations of ASCE/SEI 7.
 
-A combination is a dict ``{case: factor}``.  Text form: a sum of
-``factor case`` terms, e.g. ``"1.2D + 1.6L + 0.5S"``; the factor may be
-followed by ``*``, omitted (1.0) or negative, and may multiply a bracketed
-sum: ``"D + 0.75(L + 0.6W)"``.  Case names are letters, digits and
-underscores starting with a letter or underscore; they are case-sensitive
-(``L`` is live load, ``Lr`` roof live load).
+Syntax
+------
+A combination is a sum of terms ``[factor][*]NAME`` or
+``[factor][*](combination)``; ``-`` subtracts.  Factors are plain decimals
+(no exponent: ``0.525E`` is 0.525 times the earthquake case).  Case names are letters,
+digits and underscores and start with a letter or underscore; they are
+case-sensitive (``L`` and ``Lr`` differ).  Examples::
 
-The built-in sets are written as templates in the same syntax plus
-alternatives ``(Lr|S|R)`` ("Lr or S or R"), each alternative with its own
-optional factor: ``"1.2D + 1.6(Lr|S|R) + (L|0.5W)"``.  They can be replaced
-by passing other templates (the settings file may list them).
+    1.2D + 1.6L + 0.5S       0.9D+1.0W       D + 0.75(L + 0.6W)
+
+Templates (the built-in sets, or sets supplied by the settings) may also
+hold alternatives separated by ``|`` inside parentheses:
+``1.2D + 1.6L + 0.5(Lr|S|R)`` stands for three combinations.
+
+>>> parse_combination("1.2D + 1.6L + 0.5S")
+{'D': 1.2, 'L': 1.6, 'S': 0.5}
+>>> format_combination({"D": 0.9, "W": 1.0})
+'0.9D+W'
+
+Built-in sets
+-------------
+The strength (LRFD) and allowable-stress (ASD) basic combinations of
+ASCE/SEI 7-16, sections 2.3.1 and 2.4.1, written down from memory (check
+them against the standard in force for the project; the exceptions of the
+standard, such as the 0.5 factor on L in some LRFD combinations, are not
+applied).  They are plain data (:data:`LRFD_BASIC`, :data:`ASD_BASIC`)
+and :func:`builtin_combinations` accepts replacement templates.
 """
 from __future__ import annotations
 
-import itertools
 import re
 from collections.abc import Sequence
 
 __all__ = [
+    "CombinationSyntaxError",
+    "ASCE7_EDITION",
+    "LRFD_BASIC",
+    "ASD_BASIC",
+    "BUILTIN_SETS",
     "parse_combination",
     "format_combination",
     "expand_template",
     "builtin_combinations",
-    "LRFD_TEMPLATES",
-    "ASD_TEMPLATES",
-    "BUILTIN_TEMPLATES",
 ]
 
-# Basic combinations of ASCE/SEI 7-16, written from memory (not copied from
-# the standard's text): strength design, section 2.3.1 (combinations 1-7),
-# and allowable stress design, section 2.4.1 (combinations 1-8, with 6 in
-# its two parts).  D dead, L live, Lr roof live, S snow, R rain, W wind,
-# E earthquake.  The edition's load-factor exceptions (e.g. 0.5L for
-# light occupancies) and the special seismic combinations are not included.
-LRFD_TEMPLATES: tuple[str, ...] = (
+ASCE7_EDITION = "ASCE/SEI 7-16"
+
+# ASCE/SEI 7-16 section 2.3.1, basic combinations for strength design
+# (from memory).
+LRFD_BASIC: tuple[str, ...] = (
     "1.4D",
     "1.2D + 1.6L + 0.5(Lr|S|R)",
     "1.2D + 1.6(Lr|S|R) + (L|0.5W)",
@@ -43,7 +59,10 @@ LRFD_TEMPLATES: tuple[str, ...] = (
     "0.9D + 1.0W",
     "0.9D + 1.0E",
 )
-ASD_TEMPLATES: tuple[str, ...] = (
+
+# ASCE/SEI 7-16 section 2.4.1, basic combinations for allowable stress
+# design (from memory).
+ASD_BASIC: tuple[str, ...] = (
     "D",
     "D + L",
     "D + (Lr|S|R)",
@@ -54,193 +73,212 @@ ASD_TEMPLATES: tuple[str, ...] = (
     "0.6D + 0.6W",
     "0.6D + 0.7E",
 )
-BUILTIN_TEMPLATES: dict[str, tuple[str, ...]] = {"LRFD": LRFD_TEMPLATES, "ASD": ASD_TEMPLATES}
 
-_TOKEN = re.compile(r"\s*(?:(?P<num>\d+(?:\.\d*)?|\.\d+)|(?P<name>[A-Za-z_][A-Za-z0-9_]*)|(?P<op>[-+*()|]))")
-_DEAD = "D"
+BUILTIN_SETS: dict[str, tuple[str, ...]] = {"LRFD": LRFD_BASIC, "ASD": ASD_BASIC}
+
+DEAD = "D"
+
+
+class CombinationSyntaxError(ValueError):
+    """Text that is not a combination; the message shows where."""
+
+    def __init__(self, text: str, pos: int, what: str) -> None:
+        self.text, self.pos = text, pos
+        super().__init__(f"{what} at position {pos + 1} in {text!r}")
+
+
+_TOKEN = re.compile(
+    r"\s*(?:(?P<num>\d+\.?\d*|\.\d+)|(?P<name>[A-Za-z_][A-Za-z0-9_]*)|(?P<op>[-+*()|]))"
+)
 
 
 def _tokens(text: str) -> list[tuple[str, str, int]]:
-    out = []
-    pos = 0
-    text = text.rstrip()
+    out, pos = [], 0
     while pos < len(text):
+        if text[pos:].strip() == "":
+            break
         mt = _TOKEN.match(text, pos)
         if not mt:
-            raise ValueError(f"cannot read combination {text!r} at position {pos}: {text[pos:pos + 10]!r}")
+            raise CombinationSyntaxError(text, pos, f"unexpected character {text[pos]!r}")
         kind = mt.lastgroup
         out.append((kind, mt.group(kind), mt.start(kind)))
         pos = mt.end()
-    return out
-
-
-class _Parser:
-    """Recursive-descent parser of combination text.  The result of a
-    sub-expression is a list of alternatives, each a ``{case: factor}``."""
-
-    def __init__(self, text: str, allow_alternatives: bool) -> None:
-        self.text = text
-        self.toks = _tokens(text)
-        self.i = 0
-        self.alt = allow_alternatives
-
-    def error(self, what: str) -> ValueError:
-        pos = self.toks[self.i][2] if self.i < len(self.toks) else len(self.text)
-        return ValueError(f"combination {self.text!r}: {what} at position {pos}")
-
-    def peek(self) -> tuple[str, str, int] | None:
-        return self.toks[self.i] if self.i < len(self.toks) else None
-
-    def take(self, value: str | None = None) -> tuple[str, str, int] | None:
-        t = self.peek()
-        if t is not None and (value is None or t[1] == value):
-            self.i += 1
-            return t
-        return None
-
-    def parse(self) -> list[dict[str, float]]:
-        if not self.toks:
-            raise ValueError("empty combination")
-        res = self.expr()
-        if self.peek() is not None:
-            raise self.error(f"unexpected {self.peek()[1]!r}")
-        return res
-
-    def expr(self) -> list[dict[str, float]]:
-        sign = 1.0
-        if self.take("-"):
-            sign = -1.0
-        else:
-            self.take("+")
-        acc = self.term(sign)
-        while True:
-            t = self.peek()
-            if t is None or t[0] != "op" or t[1] not in ("+", "-"):
-                return acc
-            self.i += 1
-            acc = _product(acc, self.term(-1.0 if t[1] == "-" else 1.0))
-
-    def term(self, sign: float) -> list[dict[str, float]]:
-        factor = sign
-        t = self.peek()
-        if t is not None and t[0] == "num":
-            self.i += 1
-            factor *= float(t[1])
-            self.take("*")
-        t = self.peek()
-        if t is None:
-            raise self.error("a case name or '(' expected")
-        if t[0] == "name":
-            self.i += 1
-            return [{t[1]: factor}]
-        if t[1] == "(":
-            self.i += 1
-            alts = self.expr()
-            while self.take("|"):
-                if not self.alt:
-                    raise self.error("'|' (alternatives) is only allowed in templates")
-                alts = alts + self.expr()
-            if not self.take(")"):
-                raise self.error("')' expected")
-            return [{k: factor * v for k, v in a.items()} for a in alts]
-        raise self.error(f"a case name or '(' expected, not {t[1]!r}")
-
-
-def _product(a: list[dict[str, float]], b: list[dict[str, float]]) -> list[dict[str, float]]:
-    out = []
-    for x, y in itertools.product(a, b):
-        z = dict(x)
-        for k, v in y.items():
-            z[k] = z.get(k, 0.0) + v
-        out.append(z)
+    out.append(("end", "", len(text)))
     return out
 
 
 def _clean(f: float) -> float:
-    """Round away binary noise from products such as 0.75 * 0.6."""
-    return float(f"{f:.12g}")
+    return round(f, 12) + 0.0
 
 
-def parse_combination(text: str) -> dict[str, float]:
-    """Parse ``"1.2D + 1.6L + 0.5S"`` into ``{"D": 1.2, "L": 1.6, "S": 0.5}``.
+class _Parser:
+    """Recursive descent over the token list.  Each rule returns a list of
+    alternatives, each a {case: factor} dict (a single alternative unless
+    ``|`` appears)."""
 
-    Terms are ``[factor][*]case`` or ``[factor][*](sum)``; a repeated case
-    adds up.  Raises ValueError on anything else.
+    def __init__(self, text: str) -> None:
+        self.text = text
+        self.toks = _tokens(text)
+        self.i = 0
 
-    >>> parse_combination("1.2D + 1.6L + 0.5S")
-    {'D': 1.2, 'L': 1.6, 'S': 0.5}
-    >>> parse_combination("D + 0.75(L + 0.6W)")
-    {'D': 1.0, 'L': 0.75, 'W': 0.45}
-    """
-    (res,) = _Parser(text, allow_alternatives=False).parse()
-    return {k: _clean(v) for k, v in res.items()}
+    def peek(self) -> tuple[str, str, int]:
+        return self.toks[self.i]
+
+    def take(self) -> tuple[str, str, int]:
+        t = self.toks[self.i]
+        self.i += 1
+        return t
+
+    def fail(self, what: str):
+        raise CombinationSyntaxError(self.text, self.peek()[2], what)
+
+    def parse(self) -> list[dict[str, float]]:
+        alts = self.sum()
+        if self.peek()[0] != "end":
+            self.fail(f"unexpected {self.peek()[1]!r}")
+        return alts
+
+    def sum(self) -> list[dict[str, float]]:
+        sign = 1.0
+        if self.peek()[1] in "+-" and self.peek()[0] == "op":
+            sign = -1.0 if self.take()[1] == "-" else 1.0
+        acc = _scale(self.term(), sign)
+        while self.peek()[0] == "op" and self.peek()[1] in ("+", "-"):
+            sign = -1.0 if self.take()[1] == "-" else 1.0
+            acc = _product(acc, _scale(self.term(), sign))
+        return acc
+
+    def term(self) -> list[dict[str, float]]:
+        factor = 1.0
+        kind, val, _ = self.peek()
+        if kind == "num":
+            self.take()
+            factor = float(val)
+            if self.peek()[1] == "*":
+                self.take()
+        kind, val, _ = self.peek()
+        if kind == "name":
+            self.take()
+            return [{val: factor}]
+        if kind == "op" and val == "(":
+            self.take()
+            alts = self.sum()
+            while self.peek()[1] == "|":
+                self.take()
+                alts = alts + self.sum()
+            if self.peek()[1] != ")":
+                self.fail("expected ')'")
+            self.take()
+            return _scale(alts, factor)
+        self.fail("expected a case name or '('")
+        raise AssertionError  # pragma: no cover
 
 
-def format_combination(factors: dict[str, float]) -> str:
-    """Compact name of a combination: ``{"D": 1.2, "L": 1.6}`` -> ``"1.2D+1.6L"``.
-    Factor 1 is omitted (``"D+L"``), zero terms are dropped.
-
-    >>> format_combination({"D": 1.2, "L": 1.6, "S": 0.5})
-    '1.2D+1.6L+0.5S'
-    """
-    parts = []
-    for case, f in factors.items():
-        if f == 0:
-            continue
-        mag = abs(f)
-        txt = case if mag == 1.0 else f"{mag:.6g}{case}"
-        parts.append(("-" if f < 0 else ("+" if parts else "")) + txt)
-    return "".join(parts) if parts else "0"
+def _scale(alts: list[dict[str, float]], f: float) -> list[dict[str, float]]:
+    return [{k: v * f for k, v in a.items()} for a in alts]
 
 
-def expand_template(template: str, present_cases: Sequence[str]) -> list[dict[str, float]]:
-    """Every combination a template stands for, with the terms of absent
-    cases dropped (before duplicates are removed by the caller).
-
-    >>> expand_template("1.2D + 1.6L + 0.5(Lr|S|R)", ["D", "L", "S"])
-    [{'D': 1.2, 'L': 1.6}, {'D': 1.2, 'L': 1.6, 'S': 0.5}, {'D': 1.2, 'L': 1.6}]
-    """
-    present = set(present_cases)
+def _product(a: list[dict[str, float]], b: list[dict[str, float]]) -> list[dict[str, float]]:
     out = []
-    for alt in _Parser(template, allow_alternatives=True).parse():
-        out.append({k: _clean(v) for k, v in alt.items() if k in present and v != 0})
+    for x in a:
+        for y in b:
+            z = dict(x)
+            for k, v in y.items():
+                z[k] = z.get(k, 0.0) + v
+            out.append(z)
     return out
 
 
+def _tidy(d: dict[str, float]) -> dict[str, float]:
+    return {k: _clean(v) for k, v in d.items() if _clean(v) != 0.0}
+
+
+def parse_combination(text: str) -> dict[str, float]:
+    """``"1.2D + 1.6L + 0.5S"`` -> ``{"D": 1.2, "L": 1.6, "S": 0.5}``.
+
+    Terms naming the same case add up; parentheses distribute a factor
+    (``0.75(L + 0.6W)``).  Alternatives (``|``) are not allowed here.
+    Raises :class:`CombinationSyntaxError` (a ValueError) on bad text.
+    """
+    if not isinstance(text, str) or not text.strip():
+        raise CombinationSyntaxError(str(text), 0, "empty combination")
+    alts = _Parser(text).parse()
+    if len(alts) != 1:
+        raise CombinationSyntaxError(text, text.find("|"), "alternatives '|' are only allowed in templates")
+    return _tidy(alts[0])
+
+
+def expand_template(template: str) -> list[dict[str, float]]:
+    """All combinations a template stands for, e.g.
+    ``"1.2D + 1.6L + 0.5(Lr|S|R)"`` -> three factor dicts."""
+    return [_tidy(a) for a in _Parser(template).parse()]
+
+
+def _num(f: float) -> str:
+    """Plain decimal (never an exponent, which the parser would not read)."""
+    text = f"{f:.12f}".rstrip("0").rstrip(".")
+    return text if text not in ("", "-0") else "0"
+
+
+def format_combination(factors: dict[str, float]) -> str:
+    """``{"D": 1.2, "L": 1.6, "S": 0.5}`` -> ``"1.2D+1.6L+0.5S"`` (factor
+    1 is left out; terms keep the dict order; zero factors are dropped)."""
+    parts: list[str] = []
+    for name, f in factors.items():
+        f = _clean(float(f))
+        if f == 0.0:
+            continue
+        mag = abs(f)
+        body = name if mag == 1.0 else f"{_num(mag)}{name}"
+        if not parts:
+            parts.append(body if f > 0 else f"-{body}")
+        else:
+            parts.append(("+" if f > 0 else "-") + body)
+    return "".join(parts)
+
+
 def builtin_combinations(
-    kind: str, present_cases: Sequence[str], templates: Sequence[str] | None = None
+    kind: str,
+    present_cases: Sequence[str],
+    templates: Sequence[str] | None = None,
 ) -> list[tuple[str, dict[str, float]]]:
-    """The basic combinations of a design method for the cases a frame has.
+    """The basic combinations of one set for the load cases a frame has.
 
     Parameters
     ----------
-    kind : "LRFD" (ASCE/SEI 7-16 2.3.1) or "ASD" (2.4.1), case-insensitive
-    present_cases : load cases of the frame
-    templates : replace the built-in templates (same syntax)
+    kind : "LRFD" or "ASD" (case-insensitive) -- ASCE/SEI 7-16 sections
+        2.3.1 and 2.4.1, from memory
+    present_cases : names of the load cases the frame has
+    templates : replacement templates (e.g. from the settings file); by
+        default the built-in set of ``kind``
 
-    Returns ``[(name, {case: factor}), ...]`` in template order.  Absent
-    cases are dropped from each combination; a combination left with no
-    case but D is dropped unless its template is D alone (1.4D, D); empty
-    ones and duplicates are dropped.
+    Returns
+    -------
+    ``[(name, factors), ...]``: every alternative expanded, terms whose case
+    is absent dropped, combinations that became duplicates dropped (first
+    kept), and combinations left with no case but D dropped -- except the
+    ones that are D alone by definition (1.4D, D).  ``name`` is the
+    formatted combination, e.g. ``"1.2D+1.6L+0.5S"``.
     """
-    key = kind.upper()
     if templates is None:
-        if key not in BUILTIN_TEMPLATES:
-            raise ValueError(f"unknown combination set {kind!r}; expected one of {sorted(BUILTIN_TEMPLATES)}")
-        templates = BUILTIN_TEMPLATES[key]
+        key = str(kind).upper()
+        if key not in BUILTIN_SETS:
+            raise ValueError(f"unknown combination set {kind!r}; expected one of {sorted(BUILTIN_SETS)}")
+        templates = BUILTIN_SETS[key]
+    present = set(present_cases)
+    out: list[tuple[str, dict[str, float]]] = []
     seen: set[tuple] = set()
-    out = []
     for tpl in templates:
-        full = _Parser(tpl, allow_alternatives=True).parse()
-        dead_only = all(set(a) <= {_DEAD} for a in full)
-        for combo in expand_template(tpl, present_cases):
-            if not combo:
+        for full in expand_template(tpl):
+            dead_only = set(full) <= {DEAD}
+            kept = {k: v for k, v in full.items() if k in present}
+            if not kept:
                 continue
-            if not dead_only and set(combo) <= {_DEAD}:
+            if not dead_only and set(kept) <= {DEAD}:
                 continue
-            sig = tuple(sorted(combo.items()))
+            sig = tuple(sorted(kept.items()))
             if sig in seen:
                 continue
             seen.add(sig)
-            out.append((format_combination(combo), combo))
+            out.append((format_combination(kept), kept))
     return out

@@ -29,7 +29,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field
-from functools import cached_property
+from functools import cached_property, lru_cache
 from math import comb
 
 import numpy as np
@@ -44,7 +44,6 @@ __all__ = [
 ]
 
 _POS_TOL = 1e-9  # relative tolerance on positions along a member (x / L)
-_ROOT_IMAG_TOL = 1e-6  # accept near-double roots; every candidate is re-evaluated exactly
 
 
 # --------------------------------------------------------------------------
@@ -212,65 +211,166 @@ def _to_unit(coef: np.ndarray, h: np.ndarray) -> np.ndarray:
     return coef * h[:, None] ** np.arange(coef.shape[1])
 
 
-def real_roots_unit(coef: np.ndarray, rows: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+@lru_cache(maxsize=None)
+def _bernstein_matrix(n: int) -> np.ndarray:
+    """B such that ascending power coefficients ``a`` (degree n) on [0, 1]
+    give the Bernstein coefficients ``a @ B``."""
+    B = np.zeros((n + 1, n + 1))
+    for i in range(n + 1):
+        for k in range(i + 1):
+            B[k, i] = comb(i, k) / comb(n, k)
+    return B
+
+
+def _split_half(b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """de Casteljau subdivision at 1/2 of Bernstein coefficients (W, n)."""
+    n = b.shape[1]
+    left = np.empty_like(b)
+    right = np.empty_like(b)
+    cur = b
+    left[:, 0], right[:, -1] = cur[:, 0], cur[:, -1]
+    for j in range(1, n):
+        cur = 0.5 * (cur[:, :-1] + cur[:, 1:])
+        left[:, j], right[:, n - 1 - j] = cur[:, 0], cur[:, -1]
+    return left, right
+
+
+def _sign_changes(b: np.ndarray, tol: np.ndarray) -> np.ndarray:
+    s = np.sign(b)
+    s[np.abs(b) <= tol[:, None]] = 0.0
+    n = b.shape[1]
+    idx = np.where(s != 0, np.arange(n), 0)
+    np.maximum.accumulate(idx, axis=1, out=idx)
+    filled = np.take_along_axis(s, idx, axis=1)
+    return np.count_nonzero(filled[:, 1:] * filled[:, :-1] < 0, axis=1)
+
+
+def real_roots_unit(coef: np.ndarray, rows: np.ndarray | None = None,
+                    ref: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Real roots in [0, 1] of many polynomials at once.
 
     Parameters
     ----------
     coef : (P, d+1) ascending coefficients of polynomials in s
     rows : optional (P,) labels returned with each root (default 0..P-1)
+    ref : optional (P,) magnitude below which a coefficient counts as zero
+        after scaling by 1e-13 (default: each polynomial's own largest
+        coefficient); a polynomial entirely below it has no roots reported
 
     Returns
     -------
-    (labels, s) : one entry per root found in [0, 1].  Roots come from the
-    companion-matrix eigenvalues of each polynomial (grouped by effective
-    degree, one batched ``eigvals`` per group) and are polished by Newton
-    steps.  Near-double roots are kept (a caller that evaluates its
-    function at every candidate loses nothing by an extra point).
+    (labels, s) : one entry per root in [0, 1].  Roots are isolated with
+    the variation-diminishing property of the Bernstein form (the number
+    of sign changes of the Bernstein coefficients bounds the number of
+    roots on the interval and has its parity; intervals with one change
+    hold exactly one root) by repeated halving, then located by
+    safeguarded Newton iteration inside their bracket.  A multiple root is
+    reported at the centre of an interval narrower than 2**-44.
     """
     coef = np.asarray(coef, dtype=float)
-    P = coef.shape[0]
+    P, n = coef.shape
     rows = np.arange(P) if rows is None else np.asarray(rows)
     if P == 0:
         return rows[:0], np.zeros(0)
-    scale = np.abs(coef).max(axis=1)
-    ok = scale > 0
-    c = np.zeros_like(coef)
-    c[ok] = coef[ok] / scale[ok, None]
-    big = np.abs(c) > 1e-13
-    deg = np.where(big.any(axis=1), coef.shape[1] - 1 - np.argmax(big[:, ::-1], axis=1), 0)
-    lab_out, s_out, src = [], [], []
-    for d in np.unique(deg):
-        if d == 0:
-            continue
-        sel = np.flatnonzero(deg == d)
-        cc = c[sel, : d + 1]
-        if d == 1:
-            r = (-cc[:, 0] / cc[:, 1])[:, None].astype(complex)
-        else:
-            comp = np.zeros((len(sel), d, d))
-            comp[:, np.arange(1, d), np.arange(d - 1)] = 1.0
-            comp[:, :, -1] = -cc[:, :d] / cc[:, d:d + 1]
-            r = np.linalg.eigvals(comp)
-        re, im = r.real, r.imag
-        keep = (np.abs(im) <= _ROOT_IMAG_TOL * (1.0 + np.abs(re))) & (re > -1e-6) & (re < 1 + 1e-6)
-        ii, kk = np.nonzero(keep)
-        lab_out.append(sel[ii])
-        s_out.append(re[ii, kk])
-    if not lab_out:
+    own = np.abs(coef).max(axis=1)
+    scale = own if ref is None else np.maximum(np.asarray(ref, dtype=float), 0.0)
+    live = np.flatnonzero((own > 1e-13 * scale) & (own > 0))
+    if n == 1 or len(live) == 0:
         return rows[:0], np.zeros(0)
-    who = np.concatenate(lab_out)
-    s = np.concatenate(s_out)
-    cw = c[who]
-    dw = _polyder(cw)
-    for _ in range(3):  # Newton polish; keeps the root where the slope vanishes
-        f = _polyval(cw, s)
-        fp = _polyval(dw, s)
-        step = np.where(np.abs(fp) > 1e-300, f / np.where(fp == 0, 1.0, fp), 0.0)
-        step = np.where(np.abs(step) < 1e-2, step, 0.0)
-        s = s - step
-    s = np.clip(s, 0.0, 1.0)
-    return rows[who], s
+    c = coef[live] / own[live, None]
+    tol_row = np.full(len(live), 1e-14) * np.maximum(scale[live] / own[live], 1.0)
+    found_w, found_s = [], []
+    # deflate roots at the ends (a member end at a support is a common
+    # one): divide by s or by (1 - s) while the end value is negligible
+    d = c.copy()
+    for _ in range(n - 1):
+        z0 = np.abs(d[:, 0]) <= tol_row
+        z1 = np.abs(d.sum(axis=1)) <= tol_row * np.abs(d).sum(axis=1) + 1e-300
+        z0 &= np.abs(d).max(axis=1) > tol_row
+        z1 &= np.abs(d).max(axis=1) > tol_row
+        if not (z0.any() or z1.any()):
+            break
+        found_w += [np.flatnonzero(z0), np.flatnonzero(z1 & ~z0)]
+        found_s += [np.zeros(int(z0.sum())), np.ones(int((z1 & ~z0).sum()))]
+        if z0.any():
+            d[z0, :-1] = d[z0, 1:]
+            d[z0, -1] = 0.0
+        z1 &= ~z0
+        if z1.any():  # synthetic division by (s - 1), remainder dropped
+            q = np.zeros_like(d[z1])
+            acc = np.zeros(int(z1.sum()))
+            for k in range(n - 1, 0, -1):
+                acc = acc + d[z1, k]
+                q[:, k - 1] = acc
+            d[z1] = q
+    B = d @ _bernstein_matrix(n - 1)
+    B /= np.maximum(np.abs(B).max(axis=1), 1e-300)[:, None]
+    who = np.arange(len(live))
+    lo = np.zeros(len(live))
+    width = 1.0
+    iso_w, iso_lo, iso_w_len, iso_b0 = [], [], [], []
+    for depth in range(46):
+        if len(who) == 0:
+            break
+        tol = tol_row[who]
+        z0 = np.abs(B[:, 0]) <= tol
+        z1 = np.abs(B[:, -1]) <= tol
+        found_w += [who[z0], who[z1]]
+        found_s += [lo[z0], lo[z1] + width]
+        var = _sign_changes(B, tol)
+        # a clean bracket: one sign change and both end values clearly
+        # non-zero (an end root is recorded above; halving moves the
+        # interior root away from it)
+        one = (var == 1) & ~z0 & ~z1
+        if one.any():
+            iso_w.append(who[one])
+            iso_lo.append(lo[one])
+            iso_w_len.append(np.full(int(one.sum()), width))
+            iso_b0.append(B[one, 0])
+        many = (var >= 1) & ~one
+        if depth == 45:
+            found_w.append(who[many])
+            found_s.append(lo[many] + 0.5 * width)
+            break
+        if not many.any():
+            break
+        Bl, Br = _split_half(B[many])
+        width *= 0.5
+        who = np.concatenate([who[many], who[many]])
+        lo = np.concatenate([lo[many], lo[many] + width])
+        B = np.concatenate([Bl, Br])
+        # a root exactly at the common midpoint is found by both halves'
+        # end tests; duplicates are harmless to callers
+    if iso_w:
+        w = np.concatenate(iso_w)
+        a = np.concatenate(iso_lo)
+        b = a + np.concatenate(iso_w_len)
+        sa = np.sign(np.concatenate(iso_b0))
+        cw = d[w]
+        dw = _polyder(cw)
+        x = 0.5 * (a + b)
+        act = np.arange(len(w))
+        for _ in range(80):
+            cx = cw[act]
+            fx = _polyval(cx, x[act])
+            fp = _polyval(dw[act], x[act])
+            same = np.sign(fx) == sa[act]
+            a[act] = np.where(same, x[act], a[act])
+            b[act] = np.where(same, b[act], x[act])
+            with np.errstate(divide="ignore", invalid="ignore"):
+                xn = x[act] - fx / fp
+            ok = np.isfinite(xn) & (xn > a[act]) & (xn < b[act])
+            xnew = np.where(ok, xn, 0.5 * (a[act] + b[act]))
+            done = (np.abs(xnew - x[act]) <= 4e-16) | (fx == 0) | (b[act] - a[act] <= 4e-16)
+            x[act] = np.where(fx == 0, x[act], xnew)
+            act = act[~done]
+            if len(act) == 0:
+                break
+        found_w.append(w)
+        found_s.append(x)
+    wa = np.concatenate(found_w) if found_w else np.zeros(0, np.intp)
+    sa_ = np.concatenate(found_s) if found_s else np.zeros(0)
+    return rows[live[wa]], np.clip(sa_, 0.0, 1.0)
 
 
 # --------------------------------------------------------------------------
@@ -310,9 +410,17 @@ class _Pieces:
     th0: np.ndarray | None = None
     EA: np.ndarray | None = None
     EI: np.ndarray | None = None
+    _cache: dict = field(default_factory=dict, repr=False)
 
-    # polynomial coefficients in t = x - x0 (ascending powers)
     def coef(self, which: str) -> np.ndarray:
+        """Polynomial coefficients in t = x - x0 (ascending powers) of
+        "N", "V", "M", "u", "v" or "th" on every piece (cached)."""
+        hit = self._cache.get(which)
+        if hit is None:
+            hit = self._cache[which] = self._coef(which)
+        return hit
+
+    def _coef(self, which: str) -> np.ndarray:
         if which == "N":
             return np.column_stack([self.N0, -self.qx0, -0.5 * self.gx])
         if which == "V":
@@ -337,22 +445,6 @@ class _Pieces:
         if pieces is not None:
             c = c[pieces]
         return _polyval(c, t)
-
-    def member(self, j: int) -> "_Pieces":
-        """The pieces of member ``j`` alone, as a one-member table (slices of
-        this one, so a member of a big result evaluates without rebuilding)."""
-        s, c = int(self.start[j]), int(self.count[j])
-        sl = slice(s, s + c)
-
-        def cut(a):
-            return None if a is None else a[sl]
-
-        return _Pieces(
-            np.zeros(c, np.intp), self.x0[sl], self.h[sl], self.N0[sl], self.V0[sl], self.M0[sl],
-            self.qx0[sl], self.gx[sl], self.qy0[sl], self.gy[sl], np.zeros(1, np.intp), self.count[j:j + 1],
-            self.length[j:j + 1], self.left0[j:j + 1], self.rightL[j:j + 1],
-            cut(self.u0), cut(self.v0), cut(self.th0), cut(self.EA), cut(self.EI),
-        )
 
 
 def _build_pieces(
@@ -451,7 +543,6 @@ def _build_pieces(
     # march along each member piece by piece (vectorised over members)
     by_count = np.argsort(-count, kind="stable")
     sorted_count = count[by_count]
-    prev = None
     for k in range(int(count.max()) if m else 0):
         js = by_count[: int(np.searchsorted(-sorted_count, -k, side="left"))]
         p = start[js] + k
@@ -473,8 +564,6 @@ def _build_pieces(
                                                  + qy0[q] * hq**4 / 24.0 + gy[q] * hq**5 / 120.0) / ei
                 tp0[p] = tp0[q] + (M0[q] * hq + 0.5 * V0[q] * hq**2 + qy0[q] * hq**3 / 6.0
                                    + gy[q] * hq**4 / 24.0) / ei
-        prev = p
-    del prev
 
     # values at the member ends
     lastp = start + count - 1
@@ -489,11 +578,11 @@ def _build_pieces(
     ea_p = ei_p = None
     if with_defl:
         d = np.asarray(end_disp, dtype=float).reshape(m, 4)
-        ea_l = eai[lastp]
         ei_l = eii[lastp]
+        # v = v_i + th_i x + (particular part with zero value and slope at
+        # x = 0); th_i follows from v(L) = v_j
         vpL = vp0[lastp] + tp0[lastp] * hl + (0.5 * M0[lastp] * hl**2 + V0[lastp] * hl**3 / 6.0
                                               + qy0[lastp] * hl**4 / 24.0 + gy[lastp] * hl**5 / 120.0) / ei_l
-        del ea_l
         th_i = (d[:, 3] - d[:, 1] - vpL) / L
         u0 = d[mem, 0] + up0
         v0 = d[mem, 1] + th_i[mem] * x0 + vp0
@@ -503,15 +592,36 @@ def _build_pieces(
                    u0, v0, th0, ea_p, ei_p)
 
 
-def _group_pick(mem: np.ndarray, val: np.ndarray, x: np.ndarray, m: int, largest: bool) -> tuple[np.ndarray, np.ndarray]:
-    """Per member: the largest (or smallest) value and its position (the
-    smallest x among ties)."""
-    order = np.argsort(mem, kind="stable")
-    ms, vs, xs = mem[order], val[order], x[order]
-    starts = np.searchsorted(ms, np.arange(m))
-    best = (np.maximum if largest else np.minimum).reduceat(vs, starts)
-    at = np.minimum.reduceat(np.where(vs == best[ms], xs, np.inf), starts)
-    return best, at
+class _Grouped:
+    """Candidate points of many members sorted by (member, x) once, so that
+    per-member extremes are cheap reductions."""
+
+    def __init__(self, mem: np.ndarray, x: np.ndarray, m: int) -> None:
+        order = np.lexsort((x, mem))
+        self.order = order
+        self.mem = mem[order]
+        self.x = x[order]
+        self.m = m
+        self.starts = np.searchsorted(self.mem, np.arange(m))
+        if m and np.any(np.diff(np.append(self.starts, len(self.mem))) == 0):
+            raise ValueError("a member without candidate points")
+
+    def pick(self, val: np.ndarray, largest: bool) -> tuple[np.ndarray, np.ndarray]:
+        """Per member: largest (or smallest) value and its position (the
+        smallest x among exact ties)."""
+        v = val[self.order]
+        red = np.maximum if largest else np.minimum
+        best = red.reduceat(v, self.starts)
+        hit = np.flatnonzero(v == best[self.mem])
+        first = hit[np.searchsorted(self.mem[hit], np.arange(self.m))]
+        return best, self.x[first]
+
+
+def _member_ref(pc: _Pieces, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Per piece: the largest |value| over its member's piece ends."""
+    ref = np.zeros(len(pc.length))
+    np.maximum.at(ref, pc.mem, np.maximum(np.abs(a), np.abs(b)))
+    return ref[pc.mem]
 
 
 def _force_candidates(pc: _Pieces) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
@@ -523,16 +633,13 @@ def _force_candidates(pc: _Pieces) -> tuple[np.ndarray, np.ndarray, np.ndarray, 
     allp = np.arange(npc)
     mems = [ar, ar, pc.mem, pc.mem]
     xs = [np.zeros(m), pc.length, pc.x0, pc.x0 + pc.h]
-    N = [pc.left0[:, 0], pc.rightL[:, 0], pc.N0]
-    V = [pc.left0[:, 1], pc.rightL[:, 1], pc.V0]
-    M = [pc.left0[:, 2], pc.rightL[:, 2], pc.M0]
-    ends = pc.h
-    N.append(pc.values("N", ends))
-    V.append(pc.values("V", ends))
-    M.append(pc.values("M", ends))
+    Ne, Ve, Me = pc.values("N", pc.h), pc.values("V", pc.h), pc.values("M", pc.h)
+    N = [pc.left0[:, 0], pc.rightL[:, 0], pc.N0, Ne]
+    V = [pc.left0[:, 1], pc.rightL[:, 1], pc.V0, Ve]
+    M = [pc.left0[:, 2], pc.rightL[:, 2], pc.M0, Me]
     # interior candidates (t within the piece)
     cand_p, cand_t = [], []
-    rp, rs = real_roots_unit(_to_unit(pc.coef("V"), pc.h))
+    rp, rs = real_roots_unit(_to_unit(pc.coef("V"), pc.h), ref=_member_ref(pc, pc.V0, Ve))
     cand_p.append(rp)
     cand_t.append(rs * pc.h[rp])
     for q, g in ((pc.qy0, pc.gy), (pc.qx0, pc.gx)):
@@ -553,23 +660,14 @@ def _force_candidates(pc: _Pieces) -> tuple[np.ndarray, np.ndarray, np.ndarray, 
 
 
 def _extremes_batch(pc: _Pieces) -> dict[str, np.ndarray]:
-    m = len(pc.length)
+    """Per member: n/v/m _max/_min and their positions (arrays)."""
     mem, x, N, V, M = _force_candidates(pc)
+    g = _Grouped(mem, x, len(pc.length))
     out: dict[str, np.ndarray] = {}
     for key, val in (("n", N), ("v", V), ("m", M)):
-        out[f"{key}_max"], out[f"{key}_max_at"] = _group_pick(mem, val, x, m, True)
-        out[f"{key}_min"], out[f"{key}_min_at"] = _group_pick(mem, val, x, m, False)
+        out[f"{key}_max"], out[f"{key}_max_at"] = g.pick(val, True)
+        out[f"{key}_min"], out[f"{key}_min_at"] = g.pick(val, False)
     return out
-
-
-def _bernstein_matrix(n: int) -> np.ndarray:
-    """B such that power coefficients a (ascending, degree n) on [0, 1] give
-    Bernstein coefficients a @ B; the largest bounds the polynomial."""
-    B = np.zeros((n + 1, n + 1))
-    for i in range(n + 1):
-        for k in range(i + 1):
-            B[k, i] = comb(i, k) / comb(n, k)
-    return B
 
 
 def _max_abs_batch(pc: _Pieces, parts: list[np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
@@ -579,12 +677,9 @@ def _max_abs_batch(pc: _Pieces, parts: list[np.ndarray]) -> tuple[np.ndarray, np
     of squares; pieces whose Bernstein bound cannot beat the best end value
     of their member are skipped."""
     m = len(pc.length)
-    f = sum(_polymul(a, a) for a in parts[:1]) if len(parts) == 1 else None
-    if f is None:
-        n = max(a.shape[1] for a in parts)
-        padded = [np.pad(a, ((0, 0), (0, n - a.shape[1]))) for a in parts]
-        f = sum(_polymul(a, a) for a in padded)
-    npc = len(pc.mem)
+    n = max(a.shape[1] for a in parts)
+    padded = [np.pad(a, ((0, 0), (0, n - a.shape[1]))) for a in parts]
+    f = sum(_polymul(a, a) for a in padded)
     f0 = f[:, 0]
     f1 = f.sum(axis=1)
     mem = np.concatenate([pc.mem, pc.mem])
@@ -595,20 +690,16 @@ def _max_abs_batch(pc: _Pieces, parts: list[np.ndarray]) -> tuple[np.ndarray, np
     bound = (f @ _bernstein_matrix(f.shape[1] - 1)).max(axis=1)
     live = np.flatnonzero(bound > best_end[pc.mem] * (1.0 + 1e-12))
     if len(live):
-        # a piece on which the derivative keeps one sign (all its Bernstein
-        # coefficients of one sign) is monotone: its ends already hold the max
         df = _polyder(f[live])
-        bd = df @ _bernstein_matrix(df.shape[1] - 1)
-        live = live[~(np.all(bd >= 0, axis=1) | np.all(bd <= 0, axis=1))]
-    if len(live):
-        rp, rs = real_roots_unit(_polyder(f[live]), live)
+        ref = np.zeros(m)
+        np.maximum.at(ref, pc.mem[live], np.abs(df).max(axis=1))
+        rp, rs = real_roots_unit(df, live, ref=ref[pc.mem[live]])
         vals = [_polyval(a[rp], rs) for a in parts]
         fr = sum(v * v for v in vals)
         mem = np.concatenate([mem, pc.mem[rp]])
         xs = np.concatenate([xs, pc.x0[rp] + rs * pc.h[rp]])
         fv = np.concatenate([fv, fr])
-    del npc
-    val, at = _group_pick(mem, fv, xs, m, True)
+    val, at = _Grouped(mem, xs, m).pick(fv, True)
     return np.sqrt(val), at
 
 
@@ -636,6 +727,10 @@ class DeflectionCheck:
     ok: bool
 
 
+_EXTREME_KEYS = ("n_max", "n_max_at", "n_min", "n_min_at", "v_max", "v_max_at", "v_min", "v_min_at",
+                 "m_max", "m_max_at", "m_min", "m_min_at")
+
+
 def _as_out(x, arr: np.ndarray):
     return float(arr[0]) if np.ndim(x) == 0 else arr
 
@@ -658,6 +753,19 @@ class MemberResult:
     Sign convention: N tension positive; V positive when it turns the
     element clockwise; M positive when it bends the member concave toward
     local +y.  Positions x run from the member start, 0 <= x <= length.
+
+    Examples
+    --------
+    A 6 m simple span under 10 (force/length) downward, held up by 30 at
+    each end:
+
+    >>> from solver.forces import LoadSet, MemberResult
+    >>> q = LoadSet.build(distributed=[(0.0, 6.0, 0.0, -10.0, 0.0, -10.0)])
+    >>> mr = MemberResult(6.0, 1.0, 0.0, [0, 30, 0, 0, 30, 0], q)
+    >>> mr.moment(3.0), mr.shear(6.0, side="left")
+    (45.0, -30.0)
+    >>> mr.extremes()["m_max"], mr.extremes()["m_max_at"]
+    (45.0, 3.0)
     """
 
     length: float
@@ -672,9 +780,18 @@ class MemberResult:
 
     def __post_init__(self) -> None:
         self.length = float(self.length)
+        if not (self.length > 0 and np.isfinite(self.length)):
+            raise ValueError(f"member length must be positive, got {self.length!r}")
         self.end_forces = np.asarray(self.end_forces, dtype=float).reshape(6)
         if self.end_displacements is not None:
             self.end_displacements = np.asarray(self.end_displacements, dtype=float).reshape(4)
+        ld = self.loads
+        pos = np.concatenate([ld.points[:, 0], ld.couples[:, 0], ld.distributed[:, 0], ld.distributed[:, 1]])
+        tol = _POS_TOL * self.length
+        if pos.size and (pos.min() < -tol or pos.max() > self.length + tol):
+            raise ValueError(f"a load position lies outside the member (length {self.length:g})")
+        if len(ld.distributed) and np.any(ld.distributed[:, 1] <= ld.distributed[:, 0]):
+            raise ValueError("a distributed load needs a < b")
 
     @property
     def has_deflection(self) -> bool:
@@ -768,8 +885,13 @@ class MemberResult:
 
     @cached_property
     def _extremes(self) -> dict[str, float]:
-        ex = _extremes_batch(self._pieces)
-        return {k: float(v[0]) for k, v in ex.items()}
+        src = self.__dict__.get("_source")
+        if src is not None:  # part of a MemberResults: one vectorised pass for all members
+            parent, j = src
+            tab = parent.force_table()
+        else:
+            tab, j = _extremes_batch(self._pieces), 0
+        return {k: float(tab[k][j]) for k in _EXTREME_KEYS}
 
     def extremes(self) -> dict[str, float]:
         """Largest and smallest N, V, M and their positions (exact):
@@ -782,7 +904,9 @@ class MemberResult:
         pc = self._pieces
         pts = [self._breaks]
         for which in ("V", "M"):
-            rp, rs = real_roots_unit(_to_unit(pc.coef(which), pc.h))
+            c = pc.coef(which)
+            ends = pc.values(which, pc.h)
+            rp, rs = real_roots_unit(_to_unit(c, pc.h), ref=_member_ref(pc, c[:, 0], ends))
             pts.append(pc.x0[rp] + rs * pc.h[rp])
         x = np.sort(np.concatenate(pts))
         x = np.clip(x, 0.0, self.length)
@@ -795,6 +919,11 @@ class MemberResult:
         sections."""
         if not self.has_deflection:
             return None
+        src = self.__dict__.get("_source")
+        if src is not None:
+            parent, j = src
+            tab = parent.deflection_table()
+            return float(tab["deflection_max"][j]), float(tab["deflection_max_at"][j])
         pc = self._pieces
         val, at = _max_abs_batch(pc, _displacement_parts(pc))
         return float(val[0]), float(at[0])
@@ -870,7 +999,8 @@ class MemberResults(Mapping):
         self.end_displacements = (None if end_displacements is None or layout.EI is None
                                   else np.asarray(end_displacements, dtype=float).reshape(len(layout), 4))
         self._cache: dict[str, MemberResult] = {}
-        self._table: dict[str, np.ndarray] | None = None
+        self._ftable: dict[str, np.ndarray] | None = None
+        self._dtable: dict[str, np.ndarray] | None = None
         self._pc: _Pieces | None = None
 
     # Mapping protocol
@@ -886,12 +1016,7 @@ class MemberResults(Mapping):
             self.loads.of_member(j), None if d is None else d[j].copy(),
             None if d is None else float(lay.EA[j]), None if d is None else float(lay.EI[j]), mid,
         )
-        # share the pieces (and extremes, once tabulated) already built for all members
-        mr.__dict__["_pieces"] = self._pieces().member(j)
-        if self._table is not None:
-            mr.__dict__["_extremes"] = {
-                k: float(v[j]) for k, v in self._table.items() if not k.startswith("deflection")
-            }
+        mr.__dict__["_source"] = (self, j)
         self._cache[mid] = mr
         return mr
 
@@ -919,21 +1044,29 @@ class MemberResults(Mapping):
                                      lay.EI if self.has_deflection else None)
         return self._pc
 
-    def table(self) -> dict[str, np.ndarray]:
-        """Extremes of every member (arrays in layout order): the keys of
-        :meth:`MemberResult.extremes` plus ``deflection_max`` and
-        ``deflection_max_at`` (largest |displacement| and position, NaN
-        without sections)."""
-        if self._table is None:
-            pc = self._pieces()
-            out = _extremes_batch(pc)
+    def force_table(self) -> dict[str, np.ndarray]:
+        """Extremes of N, V, M of every member (arrays in layout order),
+        keys as :meth:`MemberResult.extremes`; one vectorised pass."""
+        if self._ftable is None:
+            self._ftable = _extremes_batch(self._pieces())
+        return self._ftable
+
+    def deflection_table(self) -> dict[str, np.ndarray]:
+        """``deflection_max`` (largest |displacement|, as
+        :meth:`MemberResult.max_deflection`) and ``deflection_max_at`` of
+        every member; NaN without sections."""
+        if self._dtable is None:
             if self.has_deflection:
-                out["deflection_max"], out["deflection_max_at"] = _max_abs_batch(pc, _displacement_parts(pc))
+                pc = self._pieces()
+                val, at = _max_abs_batch(pc, _displacement_parts(pc))
             else:
-                nan = np.full(len(self), np.nan)
-                out["deflection_max"], out["deflection_max_at"] = nan, nan.copy()
-            self._table = out
-        return self._table
+                val, at = np.full(len(self), np.nan), np.full(len(self), np.nan)
+            self._dtable = {"deflection_max": val, "deflection_max_at": at}
+        return self._dtable
+
+    def table(self) -> dict[str, np.ndarray]:
+        """:meth:`force_table` and :meth:`deflection_table` together."""
+        return {**self.force_table(), **self.deflection_table()}
 
     def scaled(self, f: float) -> "MemberResults":
         return MemberResults(self.layout, self.end_forces * f, self.loads.scaled(f),

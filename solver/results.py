@@ -149,6 +149,7 @@ def combine(
     case_results: Mapping[str, CaseResult],
     factors,
     name: str | None = None,
+    *,
     family: str = "",
 ):
     """Superpose load-case results.
