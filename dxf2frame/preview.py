@@ -1,0 +1,211 @@
+"""PNG preview of a DXF drawing, rendered by ezdxf's drawing add-on.
+
+The picture is the modelspace of the drawing on a white background, cropped
+to the drawn content, written atomically.  Text too small to read in the
+picture (under 1.5 pixels tall, e.g. the attributes of thousands of load
+blocks on a big frame) is left out: drawing glyphs nobody can read is what
+makes big previews slow.  Matplotlib is used through its
+object API with the Agg canvas (no pyplot, no change of the process-wide
+matplotlib backend), so rendering is safe in worker processes and threads.
+"""
+from __future__ import annotations
+
+import io
+from pathlib import Path
+from typing import Iterable
+
+import ezdxf
+from ezdxf import bbox, recover
+from ezdxf.addons.drawing import Frontend, RenderContext
+from ezdxf.addons.drawing.config import BackgroundPolicy, Configuration
+from ezdxf.addons.drawing.matplotlib import MatplotlibBackend
+from ezdxf.npshapes import to_matplotlib_path
+from matplotlib.collections import PathCollection
+from matplotlib.path import Path as MplPath
+from ezdxf.addons.drawing.properties import LayoutProperties
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+
+from .atomic import write_bytes
+from .errors import InputFileError
+
+__all__ = ["render_png", "render_doc_png"]
+
+#: Longest side of the picture in inches; with dpi=150 about 1800 px.
+_FIGURE_INCHES = 12.0
+#: Text shorter than this in the picture [px] is not drawn.
+_MIN_TEXT_PX = 1.5
+_TEXT_TYPES = {"TEXT", "ATTRIB", "MTEXT", "ATTDEF"}
+
+
+def _load(dxf_path: Path) -> "ezdxf.document.Drawing":
+    """Open the drawing; a damaged file goes through ezdxf's recover mode."""
+    try:
+        return ezdxf.readfile(dxf_path)
+    except OSError as exc:
+        raise InputFileError(f"{dxf_path}: cannot open ({exc})") from exc
+    except Exception:  # noqa: BLE001 - ezdxf raises several kinds for damaged files
+        try:
+            doc, _auditor = recover.readfile(dxf_path)
+        except Exception as exc:  # noqa: BLE001
+            raise InputFileError(f"{dxf_path}: cannot read as DXF ({exc})") from exc
+        return doc
+
+
+def render_doc_png(
+    doc: "ezdxf.document.Drawing",
+    png_path: Path,
+    *,
+    dpi: int = 150,
+    layers: Iterable[str] | None = None,
+) -> None:
+    """Render the modelspace of an open document to ``png_path`` (atomic).
+
+    Parameters
+    ----------
+    doc : an ezdxf document
+    png_path : output PNG file
+    dpi : resolution; the longer side of the picture is about 12 inches
+    layers : when given, only entities on these layers are drawn (names
+        compared case-insensitively); otherwise every visible layer.
+    """
+    msp = doc.modelspace()
+    keep = {name.upper() for name in layers} if layers is not None else None
+
+    def wanted(entity) -> bool:
+        return keep is None or entity.dxf.get("layer", "0").upper() in keep
+
+    box = _extents(msp, wanted)
+    fig = Figure(dpi=dpi)
+    FigureCanvasAgg(fig)
+    ax = fig.add_axes((0.0, 0.0, 1.0, 1.0))
+    ctx = RenderContext(doc)
+    config = Configuration(background_policy=BackgroundPolicy.WHITE)
+    layout_properties = LayoutProperties.from_layout(msp)
+    layout_properties.set_colors("#ffffff")
+    backend = _QuickBackend(ax) if box is not None else MatplotlibBackend(ax)
+    frontend = Frontend(ctx, backend, config)
+    if box is not None:
+        span = max(box[2] - box[0], box[3] - box[1])
+        frontend.push_property_override_function(_hide_small_text(_MIN_TEXT_PX * span / (_FIGURE_INCHES * dpi)))
+    frontend.draw_layout(msp, finalize=True, filter_func=wanted, layout_properties=layout_properties)
+    if box is not None:
+        # paths were added without updating the data limits (see _QuickBackend)
+        pad = 0.03 * max(box[2] - box[0], box[3] - box[1])
+        ax.set_xlim(box[0] - pad, box[2] + pad)
+        ax.set_ylim(box[1] - pad, box[3] + pad)
+    # size the figure to the drawing's aspect ratio (tight bounds)
+    x0, x1 = ax.get_xlim()
+    y0, y1 = ax.get_ylim()
+    w, h = abs(x1 - x0), abs(y1 - y0)
+    if w <= 0 or h <= 0:
+        w = h = 1.0
+    if w >= h:
+        size = (_FIGURE_INCHES, max(_FIGURE_INCHES * h / w, 1.0))
+    else:
+        size = (max(_FIGURE_INCHES * w / h, 1.0), _FIGURE_INCHES)
+    fig.set_size_inches(*size)
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=dpi, facecolor="white")
+    write_bytes(png_path, buf.getvalue())
+
+
+class _QuickBackend(MatplotlibBackend):
+    """Matplotlib backend that collects what the frontend draws and adds it
+    as a few collections at the end instead of one artist per primitive
+    (one artist each is most of the time of a big drawing).
+
+    Drawing order: translucent fills (the diagram hatches), then lines and
+    outlines, then opaque fills (text glyphs, arrow heads, solids), then
+    points.  The caller sets the axes limits from the drawing's extents.
+    """
+
+    def __init__(self, ax) -> None:
+        super().__init__(ax)
+        self._lines: dict[tuple, list] = {}
+        self._fills: dict[str, list] = {}
+        self._points: dict[str, list] = {}
+
+    def draw_point(self, pos, properties) -> None:
+        self._points.setdefault(properties.color, []).append((pos.x, pos.y))
+
+    def draw_line(self, start, end, properties) -> None:
+        key = (properties.color, self.get_lineweight(properties))
+        self._lines.setdefault(key, []).append(MplPath([(start.x, start.y), (end.x, end.y)]))
+
+    def draw_solid_lines(self, lines, properties) -> None:
+        key = (properties.color, self.get_lineweight(properties))
+        bucket = self._lines.setdefault(key, [])
+        for s, e in lines:
+            bucket.append(MplPath([(s.x, s.y), (e.x, e.y)]))
+
+    def draw_path(self, path, properties) -> None:
+        key = (properties.color, self.get_lineweight(properties))
+        self._lines.setdefault(key, []).append(to_matplotlib_path([path]))
+
+    def draw_filled_paths(self, paths, properties) -> None:
+        self._fills.setdefault(properties.color, []).append(to_matplotlib_path(paths, detect_holes=True))
+
+    def draw_filled_polygon(self, points, properties) -> None:
+        xy = [(p.x, p.y) for p in points.vertices()]
+        if len(xy) >= 3:
+            self._fills.setdefault(properties.color, []).append(MplPath(xy + [xy[0]], closed=True))
+
+    def finalize(self) -> None:
+        def fills(translucent: bool) -> None:
+            for color, paths in self._fills.items():
+                if (len(color) == 9 and color[7:].lower() != "ff") == translucent:
+                    self.ax.add_collection(PathCollection(paths, facecolors=color, edgecolors="none",
+                                                          linewidths=0), autolim=False)
+
+        fills(True)
+        for (color, lw), paths in self._lines.items():
+            self.ax.add_collection(PathCollection(paths, facecolors="none", edgecolors=color,
+                                                  linewidths=lw), autolim=False)
+        fills(False)
+        for color, pts in self._points.items():
+            self.ax.scatter(*zip(*pts), s=0.1, c=color)
+        super().finalize()
+
+
+def _extents(msp, wanted) -> tuple[float, float, float, float] | None:
+    """(xmin, ymin, xmax, ymax) of the drawn entities, or None if unknown."""
+    try:
+        box = bbox.extents((e for e in msp if wanted(e)), fast=True)
+    except Exception:  # noqa: BLE001 - fall back to matplotlib's own limits
+        return None
+    if not box.has_data or not max(box.size.x, box.size.y) > 0:
+        return None
+    return box.extmin.x, box.extmin.y, box.extmax.x, box.extmax.y
+
+
+def _hide_small_text(min_height: float):
+    """Property override: text entities (also inside blocks) below ``min_height`` are not drawn."""
+
+    def override(entity, properties) -> None:
+        kind = entity.dxftype()
+        if kind not in _TEXT_TYPES:
+            return
+        h = entity.dxf.get("char_height" if kind == "MTEXT" else "height", 0.0)
+        if h and h < min_height:
+            properties.is_visible = False
+
+    return override
+
+
+def render_png(
+    dxf_path: Path,
+    png_path: Path,
+    *,
+    dpi: int = 150,
+    layers: list[str] | None = None,
+) -> None:
+    """Render the modelspace of the DXF file ``dxf_path`` to ``png_path``.
+
+    White background, picture cropped to the drawing's content, written
+    atomically (a failure leaves no PNG).  ``layers`` limits the drawing to
+    the named layers (e.g. the frame layers plus ``RESULT-MOMENT``).
+    Raises :class:`~dxf2frame.errors.InputFileError` if the file cannot be
+    read.
+    """
+    render_doc_png(_load(Path(dxf_path)), Path(png_path), dpi=dpi, layers=layers)

@@ -1,0 +1,690 @@
+"""The machine-readable report (JSON, schema 1) and the CSV of member extremes.
+
+The keys of schema 1 (see the project's report schema) are a contract; this
+module adds keys but never renames or drops one.  Added keys:
+
+* top level: ``tool_version``, ``caution`` (the safety text), ``envelopes``
+  (per combination family: the largest and smallest value of every member
+  quantity and reaction, with the combination that governs it);
+* ``units``: ``moment``, ``distributed``, ``drawing_length``;
+* ``model``: ``elements`` (analysis elements; ``members`` counts reported
+  members, i.e. groups of elements of one drawn span);
+* ``determinacy``: ``warnings``, ``nodes_involved`` (unstable frames);
+* per member: ``elements``, ``deflection_ratio`` (length / |deflection_max|,
+  null when there is no deflection), ``deflection_limit`` (the span/limit
+  ratio from the settings, null when none), ``deflection_ok``;
+* per reaction: ``node``, ``support`` (the support kind);
+* per probe: ``element``, ``at`` (distance from the member start),
+  ``deflection``.
+
+Units and signs
+---------------
+The analysis is in SI (N, m); every number in the report is converted to
+the report's force and length units at the very end: forces in FORCE,
+moments in FORCE*LENGTH, positions, lengths and deflections in LENGTH.
+Signs follow the drawing convention: N tension positive; V positive when it
+turns the element clockwise; M positive when it bends the member concave
+toward local +y (sagging for a beam drawn left to right); reactions along
+global +X, +Y and moment counter-clockwise positive.
+
+``deflection_max`` is the largest magnitude of the displacement of a point
+of the member (sqrt(u**2 + v**2), including the movement of its ends), in
+LENGTH, as the solver computes it exactly; null without member sections.
+``deflection_ratio`` is the member length divided by it.
+"""
+from __future__ import annotations
+
+import csv
+import json
+import math
+from dataclasses import dataclass
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, Iterable, Mapping, Sequence
+
+import numpy as np
+
+from . import CAUTION, __version__
+from .atomic import atomic_open
+from .errors import DrawingError
+from .units import length_unit_scale, unit_factor
+
+if TYPE_CHECKING:  # pragma: no cover - typing only
+    from solver import Frame, Member
+
+    from .drawing_model import DrawingModel
+
+__all__ = [
+    "UnitFactors",
+    "unit_factors",
+    "MemberGroup",
+    "member_groups",
+    "element_table",
+    "locate_points",
+    "build_report",
+    "dumps_report",
+    "write_json",
+    "write_csv",
+    "CSV_COLUMNS",
+]
+
+#: columns of the CSV, one row per result x member
+CSV_COLUMNS: tuple[str, ...] = (
+    "result", "kind", "member", "layer", "handle", "length",
+    "n_min", "n_max", "v_min", "v_max", "m_min", "m_max",
+    "m_min_at", "m_max_at", "deflection_max",
+)
+
+_QUANTITIES = ("n_min", "n_max", "v_min", "v_max", "m_min", "m_max")
+
+
+# -- units --------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class UnitFactors:
+    """Multipliers from SI to the report's units.
+
+    ``value_in_report = value_si * factor``: ``force`` for N, ``length``
+    for m, ``moment`` for N*m, ``distributed`` for N/m.
+    """
+
+    force_unit: str
+    length_unit: str
+    force: float
+    length: float
+
+    @property
+    def moment(self) -> float:
+        return self.force * self.length
+
+    @property
+    def distributed(self) -> float:
+        return self.force / self.length
+
+    @property
+    def moment_unit(self) -> str:
+        return f"{self.force_unit}*{self.length_unit}"
+
+    @property
+    def distributed_unit(self) -> str:
+        return f"{self.force_unit}/{self.length_unit}"
+
+
+def unit_factors(force_unit: str, length_unit: str) -> UnitFactors:
+    """Factors from SI to ``force_unit`` and ``length_unit`` (pint names).
+
+    Raises :class:`~dxf2frame.errors.UnitError` for an unknown unit or one
+    of the wrong dimension.
+
+    >>> f = unit_factors("kN", "mm")
+    >>> f.force, f.length, f.moment
+    (0.001, 1000.0, 1.0)
+    """
+    return UnitFactors(force_unit, length_unit, 1.0 / unit_factor(force_unit, "force"),
+                       1.0 / length_unit_scale(length_unit))
+
+
+# -- member groups ------------------------------------------------------------
+
+
+@dataclass
+class MemberGroup:
+    """The analysis elements of one reported member, in order from its start.
+
+    ``offsets[k]`` is the distance [m] from the group's start to the start
+    of ``members[k]``; ``length`` [m] is the total.
+    """
+
+    id: str
+    members: list["Member"]
+    offsets: list[float]
+    length: float
+    start: tuple[float, float]
+    end: tuple[float, float]
+
+
+def member_groups(frame: "Frame") -> dict[str, MemberGroup]:
+    """Group the frame's elements by ``Member.group`` (first-seen order).
+
+    Pieces of one drawn span all run the same way (start = smaller X, ties
+    smaller Y), so they are ordered by their start node's (x, y).
+    """
+    by_group: dict[str, list] = {}
+    for m in frame.members:
+        by_group.setdefault(m.group, []).append(m)
+    out: dict[str, MemberGroup] = {}
+    nodes = frame.nodes
+    for gid, members in by_group.items():
+        members = sorted(members, key=lambda m: (nodes[m.start].x, nodes[m.start].y))
+        offsets, total = [], 0.0
+        for m in members:
+            offsets.append(total)
+            total += frame.geometry(m)[0]
+        a, b = nodes[members[0].start], nodes[members[-1].end]
+        out[gid] = MemberGroup(gid, members, offsets, total, (a.x, a.y), (b.x, b.y))
+    return out
+
+
+# -- numbers -------------------------------------------------------------------
+
+
+def _num(v: Any) -> float | None:
+    """A JSON-safe float (12 significant digits) or None for NaN/inf/None."""
+    if v is None:
+        return None
+    f = float(v)
+    if not math.isfinite(f):
+        return None
+    if f == 0.0:
+        return 0.0
+    return float(f"{f:.12g}")
+
+
+def _round12(a: np.ndarray) -> list:
+    """12 significant figures, vectorised; NaN/inf become None."""
+    a = np.asarray(a, dtype=float)
+    out = a.copy()
+    # values so small or large that the decimal scale would overflow stay as they are
+    mag = np.abs(a)
+    ok = np.isfinite(a) & (mag > 1e-280) & (mag < 1e280)
+    if ok.any():
+        e = np.floor(np.log10(np.abs(a[ok])))
+        scale = 10.0 ** (11 - e)
+        out[ok] = np.round(a[ok] * scale) / scale
+    vals = out.tolist()
+    bad = ~np.isfinite(a)
+    if bad.any():
+        for i in np.flatnonzero(bad):
+            vals[i] = None
+    return vals
+
+
+_TABLE_KEYS = ("n_min", "n_max", "v_min", "v_max", "m_min", "m_max", "m_min_at", "m_max_at", "deflection_max")
+
+
+def element_table(res, frame: "Frame") -> dict[str, np.ndarray]:
+    """Extremes of every element of one result, in ``frame.members`` order [SI].
+
+    Keys: n_min ... m_max, m_min_at, m_max_at (from the element start) and
+    deflection_max (largest magnitude of the displacement along the
+    element, NaN without sections).  Uses the solver's vectorised
+    ``member_table()`` when the result has one, else each member's
+    ``extremes()`` and ``max_deflection()``.
+    """
+    table_fn = getattr(res, "member_table", None)
+    if table_fn is not None:
+        tbl = table_fn()
+        pos = {mid: i for i, mid in enumerate(res.members)}
+        order = np.array([pos[m.id] for m in frame.members], dtype=int)
+        return {k: np.asarray(tbl[k], dtype=float)[order] for k in _TABLE_KEYS}
+    cols: dict[str, list[float]] = {k: [] for k in _TABLE_KEYS}
+    for m in frame.members:
+        mr = res.members[m.id]
+        ex = mr.extremes()
+        for k in _TABLE_KEYS[:-1]:
+            cols[k].append(float(ex[k]))
+        md = getattr(mr, "max_deflection", None)
+        d = md() if md is not None else None
+        cols["deflection_max"].append(float(d[0]) if d is not None else math.nan)
+    return {k: np.asarray(v, dtype=float) for k, v in cols.items()}
+
+
+@dataclass
+class _GroupIndex:
+    """Where each reported member's elements sit in ``frame.members``."""
+
+    groups: list[MemberGroup]
+    first: np.ndarray                     # element index of each group's first piece
+    multi: list[tuple[int, list[int], list[float]]]  # (group, element indices, offsets [m])
+
+
+def _group_index(frame: "Frame") -> _GroupIndex:
+    groups = list(member_groups(frame).values())
+    where = {m.id: i for i, m in enumerate(frame.members)}
+    first = np.array([where[g.members[0].id] for g in groups], dtype=int)
+    multi = [(gi, [where[m.id] for m in g.members], list(g.offsets))
+             for gi, g in enumerate(groups) if len(g.members) > 1]
+    return _GroupIndex(groups, first, multi)
+
+
+def _group_values(tbl: dict[str, np.ndarray], gx: _GroupIndex) -> dict[str, np.ndarray]:
+    """Element extremes combined per reported member (positions from the group's start)."""
+    out = {k: v[gx.first].copy() for k, v in tbl.items()}
+    for gi, idx, offs in gx.multi:
+        for k, pick in (("n_min", np.min), ("n_max", np.max), ("v_min", np.min), ("v_max", np.max)):
+            out[k][gi] = pick(tbl[k][idx])
+        for k, better in (("m_min", np.argmin), ("m_max", np.argmax)):
+            vals = tbl[k][idx]
+            j = int(better(vals))          # first piece on ties: nearest the start
+            out[k][gi] = vals[j]
+            out[f"{k}_at"][gi] = offs[j] + tbl[f"{k}_at"][idx][j]
+        d = tbl["deflection_max"][idx]
+        out["deflection_max"][gi] = np.nan if np.all(np.isnan(d)) else np.nanmax(d)
+    return out
+
+
+def _limit_for(layer: str, limits: Mapping | None) -> float | None:
+    """span/deflection limit of a layer from the settings' deflection table.
+
+    Accepts ``{"limit": 240, "layers": {"FRAME-BEAMS": 360}}`` (the settings
+    file's shape), a flat ``{"default": 240, "FRAME-BEAMS": 360}``, or an
+    object with ``deflection_limit_for(layer)`` (a Settings).
+    """
+    if limits is None:
+        return None
+    fn = getattr(limits, "deflection_limit_for", None)
+    if fn is not None:
+        return float(fn(layer))
+    if not limits:
+        return None
+    if "layers" in limits or "limit" in limits:
+        per = limits.get("layers") or {}
+        default = limits.get("limit", limits.get("default"))
+    else:
+        per, default = limits, limits.get("default")
+    for key, val in per.items():
+        if key.upper() == layer.upper():
+            return float(val)
+    return float(default) if default is not None else None
+
+
+_ROW_KEYS = ("n_min", "n_max", "v_min", "v_max", "m_min", "m_max", "m_max_at", "m_min_at", "deflection_max")
+
+
+@dataclass
+class _StaticRows:
+    """The parts of the member entries that do not depend on the result."""
+
+    heads: list[dict]               # id, layer, handle, start, end, length (+ elements)
+    lengths: np.ndarray             # [m]
+    limits: list[float | None]
+
+
+def _static_rows(gx: _GroupIndex, uf: UnitFactors, limits: Mapping | None) -> _StaticRows:
+    L = uf.length
+    heads, limit_cache, lims = [], {}, []
+    for grp in gx.groups:
+        m0 = grp.members[0]
+        head = {
+            "id": grp.id, "layer": m0.layer, "handle": m0.handle,
+            "start": [_num(grp.start[0] * L), _num(grp.start[1] * L)],
+            "end": [_num(grp.end[0] * L), _num(grp.end[1] * L)],
+            "length": _num(grp.length * L),
+        }
+        if len(grp.members) > 1:
+            head["elements"] = [m.id for m in grp.members]
+        heads.append(head)
+        if m0.layer not in limit_cache:
+            limit_cache[m0.layer] = _limit_for(m0.layer, limits)
+        lims.append(limit_cache[m0.layer])
+    return _StaticRows(heads, np.array([g.length for g in gx.groups]), lims)
+
+
+def _member_columns(res, frame: "Frame", gx: _GroupIndex, uf: UnitFactors, static: _StaticRows) -> dict[str, np.ndarray]:
+    """Per reported member, for one result: the extremes in report units
+    (keys of :data:`_ROW_KEYS`) and ``deflection_ratio`` (NaN where none)."""
+    g = _group_values(element_table(res, frame), gx)
+    F, L, M = uf.force, uf.length, uf.moment
+    scale = {"n_min": F, "n_max": F, "v_min": F, "v_max": F, "m_min": M, "m_max": M,
+             "m_max_at": L, "m_min_at": L, "deflection_max": L}
+    cols = {k: g[k] * scale[k] for k in _ROW_KEYS}
+    defl_m = g["deflection_max"]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        cols["deflection_ratio"] = np.where(defl_m > 0, static.lengths / defl_m, np.nan)
+    return cols
+
+
+def _member_rows(cols: dict[str, np.ndarray], static: _StaticRows) -> list[dict]:
+    """Report entries of every reported member from :func:`_member_columns`."""
+    vals = [_round12(cols[k]) for k in _ROW_KEYS]
+    ratio = _round12(cols["deflection_ratio"])
+    rows = []
+    for head, v, r, limit in zip(static.heads, zip(*vals), ratio, static.limits):
+        row = dict(head)
+        row.update(zip(_ROW_KEYS, v))
+        row["deflection_ratio"] = r
+        row["deflection_limit"] = limit
+        row["deflection_ok"] = (r >= limit) if (r is not None and limit is not None) else None
+        rows.append(row)
+    return rows
+
+
+def _reaction_rows(res, frame: "Frame", uf: UnitFactors) -> list[dict]:
+    """Reactions summed per support node, in node order of first appearance."""
+    kinds = {}
+    for s in frame.supports:
+        kinds.setdefault(s.node, s.kind)
+    acc: dict[int, list[float]] = {}
+    for r in res.reactions:
+        a = acc.setdefault(int(r.node), [0.0, 0.0, 0.0])
+        a[0] += r.fx
+        a[1] += r.fy
+        a[2] += r.m
+    rows = []
+    for node, (fx, fy, m) in acc.items():
+        nd = frame.nodes[node]
+        rows.append({
+            "x": _num(nd.x * uf.length), "y": _num(nd.y * uf.length),
+            "fx": _num(fx * uf.force), "fy": _num(fy * uf.force), "m": _num(m * uf.moment),
+            "node": node, "support": kinds.get(node, ""),
+        })
+    return rows
+
+
+# -- probes -------------------------------------------------------------------
+
+
+def locate_points(
+    model: "DrawingModel", points: Iterable[tuple[float, float]], tolerance: float | None = None
+) -> list[tuple[str, float]]:
+    """Find the element under each drawing point.
+
+    Parameters
+    ----------
+    model : the drawing model (frame in m, ``unit_scale`` m per drawing unit)
+    points : (X, Y) in drawing units
+    tolerance : largest distance [drawing units] from a member; default
+        1/1000 of the larger side of the frame's extents.
+
+    Returns
+    -------
+    (element id, local x [m]) per point.
+
+    Raises
+    ------
+    DrawingError  when a point is farther than ``tolerance`` from every member.
+    """
+    frame = model.frame
+    pts = list(points)
+    if not pts:
+        return []
+    nodes = np.array([(n.x, n.y) for n in frame.nodes], dtype=float) / model.unit_scale
+    si = np.array([m.start for m in frame.members])
+    ei = np.array([m.end for m in frame.members])
+    a, b = nodes[si], nodes[ei]
+    d = b - a
+    ll = np.einsum("ij,ij->i", d, d)
+    if tolerance is None:
+        span = np.ptp(nodes, axis=0).max() if len(nodes) else 1.0
+        tolerance = 1e-3 * (span if span > 0 else 1.0)
+    out = []
+    for x, y in pts:
+        p = np.array([float(x), float(y)])
+        t = np.clip(np.einsum("ij,ij->i", p - a, d) / ll, 0.0, 1.0)
+        q = a + t[:, None] * d
+        dist = np.hypot(*(q - p).T)
+        i = int(np.argmin(dist))
+        m = frame.members[i]
+        if dist[i] > tolerance:
+            raise DrawingError(
+                f"probe ({x:g}, {y:g}) is not on any member; nearest is {m.group} at {dist[i]:.4g}",
+                hint=f"give a point within {tolerance:.3g} drawing units of a member centreline",
+            )
+        out.append((m.id, float(t[i] * math.sqrt(ll[i]) * model.unit_scale)))
+    return out
+
+
+def _probe_rows(res, located, probes, groups_of, uf: UnitFactors) -> list[dict]:
+    rows = []
+    for (px, py), (mid, xl) in zip(probes, located):
+        mr = res.members[mid]
+        x = np.array([xl])
+        gid, off = groups_of[mid]
+        row = {
+            "x": _num(px), "y": _num(py), "member": gid,
+            "n": _num(float(np.asarray(mr.axial(x))[0]) * uf.force),
+            "v": _num(float(np.asarray(mr.shear(x))[0]) * uf.force),
+            "m": _num(float(np.asarray(mr.moment(x))[0]) * uf.moment),
+            "element": mid, "at": _num((off + xl) * uf.length),
+        }
+        try:
+            d = mr.deflection(x)
+        except Exception:  # noqa: BLE001
+            d = None
+        row["deflection"] = _num(float(np.asarray(d[1])[0]) * uf.length) if d is not None else None
+        rows.append(row)
+    return rows
+
+
+# -- envelopes ------------------------------------------------------------------
+
+
+def _family(res) -> str:
+    fam = getattr(res, "family", None)
+    return str(fam) if fam else "all"
+
+
+def _envelope(name: str, family: str, names: list[str], cols: list[dict[str, np.ndarray]],
+              reactions: list[list[dict]], static: _StaticRows) -> dict:
+    """Envelope over results ``names`` from their member columns (report
+    units) and reaction rows: per member and quantity the extreme value, its
+    position for M, and the governing result (``<q>_by``; ties go to the
+    earlier result)."""
+    members: list[dict] = [
+        {"id": h["id"], "layer": h["layer"], "handle": h["handle"]} for h in static.heads
+    ]
+    governing: list[dict] = [{} for _ in members]
+    for q in _QUANTITIES:
+        stack = np.vstack([c[q] for c in cols])
+        w = np.argmax(stack, axis=0) if q.endswith("max") else np.argmin(stack, axis=0)
+        j = np.arange(stack.shape[1])
+        vals = _round12(stack[w, j])
+        ats = _round12(np.vstack([c[f"{q}_at"] for c in cols])[w, j]) if q in ("m_max", "m_min") else None
+        for i, (e, g) in enumerate(zip(members, governing)):
+            e[q] = vals[i]
+            e[f"{q}_by"] = g[q] = names[int(w[i])]
+            if ats is not None:
+                e[f"{q}_at"] = ats[i]
+    dstack = np.vstack([c["deflection_max"] for c in cols])
+    have = ~np.all(np.isnan(dstack), axis=0)
+    dw = np.argmax(np.where(np.isnan(dstack), -np.inf, dstack), axis=0)
+    j = np.arange(dstack.shape[1])
+    dvals = _round12(np.where(have, dstack[dw, j], np.nan))
+    dratio = _round12(np.vstack([c["deflection_ratio"] for c in cols])[dw, j])
+    for i, (e, g, limit) in enumerate(zip(members, governing, static.limits)):
+        e["deflection_max"] = dvals[i]
+        e["deflection_max_by"] = names[int(dw[i])] if have[i] else None
+        e["deflection_ratio"] = dratio[i] if have[i] else None
+        e["deflection_limit"] = limit
+        e["governing"] = g
+    reac: dict[int, dict] = {}
+    for rname, rows in zip(names, reactions):
+        for rc in rows:
+            e = reac.setdefault(rc["node"], {"node": rc["node"], "x": rc["x"], "y": rc["y"]})
+            for c in ("fx", "fy", "m"):
+                v = rc[c]
+                if e.get(f"{c}_max") is None or v > e[f"{c}_max"]:
+                    e[f"{c}_max"], e[f"{c}_max_by"] = v, rname
+                if e.get(f"{c}_min") is None or v < e[f"{c}_min"]:
+                    e[f"{c}_min"], e[f"{c}_min_by"] = v, rname
+    return {"name": name, "family": family, "combinations": list(names),
+            "members": members, "reactions": list(reac.values())}
+
+
+# -- the report -----------------------------------------------------------------
+
+
+def build_report(
+    model: "DrawingModel",
+    det,
+    results: Sequence,
+    *,
+    force_unit: str,
+    length_unit: str,
+    probes: Iterable[tuple[float, float]] = (),
+    deflection_limits: Mapping | None = None,
+    probe_tolerance: float | None = None,
+) -> dict:
+    """Build the JSON report (schema 1) as a dict.
+
+    Parameters
+    ----------
+    model : the drawing model (frame in SI)
+    det : the determinacy result (``solver.Determinacy``)
+    results : ``CaseResult`` objects, load cases then combinations; empty
+        for an unstable frame
+    force_unit, length_unit : pint names of the report's units
+    probes : (X, Y) drawing points where N, V, M are reported
+    deflection_limits : span/deflection limits, ``{"limit": 240, "layers":
+        {"FRAME-BEAMS": 360}}`` (or flat ``{"default": 240, layer: n}``)
+    probe_tolerance : largest probe distance from a member [drawing units]
+
+    Raises
+    ------
+    DrawingError  a probe lies on no member
+    UnitError  unknown report unit
+    """
+    uf = unit_factors(force_unit, length_unit)
+    frame = model.frame
+    gx = _group_index(frame)
+    static = _static_rows(gx, uf, deflection_limits)
+    groups_of = {m.id: (g.id, off) for g in gx.groups for m, off in zip(g.members, g.offsets)}
+    probes = [(float(x), float(y)) for x, y in probes]
+    located = locate_points(model, probes, probe_tolerance) if (probes and results) else []
+
+    det_warnings = list(getattr(det, "warnings", []) or [])
+    determinacy = {
+        "status": det.status,
+        "degree": int(det.degree),
+        "mechanisms": int(det.mechanisms),
+        "count_check": det.count_check,
+        "detail": det.detail,
+        "warnings": det_warnings,
+    }
+    involved = getattr(det, "nodes_involved", None) or []
+    if involved:
+        determinacy["nodes_involved"] = [
+            [{"node": int(n), "x": _num(frame.nodes[n].x * uf.length), "y": _num(frame.nodes[n].y * uf.length)}
+             for n in mode]
+            for mode in involved
+        ]
+
+    out_results, columns = [], []
+    for res in results:
+        cols = _member_columns(res, frame, gx, uf, static)
+        columns.append(cols)
+        entry = {
+            "name": res.name,
+            "kind": res.kind,
+            "reactions": _reaction_rows(res, frame, uf),
+            "members": _member_rows(cols, static),
+            "probes": _probe_rows(res, located, probes, groups_of, uf),
+        }
+        if getattr(res, "factors", None):
+            entry["factors"] = {k: float(v) for k, v in res.factors.items()}
+        if getattr(res, "family", None):
+            entry["family"] = res.family
+        out_results.append(entry)
+
+    combos = [k for k, r in enumerate(results) if r.kind == "combination"]
+    families: dict[str, list[int]] = {}
+    for k in combos:
+        families.setdefault(_family(results[k]), []).append(k)
+    groups_to_envelope = [(f"envelope:{fam}", fam, ks) for fam, ks in families.items()]
+    if len(families) > 1:
+        groups_to_envelope.append(("envelope:all", "all", combos))
+    envelopes = [
+        _envelope(name, fam, [results[k].name for k in ks], [columns[k] for k in ks],
+                  [out_results[k]["reactions"] for k in ks], static)
+        for name, fam, ks in groups_to_envelope
+    ]
+
+    return {
+        "schema": 1,
+        "source": Path(model.source).name,
+        "units": {
+            "force": force_unit, "length": length_unit,
+            "moment": uf.moment_unit, "distributed": uf.distributed_unit,
+            "drawing_length": model.length_unit,
+        },
+        "tool_version": __version__,
+        "caution": CAUTION,
+        "model": {
+            "nodes": len(frame.nodes),
+            "members": len(gx.groups),
+            "supports": len(frame.supports),
+            "hinges": int(model.hinges),
+            "loads": int(model.n_loads),
+            "elements": len(frame.members),
+        },
+        "determinacy": determinacy,
+        "warnings": list(model.warnings) + [w for w in det_warnings if w not in model.warnings],
+        "results": out_results,
+        "envelopes": envelopes,
+    }
+
+
+# -- writing ----------------------------------------------------------------------
+
+
+def _default(obj: Any) -> Any:
+    """JSON fallback for numpy scalars and arrays, paths."""
+    if isinstance(obj, np.bool_):
+        return bool(obj)
+    if isinstance(obj, np.integer):
+        return int(obj)
+    if isinstance(obj, np.floating):
+        return _num(obj)
+    if isinstance(obj, np.ndarray):
+        return obj.tolist()
+    if isinstance(obj, Path):
+        return str(obj)
+    raise TypeError(f"not JSON serialisable: {type(obj).__name__}")
+
+
+def _is_table(v: Any) -> bool:
+    return isinstance(v, list) and bool(v) and all(isinstance(e, dict) for e in v)
+
+
+def dumps_report(report: Mapping) -> str:
+    """The report as JSON text: nested objects indented, each entry of a
+    long list (members, reactions, probes) on one line.  Uses the C encoder
+    (fast for 100,000 member rows); NaN and infinity are refused."""
+    enc = json.JSONEncoder(ensure_ascii=False, allow_nan=False, default=_default).encode
+
+    def block(obj: Mapping, pad: str) -> list[str]:
+        out = []
+        items = list(obj.items())
+        for n, (k, v) in enumerate(items):
+            comma = "," if n < len(items) - 1 else ""
+            head = f"{pad}{enc(str(k))}: "
+            if _is_table(v):
+                deep = any(_is_table(x) for x in v[0].values())   # rows of one list are alike
+                out.append(head + "[")
+                for m, e in enumerate(v):
+                    c2 = "," if m < len(v) - 1 else ""
+                    if deep:
+                        out.append(pad + "  {")
+                        out.extend(block(e, pad + "    "))
+                        out.append(pad + "  }" + c2)
+                    else:
+                        out.append(pad + "  " + enc(e) + c2)
+                out.append(pad + "]" + comma)
+            else:
+                out.append(head + enc(v) + comma)
+        return out
+
+    return "\n".join(["{", *block(report, "  "), "}"]) + "\n"
+
+
+def write_json(report: Mapping, path: Path | str) -> None:
+    """Write the report as UTF-8 JSON (see :func:`dumps_report`), atomically."""
+    text = dumps_report(report)
+    with atomic_open(path, "w", encoding="utf-8") as fh:
+        fh.write(text)
+
+
+def write_csv(report: Mapping, path: Path | str) -> None:
+    """Write one row per result x member (columns :data:`CSV_COLUMNS`), atomically.
+
+    Values are in the report's units; an empty cell means no value (e.g. no
+    deflection without sections).
+    """
+    with atomic_open(path, "w", encoding="utf-8", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(CSV_COLUMNS)
+        for res in report.get("results", []):
+            for m in res.get("members", []):
+                row = [res["name"], res["kind"], m["id"], m["layer"], m["handle"], m["length"]]
+                row += [m[k] for k in CSV_COLUMNS[6:]]
+                w.writerow(["" if v is None else v for v in row])

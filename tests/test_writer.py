@@ -1,0 +1,564 @@
+"""Result drawing (DXF copy with result layers), PNG preview and atomic writes.
+
+Drawings are built with ezdxf in the test (tests/dxf_builders.py); frames
+are built by hand to match them (solver.Frame in SI, DrawingModel with
+unit_scale 1.0) unless the reader is exercised end to end.  Expected numbers
+come from published closed forms, cited beside each check.
+"""
+from __future__ import annotations
+
+import itertools
+import re
+from collections import Counter
+from pathlib import Path
+
+import ezdxf
+import numpy as np
+import pytest
+import shapely
+from hypothesis import given, settings as hsettings, strategies as st
+
+from dxf2frame import CAUTION
+from dxf2frame.atomic import atomic_path, write_text
+from dxf2frame.drawing_model import DrawingModel
+from dxf2frame.errors import SettingsError
+from dxf2frame.writer import DEFAULT_OUTPUT_LAYERS, LabelPlacer, TEXT_STYLES
+
+try:
+    from tests import dxf_builders as B
+except ImportError:  # tests/ itself on sys.path
+    import dxf_builders as B
+
+solver = pytest.importorskip("solver")
+pytest.importorskip("solver.forces")
+pytest.importorskip("solver.results")
+
+from solver import DistributedLoad, Frame, NodalLoad, Section, check, combine, solve  # noqa: E402
+
+from dxf2frame import preview, writer  # noqa: E402
+
+SEC = Section(E=200e9, A=5e-3, I=8e-5)
+RESULT_LAYERS = {n.upper() for n in DEFAULT_OUTPUT_LAYERS.values()}
+NUM = r"(-?\d+(?:\.\d+)?(?:e[-+]?\d+)?)"
+# header values a CAD program rewrites on every save (time stamps, next handle, ...)
+SAVE_METADATA = {"$TDUPDATE", "$TDUUPDATE", "$HANDSEED", "$VERSIONGUID", "$FINGERPRINTGUID", "$ACADMAINTVER",
+                 "$EXTMIN", "$EXTMAX", "$PEXTMIN", "$PEXTMAX", "$LIMMIN", "$LIMMAX", "$PLIMMIN", "$PLIMMAX",
+                 "$TDCREATE", "$TDUCREATE", "$TDINDWG", "$TDUSRTIMER", "$CMATERIAL", "$DWGCODEPAGE"}
+
+
+# -- fixtures ----------------------------------------------------------------------
+
+
+def beam_drawing(tmp_path: Path, L: float = 6.0, *, dxfversion: str = "R2018", extras: bool = True):
+    """A simple span on FRAME with supports, a UDL block and unrelated content."""
+    if dxfversion == "R12":
+        doc = ezdxf.new("R12")
+        doc.layers.add("FRAME")
+    else:
+        doc = B.new_drawing("m", dxfversion=dxfversion)
+    msp = doc.modelspace()
+    line = B.add_member(msp, (0, 0), (L, 0))
+    if dxfversion != "R12":
+        B.add_support(msp, "pin", (0, 0))
+        B.add_support(msp, "roller", (L, 0))
+        B.add_load(msp, "udl", (L / 2, 0), W="10 kN/m", CASE="D")
+    if extras:
+        doc.layers.add("TITLE", color=5)
+        msp.add_text("GRID A", dxfattribs={"layer": "TITLE", "height": 0.2}).set_placement((0, 3))
+        msp.add_circle((L + 2, 3), 0.3, dxfattribs={"layer": "TITLE"})
+        doc.header["$LTSCALE"] = 2.5
+        doc.header["$USERR1"] = 1.25
+    path = tmp_path / "beam.dxf"
+    doc.saveas(path)
+    return path, line.dxf.handle
+
+
+def beam_frame(handle: str, L: float = 6.0, cases: dict[str, float] | None = None) -> Frame:
+    f = Frame()
+    a, b = f.add_node(0.0, 0.0), f.add_node(L, 0.0)
+    m = f.add_member(a, b, SEC, id=f"{handle}-1", layer="FRAME", handle=handle)
+    f.add_support(a, "pin")
+    f.add_support(b, "roller")
+    for case, w in (cases or {"D": 10e3}).items():
+        f.add_load(DistributedLoad(m.id, q1=(0.0, -w), case=case))
+    return f
+
+
+def model_for(frame: Frame, source: Path) -> DrawingModel:
+    xs = [n.x for n in frame.nodes]
+    ys = [n.y for n in frame.nodes]
+    return DrawingModel(frame=frame, source=source, length_unit="m", unit_scale=1.0,
+                        extents=(min(xs), min(ys), max(xs), max(ys)), n_loads=len(frame.loads))
+
+
+def solved_beam(tmp_path: Path, **kw):
+    src, handle = beam_drawing(tmp_path, **kw)
+    frame = beam_frame(handle)
+    det = check(frame)
+    results = list(solve(frame).values())
+    return src, model_for(frame, src), det, results
+
+
+def texts(doc, layer: str) -> list:
+    return [e for e in doc.modelspace() if e.dxftype() == "TEXT" and e.dxf.layer.upper() == layer.upper()]
+
+
+def text_pos(e) -> tuple[float, float]:
+    p = e.dxf.align_point if e.dxf.hasattr("align_point") else e.dxf.insert
+    return float(p[0]), float(p[1])
+
+
+def layer_census(doc) -> tuple[Counter, dict[str, tuple[str, str]]]:
+    """Entity count per layer and handle -> (type, layer), for non-result layers of every layout."""
+    counts, handles = Counter(), {}
+    for layout in doc.layouts:
+        for e in layout:
+            layer = e.dxf.get("layer", "0")
+            if layer.upper() in RESULT_LAYERS:
+                continue
+            counts[layer] += 1
+            handles[e.dxf.handle] = (e.dxftype(), layer)
+    return counts, handles
+
+
+def write(tmp_path: Path, src, model, det, results, show=None, name="out.dxf", settings=None):
+    out = tmp_path / name
+    writer.write_result_drawing(src, out, model, det, results, show=show, settings=settings,
+                                force_unit="kN", length_unit="m")
+    return out
+
+
+# -- the copy keeps the drawing ----------------------------------------------------------
+
+
+def test_copy_keeps_every_original_entity_layer_block_and_header(tmp_path):
+    src, model, det, results = solved_beam(tmp_path)
+    out = write(tmp_path, src, model, det, results, show="D")
+    before, after = ezdxf.readfile(src), ezdxf.readfile(out)
+    c0, h0 = layer_census(before)
+    c1, h1 = layer_census(after)
+    assert c0 == c1                      # entity count per original layer unchanged
+    assert h0 == h1                      # same handles, types and layers
+    assert {l.dxf.name for l in before.layers} <= {l.dxf.name for l in after.layers}
+    assert {b.name for b in before.blocks} <= {b.name for b in after.blocks}
+    for name in ("FRAME", "TITLE"):
+        assert after.layers.get(name).color == before.layers.get(name).color
+    ins0 = {e.dxf.handle: {a.dxf.tag: a.dxf.text for a in e.attribs} for e in before.modelspace().query("INSERT")}
+    ins1 = {e.dxf.handle: {a.dxf.tag: a.dxf.text for a in e.attribs} for e in after.modelspace().query("INSERT")}
+    assert ins0 == ins1 and ins0         # attributes kept
+    for var in before.header.varnames():
+        if var not in SAVE_METADATA:
+            assert after.header.get(var) == before.header.get(var), var
+    assert after.header["$LTSCALE"] == 2.5 and after.header["$USERR1"] == 1.25
+    assert before.dxfversion == after.dxfversion
+
+
+def test_source_is_never_written(tmp_path):
+    src, model, det, results = solved_beam(tmp_path)
+    data = src.read_bytes()
+    write(tmp_path, src, model, det, results, show="D")
+    assert src.read_bytes() == data
+    with pytest.raises(SettingsError):
+        writer.write_result_drawing(src, src, model, det, results, show="D", settings=None,
+                                    force_unit="kN", length_unit="m")
+    assert src.read_bytes() == data
+
+
+def test_an_already_loaded_document_can_be_reused(tmp_path):
+    src, model, det, results = solved_beam(tmp_path)
+    doc = ezdxf.readfile(src)
+    out = tmp_path / "reused.dxf"
+    writer.write_result_drawing(src, out, model, det, results, show="D", force_unit="kN", length_unit="m",
+                                document=doc)
+    again = ezdxf.readfile(out)
+    assert layer_census(again)[1] == layer_census(ezdxf.readfile(src))[1]
+    assert texts(again, "RESULT-MOMENT")
+
+
+def test_output_passes_audit_and_reads_back(tmp_path):
+    src, model, det, results = solved_beam(tmp_path)
+    out = write(tmp_path, src, model, det, results, show="D")
+    doc = ezdxf.readfile(out)
+    auditor = doc.audit()
+    assert not auditor.has_errors, [str(e.message) for e in auditor.errors]
+    layers = {l.dxf.name.upper() for l in doc.layers}
+    for key in ("axial", "shear", "moment", "reactions", "deflected", "notes"):
+        assert DEFAULT_OUTPUT_LAYERS[key] in layers
+    for style in TEXT_STYLES:
+        assert style in doc.styles
+
+
+# -- the numbers on the drawing ------------------------------------------------------------
+
+
+def test_midspan_moment_label_is_wl2_over_8(tmp_path):
+    L, w = 6.0, 10e3
+    src, model, det, results = solved_beam(tmp_path, L=L)
+    doc = ezdxf.readfile(write(tmp_path, src, model, det, results, show="D"))
+    # AISC Manual Table 3-23 Case 1, simple beam with uniform load (from memory): Mmax = wl^2/8 at centre
+    expected = w * L**2 / 8 / 1e3
+    hits = []
+    for e in texts(doc, "RESULT-MOMENT"):
+        m = re.fullmatch(r"M=" + NUM, e.dxf.text)
+        if m and float(m.group(1)) == pytest.approx(expected, rel=1e-3):
+            hits.append(text_pos(e))
+    assert hits, [e.dxf.text for e in texts(doc, "RESULT-MOMENT")]
+    x, y = hits[0]
+    assert abs(x - L / 2) < 0.1 * L      # at midspan
+    assert y < 0                         # beside the sagging diagram, drawn on the tension side (below)
+
+
+def test_moment_diagram_on_tension_side_with_stated_scale(tmp_path):
+    L, w = 6.0, 10e3
+    src, model, det, results = solved_beam(tmp_path, L=L)
+    doc = ezdxf.readfile(write(tmp_path, src, model, det, results, show="D"))
+    legend = [e.dxf.text for e in texts(doc, "RESULT-MOMENT") if e.dxf.text.startswith("moment:")]
+    assert len(legend) == 1
+    per_unit = float(re.search(r"1 drawing unit = " + NUM + r" kN\*m", legend[0]).group(1))
+    ys = [y for e in doc.modelspace().query('LWPOLYLINE[layer=="RESULT-MOMENT"]')
+          for _x, y in e.get_points("xy") if e.dxf.layer == "RESULT-MOMENT"]
+    # the legend swatch is a small box beside the frame; the diagram is the part over the span
+    diag = [(x, y) for e in doc.modelspace().query('LWPOLYLINE[layer=="RESULT-MOMENT"]')
+            for x, y in e.get_points("xy") if x <= L + 1e-9]
+    assert ys and diag
+    low = min(y for _x, y in diag)
+    high = max(y for _x, y in diag)
+    # AISC Table 3-23 Case 1 (from memory): wl^2/8 drawn at the stated scale, below the beam (sagging)
+    assert low == pytest.approx(-(w * L**2 / 8 / 1e3) / per_unit, rel=1e-6)
+    assert high == pytest.approx(0.0, abs=1e-9)
+    # our drawing rule: the largest ordinate is 8-12 % of the frame's larger side
+    assert 0.08 <= abs(low) / L <= 0.12
+
+
+def test_shear_end_values_zero_crossing_and_reactions(tmp_path):
+    L, w = 6.0, 10e3
+    src, model, det, results = solved_beam(tmp_path, L=L)
+    doc = ezdxf.readfile(write(tmp_path, src, model, det, results, show="D"))
+    shear = [e.dxf.text for e in texts(doc, "RESULT-SHEAR")]
+    # AISC Table 3-23 Case 1 (from memory): V = +-wl/2 at the ends (sign by our convention)
+    vals = sorted(float(m.group(1)) for t in shear if (m := re.fullmatch(r"V=" + NUM, t)))
+    assert vals == pytest.approx([-w * L / 2 / 1e3, w * L / 2 / 1e3], rel=1e-3)
+    # same case: Vx = w(l/2 - x) is zero at x = l/2
+    zeros = [float(m.group(1)) for t in shear if (m := re.fullmatch(r"V=0 @ " + NUM, t))]
+    assert zeros == pytest.approx([L / 2], rel=1e-3)
+    reac = [e for e in texts(doc, "RESULT-REACTIONS")]
+    ry = sorted(float(m.group(1)) for e in reac if (m := re.fullmatch(r"Ry=" + NUM, e.dxf.text)))
+    # same case: R = wl/2 at each support, upward
+    assert ry == pytest.approx([w * L / 2 / 1e3] * 2, rel=1e-3)
+    arrows = doc.modelspace().query('SOLID[layer=="RESULT-REACTIONS"]')
+    assert len(arrows) == 2
+
+
+def test_envelope_names_governing_combination(tmp_path):
+    L, wD, wL = 6.0, 10e3, 5e3
+    src, handle = beam_drawing(tmp_path, L=L)
+    frame = beam_frame(handle, L, {"D": wD, "L": wL})
+    cases = solve(frame)
+    # ASCE/SEI 7 basic strength combinations 1 and 2 (from memory): 1.4D; 1.2D + 1.6L
+    combos = [combine(cases, {"D": 1.4}, "1.4D", family="LRFD"),
+              combine(cases, {"D": 1.2, "L": 1.6}, "1.2D+1.6L", family="LRFD"),
+              combine(cases, {"D": 1.0, "L": 1.0}, "D+L", family="ASD")]
+    results = list(cases.values()) + combos
+    doc = ezdxf.readfile(write(tmp_path, src, model_for(frame, src), check(frame), results, show=None))
+    moment = [e.dxf.text for e in texts(doc, "RESULT-MOMENT")]
+    # AISC Table 3-23 Case 1 (from memory) with the factored load 1.2*10 + 1.6*5 = 20 kN/m: wl^2/8 = 90
+    expected = (1.2 * wD + 1.6 * wL) * L**2 / 8 / 1e3
+    found = [float(m.group(1)) for t in moment if (m := re.fullmatch(r"M=" + NUM + r" \[1\.2D\+1\.6L\]", t))]
+    assert found and found[0] == pytest.approx(expected, rel=1e-3), moment
+    notes = " ".join(e.plain_text() for e in doc.modelspace().query('MTEXT[layer=="RESULT-NOTES"]'))
+    assert "envelope of 2 LRFD combinations" in notes      # the ASD one is not part of it
+    assert CAUTION in " ".join(notes.split())
+
+
+def test_rerun_on_output_replaces_results(tmp_path):
+    src, model, det, results = solved_beam(tmp_path)
+    out1 = write(tmp_path, src, model, det, results, show="D", name="one.dxf")
+    out2 = write(tmp_path, out1, model, det, results, show="D", name="two.dxf")
+    d1, d2 = ezdxf.readfile(out1), ezdxf.readfile(out2)
+    per_layer = lambda d: Counter(e.dxf.layer for e in d.modelspace())  # noqa: E731
+    assert per_layer(d1) == per_layer(d2)
+    assert layer_census(d1)[1] == layer_census(d2)[1]
+
+
+def test_settings_rename_result_layers(tmp_path):
+    class Named:
+        def output_layer(self, key):
+            return {"moment": "MY-MOMENTS"}.get(key, DEFAULT_OUTPUT_LAYERS[key])
+
+    src, model, det, results = solved_beam(tmp_path)
+    doc = ezdxf.readfile(write(tmp_path, src, model, det, results, show="D", settings=Named()))
+    assert texts(doc, "MY-MOMENTS") and not texts(doc, "RESULT-MOMENT")
+
+
+def test_unknown_result_name(tmp_path):
+    src, model, det, results = solved_beam(tmp_path)
+    with pytest.raises(SettingsError, match="no load case or combination named"):
+        write(tmp_path, src, model, det, results, show="1.6W")
+    assert not (tmp_path / "out.dxf").exists()
+
+
+def test_r12_drawing_gets_r12_entities(tmp_path):
+    src, handle = beam_drawing(tmp_path, dxfversion="R12")
+    frame = beam_frame(handle)
+    out = write(tmp_path, src, model_for(frame, src), check(frame), list(solve(frame).values()), show="D")
+    doc = ezdxf.readfile(out)
+    assert doc.dxfversion == "AC1009"
+    assert not doc.audit().has_errors
+    assert doc.modelspace().query('POLYLINE[layer=="RESULT-MOMENT"]')
+    assert texts(doc, "RESULT-NOTES")
+
+
+# -- labels -----------------------------------------------------------------------------------
+
+
+def test_label_placer_skips_lines_and_taken_spots():
+    placer = LabelPlacer([shapely.LineString([(0, 0), (10, 0)])], cell=1.0)
+    # first candidate straddles the line, second is free
+    x, y, ok = placer.place([(5.0, 0.0), (5.0, 1.0)], 0.5, 0.2)
+    assert ok and (x, y) == (5.0, 1.0)
+    # the same spot is now taken: the next free one is used
+    x, y, ok = placer.place([(5.0, 1.0), (5.0, 2.0)], 0.5, 0.2)
+    assert ok and (x, y) == (5.0, 2.0)
+    # nothing free: placed at the first candidate anyway
+    x, y, ok = placer.place([(5.0, 0.0)], 0.5, 0.2)
+    assert not ok and (x, y) == (5.0, 0.0) and placer.forced == 1
+
+
+@hsettings(max_examples=40, deadline=None)
+@given(st.lists(st.tuples(st.floats(0, 20), st.floats(0, 20)), min_size=1, max_size=40))
+def test_fitted_labels_never_overlap(centres):
+    placer = LabelPlacer([shapely.LineString([(0, 10), (20, 10)])], cell=2.0)
+    boxes = []
+    for cx, cy in centres:
+        cands = [(cx, cy), (cx, cy + 1.0), (cx + 2.0, cy), (cx, cy - 1.0)]
+        x, y, ok = placer.place(cands, 0.8, 0.3)
+        if ok:
+            boxes.append(shapely.box(x - 0.8, y - 0.3, x + 0.8, y + 0.3))
+    for a, b in itertools.combinations(boxes, 2):
+        assert a.intersection(b).area < 1e-12
+    for b in boxes:
+        assert not b.intersects(shapely.LineString([(0, 10), (20, 10)]))
+
+
+def test_portal_frame_labels_do_not_overlap(tmp_path):
+    """A fixed-base portal under gravity and sway load: labels keep apart and off the members."""
+    doc = B.new_drawing("m")
+    msp = doc.modelspace()
+    pts = [(0, 0), (0, 4), (6, 4), (6, 0)]
+    lines = [B.add_member(msp, a, b) for a, b in zip(pts[:-1], pts[1:])]
+    src = B.save(doc, tmp_path / "portal.dxf")
+    f = Frame()
+    n = [f.add_node(*p) for p in pts]
+    for (i, j), ln in zip(((0, 1), (1, 2), (3, 2)), lines):
+        f.add_member(n[i], n[j], SEC, id=f"{ln.dxf.handle}-1", layer="FRAME", handle=ln.dxf.handle)
+    f.add_support(n[0], "fixed")
+    f.add_support(n[3], "fixed")
+    f.add_load(DistributedLoad(f.members[1].id, q1=(0.0, -20e3), case="D"))
+    f.add_load(NodalLoad(n[1], fx=15e3, case="D"))
+    out = tmp_path / "out.dxf"
+    model = model_for(f, src)
+    doc_out = ezdxf.readfile(src)
+    summary = writer.annotate_results(doc_out, model, check(f), list(solve(f).values()), show="D",
+                                      force_unit="kN", length_unit="m")
+    doc_out.saveas(out)
+    assert summary.forced == 0
+    from ezdxf.fonts import fonts
+
+    h = summary.text_height
+    font = fonts.make_font(TEXT_STYLES["D2F-LABELS"], cap_height=h)
+    boxes = []
+    for key in ("axial", "shear", "moment", "reactions"):
+        for e in texts(doc_out, DEFAULT_OUTPUT_LAYERS[key]):
+            if e.dxf.halign != 1:      # legend lines are left-aligned, labels centred
+                continue
+            x, y = text_pos(e)
+            w = font.text_width(e.dxf.text)
+            boxes.append(shapely.box(x - w / 2, y - h / 2, x + w / 2, y + h / 2))
+    assert len(boxes) >= 8
+    for a, b in itertools.combinations(boxes, 2):
+        assert not a.intersects(b)
+    members = shapely.MultiLineString([[pts[0], pts[1]], [pts[1], pts[2]], [pts[3], pts[2]]])
+    assert not any(b.intersects(members) for b in boxes)
+    assert not ezdxf.readfile(out).audit().has_errors
+
+
+# -- unstable frames ---------------------------------------------------------------------------
+
+
+def test_mechanism_drawing(tmp_path):
+    src, handle = beam_drawing(tmp_path)
+    f = Frame()
+    a, b = f.add_node(0, 0), f.add_node(6, 0)
+    f.add_member(a, b, SEC, id=f"{handle}-1", layer="FRAME", handle=handle)
+    f.add_support(a, "roller")
+    f.add_support(b, "roller")      # nothing holds it along X: one mechanism (classical count)
+    det = check(f)
+    assert det.status == "unstable"
+    out = tmp_path / "mech.dxf"
+    writer.write_mechanism_drawing(src, out, model_for(f, src), det, None)
+    doc = ezdxf.readfile(out)
+    assert not doc.audit().has_errors
+    msp = doc.modelspace()
+    assert msp.query('LWPOLYLINE[layer=="RESULT-MECHANISM"]')
+    assert len(msp.query('CIRCLE[layer=="RESULT-MECHANISM"]')) == 2   # both nodes slide
+    notes = " ".join(" ".join(e.plain_text().split()) for e in msp.query('MTEXT[layer=="RESULT-NOTES"]'))
+    assert "unstable" in notes and CAUTION in notes
+    assert layer_census(doc)[0] == layer_census(ezdxf.readfile(src))[0]
+
+
+# -- preview -----------------------------------------------------------------------------------
+
+
+def test_png_preview_is_not_blank(tmp_path):
+    import matplotlib.image as mpimg
+
+    src, model, det, results = solved_beam(tmp_path)
+    out = write(tmp_path, src, model, det, results, show="D")
+    png = tmp_path / "out.png"
+    preview.render_png(out, png)
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    img = mpimg.imread(png)[..., :3]
+    assert img.shape[0] > 100 and img.shape[1] > 300
+    ink = np.any(img < 0.9, axis=-1).mean()
+    assert 0.005 < ink < 0.8                       # something drawn, background white
+    colours = {tuple(np.round(c, 1)) for c in img.reshape(-1, 3)[::97]}
+    assert len(colours) >= 4                       # coloured result layers, not just black lines
+    assert sorted(p.name for p in tmp_path.iterdir() if p.name.startswith(".")) == []
+
+
+# -- atomic writes ------------------------------------------------------------------------------
+
+
+def test_failed_save_leaves_no_file(tmp_path, monkeypatch):
+    src, model, det, results = solved_beam(tmp_path)
+
+    def broken_saveas(self, filename, *a, **k):
+        Path(filename).write_text("0\nSECTION\n")     # a partial file...
+        raise OSError("disk full")                     # ...then the failure
+
+    monkeypatch.setattr(ezdxf.document.Drawing, "saveas", broken_saveas)
+    with pytest.raises(OSError, match="disk full"):
+        write(tmp_path, src, model, det, results, show="D")
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["beam.dxf"]
+
+
+def test_atomic_write_keeps_previous_version_on_failure(tmp_path):
+    target = tmp_path / "a.txt"
+    write_text(target, "complete")
+    with pytest.raises(RuntimeError):
+        with atomic_path(target) as tmp:
+            tmp.write_text("half")
+            raise RuntimeError("boom")
+    assert target.read_text() == "complete"
+    assert [p.name for p in tmp_path.iterdir()] == ["a.txt"]
+
+
+# -- end to end through the reader ----------------------------------------------------------------
+
+
+def test_reading_the_output_gives_the_same_model(tmp_path):
+    reader = pytest.importorskip("dxf2frame.reader")
+    settings_mod = pytest.importorskip("dxf2frame.settings")
+    L = 6.0
+    src, _handle = beam_drawing(tmp_path, L=L)
+    s = settings_mod.Settings()
+    model = reader.read_drawing(src, s)
+    det = check(model.frame)
+    results = list(solve(model.frame, determinate=det.status == "determinate").values())
+    out = tmp_path / "solved.dxf"
+    writer.write_result_drawing(src, out, model, det, results, show="D", settings=s,
+                                force_unit="kN", length_unit="m")
+    again = reader.read_drawing(out, s)
+    f0, f1 = model.frame, again.frame
+    assert [(n.x, n.y) for n in f0.nodes] == [(n.x, n.y) for n in f1.nodes]
+    assert [(m.id, m.start, m.end, m.group) for m in f0.members] == [(m.id, m.start, m.end, m.group) for m in f1.members]
+    assert [(s_.node, s_.kind) for s_ in f0.supports] == [(s_.node, s_.kind) for s_ in f1.supports]
+    assert len(f0.loads) == len(f1.loads) and again.warnings == model.warnings
+    # AISC Table 3-23 Case 1 (from memory): the 10 kN/m UDL block gives wl^2/8 = 45 kN*m at midspan
+    doc = ezdxf.readfile(out)
+    assert any(re.fullmatch(r"M=45(\.0+)?", e.dxf.text) for e in texts(doc, "RESULT-MOMENT"))
+
+
+# -- batch sampling path ------------------------------------------------------------------------
+
+
+class _MemberByMember:
+    """The solver's member results without any batch interface, so the
+    writer falls back to one MemberResult at a time."""
+
+    def __init__(self, members):
+        self._m = members
+
+    def __getitem__(self, mid):
+        return self._m[mid]
+
+    def __iter__(self):
+        return iter(self._m)
+
+    def __len__(self):
+        return len(self._m)
+
+    def table(self):
+        return self._m.table()
+
+
+class _Batch(_MemberByMember):
+    """The batch interface the writer uses when results offer it
+    (critical_points() and sample(which, rows, x, side)): the solver's own
+    when it has one, else the same contract built from the per-member API."""
+
+    _FN = {"N": "axial", "V": "shear", "M": "moment"}
+
+    def critical_points(self):
+        own = getattr(self._m, "critical_points", None)
+        if callable(own):
+            return own()
+        ids = list(self._m)
+        rows, xs = [], []
+        for j, mid in enumerate(ids):
+            cp = np.asarray(self._m[mid].critical_points(), float)
+            rows.append(np.full(len(cp), j))
+            xs.append(cp)
+        return np.concatenate(rows), np.concatenate(xs)
+
+    def sample(self, which, rows, x, side="right"):
+        own = getattr(self._m, "sample", None)
+        if callable(own):
+            return own(which, rows, x, side=side)
+        ids = list(self._m)
+        rows, x = np.asarray(rows), np.asarray(x, float)
+        out = np.empty(len(x))
+        for j in np.unique(rows):
+            sel = rows == j
+            mr = self._m[ids[j]]
+            if which in ("u", "v"):
+                out[sel] = mr.deflection(x[sel])[0 if which == "u" else 1]
+            else:
+                out[sel] = getattr(mr, self._FN[which])(x[sel], side=side)
+        return out
+
+
+def test_batch_sampling_draws_the_same_as_member_by_member(tmp_path):
+    import dataclasses
+
+    L, wD, wL = 6.0, 10e3, 5e3
+    src, handle = beam_drawing(tmp_path, L=L)
+    frame = beam_frame(handle, L, {"D": wD, "L": wL})
+    cases = solve(frame)
+    # ASCE/SEI 7 basic strength combinations (from memory): 1.4D; 1.2D + 1.6L
+    results = list(cases.values()) + [combine(cases, {"D": 1.4}, "1.4D", family="LRFD"),
+                                      combine(cases, {"D": 1.2, "L": 1.6}, "1.2D+1.6L", family="LRFD")]
+    slow = [dataclasses.replace(r, members=_MemberByMember(r.members)) for r in results]
+    fast = [dataclasses.replace(r, members=_Batch(r.members)) for r in results]
+    model, det = model_for(frame, src), check(frame)
+
+    def drawn(res):
+        doc = ezdxf.readfile(src)
+        writer.annotate_results(doc, model, det, res, show="envelope:LRFD", force_unit="kN", length_unit="m")
+        msp = doc.modelspace()
+        txt = sorted((e.dxf.layer, e.dxf.text, tuple(np.round(text_pos(e), 9))) for e in msp.query("TEXT"))
+        lines = sorted((e.dxf.layer, tuple(np.round(np.asarray(e.get_points("xy")), 9).ravel()))
+                       for e in msp.query("LWPOLYLINE"))
+        return txt, lines
+
+    assert drawn(slow) == drawn(fast)
