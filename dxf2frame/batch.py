@@ -11,7 +11,7 @@ from concurrent.futures import ProcessPoolExecutor, as_completed
 from pathlib import Path
 from typing import Callable, Iterable
 
-from .errors import InputFileError
+from .errors import InputFileError, one_line
 from .pipeline import (EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_OK, EXIT_UNSTABLE, FileOutcome, SolveRequest,
                        output_paths, solve_file)
 
@@ -111,6 +111,12 @@ def batch_exit_code(outcomes: list[FileOutcome]) -> int:
     return EXIT_OK
 
 
+def _with_source(o: FileOutcome) -> str:
+    """The outcome's message prefixed with its file, unless it names it already."""
+    msg = one_line(o.message)
+    return msg if msg.startswith(str(o.source)) else f"{o.source}: {msg}"
+
+
 def _fmt(v: float | None, digits: int = 4) -> str:
     return "-" if v is None else f"{v:.{digits}g}"
 
@@ -152,12 +158,17 @@ def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = Non
 
     outcomes = solve_many(files, req, workers=workers, scheduler=scheduler, on_done=progress)
     for o in outcomes:
+        where = _with_source(o)
         if o.status == "bad input":
-            print(f"dxf2frame: error: {o.source}: {o.message}", file=err)
+            print(f"dxf2frame: error: {where}", file=err)
         elif o.status == "internal error":
-            print(f"dxf2frame: internal error: {o.source}: {o.message} (please report it)", file=err)
+            print(f"dxf2frame: internal error: {where} (please report it)", file=err)
         elif o.status == "unstable":
-            print(f"dxf2frame: {o.source}: the frame is unstable (a mechanism); no results. {o.message}", file=err)
+            print(f"dxf2frame: {o.source}: the frame is unstable (a mechanism); no results. {one_line(o.message)}",
+                  file=err)
+        if single and o.status in ("ok", "unstable"):
+            for w in o.warnings:
+                print(f"dxf2frame: warning: {one_line(w)}", file=err)
     if single:
         o = outcomes[0]
         if o.outputs:

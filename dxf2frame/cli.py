@@ -7,12 +7,14 @@ drawing written, no numbers); 1 an internal error (please report it).
 from __future__ import annotations
 
 import argparse
+import logging
+import math
 import sys
 import textwrap
 from pathlib import Path
 
 from . import CAUTION, __version__
-from .errors import Dxf2FrameError
+from .errors import Dxf2FrameError, one_line
 
 __all__ = ["main", "build_parser"]
 
@@ -26,7 +28,9 @@ def _probe(text: str) -> tuple[float, float]:
     try:
         x, y = (float(v) for v in text.split(","))
     except ValueError:
-        raise argparse.ArgumentTypeError(f"--probe takes X,Y in drawing units, got {text!r}") from None
+        raise argparse.ArgumentTypeError(f"takes X,Y in drawing units, got {text!r}") from None
+    if not (math.isfinite(x) and math.isfinite(y)):
+        raise argparse.ArgumentTypeError(f"takes finite X,Y in drawing units, got {text!r}")
     return x, y
 
 
@@ -157,21 +161,50 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _fail(exc: BaseException, debug: bool) -> int:
     if isinstance(exc, Dxf2FrameError):
-        print(f"dxf2frame: error: {exc}", file=sys.stderr)
+        print(f"dxf2frame: error: {one_line(str(exc))}", file=sys.stderr)
         return exc.exit_code
     if debug:
         raise exc
-    print(f"dxf2frame: internal error: {type(exc).__name__}: {exc} (rerun with --debug and report it)",
-          file=sys.stderr)
+    print(f"dxf2frame: internal error: {one_line(f'{type(exc).__name__}: {exc}')} "
+          "(rerun with --debug and report it)", file=sys.stderr)
     return 1
 
 
+def _robust_streams() -> None:
+    """Messages quote drawing content (layer names, attribute text) in any
+    script: never let a console that cannot show a character turn a clear
+    message into a crash."""
+    for stream in (sys.stdout, sys.stderr):
+        reconfigure = getattr(stream, "reconfigure", None)
+        if reconfigure is not None:
+            try:
+                reconfigure(errors="backslashreplace")
+            except (ValueError, OSError):  # a closed or unusual stream: leave it
+                pass
+
+
+def _quiet_library_logs(debug: bool) -> None:
+    """ezdxf logs the repairs it makes to damaged files; the reader turns them
+    into warnings of the model, so they are not printed again (shown with
+    --debug)."""
+    log = logging.getLogger("ezdxf")
+    if not debug and not any(isinstance(h, logging.NullHandler) for h in log.handlers):
+        log.addHandler(logging.NullHandler())
+
+
 def main(argv: list[str] | None = None) -> int:
+    """Run the command line; returns the exit status and never raises
+    (except with ``--debug`` for an internal error)."""
+    _robust_streams()
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # --help, --version, or a usage error (already printed)
+        return exc.code if isinstance(exc.code, int) else (0 if exc.code is None else 2)
     if args.command is None:
         parser.print_help()
         return 2
+    _quiet_library_logs(getattr(args, "debug", False))
     from . import commands
 
     handler = getattr(commands, f"run_{args.command}")

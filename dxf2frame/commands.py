@@ -74,15 +74,33 @@ def run_solve(args) -> int:
     return run_batch(files, req, workers=args.workers, scheduler=args.scheduler)
 
 
+def _output_folder(out: Path | None, inputs: list[Path]) -> None:
+    """``--out`` of compare/explain names a folder: refuse an existing file
+    (above all an input drawing) before anything is computed."""
+    if out is None:
+        return
+    out = Path(out)
+    for parent in (out, *out.parents):
+        if parent.exists():
+            if not parent.is_dir():
+                from .errors import InputFileError
+
+                what = "an input drawing" if any(parent.resolve() == Path(p).resolve() for p in inputs) else "a file"
+                raise InputFileError(f"--out {out}: {parent} is {what}, not a folder; choose a folder for the results")
+            return
+
+
 def run_compare(args) -> int:
     from .compare import run_compare_command
 
+    _output_folder(getattr(args, "out", None), list(args.revisions))
     return run_compare_command(args)
 
 
 def run_explain(args) -> int:
     from .handcheck import run_explain_command
 
+    _output_folder(getattr(args, "out", None), [args.drawing])
     return run_explain_command(args)
 
 
@@ -99,6 +117,9 @@ def run_template(args) -> int:
         raise InputFileError(f"--length-unit must be one of {', '.join(sorted(units))}, got {args.length_unit!r}")
     if args.path.exists():
         raise InputFileError(f"{args.path} exists already; choose a new file name")
+    folder = args.path.parent if str(args.path.parent) else Path(".")
+    if not folder.is_dir():
+        raise InputFileError(f"{args.path}: the folder {folder} does not exist; create it first")
     doc = ezdxf.new("R2018", setup=True)
     doc.header["$INSUNITS"] = code
     define_layers(doc)

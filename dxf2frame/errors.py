@@ -6,7 +6,21 @@ one line and exits with status 2; nothing is written.
 """
 from __future__ import annotations
 
+import re
+
+_CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f\ud800-\udfff]")
+
+
+def one_line(text: str) -> str:
+    """``text`` as one printable line: line breaks and tabs become spaces,
+    other control characters (and undecodable bytes kept as surrogates)
+    become ``\\xNN`` escapes.  Messages quote drawing content, which may be
+    anything."""
+    t = " ".join(str(text).replace("\t", " ").splitlines())
+    return _CONTROL.sub(lambda m: f"\\x{ord(m.group()) & 0xFF:02x}", t).strip()
+
 __all__ = [
+    "one_line",
     "Dxf2FrameError",
     "DrawingError",
     "UnitError",
@@ -15,6 +29,7 @@ __all__ = [
     "UnknownBlockError",
     "SettingsError",
     "InputFileError",
+    "AnalysisError",
 ]
 
 
@@ -81,3 +96,9 @@ class SettingsError(Dxf2FrameError):
 
 class InputFileError(Dxf2FrameError):
     """The file is missing, unreadable, not a DXF, or over the size limits."""
+
+
+class AnalysisError(DrawingError):
+    """The model read from the drawing cannot be analysed as given: members
+    without sections in an indeterminate frame, a load the solver cannot
+    apply, a nearly singular stiffness, results that are not finite."""

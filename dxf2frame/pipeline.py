@@ -162,9 +162,13 @@ def _first_non_finite(res: CaseResult) -> str | None:
 def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | None = None) -> Analysis:
     """Read, check and (when stable) solve one drawing.
 
-    Raises :class:`~dxf2frame.errors.Dxf2FrameError` for bad input.  An
-    unstable frame is not an error: ``Analysis.determinacy.status`` says so
-    and no results are computed.
+    Raises :class:`~dxf2frame.errors.Dxf2FrameError` for bad input, among
+    them :class:`~dxf2frame.errors.AnalysisError` when the solver cannot
+    work with the model as drawn (members without sections in an
+    indeterminate frame, a nearly singular stiffness, results that are not
+    finite numbers), naming the drawing entity.  An unstable frame is not an
+    error: ``Analysis.determinacy.status`` says so and no results are
+    computed.
     """
     t = {}
     t0 = time.perf_counter()

@@ -70,6 +70,24 @@ loads force/drawing-length; moments force*drawing-length; FROM, TO,
 SETTLE_X, SETTLE_Y in drawing units; KX, KY force/drawing-length; KR
 force*drawing-length/rad; ANGLE in degrees; SETTLE_R in radians.
 
+Damaged and hostile files
+-------------------------
+:func:`open_document` refuses, with :class:`InputFileError` naming the
+file, a missing or empty file, one that does not start like a DXF (ASCII
+``0/SECTION`` or the binary sentinel), one over ``limits.max_file_mb``, and
+an ASCII file whose count of entity tags is far over
+``limits.max_entities`` (counted before parsing).  A file ezdxf cannot load
+is read again in ezdxf's recover mode; the repairs (ezdxf's log messages and
+the audit's fixes) become one warning of the model, and a repair that
+dropped a drawing entity because its handle clashed is an error.
+:func:`read_document` then refuses entities sharing a handle (when the
+analysis reads any of them), coordinates, rotations and scale factors that
+are not finite numbers, coordinates beyond :data:`MAX_COORDINATE_M`, and
+geometry so far from the origin that the shortest member's length would be
+rounded by more than :data:`MAX_RELATIVE_ROUNDING` of itself; entity data
+ezdxf loads but cannot interpret are a :class:`DrawingError` naming the
+entity.  Every error names the handle and layer where there is one.
+
 Snap tolerance
 --------------
 ``geometry.snap`` from the settings (a quantity, or a bare number in
@@ -79,11 +97,14 @@ the explicit snap count as zero.
 """
 from __future__ import annotations
 
+import contextlib
+import logging
 import math
 import re
+import threading
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable
+from typing import Callable, Iterator
 
 import ezdxf
 from ezdxf import recover
@@ -111,9 +132,28 @@ from .errors import (
 from .settings import Settings, load_settings
 from .units import INSUNITS, length_unit_scale, normalise_length_unit, parse_quantity
 
-__all__ = ["read_drawing", "read_document", "HANDLERS", "SYMBOL_GROUPS"]
+__all__ = ["read_drawing", "read_document", "open_document", "HANDLERS", "SYMBOL_GROUPS", "MAX_COORDINATE_M",
+           "MAX_RELATIVE_ROUNDING"]
 
 _MAX_DEPTH = 16
+
+#: largest coordinate magnitude accepted [m]; beyond it the geometry
+#: libraries overflow and no structural drawing needs it
+MAX_COORDINATE_M = 1e12
+
+#: largest accepted rounding of a member's length, relative to the length,
+#: caused by storing its end coordinates as doubles far from the origin
+#: (max |coordinate| * 2**-52 / shortest member); beyond it the numbers in
+#: the report would carry that rounding in their sixth or seventh digit
+MAX_RELATIVE_ROUNDING = 1e-7
+
+_DOUBLE_EPS = 2.0**-52
+_BINARY_SENTINEL = b"AutoCAD Binary DXF"
+_NOTE_LIMIT = 5
+
+#: what ezdxf or the geometry code raises for entity data it cannot use
+_ENTITY_DATA_ERRORS = (ValueError, TypeError, ArithmeticError, IndexError, KeyError, AttributeError,
+                       ezdxf.DXFError)
 _INSUNITS_NAMES = {
     0: "unitless", 3: "miles", 7: "kilometres", 8: "microinches", 9: "mils", 10: "yards",
     11: "angstroms", 12: "nanometres", 13: "microns", 14: "decimetres", 15: "decametres",
@@ -183,6 +223,7 @@ class _Ctx:
 
     def check_z(self, pts, src: _Source) -> None:
         for p in pts:
+            _check_finite(p, src, self.scale)
             if abs(p[2]) > self.z_tol:
                 raise GeometryError(
                     f"point at Z = {p[2]:.6g} {self.unit}: the frame must lie in the X-Y plane (Z = 0)",
@@ -272,6 +313,25 @@ class _Ctx:
 # ---------------------------------------------------------------------------
 # linework handlers
 # ---------------------------------------------------------------------------
+
+
+def _check_finite(p, src: _Source, scale: float) -> None:
+    """A point (drawing units) must be a finite number and not absurdly far out."""
+    if not all(math.isfinite(c) for c in p):
+        raise GeometryError(
+            f"a coordinate is not a finite number ({', '.join(f'{c:g}' for c in p)})",
+            handle=src.handle,
+            layer=src.layer,
+            hint="the file is damaged or was written by a faulty program; redraw the entity",
+        )
+    big = max(abs(c) for c in p) * scale
+    if big > MAX_COORDINATE_M:
+        raise GeometryError(
+            f"a coordinate is {big:.3g} m from the origin (more than {MAX_COORDINATE_M:g} m)",
+            handle=src.handle,
+            layer=src.layer,
+            hint="move the drawing near the origin, or check the drawing unit",
+        )
 
 
 def _arc_points(p0, p1, bulge: float, n: int) -> list[tuple[float, float]]:
@@ -424,6 +484,27 @@ def _block_name(ctx: _Ctx, e) -> str:
     return name
 
 
+def _check_insert_numbers(e, src: _Source) -> None:
+    """Rotation, scale and insertion point of a block reference must be finite."""
+    for key in ("rotation", "xscale", "yscale", "zscale"):
+        v = e.dxf.get(key, 0.0)
+        if not (isinstance(v, (int, float)) and math.isfinite(v)):
+            raise GeometryError(
+                f"block reference has a {key} that is not a finite number ({v!r})",
+                handle=src.handle,
+                layer=src.layer,
+                hint="the file is damaged or was written by a faulty program; insert the block again",
+            )
+    p = e.dxf.get("insert", (0.0, 0.0, 0.0))
+    if not all(math.isfinite(c) for c in p):
+        raise GeometryError(
+            f"block reference has an insertion point that is not finite ({', '.join(f'{c:g}' for c in p)})",
+            handle=src.handle,
+            layer=src.layer,
+            hint="the file is damaged or was written by a faulty program; insert the block again",
+        )
+
+
 def _insert_one(ctx: _Ctx, e, src: _Source) -> None:
     name = _block_name(ctx, e)
     kind = ctx.settings.block_kind(name)
@@ -445,6 +526,7 @@ def _insert_one(ctx: _Ctx, e, src: _Source) -> None:
                 layer=src.layer,
                 hint=f"move it to layer '{right}'",
             )
+        _check_insert_numbers(e, src)
         _SYMBOL_HANDLERS[kind](ctx, e, kind, src)
         return
     if kind is not None:
@@ -457,6 +539,7 @@ def _insert_one(ctx: _Ctx, e, src: _Source) -> None:
     layer0_counts = layer0 and ctx.settings.is_frame_layer(src.layer)
     if not (relevant or layer0_counts):
         return
+    _check_insert_numbers(e, src)
     if not src.virtual:
         ctx.check_extrusion(e, src)
     if src.depth >= _MAX_DEPTH:
@@ -465,7 +548,16 @@ def _insert_one(ctx: _Ctx, e, src: _Source) -> None:
             handle=src.handle,
             layer=src.layer,
         )
-    for i, v in enumerate(e.virtual_entities()):
+    try:
+        pieces = list(e.virtual_entities())
+    except _ENTITY_DATA_ERRORS as exc:
+        raise GeometryError(
+            f"block reference '{name}' cannot be exploded into its pieces ({type(exc).__name__}: {exc})",
+            handle=src.handle,
+            layer=src.layer,
+            hint="check the block's scale factors (non-zero, uniform for arcs) or insert it again",
+        ) from None
+    for i, v in enumerate(pieces):
         orig = getattr(v, "source_of_copy", None)
         h = orig.dxf.handle if orig is not None and orig.dxf.handle else str(i + 1)
         lay = v.dxf.get("layer", "0")
@@ -487,7 +579,7 @@ def _placement(ctx: _Ctx, e, src: _Source) -> tuple[tuple[float, float], Vec3, V
     ux = Vec3(m.transform_direction((1.0, 0.0, 0.0)))
     arrow = Vec3(m.transform_direction((0.0, -1.0, 0.0)))
     for v in (ux, arrow):
-        if v.magnitude == 0 or abs(v.z) > 1e-9 * v.magnitude:
+        if not (math.isfinite(v.magnitude) and v.magnitude > 0) or abs(v.z) > 1e-9 * v.magnitude:
             raise GeometryError(
                 "block reference is tilted out of the X-Y plane or has a zero scale",
                 handle=src.handle,
@@ -684,6 +776,70 @@ def _drawing_unit(doc, settings: Settings, length_unit: str | None, warnings: li
     )
 
 
+def _describe(e) -> str:
+    return f"{e.dxftype()} on layer '{e.dxf.get('layer', '0')}'"
+
+
+def _check_handles(doc, settings: Settings, warnings: list[str]) -> None:
+    """Entities that share one handle (a damaged file).
+
+    Member ids, warnings and the output drawing name entities by handle, so
+    a shared handle on anything the analysis reads is an error; elsewhere
+    (title blocks, notes) it is a warning.
+    """
+    db = doc.entitydb
+    frame_or_input = lambda lay: settings.is_frame_layer(lay) or any(  # noqa: E731
+        lay.upper() == settings.layers[r].upper() for r in ("supports", "connections", "loads"))
+    clashes: dict[str, list] = {}
+    layouts = [doc.modelspace()]
+    layouts += [b for b in doc.blocks if b.name.upper() not in ("*MODEL_SPACE", "*PAPER_SPACE")]
+    for layout in layouts:
+        for e in layout:
+            h = e.dxf.handle
+            if h is None:
+                continue
+            stored = db.get(h)
+            if stored is not e:
+                group = clashes.setdefault(h, [stored] if stored is not None else [])
+                group.append(e)
+    for h, group in clashes.items():
+        relevant = any(
+            e.dxftype() in HANDLERS and (e.dxftype() == "INSERT" or frame_or_input(e.dxf.get("layer", "0"))
+                                         or e.dxf.get("layer", "0") == "0")
+            for e in group
+        )
+        what = ", ".join(_describe(e) for e in group)
+        if relevant:
+            raise DrawingError(
+                f"{len(group)} entities share this handle ({what}): the file is damaged",
+                handle=h,
+                layer=group[-1].dxf.get("layer", "0"),
+                hint="open it in a CAD program, run its audit/repair command and save it again",
+            )
+        warnings.append(f"{len(group)} entities share the handle #{h} ({what}); they are not part of the frame")
+
+
+def _check_precision(frame, unit: str, scale: float) -> None:
+    """Refuse geometry whose member lengths are lost in floating-point
+    rounding: coordinates far from the origin with short members."""
+    if not frame.members or not frame.nodes:
+        return
+    far = max(max(abs(n.x), abs(n.y)) for n in frame.nodes)
+    lengths = [(frame.geometry(m)[0], m) for m in frame.members]
+    shortest, m = min(lengths, key=lambda t: t[0])
+    if not math.isfinite(far) or not (shortest > 0):
+        raise GeometryError("member geometry is not finite", handle=m.handle, layer=m.layer)
+    rounding = far * _DOUBLE_EPS / shortest
+    if rounding > MAX_RELATIVE_ROUNDING:
+        raise GeometryError(
+            f"the drawing lies {far / scale:.4g} {unit} from the origin but this member is only "
+            f"{shortest / scale:.4g} {unit} long: its length is rounded by {rounding:.1e} of itself",
+            handle=m.handle,
+            layer=m.layer,
+            hint="move the drawing near the origin (or check the drawing unit)",
+        )
+
+
 def read_document(
     doc,
     source: Path | str,
@@ -705,7 +861,9 @@ def read_document(
 
     Raises
     ------
-    DrawingError and subclasses (handle + layer + what to do),
+    DrawingError and subclasses (handle + layer + what to do), also for
+    entities sharing a handle, non-finite or far-out coordinates and
+    entity data that cannot be interpreted;
     InputFileError when the drawing has more entities than the limit.
     """
     settings = settings or Settings()
@@ -717,6 +875,7 @@ def read_document(
             "(raise [limits] max_entities in dxf2frame.toml if this is intended)"
         )
     warnings: list[str] = []
+    _check_handles(doc, settings, warnings)
     unit = _drawing_unit(doc, settings, length_unit, warnings)
     scale = length_unit_scale(unit)
     force = settings.force_unit
@@ -749,7 +908,16 @@ def read_document(
         layer = e.dxf.get("layer", "0")
         if settings.is_result_layer(layer):
             continue
-        handler(ctx, e, _Source(e.dxf.handle or "", layer))
+        try:
+            handler(ctx, e, _Source(e.dxf.handle or "", layer))
+        except _ENTITY_DATA_ERRORS as exc:
+            # ezdxf could load the entity but not interpret it: damaged data
+            raise DrawingError(
+                f"cannot interpret this {e.dxftype()} ({type(exc).__name__}: {exc})",
+                handle=e.dxf.handle or "",
+                layer=layer,
+                hint="its data look damaged; redraw the entity",
+            ) from None
 
     if not ctx.segments:
         raise GeometryError(
@@ -773,6 +941,7 @@ def read_document(
         unit=(unit, scale),
     )
     ctx.warnings.extend(result.warnings)
+    _check_precision(result.frame, unit, scale)
     x0, y0, x1, y1 = result.extents
     return DrawingModel(
         frame=result.frame,
@@ -787,6 +956,191 @@ def read_document(
     )
 
 
+class _EzdxfMessages(logging.Handler):
+    """Collects the warnings ezdxf logs in the current thread (repairs it made
+    while loading), so they become warnings of the model instead of stray
+    lines on stderr."""
+
+    def __init__(self) -> None:
+        super().__init__(level=logging.WARNING)
+        self.thread = threading.get_ident()
+        self.messages: list[str] = []
+
+    def emit(self, record: logging.LogRecord) -> None:
+        if record.thread == self.thread:
+            try:
+                self.messages.append(record.getMessage())
+            except Exception:  # noqa: BLE001 - a malformed log call must not stop the reading
+                self.messages.append(str(record.msg))
+
+
+@contextlib.contextmanager
+def _ezdxf_messages() -> Iterator[list[str]]:
+    log = logging.getLogger("ezdxf")
+    handler = _EzdxfMessages()
+    log.addHandler(handler)
+    try:
+        yield handler.messages
+    finally:
+        log.removeHandler(handler)
+
+
+def _summarise(messages: list[str], limit: int = _NOTE_LIMIT) -> str:
+    uniq = list(dict.fromkeys(" ".join(m.split()) for m in messages if m and m.strip()))
+    text = "; ".join(uniq[:limit])
+    if len(uniq) > limit:
+        text += f"; and {len(uniq) - limit} more"
+    return text
+
+
+_ENTITY_TAG = re.compile(rb"\n[ \t]*0[ \t]*\r?\n[A-Za-z]")  # group code 0, then an entity/section name
+_STRUCTURE_TAGS = 1000  # SECTION, ENDSEC, TABLE, ENDTAB, EOF... besides the entities
+
+
+def _count_entity_tags(path: Path, chunk: int = 1 << 23) -> int:
+    """Number of group-code-0 tags of an ASCII DXF (each starts an entity or
+    a structure mark), counted without parsing, so that a file far over the
+    entity limit is refused before ezdxf spends minutes loading it."""
+    count, carry = 0, b"\n"
+    with open(path, "rb") as fh:
+        while True:
+            block = fh.read(chunk)
+            if not block:
+                break
+            data = carry + block
+            # a tag cut by the chunk boundary starts at one of the last two
+            # line breaks: count matches before the third-last, carry the rest
+            cut = len(data)
+            for _ in range(3):
+                cut = data.rfind(b"\n", 0, cut)
+                if cut <= 0:
+                    cut = 0
+                    break
+            count += sum(1 for m in _ENTITY_TAG.finditer(data) if m.start() < cut)
+            carry = data[cut:]
+    return count + len(_ENTITY_TAG.findall(carry))
+
+
+def _looks_like_dxf(head: bytes) -> bool:
+    """True when the first bytes are those of a binary DXF or an ASCII DXF
+    whose first tag (after comments) opens a SECTION; the recover mode
+    would otherwise turn any text into an empty drawing."""
+    if head.startswith(_BINARY_SENTINEL):
+        return True
+    lines = [ln.strip() for ln in head.decode("latin-1").lstrip("\ufeff\xef\xbb\xbf").splitlines()]
+    k = 0
+    while k + 1 < len(lines):
+        code, value = lines[k], lines[k + 1]
+        if code == "999":  # comment
+            k += 2
+            continue
+        return code == "0" and value.upper() == "SECTION"
+    return k > 0  # nothing but comments so far: let ezdxf decide
+
+
+_CONFLICT = re.compile(r"Removed entity (\w+)\(#([0-9A-Fa-f]+)\) with a conflicting handle")
+
+
+def open_document(path: Path | str, settings: Settings | None = None):
+    """Open a DXF file (ASCII or binary) with ezdxf, repairing a damaged one.
+
+    The file is read normally first; when ezdxf cannot load it the recover
+    mode reads it again and repairs what it can.  Repairs are returned as
+    notes (one text naming the file and up to five repairs), never printed.
+
+    Parameters
+    ----------
+    path : the DXF file
+    settings : for ``limits.max_file_mb`` (defaults when None)
+
+    Returns
+    -------
+    (doc, notes) : the ezdxf ``Drawing`` and the list of notes
+
+    Raises
+    ------
+    InputFileError
+        Missing, not a file, empty, over the size limit, not DXF, or so
+        damaged that the recover mode gives up.
+    DrawingError
+        The recover mode had to drop a drawing entity because its handle
+        clashes with another one (the analysis would silently miss it).
+    """
+    p = Path(path)
+    settings = settings or Settings()
+    if not p.exists():
+        raise InputFileError(f"{p}: file not found")
+    if not p.is_file():
+        raise InputFileError(f"{p}: not a file")
+    try:
+        size = p.stat().st_size
+        with open(p, "rb") as fh:
+            head = fh.read(4096)
+    except OSError as exc:
+        raise InputFileError(f"{p}: cannot read the file ({exc.strerror or exc})") from None
+    if size > settings.max_file_mb * 1024 * 1024:
+        raise InputFileError(
+            f"{p}: {size / 1024 / 1024:.3g} MB, more than the limit of {settings.max_file_mb:g} MB "
+            "(raise [limits] max_file_mb in dxf2frame.toml if this is intended)"
+        )
+    if not head.strip():
+        raise InputFileError(f"{p}: the file is empty, not a DXF drawing")
+    if not _looks_like_dxf(head):
+        raise InputFileError(
+            f"{p}: not a readable DXF file (it does not start with a DXF section)",
+            )
+    if not head.startswith(_BINARY_SENTINEL):
+        tags = _count_entity_tags(p)
+        if tags > settings.max_entities + _STRUCTURE_TAGS:
+            raise InputFileError(
+                f"{p}: about {tags} entities, more than the limit of {settings.max_entities} "
+                "(raise [limits] max_entities in dxf2frame.toml if this is intended)"
+            )
+    notes: list[str] = []
+    with _ezdxf_messages() as first_try:
+        try:
+            doc = ezdxf.readfile(p)
+        except (FileNotFoundError, PermissionError, IsADirectoryError) as exc:
+            raise InputFileError(f"{p}: cannot read the file ({exc.strerror or exc})") from None
+        except MemoryError:
+            raise InputFileError(f"{p}: not enough memory to read the file") from None
+        except Exception as exc:  # noqa: BLE001 - structure errors, bad values, not DXF: try the recover mode
+            doc, why = None, str(exc) if str(exc).startswith(type(exc).__name__) else f"{type(exc).__name__}: {exc}"
+    if doc is not None:
+        if first_try:
+            notes.append(f"{p.name}: read with remarks from the DXF library: {_summarise(first_try)}")
+        return doc, notes
+    with _ezdxf_messages() as repairs:
+        try:
+            doc, auditor = recover.readfile(p)
+        except MemoryError:
+            raise InputFileError(f"{p}: not enough memory to read the file") from None
+        except Exception as exc:  # noqa: BLE001 - anything ezdxf raises on garbage
+            raise InputFileError(f"{p}: not a readable DXF file ({type(exc).__name__}: {exc})") from None
+    fixes = [str(f.message) for f in auditor.fixes]
+    for text in fixes:
+        m = _CONFLICT.search(text)
+        if m and m.group(1) in HANDLERS:
+            kept = doc.entitydb.get(m.group(2))
+            raise DrawingError(
+                f"two entities share this handle ({m.group(1)} and "
+                f"{_describe(kept) if kept is not None else 'another entity'}); the file is damaged and one "
+                "of them would be lost",
+                handle=m.group(2),
+                layer=kept.dxf.get("layer", "") if kept is not None else "",
+                hint="open it in a CAD program, run its audit/repair command and save it again",
+            )
+    done = repairs + fixes
+    unrepaired = [str(e.message) for e in auditor.errors]
+    text = f"{p.name}: damaged DXF ({_summarise([why], 1)[:200]}) read in recovery mode; {len(done)} problem(s) repaired"
+    if done:
+        text += f" ({_summarise(done)})"
+    if unrepaired:
+        text += f"; {len(unrepaired)} problem(s) left unrepaired: {_summarise(unrepaired)}"
+    notes.append(text + "; check the results against the drawing")
+    return doc, notes
+
+
 def read_drawing(
     path: Path | str,
     settings: Settings | None = None,
@@ -796,47 +1150,25 @@ def read_drawing(
     """Open a DXF file and read it (see the module docstring).
 
     A damaged file is repaired with ezdxf's recover mode (with a warning
-    giving the number of fixes).  ``settings`` None: ``dxf2frame.toml``
-    beside the drawing, else defaults.
+    listing the repairs, see :func:`open_document`).  ``settings`` None:
+    ``dxf2frame.toml`` beside the drawing, else defaults.
 
     Raises
     ------
     InputFileError
-        Missing, unreadable, not DXF, larger than ``limits.max_file_mb``
-        or with more than ``limits.max_entities`` entities.
+        Missing, unreadable, empty, not DXF, larger than
+        ``limits.max_file_mb`` or with more than ``limits.max_entities``
+        entities.
     DrawingError and subclasses
-        Problems with single entities (handle + layer).
+        Problems with single entities (handle + layer), entities sharing a
+        handle, coordinates that are not finite or too far out.
     """
     p = Path(path)
     if not p.exists():
         raise InputFileError(f"{p}: file not found")
-    if not p.is_file():
-        raise InputFileError(f"{p}: not a file")
     if settings is None:
         settings = load_settings(None, drawing=p)
-    size = p.stat().st_size
-    if size > settings.max_file_mb * 1024 * 1024:
-        raise InputFileError(
-            f"{p}: {size / 1024 / 1024:.1f} MB, more than the limit of {settings.max_file_mb:g} MB "
-            "(raise [limits] max_file_mb in dxf2frame.toml if this is intended)"
-        )
-    notes: list[str] = []
-    try:
-        doc = ezdxf.readfile(p)
-    except (FileNotFoundError, PermissionError, IsADirectoryError) as exc:
-        raise InputFileError(f"{p}: cannot read the file ({exc.strerror or exc})") from None
-    except Exception:  # structure errors, bad values, 'not a DXF file': try the recover mode
-        try:
-            doc, auditor = recover.readfile(p)
-        except Exception as exc:  # anything ezdxf raises on garbage
-            raise InputFileError(f"{p}: not a readable DXF file ({type(exc).__name__}: {exc})") from None
-        if auditor.has_errors:
-            notes.append(
-                f"{p.name}: damaged DXF; {len(auditor.fixes)} problem(s) repaired on reading, "
-                f"{len(auditor.errors)} left unrepaired"
-            )
-        else:
-            notes.append(f"{p.name}: damaged DXF; {len(auditor.fixes)} problem(s) repaired on reading")
+    doc, notes = open_document(p, settings)
     model = read_document(doc, p, settings, length_unit=length_unit)
     model.warnings[:0] = notes
     return model

@@ -498,6 +498,10 @@ def load_settings(path: Path | str | None = None, drawing: Path | str | None = N
         raise SettingsError("settings file not found", path=str(p)) from None
     except tomllib.TOMLDecodeError as exc:
         raise SettingsError(f"not valid TOML: {exc}", path=str(p)) from None
+    except UnicodeDecodeError as exc:
+        raise SettingsError(f"not UTF-8 text (byte {exc.start}): save the file as UTF-8", path=str(p)) from None
+    except RecursionError:
+        raise SettingsError("not valid TOML: nested too deeply", path=str(p)) from None
     except OSError as exc:
         raise SettingsError(f"cannot read settings file: {exc.strerror or exc}", path=str(p)) from None
     return _build(data, str(p), p)
