@@ -943,21 +943,20 @@ def mark_changes(
     (``units.drawing_length``) when the header does not; ``drawing_unit``
     overrides both.
     """
-    import ezdxf
+    from .reader import open_document
+    from .settings import Settings
 
     src = Path(newest_dxf_source)
-    try:
-        doc = ezdxf.readfile(src)
-    except (OSError, ezdxf.DXFError) as exc:
-        raise InputFileError(f"{src}: cannot read the drawing to mark: {exc}") from None
+    # the same opening path as check and solve: damaged files are recovered
+    doc, _notes = open_document(src, settings if isinstance(settings, Settings) else None)
     unit = drawing_unit or _drawing_unit(doc, (newest_report.get("units") or {}).get("drawing_length")
                                          or getattr(settings, "length_unit", None))
     s = length_unit_scale(cmp.units["length"]) / length_unit_scale(unit)  # comparison length -> drawing units
     layer = _layer_name(settings)
     if layer not in doc.layers:
         doc.layers.add(layer, color=_CHANGES_COLOR)
-    if "DASHED" not in doc.linetypes:
-        doc.linetypes.add("DASHED", pattern=[0.6, 0.5, -0.1], description="Dashed __ __ __")
+    if "D2F-CLOUD" not in doc.linetypes:
+        doc.linetypes.add("D2F-CLOUD", pattern=[0.6, 0.5, -0.1], description="dxf2frame change cloud")
     msp = doc.modelspace()
     u = unit_labels(cmp.units)
 
@@ -1024,7 +1023,7 @@ def mark_changes(
             entries.append((f"N{k}", [f"new support at {_pt(p)}"], _NEW_COLOR))
         for k, m in enumerate(pair.removed_members, start=1):
             a, b = ends(m)
-            msp.add_line(a, b, dxfattribs={**attribs(_REMOVED_COLOR), "linetype": "DASHED",
+            msp.add_line(a, b, dxfattribs={**attribs(_REMOVED_COLOR), "linetype": "D2F-CLOUD",
                                            "ltscale": max(extent / 50.0, 1e-6)})
             tag(f"R{k}", beside(a, b), _REMOVED_COLOR)
             entries.append((f"R{k}", [f"removed member {m.id} on {m.layer}"], _REMOVED_COLOR))

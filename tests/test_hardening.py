@@ -757,9 +757,6 @@ def test_any_settings_table_validates_or_is_a_settings_error(data):
 # ---------------------------------------------------------------------------
 
 
-@pytest.mark.xfail(reason="dxf2frame/writer.py: _load_source re-reads the drawing with ezdxf.readfile and falls "
-                          "back to the recover mode only on DXFStructureError; ezdxf raises ValueError('Invalid "
-                          "handle') here, which the reader (reader.open_document) recovers from", strict=False)
 def test_invalid_attribute_handle_is_recovered_by_every_stage(tmp_path, capsys):
     doc = beam_doc()
     udl = next(iter(doc.modelspace().query("INSERT[name=='UDL']")))
@@ -776,10 +773,6 @@ def test_invalid_attribute_handle_is_recovered_by_every_stage(tmp_path, capsys):
     check_simple_beam(report)
 
 
-@pytest.mark.xfail(reason="dxf2frame/compare.py: mark_changes re-reads the newest drawing with ezdxf.readfile "
-                          "only (no recover mode), so a damaged drawing that solve and check accept (missing EOF) "
-                          "is refused by compare (exit 2), and an invalid handle escapes as ValueError (exit 1); "
-                          "reading it through reader.open_document would match the other commands", strict=False)
 @pytest.mark.parametrize("damage", ["no-eof", "invalid-handle"])
 def test_compare_accepts_what_solve_accepts(demo_copy, tmp_path, capsys, damage):
     newest = demo_copy / "packing-shed-rev-B.dxf"
@@ -796,9 +789,6 @@ def test_compare_accepts_what_solve_accepts(demo_copy, tmp_path, capsys, damage)
     assert rc == 0, err
 
 
-@pytest.mark.xfail(reason="dxf2frame/report.py: _round12 computes 10**(11 - exponent), which overflows for "
-                          "|values| below about 1e-297 (round-off residue of the solver), so such a value is "
-                          "written to the report as NaN instead of itself or 0", strict=False)
 def test_tiny_values_survive_report_rounding():
     import numpy as np
 

@@ -226,11 +226,7 @@ def make_mutation(seed: int) -> Mutation:
 
 #: failures in modules owned elsewhere, recognised by their message, with
 #: the module to route them to; they make a chunk xfail (never pass silently)
-FOREIGN = {
-    "ValueError: Invalid handle": "dxf2frame/writer.py (_load_source): re-reads the drawing with ezdxf.readfile "
-                                  "and falls back to the recover mode only on DXFStructureError; ezdxf raises "
-                                  "ValueError for an invalid handle, which the reader recovers from",
-}
+FOREIGN: dict[str, str] = {}
 
 
 def _run(args: list[str]) -> tuple[object, str, str]:
