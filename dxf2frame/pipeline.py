@@ -363,6 +363,36 @@ def _move_into_place(staged: Path, target: Path) -> None:
             raise
 
 
+#: above this many members the preview shows the moment panel only
+PREVIEW_PANEL_LIMIT = 2000
+
+
+def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
+                    force_u: str, length_u: str) -> None:
+    """PNG preview: one panel per diagram for a solved frame (moment, shear,
+    axial, reactions with the deflected shape), the whole drawing for an
+    unstable one."""
+    from . import CAUTION, preview
+    from .writer import result_layer_names
+
+    if not analysis.stable:
+        preview.render_png(drawing, png)
+        return
+    names = result_layer_names(analysis.settings)
+    loads = analysis.settings.layer("loads")
+    panels = [
+        (f"Bending moment M [{force_u}*{length_u}], drawn on the tension side", [names["moment"]]),
+        (f"Shear V [{force_u}], + toward local +y", [names["shear"]]),
+        (f"Axial force N [{force_u}], tension +", [names["axial"]]),
+        ("Reactions, loads and deflected shape (exaggerated)", [names["reactions"], names["deflected"], loads]),
+    ]
+    if len(analysis.model.frame.members) > PREVIEW_PANEL_LIMIT:
+        panels = panels[:1]
+    hide = list(names.values()) + [loads]
+    footer = f"{analysis.model.source.name}: showing {show}. {CAUTION}"
+    preview.render_panels_png(drawing, png, panels, hide=hide, footer=footer)
+
+
 def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     """Run the whole ``solve`` command on one drawing; never raises for bad input.
 
@@ -406,8 +436,8 @@ def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
         try:
             staged = {k: staging / p.name for k, p in paths.items()}
             t0 = time.perf_counter()
+            show = req.show or settings.combinations_draw
             if analysis.stable:
-                show = req.show or settings.combinations_draw
                 writer.write_result_drawing(
                     source, staged["drawing"], model, det, analysis.results, show=show,
                     settings=settings, force_unit=force_u, length_unit=length_u,
@@ -422,7 +452,7 @@ def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 written.append("csv")
             if req.png:
                 t0 = time.perf_counter()
-                preview.render_png(staged["drawing"], staged["png"])
+                _render_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u)
                 analysis.timings["png"] = time.perf_counter() - t0
                 written.append("png")
             if req.sheets and analysis.stable:

@@ -29,7 +29,7 @@ from matplotlib.figure import Figure
 from .atomic import write_bytes
 from .errors import InputFileError
 
-__all__ = ["render_png", "render_doc_png"]
+__all__ = ["render_png", "render_doc_png", "render_panels_png"]
 
 #: Longest side of the picture in inches; with dpi=150 about 1800 px.
 _FIGURE_INCHES = 12.0
@@ -120,8 +120,8 @@ class _QuickBackend(MatplotlibBackend):
     points.  The caller sets the axes limits from the drawing's extents.
     """
 
-    def __init__(self, ax) -> None:
-        super().__init__(ax)
+    def __init__(self, ax, **kwargs) -> None:
+        super().__init__(ax, **kwargs)
         self._lines: dict[tuple, list] = {}
         self._fills: dict[str, list] = {}
         self._points: dict[str, list] = {}
@@ -209,3 +209,86 @@ def render_png(
     read.
     """
     render_doc_png(_load(Path(dxf_path)), Path(png_path), dpi=dpi, layers=layers)
+
+
+#: Panel width of a multi-panel preview [in].
+_PANEL_INCHES = 8.0
+
+
+def render_panels_png(
+    dxf_path: Path,
+    png_path: Path,
+    panels: list[tuple[str, list[str]]],
+    *,
+    hide: Iterable[str] = (),
+    footer: str = "",
+    dpi: int = 150,
+) -> None:
+    """Render one picture made of panels, one per result quantity.
+
+    Each panel shows the drawing's own layers (less ``hide``, e.g. every
+    result layer and the load symbols) plus the panel's layers, so the
+    moment, shear and axial diagrams do not pile on top of each other as
+    they do when every layer is switched on in CAD.  All panels share the
+    same window, so they line up.
+
+    Parameters
+    ----------
+    panels : (title, [layer names]) per panel, drawn left to right, two per row
+    hide : layers never drawn in any panel (compared case-insensitively)
+    footer : a line of text under the panels (the caution)
+    """
+    doc = _load(Path(dxf_path))
+    msp = doc.modelspace()
+    hidden = {h.upper() for h in hide}
+    shown_extra = {name.upper() for _, names in panels for name in names}
+
+    def base(entity) -> bool:
+        return entity.dxf.get("layer", "0").upper() not in hidden
+
+    def in_any_panel(entity) -> bool:
+        layer = entity.dxf.get("layer", "0").upper()
+        return layer not in hidden or layer in shown_extra
+
+    box = _extents(msp, in_any_panel)
+    if box is None:
+        render_doc_png(doc, png_path, dpi=dpi)
+        return
+    pad = 0.04 * max(box[2] - box[0], box[3] - box[1])
+    x0, y0, x1, y1 = box[0] - pad, box[1] - pad, box[2] + pad, box[3] + pad
+    w, h = x1 - x0, y1 - y0
+    cols = 2 if len(panels) > 1 else 1
+    rows = -(-len(panels) // cols)
+    title_in, footer_in = 0.35, (0.45 if footer else 0.1)
+    panel_h = max(_PANEL_INCHES * h / w, 1.5)
+    fig = Figure(dpi=dpi, figsize=(_PANEL_INCHES * cols, rows * (panel_h + title_in) + footer_in))
+    FigureCanvasAgg(fig)
+    fig_w, fig_h = fig.get_size_inches()
+    span = max(w, h)
+    for k, (title, names) in enumerate(panels):
+        r, c = divmod(k, cols)
+        left = c * _PANEL_INCHES / fig_w
+        bottom = (fig_h - (r + 1) * (panel_h + title_in)) / fig_h
+        ax = fig.add_axes((left, bottom, _PANEL_INCHES / fig_w, panel_h / fig_h))
+        ax.set_axis_off()
+        keep = {n.upper() for n in names}
+
+        def wanted(entity, keep=keep) -> bool:
+            return base(entity) or entity.dxf.get("layer", "0").upper() in keep
+
+        config = Configuration(background_policy=BackgroundPolicy.WHITE)
+        props = LayoutProperties.from_layout(msp)
+        props.set_colors("#ffffff")
+        frontend = Frontend(RenderContext(doc), _QuickBackend(ax, adjust_figure=False), config)
+        frontend.push_property_override_function(_hide_small_text(_MIN_TEXT_PX * span / (_PANEL_INCHES * dpi)))
+        frontend.draw_layout(msp, finalize=True, filter_func=wanted, layout_properties=props)
+        ax.set_xlim(x0, x1)
+        ax.set_ylim(y0, y1)
+        ax.set_aspect("equal", adjustable="box")
+        fig.text(left + 0.01, bottom + panel_h / fig_h + 0.05 / fig_h, title, fontsize=11,
+                 fontweight="bold", va="bottom", ha="left", color="#222222")
+    if footer:
+        fig.text(0.01, 0.12 / fig_h, footer, fontsize=9, va="bottom", ha="left", color="#444444")
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=dpi, facecolor="white")
+    write_bytes(png_path, buf.getvalue())
