@@ -7,6 +7,7 @@ drawing written, no numbers); 1 an internal error (please report it).
 from __future__ import annotations
 
 import argparse
+import os
 import logging
 import math
 import sys
@@ -215,6 +216,14 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("dxf2frame: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        # the reader of our output went away (``dxf2frame check x.dxf | head``):
+        # not an error of ours; silence the interpreter's own complaint at exit
+        try:
+            sys.stdout = open(os.devnull, "w")  # noqa: SIM115
+        except OSError:
+            pass
+        return 0
     except Exception as exc:  # noqa: BLE001
         return _fail(exc, getattr(args, "debug", False))
 
