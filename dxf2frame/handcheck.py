@@ -1026,6 +1026,10 @@ def _status_text(det) -> str:
     return det.status
 
 
+#: without explicit points, at most this many sheets (the members with the largest |M|)
+MAX_DEFAULT_SHEETS = 40
+
+
 def write_sheets(
     analysis: "Analysis",
     folder: Path | str,
@@ -1078,6 +1082,11 @@ def write_sheets(
             cuts.append((mid, x, r, why))
     else:
         cuts = _default_cuts(analysis, [fixed] if fixed is not None else _strength_candidates(analysis))
+        if len(cuts) > MAX_DEFAULT_SHEETS:
+            # a checker reviews the worst members first: keep those with the
+            # largest |M| at their governing point
+            cuts = sorted(cuts, key=lambda c: -abs(float(c[2].members[c[0]].moment(c[1]))))
+            cuts = cuts[:MAX_DEFAULT_SHEETS]
 
     source = Path(model.source)
     try:
