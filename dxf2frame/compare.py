@@ -172,8 +172,26 @@ class ValueChange:
                 "change": self.change, "flagged": self.flagged}
 
 
+class _Changes:
+    """Shared by member and reaction changes: a tuple ``values`` of
+    :class:`ValueChange`."""
+
+    values: tuple[ValueChange, ...]
+
+    @property
+    def flagged(self) -> bool:
+        return any(v.flagged for v in self.values)
+
+    def value(self, quantity: str) -> ValueChange:
+        """The :class:`ValueChange` of ``quantity`` ("N", "V", "M", "deflection", "fx", ...)."""
+        for v in self.values:
+            if v.quantity == quantity:
+                return v
+        raise KeyError(quantity)
+
+
 @dataclass(frozen=True)
-class MemberChange:
+class MemberChange(_Changes):
     """A member matched between two revisions and its governing values.
 
     ``how``: ``"same ends"``, ``"overlap"`` (split/merged) or ``"moved"``.
@@ -184,40 +202,19 @@ class MemberChange:
     how: str
     values: tuple[ValueChange, ...]
 
-    @property
-    def flagged(self) -> bool:
-        return any(v.flagged for v in self.values)
-
-    def value(self, quantity: str) -> ValueChange:
-        """The :class:`ValueChange` of ``quantity`` ("N", "V", "M", "deflection")."""
-        for v in self.values:
-            if v.quantity == quantity:
-                return v
-        raise KeyError(quantity)
-
     def to_dict(self) -> dict:
         return {"old": self.old.to_dict(), "new": self.new.to_dict(), "how": self.how,
                 "flagged": self.flagged, "values": [v.to_dict() for v in self.values]}
 
 
 @dataclass(frozen=True)
-class ReactionChange:
+class ReactionChange(_Changes):
     """A support found at the same place in both revisions and its governing
     reaction components ``fx``, ``fy``, ``m`` (magnitudes)."""
 
     old_at: tuple[float, float]
     new_at: tuple[float, float]
     values: tuple[ValueChange, ...]
-
-    @property
-    def flagged(self) -> bool:
-        return any(v.flagged for v in self.values)
-
-    def value(self, quantity: str) -> ValueChange:
-        for v in self.values:
-            if v.quantity == quantity:
-                return v
-        raise KeyError(quantity)
 
     def to_dict(self) -> dict:
         return {"old_at": list(self.old_at), "new_at": list(self.new_at), "flagged": self.flagged,

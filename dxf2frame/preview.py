@@ -15,7 +15,7 @@ from pathlib import Path
 from typing import Iterable
 
 import ezdxf
-from ezdxf import bbox, recover
+from ezdxf import bbox
 from ezdxf.addons.drawing import Frontend, RenderContext
 from ezdxf.addons.drawing.config import BackgroundPolicy, Configuration
 from ezdxf.addons.drawing.matplotlib import MatplotlibBackend
@@ -27,7 +27,6 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from .atomic import write_bytes
-from .errors import InputFileError
 
 __all__ = ["render_png", "render_doc_png", "render_panels_png"]
 
@@ -39,17 +38,11 @@ _TEXT_TYPES = {"TEXT", "ATTRIB", "MTEXT", "ATTDEF"}
 
 
 def _load(dxf_path: Path) -> "ezdxf.document.Drawing":
-    """Open the drawing; a damaged file goes through ezdxf's recover mode."""
-    try:
-        return ezdxf.readfile(dxf_path)
-    except OSError as exc:
-        raise InputFileError(f"{dxf_path}: cannot open ({exc})") from exc
-    except Exception:  # noqa: BLE001 - ezdxf raises several kinds for damaged files
-        try:
-            doc, _auditor = recover.readfile(dxf_path)
-        except Exception as exc:  # noqa: BLE001
-            raise InputFileError(f"{dxf_path}: cannot read as DXF ({exc})") from exc
-        return doc
+    """Open the drawing the way the reader does (damaged files recovered)."""
+    from .reader import open_document
+
+    doc, _notes = open_document(dxf_path)
+    return doc
 
 
 def render_doc_png(
