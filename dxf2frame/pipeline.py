@@ -441,9 +441,11 @@ def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 writer.write_result_drawing(
                     source, staged["drawing"], model, det, analysis.results, show=show,
                     settings=settings, force_unit=force_u, length_unit=length_u,
+                    document=model.document,
                 )
             else:
-                writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings)
+                writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings,
+                                               document=model.document)
             analysis.timings["write"] = time.perf_counter() - t0
             report_mod.write_json(rep, staged["report"])
             written = ["drawing", "report"]

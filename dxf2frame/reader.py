@@ -1170,5 +1170,6 @@ def read_drawing(
         settings = load_settings(None, drawing=p)
     doc, notes = open_document(p, settings)
     model = read_document(doc, p, settings, length_unit=length_unit)
+    model.document = doc  # unmodified: the writers draw into it instead of reading the file again
     model.warnings[:0] = notes
     return model
