@@ -446,6 +446,24 @@ class _Pieces:
             c = c[pieces]
         return _polyval(c, t)
 
+    def member(self, j: int) -> "_Pieces":
+        """The pieces of member ``j`` alone, as a one-member table (views of
+        this one's arrays: a member of a big result evaluates without
+        rebuilding its pieces)."""
+        s, c = int(self.start[j]), int(self.count[j])
+        sl = slice(s, s + c)
+
+        def cut(a):
+            return None if a is None else a[sl]
+
+        return _Pieces(
+            mem=np.zeros(c, np.intp), x0=self.x0[sl], h=self.h[sl], N0=self.N0[sl], V0=self.V0[sl],
+            M0=self.M0[sl], qx0=self.qx0[sl], gx=self.gx[sl], qy0=self.qy0[sl], gy=self.gy[sl],
+            start=np.zeros(1, np.intp), count=self.count[j:j + 1], length=self.length[j:j + 1],
+            left0=self.left0[j:j + 1], rightL=self.rightL[j:j + 1], u0=cut(self.u0), v0=cut(self.v0),
+            th0=cut(self.th0), EA=cut(self.EA), EI=cut(self.EI),
+        )
+
 
 def _build_pieces(
     length: np.ndarray,
@@ -799,6 +817,10 @@ class MemberResult:
 
     @cached_property
     def _pieces(self) -> _Pieces:
+        src = self.__dict__.get("_source")
+        if src is not None:  # part of a MemberResults: share the pieces built for all members
+            parent, j = src
+            return parent._pieces().member(j)
         defl = self.has_deflection
         return _build_pieces(
             np.array([self.length]), self.end_forces[None, :], self.loads,
@@ -987,8 +1009,10 @@ class MemberResults(Mapping):
     Holds the data of all members as arrays: ``end_forces`` (m, 6) local,
     ``end_displacements`` (m, 4) local ``u_i, v_i, u_j, v_j`` or None,
     ``loads`` (:class:`LoadSet` indexed by member), and the shared
-    :class:`MemberLayout`.  :meth:`table` gives the extremes of every member
-    at once (vectorised).
+    :class:`MemberLayout`.  Batch methods work on every member at once
+    (vectorised, no per-member Python loop): :meth:`table` gives the
+    extremes, :meth:`critical_points` the critical points and
+    :meth:`sample` the values at any (member, x) pairs.
     """
 
     def __init__(self, layout: MemberLayout, end_forces: np.ndarray, loads: LoadSet,
@@ -1002,6 +1026,8 @@ class MemberResults(Mapping):
         self._ftable: dict[str, np.ndarray] | None = None
         self._dtable: dict[str, np.ndarray] | None = None
         self._pc: _Pieces | None = None
+        self._bx: tuple[np.ndarray, np.ndarray] | None = None
+        self._crit: tuple[np.ndarray, np.ndarray] | None = None
 
     # Mapping protocol
     def __getitem__(self, mid: str) -> MemberResult:
@@ -1048,7 +1074,9 @@ class MemberResults(Mapping):
         """Extremes of N, V, M of every member (arrays in layout order),
         keys as :meth:`MemberResult.extremes`; one vectorised pass."""
         if self._ftable is None:
-            self._ftable = _extremes_batch(self._pieces())
+            pc = self._pieces()
+            self._ftable = _extremes_batch(pc)
+            pc._cache.clear()  # coefficient arrays are cheap to rebuild; do not hold them per result
         return self._ftable
 
     def deflection_table(self) -> dict[str, np.ndarray]:
@@ -1059,6 +1087,7 @@ class MemberResults(Mapping):
             if self.has_deflection:
                 pc = self._pieces()
                 val, at = _max_abs_batch(pc, _displacement_parts(pc))
+                pc._cache.clear()
             else:
                 val, at = np.full(len(self), np.nan), np.full(len(self), np.nan)
             self._dtable = {"deflection_max": val, "deflection_max_at": at}
@@ -1067,6 +1096,121 @@ class MemberResults(Mapping):
     def table(self) -> dict[str, np.ndarray]:
         """:meth:`force_table` and :meth:`deflection_table` together."""
         return {**self.force_table(), **self.deflection_table()}
+
+    # -- batch evaluation (all members at once) ---------------------------
+
+    def _entries(self) -> tuple[np.ndarray, np.ndarray]:
+        """(bx, first): the break positions of every member, flat (member j:
+        its piece starts in order, then its length, at ``first[j]`` ..
+        ``first[j] + count[j]``)."""
+        if self._bx is None:
+            pc = self._pieces()
+            m = len(self)
+            first = pc.start + np.arange(m)
+            bx = np.empty(len(pc.mem) + m)
+            bx[np.arange(len(pc.mem)) + pc.mem] = pc.x0
+            bx[first + pc.count] = pc.length
+            self._bx = (bx, first)
+        return self._bx
+
+    def _locate(self, rows: np.ndarray, x: np.ndarray, side: str) -> np.ndarray:
+        """Local piece index k of each (row, x): the last break of the row at
+        or before x (``side="right"``) or strictly before x (``"left"``);
+        -1 before the start, ``count`` at or after the end.  A vectorised
+        bisection with exact comparisons (a value at a break point lands on
+        the chosen side however the float rounds elsewhere)."""
+        bx, first = self._entries()
+        f0 = first[rows]
+        lo = f0.copy()
+        hi = f0 + self._pieces().count[rows] + 1
+        right = side == "right"
+        while True:
+            act = lo < hi
+            if not act.any():
+                break
+            mid = (lo + hi) >> 1
+            v = bx[np.where(act, mid, 0)]
+            go = (v <= x) if right else (v < x)
+            lo = np.where(act & go, mid + 1, lo)
+            hi = np.where(act & ~go, mid, hi)
+        return lo - f0 - 1
+
+    def _query(self, rows, x) -> tuple[np.ndarray, np.ndarray, tuple]:
+        rows_a = np.asarray(rows, dtype=np.intp)
+        xa = np.asarray(x, dtype=float)
+        rows_a, xa = np.broadcast_arrays(rows_a, xa)
+        shape = xa.shape
+        rows_a, xa = rows_a.ravel(), xa.ravel()
+        m = len(self)
+        if len(rows_a) and (rows_a.min() < 0 or rows_a.max() >= m):
+            raise IndexError(f"member rows must lie in [0, {m})")
+        L = self.layout.length[rows_a]
+        tol = _POS_TOL * L
+        if np.any(xa < -tol) or np.any(xa > L + tol) or not np.all(np.isfinite(xa)):
+            raise ValueError("positions must lie in [0, length] of their members")
+        return rows_a, np.clip(xa, 0.0, L), shape
+
+    def sample(self, which: str, rows, x, side: str = "right") -> np.ndarray:
+        """Values at local positions of many members at once.
+
+        Parameters
+        ----------
+        which : "N", "V", "M" (internal forces [force], [force*length]) or
+            "u", "v" (local displacements [length]), "th" (slope [rad])
+        rows : (k,) member indices in the order of this mapping (layout order)
+        x : (k,) positions from each member's start [length], 0 <= x <= L
+        side : at a jump of N, V or M, the value just right of x ("right")
+            or just left ("left"); at x = 0 "left" gives the end force
+            itself, at x = L "right" likewise (see :meth:`MemberResult.axial`)
+
+        Returns
+        -------
+        (k,) values, exactly as :class:`MemberResult` gives them.
+        """
+        if side not in ("right", "left"):
+            raise ValueError("side must be 'right' or 'left'")
+        col = {"N": 0, "V": 1, "M": 2}.get(which)
+        if col is None and which not in ("u", "v", "th"):
+            raise KeyError(f"unknown quantity {which!r}; expected N, V, M, u, v or th")
+        if col is None and not self.has_deflection:
+            raise ValueError("no stiffness: deflections are not available")
+        rows_a, xa, shape = self._query(rows, x)
+        pc = self._pieces()
+        cnt = pc.count[rows_a]
+        k = self._locate(rows_a, xa, side if col is not None else "right")
+        p = pc.start[rows_a] + np.clip(k, 0, cnt - 1)
+        out = _polyval(pc._coef(which)[p], xa - pc.x0[p])
+        if col is not None:
+            before, after = k < 0, k >= cnt
+            if before.any():
+                out[before] = pc.left0[rows_a[before], col]
+            if after.any():
+                out[after] = pc.rightL[rows_a[after], col]
+        return out.reshape(shape)
+
+    def critical_points(self) -> tuple[np.ndarray, np.ndarray]:
+        """(rows, x) of every member's critical points, sorted by row then
+        x: the ends, every load break point, the zeros of V (extremes of M)
+        and the zeros of M (as :meth:`MemberResult.critical_points`)."""
+        if self._crit is None:
+            pc = self._pieces()
+            m = len(self)
+            rows = [pc.mem, np.arange(m)]
+            xs = [pc.x0, pc.length]
+            for which in ("V", "M"):
+                c = pc._coef(which)
+                ends = _polyval(c, pc.h)
+                rp, rs = real_roots_unit(_to_unit(c, pc.h), ref=_member_ref(pc, c[:, 0], ends))
+                rows.append(pc.mem[rp])
+                xs.append(pc.x0[rp] + rs * pc.h[rp])
+            r, x = np.concatenate(rows), np.concatenate(xs)
+            x = np.clip(x, 0.0, pc.length[r])
+            order = np.lexsort((x, r))
+            r, x = r[order], x[order]
+            keep = np.ones(len(r), bool)
+            keep[1:] = (r[1:] != r[:-1]) | (np.diff(x) > _POS_TOL * pc.length[r[1:]] * 1e-3)
+            self._crit = (r[keep], x[keep])
+        return self._crit
 
     def scaled(self, f: float) -> "MemberResults":
         return MemberResults(self.layout, self.end_forces * f, self.loads.scaled(f),

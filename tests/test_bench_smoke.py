@@ -43,7 +43,7 @@ def test_quick_run_produces_results_dict(tmp_path):
     assert row["members"] == 15
     # three load cases (D, L, W) plus the built-in combinations: more results than cases
     assert row["results"] > 3
-    assert {"files", "workers_1_s", "workers_2_s", "speedup", "ok"} <= set(res["batch"])
+    assert {"files", "workers_1_s", "workers_2_s", "speedup", "ok", "machine_ceiling"} <= set(res["batch"])
     assert res["batch"]["ok"] == 2
     assert res["growth"] is None  # 5,000 and 20,000 were not run
     assert [t["key"] for t in res["targets"]] == [t[0] for t in bench_run.TARGETS]
