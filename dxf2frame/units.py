@@ -223,11 +223,13 @@ def parse_quantity(
     """
     try:
         return _parse_cached(str(text), kind, default_unit)
-    except _ParseFailure as exc:
+    except (_ParseFailure, ArithmeticError) as exc:
+        # ArithmeticError: pint overflows on text such as 'N**1E3'
         what = KINDS[kind][1]
         label = f"attribute {tag}: " if tag else ""
+        reason = str(exc) if isinstance(exc, _ParseFailure) else f"cannot read {str(text).strip()!r} ({exc})"
         raise UnitError(
-            f"{label}{exc}",
+            f"{label}{reason}",
             handle=handle,
             layer=layer,
             hint=f"write {what} with a unit, e.g. '{KINDS[kind][2]}'",
