@@ -25,21 +25,73 @@ model.
 
 Scales: one per diagram type, a round number chosen so that the largest
 ordinate is about 8-12 % of the larger side of the frame's extents, stated
-in the legend as "moment: 1 drawing unit = X kN*m".  Text height is 1/80 of
+in the legend as "moment: 1 drawing unit = X kN*m".  Text height is 1/60 of
 that side.  The deflected shape is exaggerated so that the largest
 displacement is about 4-5 % of it.
 
-Labels (values at element ends, at extremes and at zero crossings, and at
-reactions) are placed by :class:`LabelPlacer`: each label tries candidate
-positions in turn (beyond the diagram's tip, on the other side of the
-member, shifted along the member, farther out) and keeps the first whose box
-overlaps no placed label and no frame or arrow line (tested with a shapely
-STRtree).  If no candidate is free the label goes to the first candidate
-anyway, so a value is never silently dropped.  Near-zero values (below
-5e-4 of the diagram's largest value) are not labelled; at most six labels
-per element and diagram.  Elements shorter than three text heights (a big
-frame seen whole) get outlines only: no fill, no labels, except the
-diagram's overall extreme, which is always labelled.
+Which values are written (per element and diagram; what one would write
+by hand):
+
+* the value at each end.  For an envelope: the bound of larger magnitude
+  with the key of its governing combination, plus the other bound only if
+  it has the other sign and is at least 25 % of the larger;
+* the interior extremes: the largest and the smallest value when they lie
+  inside the element, not at an end (for an envelope: the largest positive
+  of the max curve and the largest negative of the min curve);
+* one value at mid-length instead of two end values when the value is the
+  same all along (within 0.5 % of the diagram's largest value; e.g. the
+  axial force of a column), and likewise for an envelope bound that is
+  constant and governs both ends;
+* moment only, single results only: each zero crossing (point of
+  contraflexure, at most two per element) is marked by a short tick across
+  the member and a "0" beside it.  Envelopes get no zero marks: their
+  bounds' crossings belong to no single combination;
+* nothing below 2 % of the diagram's largest |value| (reactions are always
+  written);
+* at a node, values of one diagram from different elements whose
+  magnitudes agree within 0.5 % of the diagram's largest value are written
+  once (at a rigid joint of two members without an external couple the
+  end moments are equal); a constant element's one value counts at both
+  its end nodes.
+
+Envelope keys: a value's governing combination is written as a short key,
+"M=-16.40 [C7]"; Ck is the k-th combination of the envelope.  Under each
+layer's scale line the legend lists the keys that layer uses
+("governing: C2 = 1.2D+1.6L, C7 = ..."), so each layer reads on its own;
+the notes list every key.  "[all]" beside a reaction: every combination
+gives the same value.
+
+Placing (:class:`LabelPlacer`), layer by layer (each result layer is read
+on its own, as the preview's panels show them; the diagrams of different
+layers lie on top of each other anyway): labels go most important first
+(the diagram's overall extreme, reactions, interior extremes, constant
+values, end values, the other sign at an end, zero marks), larger values
+first within a kind.  Each tries candidate boxes in turn: beyond the
+diagram's tip, on the other side of the member (end values flush with the
+element's end, on its inner side), then all around the point, and keeps
+the first that overlaps no placed label of its layer, no member line, no
+outline or zero tick of its own diagram (on elements long enough for
+labels), no reaction arrow (reactions), and none of the drawing's own TEXT
+and MTEXT (titles, grid marks; at most 1000).  Only obstacles within reach
+of some label are indexed, so a big frame with few labels stays cheap.  A
+label that does not sit right beside its point gets a leader line from the
+point.  When nothing near is free:
+
+* end values, the other sign at an end and zero marks are dropped
+  (``DrawingSummary.dropped`` counts them);
+* interior extremes and constant values try rings farther out (1.5, 3 and
+  5 text heights, with a leader) and are dropped only if those are full
+  too (a dense frame seen whole);
+* the diagram's overall extreme and the reactions are always written, on
+  top of other labels if need be (``DrawingSummary.forced``).
+
+Elements shorter than three text heights get outlines only: no fill, no
+labels, except the diagram's overall extreme.
+
+Legend: per result layer a swatch, its scale line and its keys, on that
+layer; a frame wider than tall gets these blocks in rows under the
+drawing, a taller one a column to its right, so a picture of one layer
+keeps close to the frame.  Title and notes (notes layer) go to the right.
 
 Sampling: each element is sampled at its critical points (ends, load
 breaks, zeros of V and M, from every result drawn) plus 17 even stations,
@@ -55,6 +107,7 @@ ACI colours, no fills).
 from __future__ import annotations
 
 import math
+import textwrap
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable, Sequence
@@ -69,7 +122,7 @@ from ezdxf.enums import TextEntityAlignment
 from . import CAUTION, __version__
 from .atomic import atomic_path
 from .errors import InputFileError, SettingsError
-from .report import UnitFactors, member_groups, unit_factors
+from .report import UnitFactors, unit_factors
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
@@ -171,9 +224,15 @@ _DEFL_SAMPLES = 9          # stations per element for the deflected shape (a cub
 _ORDINATE_TARGET = 0.115   # largest ordinate / frame size, before rounding the scale
 _DEFLECTION_TARGET = 0.05  # largest drawn displacement / frame size
 _MECHANISM_TARGET = 0.10   # largest drawn mechanism movement / frame size
-_TEXT_RATIO = 1.0 / 80.0   # text height / frame size
-_ZERO_LABEL = 5e-4         # values below this fraction of the diagram max are not labelled
-_MAX_LABELS = 6            # per element and diagram
+_TEXT_RATIO = 1.0 / 60.0   # text height / frame size
+_ZERO_LABEL = 5e-4         # |M| below this fraction of the diagram max counts as zero when finding crossings
+_SKIP_LABEL = 0.02         # values below this fraction of the diagram's largest |value| are not written
+_SAME_AT_JOINT = 0.005     # end values at a node this close in magnitude (fraction of the max) are written once
+_OTHER_SIGN = 0.25         # envelope: the other sign at an end is written when at least this fraction of the larger
+_FLAT = 0.005              # an element whose values vary less than this fraction of the max gets one label
+_MAX_ZEROS = 2             # moment zero crossings marked per element
+_LEGEND_CHARS = 40         # legend lines wrap at about this many characters
+_MAX_TEXT_OBSTACLES = 1000  # the drawing's own texts labels keep off (none when there are more)
 _MAX_WARNINGS = 8          # listed in the notes block
 _NICE = (1.0, 1.2, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0, 10.0)
 
@@ -393,13 +452,18 @@ class _Pen:
 
     def notes(self, paragraphs: list[str], pos, height: float, width: float, layer: str) -> None:
         """A block of text, top-left at ``pos``: MTEXT, or TEXT lines in R12."""
-        if self.legacy:
+        if self.legacy:  # TEXT has no wrapping: lines of about ``width`` (average glyph 0.55 x height)
             y = pos[1]
+            chars = max(20, int(width / (0.55 * height)))
             for p in paragraphs:
-                self.text(p, (pos[0], y), height, layer, style="D2F-NOTES", align=TextEntityAlignment.TOP_LEFT)
-                y -= 1.7 * height
+                for line in textwrap.wrap(p, chars, break_on_hyphens=False) or [""]:
+                    self.text(line, (pos[0], y), height, layer, style="D2F-NOTES",
+                              align=TextEntityAlignment.TOP_LEFT)
+                    y -= 1.7 * height
             return
-        content = "\\P".join(_mtext_safe(p) for p in paragraphs)
+        # a space before each paragraph break: ezdxf's MTEXT renderer drops a
+        # break that directly follows a word it has just wrapped to a new line
+        content = " \\P".join(_mtext_safe(p) for p in paragraphs)
         mt = self.msp.add_mtext(content, dxfattribs={"layer": layer, "style": "D2F-NOTES"})
         mt.dxf.char_height = height
         mt.dxf.width = width
@@ -424,46 +488,87 @@ class _Pen:
 # -- labels ------------------------------------------------------------------------------
 
 
+Box = tuple[float, float, float, float]
+
+
 class LabelPlacer:
     """Place axis-aligned text boxes so they avoid each other and given lines.
 
     Parameters
     ----------
-    obstacles : shapely geometries (the frame's member lines, arrow shafts)
-        that labels should not touch; indexed once in an STRtree
+    obstacles : shapely geometries (member lines, diagram outlines, arrow
+        shafts, the drawing's own texts) that labels should not touch;
+        indexed once in an STRtree
     cell : grid cell size for the placed boxes (about 4 text heights)
 
     Placed boxes live in a uniform grid (dict of cells), so each test looks
-    at a handful of neighbours; line tests are STRtree queries.
+    at a handful of neighbours; obstacle tests are STRtree queries, one per
+    batch of candidate boxes (:meth:`free_of_obstacles`).  ``placed`` counts the boxes recorded,
+    ``forced`` those recorded although they overlap something, ``extent``
+    is the bounding box (xmin, ymin, xmax, ymax) of every recorded box (None
+    before the first).
     """
 
     def __init__(self, obstacles: Sequence, cell: float) -> None:
         geoms = [g for g in obstacles if g is not None and not g.is_empty]
         self._tree = shapely.STRtree(geoms) if geoms else None
         self._cell = cell if cell > 0 else 1.0
-        self._grid: dict[tuple[int, int], list[tuple[float, float, float, float]]] = {}
+        self._grid: dict[tuple[int, int], list[Box]] = {}
         self.placed = 0
         self.forced = 0
+        self.extent: Box | None = None
 
-    def _cells(self, b: tuple[float, float, float, float]) -> Iterable[tuple[int, int]]:
+    def _cells(self, b: Box) -> Iterable[tuple[int, int]]:
         c = self._cell
         for i in range(math.floor(b[0] / c), math.floor(b[2] / c) + 1):
             for j in range(math.floor(b[1] / c), math.floor(b[3] / c) + 1):
                 yield i, j
 
-    def fits(self, b: tuple[float, float, float, float]) -> bool:
+    def fits(self, b: Box) -> bool:
         """True when box ``b`` = (xmin, ymin, xmax, ymax) touches no placed box and no obstacle."""
-        for cell in self._cells(b):
-            for o in self._grid.get(cell, ()):
-                if b[0] < o[2] and o[0] < b[2] and b[1] < o[3] and o[1] < b[3]:
-                    return False
+        if not self.free_of_boxes(b):
+            return False
         if self._tree is not None and len(self._tree.query(shapely.box(*b), predicate="intersects")):
             return False
         return True
 
-    def add(self, b: tuple[float, float, float, float]) -> None:
+    def free_of_boxes(self, b: Box) -> bool:
+        """True when box ``b`` overlaps no placed box (obstacles not tested)."""
+        for cell in self._cells(b):
+            for o in self._grid.get(cell, ()):
+                if b[0] < o[2] and o[0] < b[2] and b[1] < o[3] and o[1] < b[3]:
+                    return False
+        return True
+
+    def free_of_obstacles(self, centres: np.ndarray, half_w: float, half_h: float) -> np.ndarray:
+        """Mask of the boxes centred at ``centres`` (k, 2) that touch no
+        obstacle, in one STRtree query (placed boxes not tested)."""
+        c = np.asarray(centres, dtype=float).reshape(-1, 2)
+        ok = np.ones(len(c), dtype=bool)
+        if self._tree is not None and len(c):
+            boxes = shapely.box(c[:, 0] - half_w, c[:, 1] - half_h, c[:, 0] + half_w, c[:, 1] + half_h)
+            ok[self._tree.query(boxes, predicate="intersects")[0]] = False
+        return ok
+
+    def take(self, b: Box) -> None:
+        """Record box ``b`` as a placed label (the caller checked it is free)."""
+        self.add(b)
+        self.placed += 1
+
+    def add(self, b: Box) -> None:
+        """Record box ``b`` as taken (whether or not it fits)."""
         for cell in self._cells(b):
             self._grid.setdefault(cell, []).append(b)
+        e = self.extent
+        self.extent = b if e is None else (min(e[0], b[0]), min(e[1], b[1]), max(e[2], b[2]), max(e[3], b[3]))
+
+    def try_place(self, cx: float, cy: float, half_w: float, half_h: float) -> bool:
+        """Record the box centred at (cx, cy) when it is free; True if it was."""
+        b = (cx - half_w, cy - half_h, cx + half_w, cy + half_h)
+        if not self.fits(b):
+            return False
+        self.take(b)
+        return True
 
     def place(self, candidates: Sequence[tuple[float, float]], half_w: float, half_h: float) -> tuple[float, float, bool]:
         """Centre of the first free candidate box (or the first candidate, forced).
@@ -471,10 +576,7 @@ class LabelPlacer:
         Returns ``(x, y, fitted)``; the chosen box is recorded either way.
         """
         for cx, cy in candidates:
-            b = (cx - half_w, cy - half_h, cx + half_w, cy + half_h)
-            if self.fits(b):
-                self.add(b)
-                self.placed += 1
+            if self.try_place(cx, cy, half_w, half_h):
                 return cx, cy, True
         cx, cy = candidates[0]
         self.add((cx - half_w, cy - half_h, cx + half_w, cy + half_h))
@@ -484,14 +586,61 @@ class LabelPlacer:
 
 
 @dataclass
-class _Label:
-    priority: float
+class _Spot:
+    """One way to write a label: its text and the point it belongs to.
+
+    anchor : the point the value belongs to (curve tip, arrow middle)
+    base : the matching point on the member (or the node)
+    out : unit vector from the member toward the anchor's side
+    along : unit vector along the member
+    inward : end values: +1 or -1, the direction along ``along`` into the
+        element (the label sits flush with the element's end); 0 otherwise
+    key : index of the governing result of an envelope (None: no key written)
+    """
+
     text: str
+    anchor: np.ndarray
+    base: np.ndarray
+    out: np.ndarray
+    along: np.ndarray
+    inward: float = 0.0
+    key: int | None = None
+
+
+#: placing order: the diagram's overall extreme gets 0 (set later)
+_PRIORITY = {"reaction": 0.5, "extreme": 1.0, "flat": 1.5, "end": 2.0, "other": 2.5, "zero": 3.0}
+#: kinds that are written even when crowded (farther out with a leader line, else overlapping)
+_MUST = {"reaction", "extreme", "flat"}
+
+
+@dataclass
+class _Label:
+    """A value to write.
+
+    kind : "extreme" (interior), "end", "other" (the other sign at an
+        envelope's end), "flat" (one value for a whole element), "zero"
+        (a zero crossing of the moment), "reaction"
+    value : the value [SI]; ordering and joint merging use its magnitude
+    spots : where it may be written; several when equal values at a joint
+        were merged (written once, beside whichever member has room)
+    must : when crowded, tried farther out (with a leader line) before it is dropped
+    force : written even where it overlaps (the diagram's overall extreme, reactions)
+    nodes : the node an end value belongs to; both end nodes for a flat
+        element's one value; none for the others
+    element : the element it belongs to (-1: none)
+    """
+
+    priority: float
+    kind: str
+    value: float
     layer: str
-    anchor: np.ndarray          # the point the value belongs to (curve tip, arrow end)
-    base: np.ndarray            # the point on the member (or the node)
-    out: np.ndarray             # unit vector pointing away from the member toward the anchor
-    along: np.ndarray           # unit vector along the member
+    spots: list[_Spot]
+    must: bool = False
+    force: bool = False
+    nodes: tuple[int, ...] = ()
+    element: int = -1
+    partner: "_Label | None" = None      # "other": the larger bound at the same end
+    merged_into: "_Label | None" = None  # set when merged into another label at a joint
 
 
 # -- which results to draw --------------------------------------------------------------------
@@ -806,46 +955,124 @@ def _drawn(c: _FlatCurve, rel_tol: np.ndarray) -> np.ndarray:
     return keep
 
 
-def _curve_labels(c: _Curve, key: str, o: np.ndarray, pts: np.ndarray, base: np.ndarray, nrm: np.ndarray,
-                  t: np.ndarray, L: float, zero_tol: float, gmax: float, factor: float,
-                  names: list[str] | None, done: set) -> list[tuple["_Label", float]]:
-    """Label requests of one curve: ends, interior extremes (or one label
-    when the value is constant), each with its SI value.  ``names`` (the
-    envelope's results) adds the governing one; ``done`` holds (position,
-    text) already requested on this element, to skip duplicates."""
-    layer_key = key
-    picks: list[tuple[int, str]] = []
-    if float(np.ptp(c.y)) <= 1e-6 * gmax:
-        picks.append((int(np.argmin(np.abs(c.x - L / 2))), "const"))
-    else:
-        picks += [(0, "end"), (len(c.y) - 1, "end")]
-        interior = (c.x > 1e-9 * L) & (c.x < L * (1 - 1e-9))
-        if interior.any():
-            idx = np.flatnonzero(interior)
-            ends = (float(c.y[0]), float(c.y[-1]))
-            tol = 1e-6 * gmax
-            if c.role in ("single", "max"):
-                j = int(idx[np.argmax(c.y[idx])])
-                if c.y[j] > max(ends) + tol:           # a true interior maximum
-                    picks.append((j, "extreme"))
-            if c.role in ("single", "min"):
-                j = int(idx[np.argmin(c.y[idx])])
-                if c.y[j] < min(ends) - tol:           # a true interior minimum
-                    picks.append((j, "extreme"))
-    out = []
-    for j, role in picks:
+def _element_labels(cs: list[tuple["_Curve", np.ndarray, np.ndarray, np.ndarray]], sym: str, t: np.ndarray,
+                    nrm: np.ndarray, L: float, nodes: tuple[int, int], element: int, gmax: float,
+                    factor: float, keyed: bool) -> list[_Label]:
+    """Label requests of one element and diagram (rules in the module docstring).
+
+    cs : per curve of the element (one "single" curve, or the "max" and
+        "min" curves of an envelope): (curve, ordinates [drawing units],
+        curve points, base points on the member)
+    t, nrm : unit local x and y of the element; L : its length [m]
+    nodes : its start and end node; gmax : the diagram's largest |value| [SI]
+    factor : SI -> report units; keyed : append the governing result's key
+    """
+    skip = _SKIP_LABEL * gmax
+    tol = _SAME_AT_JOINT * gmax
+    flat = [float(np.ptp(c.y)) <= _FLAT * gmax for c, *_r in cs]
+    mid = [int(np.argmin(np.abs(c.x - L / 2))) for c, *_r in cs]
+    out: list[_Label] = []
+
+    def add(kind: str, ci: int, j: int, inward: float = 0.0, at: tuple[int, ...] = ()) -> _Label | None:
+        c, o, pts, base = cs[ci]
         v = float(c.y[j])
-        if abs(v) <= zero_tol:
+        if not abs(v) >= skip or v == 0.0:
+            return None
+        text = f"{sym}={_fmt(v * factor)}"
+        key = None
+        if keyed:
+            key = int(c.who[j])
+            text += f" [C{key + 1}]"
+        u = nrm if o[j] >= 0 else -nrm
+        spot = _Spot(text, pts[j], base[j], u, t, inward, key)
+        out.append(_Label(_PRIORITY[kind], kind, v, "", [spot], must=kind in _MUST, nodes=at, element=element))
+        return out[-1]
+
+    def picks(js: list[int]) -> list[tuple[str, int]]:
+        """(kind, curve) written at one end (or at mid-length): the value, or
+        for an envelope the bound of larger magnitude, plus the other bound
+        when it has the other sign and is not much smaller."""
+        if len(cs) == 1:
+            return [("end", 0)]
+        vmax, vmin = float(cs[0][0].y[js[0]]), float(cs[1][0].y[js[1]])
+        big, other = (0, 1) if abs(vmax) >= abs(vmin) else (1, 0)
+        vb, vo = (vmax, vmin) if big == 0 else (vmin, vmax)
+        got = [("end", big)]
+        if vo * vb < 0 and abs(vo) >= _OTHER_SIGN * abs(vb):
+            got.append(("other", other))
+        return got
+
+    def write(group: list[tuple[str, int]], where: int, at_mid: set[tuple[str, int]]) -> None:
+        """One end's picks (``where`` 0: start, 1: end); those in ``at_mid``
+        go to mid-length instead, once.  The other bound is tied to the
+        larger one (it is not written without it)."""
+        big = None
+        for kind, ci in group:
+            if (kind, ci) in at_mid:
+                lb = add("flat" if kind == "end" else kind, ci, mid[ci], 0.0, nodes)
+            else:
+                j = 0 if where == 0 else len(cs[ci][0].y) - 1
+                lb = add(kind, ci, j, 1.0 if where == 0 else -1.0, nodes[where:where + 1])
+            if kind == "other" and lb is not None:
+                lb.partner = big
+            elif kind == "end":
+                big = lb
+
+    if all(flat):                                      # one value for the whole element
+        write(picks(mid), 0, set(picks(mid)))
+        return out
+    at_start, at_end = picks([0] * len(cs)), picks([len(c.y) - 1 for c, *_r in cs])
+    # a bound that is constant along the element and written at both ends: once, at mid-length
+    once = {pk for pk in at_start if pk in at_end and flat[pk[1]]}
+    write(at_start, 0, once)
+    write([pk for pk in at_end if pk not in once], 1, set())
+    for ci, (c, *_r) in enumerate(cs):
+        inner = np.flatnonzero((c.x > 1e-9 * L) & (c.x < L * (1 - 1e-9)))
+        if not len(inner):
             continue
-        text = f"{_SYMBOL[layer_key]}={_fmt(v * factor)}"
-        tag = (round(float(c.x[j]) / L, 6), text)
-        if tag in done:
+        hi, lo = max(c.y[0], c.y[-1]), min(c.y[0], c.y[-1])
+        if c.role in ("single", "max"):
+            j = int(inner[np.argmax(c.y[inner])])
+            if c.y[j] > hi + tol and (c.role == "single" or c.y[j] > 0):     # a true interior maximum
+                add("extreme", ci, j)
+        if c.role in ("single", "min"):
+            j = int(inner[np.argmin(c.y[inner])])
+            if c.y[j] < lo - tol and (c.role == "single" or c.y[j] < 0):     # a true interior minimum
+                add("extreme", ci, j)
+    return out
+
+
+def _merge_at_joints(labels: list[_Label], tol: float) -> list[_Label]:
+    """Values at one node whose magnitudes agree within ``tol`` [SI] and that
+    come from different elements become one label with several spots
+    (written once).  A flat element's one value counts at both its end nodes
+    (but two flat values are not merged: they may be far apart).  Order is
+    kept; linear in the number of labels."""
+    out: list[_Label] = []
+    groups: dict[int, list[tuple[_Label, set[int]]]] = {}
+    for lb in labels:
+        home = None
+        for node in lb.nodes:
+            for rep, elements in groups.get(node, ()):
+                if (lb.element not in elements and abs(abs(lb.value) - abs(rep.value)) <= tol
+                        and not (lb.kind == "flat" and rep.kind == "flat")):
+                    home = (rep, elements)
+                    break
+            if home is not None:
+                break
+        if home is None:
+            entry = (lb, {lb.element})
+            for node in lb.nodes:
+                groups.setdefault(node, []).append(entry)
+            out.append(lb)
             continue
-        done.add(tag)
-        if names is not None:
-            text += f" [{names[int(c.who[j])]}]"
-        u = nrm * (1.0 if o[j] >= 0 else -1.0)
-        out.append((_Label(2.0 if role == "end" else 1.0, text, "", pts[j], base[j], u, t), v))
+        rep, elements = home
+        lb.merged_into = rep
+        rep.spots += lb.spots
+        rep.priority = min(rep.priority, lb.priority)
+        rep.must = rep.must or lb.must
+        rep.force = rep.force or lb.force
+        elements.add(lb.element)
     return out
 
 
@@ -877,7 +1104,9 @@ class DrawingSummary:
     scales : diagram key -> report units per drawing unit (None: all zero)
     deflection_factor : exaggeration of the deflected shape (None: not drawn)
     text_height : label height [drawing units]
-    labels, forced : labels written, and how many went to a crowded spot
+    labels, forced : labels written, and how many of them overlap something
+        (a diagram's overall extreme or a reaction with no free spot)
+    dropped : values left out for want of room (see the module docstring)
     entities : entities added
     shown : the notes' description of what is drawn
     """
@@ -889,6 +1118,7 @@ class DrawingSummary:
     text_height: float = 0.0
     labels: int = 0
     forced: int = 0
+    dropped: int = 0
     entities: int = 0
     shown: str = ""
 
@@ -935,17 +1165,186 @@ def _frame_geom(model: "DrawingModel") -> _FrameGeom:
 # -- the result drawing -----------------------------------------------------------------------------
 
 
-def _label_candidates(lb: _Label, half_w: float, half_h: float, h: float) -> list[tuple[float, float]]:
-    u, t = lb.out, lb.along
+_RING = np.column_stack([np.cos(np.radians(np.arange(0.0, 360.0, 30.0))),
+                         np.sin(np.radians(np.arange(0.0, 360.0, 30.0)))])
+_RING[np.abs(_RING) < 1e-12] = 0.0
+
+
+def _ring(anchor: np.ndarray, half_w: float, half_h: float, gaps: Sequence[float], pref: np.ndarray) -> np.ndarray:
+    """Box centres all around ``anchor`` (every 30 degrees), the box edge
+    ``gap`` from it, for each gap in turn; directions closest to ``pref``
+    first.  Shape (12 * len(gaps), 2)."""
+    d = _RING
+    with np.errstate(divide="ignore"):
+        ext = np.minimum(half_w / np.abs(d[:, 0]), half_h / np.abs(d[:, 1]))   # centre to box edge along d
+    order = np.argsort(-(d @ pref), kind="stable")
+    d, ext = d[order], ext[order]
+    g = np.repeat(np.asarray(gaps, dtype=float), len(d))
+    return anchor + np.tile(d, (len(gaps), 1)) * (g + np.tile(ext, len(gaps)))[:, None]
+
+
+def _candidates(sp: _Spot, kind: str, half_w: float, half_h: float, h: float, far: bool = False) -> np.ndarray:
+    """Centres to try for a label box of half size ``half_w`` x ``half_h``, best first.
+
+    Near candidates: beyond the diagram's tip, on the other side of the
+    member, farther out, then all around the anchor point; end values sit
+    flush with the element's end on its inner side; a zero crossing's "0"
+    sits in one of the four corners beside its tick.  ``far``: rings
+    farther from the anchor (written with a leader line), for labels that
+    must be written.
+    """
+    u, t = sp.out, sp.along
     gap = 0.35 * h
     e = half_w * abs(u[0]) + half_h * abs(u[1])           # box half-extent along u
     s = half_w * abs(t[0]) + half_h * abs(t[1])           # box half-extent along t
-    c1 = lb.anchor + u * (gap + e)
-    c2 = lb.base - u * (gap + e)
-    step = 2 * s + gap
-    cands = [c1, c2, c1 + t * step, c1 - t * step, c2 + t * step, c2 - t * step,
-             c1 + u * (2 * e + gap), c1 + t * 2 * step, c1 - t * 2 * step]
-    return [(float(c[0]), float(c[1])) for c in cands]
+    tip = sp.anchor + u * (gap + e)
+    back = sp.base - u * (gap + e)
+    if kind == "zero":
+        a, b = t * (s + 0.3 * h), u * (e + 0.25 * h)
+        return np.array([sp.base + b + a, sp.base + b - a, sp.base - b + a, sp.base - b - a])
+    if sp.inward:
+        w = t * sp.inward
+        f = w * (s + 0.25 * h)
+        first, pref = [tip + f, back + f], w + 0.5 * u
+    else:
+        half = t * (s + 0.5 * gap)
+        first, pref = [tip, tip + half, tip - half, back, back + half, back - half, tip + u * (2 * e + gap)], u
+    if far:
+        return _ring(sp.anchor, half_w, half_h, (1.5 * h, 3.0 * h, 5.0 * h), pref)
+    return np.vstack([np.array(first), _ring(sp.anchor, half_w, half_h, (gap, 1.2 * h), pref)])
+
+
+def _place_one(placer: LabelPlacer, lb: _Label, font, h: float):
+    """(spot, x, y, half_w, half_h) where ``lb`` is written, or None when it
+    is dropped (no free spot, and not allowed to overlap)."""
+    opts = []
+    for sp in lb.spots:
+        hw = 0.5 * _text_width(font, sp.text, h) + 0.15 * h
+        opts.append((sp, hw, 0.7 * h))
+    for far in (False, True):
+        if far and not lb.must:
+            return None
+        tries = []
+        for sp, hw, hh in opts:
+            cands = _candidates(sp, lb.kind, hw, hh, h, far)
+            tries.append((cands, placer.free_of_obstacles(cands, hw, hh)))
+        for k in range(max(len(c) for c, _ok in tries)):
+            for (sp, hw, hh), (cands, ok) in zip(opts, tries):     # the merged spots take turns
+                if k < len(cands) and ok[k]:
+                    x, y = float(cands[k][0]), float(cands[k][1])
+                    b = (x - hw, y - hh, x + hw, y + hh)
+                    if placer.free_of_boxes(b):
+                        placer.take(b)
+                        return sp, x, y, hw, hh
+    if not lb.force:
+        return None
+    sp, hw, hh = opts[0]
+    c = _candidates(sp, lb.kind, hw, hh, h)[0]
+    x, y, _ok = placer.place([(float(c[0]), float(c[1]))], hw, hh)      # nothing free: overlap
+    return sp, x, y, hw, hh
+
+
+def _apart(sp: _Spot, x: float, y: float, half_w: float, half_h: float) -> float:
+    """How far the box centred at (x, y) sits from its spot: the larger of
+    its gaps across and along the member, from the anchor or the base
+    point, whichever is nearer."""
+    c = np.array([x, y])
+    gaps = []
+    for p in (sp.anchor, sp.base):
+        g = 0.0
+        for d in (sp.out, sp.along):
+            ext = half_w * abs(d[0]) + half_h * abs(d[1])
+            g = max(g, abs(float((p - c) @ d)) - ext)
+        gaps.append(g)
+    return min(gaps)
+
+
+def _place_labels(pen: _Pen, placer: LabelPlacer, labels: list[_Label], font, h: float) -> tuple[int, set[int]]:
+    """Write the labels of one layer, most important (then largest) first;
+    returns (labels dropped, envelope keys written)."""
+    dropped, used = 0, set()
+    lost: set[int] = set()          # id() of the labels dropped
+    order = sorted(range(len(labels)),
+                   key=lambda k: (labels[k].priority, -float(f"{abs(labels[k].value):.9g}"), k))
+    for k in order:
+        lb = labels[k]
+        partner = lb.partner
+        while partner is not None and partner.merged_into is not None:
+            partner = partner.merged_into
+        # the other bound at an end is not written without the larger one
+        got = None if partner is not None and id(partner) in lost else _place_one(placer, lb, font, h)
+        if got is None:
+            lost.add(id(lb))
+            dropped += 1
+            continue
+        sp, x, y, hw, hh = got
+        if _apart(sp, x, y, hw, hh) > 1.0 * h:
+            # a leader from the point to the label when the label does not sit right beside it
+            q = np.array([min(max(sp.anchor[0], x - hw), x + hw), min(max(sp.anchor[1], y - hh), y + hh)])
+            pen.line(sp.anchor, q, lb.layer)
+        pen.text(sp.text, (x, y), h, lb.layer)
+        if sp.key is not None:
+            used.add(sp.key)
+    return dropped, used
+
+
+def _drawing_texts(doc: "Drawing", result_layers: Iterable[str], limit: int = _MAX_TEXT_OBSTACLES) -> list:
+    """Boxes (shapely) of the drawing's own TEXT and MTEXT in modelspace
+    (titles, grid marks), so labels keep off them; none when there are more
+    than ``limit`` (a heavily annotated sheet: not worth the time)."""
+    from ezdxf import bbox
+
+    skip = {n.upper() for n in result_layers}
+    ents = [e for e in doc.modelspace().query("TEXT MTEXT") if e.dxf.get("layer", "0").upper() not in skip]
+    if len(ents) > limit:
+        return []
+    out = []
+    for e in ents:
+        try:
+            b = bbox.extents([e], fast=True)
+        except Exception:  # noqa: BLE001 - an odd text entity is just not an obstacle
+            continue
+        if b.has_data:
+            out.append(shapely.box(b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y))
+    return out
+
+
+def _as_lines(polys: list[np.ndarray]) -> np.ndarray:
+    """shapely LineStrings (an object array) of a list of (k, 2) polylines, in one call."""
+    polys = [q for q in polys if len(q) >= 2]
+    if not polys:
+        return np.zeros(0, dtype=object)
+    idx = np.repeat(np.arange(len(polys)), [len(q) for q in polys])
+    return shapely.linestrings(np.vstack(polys), indices=idx)
+
+
+def _near(geoms: np.ndarray, labels: list[_Label], reach: float) -> list:
+    """The geometries (object array) whose box may come within ``reach`` of
+    a label's anchor or base point: the only ones a label of the list can
+    touch.
+
+    The points are binned in a grid of ``reach``-sized cells (a summed-area
+    table), and a geometry is kept when a point lies in the cells its box
+    grown by ``reach`` covers (a few more than needed, never fewer).  Linear
+    in the number of geometries; no new geometry is made, so a big frame
+    with a handful of labels costs little.
+    """
+    if not len(geoms) or not labels or not reach > 0:
+        return []
+    at = np.array([p for lb in labels for sp in lb.spots for p in (sp.anchor, sp.base)], dtype=float)
+    origin = at.min(0)
+    cells = np.floor((at - origin) / reach).astype(int)
+    shape = cells.max(0) + 1
+    grid = np.zeros(shape + 1, dtype=int)                       # summed-area table, zero first row/column
+    np.add.at(grid, (cells[:, 0] + 1, cells[:, 1] + 1), 1)
+    grid = grid.cumsum(0).cumsum(1)
+    box = shapely.bounds(geoms)
+    lo = np.floor((box[:, :2] - reach - origin) / reach).astype(int)
+    hi = np.floor((box[:, 2:] + reach - origin) / reach).astype(int)
+    inside = np.all((hi >= 0) & (lo < shape), axis=1)
+    lo, hi = np.clip(lo, 0, shape - 1), np.clip(hi, 0, shape - 1) + 1
+    count = grid[hi[:, 0], hi[:, 1]] - grid[lo[:, 0], hi[:, 1]] - grid[hi[:, 0], lo[:, 1]] + grid[lo[:, 0], lo[:, 1]]
+    return list(geoms[inside & (count > 0)])
 
 
 @dataclass
@@ -954,8 +1353,8 @@ class _Ctx:
 
     small : elements too short (drawn length < 3 text heights) for fills and labels
     rel_tol : per element, the straightness tolerance of the drawn outline
-    envelope_names : result names when an envelope is drawn (labels name the governing one)
-    offsets : per element, distance [m] from its reported member's start
+    keyed : an envelope is drawn: labels carry the governing result's key
+    nodes : (m, 2) start and end node of each element
     """
 
     pen: _Pen
@@ -964,16 +1363,19 @@ class _Ctx:
     us: float
     small: np.ndarray
     rel_tol: np.ndarray
-    envelope_names: list[str] | None
-    offsets: np.ndarray
+    keyed: bool
+    nodes: np.ndarray
     uf: UnitFactors
 
 
 def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], labels: list[_Label],
-                  legend: list[tuple[str, str]]) -> float | None:
+                  legend: list[tuple[str, str]], lines: list[np.ndarray], extents: list[Box]) -> float | None:
     """Outline (and fill) of one diagram type on every element, its label
     requests and its legend line; returns the scale (report units per
-    drawing unit) or None when the diagram is zero everywhere."""
+    drawing unit) or None when the diagram is zero everywhere.  The
+    outlines of the elements long enough for labels and the zero-crossing
+    ticks are appended to ``lines`` (obstacles for this layer's labels),
+    the box of the whole diagram to ``extents``."""
     geom, h, us, uf = ctx.geom, ctx.h, ctx.us, ctx.uf
     size = geom.size
     factor, unit = (uf.moment, uf.moment_unit) if key == "moment" else (uf.force, uf.force_unit)
@@ -983,10 +1385,10 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], lab
         return None
     per_unit = _nice_up(gmax * factor / (_ORDINATE_TARGET * size))   # report units per drawing unit
     k_si = factor / per_unit                                         # drawing units per SI unit
-    where = "drawn on the tension side" if key == "moment" else "+ toward local +y"
+    where = "tension side" if key == "moment" else "+ toward local +y"
     legend.append((key, f"{key}: 1 drawing unit = {per_unit:g} {unit} ({where})"))
     transparency = RESULT_LAYER_STYLES[key].fill_transparency
-    zero_tol = _ZERO_LABEL * gmax
+    sym = _SYMBOL[key]
     # every point of every curve in drawing coordinates, at once
     flat = []
     for c in curves:
@@ -994,18 +1396,23 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], lab
         base = geom.start[c.eid] + (c.x / us)[:, None] * geom.t[c.eid]
         pts = base + o[:, None] * geom.n[c.eid]
         flat.append((o, base, pts, _drawn(c, ctx.rel_tol)))
+        if len(pts):
+            extents.append((*map(float, pts.min(0)), *map(float, pts.max(0))))
     omax = np.max([_segment_max(o, c.bounds[:-1]) for c, (o, *_r) in zip(curves, flat)], axis=0)
 
-    def element_labels(i: int, c: _FlatCurve, ci: int, done: set) -> list[tuple[_Label, float]]:
-        o, base, pts, _keep = flat[ci]
-        sl = slice(c.bounds[i], c.bounds[i + 1])
-        got = _curve_labels(c.element(i), key, o[sl], pts[sl], base[sl], geom.n[i], geom.t[i],
-                            float(geom.length_m[i]), zero_tol, gmax, factor, ctx.envelope_names, done)
-        for lb, _v in got:
+    def element_labels(i: int) -> list[_Label]:
+        cs = []
+        for c, (o, base, pts, _keep) in zip(curves, flat):
+            sl = slice(c.bounds[i], c.bounds[i + 1])
+            cs.append((c.element(i), o[sl], pts[sl], base[sl]))
+        got = _element_labels(cs, sym, geom.t[i], geom.n[i], float(geom.length_m[i]),
+                              (int(ctx.nodes[i, 0]), int(ctx.nodes[i, 1])), int(i), gmax, factor, ctx.keyed)
+        for lb in got:
             lb.layer = layer
         return got
 
-    best = None  # (|value|, label) of the largest labelled value
+    mine: list[_Label] = []
+    tick = 0.6 * h
     for i in np.flatnonzero(omax > 1e-9 * size):
         a, t, nrm = geom.start[i], geom.t[i], geom.n[i]
         # one closed outline: baseline start, the curve, baseline end (for an
@@ -1021,38 +1428,51 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], lab
         ctx.pen.polyline(poly, layer, closed=True)
         if ctx.small[i]:
             continue                                                 # too short for fills and labels
+        lines.append(poly)
         if omax[i] >= 0.15 * h:
             ctx.pen.fill(poly, layer, transparency)
-        count = 0
-        done: set[tuple[float, str]] = set()
-        for ci, c in enumerate(curves):
-            for lb, v in element_labels(i, c, ci, done):
-                if count < _MAX_LABELS:
-                    labels.append(lb)
-                    count += 1
-                    if abs(v) > (best[0] if best else -1.0):
-                        best = (abs(v), lb)
-            if c.role == "single":
-                for x0 in _zero_crossings(c.element(i), zero_tol)[:2]:
-                    if count >= _MAX_LABELS:
-                        break
-                    p = a + t * (x0 / us)
-                    xg = (ctx.offsets[i] + x0) * uf.length
-                    labels.append(_Label(3.0, f"{_SYMBOL[key]}=0 @ {_fmt(xg)}", layer, p, p, nrm, t))
-                    count += 1
-    # the diagram's overall extreme always gets a label, first in line
-    if best is None or best[0] < gmax * (1 - 1e-9):
-        ci = int(np.argmax([np.max(np.abs(c.y)) for c in curves]))
-        c = curves[ci]
-        i = int(c.eid[int(np.argmax(np.abs(c.y)))])
-        got = element_labels(i, c, ci, set())
-        if got:
-            lb, v = max(got, key=lambda g: abs(g[1]))
-            labels.append(lb)
-            best = (abs(v), lb)
+        mine += element_labels(i)
+        if key == "moment" and curves[0].role == "single":
+            # zero crossings (points of contraflexure): a tick across the member, "0" beside it if there is room
+            for x0 in _zero_crossings(curves[0].element(i), _ZERO_LABEL * gmax)[:_MAX_ZEROS]:
+                p = a + t * (x0 / us)
+                ends = np.array([p - nrm * tick, p + nrm * tick])
+                ctx.pen.line(ends[0], ends[1], layer)
+                lines.append(ends)
+                mine.append(_Label(_PRIORITY["zero"], "zero", 0.0, layer, [_Spot("0", p, p, nrm, t)],
+                                   element=int(i)))
+    mine = _merge_at_joints(mine, _SAME_AT_JOINT * gmax)
+    # the diagram's overall extreme is always written, first in line
+    ci = int(np.argmax([float(np.max(np.abs(c.y))) if len(c.y) else 0.0 for c in curves]))
+    top = int(curves[ci].eid[int(np.argmax(np.abs(curves[ci].y)))])
+    pool = mine if not ctx.small[top] else element_labels(top)
+    best = max((lb for lb in pool if lb.kind != "zero"), key=lambda lb: abs(lb.value), default=None)
     if best is not None:
-        best[1].priority = 0.0
+        if pool is not mine:
+            mine.append(best)
+        best.priority = 0.0
+        best.must = best.force = True
+    labels += mine
     return per_unit
+
+
+def _wrap(text: str, width: int = 0) -> list[str]:
+    """A legend line wrapped to about ``_LEGEND_CHARS`` characters."""
+    return textwrap.wrap(text, width or _LEGEND_CHARS, break_on_hyphens=False) or [""]
+
+
+def _wrap_items(head: str, items: list[str], width: int = 0) -> list[str]:
+    """``head`` then the items joined by ", ", wrapped between items (an item is never split)."""
+    width = width or _LEGEND_CHARS
+    rows, row = [], head
+    for k, item in enumerate(items):
+        piece = item + ("," if k < len(items) - 1 else "")
+        if row and len(row) + 1 + len(piece) > width:
+            rows.append(row)
+            row = piece
+        else:
+            row = f"{row} {piece}" if row else piece
+    return rows + [row]
 
 
 def annotate_results(
@@ -1076,14 +1496,13 @@ def annotate_results(
     prepare_layers(doc, names)
     sel = select_results(results, show)
     uf = unit_factors(force_unit, length_unit)
+    texts = _drawing_texts(doc, names.values())        # the drawing's own, before we add ours
     geom = _frame_geom(model)
     size = geom.size
     h = float(f"{size * _TEXT_RATIO:.2g}")
     pen = _Pen(doc, size)
     summary = DrawingSummary(layers=names, text_height=h, shown=sel.label)
     frame = model.frame
-    groups_of = {m.id: off for g in member_groups(frame).values() for m, off in zip(g.members, g.offsets)}
-    labels: list[_Label] = []
 
     # 1. sample every element once
     n_el = len(frame.members)
@@ -1099,38 +1518,58 @@ def annotate_results(
     ctx = _Ctx(pen=pen, geom=geom, h=h, us=us, small=small,
                # straightness tolerance of the drawn polylines: 0.1 % of the element's
                # largest value, 2 % on elements too short to read (a big frame seen whole)
-               rel_tol=np.where(small, 2e-2, 1e-3),
-               envelope_names=[r.name for r in sel.results] if sel.envelope else None,
-               offsets=np.array([groups_of.get(m.id, 0.0) for m in frame.members]), uf=uf)
+               rel_tol=np.where(small, 2e-2, 1e-3), keyed=sel.envelope,
+               nodes=np.array([(m.start, m.end) for m in frame.members], dtype=int).reshape(-1, 2), uf=uf)
     legend: list[tuple[str, str]] = []
+    boxes: list[Box] = [geom.bounds]                   # of everything drawn, for the legend's place
+    labels: dict[str, list[_Label]] = {key: [] for key in (*_DIAGRAMS, "reactions")}
+    lines: dict[str, list[np.ndarray]] = {key: [] for key in _DIAGRAMS}
 
     # 2. draw the diagrams
     for key in _DIAGRAMS:
         curves = _curves(stations, key, sel.envelope, n_el) if stations is not None else []
-        summary.scales[key] = _draw_diagram(ctx, key, names[key], curves, labels, legend)
+        summary.scales[key] = _draw_diagram(ctx, key, names[key], curves, labels[key], legend, lines[key], boxes)
 
     # 3. reactions
-    arrows = _draw_reactions(pen, model, geom, sel, names["reactions"], uf, h, labels)
+    arrows = _draw_reactions(pen, model, geom, sel, names["reactions"], uf, h, labels["reactions"])
     legend.append(("reactions", f"reactions: {uf.force_unit}, {uf.moment_unit}; arrows show each component's "
                                 f"direction, values signed (+X, +Y, moment counter-clockwise)"))
 
     # 4. deflected shape
-    _draw_deflected(pen, model, geom, sel, names["deflected"], h, summary, legend)
+    bent = _draw_deflected(pen, model, geom, sel, names["deflected"], h, summary, legend)
 
-    # 5. labels, most important first
-    frame_lines = shapely.linestrings(np.stack([geom.start, geom.end], axis=1)) if len(geom.start) else []
-    placer = LabelPlacer(list(frame_lines) + arrows, cell=4 * h)
+    # 5. labels, layer by layer (each result layer reads on its own), most important first
+    members = shapely.linestrings(np.stack([geom.start, geom.end], axis=1)) if n_el else np.zeros(0, dtype=object)
     font = _font(h)
-    labels.sort(key=lambda lb: lb.priority)
-    for lb in labels:
-        w = _text_width(font, lb.text, h)
-        half_w, half_h = 0.5 * w + 0.15 * h, 0.5 * h + 0.2 * h
-        x, y, _ok = placer.place(_label_candidates(lb, half_w, half_h, h), half_w, half_h)
-        pen.text(lb.text, (x, y), h, lb.layer)
-    summary.labels, summary.forced = placer.placed, placer.forced
+    used: dict[str, set[int]] = {}
+    if arrows:
+        boxes.append(tuple(float(v) for v in shapely.total_bounds(arrows)))
+    for key, todo in labels.items():
+        if not todo:
+            continue
+        # obstacles: member lines, this layer's outlines and ticks (reactions: the arrows), the drawing's texts
+        reach = 7.0 * h + 2.5 * max(_text_width(font, sp.text, h) for lb in todo for sp in lb.spots)
+        own = list(arrows) if key == "reactions" else _near(_as_lines(lines[key]), todo, reach)
+        placer = LabelPlacer(_near(members, todo, reach) + own + texts, cell=4 * h)
+        dropped, used[key] = _place_labels(pen, placer, todo, font, h)
+        summary.labels += placer.placed
+        summary.forced += placer.forced
+        summary.dropped += dropped
+        if placer.extent is not None:
+            boxes.append(placer.extent)
+    if bent is not None and len(bent):
+        boxes.append((*bent.min(0), *bent.max(0)))
+    b = np.array(boxes, dtype=float)
+    content = (float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max()))
 
     # 6. legend and notes beside the frame
-    _draw_legend_and_notes(pen, model, det, geom, names, legend, h, uf, sel.label, sel.envelope)
+    keys = {key: [(k, sel.results[k].name) for k in sorted(ks)] for key, ks in used.items() if ks}
+    shown = sel.label
+    if sel.envelope:
+        head, _sep, _names = sel.label.partition(": ")
+        shown = head + ": " + ", ".join(f"C{k + 1} = {r.name}" for k, r in enumerate(sel.results))
+    _draw_legend_and_notes(pen, model, det, geom, names, legend, h, uf, shown, sel.envelope,
+                           content=content, keys=keys, font=font)
     summary.entities = pen.count
     return summary
 
@@ -1170,7 +1609,14 @@ def _reaction_table(sel: Selection) -> tuple[list[int], np.ndarray]:
 
 def _draw_reactions(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: str, uf: UnitFactors,
                     h: float, labels: list[_Label]) -> list:
-    """Arrows at the supports; returns their shafts as shapely lines (label obstacles)."""
+    """Arrows at the supports and their label requests; returns the arrow
+    shafts as shapely lines (obstacles for the reaction labels).
+
+    For an envelope each component gets the bound of larger magnitude with
+    its key, plus the other bound when it has the other sign and is at
+    least ``_OTHER_SIGN`` of the larger; ``[all]`` when every result gives
+    the same value.  Reactions are written however small.
+    """
     nodes, table = _reaction_table(sel)
     if not nodes:
         return []
@@ -1179,7 +1625,6 @@ def _draw_reactions(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
     La, gap, head = 0.07 * size, 0.012 * size, min(0.3 * 0.07 * size, 1.4 * h)
     fmax = float(np.max(np.abs(table[:, :, :2]))) if table.size else 0.0
     mmax = float(np.max(np.abs(table[:, :, 2]))) if table.size else 0.0
-    names = [r.name for r in sel.results]
     shafts = []
     for i, nid in enumerate(nodes):
         p = np.array([frame.nodes[nid].x, frame.nodes[nid].y]) / model.unit_scale
@@ -1189,15 +1634,18 @@ def _draw_reactions(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
             if not ref > 0 or np.max(np.abs(vals)) <= 1e-9 * ref:
                 continue
             kmax, kmin = int(np.argmax(vals)), int(np.argmin(vals))
-            v_big = vals[kmax] if abs(vals[kmax]) >= abs(vals[kmin]) else vals[kmin]
+            kb, ko = (kmax, kmin) if abs(vals[kmax]) >= abs(vals[kmin]) else (kmin, kmax)
+            v_big, v_oth = float(vals[kb]), float(vals[ko])
             factor = uf.moment if comp == 2 else uf.force
-            if sel.envelope and abs(vals[kmax] - vals[kmin]) > 1e-9 * ref:
-                texts = [f"{sym} max={_fmt(vals[kmax] * factor)} [{names[kmax]}]",
-                         f"{sym} min={_fmt(vals[kmin] * factor)} [{names[kmin]}]"]
-            elif sel.envelope:
-                texts = [f"{sym}={_fmt(v_big * factor)} [all]"]
+            texts: list[tuple[str, int | None, float]]
+            if not sel.envelope:
+                texts = [(f"{sym}={_fmt(v_big * factor)}", None, v_big)]
+            elif abs(v_big - v_oth) <= 1e-9 * ref:
+                texts = [(f"{sym}={_fmt(v_big * factor)} [all]", None, v_big)]
             else:
-                texts = [f"{sym}={_fmt(v_big * factor)}"]
+                texts = [(f"{sym}={_fmt(v_big * factor)} [C{kb + 1}]", kb, v_big)]
+                if v_oth * v_big < 0 and abs(v_oth) >= _OTHER_SIGN * abs(v_big):
+                    texts.append((f"{sym}={_fmt(v_oth * factor)} [C{ko + 1}]", ko, v_oth))
             if comp == 0:
                 a, b = p + (-gap - La, 0.0), p + (-gap, 0.0)
                 tail, tip = (a, b) if v_big > 0 else (b, a)
@@ -1223,13 +1671,14 @@ def _draw_reactions(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
                 shafts.append(shapely.LineString(arc_pts))
                 d = np.array([math.cos(math.radians(165)), math.sin(math.radians(165))])
                 out, along, anchor = d, np.array([0.0, 1.0]), p + d * r
-            for k, text in enumerate(texts):
-                labels.append(_Label(0.5 + 0.01 * k, text, layer, anchor - along * (1.6 * h * k), p, out, along))
+            for k, (text, key, v) in enumerate(texts):
+                spot = _Spot(text, anchor - along * (1.6 * h * k), p, out, along, 0.0, key)
+                labels.append(_Label(_PRIORITY["reaction"] + 0.01 * k, "reaction", v, layer, [spot], must=True, force=True))
     return shafts
 
 
 def _draw_deflected(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: str, h: float,
-                    summary: DrawingSummary, legend: list[tuple[str, str]]) -> None:
+                    summary: DrawingSummary, legend: list[tuple[str, str]]) -> np.ndarray | None:
     """Exaggerated deflected shape of the result (or, for an envelope, of the
     result with the largest nodal displacement).
 
@@ -1238,7 +1687,7 @@ def _draw_deflected(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
     ends, unless the results offer batch sampling (``members.sample("u" |
     "v", rows, x)``), which draws every element exactly.  The exaggeration
     uses the exact largest displacement when the results have
-    ``member_table()``.
+    ``member_table()``.  Returns the drawn points (k, 2), or None.
     """
     cands = [r for r in sel.results if getattr(r, "displacements", None) is not None]
     if not cands:
@@ -1291,13 +1740,16 @@ def _draw_deflected(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
         legend.append(("deflected", "deflected shape: no displacement"))
         return
     factor = _nice_down(_DEFLECTION_TARGET * geom.size / dmax)
+    drawn = []
     for base, disp in shapes:
-        pen.polyline(base + factor * disp, layer, dashed=True)
+        drawn.append(base + factor * disp)
+        pen.polyline(drawn[-1], layer, dashed=True)
     summary.deflection_factor = factor
     summary.deflection_result = res.name
     which = f" of {res.name}" if sel.envelope or len(sel.results) > 1 else ""
     note = "; short elements drawn as chords" if chords else ""
     legend.append(("deflected", f"deflected shape{which}: displacements exaggerated x {factor:g}{note}"))
+    return np.vstack(drawn)
 
 
 def _notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list[str]) -> list[str]:
@@ -1334,25 +1786,69 @@ def _notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: lis
 
 def _draw_legend_and_notes(pen: _Pen, model, det, geom: _FrameGeom, names: dict[str, str],
                            legend: list[tuple[str, str]], h: float, uf: UnitFactors | None, shown: str,
-                           envelope: bool) -> None:
-    x0 = geom.bounds[2] + 0.25 * geom.size
-    y = geom.bounds[3]
+                           envelope: bool, *, content: Box, keys: dict[str, list[tuple[int, str]]],
+                           font) -> None:
+    """The legend: per result layer a swatch, its scale line and the keys of
+    the combinations that govern a value written on it (all on that layer);
+    then the title and the notes block (notes layer).
+
+    ``content`` is the box of everything drawn so far.  A frame wider than
+    tall gets the legend blocks in rows under the drawing and the notes to
+    its right; a taller one gets one column to the right (legend, then
+    notes).  Either way the result layers' own content stays close to the
+    frame, so a picture of one layer wastes little room.
+    """
+    blocks = []
+    rank = {"moment": 0, "shear": 1, "axial": 2, "reactions": 3, "deflected": 4}
+    for key, line in sorted(legend, key=lambda kl: rank.get(kl[0], 9)):
+        rows = _wrap(line)
+        if keys.get(key):
+            rows += _wrap_items("governing:", [f"C{k + 1} = {name}" for k, name in keys[key]])
+        blocks.append((key, rows))
+    sw = 2.0 * h
+    widths = [sw + 0.8 * h + max(_text_width(font, row, h) for row in rows) for _key, rows in blocks]
+    pitch = 1.6 * h
+    size = geom.size
+    side_x = content[2] + max(0.05 * size, 3 * h)
+    gx0, gy0, gx1, gy1 = geom.bounds
+
+    def block(x: float, y: float, key: str, rows: list[str]) -> None:
+        layer = names[key]
+        pen.polyline([(x, y), (x + sw, y), (x + sw, y - h), (x, y - h)], layer, closed=True,
+                     dashed=key == "deflected")
+        for k, row in enumerate(rows):
+            pen.text(row, (x + sw + 0.8 * h, y - k * pitch), h, layer, style="D2F-NOTES",
+                     align=TextEntityAlignment.TOP_LEFT)
+
+    if gx1 - gx0 >= gy1 - gy0:                         # under the drawing, in rows
+        # at least three blocks to a row: the five layers' legends in two rows
+        left = content[0]
+        avail = max(content[2] - content[0], 3 * max(widths, default=0.0) + 4.0 * h)
+        x, y, row_h = left, content[1] - 2.5 * h, 0.0
+        for (key, rows), w in zip(blocks, widths):
+            if x > left and x + w > left + avail:
+                x, y, row_h = left, y - row_h - 1.2 * h, 0.0
+            block(x, y, key, rows)
+            x += w + 2.0 * h
+            row_h = max(row_h, (len(rows) - 1) * pitch + h)
+        y = gy1
+    else:                                             # one column to the right
+        y = gy1 - 2.6 * h
+        for key, rows in blocks:
+            block(side_x, y, key, rows)
+            y -= len(rows) * pitch + 0.4 * h
+        y += 2.6 * h - 0.8 * h
+    x0 = side_x
     pen.text("dxf2frame results", (x0, y), 1.4 * h, names["notes"], style="D2F-NOTES",
              align=TextEntityAlignment.TOP_LEFT)
     y -= 2.6 * h
-    sw = 2.0 * h
-    for key, line in legend:
-        layer = names[key]
-        pen.polyline([(x0, y), (x0 + sw, y), (x0 + sw, y - h), (x0, y - h)], layer, closed=True,
-                     dashed=key == "deflected")
-        pen.text(line, (x0 + sw + 0.8 * h, y), h, layer, style="D2F-NOTES", align=TextEntityAlignment.TOP_LEFT)
-        y -= 1.9 * h
     if envelope:
-        pen.text("[name] beside a value: the combination that governs it", (x0, y), h, names["notes"],
-                 style="D2F-NOTES", align=TextEntityAlignment.TOP_LEFT)
-        y -= 1.9 * h
+        for row in _wrap("[Ck] beside a value: combination Ck of the envelope governs it", 60):
+            pen.text(row, (x0, y), h, names["notes"], style="D2F-NOTES", align=TextEntityAlignment.TOP_LEFT)
+            y -= pitch
+        y -= 0.4 * h
     paras = _notes_paragraphs(model, det, uf, shown, [])
-    pen.notes(paras, (x0, y - 0.8 * h), h, max(0.6 * geom.size, 45 * h), names["notes"])
+    pen.notes(paras, (x0, y - 0.8 * h), h, max(0.6 * size, 45 * h), names["notes"])
 
 
 def write_result_drawing(

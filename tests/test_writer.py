@@ -215,12 +215,10 @@ def test_moment_diagram_on_tension_side_with_stated_scale(tmp_path):
     legend = [e.dxf.text for e in texts(doc, "RESULT-MOMENT") if e.dxf.text.startswith("moment:")]
     assert len(legend) == 1
     per_unit = float(re.search(r"1 drawing unit = " + NUM + r" kN\*m", legend[0]).group(1))
-    ys = [y for e in doc.modelspace().query('LWPOLYLINE[layer=="RESULT-MOMENT"]')
-          for _x, y in e.get_points("xy") if e.dxf.layer == "RESULT-MOMENT"]
-    # the legend swatch is a small box beside the frame; the diagram is the part over the span
-    diag = [(x, y) for e in doc.modelspace().query('LWPOLYLINE[layer=="RESULT-MOMENT"]')
-            for x, y in e.get_points("xy") if x <= L + 1e-9]
-    assert ys and diag
+    # the diagram's outline starts at the member's start; the legend swatch is a small box elsewhere
+    outlines = [list(e.get_points("xy")) for e in doc.modelspace().query('LWPOLYLINE[layer=="RESULT-MOMENT"]')]
+    diag = [pt for pts in outlines if pts[0] == pytest.approx((0.0, 0.0), abs=1e-12) for pt in pts]
+    assert diag
     low = min(y for _x, y in diag)
     high = max(y for _x, y in diag)
     # AISC Table 3-23 Case 1 (from memory): wl^2/8 drawn at the stated scale, below the beam (sagging)
@@ -238,9 +236,13 @@ def test_shear_end_values_zero_crossing_and_reactions(tmp_path):
     # AISC Table 3-23 Case 1 (from memory): V = +-wl/2 at the ends (sign by our convention)
     vals = sorted(float(m.group(1)) for t in shear if (m := re.fullmatch(r"V=" + NUM, t)))
     assert vals == pytest.approx([-w * L / 2 / 1e3, w * L / 2 / 1e3], rel=1e-3)
-    # same case: Vx = w(l/2 - x) is zero at x = l/2
-    zeros = [float(m.group(1)) for t in shear if (m := re.fullmatch(r"V=0 @ " + NUM, t))]
-    assert zeros == pytest.approx([L / 2], rel=1e-3)
+    # same case: Vx = w(l/2 - x) is zero at x = l/2, where the drawn curve crosses the member
+    # (zero crossings are written for the moment only; the outline shows the shear's)
+    outline = [np.asarray(e.get_points("xy"))[:, :2] for e in doc.modelspace().query('LWPOLYLINE[layer=="RESULT-SHEAR"]')]
+    curve = next(pts for pts in outline if tuple(pts[0]) == (0.0, 0.0))[1:-1]   # less the baseline ends
+    k = int(np.flatnonzero(np.sign(curve[:-1, 1]) != np.sign(curve[1:, 1]))[0])
+    (x0, y0), (x1, y1) = curve[k], curve[k + 1]
+    assert x0 + (x1 - x0) * y0 / (y0 - y1) == pytest.approx(L / 2, rel=1e-6)
     reac = [e for e in texts(doc, "RESULT-REACTIONS")]
     ry = sorted(float(m.group(1)) for e in reac if (m := re.fullmatch(r"Ry=" + NUM, e.dxf.text)))
     # same case: R = wl/2 at each support, upward
@@ -261,12 +263,16 @@ def test_envelope_names_governing_combination(tmp_path):
     results = list(cases.values()) + combos
     doc = ezdxf.readfile(write(tmp_path, src, model_for(frame, src), check(frame), results, show=None))
     moment = [e.dxf.text for e in texts(doc, "RESULT-MOMENT")]
+    # the key beside a value is listed under the layer's scale line: "governing: C2 = 1.2D+1.6L"
+    keys = dict(re.findall(r"(C\d+) = ([^,\s]+)", " ".join(t for t in moment if not t.startswith("M="))))
     # AISC Table 3-23 Case 1 (from memory) with the factored load 1.2*10 + 1.6*5 = 20 kN/m: wl^2/8 = 90
     expected = (1.2 * wD + 1.6 * wL) * L**2 / 8 / 1e3
-    found = [float(m.group(1)) for t in moment if (m := re.fullmatch(r"M=" + NUM + r" \[1\.2D\+1\.6L\]", t))]
-    assert found and found[0] == pytest.approx(expected, rel=1e-3), moment
+    found = [(float(m.group(1)), m.group(2)) for t in moment if (m := re.fullmatch(r"M=" + NUM + r" \[(C\d+)\]", t))]
+    assert len(found) == 1, moment                        # ends are zero: only the midspan extreme
+    assert found[0][0] == pytest.approx(expected, rel=1e-3) and keys[found[0][1]] == "1.2D+1.6L", moment
     notes = " ".join(e.plain_text() for e in doc.modelspace().query('MTEXT[layer=="RESULT-NOTES"]'))
     assert "envelope of 2 LRFD combinations" in notes      # the ASD one is not part of it
+    assert f"{found[0][1]} = 1.2D+1.6L" in notes            # the notes list every key
     assert CAUTION in " ".join(notes.split())
 
 
@@ -366,20 +372,144 @@ def test_portal_frame_labels_do_not_overlap(tmp_path):
 
     h = summary.text_height
     font = fonts.make_font(TEXT_STYLES["D2F-LABELS"], cap_height=h)
-    boxes = []
+    boxes: dict[str, list] = {}
     for key in ("axial", "shear", "moment", "reactions"):
         for e in texts(doc_out, DEFAULT_OUTPUT_LAYERS[key]):
             if e.dxf.halign != 1:      # legend lines are left-aligned, labels centred
                 continue
             x, y = text_pos(e)
             w = font.text_width(e.dxf.text)
-            boxes.append(shapely.box(x - w / 2, y - h / 2, x + w / 2, y + h / 2))
-    assert len(boxes) >= 8
-    for a, b in itertools.combinations(boxes, 2):
-        assert not a.intersects(b)
+            boxes.setdefault(key, []).append(shapely.box(x - w / 2, y - h / 2, x + w / 2, y + h / 2))
+    # each result layer is read on its own (the diagrams of different layers lie on top of each other)
+    assert sum(map(len, boxes.values())) >= 8
+    for layer_boxes in boxes.values():
+        for a, b in itertools.combinations(layer_boxes, 2):
+            assert not a.intersects(b)
     members = shapely.MultiLineString([[pts[0], pts[1]], [pts[1], pts[2]], [pts[3], pts[2]]])
-    assert not any(b.intersects(members) for b in boxes)
+    assert not any(b.intersects(members) for bs in boxes.values() for b in bs)
+    # nothing below 2 % of a diagram's largest value is written (our rule; the largest is always written)
+    for key in ("axial", "shear", "moment"):
+        vals = np.abs(_diagram_values(doc_out, key))
+        assert len(vals) and vals.min() >= 0.02 * vals.max() * (1 - 1e-3)
     assert not ezdxf.readfile(out).audit().has_errors
+
+
+def _diagram_values(doc, key: str) -> list[float]:
+    sym = {"axial": "N", "shear": "V", "moment": "M"}[key]
+    return [float(m.group(1)) for e in texts(doc, DEFAULT_OUTPUT_LAYERS[key])
+            if (m := re.fullmatch(sym + "=" + NUM + r"( \[.*\])?", e.dxf.text))]
+
+
+def _one_member_model(tmp_path: Path, L: float, supports: dict[int, str], loads) -> tuple:
+    src, handle = beam_drawing(tmp_path, L=L)
+    f = Frame()
+    a, b = f.add_node(0.0, 0.0), f.add_node(L, 0.0)
+    m = f.add_member(a, b, SEC, id=f"{handle}-1", layer="FRAME", handle=handle)
+    for node, kind in supports.items():
+        f.add_support(node, kind)
+    for case, w in loads.items():
+        f.add_load(DistributedLoad(m.id, q1=(0.0, -w), case=case))
+    return src, f
+
+
+def test_fixed_beam_end_and_midspan_values_and_contraflexure_ticks(tmp_path):
+    L, w = 6.0, 10e3
+    src, f = _one_member_model(tmp_path, L, {0: "fixed", 1: "fixed"}, {"D": w})
+    out = write(tmp_path, src, model_for(f, src), check(f), list(solve(f).values()), show="D")
+    doc = ezdxf.readfile(out)
+    vals = sorted(_diagram_values(doc, "moment"))
+    # AISC Manual Table 3-23 Case 15, beam fixed at both ends, uniform load (from memory):
+    # M = wl^2/12 (hogging) at each end, wl^2/24 (sagging) at the centre; one label per end, one at midspan
+    assert vals == pytest.approx([-w * L**2 / 12 / 1e3] * 2 + [w * L**2 / 24 / 1e3], rel=1e-3)
+    # same case: points of zero moment 0.2113 l from each end, marked by a tick across the beam and a "0"
+    h = writer.annotate_results(ezdxf.readfile(src), model_for(f, src), check(f), list(solve(f).values()),
+                                show="D", force_unit="kN", length_unit="m").text_height
+    ticks = sorted(e.dxf.start.x for e in doc.modelspace().query('LINE[layer=="RESULT-MOMENT"]')
+                   if abs(e.dxf.start.x - e.dxf.end.x) < 1e-9 and abs(e.dxf.start.y + e.dxf.end.y) < 1e-9
+                   and abs(e.dxf.start.y - e.dxf.end.y) == pytest.approx(1.2 * h))
+    a = L * (0.5 - (1 / 12) ** 0.5)   # root of w/12 (6lx - 6x^2 - l^2) = 0, i.e. 0.2113 l
+    assert ticks == pytest.approx([a, L - a], rel=1e-4)
+    zeros = [text_pos(e) for e in texts(doc, "RESULT-MOMENT") if e.dxf.text == "0"]
+    assert len(zeros) == 2 and all(min(abs(x - a), abs(x - L + a)) < 2 * h for x, _y in zeros)
+    # shear and axial: zero crossings are not written; N = 0 everywhere is not labelled at all
+    assert not [e for e in texts(doc, "RESULT-SHEAR") if e.dxf.text == "0"]
+    assert _diagram_values(doc, "axial") == []
+
+
+@pytest.mark.parametrize("uplift, both", [(20e3, True), (11e3, False)])
+def test_envelope_end_writes_the_other_sign_only_when_it_matters(tmp_path, uplift, both):
+    L, wD = 3.0, 10e3
+    src, f = _one_member_model(tmp_path, L, {0: "fixed"}, {"D": wD, "W": -uplift})
+    cases = solve(f)
+    # ASCE/SEI 7 basic strength combinations 1 and 7 (from memory): 1.4D; 0.9D + 1.0W
+    results = list(cases.values()) + [combine(cases, {"D": 1.4}, "1.4D", family="LRFD"),
+                                      combine(cases, {"D": 0.9, "W": 1.0}, "0.9D+W", family="LRFD")]
+    doc = ezdxf.readfile(write(tmp_path, src, model_for(f, src), check(f), results, show="envelope:LRFD"))
+    # AISC Table 3-23 Case 22, cantilever with uniform load (from memory): M = wl^2/2 at the support,
+    # hogging (negative) under gravity, sagging when the net load is uplift; zero at the free end
+    hog = -1.4 * wD * L**2 / 2 / 1e3
+    sag = (uplift - 0.9 * wD) * L**2 / 2 / 1e3
+    expected = [hog, sag] if both else [hog]     # the other sign only when >= 25 % of the larger (our rule)
+    assert sorted(_diagram_values(doc, "moment")) == pytest.approx(sorted(expected), rel=1e-3)
+    # the support's reaction moment is the same couple, counter-clockwise positive (statics)
+    mr = sorted(float(m.group(1)) for e in texts(doc, "RESULT-REACTIONS")
+                if (m := re.fullmatch(r"Mr=" + NUM + r" \[C\d\]", e.dxf.text)))
+    assert mr == pytest.approx(sorted([-v for v in expected]), rel=1e-3)
+
+
+def test_rigid_knee_value_is_written_once(tmp_path):
+    """An L-shaped cantilever frame: the knee moment belongs to the column
+    and to the arm; it is written once."""
+    H, a, P = 4.0, 3.0, 10e3
+    doc = B.new_drawing("m")
+    msp = doc.modelspace()
+    col, arm = B.add_member(msp, (0, 0), (0, H)), B.add_member(msp, (0, H), (a, H))
+    src = B.save(doc, tmp_path / "knee.dxf")
+    f = Frame()
+    n = [f.add_node(0, 0), f.add_node(0, H), f.add_node(a, H)]
+    f.add_member(n[0], n[1], SEC, id=f"{col.dxf.handle}-1", layer="FRAME", handle=col.dxf.handle)
+    f.add_member(n[1], n[2], SEC, id=f"{arm.dxf.handle}-1", layer="FRAME", handle=arm.dxf.handle)
+    f.add_support(n[0], "fixed")
+    f.add_load(NodalLoad(n[2], fy=-P, case="D"))
+    out = write(tmp_path, src, model_for(f, src), check(f), list(solve(f).values()), show="D")
+    doc = ezdxf.readfile(out)
+    # statics (method of sections): the arm's moment grows from 0 at the tip to P*a at the knee, and the
+    # column carries P*a over its height; one label for the lot, the zero at the tip is not written
+    assert [abs(v) for v in _diagram_values(doc, "moment")] == pytest.approx([P * a / 1e3], rel=1e-3)
+    # same statics: V = P along the arm, none in the column; N = -P in the column (compression), none in the arm
+    assert [abs(v) for v in _diagram_values(doc, "shear")] == pytest.approx([P / 1e3], rel=1e-3)
+    assert _diagram_values(doc, "axial") == pytest.approx([-P / 1e3], rel=1e-3)
+    reac = {m.group(1): float(m.group(2)) for e in texts(doc, "RESULT-REACTIONS")
+            if (m := re.fullmatch(r"(R[xy]|Mr)=" + NUM, e.dxf.text))}
+    # statics: Ry = P up, Mr = P*a counter-clockwise; no horizontal reaction
+    assert reac == pytest.approx({"Ry": P / 1e3, "Mr": P * a / 1e3}, rel=1e-3)
+
+
+def test_notes_paragraph_breaks_survive_line_wrapping(tmp_path):
+    """Every paragraph of the notes starts a new line in ezdxf's renderer,
+    whatever the wrapping width (it drops a break that directly follows a
+    word it has just wrapped)."""
+    from ezdxf.fonts import fonts
+    from ezdxf.tools.text import text_wrap
+
+    L, wD, wL = 6.0, 10e3, 5e3
+    src, handle = beam_drawing(tmp_path, L=L)
+    frame = beam_frame(handle, L, {"D": wD, "L": wL})
+    cases = solve(frame)
+    combos = [combine(cases, {"D": 1.4}, "1.4D", family="LRFD"),
+              combine(cases, {"D": 1.2, "L": 1.6}, "1.2D+1.6L", family="LRFD")]
+    doc = ezdxf.readfile(write(tmp_path, src, model_for(frame, src), check(frame), list(cases.values()) + combos))
+    (mt,) = doc.modelspace().query('MTEXT[layer=="RESULT-NOTES"]')
+    plain = mt.plain_text()
+    paragraphs = [p.strip() for p in plain.split("\n") if p.strip()]
+    assert len(paragraphs) >= 6
+    h = mt.dxf.char_height
+    font = fonts.make_font(TEXT_STYLES["D2F-NOTES"], cap_height=h)
+    for width in np.linspace(12 * h, 60 * h, 97):
+        lines = [line.strip() for line in text_wrap(plain, float(width), font.text_width)]
+        missing = [p[:15] for p in paragraphs
+                   if not any(line.startswith(p[:15]) or (line and p.startswith(line)) for line in lines)]
+        assert not missing, (width, missing)
 
 
 # -- unstable frames ---------------------------------------------------------------------------
