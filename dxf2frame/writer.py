@@ -1825,12 +1825,15 @@ def _draw_legend_and_notes(pen: _Pen, model, det, geom: _FrameGeom, names: dict[
         left = content[0]
         avail = max(content[2] - content[0], 3 * max(widths, default=0.0) + 4.0 * h)
         x, y, row_h = left, content[1] - 2.5 * h, 0.0
+        right = side_x
         for (key, rows), w in zip(blocks, widths):
             if x > left and x + w > left + avail:
                 x, y, row_h = left, y - row_h - 1.2 * h, 0.0
             block(x, y, key, rows)
+            right = max(right, x + w + 3.0 * h)        # the notes start clear of every block
             x += w + 2.0 * h
             row_h = max(row_h, (len(rows) - 1) * pitch + h)
+        side_x = right
         y = gy1
     else:                                             # one column to the right
         y = gy1 - 2.6 * h
