@@ -269,17 +269,25 @@ def _report_units(req: SolveRequest, model: DrawingModel, settings: Settings) ->
 
 
 def _governing(report: dict) -> dict[str, float | None]:
-    """Largest |M|, |V|, |N| over combinations (or cases when there are
-    none) and the worst span/deflection ratio, from a report dict."""
+    """Largest |M|, |V|, |N| over the strength combinations (LRFD family,
+    else every combination, else the cases) and the worst span/deflection
+    ratio at service level (ASD family, else the unfactored cases: a
+    deflection limit is checked under service loads, common practice),
+    from a report dict."""
     results = report.get("results", [])
-    combos = [r for r in results if r.get("kind") == "combination"] or results
+    combos = [r for r in results if r.get("kind") == "combination"]
+    strength = [r for r in combos if r.get("family") == "LRFD"] or combos or results
+    service = [r for r in combos if r.get("family") == "ASD"] or \
+        [r for r in results if r.get("kind") == "case"]
     big = {"m": None, "v": None, "n": None}
-    ratio = None
-    for r in combos:
+    for r in strength:
         for m in r.get("members", []):
             for key in ("m", "v", "n"):
                 v = max(abs(m[f"{key}_min"]), abs(m[f"{key}_max"]))
                 big[key] = v if big[key] is None else max(big[key], v)
+    ratio = None
+    for r in service:
+        for m in r.get("members", []):
             d = m.get("deflection_ratio")
             if d is not None and math.isfinite(d):
                 ratio = d if ratio is None else min(ratio, d)
