@@ -34,7 +34,7 @@ which writes the mutated drawing (and prints what was done to it).
 
 Budget
 ------
-CI (default): 160 mutations, every eighth one through ``solve``, the
+CI (default): 320 mutations, every eighth one through ``solve``, the
 others through ``check``.  Long run::
 
     DXF2FRAME_LONG=1 pytest tests/test_mutation.py          # 3000 mutations
@@ -61,7 +61,7 @@ DEMO = ROOT / "drawings"
 DRAWINGS = ("packing-shed-rev-A.dxf", "packing-shed-rev-B.dxf")
 
 LONG = os.environ.get("DXF2FRAME_LONG", "") == "1"
-COUNT = int(os.environ.get("DXF2FRAME_MUTATIONS", "3000" if LONG else "160"))
+COUNT = int(os.environ.get("DXF2FRAME_MUTATIONS", "3000" if LONG else "320"))
 BASE_SEED = int(os.environ.get("DXF2FRAME_MUTATION_SEED", "20240917"))
 CHUNK = 20
 SOLVE_EVERY = 8
