@@ -293,6 +293,21 @@ def _quantity(v: Any, kind: str, key: str, path: str) -> float:
     return value
 
 
+def _remap(data: Mapping[str, Any], key: str, names, path: str, *, allowed: set[str], what: str) -> dict[str, str]:
+    """Table ``[key]`` mapping the convention's ``names`` to an office's own
+    (upper case); a name used for two entries is an error."""
+    table = _table(data, key, path)
+    _check_keys(table, allowed, key, path)
+    out = {n: n for n in names}
+    for k, v in table.items():
+        out[k.upper()] = _str(v, f"{key}.{k}", path).upper()
+    values = list(out.values())
+    dup = {n for n in values if values.count(n) > 1}
+    if dup:
+        raise SettingsError(what.format(sorted(dup)), path=path, key=key)
+    return out
+
+
 def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
     _check_keys(data, _TOP_KEYS, "", path)
     kw: dict[str, Any] = {"source": source}
@@ -353,29 +368,11 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
         raise SettingsError("two input roles share one layer name", path=path, key="layers")
     kw["layers"] = _ro(layers)
 
-    # [blocks]
-    bl = _table(data, "blocks", path)
-    _check_keys(bl, {k.lower() for k in BLOCK_KINDS}, "blocks", path)
-    blocks = {k: k for k in BLOCK_KINDS}
-    for k, v in bl.items():
-        blocks[k.upper()] = _str(v, f"blocks.{k}", path).upper()
-    names = list(blocks.values())
-    dup = {n for n in names if names.count(n) > 1}
-    if dup:
-        raise SettingsError(f"block name(s) {sorted(dup)} used for two kinds", path=path, key="blocks")
-    kw["blocks"] = _ro(blocks)
-
-    # [attributes]
-    at = _table(data, "attributes", path)
-    _check_keys(at, set(ATTRIBUTE_TAGS), "attributes", path)
-    attrs = {t: t for t in ATTRIBUTE_TAGS}
-    for k, v in at.items():
-        attrs[k.upper()] = _str(v, f"attributes.{k}", path).upper()
-    tags = list(attrs.values())
-    dup = {t for t in tags if tags.count(t) > 1}
-    if dup:
-        raise SettingsError(f"tag(s) {sorted(dup)} used for two attributes", path=path, key="attributes")
-    kw["attributes"] = _ro(attrs)
+    # [blocks] and [attributes]: the convention's names, remapped one to one
+    kw["blocks"] = _ro(_remap(data, "blocks", BLOCK_KINDS, path, allowed={k.lower() for k in BLOCK_KINDS},
+                              what="block name(s) {} used for two kinds"))
+    kw["attributes"] = _ro(_remap(data, "attributes", ATTRIBUTE_TAGS, path, allowed=set(ATTRIBUTE_TAGS),
+                                  what="tag(s) {} used for two attributes"))
 
     # [output_layers]
     ol = _table(data, "output_layers", path)
