@@ -63,6 +63,7 @@ __all__ = [
     "Settings",
     "load_settings",
     "SETTINGS_FILENAME",
+    "DEFAULT_OUTPUT_LAYERS",
     "BLOCK_KINDS",
     "ATTRIBUTE_TAGS",
     "OUTPUT_LAYER_KEYS",
@@ -81,7 +82,7 @@ ATTRIBUTE_TAGS: tuple[str, ...] = (
     "KX", "KY", "KR", "SETTLE_X", "SETTLE_Y", "SETTLE_R", "MEMBERS",
 )
 
-_DEFAULT_OUTPUT_LAYERS: dict[str, str] = {
+DEFAULT_OUTPUT_LAYERS: dict[str, str] = {
     "axial": "RESULT-AXIAL",
     "shear": "RESULT-SHEAR",
     "moment": "RESULT-MOMENT",
@@ -91,7 +92,7 @@ _DEFAULT_OUTPUT_LAYERS: dict[str, str] = {
     "mechanism": "RESULT-MECHANISM",
     "changes": "RESULT-CHANGES",
 }
-OUTPUT_LAYER_KEYS: tuple[str, ...] = tuple(_DEFAULT_OUTPUT_LAYERS)
+OUTPUT_LAYER_KEYS: tuple[str, ...] = tuple(DEFAULT_OUTPUT_LAYERS)
 
 #: any layer starting with this is treated as written by this tool
 RESULT_LAYER_PREFIX = "RESULT-"
@@ -145,7 +146,7 @@ class Settings:
     layers: Mapping[str, str] = field(default_factory=lambda: _ro(_DEFAULT_LAYERS))
     blocks: Mapping[str, str] = field(default_factory=lambda: _ro({k: k for k in BLOCK_KINDS}))
     attributes: Mapping[str, str] = field(default_factory=lambda: _ro({t: t for t in ATTRIBUTE_TAGS}))
-    output_layers: Mapping[str, str] = field(default_factory=lambda: _ro(_DEFAULT_OUTPUT_LAYERS))
+    output_layers: Mapping[str, str] = field(default_factory=lambda: _ro(DEFAULT_OUTPUT_LAYERS))
     sections: Mapping[str, Section] = field(default_factory=lambda: _ro({}))
     combinations_builtin: tuple[str, ...] = _BUILTIN_COMBOS
     combinations_extra: tuple[str, ...] = ()
@@ -377,7 +378,7 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
     # [output_layers]
     ol = _table(data, "output_layers", path)
     _check_keys(ol, set(OUTPUT_LAYER_KEYS), "output_layers", path)
-    outs = dict(_DEFAULT_OUTPUT_LAYERS)
+    outs = dict(DEFAULT_OUTPUT_LAYERS)
     for k, v in ol.items():
         outs[k.lower()] = _str(v, f"output_layers.{k}", path)
     inputs = {v.upper() for v in layers.values()}

@@ -123,6 +123,7 @@ from . import CAUTION, __version__
 from .atomic import atomic_path
 from .errors import InputFileError, SettingsError
 from .report import UnitFactors, unit_factors
+from .settings import DEFAULT_OUTPUT_LAYERS as _SETTINGS_OUTPUT_LAYERS
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
@@ -150,16 +151,9 @@ __all__ = [
 
 # -- the scheme ------------------------------------------------------------------
 
-#: result layer key -> default layer name
-DEFAULT_OUTPUT_LAYERS: dict[str, str] = {
-    "axial": "RESULT-AXIAL",
-    "shear": "RESULT-SHEAR",
-    "moment": "RESULT-MOMENT",
-    "reactions": "RESULT-REACTIONS",
-    "deflected": "RESULT-DEFLECTED",
-    "notes": "RESULT-NOTES",
-    "mechanism": "RESULT-MECHANISM",
-}
+#: result layer key -> default layer name (the settings' defaults, less the
+#: comparison layer, which the compare command draws)
+DEFAULT_OUTPUT_LAYERS: dict[str, str] = {k: v for k, v in _SETTINGS_OUTPUT_LAYERS.items() if k != "changes"}
 
 
 @dataclass(frozen=True)
