@@ -10,9 +10,10 @@ module adds keys but never renames or drops one.  Added keys:
 * ``model``: ``elements`` (analysis elements; ``members`` counts reported
   members, i.e. groups of elements of one drawn span);
 * ``determinacy``: ``warnings``, ``nodes_involved`` (unstable frames);
-* per member: ``elements``, ``deflection_ratio`` (length / |deflection_max|,
-  null when there is no deflection), ``deflection_limit`` (the span/limit
-  ratio from the settings, null when none), ``deflection_ok``;
+* per member: ``elements``, ``deflection_rel_max``, ``deflection_ratio``
+  (length / the deflection a span check uses, see below; null when there is
+  no deflection), ``deflection_limit`` (the span/limit ratio from the
+  settings, null when none), ``deflection_ok``;
 * per reaction: ``node``, ``support`` (the support kind);
 * per probe: ``element``, ``at`` (distance from the member start),
   ``deflection``.
@@ -30,7 +31,25 @@ global +X, +Y and moment counter-clockwise positive.
 ``deflection_max`` is the largest magnitude of the displacement of a point
 of the member (sqrt(u**2 + v**2), including the movement of its ends), in
 LENGTH, as the solver computes it exactly; null without member sections.
-``deflection_ratio`` is the member length divided by it.
+
+``deflection_rel_max`` is the largest transverse deflection of the member
+measured from the chord joining its displaced end points (the first start
+node and the last end node of its elements), in LENGTH, exact; null without
+sections.  For a member of several collinear elements it is the largest over
+its elements, each measured from that same member chord (so a deflected
+internal node counts).  Rigid movement of the ends (sway, settlement) does
+not enter it.
+
+``deflection_ratio`` = length / the deflection a span check uses:
+
+* both end nodes held (each is supported or joined by an element of another
+  member): ``deflection_rel_max``, the deflection relative to the supports;
+* an end node free (no support, no other member: a cantilever tip):
+  ``deflection_max``, the total tip movement.
+
+In an envelope, ``deflection_ratio`` is the smallest ratio over its
+combinations (``deflection_ratio_by`` names it), ``deflection_rel_max`` the
+largest relative deflection.
 """
 from __future__ import annotations
 
@@ -236,6 +255,7 @@ class _GroupIndex:
     groups: list[MemberGroup]
     first: np.ndarray                     # element index of each group's first piece
     multi: list[tuple[int, list[int], list[float]]]  # (group, element indices, offsets [m])
+    held: np.ndarray                      # per group: both end nodes supported or shared (bool)
 
 
 def _group_index(frame: "Frame") -> _GroupIndex:
@@ -244,7 +264,58 @@ def _group_index(frame: "Frame") -> _GroupIndex:
     first = np.array([where[g.members[0].id] for g in groups], dtype=int)
     multi = [(gi, [where[m.id] for m in g.members], list(g.offsets))
              for gi, g in enumerate(groups) if len(g.members) > 1]
-    return _GroupIndex(groups, first, multi)
+    return _GroupIndex(groups, first, multi, _held_ends(frame, groups))
+
+
+def _held_ends(frame: "Frame", groups: list[MemberGroup]) -> np.ndarray:
+    """Per group: True when both its end nodes (first start, last end) are
+    held, i.e. carry a support or an element of another group.  A group's
+    own elements are a straight chain, so exactly one of them touches each
+    of its end nodes: another element makes the node count exceed one."""
+    n = len(frame.nodes)
+    ends = np.array([[m.start, m.end] for m in frame.members], dtype=int).reshape(-1, 2)
+    deg = np.bincount(ends.ravel(), minlength=n)
+    held = deg > 1
+    for s in frame.supports:
+        held[s.node] = True
+    a = np.array([g.members[0].start for g in groups], dtype=int)
+    b = np.array([g.members[-1].end for g in groups], dtype=int)
+    return held[a] & held[b]
+
+
+def _relative_table(res, frame: "Frame", gx: _GroupIndex) -> np.ndarray:
+    """Per element (``frame.members`` order) [m]: the largest transverse
+    deflection measured from the chord of its reported member (for a
+    one-element member its own chord); NaN without sections.  Uses the
+    solver's vectorised ``relative_deflection_table`` when the result's
+    members have one, else each element's ``max_relative_deflection()``
+    (own chord)."""
+    mres = res.members
+    table_fn = getattr(mres, "relative_deflection_table", None)
+    if table_fn is not None:
+        pos = {mid: i for i, mid in enumerate(mres)}
+        order = np.array([pos[m.id] for m in frame.members], dtype=int)
+        d = getattr(mres, "end_displacements", None)
+        if not gx.multi or d is None:
+            return np.asarray(table_fn()["deflection_rel_max"], dtype=float)[order]
+        # elements of one member are collinear and run the same way: their
+        # local y agree, so the member chord is linear in the distance along it
+        ref = d[:, [1, 3]].copy()
+        for gi, idx, offs in gx.multi:
+            rows = order[idx]
+            vs, ve = d[rows[0], 1], d[rows[-1], 3]
+            total = gx.groups[gi].length
+            lens = np.array([frame.geometry(frame.members[i])[0] for i in idx])
+            o = np.asarray(offs)
+            ref[rows, 0] = vs + (ve - vs) * o / total
+            ref[rows, 1] = vs + (ve - vs) * (o + lens) / total
+        return np.asarray(table_fn(ref)["deflection_rel_max"], dtype=float)[order]
+    out = []
+    for m in frame.members:
+        fn = getattr(res.members[m.id], "max_relative_deflection", None)
+        r = fn() if fn is not None else None
+        out.append(float(r[0]) if r is not None else math.nan)
+    return np.asarray(out, dtype=float)
 
 
 def _group_values(tbl: dict[str, np.ndarray], gx: _GroupIndex) -> dict[str, np.ndarray]:
@@ -258,8 +329,9 @@ def _group_values(tbl: dict[str, np.ndarray], gx: _GroupIndex) -> dict[str, np.n
             j = int(better(vals))          # first piece on ties: nearest the start
             out[k][gi] = vals[j]
             out[f"{k}_at"][gi] = offs[j] + tbl[f"{k}_at"][idx][j]
-        d = tbl["deflection_max"][idx]
-        out["deflection_max"][gi] = np.nan if np.all(np.isnan(d)) else np.nanmax(d)
+        for k in ("deflection_max", "deflection_rel_max"):
+            d = tbl[k][idx]
+            out[k][gi] = np.nan if np.all(np.isnan(d)) else np.nanmax(d)
     return out
 
 
@@ -288,7 +360,8 @@ def _limit_for(layer: str, limits: Mapping | None) -> float | None:
     return float(default) if default is not None else None
 
 
-_ROW_KEYS = ("n_min", "n_max", "v_min", "v_max", "m_min", "m_max", "m_max_at", "m_min_at", "deflection_max")
+_ROW_KEYS = ("n_min", "n_max", "v_min", "v_max", "m_min", "m_max", "m_max_at", "m_min_at", "deflection_max",
+             "deflection_rel_max")
 
 
 @dataclass
@@ -298,6 +371,7 @@ class _StaticRows:
     heads: list[dict]               # id, layer, handle, start, end, length (+ elements)
     lengths: np.ndarray             # [m]
     limits: list[float | None]
+    held: np.ndarray                # both end nodes held: the span check uses the relative deflection
 
 
 def _static_rows(gx: _GroupIndex, uf: UnitFactors, limits: Mapping | None) -> _StaticRows:
@@ -317,18 +391,22 @@ def _static_rows(gx: _GroupIndex, uf: UnitFactors, limits: Mapping | None) -> _S
         if m0.layer not in limit_cache:
             limit_cache[m0.layer] = _limit_for(m0.layer, limits)
         lims.append(limit_cache[m0.layer])
-    return _StaticRows(heads, np.array([g.length for g in gx.groups]), lims)
+    return _StaticRows(heads, np.array([g.length for g in gx.groups]), lims, gx.held)
 
 
 def _member_columns(res, frame: "Frame", gx: _GroupIndex, uf: UnitFactors, static: _StaticRows) -> dict[str, np.ndarray]:
     """Per reported member, for one result: the extremes in report units
-    (keys of :data:`_ROW_KEYS`) and ``deflection_ratio`` (NaN where none)."""
-    g = _group_values(element_table(res, frame), gx)
+    (keys of :data:`_ROW_KEYS`) and ``deflection_ratio`` (NaN where none):
+    length / ``deflection_rel_max`` for a member with both ends held, else
+    length / ``deflection_max``."""
+    tbl = element_table(res, frame)
+    tbl["deflection_rel_max"] = _relative_table(res, frame, gx)
+    g = _group_values(tbl, gx)
     F, L, M = uf.force, uf.length, uf.moment
     scale = {"n_min": F, "n_max": F, "v_min": F, "v_max": F, "m_min": M, "m_max": M,
-             "m_max_at": L, "m_min_at": L, "deflection_max": L}
+             "m_max_at": L, "m_min_at": L, "deflection_max": L, "deflection_rel_max": L}
     cols = {k: g[k] * scale[k] for k in _ROW_KEYS}
-    defl_m = g["deflection_max"]
+    defl_m = np.where(static.held, g["deflection_rel_max"], g["deflection_max"])
     with np.errstate(divide="ignore", invalid="ignore"):
         cols["deflection_ratio"] = np.where(defl_m > 0, static.lengths / defl_m, np.nan)
     return cols
@@ -480,11 +558,18 @@ def _envelope(name: str, family: str, names: list[str], cols: list[dict[str, np.
     dw = np.argmax(np.where(np.isnan(dstack), -np.inf, dstack), axis=0)
     j = np.arange(dstack.shape[1])
     dvals = _round12(np.where(have, dstack[dw, j], np.nan))
-    dratio = _round12(np.vstack([c["deflection_ratio"] for c in cols])[dw, j])
+    rstack = np.vstack([c["deflection_rel_max"] for c in cols])
+    rvals = _round12(np.where(have, np.nanmax(np.where(np.isnan(rstack), -np.inf, rstack), axis=0), np.nan))
+    qstack = np.vstack([c["deflection_ratio"] for c in cols])
+    qhave = ~np.all(np.isnan(qstack), axis=0)
+    qw = np.argmin(np.where(np.isnan(qstack), np.inf, qstack), axis=0)
+    dratio = _round12(np.where(qhave, qstack[qw, j], np.nan))
     for i, (e, g, limit) in enumerate(zip(members, governing, static.limits)):
         e["deflection_max"] = dvals[i]
         e["deflection_max_by"] = names[int(dw[i])] if have[i] else None
-        e["deflection_ratio"] = dratio[i] if have[i] else None
+        e["deflection_rel_max"] = rvals[i]
+        e["deflection_ratio"] = dratio[i]
+        e["deflection_ratio_by"] = names[int(qw[i])] if qhave[i] else None
         e["deflection_limit"] = limit
         e["governing"] = g
     reac: dict[int, dict] = {}

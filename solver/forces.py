@@ -1025,6 +1025,7 @@ class MemberResults(Mapping):
         self._cache: dict[str, MemberResult] = {}
         self._ftable: dict[str, np.ndarray] | None = None
         self._dtable: dict[str, np.ndarray] | None = None
+        self._rtable: dict[str, np.ndarray] | None = None
         self._pc: _Pieces | None = None
         self._bx: tuple[np.ndarray, np.ndarray] | None = None
         self._crit: tuple[np.ndarray, np.ndarray] | None = None
@@ -1092,6 +1093,40 @@ class MemberResults(Mapping):
                 val, at = np.full(len(self), np.nan), np.full(len(self), np.nan)
             self._dtable = {"deflection_max": val, "deflection_max_at": at}
         return self._dtable
+
+    def relative_deflection_table(self, reference: np.ndarray | None = None) -> dict[str, np.ndarray]:
+        """``deflection_rel_max`` (largest |transverse deflection| [length]
+        measured from a straight reference line) and ``deflection_rel_max_at``
+        (its position from the member start) of every member, exact and
+        vectorised; NaN without sections.
+
+        Parameters
+        ----------
+        reference : (m, 2) local transverse displacements (along local y)
+            of the reference line at x = 0 and at x = L of each member, in
+            layout order.  Default: the member's own displaced ends
+            ``v_i, v_j`` (the chord), which gives exactly
+            :meth:`MemberResult.max_relative_deflection` per member.  A
+            span of several collinear elements passes the chord of the
+            whole span evaluated at each element's ends.
+        """
+        m = len(self)
+        if not self.has_deflection:
+            return {"deflection_rel_max": np.full(m, np.nan), "deflection_rel_max_at": np.full(m, np.nan)}
+        if reference is None:
+            if self._rtable is None:
+                self._rtable = self._relative(self.end_displacements[:, [1, 3]])
+            return self._rtable
+        return self._relative(np.asarray(reference, dtype=float).reshape(m, 2))
+
+    def _relative(self, ref: np.ndarray) -> dict[str, np.ndarray]:
+        pc = self._pieces()
+        c = pc._coef("v").copy()
+        slope = (ref[:, 1] - ref[:, 0]) / pc.length
+        c[:, 0] -= ref[pc.mem, 0] + slope[pc.mem] * pc.x0
+        c[:, 1] -= slope[pc.mem]
+        val, at = _max_abs_batch(pc, [_to_unit(c, pc.h)])
+        return {"deflection_rel_max": val, "deflection_rel_max_at": at}
 
     def table(self) -> dict[str, np.ndarray]:
         """:meth:`force_table` and :meth:`deflection_table` together."""

@@ -16,7 +16,7 @@ solver = pytest.importorskip("solver")
 pytest.importorskip("solver.forces")
 pytest.importorskip("solver.results")
 
-from solver import DistributedLoad, Frame, NodalLoad, Section, check, combine, solve  # noqa: E402
+from solver import DistributedLoad, Frame, NodalLoad, Section, Settlement, check, combine, solve  # noqa: E402
 
 from dxf2frame import CAUTION  # noqa: E402
 from dxf2frame.drawing_model import DrawingModel  # noqa: E402
@@ -142,6 +142,11 @@ def test_group_of_elements_reported_as_one_member():
     assert mem["v_min"] == pytest.approx(-P / 2 / 1e3, rel=1e-9)
     # same case: centre deflection Pl^3/(48EI)
     assert mem["deflection_max"] == pytest.approx(P * L**3 / (48 * E * I), rel=1e-6)
+    # the supports do not move, so from the member's chord (its two supports)
+    # the deflection is the same Pl^3/(48EI) (AISC case 7), even though the
+    # deflected node sits between the two elements
+    assert mem["deflection_rel_max"] == pytest.approx(P * L**3 / (48 * E * I), rel=1e-6)
+    assert mem["deflection_ratio"] == pytest.approx(L / (P * L**3 / (48 * E * I)), rel=1e-6)
 
 
 def test_probes_in_drawing_units():
@@ -252,6 +257,11 @@ def test_combinations_and_envelope_governing():
     # 1.2*10 + 1.6*5 = 20 kN/m > 1.4*10 = 14 kN/m, so 1.2D+1.6L governs the sagging moment
     assert em["m_max_by"] == "1.2D+1.6L"
     assert em["m_max"] == pytest.approx(20e3 * L**2 / 8 / 1e3)
+    # the smallest span/deflection ratio governs: L / (5wl^4/384EI) with
+    # w = 20 kN/m (AISC Table 3-23 Case 1, from memory)
+    assert em["deflection_ratio_by"] == "1.2D+1.6L"
+    assert em["deflection_ratio"] == pytest.approx(L / (5 * 20e3 * L**4 / (384 * E * I)), rel=1e-6)
+    assert em["deflection_rel_max"] == pytest.approx(5 * 20e3 * L**4 / (384 * E * I), rel=1e-6)
 
 
 def test_unstable_frame_has_no_results():
@@ -293,3 +303,73 @@ def test_write_json_and_csv(tmp_path: Path):
         assert float(r["m_max"]) == pytest.approx(w * L**2 / 8 / 1e3)
         assert float(r["m_max_at"]) == pytest.approx(L / 2)
     assert sorted(p.name for p in tmp_path.iterdir()) == ["r.csv", "r.json"]  # no temporary files left
+
+
+def test_span_check_ignores_support_settlement():
+    L, w, delta = 6.0, 10e3, 0.02
+    f = simple_span(L, w)
+    f.add_load(Settlement(1, dy=-delta, case="D"))
+    det, results = _results(f)
+    mem = build_report(_model(f), det, results, force_unit="kN", length_unit="m")["results"][0]["members"][0]
+    sag = 5 * w * L**4 / (384 * E * I)  # AISC Table 3-23 Case 1 (from memory): 5wl^4/(384EI)
+    # a determinate beam rotates rigidly on a settlement: from the chord the sag stays (AISC case 1)
+    assert mem["deflection_rel_max"] == pytest.approx(sag, rel=1e-6)
+    assert mem["deflection_ratio"] == pytest.approx(L / sag, rel=1e-6)
+    # the total movement adds the rigid rotation: delta/2 at mid-span (geometry)
+    assert mem["deflection_max"] >= sag + delta / 2 - 1e-9
+
+
+def _two_bay_portal(H: float = 4.0, L: float = 6.0, P: float = 30e3, w: float = 8e3) -> Frame:
+    """Two bays, three fixed-base columns, lateral load P at the left eave,
+    beam load w on both beams (case D)."""
+    f = Frame()
+    base = [f.add_node(k * L, 0.0) for k in range(3)]
+    top = [f.add_node(k * L, H) for k in range(3)]
+    for k in range(3):
+        f.add_member(base[k], top[k], SEC, id=f"C{k}-1", layer="COLS", handle=f"C{k}")
+        f.add_support(base[k], "fixed")
+    for k in range(2):
+        f.add_member(top[k], top[k + 1], SEC, id=f"B{k}-1", layer="BEAMS", handle=f"B{k}")
+        f.add_load(DistributedLoad(f"B{k}-1", q1=(0.0, -w), case="D"))
+    f.add_load(NodalLoad(top[0], fx=P, case="D"))
+    return f
+
+
+def test_two_bay_portal_beam_ratio_uses_chord_deflection():
+    f = _two_bay_portal()
+    det, results = _results(f)
+    rep = build_report(_model(f), det, results, force_unit="kN", length_unit="m")
+    rows = {m["id"]: m for m in rep["results"][0]["members"]}
+    members = solve(f)["D"].members  # independent: the solver's one-member method
+    for mid in ("B0-1", "B1-1", "C0-1", "C1-1", "C2-1"):
+        row, mr = rows[mid], members[mid]
+        rel = mr.max_relative_deflection()[0]
+        # both ends held (support or another member): the span check measures
+        # from the chord between the displaced ends (common practice)
+        assert row["deflection_rel_max"] == pytest.approx(rel, rel=1e-9)
+        assert row["deflection_ratio"] == pytest.approx(mr.length / rel, rel=1e-9)
+    # the beams ride on the sway: their total movement exceeds the chord
+    # deflection by at least the horizontal sway of their ends (geometry)
+    beam = rows["B0-1"]
+    sway = abs(members["B0-1"].global_deflection(0.0)[0])
+    assert sway > 0
+    assert beam["deflection_max"] >= sway
+    assert beam["deflection_ratio"] > beam["length"] / beam["deflection_max"]
+
+
+def test_cantilever_ratio_uses_tip_deflection():
+    L, P = 3.0, 15e3
+    f = Frame()
+    a, b = f.add_node(0, 0), f.add_node(L, 0)
+    f.add_member(a, b, SEC, id="7G-1", layer="FRAME", handle="7G")
+    f.add_support(a, "fixed")
+    f.add_load(NodalLoad(b, fy=-P, case="D"))
+    det, results = _results(f)
+    mem = build_report(_model(f), det, results, force_unit="kN", length_unit="mm",
+                       deflection_limits={"limit": 180})["results"][0]["members"][0]
+    tip = P * L**3 / (3 * E * I)  # AISC Table 3-23 Case 22 (from memory): cantilever end load Pl^3/(3EI)
+    assert mem["deflection_max"] == pytest.approx(tip * 1e3, rel=1e-6)  # in mm (unit definition)
+    # the free end is touched by no other member and no support: the check
+    # uses the total tip deflection, length / (Pl^3/3EI) (AISC case 22)
+    assert mem["deflection_ratio"] == pytest.approx(L / tip, rel=1e-6)
+    assert mem["deflection_ok"] is (L / tip >= 180)

@@ -100,6 +100,45 @@ def test_relative_deflection_ignores_support_settlement():
     assert chk.allowed == approx(L / 360)  # common practice: span/360
 
 
+def test_relative_deflection_table_ignores_support_settlement():
+    L, w, delta = 6.0, 10e3, 0.02
+    f, (a, b), (m,) = beam(L, "pin", "roller")
+    f.add_load(DistributedLoad(m.id, q1=(0.0, -w)))
+    f.add_load(Settlement(b, dy=-delta))
+    res = solve(f)["D"].members
+    tab = res.relative_deflection_table()
+    # measured from the chord the sag is 5wl^4/384EI at mid-span (AISC case 1, from memory)
+    assert tab["deflection_rel_max"][0] == approx(5 * w * L**4 / (384 * EI))
+    assert tab["deflection_rel_max_at"][0] == approx(L / 2)  # AISC case 1: at center
+    # the total movement includes the settlement: at mid-span the sag plus
+    # delta/2 (superposition of AISC case 1 and a rigid rotation about the pin)
+    assert res.deflection_table()["deflection_max"][0] >= 5 * w * L**4 / (384 * EI) + delta / 2 - 1e-12
+    # a reference line through the undisplaced supports (v = 0, v = 0)
+    # measures the total transverse deflection: at mid-span the sag plus
+    # half the settlement (superposition of AISC case 1 and a rigid rotation)
+    tot = res.relative_deflection_table(np.zeros((1, 2)))
+    assert tot["deflection_rel_max"][0] >= 5 * w * L**4 / (384 * EI) + delta / 2 - 1e-12
+
+
+def test_relative_deflection_table_is_each_members_chord_deflection():
+    # a portal frame under a lateral load and a beam load: the columns sway,
+    # the beam bends; the table must equal the one-member method of each
+    H, L, P, w = 4.0, 6.0, 20e3, 8e3
+    f = Frame()
+    n0, n1, n2, n3 = f.add_node(0, 0), f.add_node(0, H), f.add_node(L, H), f.add_node(L, 0)
+    ms = [f.add_member(n0, n1, SEC), f.add_member(n1, n2, SEC), f.add_member(n3, n2, SEC)]
+    f.add_support(n0, "fixed")
+    f.add_support(n3, "pin")
+    f.add_load(NodalLoad(n1, fx=P))
+    f.add_load(DistributedLoad(ms[1].id, q1=(0.0, -w)))
+    res = solve(f)["D"].members
+    tab = res.relative_deflection_table()
+    for j, mid in enumerate(res):
+        one = solve(f)["D"].members[mid].max_relative_deflection()
+        assert tab["deflection_rel_max"][j] == approx(one[0])
+        assert tab["deflection_rel_max_at"][j] == approx(one[1], abs_=1e-9 * L)
+
+
 def test_simple_beam_point_load_off_centre():
     L, P, a_ = 8.0, 25e3, 5.0
     b_ = L - a_
