@@ -361,8 +361,12 @@ def real_roots_unit(coef: np.ndarray, rows: np.ndarray | None = None,
                 xn = x[act] - fx / fp
             ok = np.isfinite(xn) & (xn > a[act]) & (xn < b[act])
             xnew = np.where(ok, xn, 0.5 * (a[act] + b[act]))
-            done = (np.abs(xnew - x[act]) <= 4e-16) | (fx == 0) | (b[act] - a[act] <= 4e-16)
-            x[act] = np.where(fx == 0, x[act], xnew)
+            # converged: a Newton step this small leaves an error of its
+            # square; or f is down to the rounding noise of evaluating it
+            # (Horner with |coefficients|), where further steps only wander
+            noise = np.abs(fx) <= 8e-16 * _polyval(np.abs(cx), x[act])
+            done = (np.abs(xnew - x[act]) <= 1e-14) | noise | (b[act] - a[act] <= 4e-16)
+            x[act] = np.where(noise, x[act], xnew)
             act = act[~done]
             if len(act) == 0:
                 break
@@ -692,20 +696,24 @@ def _max_abs_batch(pc: _Pieces, parts: list[np.ndarray]) -> tuple[np.ndarray, np
     """Per member: max over x of sqrt(sum(part(x)**2)) and its position,
     where each part is given by (P, d+1) ascending coefficients in s = t/h.
     Exact: the piece ends and the real roots of the derivative of the sum
-    of squares; pieces whose Bernstein bound cannot beat the best end value
-    of their member are skipped."""
+    of squares (of the part itself when there is one part: |p| peaks where
+    p' = 0, a polynomial of half the degree); pieces whose Bernstein bound
+    cannot beat the best end value of their member are skipped."""
     m = len(pc.length)
     n = max(a.shape[1] for a in parts)
     padded = [np.pad(a, ((0, 0), (0, n - a.shape[1]))) for a in parts]
-    f = sum(_polymul(a, a) for a in padded)
+    single = len(parts) == 1
+    f = padded[0] if single else sum(_polymul(a, a) for a in padded)
     f0 = f[:, 0]
     f1 = f.sum(axis=1)
     mem = np.concatenate([pc.mem, pc.mem])
     xs = np.concatenate([pc.x0, pc.x0 + pc.h])
-    fv = np.maximum(np.concatenate([f0, f1]), 0.0)
+    ends = np.concatenate([f0, f1])
+    fv = ends * ends if single else np.maximum(ends, 0.0)        # squared magnitude at the piece ends
     best_end = np.zeros(m)
     np.maximum.at(best_end, mem, fv)
-    bound = (f @ _bernstein_matrix(f.shape[1] - 1)).max(axis=1)
+    bern = f @ _bernstein_matrix(f.shape[1] - 1)
+    bound = (bern * bern).max(axis=1) if single else bern.max(axis=1)
     live = np.flatnonzero(bound > best_end[pc.mem] * (1.0 + 1e-12))
     if len(live):
         df = _polyder(f[live])
