@@ -279,16 +279,21 @@ def _governing(report: dict) -> dict[str, float | None]:
     strength = [r for r in combos if r.get("family") == "LRFD"] or combos or results
     service = [r for r in combos if r.get("family") == "ASD"] or \
         [r for r in results if r.get("kind") == "case"]
+    def values(rows, key: str) -> list:
+        col = getattr(rows, "column", None)        # a report Table: no row dicts
+        return col(key) if col is not None else [m.get(key) for m in rows]
+
     big = {"m": None, "v": None, "n": None}
     for r in strength:
-        for m in r.get("members", []):
-            for key in ("m", "v", "n"):
-                v = max(abs(m[f"{key}_min"]), abs(m[f"{key}_max"]))
+        rows = r.get("members", [])
+        for key in ("m", "v", "n"):
+            both = [abs(v) for v in values(rows, f"{key}_min") + values(rows, f"{key}_max") if v is not None]
+            if both:
+                v = max(both)
                 big[key] = v if big[key] is None else max(big[key], v)
     ratio = None
     for r in service:
-        for m in r.get("members", []):
-            d = m.get("deflection_ratio")
+        for d in values(r.get("members", []), "deflection_ratio"):
             if d is not None and math.isfinite(d):
                 ratio = d if ratio is None else min(ratio, d)
     return {"max_m": big["m"], "max_v": big["v"], "max_n": big["n"], "worst_deflection_ratio": ratio}
@@ -447,7 +452,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
         outcome.determinacy, outcome.degree = det.status, det.degree
 
         t0 = time.perf_counter()
-        rep = report_mod.build_report(
+        rep = report_mod.assemble_report(
             model, det, analysis.results, force_unit=force_u, length_unit=length_u,
             probes=req.probes, deflection_limits=settings.deflection_limits(),
         )
@@ -471,11 +476,11 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings,
                                                document=model.document)
             analysis.timings["write"] = time.perf_counter() - t0
-            report_mod.write_json(rep, staged["report"])
-            written = ["drawing", "report"]
-            if req.csv and analysis.stable:
-                report_mod.write_csv(rep, staged["csv"])
-                written.append("csv")
+            t0 = time.perf_counter()
+            with_csv = req.csv and analysis.stable
+            report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
+            analysis.timings["report"] += time.perf_counter() - t0
+            written = ["drawing", "report"] + (["csv"] if with_csv else [])
             if req.png:
                 t0 = time.perf_counter()
                 _render_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u)

@@ -58,13 +58,14 @@ import json
 import math
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Iterable, Mapping, Sequence
+from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping, Sequence
 
 import numpy as np
 
 from . import CAUTION, __version__
 from .atomic import atomic_open
 from .errors import DrawingError
+from .report_table import Table, as_written, round12_list
 from .units import length_unit_scale, unit_factor
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
@@ -79,7 +80,10 @@ __all__ = [
     "member_groups",
     "element_table",
     "locate_points",
+    "assemble_report",
     "build_report",
+    "to_plain",
+    "Table",
     "dumps_report",
     "write_json",
     "write_csv",
@@ -201,21 +205,7 @@ def _num(v: Any) -> float | None:
 
 def _round12(a: np.ndarray) -> list:
     """12 significant figures, vectorised; NaN/inf become None."""
-    a = np.asarray(a, dtype=float)
-    out = a.copy()
-    # values so small or large that the decimal scale would overflow stay as they are
-    mag = np.abs(a)
-    ok = np.isfinite(a) & (mag > 1e-280) & (mag < 1e280)
-    if ok.any():
-        e = np.floor(np.log10(np.abs(a[ok])))
-        scale = 10.0 ** (11 - e)
-        out[ok] = np.round(a[ok] * scale) / scale
-    vals = out.tolist()
-    bad = ~np.isfinite(a)
-    if bad.any():
-        for i in np.flatnonzero(bad):
-            vals[i] = None
-    return vals
+    return round12_list(a)
 
 
 _TABLE_KEYS = ("n_min", "n_max", "v_min", "v_max", "m_min", "m_max", "m_min_at", "m_max_at", "deflection_max")
@@ -372,6 +362,17 @@ class _StaticRows:
     lengths: np.ndarray             # [m]
     limits: list[float | None]
     held: np.ndarray                # both end nodes held: the span check uses the relative deflection
+    _texts: list[str] | None = None
+
+    def head_texts(self) -> list[str]:
+        """JSON text of each head (without braces), encoded once for all results."""
+        if self._texts is None:
+            self._texts = Table(self.heads, []).head_texts()
+        return self._texts
+
+    def limit_array(self) -> np.ndarray:
+        """``limits`` as floats, NaN for none."""
+        return np.array([math.nan if v is None else v for v in self.limits], dtype=float)
 
 
 def _static_rows(gx: _GroupIndex, uf: UnitFactors, limits: Mapping | None) -> _StaticRows:
@@ -412,19 +413,19 @@ def _member_columns(res, frame: "Frame", gx: _GroupIndex, uf: UnitFactors, stati
     return cols
 
 
-def _member_rows(cols: dict[str, np.ndarray], static: _StaticRows) -> list[dict]:
+def _member_table(cols: dict[str, np.ndarray], static: _StaticRows) -> Table:
     """Report entries of every reported member from :func:`_member_columns`."""
-    vals = [_round12(cols[k]) for k in _ROW_KEYS]
-    ratio = _round12(cols["deflection_ratio"])
-    rows = []
-    for head, v, r, limit in zip(static.heads, zip(*vals), ratio, static.limits):
-        row = dict(head)
-        row.update(zip(_ROW_KEYS, v))
-        row["deflection_ratio"] = r
-        row["deflection_limit"] = limit
-        row["deflection_ok"] = (r >= limit) if (r is not None and limit is not None) else None
-        rows.append(row)
-    return rows
+    ratio = as_written(cols["deflection_ratio"])    # the check uses the ratio as the report gives it
+    limit = static.limit_array()
+    known = np.isfinite(ratio) & np.isfinite(limit)
+    ok = np.where(known, ratio >= np.where(known, limit, 0.0), False)
+    columns: list[tuple[str, Any]] = [(k, cols[k]) for k in _ROW_KEYS]
+    columns += [
+        ("deflection_ratio", cols["deflection_ratio"]),
+        ("deflection_limit", limit),
+        ("deflection_ok", [bool(o) if k else None for o, k in zip(ok.tolist(), known.tolist())]),
+    ]
+    return Table(static.heads, columns, head_texts=static.head_texts())
 
 
 def _reaction_rows(res, frame: "Frame", uf: UnitFactors) -> list[dict]:
@@ -538,40 +539,35 @@ def _envelope(name: str, family: str, names: list[str], cols: list[dict[str, np.
     units) and reaction rows: per member and quantity the extreme value, its
     position for M, and the governing result (``<q>_by``; ties go to the
     earlier result)."""
-    members: list[dict] = [
-        {"id": h["id"], "layer": h["layer"], "handle": h["handle"]} for h in static.heads
-    ]
-    governing: list[dict] = [{} for _ in members]
+    heads = [{"id": h["id"], "layer": h["layer"], "handle": h["handle"]} for h in static.heads]
+    columns: list[tuple[str, Any]] = []
+    by: dict[str, list[str]] = {}
+    j = np.arange(len(heads))
     for q in _QUANTITIES:
         stack = np.vstack([c[q] for c in cols])
         w = np.argmax(stack, axis=0) if q.endswith("max") else np.argmin(stack, axis=0)
-        j = np.arange(stack.shape[1])
-        vals = _round12(stack[w, j])
-        ats = _round12(np.vstack([c[f"{q}_at"] for c in cols])[w, j]) if q in ("m_max", "m_min") else None
-        for i, (e, g) in enumerate(zip(members, governing)):
-            e[q] = vals[i]
-            e[f"{q}_by"] = g[q] = names[int(w[i])]
-            if ats is not None:
-                e[f"{q}_at"] = ats[i]
+        by[q] = [names[k] for k in w.tolist()]
+        columns += [(q, stack[w, j]), (f"{q}_by", by[q])]
+        if q in ("m_max", "m_min"):
+            columns.append((f"{q}_at", np.vstack([c[f"{q}_at"] for c in cols])[w, j]))
     dstack = np.vstack([c["deflection_max"] for c in cols])
     have = ~np.all(np.isnan(dstack), axis=0)
     dw = np.argmax(np.where(np.isnan(dstack), -np.inf, dstack), axis=0)
-    j = np.arange(dstack.shape[1])
-    dvals = _round12(np.where(have, dstack[dw, j], np.nan))
     rstack = np.vstack([c["deflection_rel_max"] for c in cols])
-    rvals = _round12(np.where(have, np.nanmax(np.where(np.isnan(rstack), -np.inf, rstack), axis=0), np.nan))
     qstack = np.vstack([c["deflection_ratio"] for c in cols])
     qhave = ~np.all(np.isnan(qstack), axis=0)
     qw = np.argmin(np.where(np.isnan(qstack), np.inf, qstack), axis=0)
-    dratio = _round12(np.where(qhave, qstack[qw, j], np.nan))
-    for i, (e, g, limit) in enumerate(zip(members, governing, static.limits)):
-        e["deflection_max"] = dvals[i]
-        e["deflection_max_by"] = names[int(dw[i])] if have[i] else None
-        e["deflection_rel_max"] = rvals[i]
-        e["deflection_ratio"] = dratio[i]
-        e["deflection_ratio_by"] = names[int(qw[i])] if qhave[i] else None
-        e["deflection_limit"] = limit
-        e["governing"] = g
+    columns += [
+        ("deflection_max", np.where(have, dstack[dw, j], np.nan)),
+        ("deflection_max_by", [names[k] if h else None for k, h in zip(dw.tolist(), have.tolist())]),
+        ("deflection_rel_max",
+         np.where(have, np.nanmax(np.where(np.isnan(rstack), -np.inf, rstack), axis=0), np.nan)),
+        ("deflection_ratio", np.where(qhave, qstack[qw, j], np.nan)),
+        ("deflection_ratio_by", [names[k] if h else None for k, h in zip(qw.tolist(), qhave.tolist())]),
+        ("deflection_limit", static.limit_array()),
+        ("governing", [dict(zip(_QUANTITIES, g)) for g in zip(*(by[q] for q in _QUANTITIES))]),
+    ]
+    members = Table(heads, columns)
     reac: dict[int, dict] = {}
     for rname, rows in zip(names, reactions):
         for rc in rows:
@@ -589,7 +585,7 @@ def _envelope(name: str, family: str, names: list[str], cols: list[dict[str, np.
 # -- the report -----------------------------------------------------------------
 
 
-def build_report(
+def assemble_report(
     model: "DrawingModel",
     det,
     results: Sequence,
@@ -600,7 +596,13 @@ def build_report(
     deflection_limits: Mapping | None = None,
     probe_tolerance: float | None = None,
 ) -> dict:
-    """Build the JSON report (schema 1) as a dict.
+    """Build the JSON report (schema 1), its long lists kept as columns.
+
+    The result is the report as nested dicts and lists, except that the
+    member lists of the results and envelopes are :class:`Table` objects
+    (read-only sequences of dicts built on demand).  :func:`write_json` and
+    :func:`write_csv` write it without materialising those rows;
+    :func:`build_report` returns it as plain data.
 
     Parameters
     ----------
@@ -652,7 +654,7 @@ def build_report(
             "name": res.name,
             "kind": res.kind,
             "reactions": _reaction_rows(res, frame, uf),
-            "members": _member_rows(cols, static),
+            "members": _member_table(cols, static),
             "probes": _probe_rows(res, located, probes, groups_of, uf),
         }
         if getattr(res, "factors", None):
@@ -699,6 +701,23 @@ def build_report(
     }
 
 
+def build_report(model: "DrawingModel", det, results: Sequence, **kw: Any) -> dict:
+    """The JSON report (schema 1) as plain dicts and lists; arguments as
+    :func:`assemble_report`."""
+    return to_plain(assemble_report(model, det, results, **kw))
+
+
+def to_plain(obj: Any) -> Any:
+    """A copy of a report with every :class:`Table` turned into a list of dicts."""
+    if isinstance(obj, Table):
+        return obj.to_list()
+    if isinstance(obj, dict):
+        return {k: to_plain(v) for k, v in obj.items()}
+    if isinstance(obj, list):
+        return [to_plain(v) for v in obj]
+    return obj
+
+
 # -- writing ----------------------------------------------------------------------
 
 
@@ -718,45 +737,100 @@ def _default(obj: Any) -> Any:
 
 
 def _is_table(v: Any) -> bool:
+    if isinstance(v, Table):
+        return len(v) > 0
     return isinstance(v, list) and bool(v) and all(isinstance(e, dict) for e in v)
 
 
-def dumps_report(report: Mapping) -> str:
-    """The report as JSON text: nested objects indented, each entry of a
-    long list (members, reactions, probes) on one line.  Uses the C encoder
-    (fast for 100,000 member rows); NaN and infinity are refused."""
+def _json_chunks(report: Mapping, done: Callable[[Table], None] | None = None) -> Iterator[str]:
+    """The report as JSON text, in pieces (see :func:`dumps_report`).
+    ``done(table)`` is called after each member table has been written
+    (default: release its texts)."""
     enc = json.JSONEncoder(ensure_ascii=False, allow_nan=False, default=_default).encode
+    done = done or Table.release
 
-    def block(obj: Mapping, pad: str) -> list[str]:
-        out = []
+    def block(obj: Mapping, pad: str) -> Iterator[str]:
         items = list(obj.items())
         for n, (k, v) in enumerate(items):
             comma = "," if n < len(items) - 1 else ""
             head = f"{pad}{enc(str(k))}: "
-            if _is_table(v):
-                deep = any(_is_table(x) for x in v[0].values())   # rows of one list are alike
-                out.append(head + "[")
+            if not _is_table(v):
+                yield head + enc(to_plain(v)) + comma + "\n"
+                continue
+            yield head + "[\n"
+            inner = pad + "  "
+            if isinstance(v, Table):
+                yield inner + (",\n" + inner).join(v.json_lines()) + "\n"
+                done(v)
+            elif any(_is_table(x) for x in v[0].values()):   # rows of one list are alike
                 for m, e in enumerate(v):
-                    c2 = "," if m < len(v) - 1 else ""
-                    if deep:
-                        out.append(pad + "  {")
-                        out.extend(block(e, pad + "    "))
-                        out.append(pad + "  }" + c2)
-                    else:
-                        out.append(pad + "  " + enc(e) + c2)
-                out.append(pad + "]" + comma)
+                    yield inner + "{\n"
+                    yield from block(e, inner + "  ")
+                    yield inner + ("}," if m < len(v) - 1 else "}") + "\n"
             else:
-                out.append(head + enc(v) + comma)
-        return out
+                yield inner + (",\n" + inner).join(map(enc, v)) + "\n"
+            yield pad + "]" + comma + "\n"
 
-    return "\n".join(["{", *block(report, "  "), "}"]) + "\n"
+    yield "{\n"
+    yield from block(report, "  ")
+    yield "}\n"
 
 
-def write_json(report: Mapping, path: Path | str) -> None:
-    """Write the report as UTF-8 JSON (see :func:`dumps_report`), atomically."""
-    text = dumps_report(report)
-    with atomic_open(path, "w", encoding="utf-8") as fh:
-        fh.write(text)
+def dumps_report(report: Mapping) -> str:
+    """The report as JSON text: nested objects indented, each entry of a
+    long list (members, reactions, probes) on one line.  Member tables are
+    written column-wise (:meth:`Table.json_lines`), other rows with the C
+    encoder; NaN and infinity are refused."""
+    return "".join(_json_chunks(report))
+
+
+def write_json(report: Mapping, path: Path | str, csv_path: Path | str | None = None) -> None:
+    """Write the report as UTF-8 JSON (see :func:`dumps_report`), atomically;
+    with ``csv_path`` also the CSV (:func:`write_csv`) in the same pass.
+
+    The text is written piece by piece (one member table at a time), so a
+    report of a large frame is never held in memory as one string; in the
+    same pass each result's member table gives the CSV its rows from the
+    same number texts.
+    """
+    if csv_path is None:
+        with atomic_open(path, "w", encoding="utf-8") as fh:
+            for chunk in _json_chunks(report):
+                fh.write(chunk)
+        return
+    owner = {id(r.get("members")): r for r in report.get("results", [])}
+    with atomic_open(path, "w", encoding="utf-8") as fh, \
+            atomic_open(csv_path, "w", encoding="utf-8", newline="") as fc:
+        w = csv.writer(fc)
+        w.writerow(CSV_COLUMNS)
+
+        def done(table: Table) -> None:
+            res = owner.get(id(table))
+            if res is not None:
+                _csv_rows(w, res)
+            table.release()
+
+        for chunk in _json_chunks(report, done):
+            fh.write(chunk)
+        for res in report.get("results", []):        # results written as plain lists
+            if not isinstance(res.get("members"), Table):
+                _csv_rows(w, res)
+
+
+def _csv_rows(w: Any, res: Mapping) -> None:
+    """The CSV rows of one result (a plain list of member dicts or a :class:`Table`)."""
+    members = res.get("members", [])
+    if isinstance(members, Table):
+        n = len(members)
+        cols = [[res["name"]] * n, [res["kind"]] * n]
+        cols += [members.csv_cells(k) for k in ("id", "layer", "handle", "length")]
+        cols += [members.csv_cells(k) for k in CSV_COLUMNS[6:]]
+        w.writerows(zip(*cols))   # the csv module writes None as an empty cell
+        return
+    for m in members:
+        row = [res["name"], res["kind"], m["id"], m["layer"], m["handle"], m["length"]]
+        row += [m[k] for k in CSV_COLUMNS[6:]]
+        w.writerow(["" if v is None else v for v in row])
 
 
 def write_csv(report: Mapping, path: Path | str) -> None:
@@ -769,7 +843,6 @@ def write_csv(report: Mapping, path: Path | str) -> None:
         w = csv.writer(fh)
         w.writerow(CSV_COLUMNS)
         for res in report.get("results", []):
-            for m in res.get("members", []):
-                row = [res["name"], res["kind"], m["id"], m["layer"], m["handle"], m["length"]]
-                row += [m[k] for k in CSV_COLUMNS[6:]]
-                w.writerow(["" if v is None else v for v in row])
+            _csv_rows(w, res)
+            if isinstance(res.get("members"), Table):
+                res["members"].release()

@@ -592,11 +592,11 @@ def test_a_failure_while_writing_leaves_nothing(tmp_path, capsys, monkeypatch, w
 
         monkeypatch.setattr(writer, "write_result_drawing", broken)
     elif where == "csv":
-        def broken_csv(rep, target):
-            Path(target).write_text("result,kind\nD,ca")  # half a file
-            raise OSError(28, "No space left on device")
+        def broken_rows(w, res):
+            w.writerow(["D", "ca"])  # half a row of the CSV (written with the JSON)...
+            raise OSError(28, "No space left on device")  # ...then the disk is full
 
-        monkeypatch.setattr(report_mod, "write_csv", broken_csv)
+        monkeypatch.setattr(report_mod, "_csv_rows", broken_rows)
     else:
         real_move = pipeline._move_into_place
         calls = []

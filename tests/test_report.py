@@ -373,3 +373,73 @@ def test_cantilever_ratio_uses_tip_deflection():
     # uses the total tip deflection, length / (Pl^3/3EI) (AISC case 22)
     assert mem["deflection_ratio"] == pytest.approx(L / tip, rel=1e-6)
     assert mem["deflection_ok"] is (L / tip >= 180)
+
+
+# ---------------------------------------------------------------------------
+# the column-wise report (what `solve` writes) and the plain one agree
+# ---------------------------------------------------------------------------
+
+
+def _two_span_with_combos():
+    """Two spans, two cases and two combinations: member tables, envelopes
+    and a span without a deflection limit."""
+    from solver import combinations  # noqa: F401 - the built-in templates module exists
+
+    f = Frame()
+    a, b, c = f.add_node(0.0, 0.0), f.add_node(5.0, 0.0), f.add_node(9.0, 0.0)
+    m1 = f.add_member(a, b, SEC, id="A-1", layer="FRAME, main", handle="A")   # a comma for the CSV
+    m2 = f.add_member(b, c, SEC, id="B-1", layer='FRAME "2"', handle="B")     # quotes for JSON and CSV
+    f.add_support(a, "pin")
+    f.add_support(b, "roller")
+    f.add_support(c, "roller")
+    for m in (m1, m2):
+        f.add_load(DistributedLoad(m.id, q1=(0.0, -8e3), case="D"))
+        f.add_load(DistributedLoad(m.id, q1=(0.0, -5e3), case="L"))
+    det = check(f)
+    cases = solve(f)
+    combos = [combine(cases, {"D": 1.2, "L": 1.6}, "1.2D+1.6L", family="LRFD"),
+              combine(cases, {"D": 1.0, "L": 1.0}, "D+L", family="ASD")]
+    return f, det, list(cases.values()) + combos
+
+
+def test_column_wise_report_reads_back_as_the_plain_report(tmp_path):
+    from dxf2frame.report import Table, assemble_report, to_plain
+
+    f, det, results = _two_span_with_combos()
+    kw = dict(force_unit="kN", length_unit="m", deflection_limits={"limit": 240, "layers": {"FRAME, main": 360}})
+    lazy = assemble_report(_model(f), det, results, **kw)
+    assert isinstance(lazy["results"][0]["members"], Table)
+    plain = build_report(_model(f), det, results, **kw)
+    assert to_plain(lazy) == plain
+    write_json(lazy, tmp_path / "r.json", tmp_path / "r.csv")
+    assert json.loads((tmp_path / "r.json").read_text(encoding="utf-8")) == plain
+    # every member entry of the file is one line of its own
+    lines = (tmp_path / "r.json").read_text(encoding="utf-8").splitlines()
+    ids = [json.loads(ln.strip().rstrip(","))["id"] for ln in lines if ln.lstrip().startswith('{"id": ')]
+    assert ids == ["A-1", "B-1"] * (len(results) + 3)   # each result, then the LRFD, ASD and "all" envelopes
+    # the CSV written in the same pass equals the one written from the plain report
+    write_csv(plain, tmp_path / "plain.csv")
+    with open(tmp_path / "r.csv", newline="", encoding="utf-8") as fa, \
+            open(tmp_path / "plain.csv", newline="", encoding="utf-8") as fb:
+        ra, rb = list(csv.reader(fa)), list(csv.reader(fb))
+    assert ra[0] == rb[0] == list(CSV_COLUMNS)
+    assert len(ra) == len(rb) == 1 + 4 * 2
+    for x, y in zip(ra[1:], rb[1:]):
+        assert x[:5] == y[:5]                       # names, ids, layers (commas and quotes survive)
+        assert [float(v) if v else None for v in x[5:]] == [float(v) if v else None for v in y[5:]]
+
+
+def test_table_rows_match_their_json_lines():
+    import numpy as np
+
+    from dxf2frame.report_table import Table
+
+    heads = [{"id": "a", "start": [0.0, 1.5]}, {"id": "b%s", "start": [2.0, 3.0], "elements": ["b-1", "b-2"]}]
+    t = Table(heads, [("v", np.array([1.0 / 3.0, np.nan])), ("by", ["x", None]), ("ok", [True, None]),
+                      ("g", [{"m": "x"}, {"m": "y"}])])
+    rows = list(t)
+    assert rows[1] == {"id": "b%s", "start": [2.0, 3.0], "elements": ["b-1", "b-2"], "v": None, "by": None,
+                       "ok": None, "g": {"m": "y"}}
+    assert rows[0]["v"] == float("%.12g" % (1.0 / 3.0))   # 12 significant digits
+    assert [json.loads(line) for line in t.json_lines()] == rows
+    assert t[1] == rows[1] and t[-2] == rows[0] and t[0:2] == rows
