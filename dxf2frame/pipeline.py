@@ -149,9 +149,15 @@ def _solve_checked(model: DrawingModel, det: Determinacy) -> dict[str, CaseResul
 def _first_non_finite(res: CaseResult) -> str | None:
     """Id of the first member whose end forces are not finite, "" for a
     reaction or displacement that is not, None when all are finite."""
-    for mid, mr in res.members.items():
-        if not np.all(np.isfinite(np.asarray(mr.end_forces, dtype=float))):
-            return mid
+    table = getattr(res.members, "end_forces", None)     # MemberResults: one array for all members
+    if table is not None:
+        bad = np.flatnonzero(~np.isfinite(np.asarray(table, dtype=float)).all(axis=1))
+        if len(bad):
+            return list(res.members)[int(bad[0])]
+    else:
+        for mid, mr in res.members.items():
+            if not np.all(np.isfinite(np.asarray(mr.end_forces, dtype=float))):
+                return mid
     for r in res.reactions:
         if not all(math.isfinite(v) for v in (r.fx, r.fy, r.m)):
             return ""
