@@ -53,11 +53,15 @@ def _check_output_clash(files: list[Path], req: SolveRequest) -> None:
         seen[target] = Path(f)
 
 
-def _warm_up() -> None:
-    """Import the writers and build the unit registry once in the parent, so
-    forked workers inherit them instead of each paying for them."""
-    from . import preview, report, writer  # noqa: F401
+def _warm_up(png: bool) -> None:
+    """Import the writers (the preview only when PNGs are asked for) and
+    build the unit registry once in the parent, so forked workers inherit
+    them instead of each paying for them."""
+    from . import report, writer  # noqa: F401
     from .units import registry
+
+    if png:
+        from . import preview  # noqa: F401
 
     registry()
 
@@ -96,7 +100,7 @@ def solve_many(
             if on_done:
                 on_done(out, k, n)
     else:
-        _warm_up()
+        _warm_up(req.png)
         with ProcessPoolExecutor(max_workers=min(workers, n)) as pool:
             futs = {pool.submit(solve_file, f, req): i for i, f in enumerate(files)}
             for k, fut in enumerate(as_completed(futs), start=1):

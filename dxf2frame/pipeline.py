@@ -438,7 +438,7 @@ def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
 def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     """:func:`solve_file` with the collector paused."""
     from . import report as report_mod  # writers are imported lazily: check-only runs stay light
-    from . import writer, preview
+    from . import writer  # the preview (matplotlib) is imported only when a PNG is asked for
 
     source = Path(source)
     t_start = time.perf_counter()
