@@ -7,10 +7,10 @@ layers (names remappable through the settings' ``[output_layers]``):
 =============  =====================================================
 key            content
 =============  =====================================================
-axial          N diagram per element, positive toward local +y
-shear          V diagram per element, positive toward local +y
-moment         M diagram per element, positive (sagging) toward local
-               -y: M is drawn on the tension side
+axial          N diagram along the members, positive toward local +y
+shear          V diagram along the members, positive toward local +y
+moment         M diagram along the members, positive (sagging) toward
+               local -y: M is drawn on the tension side
 reactions      arrows and values at the supports
 deflected      exaggerated deflected shape (when sections are known)
 notes          legend title and a notes block (units, signs, what is
@@ -96,10 +96,27 @@ keeps close to the frame.  Title and notes (notes layer) go to the right.
 Sampling: each element is sampled at its critical points (ends, load
 breaks, zeros of V and M, from every result drawn) plus 17 even stations,
 with both limits where a value jumps, so ends, extremes and zero crossings
-are exact.  Points on straight stretches are not written.  When the
-results offer batch sampling (``members.critical_points()`` and
-``members.sample(which, rows, x, side)``) every element is sampled in a
-few vectorised calls; otherwise through each ``MemberResult``.
+are exact.  When the results offer batch sampling
+(``members.critical_points()`` and ``members.sample(which, rows, x,
+side)``) every element is sampled in a few vectorised calls; otherwise
+through each ``MemberResult``.
+
+Drawing: the sampled curves are thinned before they are written
+(Douglas-Peucker, all elements at once): a point is left out only while
+the drawn line stays within the chord tolerance of it, 0.04 text heights
+(0.1 mm when labels plot at 2.5 mm, under half the 0.25 mm line weight)
+and at most 1 % of the element's largest ordinate (deflected shape: of
+its largest drawn displacement), so the shape stays true when zoomed in
+on one element.  Always written: element ends, both limits of a jump, an
+interior extreme that stands out from the ends, and for a single
+result's moment the points at each change of sign (the outline crosses
+the member at the zero tick).  Elements that continue each other in a
+straight line (a floor beam split at every column, a column line split
+at every floor) are drawn as one run: one closed outline per diagram
+(baseline start, the curve along every element of the run, baseline end,
+for an envelope the min curve back), stepping across the member where
+the value jumps at a joint, as a continuous diagram is drawn by hand;
+and one deflected-shape polyline.  Fills stay per element.
 
 DXF R12 drawings get the same content with R12 entities (POLYLINE, TEXT,
 ACI colours, no fills).
@@ -215,6 +232,17 @@ _SYMBOL = {"axial": "N", "shear": "V", "moment": "M"}
 _SIDE = {"axial": 1.0, "shear": 1.0, "moment": -1.0}
 _SAMPLES = 17              # stations per element besides the critical points
 _DEFL_SAMPLES = 9          # stations per element for the deflected shape (a cubic-like curve)
+# Chord tolerance of the drawn curves (diagram outlines, deflected shape): a
+# sampled point is left out only while the drawn polyline stays within this
+# distance of it.  Text is sized for a plot where the label height reads as
+# about 2.5 mm; 0.04 of it is then 0.1 mm on paper, less than half the
+# result layers' 0.25 mm line weight, so the thinned line is not told apart
+# from the exact one.  Zoomed in on a single element the absolute limit
+# could be coarse next to a small diagram, so it is also never more than 1 %
+# of that element's largest ordinate (deflected shape: of its largest drawn
+# displacement): the shape stays true at any zoom.
+_CHORD_TEXT = 0.04         # chord tolerance / text height
+_CHORD_REL = 0.01          # chord tolerance / the element's largest ordinate
 _ORDINATE_TARGET = 0.115   # largest ordinate / frame size, before rounding the scale
 _DEFLECTION_TARGET = 0.05  # largest drawn displacement / frame size
 _MECHANISM_TARGET = 0.10   # largest drawn mechanism movement / frame size
@@ -866,7 +894,7 @@ class _FlatCurve:
 
     eid, x [m], y [SI] : element, position and value of each point
     who : index of the result giving the value (envelopes)
-    fixed : points that are always drawn (ends, critical points, jumps)
+    fixed : points that are always drawn (ends, both limits of each jump)
     bounds : bounds[i]:bounds[i+1] are element i's points
     role : "single", "max" or "min"
     """
@@ -910,7 +938,7 @@ def _flat_curve(st: _Stations, right: np.ndarray, left: np.ndarray, wr: np.ndarr
     y[at], who[at] = first, fw
     y[at[jump] + 1], who[at[jump] + 1] = right[jump], wr[jump]
     eid = np.repeat(st.eid, counts)
-    fixed = np.repeat(st.crit | st.first | st.last, counts)
+    fixed = np.repeat(jump | st.first | st.last, counts)
     bounds = np.searchsorted(eid, np.arange(n_el + 1))
     return _FlatCurve(eid, np.repeat(st.x, counts), y, who, fixed, bounds, role)
 
@@ -926,27 +954,106 @@ def _curves(st: _Stations, key: str, envelope: bool, n_el: int) -> list[_FlatCur
     ]
 
 
-def _drawn(c: _FlatCurve, rel_tol: np.ndarray) -> np.ndarray:
-    """Mask of the points worth drawing: the fixed points always; the points
-    between two fixed points only where that stretch is not straight (some
-    point deviates from the chord by more than ``rel_tol[element]`` of the
-    element's largest |value|).  Extremes and jumps sit on fixed points, so dropping
-    the others changes nothing a label refers to."""
-    keep = c.fixed.copy()
-    free = np.flatnonzero(~c.fixed)
-    if not len(free):
-        return keep
-    fixed = np.flatnonzero(c.fixed)
-    k = np.searchsorted(fixed, free)
-    i0, i1 = fixed[k - 1], fixed[k]
-    x0, x1, y0, y1 = c.x[i0], c.x[i1], c.y[i0], c.y[i1]
-    span = np.where(x1 > x0, x1 - x0, 1.0)
-    dev = np.abs(c.y[free] - (y0 + (y1 - y0) * (c.x[free] - x0) / span))
-    run = np.zeros(len(fixed))
-    np.maximum.at(run, k, dev)
-    tol = (rel_tol * _segment_max(c.y, c.bounds[:-1]))[c.eid[free]]
-    keep[free] = run[k] > tol
+def _thin(pts: np.ndarray, anchor: np.ndarray, tol: np.ndarray) -> np.ndarray:
+    """Mask of the points of many polylines (flat, (k, 2)) to draw so that
+    each drawn polyline stays within ``tol`` (per point) of all its points.
+
+    Douglas-Peucker, all polylines at once: every pass adds, on each stretch
+    between two kept points, the point farthest from the chord (the segment
+    between them, so a point beyond its ends counts too) when it lies
+    farther than its tolerance.  ``anchor``: points kept whatever their
+    distance; the first and last point of each polyline must be among them
+    (so a stretch never spans two polylines).  A stretch with no point
+    beyond its tolerance is done: its points leave the next passes.
+    """
+    keep = np.asarray(anchor, dtype=bool).copy()
+    kept = np.flatnonzero(keep)
+    free = np.flatnonzero(~keep)
+    while len(free):
+        k = np.searchsorted(kept, free)
+        a, b = pts[kept[k - 1]], pts[kept[k]]
+        d, q = b - a, pts[free] - a
+        dd = d[:, 0] ** 2 + d[:, 1] ** 2
+        f = np.clip((q[:, 0] * d[:, 0] + q[:, 1] * d[:, 1]) / np.where(dd > 0, dd, 1.0), 0.0, 1.0)
+        dev = np.hypot(q[:, 0] - f * d[:, 0], q[:, 1] - f * d[:, 1])      # distance to the chord segment
+        dev[dev <= tol[free]] = -1.0
+        runs = np.flatnonzero(np.r_[True, k[1:] != k[:-1]])               # free points of one stretch
+        worst = np.maximum.reduceat(dev, runs)
+        busy = worst > 0
+        if not busy.any():
+            break
+        worst = np.repeat(np.where(busy, worst, np.inf), np.diff(np.r_[runs, len(k)]))
+        new = dev >= worst
+        keep[free[new]] = True
+        kept = np.flatnonzero(keep)
+        free = free[np.repeat(busy, np.diff(np.r_[runs, len(k)])) & ~new]
     return keep
+
+
+def _chord_tolerance(h: float, scale: np.ndarray, size: float) -> np.ndarray:
+    """Per element: the chord tolerance [drawing units] of a curve whose
+    largest ordinate on that element is ``scale`` (see ``_CHORD_TEXT``)."""
+    return np.maximum(np.minimum(_CHORD_TEXT * h, _CHORD_REL * np.asarray(scale, dtype=float)), 1e-9 * size)
+
+
+def _first_per_element(idx: np.ndarray, eid: np.ndarray) -> np.ndarray:
+    """The first of the (sorted) point indices ``idx`` of each element."""
+    if not len(idx):
+        return idx
+    e = eid[idx]
+    return idx[np.r_[True, e[1:] != e[:-1]]]
+
+
+def _drawn(c: _FlatCurve, along: np.ndarray, o: np.ndarray, tol: np.ndarray, zero: float | None = None) -> np.ndarray:
+    """Mask of the curve points worth drawing.
+
+    along, o : each point's position along its element and ordinate
+        [drawing units] (the outline in the element's own axes)
+    tol : per element, the chord tolerance [drawing units]: the drawn
+        curve keeps within it of every sampled point (:func:`_thin`)
+    zero : |value| [SI] below which a value counts as zero (a single
+        result's moment, which gets zero ticks; None: not used)
+
+    Always drawn: the element's ends, both limits of each jump, the
+    element's largest and smallest ordinate where it stands out from both
+    ends by more than the tolerance (the interior extremes that get
+    labels), and with ``zero`` the points at each change of sign (the
+    near-zero points between, else the two on either side), so the drawn
+    curve crosses the member exactly where the zero tick is.
+    """
+    n = len(o)
+    anchor = c.fixed.copy()
+    if not n:
+        return anchor
+    starts, lasts = c.bounds[:-1], c.bounds[1:] - 1
+    ok = lasts >= starts
+    starts, lasts = starts[ok], lasts[ok]
+    elems = np.flatnonzero(ok)
+    hi = np.full(len(c.bounds) - 1, -np.inf)
+    lo = np.full(len(c.bounds) - 1, np.inf)
+    hi[elems] = np.maximum.reduceat(o, starts)
+    lo[elems] = np.minimum.reduceat(o, starts)
+    end_hi = np.full_like(hi, np.inf)
+    end_lo = np.full_like(lo, -np.inf)
+    end_hi[elems] = np.maximum(o[starts], o[lasts])
+    end_lo[elems] = np.minimum(o[starts], o[lasts])
+    top = _first_per_element(np.flatnonzero(o == hi[c.eid]), c.eid)
+    anchor[top[hi[c.eid[top]] - end_hi[c.eid[top]] > tol[c.eid[top]]]] = True
+    bot = _first_per_element(np.flatnonzero(o == lo[c.eid]), c.eid)
+    anchor[bot[end_lo[c.eid[bot]] - lo[c.eid[bot]] > tol[c.eid[bot]]]] = True
+    if zero is not None:
+        nz = np.flatnonzero(np.abs(c.y) > zero)
+        if len(nz) > 1:
+            a, b = nz[:-1], nz[1:]
+            cross = (c.eid[a] == c.eid[b]) & (np.sign(c.y[a]) != np.sign(c.y[b]))
+            a, b = a[cross], b[cross]
+            gap = b > a + 1                                # zero at the points between: those; else both sides
+            a, b = np.where(gap, a + 1, a), np.where(gap, b - 1, b)
+            mark = np.zeros(n + 1, dtype=int)
+            np.add.at(mark, a, 1)
+            np.add.at(mark, b + 1, -1)
+            anchor |= np.cumsum(mark)[:n] > 0
+    return _thin(np.column_stack([along, o]), anchor, tol[c.eid])
 
 
 def _element_labels(cs: list[tuple["_Curve", np.ndarray, np.ndarray, np.ndarray]], sym: str, t: np.ndarray,
@@ -1346,7 +1453,7 @@ class _Ctx:
     """What drawing one diagram needs to know about the drawing.
 
     small : elements too short (drawn length < 3 text heights) for fills and labels
-    rel_tol : per element, the straightness tolerance of the drawn outline
+    chains : runs of elements in a straight line (:func:`_straight_chains`), drawn as one outline
     keyed : an envelope is drawn: labels carry the governing result's key
     nodes : (m, 2) start and end node of each element
     """
@@ -1356,7 +1463,7 @@ class _Ctx:
     h: float
     us: float
     small: np.ndarray
-    rel_tol: np.ndarray
+    chains: list[list[int]]
     keyed: bool
     nodes: np.ndarray
     uf: UnitFactors
@@ -1384,15 +1491,18 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], lab
     transparency = RESULT_LAYER_STYLES[key].fill_transparency
     sym = _SYMBOL[key]
     # every point of every curve in drawing coordinates, at once
+    ords = [c.y * (k_si * _SIDE[key]) for c in curves]                # ordinates [drawing units]
+    omax = np.max([_segment_max(o, c.bounds[:-1]) for c, o in zip(curves, ords)], axis=0)
+    tol = _chord_tolerance(h, omax, size)
+    zero = _ZERO_LABEL * gmax if key == "moment" and curves[0].role == "single" else None   # zero ticks
     flat = []
-    for c in curves:
-        o = c.y * k_si * _SIDE[key]                                  # ordinates [drawing units]
-        base = geom.start[c.eid] + (c.x / us)[:, None] * geom.t[c.eid]
+    for c, o in zip(curves, ords):
+        along = c.x / us
+        base = geom.start[c.eid] + along[:, None] * geom.t[c.eid]
         pts = base + o[:, None] * geom.n[c.eid]
-        flat.append((o, base, pts, _drawn(c, ctx.rel_tol)))
+        flat.append((o, base, pts, _drawn(c, along, o, tol, zero)))
         if len(pts):
             extents.append((*map(float, pts.min(0)), *map(float, pts.max(0))))
-    omax = np.max([_segment_max(o, c.bounds[:-1]) for c, (o, *_r) in zip(curves, flat)], axis=0)
 
     def element_labels(i: int) -> list[_Label]:
         cs = []
@@ -1407,10 +1517,12 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], lab
 
     mine: list[_Label] = []
     tick = 0.6 * h
-    for i in np.flatnonzero(omax > 1e-9 * size):
+    shown = omax > 1e-9 * size
+    for poly in _outlines(curves, [(pts, keep) for _o, _base, pts, keep in flat], geom, shown, ctx.chains):
+        ctx.pen.polyline(poly, layer, closed=True)
+    for i in np.flatnonzero(shown & ~ctx.small):                     # long enough for fills and labels
         a, t, nrm = geom.start[i], geom.t[i], geom.n[i]
-        # one closed outline: baseline start, the curve, baseline end (for an
-        # envelope then the min curve backwards: the band of possible values)
+        # the element's own part of the outline, closed at its ends: fill and obstacle
         ring = [a[None, :]]
         for c, (_o, _base, pts, keep) in zip(curves, flat):
             sl = slice(c.bounds[i], c.bounds[i + 1])
@@ -1419,9 +1531,6 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], lab
             if len(ring) == 2:
                 ring.append(geom.end[i][None, :])
         poly = np.vstack(ring)
-        ctx.pen.polyline(poly, layer, closed=True)
-        if ctx.small[i]:
-            continue                                                 # too short for fills and labels
         lines.append(poly)
         if omax[i] >= 0.15 * h:
             ctx.pen.fill(poly, layer, transparency)
@@ -1448,6 +1557,53 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], lab
         best.must = best.force = True
     labels += mine
     return per_unit
+
+
+def _outlines(curves: list[_FlatCurve], drawn: list[tuple[np.ndarray, np.ndarray]], geom: _FrameGeom,
+              shown: np.ndarray, chains: list[list[int]]) -> list[np.ndarray]:
+    """The closed outlines of one diagram, one per run of elements in a
+    straight line (``chains``, broken where an element's diagram is zero
+    everywhere: ``shown`` False): the run's baseline start, the curve along
+    every element of the run, the baseline end, and for an envelope the min
+    curve back (the band of possible values).  Where the value jumps at a
+    joint the outline steps across it, as a continuous diagram is drawn by
+    hand.  ``drawn``: per curve, its points (drawing coordinates) and the
+    mask of those drawn.  Built for all runs at once (one sort)."""
+    n_el = len(shown)
+    if not shown.any():
+        return []
+    seq = np.concatenate([np.asarray(c, dtype=int) for c in chains])
+    cid = np.repeat(np.arange(len(chains)), [len(c) for c in chains])
+    on = shown[seq]
+    brk = np.r_[True, cid[1:] != cid[:-1]] | np.r_[True, ~on[:-1]]
+    run = (np.cumsum(brk) - 1)[on]                                  # run of each shown element, in run order
+    seq = seq[on]
+    run = np.r_[0, np.cumsum(run[1:] != run[:-1])]                  # renumbered 0..k-1
+    n_run = int(run[-1]) + 1
+    run_of = np.full(n_el, -1)
+    rank = np.zeros(n_el, dtype=int)
+    run_of[seq] = run
+    rank[seq] = np.arange(len(seq))
+    heads = seq[np.r_[True, run[1:] != run[:-1]]]
+    tails = seq[np.r_[run[1:] != run[:-1], True]]
+    zeros = np.zeros(n_run, dtype=int)
+    parts = [(geom.start[heads], np.arange(n_run), zeros, zeros, zeros),
+             (geom.end[tails], np.arange(n_run), zeros + 2, zeros, zeros)]
+    for c, (pts, keep) in zip(curves, drawn):
+        k = np.flatnonzero(keep & shown[c.eid])
+        e = c.eid[k]
+        back = -1 if c.role == "min" else 1
+        parts.append((pts[k], run_of[e], np.full(len(k), 1 if back > 0 else 3), back * rank[e], back * k))
+    pts = np.concatenate([q[0] for q in parts])
+    r, part, pos, idx = (np.concatenate([q[j] for q in parts]) for j in (1, 2, 3, 4))
+    order = np.lexsort((idx, pos, part, r))
+    pts, r = pts[order], r[order]
+    # a point on top of the one before it (a value continuous at a joint, zero at an end) is drawn once
+    step = np.abs(np.diff(pts, axis=0)).max(1) if len(pts) > 1 else np.zeros(0)
+    dup = np.r_[False, (r[1:] == r[:-1]) & (step <= 1e-9 * geom.size)]
+    pts, r = pts[~dup], r[~dup]
+    bounds = np.searchsorted(r, np.arange(n_run + 1))
+    return [pts[a:b] for a, b in zip(bounds[:-1], bounds[1:])]
 
 
 def _wrap(text: str, width: int = 0) -> list[str]:
@@ -1509,11 +1665,9 @@ def annotate_results(
 
     us = model.unit_scale
     small = geom.length_m / us < 3 * h
-    ctx = _Ctx(pen=pen, geom=geom, h=h, us=us, small=small,
-               # straightness tolerance of the drawn polylines: 0.1 % of the element's
-               # largest value, 2 % on elements too short to read (a big frame seen whole)
-               rel_tol=np.where(small, 2e-2, 1e-3), keyed=sel.envelope,
-               nodes=np.array([(m.start, m.end) for m in frame.members], dtype=int).reshape(-1, 2), uf=uf)
+    nodes = np.array([(m.start, m.end) for m in frame.members], dtype=int).reshape(-1, 2)
+    chains = _straight_chains(nodes[:, 0], nodes[:, 1], geom.t)
+    ctx = _Ctx(pen=pen, geom=geom, h=h, us=us, small=small, chains=chains, keyed=sel.envelope, nodes=nodes, uf=uf)
     legend: list[tuple[str, str]] = []
     boxes: list[Box] = [geom.bounds]                   # of everything drawn, for the legend's place
     labels: dict[str, list[_Label]] = {key: [] for key in (*_DIAGRAMS, "reactions")}
@@ -1530,7 +1684,7 @@ def annotate_results(
                                 f"direction, values signed (+X, +Y, moment counter-clockwise)"))
 
     # 4. deflected shape
-    bent = _draw_deflected(pen, model, geom, sel, names["deflected"], h, summary, legend)
+    bent = _draw_deflected(pen, model, geom, sel, names["deflected"], h, summary, legend, chains=chains)
 
     # 5. labels, layer by layer (each result layer reads on its own), most important first
     members = shapely.linestrings(np.stack([geom.start, geom.end], axis=1)) if n_el else np.zeros(0, dtype=object)
@@ -1672,7 +1826,8 @@ def _draw_reactions(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
 
 
 def _draw_deflected(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: str, h: float,
-                    summary: DrawingSummary, legend: list[tuple[str, str]]) -> np.ndarray | None:
+                    summary: DrawingSummary, legend: list[tuple[str, str]],
+                    chains: list[list[int]] | None = None) -> np.ndarray | None:
     """Exaggerated deflected shape of the result (or, for an envelope, of the
     result with the largest nodal displacement).
 
@@ -1699,22 +1854,24 @@ def _draw_deflected(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
     node_d = np.asarray(res.displacements, dtype=float)[:, :2] / us             # drawing units
     si = np.array([m.start for m in frame.members])
     ei = np.array([m.end for m in frame.members])
-    shapes: list[tuple[np.ndarray, np.ndarray]] = []                           # (base points, displacements)
     chords = 0
     if callable(getattr(res.members, "sample", None)):
         pos = {mid: j for j, mid in enumerate(res.members)}
         rows = np.repeat(np.array([pos[m.id] for m in frame.members]), _DEFL_SAMPLES)
         x = np.outer(geom.length_m, unit).ravel()
-        u = np.asarray(res.members.sample("u", rows, x), float).reshape(n_el, -1)
-        v = np.asarray(res.members.sample("v", rows, x), float).reshape(n_el, -1)
-        for i in range(n_el):
-            disp = (np.outer(u[i], geom.t[i]) + np.outer(v[i], geom.n[i])) / us
-            shapes.append((geom.start[i] + np.outer(geom.length_m[i] * unit / us, geom.t[i]), disp))
+        u = np.asarray(res.members.sample("u", rows, x), float).reshape(n_el, -1, 1)
+        v = np.asarray(res.members.sample("v", rows, x), float).reshape(n_el, -1, 1)
+        t, nrm = geom.t[:, None, :], geom.n[:, None, :]
+        base = (geom.start[:, None, :] + np.outer(geom.length_m / us, unit)[:, :, None] * t).reshape(-1, 2)
+        disp = ((u * t + v * nrm) / us).reshape(-1, 2)
+        bounds = np.arange(n_el + 1) * _DEFL_SAMPLES
     else:
         small = geom.length_m / us < 3 * h
+        bases, disps = [], []                                                    # per element
         for i, m in enumerate(frame.members):
             if small[i]:
-                shapes.append((np.vstack([geom.start[i], geom.end[i]]), node_d[[si[i], ei[i]]]))
+                bases.append(np.vstack([geom.start[i], geom.end[i]]))
+                disps.append(node_d[[si[i], ei[i]]])
                 chords += 1
                 continue
             d = res.members[m.id].deflection(geom.length_m[i] * unit)
@@ -1722,9 +1879,12 @@ def _draw_deflected(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
                 legend.append(("deflected", "deflected shape: not available (member sections are needed)"))
                 return
             u, v = (np.broadcast_to(np.asarray(q, float), unit.shape) for q in d)
-            disp = (np.outer(u, geom.t[i]) + np.outer(v, geom.n[i])) / us
-            shapes.append((geom.start[i] + np.outer(geom.length_m[i] * unit / us, geom.t[i]), disp))
-    dmax = max(float(np.max(np.hypot(dd[:, 0], dd[:, 1]))) for _b, dd in shapes)
+            disps.append((np.outer(u, geom.t[i]) + np.outer(v, geom.n[i])) / us)
+            bases.append(geom.start[i] + np.outer(geom.length_m[i] * unit / us, geom.t[i]))
+        base, disp = np.concatenate(bases), np.concatenate(disps)
+        bounds = np.r_[0, np.cumsum([len(q) for q in bases])]
+    mag = np.hypot(disp[:, 0], disp[:, 1])
+    dmax = float(mag.max())
     table = getattr(res, "member_table", None)
     if table is not None:
         exact = np.asarray(table().get("deflection_max", []), dtype=float) / us
@@ -1734,16 +1894,64 @@ def _draw_deflected(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
         legend.append(("deflected", "deflected shape: no displacement"))
         return
     factor = _nice_down(_DEFLECTION_TARGET * geom.size / dmax)
-    drawn = []
-    for base, disp in shapes:
-        drawn.append(base + factor * disp)
-        pen.polyline(drawn[-1], layer, dashed=True)
+    # one polyline per straight chain of elements (a beam line split at every
+    # column, a column line split at every floor): the displacement is
+    # continuous at a node, so the chain's curve is one line and its dashes
+    # run on through the joints.  Thinned to the chord tolerance, with 1 % of
+    # the element's largest drawn displacement as the relative part.
+    moved = base + factor * disp
+    tol = _chord_tolerance(h, factor * np.maximum.reduceat(mag, bounds[:-1]), geom.size)
+    chains = chains if chains is not None else _straight_chains(si, ei, geom.t)
+    seq = np.concatenate([np.asarray(c, dtype=int) for c in chains])
+    head = np.zeros(len(seq), dtype=bool)
+    head[np.cumsum([0] + [len(c) for c in chains[:-1]])] = True
+    first = bounds[seq] + ~head                            # a joint is drawn as the previous element's end
+    count = bounds[seq + 1] - first
+    at = np.cumsum(count) - count
+    idx = np.repeat(first - at, count) + np.arange(int(count.sum()))
+    pts = moved[idx]
+    lengths = np.add.reduceat(count, np.flatnonzero(head))
+    ends = np.cumsum(lengths)
+    anchor = np.zeros(len(pts), dtype=bool)
+    anchor[ends - 1] = True
+    anchor[ends - lengths] = True
+    keep = _thin(pts, anchor, np.repeat(tol[seq], count))
+    for a, b in zip(ends - lengths, ends):
+        pen.polyline(pts[a:b][keep[a:b]], layer, dashed=True)
     summary.deflection_factor = factor
     summary.deflection_result = res.name
     which = f" of {res.name}" if sel.envelope or len(sel.results) > 1 else ""
     note = "; short elements drawn as chords" if chords else ""
     legend.append(("deflected", f"deflected shape{which}: displacements exaggerated x {factor:g}{note}"))
-    return np.vstack(drawn)
+    return pts
+
+
+def _straight_chains(si: np.ndarray, ei: np.ndarray, t: np.ndarray) -> list[list[int]]:
+    """Elements (indices) in runs that continue each other in a straight
+    line: element j follows i when it starts at i's end node in the same
+    direction.  Every element is in exactly one run, in order along it."""
+    n = len(si)
+    by_start: dict[int, list[int]] = {}
+    for j in range(n):
+        by_start.setdefault(int(si[j]), []).append(j)
+    nxt = np.full(n, -1)
+    has_prev = np.zeros(n, dtype=bool)
+    for i in range(n):
+        for j in by_start.get(int(ei[i]), ()):
+            if j != i and not has_prev[j] and float(t[i] @ t[j]) > 1.0 - 1e-9:
+                nxt[i], has_prev[j] = j, True
+                break
+    chains, seen = [], np.zeros(n, dtype=bool)
+    for i in [*np.flatnonzero(~has_prev), *range(n)]:    # heads first; then anything left (a loop cannot be straight)
+        if seen[i]:
+            continue
+        chain = []
+        while i >= 0 and not seen[i]:
+            chain.append(int(i))
+            seen[i] = True
+            i = nxt[i]
+        chains.append(chain)
+    return chains
 
 
 def _notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list[str]) -> list[str]:

@@ -692,3 +692,135 @@ def test_batch_sampling_draws_the_same_as_member_by_member(tmp_path):
         return txt, lines
 
     assert drawn(slow) == drawn(fast)
+
+
+# -- drawn curves: thinning and straight runs ------------------------------------------------
+
+
+def _dp_reference(p: np.ndarray, tol: np.ndarray, a: int, b: int, keep: np.ndarray) -> None:
+    """Douglas & Peucker (1973), recursive, one polyline (from memory): keep
+    the point farthest from the chord (here the segment) when it is beyond
+    the tolerance, recurse on both halves."""
+    if b <= a + 1:
+        return
+    line = shapely.LineString([p[a], p[b]]) if np.any(p[a] != p[b]) else shapely.Point(p[a])
+    dev = shapely.distance(line, shapely.points(p[a + 1:b]))
+    j = int(np.argmax(dev))
+    if dev[j] > tol[a + 1 + j]:
+        keep[a + 1 + j] = True
+        _dp_reference(p, tol, a, a + 1 + j, keep)
+        _dp_reference(p, tol, a + 1 + j, b, keep)
+
+
+@hsettings(max_examples=30, deadline=None)
+@given(st.lists(st.tuples(st.integers(2, 30), st.floats(0.1, 30.0), st.floats(1e-4, 0.2), st.integers(0, 10**6)),
+                min_size=1, max_size=12))
+def test_thinning_is_douglas_peucker_on_every_polyline_at_once(spec):
+    pts, anchors, tols, ref = [], [], [], []
+    for n, freq, tol, seed in spec:
+        rng = np.random.default_rng(seed)
+        x = np.sort(rng.random(n)) * 5
+        p = np.column_stack([x, np.sin(freq * x) + 0.1 * rng.standard_normal(n)])
+        a = np.zeros(n, bool)
+        a[[0, -1]] = True
+        a[rng.random(n) < 0.1] = True                       # a few fixed points inside
+        t = np.full(n, tol)
+        k = a.copy()
+        fixed = np.flatnonzero(a)
+        for i0, i1 in zip(fixed[:-1], fixed[1:]):
+            _dp_reference(p, t, int(i0), int(i1), k)
+        pts.append(p), anchors.append(a), tols.append(t), ref.append(k)
+    keep = writer._thin(np.concatenate(pts), np.concatenate(anchors), np.concatenate(tols))
+    assert np.array_equal(keep, np.concatenate(ref))
+    # and so every left-out point lies within its tolerance of the drawn line (the DP guarantee)
+    at = 0
+    for p, t in zip(pts, tols):
+        k = keep[at:at + len(p)]
+        at += len(p)
+        drawn = shapely.LineString(p[k])
+        assert all(drawn.distance(shapely.Point(q)) <= tt * (1 + 1e-9) + 1e-12 for q, tt in zip(p[~k], t[~k]))
+
+
+def test_straight_runs_follow_member_lines():
+    # a two-storey column line (split at the floor) and a floor beam split at a column
+    xy = np.array([(0, 0), (0, 3), (0, 6), (5, 3), (10, 3)], float)
+    si, ei = np.array([0, 1, 1, 3]), np.array([1, 2, 3, 4])
+    d = xy[ei] - xy[si]
+    t = d / np.hypot(d[:, 0], d[:, 1])[:, None]
+    assert writer._straight_chains(si, ei, t) == [[0, 1], [2, 3]]
+
+
+def _two_span_beam(tmp_path: Path, L: float, w: float):
+    """A beam drawn as one line over three supports (the analysis splits it at the middle one)."""
+    doc = B.new_drawing("m")
+    msp = doc.modelspace()
+    line = B.add_member(msp, (0, 0), (2 * L, 0))
+    src = B.save(doc, tmp_path / "two-span.dxf")
+    f = Frame()
+    n = [f.add_node(x, 0.0) for x in (0.0, L, 2 * L)]
+    h = line.dxf.handle
+    for k, (i, j) in enumerate(((0, 1), (1, 2)), start=1):
+        m = f.add_member(n[i], n[j], SEC, id=f"{h}-{k}", layer="FRAME", handle=h)
+        f.add_load(DistributedLoad(m.id, q1=(0.0, -w), case="D"))
+    f.add_support(n[0], "pin")
+    f.add_support(n[1], "roller")
+    f.add_support(n[2], "roller")
+    return src, f
+
+
+def test_continuous_beam_is_one_thinned_outline_true_to_the_curve(tmp_path):
+    L, w = 6.0, 10e3
+    src, f = _two_span_beam(tmp_path, L, w)
+    doc = ezdxf.readfile(src)
+    summary = writer.annotate_results(doc, model_for(f, src), check(f), list(solve(f).values()), show="D",
+                                      force_unit="kN", length_unit="m")
+    msp = doc.modelspace()
+    per_unit = summary.scales["moment"]                   # kN*m per drawing unit
+    outlines = [np.asarray(e.get_points("xy"))[:, :2] for e in msp.query('LWPOLYLINE[layer=="RESULT-MOMENT"]')]
+    runs = [p for p in outlines if tuple(p[0]) == (0.0, 0.0)]
+    # one closed outline over both spans (the legend swatch is the other polyline on the layer)
+    assert len(runs) == 1 and len(outlines) == 2
+    run = runs[0]
+    assert run[:, 0].max() == pytest.approx(2 * L, abs=1e-12)
+    # fills stay per element
+    assert len(msp.query('HATCH[layer=="RESULT-MOMENT"]')) == 2
+    # AISC Manual Table 3-23 Case 29, two equal spans with uniform load (from memory): M = -wl^2/8 over the
+    # middle support (hogging: drawn above, the tension side), +9wl^2/128 at 3l/8 from each end support;
+    # both are drawn points (the interior extremes are always kept)
+    k = 1e-3 / per_unit                                  # drawing units per N*m
+    def has_vertex(x, y):
+        return np.any(np.hypot(run[:, 0] - x, run[:, 1] - y) <= 1e-9 * L)
+    assert has_vertex(L, w * L**2 / 8 * k)
+    assert has_vertex(3 * L / 8, -9 * w * L**2 / 128 * k) and has_vertex(2 * L - 3 * L / 8, -9 * w * L**2 / 128 * k)
+    # thinned: the shear is linear along each span (same case: V = 3wl/8 - wx, from memory), so its outline is
+    # the run's two baseline ends and each span's two end values, however many stations were sampled
+    shear = [np.asarray(e.get_points("xy")) for e in msp.query('LWPOLYLINE[layer=="RESULT-SHEAR"]')
+             if tuple(e.get_points("xy")[0][:2]) == (0.0, 0.0)]
+    assert len(shear) == 1 and len(shear[0]) == 6
+    # every point of the exact diagram lies within the chord tolerance of the drawn line, plus the error of the
+    # 16 sampling intervals: a chord of length d under a parabola of curvature w misses it by w d^2 / 8 (from memory)
+    omax = w * L**2 / 8 * k
+    tol = min(writer._CHORD_TEXT * summary.text_height, writer._CHORD_REL * omax)
+    x = np.linspace(0.0, L, 401)
+    exact = 3 * w * L * x / 8 - w * x**2 / 2             # same case: R = 3wl/8 at the end support
+    line = shapely.LineString(run)
+    pts = np.column_stack([np.r_[x, 2 * L - x], np.r_[-exact, -exact] * k])
+    dist = shapely.distance(line, shapely.points(pts))
+    assert dist.max() <= tol + w * (L / 16) ** 2 / 8 * k
+    # the outline crosses the member exactly at each contraflexure tick: same case, M = 0 at 3l/4 from the ends
+    ticks = sorted(e.dxf.start[0] for e in msp.query('LINE[layer=="RESULT-MOMENT"]')
+                   if e.dxf.start[0] == pytest.approx(e.dxf.end[0], abs=1e-12))
+    assert ticks == pytest.approx([3 * L / 4, 2 * L - 3 * L / 4], rel=1e-9)
+    y = run[:, 1]
+    nz = np.flatnonzero(np.abs(y) > 1e-9 * omax)
+    cross = []
+    for a, b in zip(nz[:-1], nz[1:]):
+        if y[a] * y[b] < 0:                                # through zero between two vertices, or at the ones between
+            x0 = run[a, 0] - y[a] * (run[b, 0] - run[a, 0]) / (y[b] - y[a]) if b == a + 1 else run[a + 1:b, 0].mean()
+            cross.append(x0)
+    assert sorted(cross) == pytest.approx(ticks, rel=1e-9)
+    # the deflected shape: one polyline over both spans, from support to support
+    bent = [np.asarray(e.get_points("xy"))[:, :2] for e in msp.query('LWPOLYLINE[layer=="RESULT-DEFLECTED"]')
+            if not e.closed]
+    assert len(bent) == 1
+    assert bent[0][0] == pytest.approx((0.0, 0.0), abs=1e-9) and bent[0][-1] == pytest.approx((2 * L, 0.0), abs=1e-9)
