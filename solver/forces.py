@@ -27,7 +27,7 @@ Units: whatever the frame uses (N, m, N*m, N/m in the DXF pipeline).
 """
 from __future__ import annotations
 
-from collections.abc import Iterator, Mapping
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from functools import cached_property, lru_cache
 from math import comb
@@ -1210,26 +1210,41 @@ class MemberResults(Mapping):
         -------
         (k,) values, exactly as :class:`MemberResult` gives them.
         """
+        return self.sample_many((which,), rows, x, side)[which]
+
+    def sample_many(self, which: Sequence[str], rows, x, side: str = "right") -> dict[str, np.ndarray]:
+        """:meth:`sample` of several quantities at the same points, sharing
+        the work of finding each point's piece; returns ``{which: values}``."""
         if side not in ("right", "left"):
             raise ValueError("side must be 'right' or 'left'")
-        col = {"N": 0, "V": 1, "M": 2}.get(which)
-        if col is None and which not in ("u", "v", "th"):
-            raise KeyError(f"unknown quantity {which!r}; expected N, V, M, u, v or th")
-        if col is None and not self.has_deflection:
-            raise ValueError("no stiffness: deflections are not available")
+        cols = {}
+        for w in which:
+            col = {"N": 0, "V": 1, "M": 2}.get(w)
+            if col is None and w not in ("u", "v", "th"):
+                raise KeyError(f"unknown quantity {w!r}; expected N, V, M, u, v or th")
+            if col is None and not self.has_deflection:
+                raise ValueError("no stiffness: deflections are not available")
+            cols[w] = col
         rows_a, xa, shape = self._query(rows, x)
         pc = self._pieces()
         cnt = pc.count[rows_a]
-        k = self._locate(rows_a, xa, side if col is not None else "right")
-        p = pc.start[rows_a] + np.clip(k, 0, cnt - 1)
-        out = _polyval(pc._coef(which)[p], xa - pc.x0[p])
-        if col is not None:
-            before, after = k < 0, k >= cnt
-            if before.any():
-                out[before] = pc.left0[rows_a[before], col]
-            if after.any():
-                out[after] = pc.rightL[rows_a[after], col]
-        return out.reshape(shape)
+        located: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+        out: dict[str, np.ndarray] = {}
+        for w, col in cols.items():
+            how = side if col is not None else "right"      # displacements are continuous
+            if how not in located:
+                k = self._locate(rows_a, xa, how)
+                located[how] = (k, pc.start[rows_a] + np.clip(k, 0, cnt - 1))
+            k, p = located[how]
+            vals = _polyval(pc._coef(w)[p], xa - pc.x0[p])
+            if col is not None:
+                before, after = k < 0, k >= cnt
+                if before.any():
+                    vals[before] = pc.left0[rows_a[before], col]
+                if after.any():
+                    vals[after] = pc.rightL[rows_a[after], col]
+            out[w] = vals.reshape(shape)
+        return out
 
     def critical_points(self) -> tuple[np.ndarray, np.ndarray]:
         """(rows, x) of every member's critical points, sorted by row then
