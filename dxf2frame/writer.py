@@ -753,6 +753,29 @@ def _call(mr, name: str, xs: np.ndarray, left: bool = False) -> np.ndarray:
 _WHICH = {"axial": "N", "shear": "V", "moment": "M"}
 
 
+class _Bounds:
+    """Per station, the largest and smallest value over results added one
+    at a time, and which result gave each (ties: the earlier result), so an
+    envelope never holds all its results' samples at once."""
+
+    def __init__(self, first: np.ndarray) -> None:
+        self.hi, self.lo = first.astype(float), first.astype(float)
+        self.hi_at = np.zeros(len(first), int)
+        self.lo_at = np.zeros(len(first), int)
+
+    def add(self, k: int, v: np.ndarray) -> None:
+        up, dn = v > self.hi, v < self.lo
+        self.hi[up], self.hi_at[up] = v[up], k
+        self.lo[dn], self.lo_at[dn] = v[dn], k
+
+    @classmethod
+    def of(cls, rows: Sequence[np.ndarray]) -> "_Bounds":
+        b = cls(np.asarray(rows[0], dtype=float))
+        for k, v in enumerate(rows[1:], start=1):
+            b.add(k, np.asarray(v, dtype=float))
+        return b
+
+
 @dataclass
 class _Stations:
     """Sample stations of every element, flat: element-major, x ascending.
@@ -761,8 +784,8 @@ class _Stations:
     crit : an interior critical point (load break, zero of V or M): a jump
         may sit there and the point is always drawn
     first, last : the element's end stations
-    values : diagram key -> (right, left), each (k results, n stations) [SI],
-        the values just right and just left of each station
+    values : diagram key -> (right, left), the :class:`_Bounds` over the
+        results [SI] of the values just right and just left of each station
     """
 
     eid: np.ndarray
@@ -770,7 +793,7 @@ class _Stations:
     crit: np.ndarray
     first: np.ndarray
     last: np.ndarray
-    values: dict[str, tuple[np.ndarray, np.ndarray]]
+    values: dict[str, tuple[_Bounds, _Bounds]]
 
     @property
     def starts(self) -> np.ndarray:
@@ -831,7 +854,7 @@ def _sample_member_by_member(results: Sequence, frame, lengths: np.ndarray) -> _
                 if li.any():
                     lv[li] = _call(mr, key, xi[li], left=True)
                 left[k, sl] = lv
-        values[key] = (right, left)
+        values[key] = (_Bounds.of(right), _Bounds.of(left))
     return _Stations(eid, x, crit, first, last, values)
 
 
@@ -871,14 +894,25 @@ def _sample_batch(results: Sequence, frame, lengths: np.ndarray) -> _Stations:
     eid, x, crit, first, last = _merge_stations(np.concatenate(eids), np.concatenate(xs),
                                                 np.concatenate(iscs), lengths)
     lmask = crit | last
-    values = {}
-    for key in _DIAGRAMS:
-        right = np.vstack([np.asarray(r.members.sample(_WHICH[key], lay[eid], x), dtype=float)
-                           for r, lay in zip(results, layouts)])
-        left = right.copy()
-        for k, (r, lay) in enumerate(zip(results, layouts)):
-            left[k, lmask] = r.members.sample(_WHICH[key], lay[eid[lmask]], x[lmask], side="left")
-        values[key] = (right, left)
+    which = [_WHICH[key] for key in _DIAGRAMS]
+    values: dict[str, tuple[_Bounds, _Bounds]] = {}
+    for k, (r, lay) in enumerate(zip(results, layouts)):
+        many = getattr(r.members, "sample_many", None)
+        if many is not None:
+            right = many(which, lay[eid], x)
+            at_left = many(which, lay[eid[lmask]], x[lmask], side="left")
+        else:
+            right = {w: r.members.sample(w, lay[eid], x) for w in which}
+            at_left = {w: r.members.sample(w, lay[eid[lmask]], x[lmask], side="left") for w in which}
+        for key, w in zip(_DIAGRAMS, which):
+            rv = np.asarray(right[w], dtype=float)
+            lv = rv.copy()
+            lv[lmask] = at_left[w]
+            if k == 0:
+                values[key] = (_Bounds(rv), _Bounds(lv))
+            else:
+                values[key][0].add(k, rv)
+                values[key][1].add(k, lv)
     return _Stations(eid, x, crit, first, last, values)
 
 
@@ -946,11 +980,11 @@ def _flat_curve(st: _Stations, right: np.ndarray, left: np.ndarray, wr: np.ndarr
 def _curves(st: _Stations, key: str, envelope: bool, n_el: int) -> list[_FlatCurve]:
     right, left = st.values[key]
     if not envelope:
-        z = np.zeros(right.shape[1], int)
-        return [_flat_curve(st, right[0], left[0], z, z, "single", n_el)]
+        z = np.zeros(len(right.hi), int)
+        return [_flat_curve(st, right.hi, left.hi, z, z, "single", n_el)]
     return [
-        _flat_curve(st, right.max(0), left.max(0), right.argmax(0), left.argmax(0), "max", n_el),
-        _flat_curve(st, right.min(0), left.min(0), right.argmin(0), left.argmin(0), "min", n_el),
+        _flat_curve(st, right.hi, left.hi, right.hi_at, left.hi_at, "max", n_el),
+        _flat_curve(st, right.lo, left.lo, right.lo_at, left.lo_at, "min", n_el),
     ]
 
 
