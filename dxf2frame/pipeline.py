@@ -457,12 +457,9 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
         outcome.units = (force_u, length_u)
         outcome.determinacy, outcome.degree = det.status, det.degree
 
-        t0 = time.perf_counter()
-        rep = report_mod.assemble_report(
-            model, det, analysis.results, force_unit=force_u, length_unit=length_u,
-            probes=req.probes, deflection_limits=settings.deflection_limits(),
-        )
-        analysis.timings["report"] = time.perf_counter() - t0
+        if req.probes and analysis.results:
+            # a probe off every member is bad input: say so before anything is written
+            report_mod.locate_points(model, req.probes)
         final = paths["drawing"].parent
         created += _make_folders(final)
         # everything is written into a staging folder first and moved into
@@ -482,10 +479,16 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings,
                                                document=model.document)
             analysis.timings["write"] = time.perf_counter() - t0
+            # the report after the drawing: the writer's working arrays are
+            # gone by then, so the two never hold memory at the same time
             t0 = time.perf_counter()
+            rep = report_mod.assemble_report(
+                model, det, analysis.results, force_unit=force_u, length_unit=length_u,
+                probes=req.probes, deflection_limits=settings.deflection_limits(),
+            )
             with_csv = req.csv and analysis.stable
             report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
-            analysis.timings["report"] += time.perf_counter() - t0
+            analysis.timings["report"] = time.perf_counter() - t0
             written = ["drawing", "report"] + (["csv"] if with_csv else [])
             if req.png:
                 t0 = time.perf_counter()

@@ -65,7 +65,7 @@ import numpy as np
 from . import CAUTION, __version__
 from .atomic import atomic_open
 from .errors import DrawingError
-from .report_table import Table, as_written, round12_list
+from .report_table import DictColumn, Table, as_written, round12_list
 from .units import length_unit_scale, unit_factor
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
@@ -402,6 +402,9 @@ def _member_columns(res, frame: "Frame", gx: _GroupIndex, uf: UnitFactors, stati
     length / ``deflection_max``."""
     tbl = element_table(res, frame)
     tbl["deflection_rel_max"] = _relative_table(res, frame, gx)
+    release = getattr(res.members, "release", None)
+    if release is not None:
+        release()                 # the tables are kept; large frames hold one result's pieces at a time
     g = _group_values(tbl, gx)
     F, L, M = uf.force, uf.length, uf.moment
     scale = {"n_min": F, "n_max": F, "v_min": F, "v_max": F, "m_min": M, "m_max": M,
@@ -565,7 +568,7 @@ def _envelope(name: str, family: str, names: list[str], cols: list[dict[str, np.
         ("deflection_ratio", np.where(qhave, qstack[qw, j], np.nan)),
         ("deflection_ratio_by", [names[k] if h else None for k, h in zip(qw.tolist(), qhave.tolist())]),
         ("deflection_limit", static.limit_array()),
-        ("governing", [dict(zip(_QUANTITIES, g)) for g in zip(*(by[q] for q in _QUANTITIES))]),
+        ("governing", DictColumn({q: by[q] for q in _QUANTITIES})),
     ]
     members = Table(heads, columns)
     reac: dict[int, dict] = {}
@@ -742,12 +745,11 @@ def _is_table(v: Any) -> bool:
     return isinstance(v, list) and bool(v) and all(isinstance(e, dict) for e in v)
 
 
-def _json_chunks(report: Mapping, done: Callable[[Table], None] | None = None) -> Iterator[str]:
-    """The report as JSON text, in pieces (see :func:`dumps_report`).
-    ``done(table)`` is called after each member table has been written
-    (default: release its texts)."""
+def _json_chunks(report: Mapping, on_block: Callable[[Table, Table], None] | None = None) -> Iterator[str]:
+    """The report as JSON text, in pieces (see :func:`dumps_report`).  A
+    member table is written a block of rows at a time; ``on_block(table,
+    block)`` is called after each block has been written."""
     enc = json.JSONEncoder(ensure_ascii=False, allow_nan=False, default=_default).encode
-    done = done or Table.release
 
     def block(obj: Mapping, pad: str) -> Iterator[str]:
         items = list(obj.items())
@@ -760,8 +762,12 @@ def _json_chunks(report: Mapping, done: Callable[[Table], None] | None = None) -
             yield head + "[\n"
             inner = pad + "  "
             if isinstance(v, Table):
-                yield inner + (",\n" + inner).join(v.json_lines()) + "\n"
-                done(v)
+                sep = ",\n" + inner
+                for i, part in enumerate(v.chunks()):
+                    yield (sep if i else inner) + sep.join(part.json_lines())
+                    if on_block is not None:
+                        on_block(v, part)
+                yield "\n"
             elif any(_is_table(x) for x in v[0].values()):   # rows of one list are alike
                 for m, e in enumerate(v):
                     yield inner + "{\n"
@@ -804,28 +810,29 @@ def write_json(report: Mapping, path: Path | str, csv_path: Path | str | None = 
         w = csv.writer(fc)
         w.writerow(CSV_COLUMNS)
 
-        def done(table: Table) -> None:
+        def on_block(table: Table, part: Table) -> None:
             res = owner.get(id(table))
             if res is not None:
-                _csv_rows(w, res)
-            table.release()
+                _csv_rows(w, res, part)
 
-        for chunk in _json_chunks(report, done):
+        for chunk in _json_chunks(report, on_block):
             fh.write(chunk)
         for res in report.get("results", []):        # results written as plain lists
             if not isinstance(res.get("members"), Table):
                 _csv_rows(w, res)
 
 
-def _csv_rows(w: Any, res: Mapping) -> None:
-    """The CSV rows of one result (a plain list of member dicts or a :class:`Table`)."""
+def _csv_rows(w: Any, res: Mapping, part: Table | None = None) -> None:
+    """The CSV rows of one result (a plain list of member dicts or a
+    :class:`Table`), or of the block ``part`` of its table."""
     members = res.get("members", [])
     if isinstance(members, Table):
-        n = len(members)
-        cols = [[res["name"]] * n, [res["kind"]] * n]
-        cols += [members.csv_cells(k) for k in ("id", "layer", "handle", "length")]
-        cols += [members.csv_cells(k) for k in CSV_COLUMNS[6:]]
-        w.writerows(zip(*cols))   # the csv module writes None as an empty cell
+        for blk in ([part] if part is not None else members.chunks()):
+            n = len(blk)
+            cols = [[res["name"]] * n, [res["kind"]] * n]
+            cols += [blk.csv_cells(k) for k in ("id", "layer", "handle", "length")]
+            cols += [blk.csv_cells(k) for k in CSV_COLUMNS[6:]]
+            w.writerows(zip(*cols))   # the csv module writes None as an empty cell
         return
     for m in members:
         row = [res["name"], res["kind"], m["id"], m["layer"], m["handle"], m["length"]]
@@ -844,5 +851,3 @@ def write_csv(report: Mapping, path: Path | str) -> None:
         w.writerow(CSV_COLUMNS)
         for res in report.get("results", []):
             _csv_rows(w, res)
-            if isinstance(res.get("members"), Table):
-                res["members"].release()

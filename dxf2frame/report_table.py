@@ -27,7 +27,7 @@ from typing import Any, Iterator
 
 import numpy as np
 
-__all__ = ["Table", "as_written", "number_texts", "round12", "round12_list"]
+__all__ = ["DictColumn", "Table", "as_written", "number_texts", "round12", "round12_list"]
 
 _ENC = json.JSONEncoder(ensure_ascii=False, allow_nan=False).encode
 _CONST = {None: "null", True: "true", False: "false"}
@@ -101,6 +101,25 @@ def _python_values(values: np.ndarray | Sequence) -> list:
     if isinstance(values, np.ndarray):
         return [None if t == "null" else float(t) for t in number_texts(values)]
     return list(values)
+
+
+class DictColumn(Sequence):
+    """A column whose value in each row is a dict built on demand from
+    parallel lists: ``DictColumn({"a": [1, 2], "b": [3, 4]})[1] == {"a": 2, "b": 4}``
+    (an envelope's ``governing`` entry per member, without a dict per row
+    in memory)."""
+
+    def __init__(self, parts: dict[str, Sequence]) -> None:
+        self.parts = parts
+        self._n = len(next(iter(parts.values()))) if parts else 0
+
+    def __len__(self) -> int:
+        return self._n
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return DictColumn({k: v[i] for k, v in self.parts.items()})
+        return {k: v[i] for k, v in self.parts.items()}
 
 
 class Table(Sequence):
@@ -180,15 +199,22 @@ class Table(Sequence):
             self._head_texts = [_ENC(h)[1:-1] for h in self.heads]
         return self._head_texts
 
+    def chunks(self, size: int = 4096) -> Iterator["Table"]:
+        """The rows in consecutive blocks of at most ``size`` (tables of
+        their own, sharing this table's arrays), so a writer holds the text
+        of one block at a time."""
+        texts = self.head_texts()
+        for a in range(0, len(self), size):
+            b = min(a + size, len(self))
+            yield Table(self.heads[a:b], [(k, v[a:b]) for k, v in self.columns], head_texts=texts[a:b])
+
     def texts(self) -> list[list[str]]:
-        """JSON text of every value, per column; kept until :meth:`release`."""
+        """JSON text of every value, per column (kept: the JSON and the CSV
+        of a block are written from the same texts; write a large table
+        block by block, see :meth:`chunks`)."""
         if self._texts is None:
             self._texts = [_json_texts(v) for _, v in self.columns]
         return self._texts
-
-    def release(self) -> None:
-        """Drop the texts kept by :meth:`texts`."""
-        self._texts = None
 
     def json_lines(self) -> list[str]:
         """Each row as one line of JSON, as ``json.dumps(row, ensure_ascii=False)``

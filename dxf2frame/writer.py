@@ -760,8 +760,8 @@ class _Bounds:
 
     def __init__(self, first: np.ndarray) -> None:
         self.hi, self.lo = first.astype(float), first.astype(float)
-        self.hi_at = np.zeros(len(first), int)
-        self.lo_at = np.zeros(len(first), int)
+        self.hi_at = np.zeros(len(first), np.int32)
+        self.lo_at = np.zeros(len(first), np.int32)
 
     def add(self, k: int, v: np.ndarray) -> None:
         up, dn = v > self.hi, v < self.lo
@@ -881,6 +881,9 @@ def _sample_batch(results: Sequence, frame, lengths: np.ndarray) -> _Stations:
         inv = np.full(len(pos), -1, dtype=int)
         inv[to_layout] = np.arange(n_el)
         rows, x = r.members.critical_points()
+        release = getattr(r.members, "release", None)
+        if release is not None:
+            release()
         rows = inv[np.asarray(rows, dtype=int)]
         ok = rows >= 0
         rows, x = rows[ok], np.asarray(x, dtype=float)[ok]
@@ -913,6 +916,10 @@ def _sample_batch(results: Sequence, frame, lengths: np.ndarray) -> _Stations:
             else:
                 values[key][0].add(k, rv)
                 values[key][1].add(k, lv)
+        del right, at_left
+        release = getattr(r.members, "release", None)
+        if release is not None:
+            release()                 # one result's pieces at a time on large frames
     return _Stations(eid, x, crit, first, last, values)
 
 
@@ -978,7 +985,9 @@ def _flat_curve(st: _Stations, right: np.ndarray, left: np.ndarray, wr: np.ndarr
 
 
 def _curves(st: _Stations, key: str, envelope: bool, n_el: int) -> list[_FlatCurve]:
-    right, left = st.values[key]
+    """The curves of one diagram; the stations' values of ``key`` are used
+    up (dropped from ``st``) to keep memory down on large frames."""
+    right, left = st.values.pop(key)
     if not envelope:
         z = np.zeros(len(right.hi), int)
         return [_flat_curve(st, right.hi, left.hi, z, z, "single", n_el)]
@@ -1711,6 +1720,8 @@ def annotate_results(
     for key in _DIAGRAMS:
         curves = _curves(stations, key, sel.envelope, n_el) if stations is not None else []
         summary.scales[key] = _draw_diagram(ctx, key, names[key], curves, labels[key], legend, lines[key], boxes)
+        del curves                                     # one diagram's arrays at a time (large frames)
+    stations = None
 
     # 3. reactions
     arrows = _draw_reactions(pen, model, geom, sel, names["reactions"], uf, h, labels["reactions"])

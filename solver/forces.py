@@ -1079,6 +1079,16 @@ class MemberResults(Mapping):
                                      lay.EI if self.has_deflection else None)
         return self._pc
 
+    def release(self) -> None:
+        """Drop the piecewise polynomials and the sampling caches (rebuilt
+        on demand, in milliseconds); the extreme tables already computed
+        are kept.  Lets a caller going through many results of a large
+        frame hold one result's working data at a time."""
+        self._pc = None
+        self._bx = None
+        self._crit = None
+        self._cache.clear()
+
     def force_table(self) -> dict[str, np.ndarray]:
         """Extremes of N, V, M of every member (arrays in layout order),
         keys as :meth:`MemberResult.extremes`; one vectorised pass."""
