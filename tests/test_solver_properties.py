@@ -8,7 +8,9 @@
 * Member free-body equilibrium and the sign convention: N(L) = Nj,
   V(L) = -Vj, M(L) = Mj, M(0) = -Mi.
 * Rigid rotation of the whole problem leaves member forces unchanged.
-* The analytic extremes bound a dense sampling of the exact diagrams.
+* The analytic extremes bound a dense sampling of the exact diagrams (the
+  deflection from the chord too).
+* Batch sampling agrees with single sampling and survives dropping caches.
 """
 from __future__ import annotations
 
@@ -313,3 +315,51 @@ def test_extremes_and_max_deflection_bound_a_dense_sampling(f):
         ua, va = mr.deflection(at)
         assert math.isclose(math.hypot(ua, va), dmax, rel_tol=1e-9, abs_tol=1e-12 * dbig)
         assert math.isclose(table["deflection_max"][k], dmax, rel_tol=1e-9, abs_tol=1e-12 * dbig)
+
+
+@settings(**SETTINGS)
+@given(frames(cases=("A",)), st.data())
+def test_batch_sampling_agrees_and_survives_release(f, data):
+    """``sample_many`` gives what ``sample`` gives quantity by quantity, and
+    dropping the cached pieces (``release``) changes no value: a property of
+    the API, no number of the solver is asserted."""
+    r = solve(f)["A"].members
+    m = len(r)
+    rows = np.array(data.draw(st.lists(st.integers(0, m - 1), min_size=1, max_size=12)))
+    frac = np.array(data.draw(st.lists(st.floats(0.0, 1.0), min_size=len(rows), max_size=len(rows))))
+    x = frac * r.layout.length[rows]
+    which = ("N", "V", "M", "u", "v") if r.has_deflection else ("N", "V", "M")
+    for side in ("right", "left"):
+        many = r.sample_many(which, rows, x, side=side)
+        for w in which:
+            assert np.array_equal(many[w], r.sample(w, rows, x, side=side))
+    before = {k: v.copy() for k, v in r.table().items()}
+    crit = tuple(a.copy() for a in r.critical_points())
+    r.release()
+    again = r.sample_many(which, rows, x)
+    assert all(np.array_equal(again[w], r.sample(w, rows, x)) for w in which)
+    assert all(np.array_equal(before[k], v, equal_nan=True) for k, v in r.table().items())
+    assert all(np.array_equal(a, b) for a, b in zip(crit, r.critical_points()))
+
+
+@settings(**SETTINGS)
+@given(frames(cases=("A",)))
+def test_relative_deflection_bounds_a_dense_sampling(f):
+    """The largest deflection from the chord (exact, from the roots of the
+    derivative) is at least every sampled one and is attained: the chord
+    is the straight line through the displaced ends (geometry)."""
+    r = solve(f)["A"].members
+    if not r.has_deflection:
+        return
+    tab = r.relative_deflection_table()
+    for k, mid in enumerate(r):
+        mr = r[mid]
+        xs = np.linspace(0.0, mr.length, 401)
+        v = np.asarray(mr.deflection(xs)[1])
+        rel = np.abs(v - (v[0] + (v[-1] - v[0]) * xs / mr.length))
+        scale = 1e-30 + np.abs(v).max()
+        assert rel.max() <= tab["deflection_rel_max"][k] * (1 + 1e-9) + 1e-12 * scale
+        at = tab["deflection_rel_max_at"][k]
+        va = float(np.asarray(mr.deflection(np.array([at]))[1])[0])
+        chord = v[0] + (v[-1] - v[0]) * at / mr.length
+        assert math.isclose(abs(va - chord), tab["deflection_rel_max"][k], rel_tol=1e-9, abs_tol=1e-12 * scale)
