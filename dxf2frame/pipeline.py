@@ -285,23 +285,27 @@ def _governing(report: dict) -> dict[str, float | None]:
     strength = [r for r in combos if r.get("family") == "LRFD"] or combos or results
     service = [r for r in combos if r.get("family") == "ASD"] or \
         [r for r in results if r.get("kind") == "case"]
-    def values(rows, key: str) -> list:
-        col = getattr(rows, "column", None)        # a report Table: no row dicts
-        return col(key) if col is not None else [m.get(key) for m in rows]
+    def values(rows, key: str) -> np.ndarray:
+        num = getattr(rows, "numbers", None)        # a report Table: its columns, no row dicts
+        if num is not None:
+            return num(key)
+        return np.array([math.nan if m.get(key) is None else m[key] for m in rows], dtype=float)
 
-    big = {"m": None, "v": None, "n": None}
+    big: dict[str, float | None] = {"m": None, "v": None, "n": None}
     for r in strength:
         rows = r.get("members", [])
         for key in ("m", "v", "n"):
-            both = [abs(v) for v in values(rows, f"{key}_min") + values(rows, f"{key}_max") if v is not None]
-            if both:
-                v = max(both)
+            both = np.abs(np.concatenate([values(rows, f"{key}_min"), values(rows, f"{key}_max")]))
+            both = both[np.isfinite(both)]
+            if len(both):
+                v = float(both.max())
                 big[key] = v if big[key] is None else max(big[key], v)
     ratio = None
     for r in service:
-        for d in values(r.get("members", []), "deflection_ratio"):
-            if d is not None and math.isfinite(d):
-                ratio = d if ratio is None else min(ratio, d)
+        d = values(r.get("members", []), "deflection_ratio")
+        d = d[np.isfinite(d)]
+        if len(d):
+            ratio = float(d.min()) if ratio is None else min(ratio, float(d.min()))
     return {"max_m": big["m"], "max_v": big["v"], "max_n": big["n"], "worst_deflection_ratio": ratio}
 
 

@@ -807,33 +807,53 @@ def write_json(report: Mapping, path: Path | str, csv_path: Path | str | None = 
     owner = {id(r.get("members")): r for r in report.get("results", [])}
     with atomic_open(path, "w", encoding="utf-8") as fh, \
             atomic_open(csv_path, "w", encoding="utf-8", newline="") as fc:
-        w = csv.writer(fc)
-        w.writerow(CSV_COLUMNS)
+        csv.writer(fc).writerow(CSV_COLUMNS)
 
         def on_block(table: Table, part: Table) -> None:
             res = owner.get(id(table))
             if res is not None:
-                _csv_rows(w, res, part)
+                _csv_rows(fc, res, part)
 
         for chunk in _json_chunks(report, on_block):
             fh.write(chunk)
         for res in report.get("results", []):        # results written as plain lists
             if not isinstance(res.get("members"), Table):
-                _csv_rows(w, res)
+                _csv_rows(fc, res)
 
 
-def _csv_rows(w: Any, res: Mapping, part: Table | None = None) -> None:
-    """The CSV rows of one result (a plain list of member dicts or a
-    :class:`Table`), or of the block ``part`` of its table."""
+def _csv_text(values: Sequence) -> list[str]:
+    """CSV cells of one column as the csv module writes them (excel
+    dialect, minimal quoting): None empty, floats by repr, a string quoted
+    when it holds a comma, a quote or a line break; each distinct value
+    converted once."""
+    cache: dict[Any, str] = {}
+    out = []
+    for v in values:
+        t = cache.get(v) if v is not None else ""
+        if t is None:
+            s = repr(v) if isinstance(v, float) else str(v)
+            if any(c in s for c in ',"\r\n'):
+                s = '"' + s.replace('"', '""') + '"'
+            t = cache[v] = s
+        out.append(t)
+    return out
+
+
+def _csv_rows(fc: Any, res: Mapping, part: Table | None = None) -> None:
+    """Write the CSV rows of one result (a plain list of member dicts or a
+    :class:`Table`), or of the block ``part`` of its table, to the text
+    file ``fc`` (opened with ``newline=""``)."""
     members = res.get("members", [])
     if isinstance(members, Table):
         for blk in ([part] if part is not None else members.chunks()):
             n = len(blk)
-            cols = [[res["name"]] * n, [res["kind"]] * n]
-            cols += [blk.csv_cells(k) for k in ("id", "layer", "handle", "length")]
-            cols += [blk.csv_cells(k) for k in CSV_COLUMNS[6:]]
-            w.writerows(zip(*cols))   # the csv module writes None as an empty cell
+            cols = [_csv_text([res["name"]]) * n, _csv_text([res["kind"]]) * n]
+            cols += [_csv_text(blk.csv_cells(k)) for k in ("id", "layer", "handle", "length")]
+            cols += [blk.csv_cells(k) for k in CSV_COLUMNS[6:]]      # number texts, "" for none
+            if n:
+                fc.write("\r\n".join(map(",".join, zip(*cols))) + "\r\n")
         return
+    w = csv.writer(fc)
     for m in members:
         row = [res["name"], res["kind"], m["id"], m["layer"], m["handle"], m["length"]]
         row += [m[k] for k in CSV_COLUMNS[6:]]
@@ -847,7 +867,6 @@ def write_csv(report: Mapping, path: Path | str) -> None:
     deflection without sections).
     """
     with atomic_open(path, "w", encoding="utf-8", newline="") as fh:
-        w = csv.writer(fh)
-        w.writerow(CSV_COLUMNS)
+        csv.writer(fh).writerow(CSV_COLUMNS)
         for res in report.get("results", []):
-            _csv_rows(w, res)
+            _csv_rows(fh, res)

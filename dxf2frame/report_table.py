@@ -187,6 +187,13 @@ class Table(Sequence):
         """Every row as a dict."""
         return list(self)
 
+    def numbers(self, key: str) -> np.ndarray:
+        """A number column as floats (NaN for none), as held (not rounded)."""
+        for k, values in self.columns:
+            if k == key:
+                return np.asarray(values, dtype=float)
+        return np.array([math.nan if h.get(key) is None else h[key] for h in self.heads], dtype=float)
+
     def column(self, key: str) -> list:
         """One key's values, from the heads (missing -> None) or the columns."""
         for k, values in self.columns:
