@@ -35,7 +35,7 @@ pytest.importorskip("solver.results")
 
 from solver import DistributedLoad, Frame, NodalLoad, Section, check, combine, solve  # noqa: E402
 
-from dxf2frame import preview, writer  # noqa: E402
+from dxf2frame import diagram_curves, preview, writer  # noqa: E402
 
 SEC = Section(E=200e9, A=5e-3, I=8e-5)
 RESULT_LAYERS = {n.upper() for n in DEFAULT_OUTPUT_LAYERS.values()}
@@ -730,7 +730,7 @@ def test_thinning_is_douglas_peucker_on_every_polyline_at_once(spec):
         for i0, i1 in zip(fixed[:-1], fixed[1:]):
             _dp_reference(p, t, int(i0), int(i1), k)
         pts.append(p), anchors.append(a), tols.append(t), ref.append(k)
-    keep = writer._thin(np.concatenate(pts), np.concatenate(anchors), np.concatenate(tols))
+    keep = diagram_curves._thin(np.concatenate(pts), np.concatenate(anchors), np.concatenate(tols))
     assert np.array_equal(keep, np.concatenate(ref))
     # and so every left-out point lies within its tolerance of the drawn line (the DP guarantee)
     at = 0
@@ -747,7 +747,7 @@ def test_straight_runs_follow_member_lines():
     si, ei = np.array([0, 1, 1, 3]), np.array([1, 2, 3, 4])
     d = xy[ei] - xy[si]
     t = d / np.hypot(d[:, 0], d[:, 1])[:, None]
-    assert writer._straight_chains(si, ei, t) == [[0, 1], [2, 3]]
+    assert diagram_curves._straight_chains(si, ei, t) == [[0, 1], [2, 3]]
 
 
 def _two_span_beam(tmp_path: Path, L: float, w: float):
@@ -800,7 +800,7 @@ def test_continuous_beam_is_one_thinned_outline_true_to_the_curve(tmp_path):
     # every point of the exact diagram lies within the chord tolerance of the drawn line, plus the error of the
     # 16 sampling intervals: a chord of length d under a parabola of curvature w misses it by w d^2 / 8 (from memory)
     omax = w * L**2 / 8 * k
-    tol = min(writer._CHORD_TEXT * summary.text_height, writer._CHORD_REL * omax)
+    tol = min(diagram_curves._CHORD_TEXT * summary.text_height, diagram_curves._CHORD_REL * omax)
     x = np.linspace(0.0, L, 401)
     exact = 3 * w * L * x / 8 - w * x**2 / 2             # same case: R = 3wl/8 at the end support
     line = shapely.LineString(run)
