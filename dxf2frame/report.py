@@ -26,7 +26,9 @@ moments in FORCE*LENGTH, positions, lengths and deflections in LENGTH.
 Signs follow the drawing convention: N tension positive; V positive when it
 turns the element clockwise; M positive when it bends the member concave
 toward local +y (sagging for a beam drawn left to right); reactions along
-global +X, +Y and moment counter-clockwise positive.
+global +X, +Y and moment counter-clockwise positive.  Numbers carry 12
+significant digits (a whole number may be written without ``.0``); ``null``
+means no value.
 
 ``deflection_max`` is the largest magnitude of the displacement of a point
 of the member (sqrt(u**2 + v**2), including the movement of its ends), in
