@@ -348,7 +348,12 @@ def real_roots_unit(coef: np.ndarray, rows: np.ndarray | None = None,
         sa = np.sign(np.concatenate(iso_b0))
         cw = d[w]
         dw = _polyder(cw)
-        x = 0.5 * (a + b)
+        # start from the secant of the bracket (false position), not its
+        # middle: Newton is then usually in its quadratic range at once
+        fa, fb = _polyval(cw, a), _polyval(cw, b)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            x = a + (b - a) * fa / (fa - fb)
+        x = np.where(np.isfinite(x) & (x > a) & (x < b), x, 0.5 * (a + b))
         act = np.arange(len(w))
         for _ in range(80):
             cx = cw[act]
