@@ -1,0 +1,213 @@
+"""The marked drawing: a copy of the newest revision with its changes drawn.
+
+:func:`mark_changes` adds one layer (settings ``[output_layers] changes``)
+with revision clouds (:func:`cloud_points`) and numbered tags around the
+flagged, new and removed members and supports of the last pair of
+revisions, and a change schedule beside the frame.
+"""
+from __future__ import annotations
+
+import math
+from pathlib import Path
+from typing import Mapping
+
+import numpy as np
+
+from .atomic import atomic_path
+from .errors import InputFileError
+from .revision_data import Comparison, MemberRef, ValueChange
+from .revision_output import _fmt, _pct, _pt, unit_labels
+from .units import length_unit_scale
+
+__all__ = ["cloud_points", "mark_changes"]
+
+
+# -- the marked drawing ----------------------------------------------------------------------
+
+_CHANGES_COLOR = 30  # ACI orange
+_NEW_COLOR = 3  # ACI green
+_REMOVED_COLOR = 8  # ACI grey
+_CLOUD_BULGE = 0.55  # tan(included angle / 4): scallops of about 115 degrees
+
+
+def cloud_points(xmin: float, ymin: float, xmax: float, ymax: float, arc: float) -> list[tuple[float, float, float]]:
+    """Vertices ``(x, y, bulge)`` of a closed revision cloud around a box.
+
+    The box is walked counter-clockwise; each edge is cut into scallops of
+    chord about ``arc`` with a positive bulge, so every arc bulges outward.
+    """
+    corners = [(xmin, ymin), (xmax, ymin), (xmax, ymax), (xmin, ymax)]
+    pts: list[tuple[float, float, float]] = []
+    for k in range(4):
+        (x0, y0), (x1, y1) = corners[k], corners[(k + 1) % 4]
+        n = max(1, int(round(math.hypot(x1 - x0, y1 - y0) / arc)))
+        for s in range(n):
+            t = s / n
+            pts.append((x0 + t * (x1 - x0), y0 + t * (y1 - y0), _CLOUD_BULGE))
+    return pts
+
+
+def _drawing_unit(doc, fallback: str | None) -> str:
+    from .units import INSUNITS
+
+    code = int(doc.header.get("$INSUNITS", 0) or 0)
+    if code in INSUNITS:
+        return INSUNITS[code]
+    if fallback:
+        return fallback
+    raise InputFileError("the drawing's $INSUNITS header does not give its length unit; "
+                         "give --length-unit or [units] length in the settings")
+
+
+def _layer_name(settings) -> str:
+    try:
+        return settings.output_layer("changes")
+    except (AttributeError, KeyError):
+        return "RESULT-CHANGES"
+
+
+def _value_line(vc: ValueChange, unit: str) -> str:
+    label = {"deflection": "defl"}.get(vc.quantity, vc.quantity)
+    pct = _pct(vc)
+    return f"{label} {_fmt(vc.old)} -> {_fmt(vc.new)} {unit}" + (f" {pct}" if pct else "")
+
+
+def mark_changes(
+    newest_dxf_source: Path | str,
+    newest_report: Mapping,
+    cmp: Comparison,
+    out_path: Path | str,
+    settings=None,
+    *,
+    drawing_unit: str | None = None,
+) -> Path:
+    """Write a copy of the newest drawing with a layer marking the last pair's changes.
+
+    On the layer ``settings.output_layer("changes")`` (else
+    ``"RESULT-CHANGES"``):
+
+    * a revision cloud (closed LWPOLYLINE of outward arcs) around each
+      flagged member and each flagged support, with a numbered tag
+      (``C1``, ``C2``, ...) in a circle beside it;
+    * a green cloud and tag ``N1``, ... around each new member and support;
+    * a dashed grey line and tag ``R1``, ... where a removed member was;
+    * a change schedule to the right of the frame: per tag the member or
+      support and one line per flagged quantity, e.g.
+      ``M 33.1 -> 41.2 kN*m (+24%)``.
+
+    Every original entity is kept.  The copy passes ezdxf's audit and is
+    written atomically.  ``newest_report`` gives the drawing's length unit
+    (``units.drawing_length``) when the header does not; ``drawing_unit``
+    overrides both.
+    """
+    from .reader import open_document
+    from .settings import Settings
+
+    src = Path(newest_dxf_source)
+    # the same opening path as check and solve: damaged files are recovered
+    doc, _notes = open_document(src, settings if isinstance(settings, Settings) else None)
+    unit = drawing_unit or _drawing_unit(doc, (newest_report.get("units") or {}).get("drawing_length")
+                                         or getattr(settings, "length_unit", None))
+    s = length_unit_scale(cmp.units["length"]) / length_unit_scale(unit)  # comparison length -> drawing units
+    layer = _layer_name(settings)
+    if layer not in doc.layers:
+        doc.layers.add(layer, color=_CHANGES_COLOR)
+    if "D2F-CLOUD" not in doc.linetypes:
+        doc.linetypes.add("D2F-CLOUD", pattern=[0.6, 0.5, -0.1], description="dxf2frame change cloud")
+    msp = doc.modelspace()
+    u = unit_labels(cmp.units)
+
+    pair = cmp.pairs[-1] if cmp.pairs else None
+    refs = [m.new for m in pair.matched] + pair.new_members + pair.removed_members if pair else []
+    pts = [p for r in refs for p in (r.start, r.end)]
+    pts += [p for r in (pair.reactions if pair else []) for p in (r.new_at,)]
+    xy = np.array(pts or [(0.0, 0.0), (1.0, 1.0)], float) * s
+    lo, hi = xy.min(axis=0), xy.max(axis=0)
+    extent = float(max(hi[0] - lo[0], hi[1] - lo[1], 1e-9))
+    margin, arc, height = 0.015 * extent, 0.02 * extent, 0.011 * extent
+
+    def attribs(color: int | None) -> dict:
+        return {"layer": layer} if color is None else {"layer": layer, "color": color}
+
+    def cloud(box, color: int | None = None) -> None:
+        xmin, ymin, xmax, ymax = box
+        msp.add_lwpolyline(cloud_points(xmin - margin, ymin - margin, xmax + margin, ymax + margin, arc),
+                           format="xyb", close=True, dxfattribs=attribs(color))
+
+    def tag(label: str, at: tuple[float, float], color: int | None = None) -> None:
+        r = 1.3 * height * max(1.0, 0.45 * len(label))
+        msp.add_circle(at, r, dxfattribs=attribs(color))
+        msp.add_mtext(label, dxfattribs={**attribs(color), "char_height": height, "insert": at,
+                                         "attachment_point": 5})  # middle centre
+
+    def beside(a: tuple[float, float], b: tuple[float, float]) -> tuple[float, float]:
+        """A point off the midpoint of a-b on its local +y side, clear of the cloud."""
+        L = math.dist(a, b) or 1.0
+        nx, ny = -(b[1] - a[1]) / L, (b[0] - a[0]) / L
+        d = 2 * margin + 1.6 * height
+        return (0.5 * (a[0] + b[0]) + d * nx, 0.5 * (a[1] + b[1]) + d * ny)
+
+    def ends(r: MemberRef) -> tuple[tuple[float, float], tuple[float, float]]:
+        return (r.start[0] * s, r.start[1] * s), (r.end[0] * s, r.end[1] * s)
+
+    def box_of(a, b) -> tuple[float, float, float, float]:
+        return min(a[0], b[0]), min(a[1], b[1]), max(a[0], b[0]), max(a[1], b[1])
+
+    entries: list[tuple[str, list[str], int | None]] = []
+    if pair is not None:
+        for k, m in enumerate(pair.flagged_members, start=1):
+            a, b = ends(m.new)
+            cloud(box_of(a, b))
+            tag(f"C{k}", beside(a, b))
+            head = f"member {m.new.id} on {m.new.layer}" + (f", {m.how} from {m.old.id}" if m.how != "same ends" else "")
+            entries.append((f"C{k}", [head] + [_value_line(v, u[v.quantity]) for v in m.values if v.flagged], None))
+        base = len(pair.flagged_members)
+        for k, r in enumerate(pair.flagged_reactions, start=base + 1):
+            x, y = r.new_at[0] * s, r.new_at[1] * s
+            cloud((x, y, x, y))
+            tag(f"C{k}", (x + 2 * margin + 1.6 * height, y - 2 * margin - 1.6 * height))
+            entries.append((f"C{k}", [f"reaction at {_pt(r.new_at)}"]
+                            + [_value_line(v, u[v.quantity]) for v in r.values if v.flagged], None))
+        for k, m in enumerate(pair.new_members, start=1):
+            a, b = ends(m)
+            cloud(box_of(a, b), _NEW_COLOR)
+            tag(f"N{k}", beside(a, b), _NEW_COLOR)
+            entries.append((f"N{k}", [f"new member {m.id} on {m.layer}"], _NEW_COLOR))
+        for k, p in enumerate(pair.new_supports, start=len(pair.new_members) + 1):
+            x, y = p[0] * s, p[1] * s
+            cloud((x, y, x, y), _NEW_COLOR)
+            tag(f"N{k}", (x + 2 * margin + 1.6 * height, y - 2 * margin - 1.6 * height), _NEW_COLOR)
+            entries.append((f"N{k}", [f"new support at {_pt(p)}"], _NEW_COLOR))
+        for k, m in enumerate(pair.removed_members, start=1):
+            a, b = ends(m)
+            msp.add_line(a, b, dxfattribs={**attribs(_REMOVED_COLOR), "linetype": "D2F-CLOUD",
+                                           "ltscale": max(extent / 50.0, 1e-6)})
+            tag(f"R{k}", beside(a, b), _REMOVED_COLOR)
+            entries.append((f"R{k}", [f"removed member {m.id} on {m.layer}"], _REMOVED_COLOR))
+        for k, p in enumerate(pair.removed_supports, start=len(pair.removed_members) + 1):
+            entries.append((f"R{k}", [f"removed support at {_pt(p)}"], _REMOVED_COLOR))
+
+        # the change schedule, right of the frame
+        x0, y = float(hi[0]) + 6 * margin, float(hi[1])
+        title = [f"CHANGES {pair.old_source} -> {pair.new_source}",
+                 f"flagged above {100 * cmp.threshold:g}% ({cmp.units['force']}, {cmp.units['length']})"]
+        title += pair.notes
+        if not (entries or pair.notes):
+            title.append("no change above the threshold")
+        msp.add_mtext("\\P".join(title), dxfattribs={**attribs(None), "char_height": height, "insert": (x0, y),
+                                                       "attachment_point": 1})
+        y -= (len(title) + 1) * 1.7 * height
+        for label, lines, color in entries:
+            msp.add_mtext(f"{label}  " + "\\P      ".join(lines),
+                          dxfattribs={**attribs(color), "char_height": height, "insert": (x0, y),
+                                      "attachment_point": 1})  # top left
+            y -= (len(lines) + 0.6) * 1.7 * height
+
+    auditor = doc.audit()
+    if auditor.has_errors:  # pragma: no cover - would be a bug here
+        raise RuntimeError(f"the marked drawing fails the audit: {[str(e) for e in auditor.errors][:3]}")
+    out_path = Path(out_path)
+    out_path.parent.mkdir(parents=True, exist_ok=True)
+    with atomic_path(out_path) as tmp:
+        doc.saveas(tmp)
+    return out_path

@@ -1,0 +1,165 @@
+"""Reading the report dicts a comparison works on (JSON report, schema 1).
+
+``_check_report`` refuses what is not a schema-1 report;
+:func:`convert_report` converts one to another force and length unit;
+``_member_refs`` lists its members as :class:`MemberRef`;
+``_member_governing`` and ``_support_governing`` give the governing
+magnitudes per member and per support location, over the results of kind
+``"combination"`` (or every result when there are none).
+"""
+from __future__ import annotations
+
+import copy
+from typing import Any, Mapping
+
+import numpy as np
+
+from .errors import InputFileError
+from .revision_data import MEMBER_QUANTITIES, REACTION_QUANTITIES, MemberRef
+from .units import length_unit_scale, unit_factor
+
+__all__ = ["convert_report"]
+
+
+# -- report access -------------------------------------------------------------
+
+
+def _governing_results(report: Mapping) -> list[Mapping]:
+    results = list(report.get("results") or [])
+    return [r for r in results if r.get("kind") == "combination"] or results
+
+
+def _member_refs(report: Mapping) -> list[MemberRef]:
+    """The members of a report (from its first result), in report order."""
+    seen: dict[str, MemberRef] = {}
+    for res in report.get("results") or []:
+        for m in res.get("members") or []:
+            if m["id"] not in seen:
+                seen[m["id"]] = MemberRef(
+                    str(m["id"]), str(m.get("layer", "")), str(m.get("handle", "")),
+                    (float(m["start"][0]), float(m["start"][1])), (float(m["end"][0]), float(m["end"][1])),
+                )
+        if seen:
+            break
+    return list(seen.values())
+
+
+def _absmax(a: float | None, b: float | None) -> float | None:
+    vals = [abs(float(v)) for v in (a, b) if v is not None]
+    return max(vals) if vals else None
+
+
+def _bigger(a: float | None, b: float | None) -> float | None:
+    if a is None:
+        return b
+    if b is None:
+        return a
+    return max(a, b)
+
+
+def _member_governing(report: Mapping) -> dict[str, dict[str, float | None]]:
+    """{member id: {"N", "V", "M", "deflection": governing magnitude or None}}."""
+    out: dict[str, dict[str, float | None]] = {}
+    for res in _governing_results(report):
+        for m in res.get("members") or []:
+            g = out.setdefault(m["id"], {q: None for q in MEMBER_QUANTITIES})
+            g["N"] = _bigger(g["N"], _absmax(m.get("n_min"), m.get("n_max")))
+            g["V"] = _bigger(g["V"], _absmax(m.get("v_min"), m.get("v_max")))
+            g["M"] = _bigger(g["M"], _absmax(m.get("m_min"), m.get("m_max")))
+            d = m.get("deflection_max")
+            g["deflection"] = _bigger(g["deflection"], abs(float(d)) if d is not None else None)
+    return out
+
+
+def _support_governing(report: Mapping, tol: float) -> tuple[list[tuple[float, float]], list[dict[str, float]]]:
+    """Support locations and their governing |fx|, |fy|, |m|.
+
+    Reactions of different results are gathered by location (within
+    ``tol``), so the order of the report's reaction lists does not matter.
+    """
+    where: list[tuple[float, float]] = []
+    gov: list[dict[str, float]] = []
+    for res in _governing_results(report):
+        used: set[int] = set()
+        for rc in res.get("reactions") or []:
+            p = (float(rc["x"]), float(rc["y"]))
+            k = None
+            if where:
+                d = np.hypot(*(np.asarray(where) - np.asarray(p)).T)
+                for j in np.argsort(d, kind="stable"):
+                    if d[j] > tol:
+                        break
+                    if int(j) not in used:
+                        k = int(j)
+                        break
+            if k is None:
+                where.append(p)
+                gov.append({q: 0.0 for q in REACTION_QUANTITIES})
+                k = len(where) - 1
+            used.add(k)
+            for q in REACTION_QUANTITIES:
+                v = rc.get(q)
+                if v is not None:
+                    gov[k][q] = max(gov[k][q], abs(float(v)))
+    return where, gov
+
+
+# -- units ---------------------------------------------------------------------------
+
+
+def _check_report(report: Any, label: str) -> None:
+    if not isinstance(report, Mapping) or report.get("schema") != 1 or not isinstance(report.get("units"), Mapping):
+        raise InputFileError(f"{label}: not a dxf2frame report (schema 1 with 'units' and 'results')")
+    if "force" not in report["units"] or "length" not in report["units"]:
+        raise InputFileError(f"{label}: the report's 'units' must give 'force' and 'length'")
+    if not isinstance(report.get("results", []), list):
+        raise InputFileError(f"{label}: 'results' must be a list")
+
+
+def convert_report(report: Mapping, force_unit: str, length_unit: str) -> dict:
+    """A copy of ``report`` with member, reaction and probe values converted
+    to ``force_unit`` and ``length_unit`` (``units`` updated).
+
+    Converted: member ``start``, ``end``, ``length``, ``m_min_at``,
+    ``m_max_at``, ``deflection_max`` (length), ``n_*``, ``v_*`` (force),
+    ``m_min``, ``m_max`` (moment); reaction ``x``, ``y``, ``fx``, ``fy``,
+    ``m``; probe ``n``, ``v``, ``m``.  Other keys are copied as they are.
+    Raises ``UnitError`` for an unknown unit.
+    """
+    out = copy.deepcopy(dict(report))
+    fu, lu = report["units"]["force"], report["units"]["length"]
+    F = unit_factor(fu, "force") / unit_factor(force_unit, "force")
+    L = length_unit_scale(lu) / length_unit_scale(length_unit)
+    M = F * L
+    if F == 1.0 and L == 1.0:
+        out["units"] = {**out["units"], "force": force_unit, "length": length_unit}
+        return out
+
+    def sc(v, f):
+        return None if v is None else float(v) * f
+
+    for res in out.get("results") or []:
+        for m in res.get("members") or []:
+            for k in ("start", "end"):
+                if m.get(k) is not None:
+                    m[k] = [float(c) * L for c in m[k]]
+            for k in ("length", "m_min_at", "m_max_at", "deflection_max"):
+                if k in m:
+                    m[k] = sc(m[k], L)
+            for k in ("n_min", "n_max", "v_min", "v_max"):
+                if k in m:
+                    m[k] = sc(m[k], F)
+            for k in ("m_min", "m_max"):
+                if k in m:
+                    m[k] = sc(m[k], M)
+        for rc in res.get("reactions") or []:
+            for k, f in (("x", L), ("y", L), ("fx", F), ("fy", F), ("m", M)):
+                if k in rc:
+                    rc[k] = sc(rc[k], f)
+        for pr in res.get("probes") or []:
+            for k, f in (("n", F), ("v", F), ("m", M)):
+                if k in pr:
+                    pr[k] = sc(pr[k], f)
+    out["units"] = {**out["units"], "force": force_unit, "length": length_unit,
+                    "moment": f"{force_unit}*{length_unit}", "distributed": f"{force_unit}/{length_unit}"}
+    return out
