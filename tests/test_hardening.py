@@ -499,7 +499,7 @@ def test_entity_count_limit(tmp_path, capsys):
 
 
 def test_far_too_many_entities_are_refused_before_parsing(tmp_path, capsys, monkeypatch):
-    import dxf2frame.reader as reader
+    import dxf2frame.drawing_file as drawing_file
 
     doc = beam_doc()
     msp = doc.modelspace()
@@ -510,8 +510,8 @@ def test_far_too_many_entities_are_refused_before_parsing(tmp_path, capsys, monk
     def no_parsing(*a, **kw):
         raise AssertionError("the file was parsed although it is far over the limit")
 
-    monkeypatch.setattr(reader.ezdxf, "readfile", no_parsing)
-    monkeypatch.setattr(reader.recover, "readfile", no_parsing)
+    monkeypatch.setattr(drawing_file.ezdxf, "readfile", no_parsing)
+    monkeypatch.setattr(drawing_file.recover, "readfile", no_parsing)
     rc, _, err = run_cli(capsys, "check", path)
     assert_bad_input(rc, err, names=(str(path), "more than the limit of 100", "max_entities"))
 

@@ -1,0 +1,198 @@
+"""The state of one reading pass, and where each entity came from.
+
+:class:`_Source` names the entity a model object comes from: its handle
+path, its effective layer, whether it is a piece of an exploded block, and
+how deep in nested blocks.  :class:`_Ctx` holds the document, the settings,
+the drawing unit and all that was read so far (segments, supports,
+connections, loads, warnings, hinge and load counts), with the helpers
+every handler uses: the role of a layer, adding a polyline, the Z and
+extrusion checks, attribute texts (the insert's ATTRIBs, else the block's
+ATTDEF defaults) and their quantities.
+
+Units: points come in drawing units; ``_Ctx.scale`` is metres per drawing
+unit and the segments stored are in metres.  Attribute quantities are SI
+floats (:func:`dxf2frame.units.parse_quantity`); a bare number is taken in
+``_Ctx.defaults[kind]`` (the settings' force unit and the drawing unit).
+:func:`_check_finite` refuses a point that is not finite or lies beyond
+:data:`MAX_COORDINATE_M`.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+from ezdxf.math import Vec3
+
+from .cleanup import ConnectionSpec, Segment, SupportSpec
+from .errors import GeometryError
+from .settings import Settings
+from .units import parse_quantity
+
+__all__ = ["MAX_COORDINATE_M"]
+
+#: largest coordinate magnitude accepted [m]; beyond it the geometry
+#: libraries overflow and no structural drawing needs it
+MAX_COORDINATE_M = 1e12
+
+
+# ---------------------------------------------------------------------------
+# reading state
+# ---------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Source:
+    """Where an entity sits: handle path, effective layer, virtual (from a block)."""
+
+    handle: str
+    layer: str
+    virtual: bool = False
+    depth: int = 0
+
+
+@dataclass
+class _Ctx:
+    doc: object
+    settings: Settings
+    unit: str  # drawing length unit (pint name)
+    scale: float  # m per drawing unit
+    z_tol: float  # drawing units
+    defaults: dict[str, str]
+    segments: list[Segment] = field(default_factory=list)
+    supports: list[SupportSpec] = field(default_factory=list)
+    connections: list[ConnectionSpec] = field(default_factory=list)
+    loads: list = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
+    hinges: int = 0
+    n_loads: int = 0
+    _attdefs: dict[str, dict[str, str]] = field(default_factory=dict)
+    _relevant: dict[str, tuple[bool, bool]] = field(default_factory=dict)
+
+    # -- helpers -------------------------------------------------------------
+    def role_of_layer(self, layer: str) -> str | None:
+        u = layer.upper()
+        for role in ("supports", "connections", "loads"):
+            if u == self.settings.layers[role].upper():
+                return role
+        return None
+
+    def add_polyline(self, pts: list[tuple[float, float, float]], src: _Source) -> None:
+        """Add consecutive segments through WCS points (drawing units), numbered
+        from the first point, converted to metres."""
+        self.check_z(pts, src)
+        s = self.scale
+        for k, (a, b) in enumerate(zip(pts[:-1], pts[1:])):
+            self.segments.append(Segment((a[0] * s, a[1] * s), (b[0] * s, b[1] * s), src.handle, src.layer, k))
+
+    def check_z(self, pts, src: _Source) -> None:
+        for p in pts:
+            _check_finite(p, src, self.scale)
+            if abs(p[2]) > self.z_tol:
+                raise GeometryError(
+                    f"point at Z = {p[2]:.6g} {self.unit}: the frame must lie in the X-Y plane (Z = 0)",
+                    handle=src.handle,
+                    layer=src.layer,
+                    hint="move the entity to Z = 0 (e.g. flatten the drawing)",
+                )
+
+    def check_extrusion(self, entity, src: _Source) -> None:
+        ext = Vec3(entity.dxf.get("extrusion", (0.0, 0.0, 1.0)))
+        if src.virtual:
+            # a mirrored block reference legitimately turns +Z into -Z
+            bad = not (abs(ext.x) < 1e-9 and abs(ext.y) < 1e-9)
+        else:
+            bad = not ext.isclose(Vec3(0, 0, 1), abs_tol=1e-9)
+        if bad:
+            raise GeometryError(
+                f"{entity.dxftype()} has extrusion direction {tuple(round(c, 6) for c in ext)}, not +Z",
+                handle=src.handle,
+                layer=src.layer,
+                hint="the frame must be drawn in the world X-Y plane; redraw it in the WCS",
+            )
+
+    def attdef_defaults(self, block_name: str) -> dict[str, str]:
+        d = self._attdefs.get(block_name)
+        if d is None:
+            d = {}
+            blk = self.doc.blocks.get(block_name)
+            if blk is not None:
+                for e in blk.query("ATTDEF"):
+                    d[e.dxf.tag.upper()] = e.dxf.get("text", "")
+            self._attdefs[block_name] = d
+        return d
+
+    def attributes(self, insert) -> dict[str, str]:
+        """Convention tag -> stripped text; ATTRIBs first, ATTDEF defaults for
+        missing tags; empty values omitted."""
+        raw: dict[str, str] = {}
+        for tag, text in self.attdef_defaults(insert.dxf.name).items():
+            raw[tag] = text
+        for a in insert.attribs:
+            raw[a.dxf.tag.upper()] = a.dxf.get("text", "")
+        out: dict[str, str] = {}
+        for tag, text in raw.items():
+            t = (text or "").strip()
+            canon = self.settings.canonical_tag(tag)
+            if t and canon is not None:
+                out[canon] = t
+        return out
+
+    def block_relevance(self, name: str) -> tuple[bool, bool]:
+        """(has content on input layers or nested inserts, has layer-0 linework)."""
+        r = self._relevant.get(name)
+        if r is None:
+            blk = self.doc.blocks.get(name)
+            relevant = layer0 = False
+            if blk is not None:
+                for e in blk:
+                    t = e.dxftype()
+                    if t in ("ATTDEF",):
+                        continue
+                    lay = e.dxf.get("layer", "0")
+                    if t == "INSERT":
+                        relevant = True
+                    elif lay == "0":
+                        layer0 = True
+                    elif self.settings.is_frame_layer(lay) or self.role_of_layer(lay):
+                        relevant = True
+            r = (relevant, layer0)
+            self._relevant[name] = r
+        return r
+
+    def quantity(self, attrs: dict[str, str], tag: str, kind: str, src: _Source, default_unit: str | None = None):
+        text = attrs.get(tag)
+        if text is None:
+            return None
+        return parse_quantity(
+            text,
+            kind,
+            default_unit=default_unit or self.defaults[kind],
+            handle=src.handle,
+            layer=src.layer,
+            tag=self.settings.attr(tag),
+        )
+
+
+
+# ---------------------------------------------------------------------------
+# point checks
+# ---------------------------------------------------------------------------
+
+
+def _check_finite(p, src: _Source, scale: float) -> None:
+    """A point (drawing units) must be a finite number and not absurdly far out."""
+    if not all(math.isfinite(c) for c in p):
+        raise GeometryError(
+            f"a coordinate is not a finite number ({', '.join(f'{c:g}' for c in p)})",
+            handle=src.handle,
+            layer=src.layer,
+            hint="the file is damaged or was written by a faulty program; redraw the entity",
+        )
+    big = max(abs(c) for c in p) * scale
+    if big > MAX_COORDINATE_M:
+        raise GeometryError(
+            f"a coordinate is {big:.3g} m from the origin (more than {MAX_COORDINATE_M:g} m)",
+            handle=src.handle,
+            layer=src.layer,
+            hint="move the drawing near the origin, or check the drawing unit",
+        )
