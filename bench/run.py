@@ -162,7 +162,8 @@ def _install_timers() -> _StageClock:
     factor = clock.timed("factorise", splu)
     stiffness.splu = lambda *a, **kw: _TimedLU(factor(*a, **kw), clock)
     clock.patch(pipeline, "combine", "combine")
-    for name in ("table", "force_table", "deflection_table", "sample", "critical_points"):
+    for name in ("table", "force_table", "deflection_table", "relative_deflection_table", "sample", "sample_many",
+                 "critical_points"):
         if hasattr(forces.MemberResults, name):
             clock.patch(forces.MemberResults, name, "forces")
     for name in ("critical_points", "_force", "deflection", "max_deflection", "extremes"):
