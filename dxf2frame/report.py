@@ -67,7 +67,7 @@ import numpy as np
 from . import CAUTION, __version__
 from .atomic import atomic_open
 from .errors import DrawingError
-from .report_table import DictColumn, Table, as_written, round12_list
+from .report_table import DictColumn, Table, as_written
 from .units import length_unit_scale, unit_factor
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
@@ -203,11 +203,6 @@ def _num(v: Any) -> float | None:
     if f == 0.0:
         return 0.0
     return float(f"{f:.12g}")
-
-
-def _round12(a: np.ndarray) -> list:
-    """12 significant figures, vectorised; NaN/inf become None."""
-    return round12_list(a)
 
 
 _TABLE_KEYS = ("n_min", "n_max", "v_min", "v_max", "m_min", "m_max", "m_min_at", "m_max_at", "deflection_max")
@@ -362,7 +357,7 @@ class _StaticRows:
 
     heads: list[dict]               # id, layer, handle, start, end, length (+ elements)
     lengths: np.ndarray             # [m]
-    limits: list[float | None]
+    limits: np.ndarray              # span/deflection limit per member, NaN for none
     held: np.ndarray                # both end nodes held: the span check uses the relative deflection
     _texts: list[str] | None = None
 
@@ -371,10 +366,6 @@ class _StaticRows:
         if self._texts is None:
             self._texts = Table(self.heads, []).head_texts()
         return self._texts
-
-    def limit_array(self) -> np.ndarray:
-        """``limits`` as floats, NaN for none."""
-        return np.array([math.nan if v is None else v for v in self.limits], dtype=float)
 
 
 def _static_rows(gx: _GroupIndex, uf: UnitFactors, limits: Mapping | None) -> _StaticRows:
@@ -394,7 +385,8 @@ def _static_rows(gx: _GroupIndex, uf: UnitFactors, limits: Mapping | None) -> _S
         if m0.layer not in limit_cache:
             limit_cache[m0.layer] = _limit_for(m0.layer, limits)
         lims.append(limit_cache[m0.layer])
-    return _StaticRows(heads, np.array([g.length for g in gx.groups]), lims, gx.held)
+    limits_arr = np.array([math.nan if v is None else v for v in lims], dtype=float)
+    return _StaticRows(heads, np.array([g.length for g in gx.groups]), limits_arr, gx.held)
 
 
 def _member_columns(res, frame: "Frame", gx: _GroupIndex, uf: UnitFactors, static: _StaticRows) -> dict[str, np.ndarray]:
@@ -421,7 +413,7 @@ def _member_columns(res, frame: "Frame", gx: _GroupIndex, uf: UnitFactors, stati
 def _member_table(cols: dict[str, np.ndarray], static: _StaticRows) -> Table:
     """Report entries of every reported member from :func:`_member_columns`."""
     ratio = as_written(cols["deflection_ratio"])    # the check uses the ratio as the report gives it
-    limit = static.limit_array()
+    limit = static.limits
     known = np.isfinite(ratio) & np.isfinite(limit)
     ok = np.where(known, ratio >= np.where(known, limit, 0.0), False)
     columns: list[tuple[str, Any]] = [(k, cols[k]) for k in _ROW_KEYS]
@@ -569,7 +561,7 @@ def _envelope(name: str, family: str, names: list[str], cols: list[dict[str, np.
          np.where(have, np.nanmax(np.where(np.isnan(rstack), -np.inf, rstack), axis=0), np.nan)),
         ("deflection_ratio", np.where(qhave, qstack[qw, j], np.nan)),
         ("deflection_ratio_by", [names[k] if h else None for k, h in zip(qw.tolist(), qhave.tolist())]),
-        ("deflection_limit", static.limit_array()),
+        ("deflection_limit", static.limits),
         ("governing", DictColumn({q: by[q] for q in _QUANTITIES})),
     ]
     members = Table(heads, columns)

@@ -13,7 +13,8 @@ keeps one such list as columns and gives it two faces:
   built column by column with a single ``%`` template per row;
 * :meth:`Table.csv_rows`: the same texts as CSV cells.
 
-Numbers are written with 12 significant digits (:func:`number_texts`); NaN
+Numbers are written with 12 significant digits (:func:`number_texts`,
+correctly rounded by ``%.12g``); NaN
 and infinity mean "no value" and become ``null`` / ``None``.  The dict face
 gives each number as the float its JSON text reads back as, so both faces
 agree exactly.
@@ -27,38 +28,10 @@ from typing import Any, Iterator
 
 import numpy as np
 
-__all__ = ["DictColumn", "Table", "as_written", "number_texts", "round12", "round12_list"]
+__all__ = ["DictColumn", "Table", "as_written", "number_texts"]
 
 _ENC = json.JSONEncoder(ensure_ascii=False, allow_nan=False).encode
 _CONST = {None: "null", True: "true", False: "false"}
-
-
-def round12(a: Any) -> np.ndarray:
-    """``a`` as floats rounded to 12 significant figures (vectorised).
-
-    Non-finite values stay as they are; magnitudes beyond 1e+-280, where the
-    decimal scale would overflow, are not rounded.
-    """
-    a = np.asarray(a, dtype=float)
-    out = a.copy()
-    mag = np.abs(a)
-    ok = np.isfinite(a) & (mag > 1e-280) & (mag < 1e280)
-    if ok.any():
-        e = np.floor(np.log10(mag[ok]))
-        scale = 10.0 ** (11 - e)
-        out[ok] = np.round(a[ok] * scale) / scale
-    return out
-
-
-def round12_list(a: Any) -> list:
-    """:func:`round12` as a list of Python floats, ``None`` for NaN/inf."""
-    a = np.asarray(a, dtype=float)
-    vals = round12(a).tolist()
-    bad = ~np.isfinite(a)
-    if bad.any():
-        for i in np.flatnonzero(bad):
-            vals[i] = None
-    return vals
 
 
 def number_texts(values: Any) -> list[str]:
@@ -91,16 +64,19 @@ def _json_texts(values: np.ndarray | Sequence) -> list[str]:
     return out
 
 
+def _read_back(values: Any) -> list[float | None]:
+    """Numbers exactly as their JSON text (:func:`number_texts`) reads back; None for null."""
+    return [None if t == "null" else float(t) for t in number_texts(values)]
+
+
 def as_written(values: Any) -> np.ndarray:
-    """Numbers exactly as their JSON text (:func:`number_texts`) reads back; NaN for null."""
-    return np.array([math.nan if t == "null" else float(t) for t in number_texts(values)], dtype=float)
+    """:func:`_read_back` as a float array, NaN for null."""
+    return np.array([math.nan if v is None else v for v in _read_back(values)], dtype=float)
 
 
 def _python_values(values: np.ndarray | Sequence) -> list:
     """A column as Python values; numbers exactly as their JSON text reads back."""
-    if isinstance(values, np.ndarray):
-        return [None if t == "null" else float(t) for t in number_texts(values)]
-    return list(values)
+    return _read_back(values) if isinstance(values, np.ndarray) else list(values)
 
 
 class DictColumn(Sequence):
@@ -193,13 +169,6 @@ class Table(Sequence):
             if k == key:
                 return np.asarray(values, dtype=float)
         return np.array([math.nan if h.get(key) is None else h[key] for h in self.heads], dtype=float)
-
-    def column(self, key: str) -> list:
-        """One key's values, from the heads (missing -> None) or the columns."""
-        for k, values in self.columns:
-            if k == key:
-                return _python_values(values)
-        return [h.get(key) for h in self.heads]
 
     def head_texts(self) -> list[str]:
         if self._head_texts is None:

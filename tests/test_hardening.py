@@ -792,11 +792,11 @@ def test_compare_accepts_what_solve_accepts(demo_copy, tmp_path, capsys, damage)
 def test_tiny_values_survive_report_rounding():
     import numpy as np
 
-    from dxf2frame.report import _round12
+    from dxf2frame.report_table import number_texts
 
     tiny = [1e-300, -2.5e-308, 5e-324]
     # rounding to 12 significant digits leaves these representable values unchanged (IEEE 754 binary64)
-    assert _round12(np.array(tiny)) == tiny
+    assert [float(t) for t in number_texts(np.array(tiny))] == tiny
 
 
 # ---------------------------------------------------------------------------

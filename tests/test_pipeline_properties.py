@@ -24,7 +24,7 @@ Asserted:
 * solving the output drawing gives the same results as solving the input.
 
 Precision: the JSON report writes every number with 12 significant digits
-(``report._round12``); the equilibrium sums are compared with a relative
+(``report_table.number_texts``); the equilibrium sums are compared with a relative
 tolerance of 1e-6 of the sum of the magnitudes of all terms, which covers
 that rounding with a wide margin while any missing, doubled or misplaced
 load (at least 1e-3 of the total here) would fail.
