@@ -5,7 +5,6 @@ prints as one line (exit 2).
 """
 from __future__ import annotations
 
-import sys
 from collections import Counter
 from pathlib import Path
 

@@ -788,10 +788,10 @@ def write_json(report: Mapping, path: Path | str, csv_path: Path | str | None = 
     """Write the report as UTF-8 JSON (see :func:`dumps_report`), atomically;
     with ``csv_path`` also the CSV (:func:`write_csv`) in the same pass.
 
-    The text is written piece by piece (one member table at a time), so a
-    report of a large frame is never held in memory as one string; in the
-    same pass each result's member table gives the CSV its rows from the
-    same number texts.
+    The text is written piece by piece (member tables a block of rows at a
+    time), so a report of a large frame is never held in memory as one
+    string; in the same pass each block of a result's member table gives
+    the CSV its rows from the same number texts.
     """
     if csv_path is None:
         with atomic_open(path, "w", encoding="utf-8") as fh:

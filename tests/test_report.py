@@ -382,9 +382,7 @@ def test_cantilever_ratio_uses_tip_deflection():
 
 def _two_span_with_combos():
     """Two spans, two cases and two combinations: member tables, envelopes
-    and a span without a deflection limit."""
-    from solver import combinations  # noqa: F401 - the built-in templates module exists
-
+    and a layer with a deflection limit of its own."""
     f = Frame()
     a, b, c = f.add_node(0.0, 0.0), f.add_node(5.0, 0.0), f.add_node(9.0, 0.0)
     m1 = f.add_member(a, b, SEC, id="A-1", layer="FRAME, main", handle="A")   # a comma for the CSV
