@@ -147,9 +147,9 @@ class _TimedLU:
 def _install_timers() -> _StageClock:
     """Wrap the pipeline's stage functions with timers (this process only)."""
     import dxf2frame.pipeline as pipeline
-    import dxf2frame.reader as reader
-    import dxf2frame.report as report
-    import dxf2frame.writer as writer
+    import dxf2frame.read.reader as reader
+    import dxf2frame.report.report as report
+    import dxf2frame.draw.writer as writer
     import solver.forces as forces
     import solver.stiffness as stiffness
 
@@ -212,7 +212,8 @@ def _child_solve(path: Path, out: Path, timed: bool = False) -> dict:
     cost time of their own, so the solve time of record comes from untimed runs)."""
     # what this solve uses is imported before the clock (the floor does not
     # time ``import ezdxf`` either); no PNG is made, so no matplotlib
-    from dxf2frame import pipeline, report, writer  # noqa: F401
+    from dxf2frame import pipeline, report  # noqa: F401
+    from dxf2frame.draw import writer  # noqa: F401
     from dxf2frame.pipeline import SolveRequest
 
     clock = _install_timers() if timed else _StageClock()

@@ -57,11 +57,12 @@ def _warm_up(png: bool) -> None:
     """Import the writers (the preview only when PNGs are asked for) and
     build the unit registry once in the parent, so forked workers inherit
     them instead of each paying for them."""
-    from . import report, writer  # noqa: F401
+    from .report import report
+    from .draw import writer  # noqa: F401
     from .units import registry
 
     if png:
-        from . import preview  # noqa: F401
+        from .draw import preview  # noqa: F401
 
     registry()
 

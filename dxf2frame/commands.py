@@ -22,7 +22,7 @@ def run_check(args) -> int:
     from solver import check
 
     from .pipeline import EXIT_OK, EXIT_UNSTABLE
-    from .reader import read_drawing
+    from .read.reader import read_drawing
     from .settings import load_settings
 
     settings = load_settings(args.settings, args.drawing)
@@ -90,14 +90,14 @@ def _output_folder(out: Path | None, inputs: list[Path]) -> None:
 
 
 def run_compare(args) -> int:
-    from .compare import run_compare_command
+    from .revisions.compare import run_compare_command
 
     _output_folder(getattr(args, "out", None), list(args.revisions))
     return run_compare_command(args)
 
 
 def run_explain(args) -> int:
-    from .handcheck import run_explain_command
+    from .handcheck.sheets import run_explain_command
 
     _output_folder(getattr(args, "out", None), [args.drawing])
     return run_explain_command(args)

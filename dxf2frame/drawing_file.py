@@ -22,7 +22,7 @@ from typing import Iterator
 import ezdxf
 from ezdxf import recover
 
-from .entity_dispatch import HANDLERS
+from .read.dispatch import HANDLERS
 from .errors import DrawingError, InputFileError
 from .settings import Settings
 

@@ -25,7 +25,7 @@ from solver.errors import MissingSectionError, SolverError, UnstableFrameError
 
 from .drawing_model import DrawingModel
 from .errors import AnalysisError, Dxf2FrameError, InputFileError, SettingsError, one_line
-from .reader import read_drawing
+from .read.reader import read_drawing
 from .settings import Settings, load_settings
 
 __all__ = [
@@ -396,8 +396,9 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
     """PNG preview: one panel per diagram for a solved frame (moment, shear,
     axial, reactions with the deflected shape), the whole drawing for an
     unstable one."""
-    from . import CAUTION, preview
-    from .writer import result_layer_names
+    from . import CAUTION
+    from .draw import preview
+    from .draw.writer import result_layer_names
 
     if not analysis.stable:
         preview.render_png(drawing, png)
@@ -441,8 +442,8 @@ def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
 
 def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     """:func:`solve_file` with the collector paused."""
-    from . import report as report_mod  # writers are imported lazily: check-only runs stay light
-    from . import writer  # the preview (matplotlib) is imported only when a PNG is asked for
+    from .report import report as report_mod  # writers are imported lazily: check-only runs stay light
+    from .draw import writer  # the preview (matplotlib) is imported only when a PNG is asked for
 
     source = Path(source)
     t_start = time.perf_counter()
@@ -500,7 +501,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 analysis.timings["png"] = time.perf_counter() - t0
                 written.append("png")
             if req.sheets and analysis.stable:
-                from . import handcheck
+                from .handcheck import sheets as handcheck
 
                 sheet_dir = staging / f"{paths['drawing'].stem}-sheets"
                 handcheck.write_sheets(analysis, sheet_dir, points=req.probes,

@@ -18,7 +18,7 @@ import pytest
 from hypothesis import given, settings as hsettings, strategies as st
 
 from dxf2frame.cli import main
-from dxf2frame.compare import (
+from dxf2frame.revisions import (
     FLOOR_FRACTION,
     MemberRef,
     compare_reports,

@@ -580,8 +580,8 @@ def test_output_folder_below_a_file_is_refused(tmp_path, capsys):
 @pytest.mark.parametrize("where", ["writer", "csv", "second-move"])
 def test_a_failure_while_writing_leaves_nothing(tmp_path, capsys, monkeypatch, where):
     import dxf2frame.pipeline as pipeline
-    import dxf2frame.report as report_mod
-    import dxf2frame.writer as writer
+    import dxf2frame.report.report as report_mod
+    import dxf2frame.draw.writer as writer
 
     if where == "writer":
         real = writer.write_result_drawing
@@ -792,7 +792,7 @@ def test_compare_accepts_what_solve_accepts(demo_copy, tmp_path, capsys, damage)
 def test_tiny_values_survive_report_rounding():
     import numpy as np
 
-    from dxf2frame.report_table import number_texts
+    from dxf2frame.report.table import number_texts
 
     tiny = [1e-300, -2.5e-308, 5e-324]
     # rounding to 12 significant digits leaves these representable values unchanged (IEEE 754 binary64)

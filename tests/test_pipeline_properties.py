@@ -51,7 +51,7 @@ from hypothesis import HealthCheck, given, settings as hsettings, strategies as 
 from dxf_builders import add_load, add_member, add_polyline, add_support, new_drawing
 from dxf2frame.cli import main
 from dxf2frame.pipeline import analyse
-from dxf2frame.reader import read_drawing
+from dxf2frame.read import read_drawing
 from dxf2frame.report import build_report
 from dxf2frame.settings import load_settings
 

@@ -30,7 +30,7 @@ from dxf_builders import (
     new_drawing,
     save,
 )
-from dxf2frame.cleanup import ConnectionSpec, ForceSpec, Segment, SupportSpec, UdlSpec, build_frame
+from dxf2frame.read.cleanup import ConnectionSpec, ForceSpec, Segment, SupportSpec, UdlSpec, build_frame
 from dxf2frame.errors import (
     DrawingError,
     GeometryError,
@@ -39,7 +39,7 @@ from dxf2frame.errors import (
     UnknownBlockError,
     UnsupportedEntityError,
 )
-from dxf2frame.reader import read_document, read_drawing
+from dxf2frame.read import read_document, read_drawing
 from dxf2frame.settings import Settings
 from solver import DistributedLoad, MemberCouple, NodalLoad, PointLoad, Settlement
 

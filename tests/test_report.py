@@ -430,7 +430,7 @@ def test_column_wise_report_reads_back_as_the_plain_report(tmp_path):
 def test_table_rows_match_their_json_lines():
     import numpy as np
 
-    from dxf2frame.report_table import Table
+    from dxf2frame.report.table import Table
 
     heads = [{"id": "a", "start": [0.0, 1.5]}, {"id": "b%s", "start": [2.0, 3.0], "elements": ["b-1", "b-2"]}]
     t = Table(heads, [("v", np.array([1.0 / 3.0, np.nan])), ("by", ["x", None]), ("ok", [True, None]),

@@ -22,7 +22,7 @@ from dxf2frame import CAUTION
 from dxf2frame.atomic import atomic_path, write_text
 from dxf2frame.drawing_model import DrawingModel
 from dxf2frame.errors import SettingsError
-from dxf2frame.writer import DEFAULT_OUTPUT_LAYERS, LabelPlacer, TEXT_STYLES
+from dxf2frame.draw.writer import DEFAULT_OUTPUT_LAYERS, LabelPlacer, TEXT_STYLES
 
 try:
     from tests import dxf_builders as B
@@ -35,7 +35,7 @@ pytest.importorskip("solver.results")
 
 from solver import DistributedLoad, Frame, NodalLoad, Section, check, combine, solve  # noqa: E402
 
-from dxf2frame import diagram_curves, preview, writer  # noqa: E402
+from dxf2frame.draw import curves as diagram_curves, preview, writer  # noqa: E402
 
 SEC = Section(E=200e9, A=5e-3, I=8e-5)
 RESULT_LAYERS = {n.upper() for n in DEFAULT_OUTPUT_LAYERS.values()}
@@ -587,7 +587,7 @@ def test_atomic_write_keeps_previous_version_on_failure(tmp_path):
 
 
 def test_reading_the_output_gives_the_same_model(tmp_path):
-    reader = pytest.importorskip("dxf2frame.reader")
+    reader = pytest.importorskip("dxf2frame.read")
     settings_mod = pytest.importorskip("dxf2frame.settings")
     L = 6.0
     src, _handle = beam_drawing(tmp_path, L=L)

@@ -32,12 +32,12 @@ displacement is about 4-5 % of it.
 Elements shorter than three text heights get outlines only: no fill, no
 labels, except the diagram's overall extreme.
 
-Which values get labels and where they go: :mod:`dxf2frame.labels`; how
+Which values get labels and where they go: :mod:`dxf2frame.draw.labels`; how
 the diagrams are sampled, thinned and joined into runs:
-:mod:`dxf2frame.diagram_curves`; what a drawing shows (one result or an
-envelope): :mod:`dxf2frame.result_selection`; the layers' colours,
-linetypes and text styles: :mod:`dxf2frame.result_style`; the legend and
-notes: :mod:`dxf2frame.legend`.
+:mod:`dxf2frame.draw.curves`; what a drawing shows (one result or an
+envelope): :mod:`dxf2frame.draw.selection`; the layers' colours,
+linetypes and text styles: :mod:`dxf2frame.draw.style`; the legend and
+notes: :mod:`dxf2frame.draw.legend`.
 
 DXF R12 drawings get the same content with R12 entities (POLYLINE, TEXT,
 ACI colours, no fills).
@@ -55,22 +55,22 @@ import shapely
 from ezdxf import recover
 from ezdxf.enums import TextEntityAlignment
 
-from .atomic import atomic_path
-from .diagram_curves import (_DIAGRAMS, _chord_tolerance, _curves, _drawn, _FlatCurve, _has_batch, _sample_batch,
+from ..atomic import atomic_path
+from .curves import (_DIAGRAMS, _chord_tolerance, _curves, _drawn, _FlatCurve, _has_batch, _sample_batch,
                              _sample_member_by_member, _segment_max, _straight_chains, _thin, _zero_crossings)
-from .errors import InputFileError, SettingsError
+from ..errors import InputFileError, SettingsError
 from .labels import (_OTHER_SIGN, _PRIORITY, _SAME_AT_JOINT, Box, LabelPlacer, _as_lines, _drawing_texts,
                      _element_labels, _fmt, _font, _Label, _merge_at_joints, _near, _place_labels, _Spot, _text_width)
 from .legend import _draw_legend_and_notes, _notes_paragraphs
-from .report import UnitFactors, unit_factors
-from .result_selection import Selection, select_results
-from .result_style import (DEFAULT_OUTPUT_LAYERS, LINETYPES, RESULT_LAYER_STYLES, TEXT_STYLES, LayerStyle, _Pen,
+from ..report.report import UnitFactors, unit_factors
+from .selection import Selection, select_results
+from .style import (DEFAULT_OUTPUT_LAYERS, LINETYPES, RESULT_LAYER_STYLES, TEXT_STYLES, LayerStyle, _Pen,
                            clear_result_layers, prepare_layers, result_layer_names)
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
 
-    from .drawing_model import DrawingModel
+    from ..drawing_model import DrawingModel
 
 __all__ = [
     "DEFAULT_OUTPUT_LAYERS",
@@ -133,14 +133,14 @@ def _nice_down(v: float) -> float:
 
 def _load_source(source: Path, settings: Any = None) -> "Drawing":
     """Read the drawing afresh, repairing a damaged file the way the reader
-    does (:func:`dxf2frame.reader.open_document`), so whatever the analysis
+    does (:func:`dxf2frame.read.open_document`), so whatever the analysis
     accepted can be annotated."""
     try:
-        from .reader import open_document
+        from ..read.reader import open_document
     except ImportError:  # pragma: no cover - reader not installed: plain ezdxf
         open_document = None
     if open_document is not None:
-        from .settings import Settings
+        from ..settings import Settings
 
         doc, _notes = open_document(source, settings if isinstance(settings, Settings) else None)
         return doc

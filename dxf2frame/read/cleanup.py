@@ -64,7 +64,7 @@ from solver import (
     Settlement,
 )
 
-from .errors import DrawingError, GeometryError
+from ..errors import DrawingError, GeometryError
 
 __all__ = [
     "Point",

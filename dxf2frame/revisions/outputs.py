@@ -17,8 +17,8 @@ from typing import Any, Mapping
 
 import numpy as np
 
-from .atomic import write_text
-from .revision_data import MEMBER_QUANTITIES, REACTION_QUANTITIES, Comparison, ValueChange
+from ..atomic import write_text
+from .data import MEMBER_QUANTITIES, REACTION_QUANTITIES, Comparison, ValueChange
 
 __all__ = ["comparison_table", "comparison_rows", "unit_labels", "CSV_COLUMNS", "write_comparison"]
 

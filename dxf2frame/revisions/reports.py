@@ -14,9 +14,9 @@ from typing import Any, Mapping
 
 import numpy as np
 
-from .errors import InputFileError
-from .revision_data import MEMBER_QUANTITIES, REACTION_QUANTITIES, MemberRef
-from .units import length_unit_scale, unit_factor
+from ..errors import InputFileError
+from .data import MEMBER_QUANTITIES, REACTION_QUANTITIES, MemberRef
+from ..units import length_unit_scale, unit_factor
 
 __all__ = ["convert_report"]
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import math
 
-from .report import UnitFactors
+from ..report.report import UnitFactors
 
 __all__ = ["fmt"]
 

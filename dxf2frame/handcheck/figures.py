@@ -30,8 +30,8 @@ from matplotlib.patches import Rectangle
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from matplotlib.axes import Axes
 
-    from .handcheck import FreeBody
-    from .report import UnitFactors
+    from .sheets import FreeBody
+    from ..report.report import UnitFactors
 
 __all__ = ["draw_free_body", "draw_element", "sheet_figure", "sheet_page"]
 
@@ -42,7 +42,7 @@ DIM = "#555555"
 
 
 def _fmt(v: float) -> str:
-    from .handcheck import fmt
+    from .sheets import fmt
 
     return fmt(v)
 

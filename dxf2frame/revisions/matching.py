@@ -4,7 +4,7 @@
 parallel members that overlap (split or merged members, through a shapely
 ``STRtree``), then parallel members on the same layer that moved a little;
 the rest are new or removed.  The rules are set out in
-:mod:`dxf2frame.compare`; the limits are :data:`PARALLEL_DEG`,
+:mod:`dxf2frame.revisions`; the limits are :data:`PARALLEL_DEG`,
 :data:`MOVE_FRACTION` and :data:`MIN_OVERLAP_FRACTION`.
 """
 from __future__ import annotations
@@ -14,7 +14,7 @@ from typing import Sequence
 
 import numpy as np
 
-from .revision_data import MemberRef
+from .data import MemberRef
 
 __all__ = ["PARALLEL_DEG", "MOVE_FRACTION", "MIN_OVERLAP_FRACTION", "match_members"]
 

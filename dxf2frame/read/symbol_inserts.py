@@ -2,11 +2,11 @@
 
 One function per symbol kind, called as ``handler(ctx, insert, kind,
 source)`` through :data:`_SYMBOL_HANDLERS` once
-:mod:`dxf2frame.entity_dispatch` has found a symbol on its own layer.
-Each appends a :class:`~dxf2frame.cleanup.SupportSpec`,
-:class:`~dxf2frame.cleanup.ConnectionSpec`,
-:class:`~dxf2frame.cleanup.ForceSpec`, :class:`~dxf2frame.cleanup.CoupleSpec`
-or :class:`~dxf2frame.cleanup.UdlSpec` to the reading state; a missing or
+:mod:`dxf2frame.read.dispatch` has found a symbol on its own layer.
+Each appends a :class:`~dxf2frame.read.cleanup.SupportSpec`,
+:class:`~dxf2frame.read.cleanup.ConnectionSpec`,
+:class:`~dxf2frame.read.cleanup.ForceSpec`, :class:`~dxf2frame.read.cleanup.CoupleSpec`
+or :class:`~dxf2frame.read.cleanup.UdlSpec` to the reading state; a missing or
 contradictory attribute is a :class:`~dxf2frame.errors.DrawingError`
 naming the insert.
 
@@ -29,8 +29,8 @@ from typing import Callable
 from ezdxf.math import Vec3
 
 from .cleanup import ConnectionSpec, CoupleSpec, ForceSpec, SupportSpec, UdlSpec
-from .errors import DrawingError, GeometryError
-from .reading_context import _Ctx, _Source
+from ..errors import DrawingError, GeometryError
+from .context import _Ctx, _Source
 
 _SPLIT_LIST = re.compile(r"[,;]")
 

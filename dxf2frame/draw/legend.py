@@ -18,12 +18,12 @@ from typing import TYPE_CHECKING
 
 from ezdxf.enums import TextEntityAlignment
 
-from . import CAUTION, __version__
+from .. import CAUTION, __version__
 from .labels import Box, _text_width
-from .report import UnitFactors
+from ..report.report import UnitFactors
 
 if TYPE_CHECKING:  # pragma: no cover
-    from .result_style import _Pen
+    from .style import _Pen
     from .writer import _FrameGeom
 
 

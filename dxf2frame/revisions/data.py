@@ -7,7 +7,7 @@ found in both revisions with its values; :class:`RevisionDiff` what
 changed between two consecutive revisions and :class:`Comparison` the
 whole series.  Each has ``to_dict`` (the comparison JSON).  The quantities
 compared and their dimensions: :data:`MEMBER_QUANTITIES`,
-:data:`REACTION_QUANTITIES`.  :func:`dxf2frame.compare.compare_reports`
+:data:`REACTION_QUANTITIES`.  :func:`dxf2frame.revisions.compare_reports`
 builds them.
 """
 from __future__ import annotations

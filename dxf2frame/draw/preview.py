@@ -26,7 +26,7 @@ from ezdxf.addons.drawing.properties import LayoutProperties
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
-from .atomic import write_bytes
+from ..atomic import write_bytes
 
 __all__ = ["render_png", "render_doc_png", "render_panels_png"]
 
@@ -39,7 +39,7 @@ _TEXT_TYPES = {"TEXT", "ATTRIB", "MTEXT", "ATTDEF"}
 
 def _load(dxf_path: Path) -> "ezdxf.document.Drawing":
     """Open the drawing the way the reader does (damaged files recovered)."""
-    from .reader import open_document
+    from ..read.reader import open_document
 
     doc, _notes = open_document(dxf_path)
     return doc

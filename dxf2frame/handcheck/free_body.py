@@ -4,7 +4,7 @@ Cuts a member at a point, chooses the side a checker would isolate (a side
 without supports by statics alone, else the side with fewer reaction
 components with the solved reactions, or for a member in a closed loop the
 piece to its nearer end with the member end forces), and collects the
-forces on it as :class:`~dxf2frame.handcheck_terms.Term` objects.  The
+forces on it as :class:`~dxf2frame.handcheck.terms.Term` objects.  The
 choice and the signs are set out in :mod:`dxf2frame.handcheck`.  N, V, M at
 the cut are the exact sums of the terms (N tension +, V clockwise +, M
 sagging +), in the frame's units (N, m for a frame read from a drawing).
@@ -18,9 +18,9 @@ from typing import TYPE_CHECKING, Any, Literal
 import networkx as nx
 import numpy as np
 
-from .handcheck_numbers import _SI, fmt
-from .handcheck_terms import Side, Term, _add_member_loads, _Builder, _case_text
-from .report import UnitFactors
+from .numbers import _SI, fmt
+from .terms import Side, Term, _add_member_loads, _Builder, _case_text
+from ..report.report import UnitFactors
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from solver import Frame

@@ -24,9 +24,9 @@ from dataclasses import dataclass, field
 from ezdxf.math import Vec3
 
 from .cleanup import ConnectionSpec, Segment, SupportSpec
-from .errors import GeometryError
-from .settings import Settings
-from .units import parse_quantity
+from ..errors import GeometryError
+from ..settings import Settings
+from ..units import parse_quantity
 
 __all__ = ["MAX_COORDINATE_M"]
 

@@ -64,16 +64,16 @@ from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping, Se
 
 import numpy as np
 
-from . import CAUTION, __version__
-from .atomic import atomic_open
-from .errors import DrawingError
-from .report_table import DictColumn, Table, as_written
-from .units import length_unit_scale, unit_factor
+from .. import CAUTION, __version__
+from ..atomic import atomic_open
+from ..errors import DrawingError
+from .table import DictColumn, Table, as_written
+from ..units import length_unit_scale, unit_factor
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from solver import Frame, Member
 
-    from .drawing_model import DrawingModel
+    from ..drawing_model import DrawingModel
 
 __all__ = [
     "UnitFactors",

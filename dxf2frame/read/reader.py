@@ -98,10 +98,10 @@ the explicit snap count as zero.
 Where the parts live
 --------------------
 The reading state and the point checks in
-:mod:`dxf2frame.reading_context`, the member linework in
-:mod:`dxf2frame.linework`, the symbols in :mod:`dxf2frame.symbol_inserts`,
+:mod:`dxf2frame.read.context`, the member linework in
+:mod:`dxf2frame.read.linework`, the symbols in :mod:`dxf2frame.read.symbol_inserts`,
 the dispatch table and block references in
-:mod:`dxf2frame.entity_dispatch`, opening the file in
+:mod:`dxf2frame.read.dispatch`, opening the file in
 :mod:`dxf2frame.drawing_file`; this module checks the drawing as a whole
 (entity count, shared handles, unit, precision) and builds the model.
 Every public name is importable from here.
@@ -112,13 +112,13 @@ import math
 from pathlib import Path
 
 from .cleanup import build_frame, default_tolerance
-from .drawing_file import _describe, open_document
-from .drawing_model import DrawingModel
-from .entity_dispatch import _ENTITY_DATA_ERRORS, HANDLERS, SYMBOL_GROUPS
-from .errors import DrawingError, GeometryError, InputFileError
-from .reading_context import MAX_COORDINATE_M, _Ctx, _Source
-from .settings import Settings, load_settings
-from .units import INSUNITS, length_unit_scale, normalise_length_unit, parse_quantity
+from ..drawing_file import _describe, open_document
+from ..drawing_model import DrawingModel
+from .dispatch import _ENTITY_DATA_ERRORS, HANDLERS, SYMBOL_GROUPS
+from ..errors import DrawingError, GeometryError, InputFileError
+from .context import MAX_COORDINATE_M, _Ctx, _Source
+from ..settings import Settings, load_settings
+from ..units import INSUNITS, length_unit_scale, normalise_length_unit, parse_quantity
 
 __all__ = ["read_drawing", "read_document", "open_document", "HANDLERS", "SYMBOL_GROUPS", "MAX_COORDINATE_M",
            "MAX_RELATIVE_ROUNDING"]

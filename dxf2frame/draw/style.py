@@ -24,8 +24,8 @@ import numpy as np
 from ezdxf import colors as ezcolors
 from ezdxf.enums import TextEntityAlignment
 
-from .errors import SettingsError
-from .settings import DEFAULT_OUTPUT_LAYERS as _SETTINGS_OUTPUT_LAYERS
+from ..errors import SettingsError
+from ..settings import DEFAULT_OUTPUT_LAYERS as _SETTINGS_OUTPUT_LAYERS
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing

@@ -41,11 +41,11 @@ Outputs: :func:`comparison_table` (terminal), :func:`write_comparison`
 (CSV and JSON), :func:`mark_changes` (a copy of the newest drawing with a
 layer of revision clouds and ``old -> new`` texts).
 
-Where the parts live: the data classes in :mod:`dxf2frame.revision_data`,
-reading and converting reports in :mod:`dxf2frame.revision_reports`,
-matching in :mod:`dxf2frame.revision_match`, the tables, CSV and JSON in
-:mod:`dxf2frame.revision_output`, the marked drawing in
-:mod:`dxf2frame.revision_marks`; this module compares and runs the
+Where the parts live: the data classes in :mod:`dxf2frame.revisions.data`,
+reading and converting reports in :mod:`dxf2frame.revisions.reports`,
+matching in :mod:`dxf2frame.revisions.matching`, the tables, CSV and JSON in
+:mod:`dxf2frame.revisions.outputs`, the marked drawing in
+:mod:`dxf2frame.revisions.marks`; this module compares and runs the
 ``compare`` command.  Every public name is importable from here.
 
 Example
@@ -71,14 +71,14 @@ from typing import Iterable, Mapping, Sequence
 
 import numpy as np
 
-from .errors import InputFileError
-from .revision_data import (FLOOR_FRACTION, MEMBER_QUANTITIES, REACTION_QUANTITIES, Comparison, MemberChange,
+from ..errors import InputFileError
+from .data import (FLOOR_FRACTION, MEMBER_QUANTITIES, REACTION_QUANTITIES, Comparison, MemberChange,
                             MemberRef, ReactionChange, RevisionDiff, ValueChange)
-from .revision_marks import cloud_points, mark_changes
-from .revision_match import MOVE_FRACTION, PARALLEL_DEG, match_members
-from .revision_output import CSV_COLUMNS, comparison_rows, comparison_table, unit_labels, write_comparison
-from .revision_reports import _check_report, _member_governing, _member_refs, _support_governing, convert_report
-from .units import length_unit_scale, unit_factor
+from .marks import cloud_points, mark_changes
+from .matching import MOVE_FRACTION, PARALLEL_DEG, match_members
+from .outputs import CSV_COLUMNS, comparison_rows, comparison_table, unit_labels, write_comparison
+from .reports import _check_report, _member_governing, _member_refs, _support_governing, convert_report
+from ..units import length_unit_scale, unit_factor
 
 __all__ = [
     "DEFAULT_THRESHOLD",
@@ -265,9 +265,9 @@ def _load_json_report(path: Path) -> dict:
 
 def _report_of_drawing(path: Path, args, units: tuple[str, str] | None):
     """Solve a drawing in memory and build its report (nothing written)."""
-    from . import report as report_mod
-    from .pipeline import analyse
-    from .settings import load_settings
+    from ..report import report as report_mod
+    from ..pipeline import analyse
+    from ..settings import load_settings
 
     settings = load_settings(getattr(args, "settings", None), path)
     an = analyse(path, settings, length_unit=getattr(args, "length_unit", None))
@@ -311,7 +311,7 @@ def run_compare_command(args, *, stream=None) -> int:
     (fraction, default from the newest revision's settings), ``units``
     (``"FORCE,LENGTH"``), ``settings``, ``length_unit``.
     """
-    from .settings import load_settings
+    from ..settings import load_settings
 
     stream = stream or sys.stdout
     paths = [Path(p) for p in args.revisions]

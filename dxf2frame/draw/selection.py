@@ -7,7 +7,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Sequence
 
-from .errors import SettingsError
+from ..errors import SettingsError
 
 __all__ = ["Selection", "select_results"]
 

@@ -1,13 +1,13 @@
 """The dispatch table, and block references read through it.
 
 :data:`HANDLERS` maps a DXF entity type to its handler, ``handler(ctx,
-entity, source)``: the linework of :mod:`dxf2frame.linework` and
+entity, source)``: the linework of :mod:`dxf2frame.read.linework` and
 ``INSERT``; types not listed are ignored.  An ``INSERT`` (each cell of a
 MINSERT grid on its own, handle ``<insert>.i``) is
 
 * on an input layer (``SUPPORTS``, ``CONNECTIONS``, ``LOADS``): a
   convention symbol of that layer's group (:data:`SYMBOL_GROUPS`), read by
-  :mod:`dxf2frame.symbol_inserts`; any other block there is an
+  :mod:`dxf2frame.read.symbol_inserts`; any other block there is an
   :class:`~dxf2frame.errors.UnknownBlockError`;
 * elsewhere: a convention symbol is ignored with a warning; any other
   block with something to read is exploded (ezdxf ``virtual_entities()``,
@@ -30,9 +30,9 @@ from typing import Callable
 import ezdxf
 from ezdxf.dynblkhelper import get_dynamic_block_definition
 
-from .errors import GeometryError, UnknownBlockError
+from ..errors import GeometryError, UnknownBlockError
 from .linework import _handle_curve, _handle_line, _handle_lwpolyline, _handle_polyline, _handle_solid3d
-from .reading_context import _Ctx, _Source
+from .context import _Ctx, _Source
 from .symbol_inserts import _SYMBOL_HANDLERS
 
 __all__ = ["HANDLERS", "SYMBOL_GROUPS"]

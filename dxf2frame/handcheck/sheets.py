@@ -69,11 +69,11 @@ drawing gives the same sheets.  Every file is written atomically.
 
 Where the parts live
 --------------------
-Number formatting in :mod:`dxf2frame.handcheck_numbers`, the terms in
-:mod:`dxf2frame.handcheck_terms`, the cut and the choice of the free body
-in :mod:`dxf2frame.handcheck_free_body`, the sheet's Markdown and text in
-:mod:`dxf2frame.handcheck_sheet`, the figures in
-:mod:`dxf2frame.handcheck_figures`; this module picks the cuts of an
+Number formatting in :mod:`dxf2frame.handcheck.numbers`, the terms in
+:mod:`dxf2frame.handcheck.terms`, the cut and the choice of the free body
+in :mod:`dxf2frame.handcheck.free_body`, the sheet's Markdown and text in
+:mod:`dxf2frame.handcheck.wording`, the figures in
+:mod:`dxf2frame.handcheck.figures`; this module picks the cuts of an
 analysed drawing, writes the files and runs the ``explain`` command.
 Every public name is importable from here.
 
@@ -96,17 +96,17 @@ import re
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable, Sequence
 
-from . import CAUTION
-from .atomic import atomic_path, write_text
-from .errors import Dxf2FrameError
-from .handcheck_free_body import FreeBody, Method, _member_value, cut_free_body
-from .handcheck_numbers import _SI, fmt
-from .handcheck_sheet import SheetHeader, sheet_markdown, sheet_text
-from .handcheck_terms import DistributedPart, Side, Term
-from .report import UnitFactors, locate_points, member_groups, unit_factors
+from .. import CAUTION
+from ..atomic import atomic_path, write_text
+from ..errors import Dxf2FrameError
+from .free_body import FreeBody, Method, _member_value, cut_free_body
+from .numbers import _SI, fmt
+from .wording import SheetHeader, sheet_markdown, sheet_text
+from .terms import DistributedPart, Side, Term
+from ..report.report import UnitFactors, locate_points, member_groups, unit_factors
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
-    from .pipeline import Analysis
+    from ..pipeline import Analysis
 
 __all__ = [
     "Term",
@@ -162,7 +162,7 @@ def write_cut_sheets(
     """
     from matplotlib.backends.backend_pdf import PdfPages
 
-    from .handcheck_figures import sheet_figure, sheet_page
+    from .figures import sheet_figure, sheet_page
 
     uf = units or _SI
     folder = Path(folder)
@@ -382,8 +382,8 @@ def run_explain_command(args) -> int:
     ``settings`` (Path or None), ``length_unit`` (str or None).
     Returns the exit status (0 written, 3 unstable frame).
     """
-    from .pipeline import EXIT_OK, EXIT_UNSTABLE, analyse
-    from .settings import load_settings
+    from ..pipeline import EXIT_OK, EXIT_UNSTABLE, analyse
+    from ..settings import load_settings
 
     drawing = Path(args.drawing)
     settings = load_settings(getattr(args, "settings", None), drawing)

@@ -1,7 +1,7 @@
 """Member centrelines: linework on the member layers -> straight segments.
 
 One handler per kind of linework, each called as ``handler(ctx, entity,
-source)`` through :data:`dxf2frame.entity_dispatch.HANDLERS`; an entity off
+source)`` through :data:`dxf2frame.read.dispatch.HANDLERS`; an entity off
 the member layers (``FRAME``, ``FRAME-*``) is left alone.
 
 * ``LINE``, ``LWPOLYLINE``, 2D ``POLYLINE`` and a 3D ``POLYLINE`` whose
@@ -14,7 +14,7 @@ the member layers (``FRAME``, ``FRAME-*``) is left alone.
   surfaces, ...): an error.
 
 Units: vertices in drawing units (OCS points taken to the WCS, the Z and
-extrusion checks of :class:`~dxf2frame.reading_context._Ctx` applied); the
+extrusion checks of :class:`~dxf2frame.read.context._Ctx` applied); the
 segments stored are in metres, numbered from the entity's first point.
 A bulge is the tangent of a quarter of the included angle, positive
 counter-clockwise.
@@ -25,8 +25,8 @@ import math
 
 from ezdxf.math import Vec3, bulge_center
 
-from .errors import GeometryError, UnsupportedEntityError
-from .reading_context import _Ctx, _Source
+from ..errors import GeometryError, UnsupportedEntityError
+from .context import _Ctx, _Source
 
 
 # ---------------------------------------------------------------------------

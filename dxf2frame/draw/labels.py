@@ -72,12 +72,12 @@ from typing import TYPE_CHECKING, Iterable, Sequence
 import numpy as np
 import shapely
 
-from .result_style import TEXT_STYLES, _Pen
+from .style import TEXT_STYLES, _Pen
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
 
-    from .diagram_curves import _Curve
+    from .curves import _Curve
 
 __all__ = ["LabelPlacer"]
 

@@ -17,12 +17,12 @@ import textwrap
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
-from . import CAUTION
-from .handcheck_numbers import _SI, fmt
-from .report import UnitFactors
+from .. import CAUTION
+from .numbers import _SI, fmt
+from ..report.report import UnitFactors
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
-    from .handcheck_free_body import FreeBody
+    from .free_body import FreeBody
 
 __all__ = ["SheetHeader", "sheet_markdown", "sheet_text"]
 

@@ -13,11 +13,11 @@ from typing import Mapping
 
 import numpy as np
 
-from .atomic import atomic_path
-from .errors import InputFileError
-from .revision_data import Comparison, MemberRef, ValueChange
-from .revision_output import _fmt, _pct, _pt, unit_labels
-from .units import length_unit_scale
+from ..atomic import atomic_path
+from ..errors import InputFileError
+from .data import Comparison, MemberRef, ValueChange
+from .outputs import _fmt, _pct, _pt, unit_labels
+from ..units import length_unit_scale
 
 __all__ = ["cloud_points", "mark_changes"]
 
@@ -48,7 +48,7 @@ def cloud_points(xmin: float, ymin: float, xmax: float, ymax: float, arc: float)
 
 
 def _drawing_unit(doc, fallback: str | None) -> str:
-    from .units import INSUNITS
+    from ..units import INSUNITS
 
     code = int(doc.header.get("$INSUNITS", 0) or 0)
     if code in INSUNITS:
@@ -100,8 +100,8 @@ def mark_changes(
     (``units.drawing_length``) when the header does not; ``drawing_unit``
     overrides both.
     """
-    from .reader import open_document
-    from .settings import Settings
+    from ..read.reader import open_document
+    from ..settings import Settings
 
     src = Path(newest_dxf_source)
     # the same opening path as check and solve: damaged files are recovered
