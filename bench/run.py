@@ -150,8 +150,8 @@ def _install_timers() -> _StageClock:
     import dxf2frame.read.reader as reader
     import dxf2frame.report.report as report
     import dxf2frame.draw.writer as writer
-    import solver.forces as forces
-    import solver.stiffness as stiffness
+    import dxf2frame.solver.forces as forces
+    import dxf2frame.solver.stiffness as stiffness
 
     clock = _StageClock()
     clock.patch(pipeline, "read_drawing", "read")

@@ -19,7 +19,7 @@ def _say(*lines: str) -> None:
 
 
 def run_check(args) -> int:
-    from solver import check
+    from .solver import check
 
     from .pipeline import EXIT_OK, EXIT_UNSTABLE
     from .read.reader import read_drawing

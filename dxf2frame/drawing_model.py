@@ -5,7 +5,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from solver import Frame
+from .solver import Frame
 
 __all__ = ["DrawingModel"]
 

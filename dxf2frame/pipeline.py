@@ -19,9 +19,9 @@ from pathlib import Path
 
 import numpy as np
 
-from solver import CaseResult, Determinacy, check, combine, solve
-from solver.combinations import builtin_combinations, format_combination, parse_combination
-from solver.errors import MissingSectionError, SolverError, UnstableFrameError
+from .solver import CaseResult, Determinacy, check, combine, solve
+from .solver.combinations import builtin_combinations, format_combination, parse_combination
+from .solver.errors import MissingSectionError, SolverError, UnstableFrameError
 
 from .drawing_model import DrawingModel
 from .errors import AnalysisError, Dxf2FrameError, InputFileError, SettingsError, one_line

@@ -54,7 +54,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Mapping
 
-from solver import Section
+from .solver import Section
 
 from .errors import SettingsError, UnitError
 from .units import normalise_length_unit, parse_quantity, unit_factor

@@ -8,7 +8,7 @@ Two tests are made and reported side by side.
 
 Classical count
     ``r + 3m`` against ``3j + c`` with r reaction components (each rigid
-    restraint and each spring of a :class:`~solver.model.Support` counts
+    restraint and each spring of a :class:`~dxf2frame.solver.model.Support` counts
     one), m members, j nodes and c condition equations of the releases:
     one per released member end, minus one per *pure pin* (a node where
     every member end is released and nothing restrains its rotation; a
@@ -90,7 +90,7 @@ Mode shapes
 
 Examples
 --------
->>> from solver.model import Frame
+>>> from dxf2frame.solver.model import Frame
 >>> f = Frame()
 >>> a, b = f.add_node(0.0, 0.0), f.add_node(6.0, 0.0)
 >>> _ = f.add_member(a, b)

@@ -6,9 +6,9 @@ load case or combination as arrays and works on every member at once
 (tables of extremes, sampling, critical points).  Both evaluate the
 piecewise polynomials of :mod:`solver.pieces` (a single member uses the
 same code with one member); the member loads and geometry are
-:class:`~solver.member_data.LoadSet` and
-:class:`~solver.member_data.MemberLayout`, and the root finder is
-:func:`~solver.polynomials.real_roots_unit` (all re-exported here).
+:class:`~dxf2frame.solver.member_data.LoadSet` and
+:class:`~dxf2frame.solver.member_data.MemberLayout`, and the root finder is
+:func:`~dxf2frame.solver.polynomials.real_roots_unit` (all re-exported here).
 
 Sign convention (local x from the member start, local y turned 90 degrees
 counter-clockwise): N tension positive; V positive when it turns the
@@ -94,7 +94,7 @@ class MemberResult:
     A 6 m simple span under 10 (force/length) downward, held up by 30 at
     each end:
 
-    >>> from solver.forces import LoadSet, MemberResult
+    >>> from dxf2frame.solver.forces import LoadSet, MemberResult
     >>> q = LoadSet.build(distributed=[(0.0, 6.0, 0.0, -10.0, 0.0, -10.0)])
     >>> mr = MemberResult(6.0, 1.0, 0.0, [0, 30, 0, 0, 30, 0], q)
     >>> mr.moment(3.0), mr.shear(6.0, side="left")

@@ -16,7 +16,7 @@ Examples
 --------
 A simply supported 6 m beam under 10 kN/m (SI units):
 
->>> from solver import Frame, Section, DistributedLoad, solve
+>>> from dxf2frame.solver import Frame, Section, DistributedLoad, solve
 >>> f = Frame()
 >>> a, b = f.add_node(0.0, 0.0), f.add_node(6.0, 0.0)
 >>> m = f.add_member(a, b, Section(E=200e9, A=5e-3, I=8e-5))

@@ -3,7 +3,7 @@ member forces, with superposition and envelopes.
 
 A :class:`CaseResult` is linear in the loads, so a combination is the sum
 of scaled case results (:func:`combine`); member diagrams stay exact
-because a :class:`~solver.forces.MemberResults` adds end forces and
+because a :class:`~dxf2frame.solver.forces.MemberResults` adds end forces and
 concatenates the (scaled) member loads.
 
 Sign conventions: reactions are the forces the supports exert on the
@@ -84,7 +84,7 @@ class CaseResult:
         no single node rotation; rz is reported as 0 there.
     reactions : one :class:`Reaction` per support, in ``Frame.supports`` order
     members : {member id: MemberResult} (a lazy mapping; see
-        :class:`~solver.forces.MemberResults`, whose ``table()`` gives the
+        :class:`~dxf2frame.solver.forces.MemberResults`, whose ``table()`` gives the
         extremes of all members at once)
     family : name of the set a combination belongs to ("LRFD", "ASD",
         "user", ...), "" for a load case

@@ -182,7 +182,7 @@ def fixed_end_forces(length, loads: LoadSet, release_start=False, release_end=Fa
     nodes exert on each member, local axes, when both end nodes are held
     still, released ends free to rotate (condensed: their moment is zero).
 
-    ``loads`` is a :class:`~solver.forces.LoadSet` indexed by member.
+    ``loads`` is a :class:`~dxf2frame.solver.forces.LoadSet` indexed by member.
     """
     L = np.atleast_1d(np.asarray(length, dtype=float))
     f = _fef_clamped(L, loads)

@@ -16,8 +16,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from solver import DistributedLoad, Frame, Section, combine, envelope, solve
-from solver.combinations import (
+from dxf2frame.solver import DistributedLoad, Frame, Section, combine, envelope, solve
+from dxf2frame.solver.combinations import (
     ASCE7_EDITION,
     CombinationSyntaxError,
     builtin_combinations,
@@ -25,7 +25,7 @@ from solver.combinations import (
     format_combination,
     parse_combination,
 )
-from solver.results import combine_many, reaction_envelope
+from dxf2frame.solver.results import combine_many, reaction_envelope
 
 E, A, I = 200e9, 5e-3, 8e-5
 ALL = ["D", "L", "Lr", "S", "R", "W", "E"]

@@ -16,9 +16,9 @@ import pytest
 import sympy
 from hypothesis import given, settings, strategies as st
 
-import solver.determinacy as det
-from solver.determinacy import Determinacy, FrameDataError, check
-from solver.model import DistributedLoad, Frame, MemberCouple, NodalLoad, PointLoad, Support
+import dxf2frame.solver.determinacy as det
+from dxf2frame.solver.determinacy import Determinacy, FrameDataError, check
+from dxf2frame.solver.model import DistributedLoad, Frame, MemberCouple, NodalLoad, PointLoad, Support
 
 PIN_BOTH = dict(release_start=True, release_end=True)
 

@@ -16,7 +16,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from solver import DistributedLoad, Frame, MemberCouple, NodalLoad, PointLoad, Section, solve
+from dxf2frame.solver import DistributedLoad, Frame, MemberCouple, NodalLoad, PointLoad, Section, solve
 
 from dxf2frame import CAUTION
 from dxf2frame.handcheck import (
@@ -289,7 +289,7 @@ def test_determinate_frame_cuts_in_every_member_and_combination():
     # The only support is at the column foot, so every cut has a support-free
     # side: the sheet's equations are statics of that side alone and must
     # reproduce the solver's values (equilibrium, independent route).
-    from solver import combine
+    from dxf2frame.solver import combine
 
     f = _l_frame()
     cases = solve(f)
@@ -379,7 +379,7 @@ def test_portal_with_fixed_feet_takes_the_side_with_fewer_reactions():
 def test_sheet_equals_solver_anywhere(x, member, fd, fl):
     # Equilibrium of the isolated part (statics) against the solver's member
     # functions, at random points and factors.
-    from solver import combine
+    from dxf2frame.solver import combine
 
     f = _l_frame()
     cases = solve(f)
@@ -398,7 +398,7 @@ def test_sheet_text_and_files(tmp_path: Path):
     f.add_load(DistributedLoad(m.id, q1=(0.0, -w), handle="3C"))
     f.add_load(PointLoad(m.id, 1.0, py=-5e3, case="L", handle="4D"))
     cases = solve(f)
-    from solver import combine
+    from dxf2frame.solver import combine
 
     combo = combine(cases, {"D": 1.2, "L": 1.6}, "1.2D+1.6L")
     uf = unit_factors("kN", "m")

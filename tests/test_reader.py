@@ -41,7 +41,7 @@ from dxf2frame.errors import (
 )
 from dxf2frame.read import read_document, read_drawing
 from dxf2frame.settings import Settings
-from solver import DistributedLoad, MemberCouple, NodalLoad, PointLoad, Settlement
+from dxf2frame.solver import DistributedLoad, MemberCouple, NodalLoad, PointLoad, Settlement
 
 KIP = 4448.2216152605  # N (NIST SP 811, exact by definition)
 FT = 0.3048  # m (NIST SP 811, exact by definition)

@@ -12,11 +12,11 @@ from pathlib import Path
 
 import pytest
 
-solver = pytest.importorskip("solver")
-pytest.importorskip("solver.forces")
-pytest.importorskip("solver.results")
+solver = pytest.importorskip("dxf2frame.solver")
+pytest.importorskip("dxf2frame.solver.forces")
+pytest.importorskip("dxf2frame.solver.results")
 
-from solver import DistributedLoad, Frame, NodalLoad, Section, Settlement, check, combine, solve  # noqa: E402
+from dxf2frame.solver import DistributedLoad, Frame, NodalLoad, Section, Settlement, check, combine, solve  # noqa: E402
 
 from dxf2frame import CAUTION  # noqa: E402
 from dxf2frame.drawing_model import DrawingModel  # noqa: E402

@@ -16,7 +16,7 @@ import pytest
 import sympy as sy
 from sympy.physics.continuum_mechanics.beam import Beam
 
-from solver import (
+from dxf2frame.solver import (
     DistributedLoad,
     Frame,
     LoadError,

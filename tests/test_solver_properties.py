@@ -21,7 +21,7 @@ import numpy as np
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from solver import (
+from dxf2frame.solver import (
     DistributedLoad,
     Frame,
     MemberCouple,

@@ -29,11 +29,11 @@ try:
 except ImportError:  # tests/ itself on sys.path
     import dxf_builders as B
 
-solver = pytest.importorskip("solver")
-pytest.importorskip("solver.forces")
-pytest.importorskip("solver.results")
+solver = pytest.importorskip("dxf2frame.solver")
+pytest.importorskip("dxf2frame.solver.forces")
+pytest.importorskip("dxf2frame.solver.results")
 
-from solver import DistributedLoad, Frame, NodalLoad, Section, check, combine, solve  # noqa: E402
+from dxf2frame.solver import DistributedLoad, Frame, NodalLoad, Section, check, combine, solve  # noqa: E402
 
 from dxf2frame.draw import curves as diagram_curves, preview, writer  # noqa: E402
 

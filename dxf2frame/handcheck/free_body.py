@@ -23,7 +23,7 @@ from .terms import Side, Term, _add_member_loads, _Builder, _case_text
 from ..report.report import UnitFactors
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
-    from solver import Frame
+    from ..solver import Frame
 
 __all__ = ["Method", "FreeBody", "cut_free_body"]
 
@@ -203,7 +203,7 @@ def cut_free_body(
         return a <= x + tol if limit == "right" else a < x - tol
 
     # loads of this result, by member and by node
-    from solver import DistributedLoad, MemberCouple, NodalLoad, PointLoad, Settlement
+    from ..solver import DistributedLoad, MemberCouple, NodalLoad, PointLoad, Settlement
 
     loads_by_member: dict[str, list[tuple[Any, float]]] = {}
     nodal: list[tuple[Any, float]] = []

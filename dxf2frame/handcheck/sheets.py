@@ -18,7 +18,7 @@ graph (removing it leaves its two end nodes unconnected).
   (its cut forces follow from its loads by statics alone, method
   ``"statics"``); if both sides carry supports, the side with fewer
   non-zero reaction components is used and the reactions are taken as
-  already solved (values from the :class:`~solver.results.CaseResult`,
+  already solved (values from the :class:`~dxf2frame.solver.results.CaseResult`,
   method ``"reactions"``).  Ties go to the side with fewer forces, then to
   the start side.  A loop *inside* a support-free side does not matter:
   equilibrium of the whole isolated part holds whatever its internal
@@ -79,7 +79,7 @@ Every public name is importable from here.
 
 Example
 -------
->>> from solver import Frame, PointLoad, solve
+>>> from dxf2frame.solver import Frame, PointLoad, solve
 >>> f = Frame()
 >>> a, b = f.add_node(0.0, 0.0), f.add_node(4.0, 0.0)
 >>> m = f.add_member(a, b)

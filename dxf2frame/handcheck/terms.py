@@ -21,7 +21,7 @@ from typing import TYPE_CHECKING, Any, Callable, Literal
 import numpy as np
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
-    from solver import Frame
+    from ..solver import Frame
 
 __all__ = ["Side", "DistributedPart", "Term"]
 
@@ -159,7 +159,7 @@ def _add_member_loads(
     ``own(a)`` says whether a concentrated load at ``a`` belongs to this
     free body (decides loads exactly at the cut).
     """
-    from solver import DistributedLoad, MemberCouple, PointLoad
+    from ..solver import DistributedLoad, MemberCouple, PointLoad
 
     mem = frame.member(mid)
     L, c, s = frame.geometry(mem)

@@ -54,7 +54,7 @@ from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
-from solver import (
+from ..solver import (
     DistributedLoad,
     Frame,
     MemberCouple,

@@ -71,7 +71,7 @@ from .table import DictColumn, Table, as_written
 from ..units import length_unit_scale, unit_factor
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
-    from solver import Frame, Member
+    from ..solver import Frame, Member
 
     from ..drawing_model import DrawingModel
 
