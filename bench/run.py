@@ -154,7 +154,7 @@ def _install_timers() -> _StageClock:
     import dxf2frame.solver.stiffness as stiffness
 
     clock = _StageClock()
-    clock.patch(pipeline, "read_drawing", "read")
+    clock.patch(pipeline, "read_file", "read")
     clock.patch(reader, "build_frame", "clean")
     clock.patch(pipeline, "check", "check")
     clock.patch(pipeline, "solve", "assemble")

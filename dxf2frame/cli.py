@@ -35,6 +35,16 @@ def _probe(text: str) -> tuple[float, float]:
     return x, y
 
 
+def _units(text: str) -> tuple[str, str]:
+    """``--units FORCE,LENGTH`` of every command: two known units of the right kind."""
+    from .units import force_length_units
+
+    try:
+        return force_length_units(text)
+    except Dxf2FrameError as exc:
+        raise argparse.ArgumentTypeError(one_line(str(exc))) from None
+
+
 def _common(p: argparse.ArgumentParser) -> None:
     p.add_argument("--settings", type=Path, metavar="TOML",
                    help="settings file (default: dxf2frame.toml beside the drawing, else built-in defaults)")
@@ -91,7 +101,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="result drawing (.dxf, one input) or folder (default: 'solved' beside each input)")
     p.add_argument("--report", type=Path, metavar="JSON",
                    help="JSON report path (one input only; default beside the result drawing)")
-    p.add_argument("--units", metavar="FORCE,LENGTH",
+    p.add_argument("--units", type=_units, metavar="FORCE,LENGTH",
                    help="units of the report, e.g. kN,m or kip,ft (default: settings force unit, drawing unit)")
     p.add_argument("--probe", type=_probe, action="append", default=[], metavar="X,Y",
                    help="report N, V, M at this drawing point (repeatable)")
@@ -123,7 +133,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", type=Path, metavar="FOLDER", help="where to write (default: 'compared' beside the newest)")
     p.add_argument("--threshold", type=float, metavar="FRACTION",
                    help="flag changes larger than this fraction (default from settings: 0.05)")
-    p.add_argument("--units", metavar="FORCE,LENGTH", help="units of the comparison, e.g. kN,m")
+    p.add_argument("--units", type=_units, metavar="FORCE,LENGTH", help="units of the comparison, e.g. kN,m")
     _common(p)
 
     p = sub.add_parser(
@@ -143,7 +153,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--result", metavar="NAME",
                    help="load case or combination (default: the governing strength combination per point)")
     p.add_argument("--out", type=Path, metavar="FOLDER", help="where to write (default: 'sheets' beside the drawing)")
-    p.add_argument("--units", metavar="FORCE,LENGTH", help="units on the sheet, e.g. kN,m")
+    p.add_argument("--units", type=_units, metavar="FORCE,LENGTH", help="units on the sheet, e.g. kN,m")
     _common(p)
 
     p = sub.add_parser(

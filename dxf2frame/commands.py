@@ -89,18 +89,129 @@ def _output_folder(out: Path | None, inputs: list[Path]) -> None:
             return
 
 
-def run_compare(args) -> int:
-    from .revisions.compare import run_compare_command
+def run_compare(args, *, stream=None) -> int:
+    """The ``compare`` command: returns 0 (changes or not).
 
-    _output_folder(getattr(args, "out", None), list(args.revisions))
-    return run_compare_command(args)
+    ``args``: ``revisions`` (paths, oldest first; ``.dxf`` drawings are
+    solved in memory, anything else is read as a JSON report), ``out``
+    (folder, default ``compared`` beside the newest input), ``threshold``
+    (fraction, default from the newest revision's settings), ``units``
+    ((force, length) or None), ``settings``, ``length_unit``.
+    """
+    import sys
+
+    from .errors import InputFileError
+    from .revisions import compare_reports, comparison_table, mark_changes, write_comparison
+    from .settings import load_settings
+
+    _output_folder(args.out, list(args.revisions))
+    stream = stream or sys.stdout
+    paths = [Path(p) for p in args.revisions]
+    if len(paths) < 2:
+        raise InputFileError("compare needs two or more revisions (drawings or JSON reports), oldest first")
+    for p in paths:
+        if not p.is_file():
+            raise InputFileError(f"{p}: no such file")
+    units = args.units
+    reports: list[dict] = []
+    settings = None
+    for p in paths:
+        if p.suffix.lower() == ".dxf":
+            rep, settings = _report_of_drawing(p, args, units)
+        else:
+            rep = _load_json_report(p)
+            settings = None
+        reports.append(rep)
+    newest = paths[-1]
+    newest_dxf = newest if newest.suffix.lower() == ".dxf" else _drawing_for_report(newest, reports[-1])
+    if settings is None:
+        settings = load_settings(args.settings, newest_dxf or newest)
+    threshold = args.threshold if args.threshold is not None else settings.compare_threshold
+    cmp = compare_reports(reports, threshold=threshold, units=units)
+
+    print(comparison_table(cmp), file=stream, end="")
+    out = Path(args.out) if args.out else newest.parent / "compared"
+    written = write_comparison(cmp, out, stem=f"{newest.stem}-comparison")
+    if newest_dxf is not None:
+        written["drawing"] = mark_changes(newest_dxf, reports[-1], cmp, out / f"{newest_dxf.stem}-changes.dxf",
+                                          settings, drawing_unit=args.length_unit
+                                          if newest.suffix.lower() == ".dxf" else None)
+    else:
+        print(f"note: the drawing of {newest} was not found beside it; no marked drawing written", file=stream)
+    for p in written.values():
+        print(f"wrote {p}", file=stream)
+    return 0
+
+
+def _load_json_report(path: Path) -> dict:
+    import json
+
+    from .errors import InputFileError
+    from .revisions.reports import check_report
+
+    try:
+        data = json.loads(path.read_text(encoding="utf-8"))
+    except OSError as exc:
+        raise InputFileError(f"{path}: cannot read: {exc.strerror or exc}") from None
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise InputFileError(f"{path}: not a JSON report: {exc}") from None
+    check_report(data, str(path))
+    return data
+
+
+def _report_of_drawing(path: Path, args, units: tuple[str, str] | None):
+    """Solve a drawing in memory and build its report (nothing written)."""
+    from .pipeline import analyse
+    from .report import build_report
+    from .settings import load_settings
+
+    settings = load_settings(args.settings, path)
+    an = analyse(path, settings, length_unit=args.length_unit)
+    fu, lu = units if units else (settings.force_unit, an.model.length_unit)
+    rep = build_report(an.model, an.determinacy, an.results, force_unit=fu, length_unit=lu,
+                       deflection_limits=settings.deflection_limits())
+    return rep, settings
+
+
+def _drawing_for_report(path: Path, report) -> Path | None:
+    """The drawing a JSON report was made from, if it can be found beside it."""
+    name = report.get("source")
+    if not name:
+        return None
+    for folder in (path.parent, path.parent.parent):
+        cand = folder / str(name)
+        if cand.is_file() and cand.suffix.lower() == ".dxf":
+            return cand
+    return None
 
 
 def run_explain(args) -> int:
-    from .handcheck.sheets import run_explain_command
+    """The ``explain`` command: hand-check sheets for points of one drawing.
 
-    _output_folder(getattr(args, "out", None), [args.drawing])
-    return run_explain_command(args)
+    ``args``: ``drawing`` (Path), ``at`` (list of (X, Y) drawing points),
+    ``result`` (case or combination name or None), ``out`` (folder or None:
+    ``sheets`` beside the drawing), ``units`` ((force, length) or None),
+    ``settings`` (Path or None), ``length_unit`` (str or None).
+    Returns the exit status (0 written, 3 unstable frame).
+    """
+    from .handcheck import write_sheets
+    from .pipeline import EXIT_OK, EXIT_UNSTABLE, analyse
+    from .settings import load_settings
+
+    _output_folder(args.out, [args.drawing])
+    drawing = Path(args.drawing)
+    settings = load_settings(args.settings, drawing)
+    analysis = analyse(drawing, settings, length_unit=args.length_unit)
+    if not analysis.stable:
+        _say(f"dxf2frame: the frame is unstable, no sheets written: {analysis.determinacy.detail}", CAUTION)
+        return EXIT_UNSTABLE
+    force_u, length_u = args.units or (settings.force_unit, analysis.model.length_unit)
+    out = Path(args.out) if args.out else drawing.parent / "sheets"
+    written = write_sheets(analysis, out, points=list(args.at or []), result_name=args.result,
+                           force_unit=force_u, length_unit=length_u)
+    n = sum(1 for p in written if p.suffix == ".md")
+    _say(f"wrote {n} hand-check sheet(s) to {out} (Markdown + PNG per cut, all in {written[-1].name})", CAUTION)
+    return EXIT_OK
 
 
 def run_template(args) -> int:

@@ -22,17 +22,27 @@ from typing import Iterator
 import ezdxf
 from ezdxf import recover
 
-from .read.dispatch import HANDLERS
 from .errors import DrawingError, InputFileError
 from .settings import Settings
 
-__all__ = ["open_document"]
+__all__ = ["open_document", "READ_ENTITY_TYPES"]
+
+#: the entity types the reader analyses (one handler each in
+#: :data:`dxf2frame.read.dispatch.HANDLERS`): a recover-mode repair that drops
+#: one of them for a clashing handle is an error, not a note.  Kept here so
+#: that opening a file (reader, writer, preview, revision marks) needs none of
+#: the reading code.
+READ_ENTITY_TYPES = frozenset({
+    "LINE", "LWPOLYLINE", "POLYLINE", "INSERT", "ARC", "CIRCLE", "ELLIPSE", "SPLINE", "3DFACE", "3DSOLID", "MESH",
+    "BODY", "REGION", "SURFACE", "EXTRUDEDSURFACE", "LOFTEDSURFACE", "REVOLVEDSURFACE", "SWEPTSURFACE",
+    "PLANESURFACE",
+})
 
 _BINARY_SENTINEL = b"AutoCAD Binary DXF"
 _NOTE_LIMIT = 5
 
 
-def _describe(e) -> str:
+def describe_entity(e) -> str:
     return f"{e.dxftype()} on layer '{e.dxf.get('layer', '0')}'"
 
 
@@ -200,11 +210,11 @@ def open_document(path: Path | str, settings: Settings | None = None):
     fixes = [str(f.message) for f in auditor.fixes]
     for text in fixes:
         m = _CONFLICT.search(text)
-        if m and m.group(1) in HANDLERS:
+        if m and m.group(1) in READ_ENTITY_TYPES:
             kept = doc.entitydb.get(m.group(2))
             raise DrawingError(
                 f"two entities share this handle ({m.group(1)} and "
-                f"{_describe(kept) if kept is not None else 'another entity'}); the file is damaged and one "
+                f"{describe_entity(kept) if kept is not None else 'another entity'}); the file is damaged and one "
                 "of them would be lost",
                 handle=m.group(2),
                 layer=kept.dxf.get("layer", "") if kept is not None else "",

@@ -3,7 +3,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
 
 from .solver import Frame
 
@@ -25,8 +24,6 @@ class DrawingModel:
     n_loads : number of load blocks read
     extents : (xmin, ymin, xmax, ymax) of the frame in drawing units
     force_unit : pint name of the default force unit of the settings
-    document : the ezdxf document the model was read from, unmodified, so
-        the writers need not read the file again (None when not kept)
     """
 
     frame: Frame
@@ -38,7 +35,6 @@ class DrawingModel:
     n_loads: int = 0
     extents: tuple[float, float, float, float] = (0.0, 0.0, 0.0, 0.0)
     force_unit: str = "kN"
-    document: Any = field(default=None, repr=False, compare=False)
 
     def to_drawing(self, x_m: float, y_m: float) -> tuple[float, float]:
         """Convert analysis coordinates (m) to drawing coordinates."""

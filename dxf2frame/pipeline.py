@@ -16,6 +16,7 @@ import tempfile
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -25,8 +26,11 @@ from .solver.errors import MissingSectionError, SolverError, UnstableFrameError
 
 from .drawing_model import DrawingModel
 from .errors import AnalysisError, Dxf2FrameError, InputFileError, SettingsError, one_line
-from .read.reader import read_drawing
+from .read.reader import read_file
 from .settings import Settings, load_settings
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ezdxf.document import Drawing
 
 __all__ = [
     "Analysis",
@@ -48,7 +52,12 @@ EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT, EXIT_UNSTABLE = 0, 1, 2, 3
 
 @dataclass
 class Analysis:
-    """Everything computed for one drawing (all in SI)."""
+    """Everything computed for one drawing (all in SI).
+
+    ``document`` is the ezdxf document the model was read from, as opened
+    (reading does not modify it): the result drawing is drawn into it
+    instead of reading the file a second time.
+    """
 
     model: DrawingModel
     settings: Settings
@@ -56,6 +65,7 @@ class Analysis:
     cases: list[CaseResult] = field(default_factory=list)
     combinations: list[CaseResult] = field(default_factory=list)
     timings: dict[str, float] = field(default_factory=dict)
+    document: "Drawing | None" = field(default=None, repr=False)
 
     @property
     def results(self) -> list[CaseResult]:
@@ -180,13 +190,13 @@ def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | 
     t = {}
     t0 = time.perf_counter()
     settings = settings if settings is not None else load_settings(None, path)
-    model = read_drawing(path, settings, length_unit=length_unit)
+    model, document = read_file(path, settings, length_unit=length_unit)
     t["read"] = time.perf_counter() - t0
 
     t0 = time.perf_counter()
     det = check(model.frame, unit_scale=model.unit_scale)
     t["check"] = time.perf_counter() - t0
-    analysis = Analysis(model, settings, det, timings=t)
+    analysis = Analysis(model, settings, det, timings=t, document=document)
     if det.status == "unstable":
         return analysis
 
@@ -212,12 +222,13 @@ class SolveRequest:
     ``out``: for one input, a ``.dxf`` path for the result drawing or a
     folder; for many inputs, a folder.  Default: a folder ``solved`` beside
     each input.  ``report``: JSON path (one input only); default beside the
-    output drawing.  ``units``: ``"FORCE,LENGTH"`` for the report.
+    output drawing.  ``units``: (force, length) of the report, e.g. ``("kN", "m")``
+    (default: the settings' force unit and the drawing's length unit).
     """
 
     out: Path | None = None
     report: Path | None = None
-    units: str | None = None
+    units: tuple[str, str] | None = None
     probes: list[tuple[float, float]] = field(default_factory=list)
     show: str | None = None
     png: bool = True
@@ -263,15 +274,6 @@ def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
         "png": drawing.with_suffix(".png"),
     }
     return paths
-
-
-def _report_units(req: SolveRequest, model: DrawingModel, settings: Settings) -> tuple[str, str]:
-    if req.units:
-        parts = [p.strip() for p in req.units.split(",")]
-        if len(parts) != 2 or not all(parts):
-            raise SettingsError(f"--units takes FORCE,LENGTH (for example kN,m or kip,ft), got {req.units!r}")
-        return parts[0], parts[1]
-    return settings.force_unit, model.length_unit
 
 
 def _governing(report: dict) -> dict[str, float | None]:
@@ -398,12 +400,12 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
     unstable one."""
     from . import CAUTION
     from .draw import preview
-    from .draw.writer import result_layer_names
+    from .draw.style import result_layer_names
 
     if not analysis.stable:
         preview.render_png(drawing, png)
         return
-    names = result_layer_names(analysis.settings)
+    names = result_layer_names(analysis.settings.output_layers)
     loads = analysis.settings.layer("loads")
     panels = [
         (f"Bending moment M [{force_u}*{length_u}], drawn on the tension side", [names["moment"]]),
@@ -458,7 +460,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
         analysis = analyse(source, settings, length_unit=req.length_unit)
         model, det = analysis.model, analysis.determinacy
         outcome.warnings = list(model.warnings) + list(det.warnings)
-        force_u, length_u = _report_units(req, model, settings)
+        force_u, length_u = req.units or (settings.force_unit, model.length_unit)
         outcome.units = (force_u, length_u)
         outcome.determinacy, outcome.degree = det.status, det.degree
 
@@ -477,12 +479,12 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             if analysis.stable:
                 writer.write_result_drawing(
                     source, staged["drawing"], model, det, analysis.results, show=show,
-                    settings=settings, force_unit=force_u, length_unit=length_u,
-                    document=model.document,
+                    layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
+                    document=analysis.document,
                 )
             else:
-                writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings,
-                                               document=model.document)
+                writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,
+                                               document=analysis.document)
             analysis.timings["write"] = time.perf_counter() - t0
             # the report after the drawing: the writer's working arrays are
             # gone by then, so the two never hold memory at the same time

@@ -50,6 +50,7 @@ __all__ = [
     "unit_factor",
     "length_unit_scale",
     "normalise_length_unit",
+    "force_length_units",
     "INSUNITS",
 ]
 
@@ -267,3 +268,18 @@ def length_unit_scale(name: str) -> float:
     if short in _EXACT_LENGTH:
         return _EXACT_LENGTH[short]
     return unit_factor(short, "length")
+
+
+def force_length_units(text: str) -> tuple[str, str]:
+    """``"FORCE,LENGTH"`` (the ``--units`` option) -> ``(force, length)``,
+    both checked to be known units of their kind.
+
+    >>> force_length_units("kip, ft")
+    ('kip', 'ft')
+    """
+    parts = [p.strip() for p in text.split(",")]
+    if len(parts) != 2 or not all(parts):
+        raise UnitError(f"--units takes FORCE,LENGTH (for example kN,m or kip,ft), got {text!r}")
+    unit_factor(parts[0], "force")
+    length_unit_scale(parts[1])
+    return parts[0], parts[1]

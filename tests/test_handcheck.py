@@ -464,7 +464,8 @@ def _drawing(tmp_path: Path) -> Path:
 
 
 def test_write_sheets_and_explain_command_from_a_drawing(tmp_path: Path, capsys):
-    from dxf2frame.handcheck import run_explain_command, write_sheets
+    from dxf2frame.commands import run_explain
+    from dxf2frame.handcheck import write_sheets
     from dxf2frame.pipeline import analyse
 
     path = _drawing(tmp_path)
@@ -477,9 +478,9 @@ def test_write_sheets_and_explain_command_from_a_drawing(tmp_path: Path, capsys)
 
     # explain at the roller (x = 6 m) for case L: M = -P a = -5 kN * 2 m
     # (AISC Table 3-23, beam overhanging one support, load at end of overhang)
-    args = Namespace(drawing=path, at=[(6.0, 0.0)], result="L", out=tmp_path / "expl", units="kN,m",
+    args = Namespace(drawing=path, at=[(6.0, 0.0)], result="L", out=tmp_path / "expl", units=("kN", "m"),
                      settings=None, length_unit=None, debug=False)
-    assert run_explain_command(args) == 0
+    assert run_explain(args) == 0
     md = (tmp_path / "expl" / "sheet-1.md").read_text(encoding="utf-8")
     assert "| M | -10.00 kN*m | hogging" in md   # AISC overhang: M = P a = 10 kN*m, hogging
     assert "load case L" in md

@@ -96,3 +96,74 @@ def test_every_module_imports_without_a_top_level_solver():
             "assert 'solver' not in sys.modules, 'a top-level solver module was imported'\n")
     proc = subprocess.run([sys.executable, "-c", code], cwd=ROOT / "tests", capture_output=True, text=True)
     assert proc.returncode == 0, proc.stderr
+
+
+# -- the import graph of dxf2frame (solver excluded: its own package) ---------------------------
+
+
+def _package_modules() -> dict[str, Path]:
+    """dotted name -> file of every module of dxf2frame outside the solver."""
+    base = ROOT / "dxf2frame"
+    out = {}
+    for p in sorted(base.rglob("*.py")):
+        parts = ["dxf2frame", *p.relative_to(base).with_suffix("").parts]
+        if parts[-1] == "__init__":
+            parts = parts[:-1]
+        out[".".join(parts)] = p
+    return out
+
+
+def _edges() -> dict[str, set[tuple[str, tuple[str, ...]]]]:
+    """module -> {(imported module, names)} for every import of dxf2frame code,
+    lazy and type-checking imports included."""
+    mods = _package_modules()
+    out: dict[str, set[tuple[str, tuple[str, ...]]]] = {m: set() for m in mods}
+    for mod, path in mods.items():
+        pkg = mod if path.name == "__init__.py" else mod.rsplit(".", 1)[0]
+        for level, module, names in _imports(path):
+            if level:
+                base = pkg.split(".")[: len(pkg.split(".")) - (level - 1)]
+                target = ".".join(base + ([module] if module else []))
+            elif module.startswith("dxf2frame"):
+                target = module
+            else:
+                continue
+            if target.startswith("dxf2frame.solver"):
+                continue
+            plain = []
+            for n in names:
+                if f"{target}.{n}" in mods:
+                    out[mod].add((f"{target}.{n}", ()))
+                else:
+                    plain.append(n)
+            if plain or not names:
+                out[mod].add((target, tuple(plain)))
+    return out
+
+
+def test_no_import_cycles():
+    import networkx as nx
+
+    g = nx.DiGraph()
+    for mod, targets in _edges().items():
+        for target, _names in targets:
+            # a package's __init__ imports its own modules: an edge from a module to the
+            # package that contains it would be a cycle through the face, so name the module
+            if target != mod and not mod.startswith(target + "."):
+                g.add_edge(mod, target)
+    cycles = list(nx.simple_cycles(g))
+    assert cycles == [], f"import cycles: {cycles}"
+
+
+def test_drawing_code_never_imports_reading_code():
+    for mod, targets in _edges().items():
+        if mod.startswith("dxf2frame.draw"):
+            bad = [t for t, _n in targets if t.startswith("dxf2frame.read")]
+            assert bad == [], f"{mod} imports {bad}"
+
+
+def test_no_module_imports_a_private_name_of_another():
+    for mod, targets in _edges().items():
+        for target, names in targets:
+            private = [n for n in names if n.startswith("_") and not n.startswith("__")]
+            assert private == [], f"{mod} imports {private} from {target}"

@@ -22,7 +22,7 @@ from dxf2frame import CAUTION
 from dxf2frame.atomic import atomic_path, write_text
 from dxf2frame.drawing_model import DrawingModel
 from dxf2frame.errors import SettingsError
-from dxf2frame.draw.writer import DEFAULT_OUTPUT_LAYERS, LabelPlacer, TEXT_STYLES
+from dxf2frame.draw import DEFAULT_OUTPUT_LAYERS, LabelPlacer, TEXT_STYLES
 
 try:
     from tests import dxf_builders as B
@@ -121,9 +121,9 @@ def layer_census(doc) -> tuple[Counter, dict[str, tuple[str, str]]]:
     return counts, handles
 
 
-def write(tmp_path: Path, src, model, det, results, show=None, name="out.dxf", settings=None):
+def write(tmp_path: Path, src, model, det, results, show=None, name="out.dxf", layers=None):
     out = tmp_path / name
-    writer.write_result_drawing(src, out, model, det, results, show=show, settings=settings,
+    writer.write_result_drawing(src, out, model, det, results, show=show, layers=layers,
                                 force_unit="kN", length_unit="m")
     return out
 
@@ -159,7 +159,7 @@ def test_source_is_never_written(tmp_path):
     write(tmp_path, src, model, det, results, show="D")
     assert src.read_bytes() == data
     with pytest.raises(SettingsError):
-        writer.write_result_drawing(src, src, model, det, results, show="D", settings=None,
+        writer.write_result_drawing(src, src, model, det, results, show="D", layers=None,
                                     force_unit="kN", length_unit="m")
     assert src.read_bytes() == data
 
@@ -287,12 +287,8 @@ def test_rerun_on_output_replaces_results(tmp_path):
 
 
 def test_settings_rename_result_layers(tmp_path):
-    class Named:
-        def output_layer(self, key):
-            return {"moment": "MY-MOMENTS"}.get(key, DEFAULT_OUTPUT_LAYERS[key])
-
     src, model, det, results = solved_beam(tmp_path)
-    doc = ezdxf.readfile(write(tmp_path, src, model, det, results, show="D", settings=Named()))
+    doc = ezdxf.readfile(write(tmp_path, src, model, det, results, show="D", layers={"moment": "MY-MOMENTS"}))
     assert texts(doc, "MY-MOMENTS") and not texts(doc, "RESULT-MOMENT")
 
 
@@ -596,7 +592,7 @@ def test_reading_the_output_gives_the_same_model(tmp_path):
     det = check(model.frame)
     results = list(solve(model.frame, determinate=det.status == "determinate").values())
     out = tmp_path / "solved.dxf"
-    writer.write_result_drawing(src, out, model, det, results, show="D", settings=s,
+    writer.write_result_drawing(src, out, model, det, results, show="D", layers=s.output_layers,
                                 force_unit="kN", length_unit="m")
     again = reader.read_drawing(out, s)
     f0, f1 = model.frame, again.frame
@@ -730,7 +726,7 @@ def test_thinning_is_douglas_peucker_on_every_polyline_at_once(spec):
         for i0, i1 in zip(fixed[:-1], fixed[1:]):
             _dp_reference(p, t, int(i0), int(i1), k)
         pts.append(p), anchors.append(a), tols.append(t), ref.append(k)
-    keep = diagram_curves._thin(np.concatenate(pts), np.concatenate(anchors), np.concatenate(tols))
+    keep = diagram_curves.thin(np.concatenate(pts), np.concatenate(anchors), np.concatenate(tols))
     assert np.array_equal(keep, np.concatenate(ref))
     # and so every left-out point lies within its tolerance of the drawn line (the DP guarantee)
     at = 0
@@ -747,7 +743,7 @@ def test_straight_runs_follow_member_lines():
     si, ei = np.array([0, 1, 1, 3]), np.array([1, 2, 3, 4])
     d = xy[ei] - xy[si]
     t = d / np.hypot(d[:, 0], d[:, 1])[:, None]
-    assert diagram_curves._straight_chains(si, ei, t) == [[0, 1], [2, 3]]
+    assert diagram_curves.straight_chains(si, ei, t) == [[0, 1], [2, 3]]
 
 
 def _two_span_beam(tmp_path: Path, L: float, w: float):
@@ -800,7 +796,7 @@ def test_continuous_beam_is_one_thinned_outline_true_to_the_curve(tmp_path):
     # every point of the exact diagram lies within the chord tolerance of the drawn line, plus the error of the
     # 16 sampling intervals: a chord of length d under a parabola of curvature w misses it by w d^2 / 8 (from memory)
     omax = w * L**2 / 8 * k
-    tol = min(diagram_curves._CHORD_TEXT * summary.text_height, diagram_curves._CHORD_REL * omax)
+    tol = min(diagram_curves.CHORD_TEXT * summary.text_height, diagram_curves.CHORD_REL * omax)
     x = np.linspace(0.0, L, 401)
     exact = 3 * w * L * x / 8 - w * x**2 / 2             # same case: R = 3wl/8 at the end support
     line = shapely.LineString(run)

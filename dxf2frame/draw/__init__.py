@@ -1,20 +1,24 @@
-"""Drawing results: the result layers in a copy of the drawing (diagrams,
-labels, legend, reactions, deflected shape, mechanism) and the PNG preview
-(:mod:`.preview`, imported on its own: it loads matplotlib).
+"""Drawing results: the result layers in a copy of the drawing (:mod:`.writer`:
+diagrams, reactions, deflected shape, mechanism), what a drawing shows
+(:mod:`.selection`), the diagrams' curves (:mod:`.curves`), labels
+(:mod:`.labels`), legend and notes (:mod:`.legend`), the layers' style
+(:mod:`.style`) and the PNG preview (:mod:`.preview`, imported on its own:
+it loads matplotlib).
 """
-from .writer import (  # noqa: F401
+from .style import (
     DEFAULT_OUTPUT_LAYERS,
     LayerStyle,
     RESULT_LAYER_STYLES,
     LINETYPES,
     TEXT_STYLES,
-    LabelPlacer,
-    Selection,
-    DrawingSummary,
     result_layer_names,
-    select_results,
     prepare_layers,
     clear_result_layers,
+)
+from .selection import Selection, select_results
+from .labels import LabelPlacer
+from .writer import (
+    DrawingSummary,
     annotate_results,
     annotate_mechanism,
     write_result_drawing,
@@ -27,13 +31,13 @@ __all__ = [
     "RESULT_LAYER_STYLES",
     "LINETYPES",
     "TEXT_STYLES",
-    "LabelPlacer",
-    "Selection",
-    "DrawingSummary",
     "result_layer_names",
-    "select_results",
     "prepare_layers",
     "clear_result_layers",
+    "Selection",
+    "select_results",
+    "LabelPlacer",
+    "DrawingSummary",
     "annotate_results",
     "annotate_mechanism",
     "write_result_drawing",

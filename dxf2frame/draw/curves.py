@@ -8,8 +8,8 @@ give them (N tension positive; V positive when it turns the element
 clockwise; M positive when it bends the member concave toward its local
 +y side); the writer scales them to ordinates in drawing units and
 chooses the side each diagram is drawn on.
-:func:`_drawn` and :func:`_thin` work on those ordinates, in drawing units.
-:func:`_straight_chains` finds the runs of elements drawn as one line.
+:func:`drawn_curves` and :func:`thin` work on those ordinates, in drawing units.
+:func:`straight_chains` finds the runs of elements drawn as one line.
 
 Sampling: each element is sampled at its critical points (ends, load
 breaks, zeros of V and M, from every result drawn) plus 17 even stations,
@@ -39,14 +39,17 @@ and one deflected-shape polyline.  Fills stay per element.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Sequence
+from typing import TYPE_CHECKING, Sequence
 
 import numpy as np
+
+if TYPE_CHECKING:
+    from ..drawing_model import DrawingModel
 
 
 # -- constants -----------------------------------------------------------------
 
-_DIAGRAMS = ("axial", "shear", "moment")
+DIAGRAMS = ("axial", "shear", "moment")
 _SAMPLES = 17              # stations per element besides the critical points
 # Chord tolerance of the drawn curves (diagram outlines, deflected shape): a
 # sampled point is left out only while the drawn polyline stays within this
@@ -57,8 +60,47 @@ _SAMPLES = 17              # stations per element besides the critical points
 # could be coarse next to a small diagram, so it is also never more than 1 %
 # of that element's largest ordinate (deflected shape: of its largest drawn
 # displacement): the shape stays true at any zoom.
-_CHORD_TEXT = 0.04         # chord tolerance / text height
-_CHORD_REL = 0.01          # chord tolerance / the element's largest ordinate
+CHORD_TEXT = 0.04         # chord tolerance / text height
+CHORD_REL = 0.01          # chord tolerance / the element's largest ordinate
+
+
+# -- geometry of the frame -----------------------------------------------------
+
+
+@dataclass
+class FrameGeom:
+    """Element geometry in drawing units, in ``frame.members`` order."""
+
+    start: np.ndarray     # (m, 2)
+    end: np.ndarray       # (m, 2)
+    t: np.ndarray         # (m, 2) unit local x
+    n: np.ndarray         # (m, 2) unit local y
+    length_m: np.ndarray  # (m,) metres
+    bounds: tuple[float, float, float, float]
+    size: float
+
+
+def frame_geom(model: "DrawingModel") -> FrameGeom:
+    frame = model.frame
+    us = model.unit_scale
+    xy = np.array([(n.x, n.y) for n in frame.nodes], dtype=float).reshape(-1, 2) / us
+    si = np.array([m.start for m in frame.members], dtype=int)
+    ei = np.array([m.end for m in frame.members], dtype=int)
+    a, b = xy[si], xy[ei]
+    d = b - a
+    ld = np.hypot(d[:, 0], d[:, 1])
+    t = d / np.where(ld > 0, ld, 1.0)[:, None]
+    n = np.column_stack([-t[:, 1], t[:, 0]])
+    pts = xy if len(xy) else np.zeros((1, 2))
+    x0, y0 = pts.min(0)
+    x1, y1 = pts.max(0)
+    ex = tuple(float(v) for v in (model.extents or (0, 0, 0, 0)))
+    if ex[2] > ex[0] or ex[3] > ex[1]:
+        x0, y0, x1, y1 = min(x0, ex[0]), min(y0, ex[1]), max(x1, ex[2]), max(y1, ex[3])
+    size = max(x1 - x0, y1 - y0)
+    if not size > 0:
+        size = 1.0
+    return FrameGeom(a, b, t, n, ld * us, (float(x0), float(y0), float(x1), float(y1)), float(size))
 
 
 # -- sampling ------------------------------------------------------------------
@@ -144,7 +186,7 @@ def _merge_stations(eid: np.ndarray, x: np.ndarray, isc: np.ndarray, lengths: np
     return eid, x, crit & ~first & ~last, first, last
 
 
-def _sample_member_by_member(results: Sequence, frame, lengths: np.ndarray) -> _Stations:
+def sample_member_by_member(results: Sequence, frame, lengths: np.ndarray) -> _Stations:
     """Sample through each result's per-member API (``MemberResult`` calls)."""
     n_el = len(frame.members)
     eids, xs, iscs = [], [], []
@@ -167,7 +209,7 @@ def _sample_member_by_member(results: Sequence, frame, lengths: np.ndarray) -> _
     lmask = crit | last
     bounds = np.append(np.flatnonzero(first), len(x))
     values = {}
-    for key in _DIAGRAMS:
+    for key in DIAGRAMS:
         right = np.empty((len(results), len(x)))
         left = np.empty_like(right)
         for i, m in enumerate(frame.members):
@@ -184,12 +226,12 @@ def _sample_member_by_member(results: Sequence, frame, lengths: np.ndarray) -> _
     return _Stations(eid, x, crit, first, last, values)
 
 
-def _has_batch(results: Sequence) -> bool:
+def has_batch(results: Sequence) -> bool:
     return all(callable(getattr(r.members, "sample", None)) and callable(getattr(r.members, "critical_points", None))
                for r in results)
 
 
-def _sample_batch(results: Sequence, frame, lengths: np.ndarray) -> _Stations:
+def sample_batch(results: Sequence, frame, lengths: np.ndarray) -> _Stations:
     """Sample every element of every result at once through a batch API of
     the solver's member results (used when the results offer it):
 
@@ -223,7 +265,7 @@ def _sample_batch(results: Sequence, frame, lengths: np.ndarray) -> _Stations:
     eid, x, crit, first, last = _merge_stations(np.concatenate(eids), np.concatenate(xs),
                                                 np.concatenate(iscs), lengths)
     lmask = crit | last
-    which = [_WHICH[key] for key in _DIAGRAMS]
+    which = [_WHICH[key] for key in DIAGRAMS]
     values: dict[str, tuple[_Bounds, _Bounds]] = {}
     for k, (r, lay) in enumerate(zip(results, layouts)):
         many = getattr(r.members, "sample_many", None)
@@ -233,7 +275,7 @@ def _sample_batch(results: Sequence, frame, lengths: np.ndarray) -> _Stations:
         else:
             right = {w: r.members.sample(w, lay[eid], x) for w in which}
             at_left = {w: r.members.sample(w, lay[eid[lmask]], x[lmask], side="left") for w in which}
-        for key, w in zip(_DIAGRAMS, which):
+        for key, w in zip(DIAGRAMS, which):
             rv = np.asarray(right[w], dtype=float)
             lv = rv.copy()
             lv[lmask] = at_left[w]
@@ -252,13 +294,13 @@ def _sample_batch(results: Sequence, frame, lengths: np.ndarray) -> _Stations:
 # -- curves --------------------------------------------------------------------
 
 
-def _segment_max(v: np.ndarray, starts: np.ndarray) -> np.ndarray:
+def segment_max(v: np.ndarray, starts: np.ndarray) -> np.ndarray:
     """Largest |v| of each element's stretch of a flat array."""
     return np.maximum.reduceat(np.abs(v), starts) if len(v) else np.zeros(0)
 
 
 @dataclass
-class _FlatCurve:
+class FlatCurve:
     """One diagram curve of every element, flat: element-major polyline
     points with both limits where the value jumps.
 
@@ -277,14 +319,14 @@ class _FlatCurve:
     bounds: np.ndarray
     role: str
 
-    def element(self, i: int) -> "_Curve":
+    def element(self, i: int) -> "Curve":
         sl = slice(self.bounds[i], self.bounds[i + 1])
-        return _Curve(self.x[sl], self.y[sl], self.who[sl], self.role, self.fixed[sl])
+        return Curve(self.x[sl], self.y[sl], self.who[sl], self.role, self.fixed[sl])
 
 
 @dataclass
-class _Curve:
-    """The curve of one diagram along one element (a view of a _FlatCurve)."""
+class Curve:
+    """The curve of one diagram along one element (a view of a FlatCurve)."""
 
     x: np.ndarray
     y: np.ndarray
@@ -294,9 +336,9 @@ class _Curve:
 
 
 def _flat_curve(st: _Stations, right: np.ndarray, left: np.ndarray, wr: np.ndarray, wl: np.ndarray,
-                role: str, n_el: int) -> _FlatCurve:
+                role: str, n_el: int) -> FlatCurve:
     """Polyline points through the stations, doubled where the value jumps."""
-    tol = 1e-9 * _segment_max(right, st.starts)[st.eid] + 1e-300
+    tol = 1e-9 * segment_max(right, st.starts)[st.eid] + 1e-300
     jump = st.crit & (np.abs(left - right) > tol)
     first, fw = right.copy(), wr.copy()
     first[st.last], fw[st.last] = left[st.last], wl[st.last]
@@ -310,10 +352,10 @@ def _flat_curve(st: _Stations, right: np.ndarray, left: np.ndarray, wr: np.ndarr
     eid = np.repeat(st.eid, counts)
     fixed = np.repeat(jump | st.first | st.last, counts)
     bounds = np.searchsorted(eid, np.arange(n_el + 1))
-    return _FlatCurve(eid, np.repeat(st.x, counts), y, who, fixed, bounds, role)
+    return FlatCurve(eid, np.repeat(st.x, counts), y, who, fixed, bounds, role)
 
 
-def _curves(st: _Stations, key: str, envelope: bool, n_el: int) -> list[_FlatCurve]:
+def sample_curves(st: _Stations, key: str, envelope: bool, n_el: int) -> list[FlatCurve]:
     """The curves of one diagram; the stations' values of ``key`` are used
     up (dropped from ``st``) to keep memory down on large frames."""
     right, left = st.values.pop(key)
@@ -329,7 +371,7 @@ def _curves(st: _Stations, key: str, envelope: bool, n_el: int) -> list[_FlatCur
 # -- what is drawn -------------------------------------------------------------
 
 
-def _thin(pts: np.ndarray, anchor: np.ndarray, tol: np.ndarray) -> np.ndarray:
+def thin(pts: np.ndarray, anchor: np.ndarray, tol: np.ndarray) -> np.ndarray:
     """Mask of the points of many polylines (flat, (k, 2)) to draw so that
     each drawn polyline stays within ``tol`` (per point) of all its points.
 
@@ -365,10 +407,10 @@ def _thin(pts: np.ndarray, anchor: np.ndarray, tol: np.ndarray) -> np.ndarray:
     return keep
 
 
-def _chord_tolerance(h: float, scale: np.ndarray, size: float) -> np.ndarray:
+def chord_tolerance(h: float, scale: np.ndarray, size: float) -> np.ndarray:
     """Per element: the chord tolerance [drawing units] of a curve whose
-    largest ordinate on that element is ``scale`` (see ``_CHORD_TEXT``)."""
-    return np.maximum(np.minimum(_CHORD_TEXT * h, _CHORD_REL * np.asarray(scale, dtype=float)), 1e-9 * size)
+    largest ordinate on that element is ``scale`` (see ``CHORD_TEXT``)."""
+    return np.maximum(np.minimum(CHORD_TEXT * h, CHORD_REL * np.asarray(scale, dtype=float)), 1e-9 * size)
 
 
 def _first_per_element(idx: np.ndarray, eid: np.ndarray) -> np.ndarray:
@@ -379,13 +421,13 @@ def _first_per_element(idx: np.ndarray, eid: np.ndarray) -> np.ndarray:
     return idx[np.r_[True, e[1:] != e[:-1]]]
 
 
-def _drawn(c: _FlatCurve, along: np.ndarray, o: np.ndarray, tol: np.ndarray, zero: float | None = None) -> np.ndarray:
+def drawn_curves(c: FlatCurve, along: np.ndarray, o: np.ndarray, tol: np.ndarray, zero: float | None = None) -> np.ndarray:
     """Mask of the curve points worth drawing.
 
     along, o : each point's position along its element and ordinate
         [drawing units] (the outline in the element's own axes)
     tol : per element, the chord tolerance [drawing units]: the drawn
-        curve keeps within it of every sampled point (:func:`_thin`)
+        curve keeps within it of every sampled point (:func:`thin`)
     zero : |value| [SI] below which a value counts as zero (a single
         result's moment, which gets zero ticks; None: not used)
 
@@ -428,10 +470,10 @@ def _drawn(c: _FlatCurve, along: np.ndarray, o: np.ndarray, tol: np.ndarray, zer
             np.add.at(mark, a, 1)
             np.add.at(mark, b + 1, -1)
             anchor |= np.cumsum(mark)[:n] > 0
-    return _thin(np.column_stack([along, o]), anchor, tol[c.eid])
+    return thin(np.column_stack([along, o]), anchor, tol[c.eid])
 
 
-def _zero_crossings(c: _Curve, tol: float) -> list[float]:
+def zero_crossings(c: Curve, tol: float) -> list[float]:
     """Positions [m] where the curve changes sign (not at a jump)."""
     out: list[float] = []
     nz = np.flatnonzero(np.abs(c.y) > tol)
@@ -452,7 +494,7 @@ def _zero_crossings(c: _Curve, tol: float) -> list[float]:
 # -- straight runs -------------------------------------------------------------
 
 
-def _straight_chains(si: np.ndarray, ei: np.ndarray, t: np.ndarray) -> list[list[int]]:
+def straight_chains(si: np.ndarray, ei: np.ndarray, t: np.ndarray) -> list[list[int]]:
     """Elements (indices) in runs that continue each other in a straight
     line: element j follows i when it starts at i's end node in the same
     direction.  Every element is in exactly one run, in order along it."""

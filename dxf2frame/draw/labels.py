@@ -2,9 +2,9 @@
 
 Values come in SI (N, N*m) and are written in the report units (a factor
 from :func:`dxf2frame.report.unit_factors`); positions and sizes are in
-drawing units.  :func:`_element_labels` makes the label requests of one
-element and diagram, :func:`_merge_at_joints` merges equal values at a
-node, :func:`_place_labels` writes one layer's labels through a
+drawing units.  :func:`label_requests` makes the label requests of one
+element and diagram, :func:`merge_at_joints` merges equal values at a
+node, :func:`place_labels` writes one layer's labels through a
 :class:`LabelPlacer`.
 
 Which values are written (per element and diagram; what one would write
@@ -72,12 +72,12 @@ from typing import TYPE_CHECKING, Iterable, Sequence
 import numpy as np
 import shapely
 
-from .style import TEXT_STYLES, _Pen
+from .style import TEXT_STYLES, Pen
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
 
-    from .curves import _Curve
+    from .curves import Curve
 
 __all__ = ["LabelPlacer"]
 
@@ -85,8 +85,8 @@ __all__ = ["LabelPlacer"]
 # -- constants -----------------------------------------------------------------
 
 _SKIP_LABEL = 0.02         # values below this fraction of the diagram's largest |value| are not written
-_SAME_AT_JOINT = 0.005     # end values at a node this close in magnitude (fraction of the max) are written once
-_OTHER_SIGN = 0.25         # envelope: the other sign at an end is written when at least this fraction of the larger
+SAME_AT_JOINT = 0.005     # end values at a node this close in magnitude (fraction of the max) are written once
+OTHER_SIGN = 0.25         # envelope: the other sign at an end is written when at least this fraction of the larger
 _FLAT = 0.005              # an element whose values vary less than this fraction of the max gets one label
 _MAX_TEXT_OBSTACLES = 1000  # the drawing's own texts labels keep off (none when there are more)
 
@@ -94,7 +94,7 @@ _MAX_TEXT_OBSTACLES = 1000  # the drawing's own texts labels keep off (none when
 # -- small helpers -------------------------------------------------------------
 
 
-def _fmt(v: float) -> str:
+def format_value(v: float) -> str:
     """Four significant figures, no exponent between 1e-3 and 1e6."""
     if not math.isfinite(v) or v == 0.0:
         return "0"
@@ -209,7 +209,7 @@ class LabelPlacer:
 
 
 @dataclass
-class _Spot:
+class Spot:
     """One way to write a label: its text and the point it belongs to.
 
     anchor : the point the value belongs to (curve tip, arrow middle)
@@ -231,13 +231,13 @@ class _Spot:
 
 
 #: placing order: the diagram's overall extreme gets 0 (set later)
-_PRIORITY = {"reaction": 0.5, "extreme": 1.0, "flat": 1.5, "end": 2.0, "other": 2.5, "zero": 3.0}
+PRIORITY = {"reaction": 0.5, "extreme": 1.0, "flat": 1.5, "end": 2.0, "other": 2.5, "zero": 3.0}
 #: kinds that are written even when crowded (farther out with a leader line, else overlapping)
 _MUST = {"reaction", "extreme", "flat"}
 
 
 @dataclass
-class _Label:
+class Label:
     """A value to write.
 
     kind : "extreme" (interior), "end", "other" (the other sign at an
@@ -257,18 +257,18 @@ class _Label:
     kind: str
     value: float
     layer: str
-    spots: list[_Spot]
+    spots: list[Spot]
     must: bool = False
     force: bool = False
     nodes: tuple[int, ...] = ()
     element: int = -1
-    partner: "_Label | None" = None      # "other": the larger bound at the same end
-    merged_into: "_Label | None" = None  # set when merged into another label at a joint
+    partner: "Label | None" = None      # "other": the larger bound at the same end
+    merged_into: "Label | None" = None  # set when merged into another label at a joint
 
 
-def _element_labels(cs: list[tuple["_Curve", np.ndarray, np.ndarray, np.ndarray]], sym: str, t: np.ndarray,
+def label_requests(cs: list[tuple["Curve", np.ndarray, np.ndarray, np.ndarray]], sym: str, t: np.ndarray,
                     nrm: np.ndarray, L: float, nodes: tuple[int, int], element: int, gmax: float,
-                    factor: float, keyed: bool) -> list[_Label]:
+                    factor: float, keyed: bool) -> list[Label]:
     """Label requests of one element and diagram (rules in the module docstring).
 
     cs : per curve of the element (one "single" curve, or the "max" and
@@ -279,24 +279,24 @@ def _element_labels(cs: list[tuple["_Curve", np.ndarray, np.ndarray, np.ndarray]
     factor : SI -> report units; keyed : append the governing result's key
     """
     skip = _SKIP_LABEL * gmax
-    tol = _SAME_AT_JOINT * gmax
+    tol = SAME_AT_JOINT * gmax
     flat = [float(np.ptp(c.y)) <= _FLAT * gmax for c, *_r in cs]
     mid = [int(np.argmin(np.abs(c.x - L / 2))) for c, *_r in cs]
-    out: list[_Label] = []
+    out: list[Label] = []
 
-    def add(kind: str, ci: int, j: int, inward: float = 0.0, at: tuple[int, ...] = ()) -> _Label | None:
+    def add(kind: str, ci: int, j: int, inward: float = 0.0, at: tuple[int, ...] = ()) -> Label | None:
         c, o, pts, base = cs[ci]
         v = float(c.y[j])
         if not abs(v) >= skip or v == 0.0:
             return None
-        text = f"{sym}={_fmt(v * factor)}"
+        text = f"{sym}={format_value(v * factor)}"
         key = None
         if keyed:
             key = int(c.who[j])
             text += f" [C{key + 1}]"
         u = nrm if o[j] >= 0 else -nrm
-        spot = _Spot(text, pts[j], base[j], u, t, inward, key)
-        out.append(_Label(_PRIORITY[kind], kind, v, "", [spot], must=kind in _MUST, nodes=at, element=element))
+        spot = Spot(text, pts[j], base[j], u, t, inward, key)
+        out.append(Label(PRIORITY[kind], kind, v, "", [spot], must=kind in _MUST, nodes=at, element=element))
         return out[-1]
 
     def picks(js: list[int]) -> list[tuple[str, int]]:
@@ -309,7 +309,7 @@ def _element_labels(cs: list[tuple["_Curve", np.ndarray, np.ndarray, np.ndarray]
         big, other = (0, 1) if abs(vmax) >= abs(vmin) else (1, 0)
         vb, vo = (vmax, vmin) if big == 0 else (vmin, vmax)
         got = [("end", big)]
-        if vo * vb < 0 and abs(vo) >= _OTHER_SIGN * abs(vb):
+        if vo * vb < 0 and abs(vo) >= OTHER_SIGN * abs(vb):
             got.append(("other", other))
         return got
 
@@ -353,14 +353,14 @@ def _element_labels(cs: list[tuple["_Curve", np.ndarray, np.ndarray, np.ndarray]
     return out
 
 
-def _merge_at_joints(labels: list[_Label], tol: float) -> list[_Label]:
+def merge_at_joints(labels: list[Label], tol: float) -> list[Label]:
     """Values at one node whose magnitudes agree within ``tol`` [SI] and that
     come from different elements become one label with several spots
     (written once).  A flat element's one value counts at both its end nodes
     (but two flat values are not merged: they may be far apart).  Order is
     kept; linear in the number of labels."""
-    out: list[_Label] = []
-    groups: dict[int, list[tuple[_Label, set[int]]]] = {}
+    out: list[Label] = []
+    groups: dict[int, list[tuple[Label, set[int]]]] = {}
     for lb in labels:
         home = None
         for node in lb.nodes:
@@ -407,7 +407,7 @@ def _ring(anchor: np.ndarray, half_w: float, half_h: float, gaps: Sequence[float
     return anchor + np.tile(d, (len(gaps), 1)) * (g + np.tile(ext, len(gaps)))[:, None]
 
 
-def _candidates(sp: _Spot, kind: str, half_w: float, half_h: float, h: float, far: bool = False) -> np.ndarray:
+def _candidates(sp: Spot, kind: str, half_w: float, half_h: float, h: float, far: bool = False) -> np.ndarray:
     """Centres to try for a label box of half size ``half_w`` x ``half_h``, best first.
 
     Near candidates: beyond the diagram's tip, on the other side of the
@@ -438,12 +438,12 @@ def _candidates(sp: _Spot, kind: str, half_w: float, half_h: float, h: float, fa
     return np.vstack([np.array(first), _ring(sp.anchor, half_w, half_h, (gap, 1.2 * h), pref)])
 
 
-def _place_one(placer: LabelPlacer, lb: _Label, font, h: float):
+def _place_one(placer: LabelPlacer, lb: Label, font, h: float):
     """(spot, x, y, half_w, half_h) where ``lb`` is written, or None when it
     is dropped (no free spot, and not allowed to overlap)."""
     opts = []
     for sp in lb.spots:
-        hw = 0.5 * _text_width(font, sp.text, h) + 0.15 * h
+        hw = 0.5 * text_width(font, sp.text, h) + 0.15 * h
         opts.append((sp, hw, 0.7 * h))
     for far in (False, True):
         if far and not lb.must:
@@ -468,7 +468,7 @@ def _place_one(placer: LabelPlacer, lb: _Label, font, h: float):
     return sp, x, y, hw, hh
 
 
-def _apart(sp: _Spot, x: float, y: float, half_w: float, half_h: float) -> float:
+def _apart(sp: Spot, x: float, y: float, half_w: float, half_h: float) -> float:
     """How far the box centred at (x, y) sits from its spot: the larger of
     its gaps across and along the member, from the anchor or the base
     point, whichever is nearer."""
@@ -483,7 +483,7 @@ def _apart(sp: _Spot, x: float, y: float, half_w: float, half_h: float) -> float
     return min(gaps)
 
 
-def _place_labels(pen: _Pen, placer: LabelPlacer, labels: list[_Label], font, h: float) -> tuple[int, set[int]]:
+def place_labels(pen: Pen, placer: LabelPlacer, labels: list[Label], font, h: float) -> tuple[int, set[int]]:
     """Write the labels of one layer, most important (then largest) first;
     returns (labels dropped, envelope keys written)."""
     dropped, used = 0, set()
@@ -512,7 +512,7 @@ def _place_labels(pen: _Pen, placer: LabelPlacer, labels: list[_Label], font, h:
     return dropped, used
 
 
-def _drawing_texts(doc: "Drawing", result_layers: Iterable[str], limit: int = _MAX_TEXT_OBSTACLES) -> list:
+def drawing_texts(doc: "Drawing", result_layers: Iterable[str], limit: int = _MAX_TEXT_OBSTACLES) -> list:
     """Boxes (shapely) of the drawing's own TEXT and MTEXT in modelspace
     (titles, grid marks), so labels keep off them; none when there are more
     than ``limit`` (a heavily annotated sheet: not worth the time)."""
@@ -533,7 +533,7 @@ def _drawing_texts(doc: "Drawing", result_layers: Iterable[str], limit: int = _M
     return out
 
 
-def _as_lines(polys: list[np.ndarray]) -> np.ndarray:
+def as_lines(polys: list[np.ndarray]) -> np.ndarray:
     """shapely LineStrings (an object array) of a list of (k, 2) polylines, in one call."""
     polys = [q for q in polys if len(q) >= 2]
     if not polys:
@@ -542,7 +542,7 @@ def _as_lines(polys: list[np.ndarray]) -> np.ndarray:
     return shapely.linestrings(np.vstack(polys), indices=idx)
 
 
-def _near(geoms: np.ndarray, labels: list[_Label], reach: float) -> list:
+def geometries_near(geoms: np.ndarray, labels: list[Label], reach: float) -> list:
     """The geometries (object array) whose box may come within ``reach`` of
     a label's anchor or base point: the only ones a label of the list can
     touch.
@@ -571,7 +571,7 @@ def _near(geoms: np.ndarray, labels: list[_Label], reach: float) -> list:
     return list(geoms[inside & (count > 0)])
 
 
-def _font(h: float):
+def label_font(h: float):
     try:
         from ezdxf.fonts import fonts
 
@@ -580,7 +580,7 @@ def _font(h: float):
         return None
 
 
-def _text_width(font, text: str, h: float) -> float:
+def text_width(font, text: str, h: float) -> float:
     if font is not None:
         try:
             return float(font.text_width(text))

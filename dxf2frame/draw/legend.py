@@ -19,12 +19,12 @@ from typing import TYPE_CHECKING
 from ezdxf.enums import TextEntityAlignment
 
 from .. import CAUTION, __version__
-from .labels import Box, _text_width
+from .labels import Box, text_width
 from ..report.report import UnitFactors
 
 if TYPE_CHECKING:  # pragma: no cover
-    from .style import _Pen
-    from .writer import _FrameGeom
+    from .style import Pen
+    from .curves import FrameGeom
 
 
 # -- constants -----------------------------------------------------------------
@@ -55,7 +55,7 @@ def _wrap_items(head: str, items: list[str], width: int = 0) -> list[str]:
     return rows + [row]
 
 
-def _notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list[str]) -> list[str]:
+def notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list[str]) -> list[str]:
     paras = [
         f"dxf2frame {__version__}",
         f"Source: {Path(model.source).name}",
@@ -87,7 +87,7 @@ def _notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: lis
     return paras
 
 
-def _draw_legend_and_notes(pen: _Pen, model, det, geom: _FrameGeom, names: dict[str, str],
+def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str, str],
                            legend: list[tuple[str, str]], h: float, uf: UnitFactors | None, shown: str,
                            envelope: bool, *, content: Box, keys: dict[str, list[tuple[int, str]]],
                            font) -> None:
@@ -109,7 +109,7 @@ def _draw_legend_and_notes(pen: _Pen, model, det, geom: _FrameGeom, names: dict[
             rows += _wrap_items("governing:", [f"C{k + 1} = {name}" for k, name in keys[key]])
         blocks.append((key, rows))
     sw = 2.0 * h
-    widths = [sw + 0.8 * h + max(_text_width(font, row, h) for row in rows) for _key, rows in blocks]
+    widths = [sw + 0.8 * h + max(text_width(font, row, h) for row in rows) for _key, rows in blocks]
     pitch = 1.6 * h
     size = geom.size
     side_x = content[2] + max(0.05 * size, 3 * h)
@@ -153,5 +153,5 @@ def _draw_legend_and_notes(pen: _Pen, model, det, geom: _FrameGeom, names: dict[
             pen.text(row, (x0, y), h, names["notes"], style="D2F-NOTES", align=TextEntityAlignment.TOP_LEFT)
             y -= pitch
         y -= 0.4 * h
-    paras = _notes_paragraphs(model, det, uf, shown, [])
+    paras = notes_paragraphs(model, det, uf, shown, [])
     pen.notes(paras, (x0, y - 0.8 * h), h, max(0.6 * size, 45 * h), names["notes"])

@@ -39,7 +39,7 @@ _TEXT_TYPES = {"TEXT", "ATTRIB", "MTEXT", "ATTDEF"}
 
 def _load(dxf_path: Path) -> "ezdxf.document.Drawing":
     """Open the drawing the way the reader does (damaged files recovered)."""
-    from ..read.reader import open_document
+    from ..drawing_file import open_document
 
     doc, _notes = open_document(dxf_path)
     return doc

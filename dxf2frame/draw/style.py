@@ -8,7 +8,7 @@ with a true colour and the nearest ACI colour, a linetype
 :func:`prepare_layers` creates or restyles them in a drawing,
 :func:`clear_result_layers` empties them.
 
-:class:`_Pen` adds the entities (polylines, fills, lines, solids, arcs,
+:class:`Pen` adds the entities (polylines, fills, lines, solids, arcs,
 circles, TEXT, a block of notes, arrows) to modelspace and counts them;
 coordinates and sizes are in drawing units.  DXF R12 drawings get the same
 content with R12 entities (POLYLINE, TEXT, ACI colours, no fills).
@@ -18,13 +18,12 @@ from __future__ import annotations
 import math
 import textwrap
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Iterable, Sequence
+from typing import TYPE_CHECKING, Any, Iterable, Mapping, Sequence
 
 import numpy as np
 from ezdxf import colors as ezcolors
 from ezdxf.enums import TextEntityAlignment
 
-from ..errors import SettingsError
 from ..settings import DEFAULT_OUTPUT_LAYERS as _SETTINGS_OUTPUT_LAYERS
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -123,18 +122,13 @@ def _nearest_aci(rgb: tuple[int, int, int]) -> int:
 # -- layers --------------------------------------------------------------------
 
 
-def result_layer_names(settings: Any = None) -> dict[str, str]:
-    """Result layer key -> layer name, from ``settings.output_layer(key)`` or the defaults."""
+def result_layer_names(layers: Mapping[str, str] | None = None) -> dict[str, str]:
+    """Result layer key -> layer name: the defaults, overridden by ``layers``
+    (the settings' ``[output_layers]``) for the keys drawn here."""
     names = dict(DEFAULT_OUTPUT_LAYERS)
-    getter = getattr(settings, "output_layer", None) if settings is not None else None
-    if getter is not None:
-        for key in names:
-            try:
-                value = getter(key)
-            except (KeyError, AttributeError, SettingsError):
-                continue
-            if value:
-                names[key] = str(value)
+    for key, value in (layers or {}).items():
+        if key in names and value:
+            names[key] = str(value)
     return names
 
 
@@ -184,7 +178,7 @@ def clear_result_layers(doc: "Drawing", names: Iterable[str]) -> int:
 # -- drawing primitives --------------------------------------------------------
 
 
-class _Pen:
+class Pen:
     """Adds entities to modelspace, with R12 fallbacks (POLYLINE, TEXT, no fills)."""
 
     def __init__(self, doc: "Drawing", size: float) -> None:

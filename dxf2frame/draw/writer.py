@@ -47,25 +47,23 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Sequence
+from typing import TYPE_CHECKING, Mapping, Sequence
 
-import ezdxf
 import numpy as np
 import shapely
-from ezdxf import recover
 from ezdxf.enums import TextEntityAlignment
 
 from ..atomic import atomic_path
-from .curves import (_DIAGRAMS, _chord_tolerance, _curves, _drawn, _FlatCurve, _has_batch, _sample_batch,
-                             _sample_member_by_member, _segment_max, _straight_chains, _thin, _zero_crossings)
-from ..errors import InputFileError, SettingsError
-from .labels import (_OTHER_SIGN, _PRIORITY, _SAME_AT_JOINT, Box, LabelPlacer, _as_lines, _drawing_texts,
-                     _element_labels, _fmt, _font, _Label, _merge_at_joints, _near, _place_labels, _Spot, _text_width)
-from .legend import _draw_legend_and_notes, _notes_paragraphs
+from ..drawing_file import open_document
+from .curves import (DIAGRAMS, FrameGeom, frame_geom, chord_tolerance, sample_curves, drawn_curves, FlatCurve, has_batch, sample_batch,
+                             sample_member_by_member, segment_max, straight_chains, thin, zero_crossings)
+from ..errors import SettingsError
+from .labels import (OTHER_SIGN, PRIORITY, SAME_AT_JOINT, Box, LabelPlacer, as_lines, drawing_texts,
+                     label_requests, format_value, label_font, Label, merge_at_joints, geometries_near, place_labels, Spot, text_width)
+from .legend import draw_legend_and_notes, notes_paragraphs
 from ..report.report import UnitFactors, unit_factors
 from .selection import Selection, select_results
-from .style import (DEFAULT_OUTPUT_LAYERS, LINETYPES, RESULT_LAYER_STYLES, TEXT_STYLES, LayerStyle, _Pen,
-                           clear_result_layers, prepare_layers, result_layer_names)
+from .style import RESULT_LAYER_STYLES, Pen, clear_result_layers, prepare_layers, result_layer_names
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
@@ -73,18 +71,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..drawing_model import DrawingModel
 
 __all__ = [
-    "DEFAULT_OUTPUT_LAYERS",
-    "LayerStyle",
-    "RESULT_LAYER_STYLES",
-    "LINETYPES",
-    "TEXT_STYLES",
-    "LabelPlacer",
-    "Selection",
     "DrawingSummary",
-    "result_layer_names",
-    "select_results",
-    "prepare_layers",
-    "clear_result_layers",
     "annotate_results",
     "annotate_mechanism",
     "write_result_drawing",
@@ -131,29 +118,12 @@ def _nice_down(v: float) -> float:
     return 10.0**e
 
 
-def _load_source(source: Path, settings: Any = None) -> "Drawing":
-    """Read the drawing afresh, repairing a damaged file the way the reader
-    does (:func:`dxf2frame.read.open_document`), so whatever the analysis
-    accepted can be annotated."""
-    try:
-        from ..read.reader import open_document
-    except ImportError:  # pragma: no cover - reader not installed: plain ezdxf
-        open_document = None
-    if open_document is not None:
-        from ..settings import Settings
-
-        doc, _notes = open_document(source, settings if isinstance(settings, Settings) else None)
-        return doc
-    try:
-        return ezdxf.readfile(source)
-    except OSError as exc:
-        raise InputFileError(f"{source}: cannot read ({exc})") from exc
-    except Exception:  # noqa: BLE001 - ezdxf raises several kinds for damaged files
-        try:
-            doc, _auditor = recover.readfile(source)
-        except Exception as exc:  # noqa: BLE001
-            raise InputFileError(f"{source}: cannot read as DXF ({exc})") from exc
-        return doc
+def _load_source(source: Path) -> "Drawing":
+    """Read the drawing afresh the way the reader does (damaged files
+    recovered, :func:`dxf2frame.drawing_file.open_document`), so whatever the
+    analysis accepted can be annotated."""
+    doc, _notes = open_document(source)
+    return doc
 
 
 def _check_target(source: Path, out: Path) -> None:
@@ -194,45 +164,6 @@ class DrawingSummary:
     shown: str = ""
 
 
-# -- geometry of the frame -----------------------------------------------------
-
-
-@dataclass
-class _FrameGeom:
-    """Element geometry in drawing units, in ``frame.members`` order."""
-
-    start: np.ndarray     # (m, 2)
-    end: np.ndarray       # (m, 2)
-    t: np.ndarray         # (m, 2) unit local x
-    n: np.ndarray         # (m, 2) unit local y
-    length_m: np.ndarray  # (m,) metres
-    bounds: tuple[float, float, float, float]
-    size: float
-
-
-def _frame_geom(model: "DrawingModel") -> _FrameGeom:
-    frame = model.frame
-    us = model.unit_scale
-    xy = np.array([(n.x, n.y) for n in frame.nodes], dtype=float).reshape(-1, 2) / us
-    si = np.array([m.start for m in frame.members], dtype=int)
-    ei = np.array([m.end for m in frame.members], dtype=int)
-    a, b = xy[si], xy[ei]
-    d = b - a
-    ld = np.hypot(d[:, 0], d[:, 1])
-    t = d / np.where(ld > 0, ld, 1.0)[:, None]
-    n = np.column_stack([-t[:, 1], t[:, 0]])
-    pts = xy if len(xy) else np.zeros((1, 2))
-    x0, y0 = pts.min(0)
-    x1, y1 = pts.max(0)
-    ex = tuple(float(v) for v in (model.extents or (0, 0, 0, 0)))
-    if ex[2] > ex[0] or ex[3] > ex[1]:
-        x0, y0, x1, y1 = min(x0, ex[0]), min(y0, ex[1]), max(x1, ex[2]), max(y1, ex[3])
-    size = max(x1 - x0, y1 - y0)
-    if not size > 0:
-        size = 1.0
-    return _FrameGeom(a, b, t, n, ld * us, (float(x0), float(y0), float(x1), float(y1)), float(size))
-
-
 # -- the result drawing --------------------------------------------------------
 
 
@@ -241,13 +172,13 @@ class _Ctx:
     """What drawing one diagram needs to know about the drawing.
 
     small : elements too short (drawn length < 3 text heights) for fills and labels
-    chains : runs of elements in a straight line (:func:`_straight_chains`), drawn as one outline
+    chains : runs of elements in a straight line (:func:`straight_chains`), drawn as one outline
     keyed : an envelope is drawn: labels carry the governing result's key
     nodes : (m, 2) start and end node of each element
     """
 
-    pen: _Pen
-    geom: _FrameGeom
+    pen: Pen
+    geom: FrameGeom
     h: float
     us: float
     small: np.ndarray
@@ -257,7 +188,7 @@ class _Ctx:
     uf: UnitFactors
 
 
-def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], labels: list[_Label],
+def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[FlatCurve], labels: list[Label],
                   legend: list[tuple[str, str]], lines: list[np.ndarray], extents: list[Box]) -> float | None:
     """Outline (and fill) of one diagram type on every element, its label
     requests and its legend line; returns the scale (report units per
@@ -280,30 +211,30 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], lab
     sym = _SYMBOL[key]
     # every point of every curve in drawing coordinates, at once
     ords = [c.y * (k_si * _SIDE[key]) for c in curves]                # ordinates [drawing units]
-    omax = np.max([_segment_max(o, c.bounds[:-1]) for c, o in zip(curves, ords)], axis=0)
-    tol = _chord_tolerance(h, omax, size)
+    omax = np.max([segment_max(o, c.bounds[:-1]) for c, o in zip(curves, ords)], axis=0)
+    tol = chord_tolerance(h, omax, size)
     zero = _ZERO_LABEL * gmax if key == "moment" and curves[0].role == "single" else None   # zero ticks
     flat = []
     for c, o in zip(curves, ords):
         along = c.x / us
         base = geom.start[c.eid] + along[:, None] * geom.t[c.eid]
         pts = base + o[:, None] * geom.n[c.eid]
-        flat.append((o, base, pts, _drawn(c, along, o, tol, zero)))
+        flat.append((o, base, pts, drawn_curves(c, along, o, tol, zero)))
         if len(pts):
             extents.append((*map(float, pts.min(0)), *map(float, pts.max(0))))
 
-    def element_labels(i: int) -> list[_Label]:
+    def element_labels(i: int) -> list[Label]:
         cs = []
         for c, (o, base, pts, _keep) in zip(curves, flat):
             sl = slice(c.bounds[i], c.bounds[i + 1])
             cs.append((c.element(i), o[sl], pts[sl], base[sl]))
-        got = _element_labels(cs, sym, geom.t[i], geom.n[i], float(geom.length_m[i]),
+        got = label_requests(cs, sym, geom.t[i], geom.n[i], float(geom.length_m[i]),
                               (int(ctx.nodes[i, 0]), int(ctx.nodes[i, 1])), int(i), gmax, factor, ctx.keyed)
         for lb in got:
             lb.layer = layer
         return got
 
-    mine: list[_Label] = []
+    mine: list[Label] = []
     tick = 0.6 * h
     shown = omax > 1e-9 * size
     for poly in _outlines(curves, [(pts, keep) for _o, _base, pts, keep in flat], geom, shown, ctx.chains):
@@ -325,14 +256,14 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], lab
         mine += element_labels(i)
         if key == "moment" and curves[0].role == "single":
             # zero crossings (points of contraflexure): a tick across the member, "0" beside it if there is room
-            for x0 in _zero_crossings(curves[0].element(i), _ZERO_LABEL * gmax)[:_MAX_ZEROS]:
+            for x0 in zero_crossings(curves[0].element(i), _ZERO_LABEL * gmax)[:_MAX_ZEROS]:
                 p = a + t * (x0 / us)
                 ends = np.array([p - nrm * tick, p + nrm * tick])
                 ctx.pen.line(ends[0], ends[1], layer)
                 lines.append(ends)
-                mine.append(_Label(_PRIORITY["zero"], "zero", 0.0, layer, [_Spot("0", p, p, nrm, t)],
+                mine.append(Label(PRIORITY["zero"], "zero", 0.0, layer, [Spot("0", p, p, nrm, t)],
                                    element=int(i)))
-    mine = _merge_at_joints(mine, _SAME_AT_JOINT * gmax)
+    mine = merge_at_joints(mine, SAME_AT_JOINT * gmax)
     # the diagram's overall extreme is always written, first in line
     ci = int(np.argmax([float(np.max(np.abs(c.y))) if len(c.y) else 0.0 for c in curves]))
     top = int(curves[ci].eid[int(np.argmax(np.abs(curves[ci].y)))])
@@ -347,7 +278,7 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[_FlatCurve], lab
     return per_unit
 
 
-def _outlines(curves: list[_FlatCurve], drawn: list[tuple[np.ndarray, np.ndarray]], geom: _FrameGeom,
+def _outlines(curves: list[FlatCurve], drawn: list[tuple[np.ndarray, np.ndarray]], geom: FrameGeom,
               shown: np.ndarray, chains: list[list[int]]) -> list[np.ndarray]:
     """The closed outlines of one diagram, one per run of elements in a
     straight line (``chains``, broken where an element's diagram is zero
@@ -401,7 +332,7 @@ def annotate_results(
     results: Sequence,
     *,
     show: str | None,
-    settings: Any = None,
+    layers: Mapping[str, str] | None = None,
     force_unit: str,
     length_unit: str,
 ) -> DrawingSummary:
@@ -409,42 +340,44 @@ def annotate_results(
 
     Removes the previous content of the result layers first.  Values are
     converted from SI to ``force_unit`` / ``length_unit`` for the text.
+    ``layers``: result layer key -> name (the settings' ``[output_layers]``;
+    None: the defaults).
     """
-    names = result_layer_names(settings)
+    names = result_layer_names(layers)
     clear_result_layers(doc, names.values())
     prepare_layers(doc, names)
     sel = select_results(results, show)
     uf = unit_factors(force_unit, length_unit)
-    texts = _drawing_texts(doc, names.values())        # the drawing's own, before we add ours
-    geom = _frame_geom(model)
+    texts = drawing_texts(doc, names.values())        # the drawing's own, before we add ours
+    geom = frame_geom(model)
     size = geom.size
     h = float(f"{size * _TEXT_RATIO:.2g}")
-    pen = _Pen(doc, size)
+    pen = Pen(doc, size)
     summary = DrawingSummary(layers=names, text_height=h, shown=sel.label)
     frame = model.frame
 
     # 1. sample every element once
     n_el = len(frame.members)
-    if n_el and _has_batch(sel.results):
-        stations = _sample_batch(sel.results, frame, geom.length_m)
+    if n_el and has_batch(sel.results):
+        stations = sample_batch(sel.results, frame, geom.length_m)
     elif n_el:
-        stations = _sample_member_by_member(sel.results, frame, geom.length_m)
+        stations = sample_member_by_member(sel.results, frame, geom.length_m)
     else:
         stations = None
 
     us = model.unit_scale
     small = geom.length_m / us < 3 * h
     nodes = np.array([(m.start, m.end) for m in frame.members], dtype=int).reshape(-1, 2)
-    chains = _straight_chains(nodes[:, 0], nodes[:, 1], geom.t)
+    chains = straight_chains(nodes[:, 0], nodes[:, 1], geom.t)
     ctx = _Ctx(pen=pen, geom=geom, h=h, us=us, small=small, chains=chains, keyed=sel.envelope, nodes=nodes, uf=uf)
     legend: list[tuple[str, str]] = []
     boxes: list[Box] = [geom.bounds]                   # of everything drawn, for the legend's place
-    labels: dict[str, list[_Label]] = {key: [] for key in (*_DIAGRAMS, "reactions")}
-    lines: dict[str, list[np.ndarray]] = {key: [] for key in _DIAGRAMS}
+    labels: dict[str, list[Label]] = {key: [] for key in (*DIAGRAMS, "reactions")}
+    lines: dict[str, list[np.ndarray]] = {key: [] for key in DIAGRAMS}
 
     # 2. draw the diagrams
-    for key in _DIAGRAMS:
-        curves = _curves(stations, key, sel.envelope, n_el) if stations is not None else []
+    for key in DIAGRAMS:
+        curves = sample_curves(stations, key, sel.envelope, n_el) if stations is not None else []
         summary.scales[key] = _draw_diagram(ctx, key, names[key], curves, labels[key], legend, lines[key], boxes)
         del curves                                     # one diagram's arrays at a time (large frames)
     stations = None
@@ -459,7 +392,7 @@ def annotate_results(
 
     # 5. labels, layer by layer (each result layer reads on its own), most important first
     members = shapely.linestrings(np.stack([geom.start, geom.end], axis=1)) if n_el else np.zeros(0, dtype=object)
-    font = _font(h)
+    font = label_font(h)
     used: dict[str, set[int]] = {}
     if arrows:
         boxes.append(tuple(float(v) for v in shapely.total_bounds(arrows)))
@@ -467,10 +400,10 @@ def annotate_results(
         if not todo:
             continue
         # obstacles: member lines, this layer's outlines and ticks (reactions: the arrows), the drawing's texts
-        reach = 7.0 * h + 2.5 * max(_text_width(font, sp.text, h) for lb in todo for sp in lb.spots)
-        own = list(arrows) if key == "reactions" else _near(_as_lines(lines[key]), todo, reach)
-        placer = LabelPlacer(_near(members, todo, reach) + own + texts, cell=4 * h)
-        dropped, used[key] = _place_labels(pen, placer, todo, font, h)
+        reach = 7.0 * h + 2.5 * max(text_width(font, sp.text, h) for lb in todo for sp in lb.spots)
+        own = list(arrows) if key == "reactions" else geometries_near(as_lines(lines[key]), todo, reach)
+        placer = LabelPlacer(geometries_near(members, todo, reach) + own + texts, cell=4 * h)
+        dropped, used[key] = place_labels(pen, placer, todo, font, h)
         summary.labels += placer.placed
         summary.forced += placer.forced
         summary.dropped += dropped
@@ -487,7 +420,7 @@ def annotate_results(
     if sel.envelope:
         head, _sep, _names = sel.label.partition(": ")
         shown = head + ": " + ", ".join(f"C{k + 1} = {r.name}" for k, r in enumerate(sel.results))
-    _draw_legend_and_notes(pen, model, det, geom, names, legend, h, uf, shown, sel.envelope,
+    draw_legend_and_notes(pen, model, det, geom, names, legend, h, uf, shown, sel.envelope,
                            content=content, keys=keys, font=font)
     summary.entities = pen.count
     return summary
@@ -508,14 +441,14 @@ def _reaction_table(sel: Selection) -> tuple[list[int], np.ndarray]:
     return nodes, table
 
 
-def _draw_reactions(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: str, uf: UnitFactors,
-                    h: float, labels: list[_Label]) -> list:
+def _draw_reactions(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str, uf: UnitFactors,
+                    h: float, labels: list[Label]) -> list:
     """Arrows at the supports and their label requests; returns the arrow
     shafts as shapely lines (obstacles for the reaction labels).
 
     For an envelope each component gets the bound of larger magnitude with
     its key, plus the other bound when it has the other sign and is at
-    least ``_OTHER_SIGN`` of the larger; ``[all]`` when every result gives
+    least ``OTHER_SIGN`` of the larger; ``[all]`` when every result gives
     the same value.  Reactions are written however small.
     """
     nodes, table = _reaction_table(sel)
@@ -540,13 +473,13 @@ def _draw_reactions(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
             factor = uf.moment if comp == 2 else uf.force
             texts: list[tuple[str, int | None, float]]
             if not sel.envelope:
-                texts = [(f"{sym}={_fmt(v_big * factor)}", None, v_big)]
+                texts = [(f"{sym}={format_value(v_big * factor)}", None, v_big)]
             elif abs(v_big - v_oth) <= 1e-9 * ref:
-                texts = [(f"{sym}={_fmt(v_big * factor)} [all]", None, v_big)]
+                texts = [(f"{sym}={format_value(v_big * factor)} [all]", None, v_big)]
             else:
-                texts = [(f"{sym}={_fmt(v_big * factor)} [C{kb + 1}]", kb, v_big)]
-                if v_oth * v_big < 0 and abs(v_oth) >= _OTHER_SIGN * abs(v_big):
-                    texts.append((f"{sym}={_fmt(v_oth * factor)} [C{ko + 1}]", ko, v_oth))
+                texts = [(f"{sym}={format_value(v_big * factor)} [C{kb + 1}]", kb, v_big)]
+                if v_oth * v_big < 0 and abs(v_oth) >= OTHER_SIGN * abs(v_big):
+                    texts.append((f"{sym}={format_value(v_oth * factor)} [C{ko + 1}]", ko, v_oth))
             if comp == 0:
                 a, b = p + (-gap - La, 0.0), p + (-gap, 0.0)
                 tail, tip = (a, b) if v_big > 0 else (b, a)
@@ -573,12 +506,12 @@ def _draw_reactions(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
                 d = np.array([math.cos(math.radians(165)), math.sin(math.radians(165))])
                 out, along, anchor = d, np.array([0.0, 1.0]), p + d * r
             for k, (text, key, v) in enumerate(texts):
-                spot = _Spot(text, anchor - along * (1.6 * h * k), p, out, along, 0.0, key)
-                labels.append(_Label(_PRIORITY["reaction"] + 0.01 * k, "reaction", v, layer, [spot], must=True, force=True))
+                spot = Spot(text, anchor - along * (1.6 * h * k), p, out, along, 0.0, key)
+                labels.append(Label(PRIORITY["reaction"] + 0.01 * k, "reaction", v, layer, [spot], must=True, force=True))
     return shafts
 
 
-def _draw_deflected(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: str, h: float,
+def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str, h: float,
                     summary: DrawingSummary, legend: list[tuple[str, str]],
                     chains: list[list[int]] | None = None) -> np.ndarray | None:
     """Exaggerated deflected shape of the result (or, for an envelope, of the
@@ -653,8 +586,8 @@ def _draw_deflected(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
     # run on through the joints.  Thinned to the chord tolerance, with 1 % of
     # the element's largest drawn displacement as the relative part.
     moved = base + factor * disp
-    tol = _chord_tolerance(h, factor * np.maximum.reduceat(mag, bounds[:-1]), geom.size)
-    chains = chains if chains is not None else _straight_chains(si, ei, geom.t)
+    tol = chord_tolerance(h, factor * np.maximum.reduceat(mag, bounds[:-1]), geom.size)
+    chains = chains if chains is not None else straight_chains(si, ei, geom.t)
     seq = np.concatenate([np.asarray(c, dtype=int) for c in chains])
     head = np.zeros(len(seq), dtype=bool)
     head[np.cumsum([0] + [len(c) for c in chains[:-1]])] = True
@@ -668,7 +601,7 @@ def _draw_deflected(pen: _Pen, model, geom: _FrameGeom, sel: Selection, layer: s
     anchor = np.zeros(len(pts), dtype=bool)
     anchor[ends - 1] = True
     anchor[ends - lengths] = True
-    keep = _thin(pts, anchor, np.repeat(tol[seq], count))
+    keep = thin(pts, anchor, np.repeat(tol[seq], count))
     for a, b in zip(ends - lengths, ends):
         pen.polyline(pts[a:b][keep[a:b]], layer, dashed=True)
     summary.deflection_factor = factor
@@ -687,7 +620,7 @@ def write_result_drawing(
     results: Sequence,
     *,
     show: str | None,
-    settings: Any = None,
+    layers: Mapping[str, str] | None = None,
     force_unit: str,
     length_unit: str,
     document: "Drawing | None" = None,
@@ -701,7 +634,7 @@ def write_result_drawing(
     model, det, results : the analysis (SI), results = cases then combinations
     show : a result name, or ``"envelope:LRFD"`` / ``"envelope:ASD"`` /
         ``"envelope:all"`` / ``"envelope"``; None = ``"envelope:LRFD"``
-    settings : for the result layer names (``settings.output_layer(key)``)
+    layers : result layer key -> name (the settings' ``[output_layers]``; None: the defaults)
     force_unit, length_unit : units of the values written as text
     document : optional: ``source`` already loaded with ``ezdxf.readfile``
         and not modified since (the reader's document), to save reading the
@@ -714,8 +647,8 @@ def write_result_drawing(
     """
     source, out = Path(source), Path(out)
     _check_target(source, out)
-    doc = document if document is not None else _load_source(source, settings)
-    annotate_results(doc, model, det, results, show=show, settings=settings,
+    doc = document if document is not None else _load_source(source)
+    annotate_results(doc, model, det, results, show=show, layers=layers,
                      force_unit=force_unit, length_unit=length_unit)
     with atomic_path(out) as tmp:
         doc.saveas(tmp)
@@ -724,21 +657,23 @@ def write_result_drawing(
 # -- unstable frames -----------------------------------------------------------
 
 
-def annotate_mechanism(doc: "Drawing", model: "DrawingModel", det, settings: Any = None) -> DrawingSummary:
+def annotate_mechanism(doc: "Drawing", model: "DrawingModel", det,
+                       layers: Mapping[str, str] | None = None) -> DrawingSummary:
     """Draw the mechanism modes of an unstable frame into an open document.
 
     Each mode is the frame displaced by the mode (scaled so the largest
     movement is about 10 % of the frame's size), drawn on the mechanism
     layer with circles at the nodes that move and a "mode k" label; a notes
-    block explains the instability and carries the caution.
+    block explains the instability and carries the caution.  ``layers`` as
+    for :func:`annotate_results`.
     """
-    names = result_layer_names(settings)
+    names = result_layer_names(layers)
     clear_result_layers(doc, names.values())
     prepare_layers(doc, names)
-    geom = _frame_geom(model)
+    geom = frame_geom(model)
     size = geom.size
     h = float(f"{size * _TEXT_RATIO:.2g}")
-    pen = _Pen(doc, size)
+    pen = Pen(doc, size)
     frame = model.frame
     layer = names["mechanism"]
     xy = np.array([(n.x, n.y) for n in frame.nodes], dtype=float).reshape(-1, 2) / model.unit_scale
@@ -777,18 +712,18 @@ def annotate_mechanism(doc: "Drawing", model: "DrawingModel", det, settings: Any
     for key, line in legend:
         pen.text(line, (x0, y), h, names[key], style="D2F-NOTES", align=TextEntityAlignment.TOP_LEFT)
         y -= 1.9 * h
-    pen.notes(_notes_paragraphs(model, det, None, shown, extra), (x0, y - 0.8 * h), h,
+    pen.notes(notes_paragraphs(model, det, None, shown, extra), (x0, y - 0.8 * h), h,
               max(0.6 * size, 45 * h), names["notes"])
     return DrawingSummary(layers=names, text_height=h, entities=pen.count, shown=shown)
 
 
-def write_mechanism_drawing(source: Path, out: Path, model: "DrawingModel", det, settings: Any = None, *,
-                            document: "Drawing | None" = None) -> None:
+def write_mechanism_drawing(source: Path, out: Path, model: "DrawingModel", det,
+                            layers: Mapping[str, str] | None = None, *, document: "Drawing | None" = None) -> None:
     """Write a copy of ``source`` that shows the mechanism of an unstable
-    frame (atomic); ``document`` as for :func:`write_result_drawing`."""
+    frame (atomic); ``layers`` and ``document`` as for :func:`write_result_drawing`."""
     source, out = Path(source), Path(out)
     _check_target(source, out)
-    doc = document if document is not None else _load_source(source, settings)
-    annotate_mechanism(doc, model, det, settings)
+    doc = document if document is not None else _load_source(source)
+    annotate_mechanism(doc, model, det, layers)
     with atomic_path(out) as tmp:
         doc.saveas(tmp)

@@ -1,38 +1,27 @@
-"""Hand-check sheets: a free body cut at a point, its equilibrium equations
-with numbers, the sheet's wording and figures.
+"""Hand-check sheets: the forces on a free body (:mod:`.terms`), the cut and the
+equilibrium sums (:mod:`.free_body`), the numbers (:mod:`.numbers`), the
+sheet's wording (:mod:`.wording`) and figures (:mod:`.figures`), and which
+cuts an analysed drawing gets and the files (:mod:`.sheets`).
 """
-from .sheets import (  # noqa: F401
-    Term,
-    DistributedPart,
-    FreeBody,
-    SheetHeader,
-    SheetRequestError,
-    cut_free_body,
-    fmt,
-    sheet_markdown,
-    sheet_text,
-    write_cut_sheets,
-    write_sheets,
-    run_explain_command,
-    drawing_revision,
-    Side,
-    Method,
-)
+from .terms import Term, DistributedPart, Side
+from .free_body import FreeBody, Method, cut_free_body
+from .numbers import fmt
+from .wording import SheetHeader, sheet_markdown, sheet_text
+from .sheets import SheetRequestError, drawing_revision, write_cut_sheets, write_sheets
 
 __all__ = [
     "Term",
     "DistributedPart",
+    "Side",
     "FreeBody",
-    "SheetHeader",
-    "SheetRequestError",
+    "Method",
     "cut_free_body",
     "fmt",
+    "SheetHeader",
     "sheet_markdown",
     "sheet_text",
+    "SheetRequestError",
+    "drawing_revision",
     "write_cut_sheets",
     "write_sheets",
-    "run_explain_command",
-    "drawing_revision",
-    "Side",
-    "Method",
 ]

@@ -18,8 +18,8 @@ from typing import TYPE_CHECKING, Any, Literal
 import networkx as nx
 import numpy as np
 
-from .numbers import _SI, fmt
-from .terms import Side, Term, _add_member_loads, _Builder, _case_text
+from .numbers import SI_UNITS, fmt
+from .terms import Side, Term, add_member_loads, TermBuilder, case_text
 from ..report.report import UnitFactors
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
@@ -108,7 +108,7 @@ class FreeBody:
         the bracket holds every term's component (four significant figures),
         so the result can be redone with a calculator.
         """
-        uf = units or _SI
+        uf = units or SI_UNITS
         start = self.side == "start"
         rows = [
             ("N", "n", "along", uf.force, uf.force_unit,
@@ -139,7 +139,7 @@ def _result_factors(result) -> dict[str, float]:
     return {k: float(v) for k, v in factors.items() if float(v) != 0.0}
 
 
-def _member_value(mr, what: str, x: float, limit: str) -> float:
+def member_value(mr, what: str, x: float, limit: str) -> float:
     fn = getattr(mr, what)
     arr = np.array([x], dtype=float)
     val = fn(arr) if limit == "right" else fn(arr, side="left")
@@ -197,7 +197,7 @@ def cut_free_body(
     ex = (c, s)
     factors = _result_factors(result)
     mr = result.members[member_id]
-    solver_vals = {k: _member_value(mr, f, x, limit) for k, f in (("n", "axial"), ("v", "shear"), ("m", "moment"))}
+    solver_vals = {k: member_value(mr, f, x, limit) for k, f in (("n", "axial"), ("v", "shear"), ("m", "moment"))}
 
     def own_start(a: float) -> bool:
         return a <= x + tol if limit == "right" else a < x - tol
@@ -228,7 +228,7 @@ def cut_free_body(
 
     if not bridge:
         near: Side = "start" if x <= 0.5 * L else "end"
-        b = _Builder(near, cut, ex)
+        b = TermBuilder(near, cut, ex)
         node = mem.start if near == "start" else mem.end
         ef = np.asarray(mr.end_forces, dtype=float).ravel()
         ni, vi, mi = (ef[0:3] if near == "start" else ef[3:6])
@@ -240,7 +240,7 @@ def cut_free_body(
               "", (pn.x, pn.y), fglob, float(mi), member=member_id, s=0.0 if near == "start" else L)
         lo, hi = (0.0, x) if near == "start" else (x, L)
         own = own_start if near == "start" else (lambda a: not own_start(a))
-        _add_member_loads(b, frame, loads_by_member, member_id, lo, hi, cut_member=True, x_cut=x, own=own)
+        add_member_loads(b, frame, loads_by_member, member_id, lo, hi, cut_member=True, x_cut=x, own=own)
         desc = (f"{near} side of the cut: the piece of member {member_id} from its {near} (node {node}) to the "
                 f"cut. Member {member_id} lies in a closed loop of the frame (removing it leaves its ends "
                 f"connected), so no cut through it alone frees a part of the frame; the piece carries the "
@@ -254,7 +254,7 @@ def cut_free_body(
     for sd in ("start", "end"):
         node = mem.start if sd == "start" else mem.end
         comp = nx.node_connected_component(g, node)
-        b = _Builder(sd, cut, ex)
+        b = TermBuilder(sd, cut, ex)
         reactions = [r for r in result.reactions if r.node in comp]
         sup_idx = tuple(sorted({int(r.support_index) for r in reactions}
                                | {i for i, sp in enumerate(frame.supports) if sp.node in comp}))
@@ -267,7 +267,7 @@ def cut_free_body(
         for ld, fct in nodal:
             if ld.node in comp:
                 pn = frame.nodes[ld.node]
-                why = _case_text(ld.case, fct)
+                why = case_text(ld.case, fct)
                 if ld.fx or ld.fy:
                     b.add("P", "nodal force", f"force at node {ld.node} ({why})", ld.handle, (pn.x, pn.y),
                           (ld.fx * fct, ld.fy * fct), 0.0)
@@ -278,13 +278,13 @@ def cut_free_body(
         segs = []
         for om in others:
             Lo = frame.geometry(om)[0]
-            _add_member_loads(b, frame, loads_by_member, om.id, 0.0, Lo, cut_member=False, x_cut=x,
+            add_member_loads(b, frame, loads_by_member, om.id, 0.0, Lo, cut_member=False, x_cut=x,
                               own=lambda a: True)
             na, nb = frame.nodes[om.start], frame.nodes[om.end]
             segs.append(((na.x, na.y), (nb.x, nb.y)))
         lo, hi = (0.0, x) if sd == "start" else (x, L)
         own = own_start if sd == "start" else (lambda a: not own_start(a))
-        _add_member_loads(b, frame, loads_by_member, member_id, lo, hi, cut_member=True, x_cut=x, own=own)
+        add_member_loads(b, frame, loads_by_member, member_id, lo, hi, cut_member=True, x_cut=x, own=own)
         segs.insert(0, piece_geometry(lo, hi))
         scale = max([abs(v) for r in result.reactions for v in (r.fx, r.fy, r.m)] + [0.0])
         nonzero = sum(1 for r in reactions for v in (r.fx, r.fy, r.m) if abs(v) > 1e-9 * scale)

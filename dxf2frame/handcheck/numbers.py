@@ -9,7 +9,7 @@ from ..report.report import UnitFactors
 
 __all__ = ["fmt"]
 
-_SI = UnitFactors("N", "m", 1.0, 1.0)
+SI_UNITS = UnitFactors("N", "m", 1.0, 1.0)
 
 
 # -- number formatting -----------------------------------------------------------

@@ -74,8 +74,8 @@ Number formatting in :mod:`dxf2frame.handcheck.numbers`, the terms in
 in :mod:`dxf2frame.handcheck.free_body`, the sheet's Markdown and text in
 :mod:`dxf2frame.handcheck.wording`, the figures in
 :mod:`dxf2frame.handcheck.figures`; this module picks the cuts of an
-analysed drawing, writes the files and runs the ``explain`` command.
-Every public name is importable from here.
+analysed drawing and writes the files.  The ``explain`` command itself runs
+in :mod:`dxf2frame.commands`.
 
 Example
 -------
@@ -96,34 +96,21 @@ import re
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Iterable, Sequence
 
-from .. import CAUTION
 from ..atomic import atomic_path, write_text
 from ..errors import Dxf2FrameError
-from .free_body import FreeBody, Method, _member_value, cut_free_body
-from .numbers import _SI, fmt
+from .free_body import FreeBody, cut_free_body, member_value
+from .numbers import SI_UNITS, fmt
 from .wording import SheetHeader, sheet_markdown, sheet_text
-from .terms import DistributedPart, Side, Term
 from ..report.report import UnitFactors, locate_points, member_groups, unit_factors
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from ..pipeline import Analysis
 
 __all__ = [
-    "Term",
-    "DistributedPart",
-    "FreeBody",
-    "SheetHeader",
     "SheetRequestError",
-    "cut_free_body",
-    "fmt",
-    "sheet_markdown",
-    "sheet_text",
+    "drawing_revision",
     "write_cut_sheets",
     "write_sheets",
-    "run_explain_command",
-    "drawing_revision",
-    "Side",
-    "Method",
 ]
 
 
@@ -164,7 +151,7 @@ def write_cut_sheets(
 
     from .figures import sheet_figure, sheet_page
 
-    uf = units or _SI
+    uf = units or SI_UNITS
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     fams = list(families) if families is not None else [None] * len(sheets)
@@ -253,7 +240,7 @@ def _governing_at(analysis: "Analysis", mid: str, x: float):
     cands = _strength_candidates(analysis)
     if not cands:
         raise SheetRequestError("no results to write sheets for")
-    return max(cands, key=lambda r: abs(_member_value(r.members[mid], "moment", x, "right")))
+    return max(cands, key=lambda r: abs(member_value(r.members[mid], "moment", x, "right")))
 
 
 def _status_text(det) -> str:
@@ -362,42 +349,3 @@ def write_sheets(
         sheets.append((fb, header))
         fams.append(getattr(r, "family", None))
     return write_cut_sheets(sheets, folder, uf, families=fams)
-
-
-def _sheet_units(text: str | None, default_force: str, default_length: str) -> tuple[str, str]:
-    if not text:
-        return default_force, default_length
-    parts = [p.strip() for p in text.split(",")]
-    if len(parts) != 2 or not all(parts):
-        raise SheetRequestError(f"--units takes FORCE,LENGTH (for example kN,m or kip,ft), got {text!r}")
-    return parts[0], parts[1]
-
-
-def run_explain_command(args) -> int:
-    """The ``explain`` subcommand: sheets for points of one drawing.
-
-    ``args``: ``drawing`` (Path), ``at`` (list of (X, Y) drawing points),
-    ``result`` (case or combination name or None), ``out`` (folder or None:
-    ``sheets`` beside the drawing), ``units`` ("FORCE,LENGTH" or None),
-    ``settings`` (Path or None), ``length_unit`` (str or None).
-    Returns the exit status (0 written, 3 unstable frame).
-    """
-    from ..pipeline import EXIT_OK, EXIT_UNSTABLE, analyse
-    from ..settings import load_settings
-
-    drawing = Path(args.drawing)
-    settings = load_settings(getattr(args, "settings", None), drawing)
-    analysis = analyse(drawing, settings, length_unit=getattr(args, "length_unit", None))
-    if not analysis.stable:
-        print(f"dxf2frame: the frame is unstable, no sheets written: {analysis.determinacy.detail}")
-        print(CAUTION)
-        return EXIT_UNSTABLE
-    force_u, length_u = _sheet_units(getattr(args, "units", None), settings.force_unit,
-                                     analysis.model.length_unit)
-    out = Path(args.out) if getattr(args, "out", None) else drawing.parent / "sheets"
-    written = write_sheets(analysis, out, points=list(getattr(args, "at", None) or []),
-                           result_name=getattr(args, "result", None), force_unit=force_u, length_unit=length_u)
-    n = sum(1 for p in written if p.suffix == ".md")
-    print(f"wrote {n} hand-check sheet(s) to {out} (Markdown + PNG per cut, all in {written[-1].name})")
-    print(CAUTION)
-    return EXIT_OK

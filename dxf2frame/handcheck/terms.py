@@ -130,7 +130,7 @@ def _term(
                 member, None if s is None else float(s))
 
 
-class _Builder:
+class TermBuilder:
     """Collects the terms of one candidate free body."""
 
     def __init__(self, side: Side, cut: tuple[float, float], ex: tuple[float, float]) -> None:
@@ -145,12 +145,12 @@ class _Builder:
                                 self.ex, self.side, distributed, member, s))
 
 
-def _case_text(case: str, factor: float) -> str:
+def case_text(case: str, factor: float) -> str:
     return f"case {case}" if factor == 1.0 else f"{factor:g} × case {case}"
 
 
-def _add_member_loads(
-    b: _Builder, frame: "Frame", loads_by_member: dict[str, list[tuple[Any, float]]],
+def add_member_loads(
+    b: TermBuilder, frame: "Frame", loads_by_member: dict[str, list[tuple[Any, float]]],
     mid: str, lo: float, hi: float, *, cut_member: bool, x_cut: float,
     own: Callable[[float], bool],
 ) -> None:
@@ -175,7 +175,7 @@ def _add_member_loads(
         return (px, py)
 
     for ld, factor in loads_by_member.get(mid, ()):
-        why = _case_text(ld.case, factor)
+        why = case_text(ld.case, factor)
         if isinstance(ld, PointLoad):
             if not own(ld.a):
                 continue
@@ -211,7 +211,7 @@ def _add_member_loads(
 
 
 def _add_distributed(
-    b: _Builder, mid: str, s0: float, s1: float, qa: np.ndarray, qb: np.ndarray, basis: float,
+    b: TermBuilder, mid: str, s0: float, s1: float, qa: np.ndarray, qb: np.ndarray, basis: float,
     projected: bool, axis: tuple[float, float], at: Callable[[float], tuple[float, float]],
     x_cut: float | None, why: str, handle: str,
 ) -> None:

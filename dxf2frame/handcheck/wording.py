@@ -18,7 +18,7 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
 from .. import CAUTION
-from .numbers import _SI, fmt
+from .numbers import SI_UNITS, fmt
 from ..report.report import UnitFactors
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
@@ -202,7 +202,7 @@ def _md_cell(text: str) -> str:
 def sheet_markdown(fb: FreeBody, header: SheetHeader, units: UnitFactors | None = None, *,
                    figure: str | None = None, family: str | None = None) -> str:
     """The sheet as Markdown; ``figure`` is the file name of the PNG to embed."""
-    uf = units or _SI
+    uf = units or SI_UNITS
     out: list[str] = []
     for kind, content in _blocks(fb, header, uf, figure, family):
         if kind == "h1":
@@ -229,7 +229,7 @@ def sheet_markdown(fb: FreeBody, header: SheetHeader, units: UnitFactors | None 
 def sheet_text(fb: FreeBody, header: SheetHeader, units: UnitFactors | None = None, *,
                width: int = 118, family: str | None = None) -> list[str]:
     """The sheet as plain text lines (fixed-width tables), for the PDF page."""
-    uf = units or _SI
+    uf = units or SI_UNITS
     out: list[str] = []
 
     def wrap(text: str, indent: str = "", first: str = "") -> list[str]:

@@ -1,18 +1,18 @@
 """The state of one reading pass, and where each entity came from.
 
-:class:`_Source` names the entity a model object comes from: its handle
+:class:`Source` names the entity a model object comes from: its handle
 path, its effective layer, whether it is a piece of an exploded block, and
-how deep in nested blocks.  :class:`_Ctx` holds the document, the settings,
+how deep in nested blocks.  :class:`ReadContext` holds the document, the settings,
 the drawing unit and all that was read so far (segments, supports,
 connections, loads, warnings, hinge and load counts), with the helpers
 every handler uses: the role of a layer, adding a polyline, the Z and
 extrusion checks, attribute texts (the insert's ATTRIBs, else the block's
 ATTDEF defaults) and their quantities.
 
-Units: points come in drawing units; ``_Ctx.scale`` is metres per drawing
+Units: points come in drawing units; ``ReadContext.scale`` is metres per drawing
 unit and the segments stored are in metres.  Attribute quantities are SI
 floats (:func:`dxf2frame.units.parse_quantity`); a bare number is taken in
-``_Ctx.defaults[kind]`` (the settings' force unit and the drawing unit).
+``ReadContext.defaults[kind]`` (the settings' force unit and the drawing unit).
 :func:`_check_finite` refuses a point that is not finite or lies beyond
 :data:`MAX_COORDINATE_M`.
 """
@@ -41,7 +41,7 @@ MAX_COORDINATE_M = 1e12
 
 
 @dataclass(frozen=True)
-class _Source:
+class Source:
     """Where an entity sits: handle path, effective layer, virtual (from a block)."""
 
     handle: str
@@ -51,7 +51,7 @@ class _Source:
 
 
 @dataclass
-class _Ctx:
+class ReadContext:
     doc: object
     settings: Settings
     unit: str  # drawing length unit (pint name)
@@ -76,7 +76,7 @@ class _Ctx:
                 return role
         return None
 
-    def add_polyline(self, pts: list[tuple[float, float, float]], src: _Source) -> None:
+    def add_polyline(self, pts: list[tuple[float, float, float]], src: Source) -> None:
         """Add consecutive segments through WCS points (drawing units), numbered
         from the first point, converted to metres."""
         self.check_z(pts, src)
@@ -84,7 +84,7 @@ class _Ctx:
         for k, (a, b) in enumerate(zip(pts[:-1], pts[1:])):
             self.segments.append(Segment((a[0] * s, a[1] * s), (b[0] * s, b[1] * s), src.handle, src.layer, k))
 
-    def check_z(self, pts, src: _Source) -> None:
+    def check_z(self, pts, src: Source) -> None:
         for p in pts:
             _check_finite(p, src, self.scale)
             if abs(p[2]) > self.z_tol:
@@ -95,7 +95,7 @@ class _Ctx:
                     hint="move the entity to Z = 0 (e.g. flatten the drawing)",
                 )
 
-    def check_extrusion(self, entity, src: _Source) -> None:
+    def check_extrusion(self, entity, src: Source) -> None:
         ext = Vec3(entity.dxf.get("extrusion", (0.0, 0.0, 1.0)))
         if src.virtual:
             # a mirrored block reference legitimately turns +Z into -Z
@@ -159,7 +159,7 @@ class _Ctx:
             self._relevant[name] = r
         return r
 
-    def quantity(self, attrs: dict[str, str], tag: str, kind: str, src: _Source, default_unit: str | None = None):
+    def quantity(self, attrs: dict[str, str], tag: str, kind: str, src: Source, default_unit: str | None = None):
         text = attrs.get(tag)
         if text is None:
             return None
@@ -179,7 +179,7 @@ class _Ctx:
 # ---------------------------------------------------------------------------
 
 
-def _check_finite(p, src: _Source, scale: float) -> None:
+def _check_finite(p, src: Source, scale: float) -> None:
     """A point (drawing units) must be a finite number and not absurdly far out."""
     if not all(math.isfinite(c) for c in p):
         raise GeometryError(

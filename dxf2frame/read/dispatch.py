@@ -18,7 +18,7 @@ MINSERT grid on its own, handle ``<insert>.i``) is
 An anonymous reference to a dynamic block counts under the dynamic
 block's own name.  Rotation, scale factors and insertion point must be
 finite numbers; a reference that cannot be exploded is a
-:class:`~dxf2frame.errors.GeometryError`.  :data:`_ENTITY_DATA_ERRORS`
+:class:`~dxf2frame.errors.GeometryError`.  :data:`ENTITY_DATA_ERRORS`
 are what ezdxf or the geometry code raise for entity data they cannot
 use.
 """
@@ -31,16 +31,16 @@ import ezdxf
 from ezdxf.dynblkhelper import get_dynamic_block_definition
 
 from ..errors import GeometryError, UnknownBlockError
-from .linework import _handle_curve, _handle_line, _handle_lwpolyline, _handle_polyline, _handle_solid3d
-from .context import _Ctx, _Source
-from .symbol_inserts import _SYMBOL_HANDLERS
+from .linework import handle_curve, handle_line, handle_lwpolyline, handle_polyline, handle_solid3d
+from .context import ReadContext, Source
+from .symbol_inserts import SYMBOL_HANDLERS
 
 __all__ = ["HANDLERS", "SYMBOL_GROUPS"]
 
 _MAX_DEPTH = 16
 
 #: what ezdxf or the geometry code raises for entity data it cannot use
-_ENTITY_DATA_ERRORS = (ValueError, TypeError, ArithmeticError, IndexError, KeyError, AttributeError,
+ENTITY_DATA_ERRORS = (ValueError, TypeError, ArithmeticError, IndexError, KeyError, AttributeError,
                        ezdxf.DXFError)
 
 #: which symbol kinds belong on which input layer role
@@ -57,15 +57,15 @@ _ROLE_OF_KIND = {k: role for role, kinds in SYMBOL_GROUPS.items() for k in kinds
 # ---------------------------------------------------------------------------
 
 
-def _handle_insert(ctx: _Ctx, e, src: _Source) -> None:
+def _handle_insert(ctx: ReadContext, e, src: Source) -> None:
     if e.mcount > 1:
         for i, cell in enumerate(e.multi_insert(), start=1):
-            _insert_one(ctx, cell, _Source(f"{src.handle}.{i}", src.layer, src.virtual, src.depth))
+            _insert_one(ctx, cell, Source(f"{src.handle}.{i}", src.layer, src.virtual, src.depth))
     else:
         _insert_one(ctx, e, src)
 
 
-def _block_name(ctx: _Ctx, e) -> str:
+def _block_name(ctx: ReadContext, e) -> str:
     """Name of the referenced block; an anonymous reference to a dynamic block
     ("*U12") answers with the dynamic block's own name."""
     name = e.dxf.name
@@ -79,7 +79,7 @@ def _block_name(ctx: _Ctx, e) -> str:
     return name
 
 
-def _check_insert_numbers(e, src: _Source) -> None:
+def _check_insert_numbers(e, src: Source) -> None:
     """Rotation, scale and insertion point of a block reference must be finite."""
     for key in ("rotation", "xscale", "yscale", "zscale"):
         v = e.dxf.get(key, 0.0)
@@ -100,7 +100,7 @@ def _check_insert_numbers(e, src: _Source) -> None:
         )
 
 
-def _insert_one(ctx: _Ctx, e, src: _Source) -> None:
+def _insert_one(ctx: ReadContext, e, src: Source) -> None:
     name = _block_name(ctx, e)
     kind = ctx.settings.block_kind(name)
     role = ctx.role_of_layer(src.layer)
@@ -122,7 +122,7 @@ def _insert_one(ctx: _Ctx, e, src: _Source) -> None:
                 hint=f"move it to layer '{right}'",
             )
         _check_insert_numbers(e, src)
-        _SYMBOL_HANDLERS[kind](ctx, e, kind, src)
+        SYMBOL_HANDLERS[kind](ctx, e, kind, src)
         return
     if kind is not None:
         right = ctx.settings.layers[_ROLE_OF_KIND[kind]]
@@ -145,7 +145,7 @@ def _insert_one(ctx: _Ctx, e, src: _Source) -> None:
         )
     try:
         pieces = list(e.virtual_entities())
-    except _ENTITY_DATA_ERRORS as exc:
+    except ENTITY_DATA_ERRORS as exc:
         raise GeometryError(
             f"block reference '{name}' cannot be exploded into its pieces ({type(exc).__name__}: {exc})",
             handle=src.handle,
@@ -161,29 +161,29 @@ def _insert_one(ctx: _Ctx, e, src: _Source) -> None:
             continue
         handler = HANDLERS.get(v.dxftype())
         if handler is not None:
-            handler(ctx, v, _Source(f"{src.handle}_{h}", eff, True, src.depth + 1))
+            handler(ctx, v, Source(f"{src.handle}_{h}", eff, True, src.depth + 1))
 
 
 
 #: DXF entity type -> handler(ctx, entity, source); types not listed are ignored
-HANDLERS: dict[str, Callable[[_Ctx, object, _Source], None]] = {
-    "LINE": _handle_line,
-    "LWPOLYLINE": _handle_lwpolyline,
-    "POLYLINE": _handle_polyline,
+HANDLERS: dict[str, Callable[[ReadContext, object, Source], None]] = {
+    "LINE": handle_line,
+    "LWPOLYLINE": handle_lwpolyline,
+    "POLYLINE": handle_polyline,
     "INSERT": _handle_insert,
-    "ARC": _handle_curve,
-    "CIRCLE": _handle_curve,
-    "ELLIPSE": _handle_curve,
-    "SPLINE": _handle_curve,
-    "3DFACE": _handle_solid3d,
-    "3DSOLID": _handle_solid3d,
-    "MESH": _handle_solid3d,
-    "BODY": _handle_solid3d,
-    "REGION": _handle_solid3d,
-    "SURFACE": _handle_solid3d,
-    "EXTRUDEDSURFACE": _handle_solid3d,
-    "LOFTEDSURFACE": _handle_solid3d,
-    "REVOLVEDSURFACE": _handle_solid3d,
-    "SWEPTSURFACE": _handle_solid3d,
-    "PLANESURFACE": _handle_solid3d,
+    "ARC": handle_curve,
+    "CIRCLE": handle_curve,
+    "ELLIPSE": handle_curve,
+    "SPLINE": handle_curve,
+    "3DFACE": handle_solid3d,
+    "3DSOLID": handle_solid3d,
+    "MESH": handle_solid3d,
+    "BODY": handle_solid3d,
+    "REGION": handle_solid3d,
+    "SURFACE": handle_solid3d,
+    "EXTRUDEDSURFACE": handle_solid3d,
+    "LOFTEDSURFACE": handle_solid3d,
+    "REVOLVEDSURFACE": handle_solid3d,
+    "SWEPTSURFACE": handle_solid3d,
+    "PLANESURFACE": handle_solid3d,
 }

@@ -14,7 +14,7 @@ the member layers (``FRAME``, ``FRAME-*``) is left alone.
   surfaces, ...): an error.
 
 Units: vertices in drawing units (OCS points taken to the WCS, the Z and
-extrusion checks of :class:`~dxf2frame.read.context._Ctx` applied); the
+extrusion checks of :class:`~dxf2frame.read.context.ReadContext` applied); the
 segments stored are in metres, numbered from the entity's first point.
 A bulge is the tangent of a quarter of the included angle, positive
 counter-clockwise.
@@ -26,7 +26,7 @@ import math
 from ezdxf.math import Vec3, bulge_center
 
 from ..errors import GeometryError, UnsupportedEntityError
-from .context import _Ctx, _Source
+from .context import ReadContext, Source
 
 
 # ---------------------------------------------------------------------------
@@ -48,7 +48,7 @@ def _arc_points(p0, p1, bulge: float, n: int) -> list[tuple[float, float]]:
     return out
 
 
-def _curve_error(what: str, src: _Source) -> GeometryError:
+def _curve_error(what: str, src: Source) -> GeometryError:
     return GeometryError(
         f"{what}: members must be straight",
         handle=src.handle,
@@ -58,7 +58,7 @@ def _curve_error(what: str, src: _Source) -> GeometryError:
     )
 
 
-def _bulged_ocs_points(ctx: _Ctx, verts: list[tuple[float, float, float]], closed: bool, src: _Source, kind: str):
+def _bulged_ocs_points(ctx: ReadContext, verts: list[tuple[float, float, float]], closed: bool, src: Source, kind: str):
     """OCS 2D points along (x, y, bulge) vertices, chording bulges if allowed."""
     if not verts:
         return []
@@ -75,7 +75,7 @@ def _bulged_ocs_points(ctx: _Ctx, verts: list[tuple[float, float, float]], close
     return pts
 
 
-def _handle_line(ctx: _Ctx, e, src: _Source) -> None:
+def handle_line(ctx: ReadContext, e, src: Source) -> None:
     if not ctx.settings.is_frame_layer(src.layer):
         return
     ctx.check_extrusion(e, src)
@@ -83,7 +83,7 @@ def _handle_line(ctx: _Ctx, e, src: _Source) -> None:
     ctx.add_polyline([a.xyz, b.xyz], src)
 
 
-def _handle_lwpolyline(ctx: _Ctx, e, src: _Source) -> None:
+def handle_lwpolyline(ctx: ReadContext, e, src: Source) -> None:
     if not ctx.settings.is_frame_layer(src.layer):
         return
     ctx.check_extrusion(e, src)
@@ -95,7 +95,7 @@ def _handle_lwpolyline(ctx: _Ctx, e, src: _Source) -> None:
     ctx.add_polyline(pts, src)
 
 
-def _handle_polyline(ctx: _Ctx, e, src: _Source) -> None:
+def handle_polyline(ctx: ReadContext, e, src: Source) -> None:
     if not ctx.settings.is_frame_layer(src.layer):
         return
     if e.is_poly_face_mesh or e.is_polygon_mesh:
@@ -125,7 +125,7 @@ def _handle_polyline(ctx: _Ctx, e, src: _Source) -> None:
     ctx.add_polyline([tuple(ocs.to_wcs(Vec3(x, y, elev))) for x, y in pts2], src)
 
 
-def _handle_curve(ctx: _Ctx, e, src: _Source) -> None:
+def handle_curve(ctx: ReadContext, e, src: Source) -> None:
     if not ctx.settings.is_frame_layer(src.layer):
         return
     t = e.dxftype()
@@ -146,7 +146,7 @@ def _handle_curve(ctx: _Ctx, e, src: _Source) -> None:
     ctx.add_polyline([Vec3(p).xyz for p in pts], src)
 
 
-def _handle_solid3d(ctx: _Ctx, e, src: _Source) -> None:
+def handle_solid3d(ctx: ReadContext, e, src: Source) -> None:
     if not ctx.settings.is_frame_layer(src.layer):
         return
     raise UnsupportedEntityError(

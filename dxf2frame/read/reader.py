@@ -110,18 +110,26 @@ from __future__ import annotations
 
 import math
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from .cleanup import build_frame, default_tolerance
-from ..drawing_file import _describe, open_document
+from ..drawing_file import describe_entity, open_document
 from ..drawing_model import DrawingModel
-from .dispatch import _ENTITY_DATA_ERRORS, HANDLERS, SYMBOL_GROUPS
+from .dispatch import ENTITY_DATA_ERRORS, HANDLERS
 from ..errors import DrawingError, GeometryError, InputFileError
-from .context import MAX_COORDINATE_M, _Ctx, _Source
+from .context import ReadContext, Source
 from ..settings import Settings, load_settings
 from ..units import INSUNITS, length_unit_scale, normalise_length_unit, parse_quantity
 
-__all__ = ["read_drawing", "read_document", "open_document", "HANDLERS", "SYMBOL_GROUPS", "MAX_COORDINATE_M",
-           "MAX_RELATIVE_ROUNDING"]
+if TYPE_CHECKING:  # pragma: no cover
+    from ezdxf.document import Drawing
+
+__all__ = [
+    "read_drawing",
+    "read_file",
+    "read_document",
+    "MAX_RELATIVE_ROUNDING",
+]
 
 #: largest accepted rounding of a member's length, relative to the length,
 #: caused by storing its end coordinates as doubles far from the origin
@@ -197,7 +205,7 @@ def _check_handles(doc, settings: Settings, warnings: list[str]) -> None:
                                          or e.dxf.get("layer", "0") == "0")
             for e in group
         )
-        what = ", ".join(_describe(e) for e in group)
+        what = ", ".join(describe_entity(e) for e in group)
         if relevant:
             raise DrawingError(
                 f"{len(group)} entities share this handle ({what}): the file is damaged",
@@ -287,7 +295,7 @@ def read_document(
         "area": f"({unit})**2",
         "inertia": f"({unit})**4",
     }
-    ctx = _Ctx(doc, settings, unit, scale, z_tol, defaults, warnings=warnings)
+    ctx = ReadContext(doc, settings, unit, scale, z_tol, defaults, warnings=warnings)
 
     msp = doc.modelspace()
     for e in msp:
@@ -298,8 +306,8 @@ def read_document(
         if settings.is_result_layer(layer):
             continue
         try:
-            handler(ctx, e, _Source(e.dxf.handle or "", layer))
-        except _ENTITY_DATA_ERRORS as exc:
+            handler(ctx, e, Source(e.dxf.handle or "", layer))
+        except ENTITY_DATA_ERRORS as exc:
             # ezdxf could load the entity but not interpret it: damaged data
             raise DrawingError(
                 f"cannot interpret this {e.dxftype()} ({type(exc).__name__}: {exc})",
@@ -351,7 +359,20 @@ def read_drawing(
     *,
     length_unit: str | None = None,
 ) -> DrawingModel:
-    """Open a DXF file and read it (see the module docstring).
+    """Open a DXF file and read it (see the module docstring); as
+    :func:`read_file` without the document."""
+    return read_file(path, settings, length_unit=length_unit)[0]
+
+
+def read_file(
+    path: Path | str,
+    settings: Settings | None = None,
+    *,
+    length_unit: str | None = None,
+) -> tuple[DrawingModel, "Drawing"]:
+    """Open a DXF file and read it: the model and the ezdxf document as
+    opened (the reading does not modify it, so the writers can draw into it
+    instead of reading the file again).
 
     A damaged file is repaired with ezdxf's recover mode (with a warning
     listing the repairs, see :func:`open_document`).  ``settings`` None:
@@ -374,6 +395,5 @@ def read_drawing(
         settings = load_settings(None, drawing=p)
     doc, notes = open_document(p, settings)
     model = read_document(doc, p, settings, length_unit=length_unit)
-    model.document = doc  # unmodified: the writers draw into it instead of reading the file again
     model.warnings[:0] = notes
-    return model
+    return model, doc

@@ -1,7 +1,7 @@
 """Convention symbols: a symbol block reference -> a support, connection or load.
 
 One function per symbol kind, called as ``handler(ctx, insert, kind,
-source)`` through :data:`_SYMBOL_HANDLERS` once
+source)`` through :data:`SYMBOL_HANDLERS` once
 :mod:`dxf2frame.read.dispatch` has found a symbol on its own layer.
 Each appends a :class:`~dxf2frame.read.cleanup.SupportSpec`,
 :class:`~dxf2frame.read.cleanup.ConnectionSpec`,
@@ -30,7 +30,7 @@ from ezdxf.math import Vec3
 
 from .cleanup import ConnectionSpec, CoupleSpec, ForceSpec, SupportSpec, UdlSpec
 from ..errors import DrawingError, GeometryError
-from .context import _Ctx, _Source
+from .context import ReadContext, Source
 
 _SPLIT_LIST = re.compile(r"[,;]")
 
@@ -40,7 +40,7 @@ _SPLIT_LIST = re.compile(r"[,;]")
 # ---------------------------------------------------------------------------
 
 
-def _placement(ctx: _Ctx, e, src: _Source) -> tuple[tuple[float, float], Vec3, Vec3]:
+def _placement(ctx: ReadContext, e, src: Source) -> tuple[tuple[float, float], Vec3, Vec3]:
     """(insertion point [m], unit local +X, unit local -Y) of a symbol in WCS."""
     if not src.virtual:
         ctx.check_extrusion(e, src)
@@ -64,7 +64,7 @@ def _case(attrs: dict[str, str]) -> str:
     return attrs.get("CASE", "D").strip() or "D"
 
 
-def _symbol_support(ctx: _Ctx, e, kind: str, src: _Source) -> None:
+def _symbol_support(ctx: ReadContext, e, kind: str, src: Source) -> None:
     at, ux, _ = _placement(ctx, e, src)
     attrs = ctx.attributes(e)
     angle = math.atan2(ux.y, ux.x)
@@ -89,7 +89,7 @@ def _symbol_support(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     )
 
 
-def _symbol_connection(ctx: _Ctx, e, kind: str, src: _Source) -> None:
+def _symbol_connection(ctx: ReadContext, e, kind: str, src: Source) -> None:
     at, _, _ = _placement(ctx, e, src)
     layers = None
     if kind == "HINGE":
@@ -100,7 +100,7 @@ def _symbol_connection(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     ctx.connections.append(ConnectionSpec(at, kind.lower(), layers, src.handle, src.layer))
 
 
-def _missing(what: str, tags: str, src: _Source, ctx: _Ctx) -> DrawingError:
+def _missing(what: str, tags: str, src: Source, ctx: ReadContext) -> DrawingError:
     return DrawingError(
         f"{what} has no {tags} attribute",
         handle=src.handle,
@@ -109,7 +109,7 @@ def _missing(what: str, tags: str, src: _Source, ctx: _Ctx) -> DrawingError:
     )
 
 
-def _symbol_force(ctx: _Ctx, e, kind: str, src: _Source) -> None:
+def _symbol_force(ctx: ReadContext, e, kind: str, src: Source) -> None:
     ctx.n_loads += 1
     at, _, arrow = _placement(ctx, e, src)
     attrs = ctx.attributes(e)
@@ -124,7 +124,7 @@ def _symbol_force(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     ctx.loads.append(ForceSpec(at, P * dx, P * dy, _case(attrs), src.handle, src.layer))
 
 
-def _symbol_couple(ctx: _Ctx, e, kind: str, src: _Source) -> None:
+def _symbol_couple(ctx: ReadContext, e, kind: str, src: Source) -> None:
     ctx.n_loads += 1
     at, _, _ = _placement(ctx, e, src)
     attrs = ctx.attributes(e)
@@ -134,7 +134,7 @@ def _symbol_couple(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     ctx.loads.append(CoupleSpec(at, M, _case(attrs), src.handle, src.layer))
 
 
-def _choice(attrs: dict[str, str], tag: str, allowed: tuple[str, ...], default: str, src: _Source, ctx: _Ctx) -> str:
+def _choice(attrs: dict[str, str], tag: str, allowed: tuple[str, ...], default: str, src: Source, ctx: ReadContext) -> str:
     v = attrs.get(tag, default).strip().upper()
     if v not in allowed:
         raise DrawingError(
@@ -146,7 +146,7 @@ def _choice(attrs: dict[str, str], tag: str, allowed: tuple[str, ...], default: 
     return v
 
 
-def _symbol_udl(ctx: _Ctx, e, kind: str, src: _Source) -> None:
+def _symbol_udl(ctx: ReadContext, e, kind: str, src: Source) -> None:
     ctx.n_loads += 1
     at, _, _ = _placement(ctx, e, src)
     attrs = ctx.attributes(e)
@@ -180,7 +180,7 @@ def _symbol_udl(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     )
 
 
-_SYMBOL_HANDLERS: dict[str, Callable] = {
+SYMBOL_HANDLERS: dict[str, Callable] = {
     "PIN": _symbol_support,
     "ROLLER": _symbol_support,
     "FIXED": _symbol_support,

@@ -1,6 +1,7 @@
-"""The JSON report (schema 1) and the CSV of member extremes.
+"""The JSON report (schema 1) and the CSV of member extremes (:mod:`.report`),
+long lists kept as numpy columns and written block by block (:mod:`.table`).
 """
-from .report import (  # noqa: F401
+from .report import (
     UnitFactors,
     unit_factors,
     MemberGroup,
@@ -10,12 +11,12 @@ from .report import (  # noqa: F401
     assemble_report,
     build_report,
     to_plain,
-    Table,
     dumps_report,
     write_json,
     write_csv,
     CSV_COLUMNS,
 )
+from .table import Table
 
 __all__ = [
     "UnitFactors",
@@ -27,9 +28,9 @@ __all__ = [
     "assemble_report",
     "build_report",
     "to_plain",
-    "Table",
     "dumps_report",
     "write_json",
     "write_csv",
     "CSV_COLUMNS",
+    "Table",
 ]

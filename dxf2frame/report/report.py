@@ -85,7 +85,6 @@ __all__ = [
     "assemble_report",
     "build_report",
     "to_plain",
-    "Table",
     "dumps_report",
     "write_json",
     "write_csv",

@@ -1,12 +1,10 @@
-"""Comparing revisions: match members by geometry, the changes in governing
-values, tables, CSV/JSON and the marked drawing.
+"""Comparing revisions: the data (:mod:`.data`), reading reports
+(:mod:`.reports`), matching members by geometry (:mod:`.matching`), the
+relative changes (:mod:`.compare`), tables, CSV and JSON (:mod:`.outputs`)
+and the newest drawing with the changes marked (:mod:`.marks`).
 """
-from .compare import (  # noqa: F401
-    DEFAULT_THRESHOLD,
+from .data import (
     FLOOR_FRACTION,
-    PARALLEL_DEG,
-    MOVE_FRACTION,
-    TOLERANCE_FRACTION,
     MEMBER_QUANTITIES,
     REACTION_QUANTITIES,
     MemberRef,
@@ -15,25 +13,15 @@ from .compare import (  # noqa: F401
     ReactionChange,
     RevisionDiff,
     Comparison,
-    compare_reports,
-    match_members,
-    convert_report,
-    comparison_table,
-    comparison_rows,
-    unit_labels,
-    CSV_COLUMNS,
-    write_comparison,
-    mark_changes,
-    cloud_points,
-    run_compare_command,
 )
+from .reports import convert_report
+from .matching import PARALLEL_DEG, MOVE_FRACTION, match_members
+from .compare import DEFAULT_THRESHOLD, TOLERANCE_FRACTION, compare_reports
+from .outputs import CSV_COLUMNS, comparison_rows, comparison_table, unit_labels, write_comparison
+from .marks import cloud_points, mark_changes
 
 __all__ = [
-    "DEFAULT_THRESHOLD",
     "FLOOR_FRACTION",
-    "PARALLEL_DEG",
-    "MOVE_FRACTION",
-    "TOLERANCE_FRACTION",
     "MEMBER_QUANTITIES",
     "REACTION_QUANTITIES",
     "MemberRef",
@@ -42,15 +30,18 @@ __all__ = [
     "ReactionChange",
     "RevisionDiff",
     "Comparison",
-    "compare_reports",
-    "match_members",
     "convert_report",
-    "comparison_table",
-    "comparison_rows",
-    "unit_labels",
+    "PARALLEL_DEG",
+    "MOVE_FRACTION",
+    "match_members",
+    "DEFAULT_THRESHOLD",
+    "TOLERANCE_FRACTION",
+    "compare_reports",
     "CSV_COLUMNS",
+    "comparison_rows",
+    "comparison_table",
+    "unit_labels",
     "write_comparison",
-    "mark_changes",
     "cloud_points",
-    "run_compare_command",
+    "mark_changes",
 ]

@@ -45,8 +45,8 @@ Where the parts live: the data classes in :mod:`dxf2frame.revisions.data`,
 reading and converting reports in :mod:`dxf2frame.revisions.reports`,
 matching in :mod:`dxf2frame.revisions.matching`, the tables, CSV and JSON in
 :mod:`dxf2frame.revisions.outputs`, the marked drawing in
-:mod:`dxf2frame.revisions.marks`; this module compares and runs the
-``compare`` command.  Every public name is importable from here.
+:mod:`dxf2frame.revisions.marks`; this module compares.  The ``compare``
+command itself runs in :mod:`dxf2frame.commands`.
 
 Example
 -------
@@ -63,48 +63,21 @@ Example
 """
 from __future__ import annotations
 
-import json
 import math
-import sys
-from pathlib import Path
 from typing import Iterable, Mapping, Sequence
 
 import numpy as np
 
 from ..errors import InputFileError
 from .data import (FLOOR_FRACTION, MEMBER_QUANTITIES, REACTION_QUANTITIES, Comparison, MemberChange,
-                            MemberRef, ReactionChange, RevisionDiff, ValueChange)
-from .marks import cloud_points, mark_changes
-from .matching import MOVE_FRACTION, PARALLEL_DEG, match_members
-from .outputs import CSV_COLUMNS, comparison_rows, comparison_table, unit_labels, write_comparison
-from .reports import _check_report, _member_governing, _member_refs, _support_governing, convert_report
-from ..units import length_unit_scale, unit_factor
+                   ReactionChange, RevisionDiff, ValueChange)
+from .matching import match_members
+from .reports import check_report, convert_report, member_governing, member_refs, support_governing
 
 __all__ = [
     "DEFAULT_THRESHOLD",
-    "FLOOR_FRACTION",
-    "PARALLEL_DEG",
-    "MOVE_FRACTION",
     "TOLERANCE_FRACTION",
-    "MEMBER_QUANTITIES",
-    "REACTION_QUANTITIES",
-    "MemberRef",
-    "ValueChange",
-    "MemberChange",
-    "ReactionChange",
-    "RevisionDiff",
-    "Comparison",
     "compare_reports",
-    "match_members",
-    "convert_report",
-    "comparison_table",
-    "comparison_rows",
-    "unit_labels",
-    "CSV_COLUMNS",
-    "write_comparison",
-    "mark_changes",
-    "cloud_points",
-    "run_compare_command",
 ]
 
 #: relative change flagged by default (settings ``[compare] threshold``)
@@ -149,7 +122,7 @@ def _floors(gov_members: Sequence[Mapping], gov_supports: Sequence[Sequence[Mapp
 
 
 def _extent(reports: Sequence[Mapping]) -> float:
-    pts = [p for rep in reports for r in _member_refs(rep) for p in (r.start, r.end)]
+    pts = [p for rep in reports for r in member_refs(rep) for p in (r.start, r.end)]
     pts += [(float(rc["x"]), float(rc["y"])) for rep in reports for res in (rep.get("results") or [])[:1]
             for rc in res.get("reactions") or []]
     if not pts:
@@ -170,10 +143,10 @@ def _diff(old_rep: Mapping, new_rep: Mapping, k: int, threshold: float, tol: flo
     if diff.notes:
         return diff
 
-    old_refs, new_refs = _member_refs(old_rep), _member_refs(new_rep)
-    g_old, g_new = _member_governing(old_rep), _member_governing(new_rep)
-    at_old, s_old = _support_governing(old_rep, tol)
-    at_new, s_new = _support_governing(new_rep, tol)
+    old_refs, new_refs = member_refs(old_rep), member_refs(new_rep)
+    g_old, g_new = member_governing(old_rep), member_governing(new_rep)
+    at_old, s_old = support_governing(old_rep, tol)
+    at_new, s_new = support_governing(new_rep, tol)
     floors = _floors([g_old, g_new], [s_old, s_new], floor_fraction)
 
     pairs, new_only, removed = match_members(old_refs, new_refs, tol)
@@ -235,7 +208,7 @@ def compare_reports(
     if len(reports) < 2:
         raise InputFileError("compare needs two or more revisions, oldest first")
     for k, rep in enumerate(reports):
-        _check_report(rep, str(rep.get("source", f"revision {k + 1}")) if isinstance(rep, Mapping) else f"revision {k + 1}")
+        check_report(rep, str(rep.get("source", f"revision {k + 1}")) if isinstance(rep, Mapping) else f"revision {k + 1}")
     if not (threshold >= 0 and math.isfinite(threshold)):
         raise InputFileError(f"the threshold must be a fraction >= 0, got {threshold!r}")
     fu, lu = units if units else (reports[-1]["units"]["force"], reports[-1]["units"]["length"])
@@ -247,105 +220,3 @@ def compare_reports(
              for k in range(len(conv) - 1)]
     sources = [str(r.get("source", f"revision {k + 1}")) for k, r in enumerate(conv)]
     return Comparison(sources, {"force": fu, "length": lu}, float(threshold), float(tolerance), pairs)
-
-
-# -- the command ----------------------------------------------------------------------------
-
-
-def _load_json_report(path: Path) -> dict:
-    try:
-        data = json.loads(path.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise InputFileError(f"{path}: cannot read: {exc.strerror or exc}") from None
-    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
-        raise InputFileError(f"{path}: not a JSON report: {exc}") from None
-    _check_report(data, str(path))
-    return data
-
-
-def _report_of_drawing(path: Path, args, units: tuple[str, str] | None):
-    """Solve a drawing in memory and build its report (nothing written)."""
-    from ..report import report as report_mod
-    from ..pipeline import analyse
-    from ..settings import load_settings
-
-    settings = load_settings(getattr(args, "settings", None), path)
-    an = analyse(path, settings, length_unit=getattr(args, "length_unit", None))
-    fu, lu = units if units else (settings.force_unit, an.model.length_unit)
-    limits = settings.deflection_limits() if hasattr(settings, "deflection_limits") else None
-    rep = report_mod.build_report(an.model, an.determinacy, an.results, force_unit=fu, length_unit=lu,
-                                  deflection_limits=limits)
-    return rep, settings
-
-
-def _drawing_for_report(path: Path, report: Mapping) -> Path | None:
-    """The drawing a JSON report was made from, if it can be found beside it."""
-    name = report.get("source")
-    if not name:
-        return None
-    for folder in (path.parent, path.parent.parent):
-        cand = folder / str(name)
-        if cand.is_file() and cand.suffix.lower() == ".dxf":
-            return cand
-    return None
-
-
-def _parse_units(text: str | None) -> tuple[str, str] | None:
-    if not text:
-        return None
-    parts = [p.strip() for p in text.split(",")]
-    if len(parts) != 2 or not all(parts):
-        raise InputFileError(f"--units takes FORCE,LENGTH (for example kN,m or kip,ft), got {text!r}")
-    unit_factor(parts[0], "force")
-    length_unit_scale(parts[1])
-    return parts[0], parts[1]
-
-
-def run_compare_command(args, *, stream=None) -> int:
-    """The ``compare`` command: returns 0 (changes or not); bad input raises
-    :class:`~dxf2frame.errors.Dxf2FrameError` (exit 2 from the CLI).
-
-    ``args``: ``revisions`` (paths, oldest first; ``.dxf`` drawings are
-    solved in memory, anything else is read as a JSON report), ``out``
-    (folder, default ``compared`` beside the newest input), ``threshold``
-    (fraction, default from the newest revision's settings), ``units``
-    (``"FORCE,LENGTH"``), ``settings``, ``length_unit``.
-    """
-    from ..settings import load_settings
-
-    stream = stream or sys.stdout
-    paths = [Path(p) for p in args.revisions]
-    if len(paths) < 2:
-        raise InputFileError("compare needs two or more revisions (drawings or JSON reports), oldest first")
-    for p in paths:
-        if not p.is_file():
-            raise InputFileError(f"{p}: no such file")
-    units = _parse_units(getattr(args, "units", None))
-    reports: list[dict] = []
-    settings = None
-    for p in paths:
-        if p.suffix.lower() == ".dxf":
-            rep, settings = _report_of_drawing(p, args, units)
-        else:
-            rep = _load_json_report(p)
-            settings = None
-        reports.append(rep)
-    newest = paths[-1]
-    newest_dxf = newest if newest.suffix.lower() == ".dxf" else _drawing_for_report(newest, reports[-1])
-    if settings is None:
-        settings = load_settings(getattr(args, "settings", None), newest_dxf or newest)
-    threshold = args.threshold if getattr(args, "threshold", None) is not None else settings.compare_threshold
-    cmp = compare_reports(reports, threshold=threshold, units=units)
-
-    print(comparison_table(cmp), file=stream, end="")
-    out = Path(args.out) if getattr(args, "out", None) else newest.parent / "compared"
-    written = write_comparison(cmp, out, stem=f"{newest.stem}-comparison")
-    if newest_dxf is not None:
-        written["drawing"] = mark_changes(newest_dxf, reports[-1], cmp, out / f"{newest_dxf.stem}-changes.dxf",
-                                          settings, drawing_unit=getattr(args, "length_unit", None)
-                                          if newest.suffix.lower() == ".dxf" else None)
-    else:
-        print(f"note: the drawing of {newest} was not found beside it; no marked drawing written", file=stream)
-    for p in written.values():
-        print(f"wrote {p}", file=stream)
-    return 0

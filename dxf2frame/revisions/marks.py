@@ -16,7 +16,8 @@ import numpy as np
 from ..atomic import atomic_path
 from ..errors import InputFileError
 from .data import Comparison, MemberRef, ValueChange
-from .outputs import _fmt, _pct, _pt, unit_labels
+from .outputs import format_value, format_percent, format_point, unit_labels
+from ..settings import Settings
 from ..units import length_unit_scale
 
 __all__ = ["cloud_points", "mark_changes"]
@@ -59,17 +60,10 @@ def _drawing_unit(doc, fallback: str | None) -> str:
                          "give --length-unit or [units] length in the settings")
 
 
-def _layer_name(settings) -> str:
-    try:
-        return settings.output_layer("changes")
-    except (AttributeError, KeyError):
-        return "RESULT-CHANGES"
-
-
 def _value_line(vc: ValueChange, unit: str) -> str:
     label = {"deflection": "defl"}.get(vc.quantity, vc.quantity)
-    pct = _pct(vc)
-    return f"{label} {_fmt(vc.old)} -> {_fmt(vc.new)} {unit}" + (f" {pct}" if pct else "")
+    pct = format_percent(vc)
+    return f"{label} {format_value(vc.old)} -> {format_value(vc.new)} {unit}" + (f" {pct}" if pct else "")
 
 
 def mark_changes(
@@ -77,14 +71,14 @@ def mark_changes(
     newest_report: Mapping,
     cmp: Comparison,
     out_path: Path | str,
-    settings=None,
+    settings: Settings | None = None,
     *,
     drawing_unit: str | None = None,
 ) -> Path:
     """Write a copy of the newest drawing with a layer marking the last pair's changes.
 
-    On the layer ``settings.output_layer("changes")`` (else
-    ``"RESULT-CHANGES"``):
+    On the layer ``settings.output_layer("changes")`` (default
+    ``"RESULT-CHANGES"``; ``settings`` None: the defaults):
 
     * a revision cloud (closed LWPOLYLINE of outward arcs) around each
       flagged member and each flagged support, with a numbered tag
@@ -100,16 +94,16 @@ def mark_changes(
     (``units.drawing_length``) when the header does not; ``drawing_unit``
     overrides both.
     """
-    from ..read.reader import open_document
-    from ..settings import Settings
+    from ..drawing_file import open_document
 
+    settings = settings or Settings()
     src = Path(newest_dxf_source)
     # the same opening path as check and solve: damaged files are recovered
-    doc, _notes = open_document(src, settings if isinstance(settings, Settings) else None)
+    doc, _notes = open_document(src, settings)
     unit = drawing_unit or _drawing_unit(doc, (newest_report.get("units") or {}).get("drawing_length")
-                                         or getattr(settings, "length_unit", None))
+                                         or settings.length_unit)
     s = length_unit_scale(cmp.units["length"]) / length_unit_scale(unit)  # comparison length -> drawing units
-    layer = _layer_name(settings)
+    layer = settings.output_layer("changes")
     if layer not in doc.layers:
         doc.layers.add(layer, color=_CHANGES_COLOR)
     if "D2F-CLOUD" not in doc.linetypes:
@@ -166,7 +160,7 @@ def mark_changes(
             x, y = r.new_at[0] * s, r.new_at[1] * s
             cloud((x, y, x, y))
             tag(f"C{k}", (x + 2 * margin + 1.6 * height, y - 2 * margin - 1.6 * height))
-            entries.append((f"C{k}", [f"reaction at {_pt(r.new_at)}"]
+            entries.append((f"C{k}", [f"reaction at {format_point(r.new_at)}"]
                             + [_value_line(v, u[v.quantity]) for v in r.values if v.flagged], None))
         for k, m in enumerate(pair.new_members, start=1):
             a, b = ends(m)
@@ -177,7 +171,7 @@ def mark_changes(
             x, y = p[0] * s, p[1] * s
             cloud((x, y, x, y), _NEW_COLOR)
             tag(f"N{k}", (x + 2 * margin + 1.6 * height, y - 2 * margin - 1.6 * height), _NEW_COLOR)
-            entries.append((f"N{k}", [f"new support at {_pt(p)}"], _NEW_COLOR))
+            entries.append((f"N{k}", [f"new support at {format_point(p)}"], _NEW_COLOR))
         for k, m in enumerate(pair.removed_members, start=1):
             a, b = ends(m)
             msp.add_line(a, b, dxfattribs={**attribs(_REMOVED_COLOR), "linetype": "D2F-CLOUD",
@@ -185,7 +179,7 @@ def mark_changes(
             tag(f"R{k}", beside(a, b), _REMOVED_COLOR)
             entries.append((f"R{k}", [f"removed member {m.id} on {m.layer}"], _REMOVED_COLOR))
         for k, p in enumerate(pair.removed_supports, start=len(pair.removed_members) + 1):
-            entries.append((f"R{k}", [f"removed support at {_pt(p)}"], _REMOVED_COLOR))
+            entries.append((f"R{k}", [f"removed support at {format_point(p)}"], _REMOVED_COLOR))
 
         # the change schedule, right of the frame
         x0, y = float(hi[0]) + 6 * margin, float(hi[1])

@@ -4,7 +4,7 @@
 revisions; :func:`comparison_rows` the flat rows (columns
 :data:`CSV_COLUMNS`) and :func:`write_comparison` the CSV and JSON files,
 each written atomically.  :func:`unit_labels` and the number formats
-(``_fmt``, ``_pct``, ``_pt``) are shared with the marked drawing.
+(``format_value``, ``format_percent``, ``format_point``) are shared with the marked drawing.
 """
 from __future__ import annotations
 
@@ -26,7 +26,7 @@ __all__ = ["comparison_table", "comparison_rows", "unit_labels", "CSV_COLUMNS", 
 # -- text output ------------------------------------------------------------------------
 
 
-def _fmt(v: float | None) -> str:
+def format_value(v: float | None) -> str:
     if v is None:
         return "-"
     if v == 0:
@@ -36,7 +36,7 @@ def _fmt(v: float | None) -> str:
     return f"{v:.4g}"
 
 
-def _pct(vc: ValueChange) -> str:
+def format_percent(vc: ValueChange) -> str:
     if vc.change is None:
         return ""
     if math.isinf(vc.change):
@@ -49,9 +49,9 @@ def _pct(vc: ValueChange) -> str:
 def _cell(vc: ValueChange) -> str:
     if vc.old is None and vc.new is None:
         return "-"
-    text = f"{_fmt(vc.old)} -> {_fmt(vc.new)}"
+    text = f"{format_value(vc.old)} -> {format_value(vc.new)}"
     if vc.old is not None and vc.new is not None and vc.old != vc.new:
-        text += f" {_pct(vc)}"
+        text += f" {format_percent(vc)}"
     return text + (" *" if vc.flagged else "")
 
 
@@ -70,8 +70,8 @@ def _grid(head: list[str], rows: list[list[str]], indent: str = "  ") -> list[st
     return [line(head), line(["-" * w for w in widths])] + [line(r) for r in rows]
 
 
-def _pt(p: tuple[float, float]) -> str:
-    return f"({_fmt(p[0])}, {_fmt(p[1])})"
+def format_point(p: tuple[float, float]) -> str:
+    return f"({format_value(p[0])}, {format_value(p[1])})"
 
 
 def comparison_table(cmp: Comparison, *, only_flagged: bool = False) -> str:
@@ -107,15 +107,15 @@ def comparison_table(cmp: Comparison, *, only_flagged: bool = False) -> str:
         if rows_r:
             out.append("")
             head = ["support at"] + [f"max |{q}| {u[q]}" for q in REACTION_QUANTITIES]
-            out += _grid(head, [[_pt(r.new_at)] + [_cell(r.value(q)) for q in REACTION_QUANTITIES] for r in rows_r])
+            out += _grid(head, [[format_point(r.new_at)] + [_cell(r.value(q)) for q in REACTION_QUANTITIES] for r in rows_r])
         for m in p.new_members:
-            out.append(f"  new member {m.id} on {m.layer}: {_pt(m.start)} to {_pt(m.end)}")
+            out.append(f"  new member {m.id} on {m.layer}: {format_point(m.start)} to {format_point(m.end)}")
         for m in p.removed_members:
-            out.append(f"  removed member {m.id} on {m.layer}: {_pt(m.start)} to {_pt(m.end)}")
+            out.append(f"  removed member {m.id} on {m.layer}: {format_point(m.start)} to {format_point(m.end)}")
         for s in p.new_supports:
-            out.append(f"  new support at {_pt(s)}")
+            out.append(f"  new support at {format_point(s)}")
         for s in p.removed_supports:
-            out.append(f"  removed support at {_pt(s)}")
+            out.append(f"  removed support at {format_point(s)}")
         out.append("")
     return "\n".join(out).rstrip() + "\n"
 

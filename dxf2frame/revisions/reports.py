@@ -1,9 +1,9 @@
 """Reading the report dicts a comparison works on (JSON report, schema 1).
 
-``_check_report`` refuses what is not a schema-1 report;
+``check_report`` refuses what is not a schema-1 report;
 :func:`convert_report` converts one to another force and length unit;
-``_member_refs`` lists its members as :class:`MemberRef`;
-``_member_governing`` and ``_support_governing`` give the governing
+``member_refs`` lists its members as :class:`MemberRef`;
+``member_governing`` and ``support_governing`` give the governing
 magnitudes per member and per support location, over the results of kind
 ``"combination"`` (or every result when there are none).
 """
@@ -29,7 +29,7 @@ def _governing_results(report: Mapping) -> list[Mapping]:
     return [r for r in results if r.get("kind") == "combination"] or results
 
 
-def _member_refs(report: Mapping) -> list[MemberRef]:
+def member_refs(report: Mapping) -> list[MemberRef]:
     """The members of a report (from its first result), in report order."""
     seen: dict[str, MemberRef] = {}
     for res in report.get("results") or []:
@@ -57,7 +57,7 @@ def _bigger(a: float | None, b: float | None) -> float | None:
     return max(a, b)
 
 
-def _member_governing(report: Mapping) -> dict[str, dict[str, float | None]]:
+def member_governing(report: Mapping) -> dict[str, dict[str, float | None]]:
     """{member id: {"N", "V", "M", "deflection": governing magnitude or None}}."""
     out: dict[str, dict[str, float | None]] = {}
     for res in _governing_results(report):
@@ -71,7 +71,7 @@ def _member_governing(report: Mapping) -> dict[str, dict[str, float | None]]:
     return out
 
 
-def _support_governing(report: Mapping, tol: float) -> tuple[list[tuple[float, float]], list[dict[str, float]]]:
+def support_governing(report: Mapping, tol: float) -> tuple[list[tuple[float, float]], list[dict[str, float]]]:
     """Support locations and their governing |fx|, |fy|, |m|.
 
     Reactions of different results are gathered by location (within
@@ -107,7 +107,7 @@ def _support_governing(report: Mapping, tol: float) -> tuple[list[tuple[float, f
 # -- units ---------------------------------------------------------------------------
 
 
-def _check_report(report: Any, label: str) -> None:
+def check_report(report: Any, label: str) -> None:
     if not isinstance(report, Mapping) or report.get("schema") != 1 or not isinstance(report.get("units"), Mapping):
         raise InputFileError(f"{label}: not a dxf2frame report (schema 1 with 'units' and 'results')")
     if "force" not in report["units"] or "length" not in report["units"]:
