@@ -159,15 +159,9 @@ def _solve_checked(model: DrawingModel, det: Determinacy) -> dict[str, CaseResul
 def _first_non_finite(res: CaseResult) -> str | None:
     """Id of the first member whose end forces are not finite, "" for a
     reaction or displacement that is not, None when all are finite."""
-    table = getattr(res.members, "end_forces", None)     # MemberResults: one array for all members
-    if table is not None:
-        bad = np.flatnonzero(~np.isfinite(np.asarray(table, dtype=float)).all(axis=1))
-        if len(bad):
-            return list(res.members)[int(bad[0])]
-    else:
-        for mid, mr in res.members.items():
-            if not np.all(np.isfinite(np.asarray(mr.end_forces, dtype=float))):
-                return mid
+    bad = np.flatnonzero(~np.isfinite(np.asarray(res.members.end_forces, dtype=float)).all(axis=1))
+    if len(bad):
+        return list(res.members)[int(bad[0])]
     for r in res.reactions:
         if not all(math.isfinite(v) for v in (r.fx, r.fy, r.m)):
             return ""
@@ -287,24 +281,18 @@ def _governing(report: dict) -> dict[str, float | None]:
     strength = [r for r in combos if r.get("family") == "LRFD"] or combos or results
     service = [r for r in combos if r.get("family") == "ASD"] or \
         [r for r in results if r.get("kind") == "case"]
-    def values(rows, key: str) -> np.ndarray:
-        num = getattr(rows, "numbers", None)        # a report Table: its columns, no row dicts
-        if num is not None:
-            return num(key)
-        return np.array([math.nan if m.get(key) is None else m[key] for m in rows], dtype=float)
-
     big: dict[str, float | None] = {"m": None, "v": None, "n": None}
     for r in strength:
-        rows = r.get("members", [])
+        rows = r["members"]                         # a report Table: its columns, no row dicts
         for key in ("m", "v", "n"):
-            both = np.abs(np.concatenate([values(rows, f"{key}_min"), values(rows, f"{key}_max")]))
+            both = np.abs(np.concatenate([rows.numbers(f"{key}_min"), rows.numbers(f"{key}_max")]))
             both = both[np.isfinite(both)]
             if len(both):
                 v = float(both.max())
                 big[key] = v if big[key] is None else max(big[key], v)
     ratio = None
     for r in service:
-        d = values(r.get("members", []), "deflection_ratio")
+        d = r["members"].numbers("deflection_ratio")
         d = d[np.isfinite(d)]
         if len(d):
             ratio = float(d.min()) if ratio is None else min(ratio, float(d.min()))

@@ -279,7 +279,7 @@ def force_length_units(text: str) -> tuple[str, str]:
     """
     parts = [p.strip() for p in text.split(",")]
     if len(parts) != 2 or not all(parts):
-        raise UnitError(f"--units takes FORCE,LENGTH (for example kN,m or kip,ft), got {text!r}")
+        raise UnitError(f"takes FORCE,LENGTH (for example kN,m or kip,ft), got {text!r}")
     unit_factor(parts[0], "force")
     length_unit_scale(parts[1])
     return parts[0], parts[1]

@@ -27,10 +27,12 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.patches import Rectangle
 
+from .numbers import fmt
+
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from matplotlib.axes import Axes
 
-    from .sheets import FreeBody
+    from .free_body import FreeBody
     from ..report.report import UnitFactors
 
 __all__ = ["draw_free_body", "draw_element", "sheet_figure", "sheet_page"]
@@ -42,8 +44,6 @@ DIM = "#555555"
 
 
 def _fmt(v: float) -> str:
-    from .sheets import fmt
-
     return fmt(v)
 
 

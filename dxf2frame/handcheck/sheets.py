@@ -94,7 +94,7 @@ from __future__ import annotations
 import hashlib
 import re
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Iterable, Sequence
+from typing import TYPE_CHECKING, Any, Iterable, Protocol, Sequence
 
 from ..atomic import atomic_path, write_text
 from ..errors import Dxf2FrameError
@@ -104,7 +104,8 @@ from .wording import SheetHeader, sheet_markdown, sheet_text
 from ..report.report import UnitFactors, locate_points, member_groups, unit_factors
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
-    from ..pipeline import Analysis
+    from ..drawing_model import DrawingModel
+    from ..solver import CaseResult, Determinacy
 
 __all__ = [
     "SheetRequestError",
@@ -112,6 +113,22 @@ __all__ = [
     "write_cut_sheets",
     "write_sheets",
 ]
+
+
+class AnalysedDrawing(Protocol):
+    """What the sheets need of an analysed drawing: a
+    :class:`dxf2frame.pipeline.Analysis` has it."""
+
+    model: "DrawingModel"
+    determinacy: "Determinacy"
+    cases: "list[CaseResult]"
+    combinations: "list[CaseResult]"
+
+    @property
+    def results(self) -> "list[CaseResult]": ...
+
+    @property
+    def stable(self) -> bool: ...
 
 
 class SheetRequestError(Dxf2FrameError):
@@ -182,7 +199,7 @@ def write_cut_sheets(
 # -- from an analysed drawing ------------------------------------------------------
 
 
-def _find_result(analysis: "Analysis", name: str):
+def _find_result(analysis: "AnalysedDrawing", name: str):
     for r in analysis.results:
         if r.name == name:
             return r
@@ -194,18 +211,18 @@ def _find_result(analysis: "Analysis", name: str):
     raise SheetRequestError(f"no load case or combination named {name!r}; the drawing has: {names}")
 
 
-def _strength_candidates(analysis: "Analysis") -> list:
+def _strength_candidates(analysis: "AnalysedDrawing") -> list:
     """Strength (LRFD) combinations; else the settings' own combinations; else the first case."""
-    lrfd = [r for r in analysis.combinations if str(getattr(r, "family", "")).upper() == "LRFD"]
+    lrfd = [r for r in analysis.combinations if r.family.upper() == "LRFD"]
     if lrfd:
         return lrfd
-    user = [r for r in analysis.combinations if str(getattr(r, "family", "")).lower() in ("user", "", "none")]
+    user = [r for r in analysis.combinations if r.family.lower() in ("user", "", "none")]
     if user:
         return user
     return analysis.cases[:1] or analysis.combinations[:1]
 
 
-def _default_cuts(analysis: "Analysis", cands: Sequence) -> list[tuple[str, float, Any, str]]:
+def _default_cuts(analysis: "AnalysedDrawing", cands: Sequence) -> list[tuple[str, float, Any, str]]:
     """(element, x, result, reason) at the largest |M| of each reported member
     under the result of ``cands`` that governs it."""
     frame = analysis.model.frame
@@ -236,7 +253,7 @@ def _default_cuts(analysis: "Analysis", cands: Sequence) -> list[tuple[str, floa
     return cuts
 
 
-def _governing_at(analysis: "Analysis", mid: str, x: float):
+def _governing_at(analysis: "AnalysedDrawing", mid: str, x: float):
     cands = _strength_candidates(analysis)
     if not cands:
         raise SheetRequestError("no results to write sheets for")
@@ -259,7 +276,7 @@ MAX_DEFAULT_SHEETS = 40
 
 
 def write_sheets(
-    analysis: "Analysis",
+    analysis: "AnalysedDrawing",
     folder: Path | str,
     *,
     points: Iterable[tuple[float, float]] = (),
@@ -271,7 +288,7 @@ def write_sheets(
 
     Parameters
     ----------
-    analysis : a stable :class:`~dxf2frame.pipeline.Analysis`
+    analysis : a stable :class:`AnalysedDrawing` (a :class:`dxf2frame.pipeline.Analysis`)
     folder : output folder (created)
     points : cut points (X, Y) in drawing units; default: for each reported
         member, the point of largest |M| under the strength combination that
@@ -347,5 +364,5 @@ def write_sheets(
             frame_status=status, reason=why,
         )
         sheets.append((fb, header))
-        fams.append(getattr(r, "family", None))
+        fams.append(r.family)
     return write_cut_sheets(sheets, folder, uf, families=fams)
