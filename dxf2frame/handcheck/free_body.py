@@ -133,7 +133,7 @@ class FreeBody:
 
 def _result_factors(result) -> dict[str, float]:
     """{case: factor} of a case result or combination."""
-    factors = dict(getattr(result, "factors", None) or {})
+    factors = dict(result.factors or {})
     if not factors:
         factors = {result.name: 1.0}
     return {k: float(v) for k, v in factors.items() if float(v) != 0.0}
@@ -186,6 +186,83 @@ def cut_free_body(
     ------
     KeyError  unknown member;  ValueError  ``x`` outside the member.
     """
+    cut = _locate_cut(frame, result, member_id, x, limit)
+    loads = _loads_of_result(frame, cut.factors)
+    g = _member_graph(frame)
+    g.remove_edge(cut.mem.start, cut.mem.end, key=member_id)
+    if nx.has_path(g, cut.mem.start, cut.mem.end):
+        # a closed loop: no cut through this member alone frees a part of the frame
+        return _end_force_body(frame, result, cut, loads)
+    candidates = [_side_candidate(frame, result, cut, loads, g, sd) for sd in ("start", "end")]
+    if side == "auto":
+        chosen = min(candidates, key=lambda c: c.cost)
+    else:
+        chosen = next(c for c in candidates if c.side == side)
+    return _side_body(frame, result, cut, loads, chosen)
+
+
+# -- the steps of a cut ------------------------------------------------------------
+
+
+@dataclass
+class _Cut:
+    """Where member ``mem`` is cut and what the solver says there."""
+
+    mem: Any                  # the solver's Member
+    L: float                  # its length
+    c: float                  # cos, sin of local x
+    s: float
+    x: float                  # the cut, from the member start, clamped to [0, L]
+    tol: float
+    limit: str
+    point: tuple[float, float]
+    factors: dict[str, float]
+    solver_vals: dict[str, float]
+
+    @property
+    def ex(self) -> tuple[float, float]:
+        return (self.c, self.s)
+
+    def own_start(self, a: float) -> bool:
+        """Does a concentrated load at ``a`` belong to the start side?"""
+        return a <= self.x + self.tol if self.limit == "right" else a < self.x - self.tol
+
+    def owner(self, side: Side):
+        return self.own_start if side == "start" else (lambda a: not self.own_start(a))
+
+    def span(self, side: Side) -> tuple[float, float]:
+        """The piece of the cut member on ``side``, as (lo, hi) along local x."""
+        return (0.0, self.x) if side == "start" else (self.x, self.L)
+
+    def piece(self, lo: float, hi: float, p0) -> tuple[tuple[float, float], tuple[float, float]]:
+        return ((p0.x + self.c * lo, p0.y + self.s * lo), (p0.x + self.c * hi, p0.y + self.s * hi))
+
+
+@dataclass
+class _Loads:
+    """The loads of one result: member loads by member, nodal loads, and
+    whether support settlements act (each with its factor)."""
+
+    by_member: dict[str, list[tuple[Any, float]]]
+    nodal: list[tuple[Any, float]]
+    settlements: bool
+
+
+@dataclass
+class _Candidate:
+    """One side of a cut through a bridge member, with everything beyond it."""
+
+    cost: tuple
+    side: Side
+    node: int
+    comp: set
+    builder: TermBuilder
+    sup_idx: tuple[int, ...]
+    segs: list
+    others: list
+
+
+def _locate_cut(frame: "Frame", result, member_id: str, x: float, limit: str) -> _Cut:
     mem = frame.member(member_id)
     L, c, s = frame.geometry(mem)
     tol = 1e-9 * L
@@ -193,109 +270,103 @@ def cut_free_body(
         raise ValueError(f"cut at x = {x:g} is outside member {member_id} of length {L:g}")
     x = min(max(float(x), 0.0), L)
     p0 = frame.nodes[mem.start]
-    cut = (p0.x + c * x, p0.y + s * x)
-    ex = (c, s)
-    factors = _result_factors(result)
     mr = result.members[member_id]
     solver_vals = {k: member_value(mr, f, x, limit) for k, f in (("n", "axial"), ("v", "shear"), ("m", "moment"))}
+    return _Cut(mem, L, c, s, x, tol, limit, (p0.x + c * x, p0.y + s * x), _result_factors(result), solver_vals)
 
-    def own_start(a: float) -> bool:
-        return a <= x + tol if limit == "right" else a < x - tol
 
-    # loads of this result, by member and by node
+def _loads_of_result(frame: "Frame", factors: dict[str, float]) -> _Loads:
     from ..solver import DistributedLoad, MemberCouple, NodalLoad, PointLoad, Settlement
 
-    loads_by_member: dict[str, list[tuple[Any, float]]] = {}
-    nodal: list[tuple[Any, float]] = []
-    settlements = False
+    loads = _Loads({}, [], False)
     for ld in frame.loads:
         fct = factors.get(ld.case)
         if not fct:
             continue
         if isinstance(ld, (PointLoad, MemberCouple, DistributedLoad)):
-            loads_by_member.setdefault(ld.member, []).append((ld, fct))
+            loads.by_member.setdefault(ld.member, []).append((ld, fct))
         elif isinstance(ld, NodalLoad):
-            nodal.append((ld, fct))
+            loads.nodal.append((ld, fct))
         elif isinstance(ld, Settlement):
-            settlements = True
+            loads.settlements = True
+    return loads
 
-    g = _member_graph(frame)
-    g.remove_edge(mem.start, mem.end, key=member_id)
-    bridge = not nx.has_path(g, mem.start, mem.end)
 
-    def piece_geometry(lo: float, hi: float):
-        return ((p0.x + c * lo, p0.y + s * lo), (p0.x + c * hi, p0.y + s * hi))
+def _end_force_body(frame: "Frame", result, cut: _Cut, loads: _Loads) -> FreeBody:
+    """The piece of a member in a closed loop from its nearer end to the cut,
+    loaded by the member end forces of the stiffness solution."""
+    mem, member_id, L, c, s = cut.mem, cut.mem.id, cut.L, cut.c, cut.s
+    near: Side = "start" if cut.x <= 0.5 * L else "end"
+    b = TermBuilder(near, cut.point, cut.ex)
+    node = mem.start if near == "start" else mem.end
+    ef = np.asarray(result.members[member_id].end_forces, dtype=float).ravel()
+    ni, vi, mi = (ef[0:3] if near == "start" else ef[3:6])
+    fglob = (ni * c - vi * s, ni * s + vi * c)
+    pn = frame.nodes[node]
+    b.add("E", "end force",
+          f"member end forces exerted by node {node} on member {member_id}, from the stiffness "
+          f"solution (indeterminate frame)",
+          "", (pn.x, pn.y), fglob, float(mi), member=member_id, s=0.0 if near == "start" else L)
+    lo, hi = cut.span(near)
+    add_member_loads(b, frame, loads.by_member, member_id, lo, hi, cut_member=True, x_cut=cut.x, own=cut.owner(near))
+    desc = (f"{near} side of the cut: the piece of member {member_id} from its {near} (node {node}) to the "
+            f"cut. Member {member_id} lies in a closed loop of the frame (removing it leaves its ends "
+            f"connected), so no cut through it alone frees a part of the frame; the piece carries the "
+            f"member end forces from the stiffness solution (indeterminate frame) at node {node}.")
+    return FreeBody(member_id, cut.x, L, near, "end forces", cut.point, cut.ex, b.terms, (node,),
+                    (cut.piece(lo, hi, frame.nodes[mem.start]),), ((pn.x, pn.y),), (), result.name,
+                    result.kind, cut.factors, cut.solver_vals["n"], cut.solver_vals["v"],
+                    cut.solver_vals["m"], desc, (), cut.limit)
 
-    if not bridge:
-        near: Side = "start" if x <= 0.5 * L else "end"
-        b = TermBuilder(near, cut, ex)
-        node = mem.start if near == "start" else mem.end
-        ef = np.asarray(mr.end_forces, dtype=float).ravel()
-        ni, vi, mi = (ef[0:3] if near == "start" else ef[3:6])
-        fglob = (ni * c - vi * s, ni * s + vi * c)
-        pn = frame.nodes[node]
-        b.add("E", "end force",
-              f"member end forces exerted by node {node} on member {member_id}, from the stiffness "
-              f"solution (indeterminate frame)",
-              "", (pn.x, pn.y), fglob, float(mi), member=member_id, s=0.0 if near == "start" else L)
-        lo, hi = (0.0, x) if near == "start" else (x, L)
-        own = own_start if near == "start" else (lambda a: not own_start(a))
-        add_member_loads(b, frame, loads_by_member, member_id, lo, hi, cut_member=True, x_cut=x, own=own)
-        desc = (f"{near} side of the cut: the piece of member {member_id} from its {near} (node {node}) to the "
-                f"cut. Member {member_id} lies in a closed loop of the frame (removing it leaves its ends "
-                f"connected), so no cut through it alone frees a part of the frame; the piece carries the "
-                f"member end forces from the stiffness solution (indeterminate frame) at node {node}.")
-        return FreeBody(member_id, x, L, near, "end forces", cut, ex, b.terms, (node,),
-                        (piece_geometry(lo, hi),), ((pn.x, pn.y),), (), result.name,
-                        getattr(result, "kind", "case"), factors, solver_vals["n"], solver_vals["v"],
-                        solver_vals["m"], desc, (), limit)
 
-    candidates = []
-    for sd in ("start", "end"):
-        node = mem.start if sd == "start" else mem.end
-        comp = nx.node_connected_component(g, node)
-        b = TermBuilder(sd, cut, ex)
-        reactions = [r for r in result.reactions if r.node in comp]
-        sup_idx = tuple(sorted({int(r.support_index) for r in reactions}
-                               | {i for i, sp in enumerate(frame.supports) if sp.node in comp}))
-        for r in reactions:
-            sp = frame.supports[r.support_index] if 0 <= r.support_index < len(frame.supports) else None
-            kind = sp.kind if sp is not None else "support"
-            pn = frame.nodes[r.node]
-            b.add("R", "reaction", f"reaction of the {kind} at node {r.node} (solved)",
-                  sp.handle if sp is not None else "", (pn.x, pn.y), (r.fx, r.fy), float(r.m))
-        for ld, fct in nodal:
-            if ld.node in comp:
-                pn = frame.nodes[ld.node]
-                why = case_text(ld.case, fct)
-                if ld.fx or ld.fy:
-                    b.add("P", "nodal force", f"force at node {ld.node} ({why})", ld.handle, (pn.x, pn.y),
-                          (ld.fx * fct, ld.fy * fct), 0.0)
-                if ld.m:
-                    b.add("C", "couple", f"couple at node {ld.node} ({why})", ld.handle, (pn.x, pn.y),
-                          (0.0, 0.0), ld.m * fct)
-        others = [m for m in frame.members if m.id != member_id and m.start in comp]
-        segs = []
-        for om in others:
-            Lo = frame.geometry(om)[0]
-            add_member_loads(b, frame, loads_by_member, om.id, 0.0, Lo, cut_member=False, x_cut=x,
-                              own=lambda a: True)
-            na, nb = frame.nodes[om.start], frame.nodes[om.end]
-            segs.append(((na.x, na.y), (nb.x, nb.y)))
-        lo, hi = (0.0, x) if sd == "start" else (x, L)
-        own = own_start if sd == "start" else (lambda a: not own_start(a))
-        add_member_loads(b, frame, loads_by_member, member_id, lo, hi, cut_member=True, x_cut=x, own=own)
-        segs.insert(0, piece_geometry(lo, hi))
-        scale = max([abs(v) for r in result.reactions for v in (r.fx, r.fy, r.m)] + [0.0])
-        nonzero = sum(1 for r in reactions for v in (r.fx, r.fy, r.m) if abs(v) > 1e-9 * scale)
-        cost = (1 if sup_idx else 0, nonzero, len(b.terms), 0 if sd == "start" else 1)
-        candidates.append((cost, sd, node, comp, b, sup_idx, segs, others))
+def _side_candidate(frame: "Frame", result, cut: _Cut, loads: _Loads, g: nx.MultiGraph, sd: Side) -> _Candidate:
+    """Everything on side ``sd`` of a cut through a bridge member: reactions,
+    nodal loads, the loads of the members beyond, the piece of the cut member;
+    its cost ranks the sides as a checker would."""
+    mem, member_id = cut.mem, cut.mem.id
+    node = mem.start if sd == "start" else mem.end
+    comp = nx.node_connected_component(g, node)
+    b = TermBuilder(sd, cut.point, cut.ex)
+    reactions = [r for r in result.reactions if r.node in comp]
+    sup_idx = tuple(sorted({int(r.support_index) for r in reactions}
+                           | {i for i, sp in enumerate(frame.supports) if sp.node in comp}))
+    for r in reactions:
+        sp = frame.supports[r.support_index] if 0 <= r.support_index < len(frame.supports) else None
+        kind = sp.kind if sp is not None else "support"
+        pn = frame.nodes[r.node]
+        b.add("R", "reaction", f"reaction of the {kind} at node {r.node} (solved)",
+              sp.handle if sp is not None else "", (pn.x, pn.y), (r.fx, r.fy), float(r.m))
+    for ld, fct in loads.nodal:
+        if ld.node in comp:
+            pn = frame.nodes[ld.node]
+            why = case_text(ld.case, fct)
+            if ld.fx or ld.fy:
+                b.add("P", "nodal force", f"force at node {ld.node} ({why})", ld.handle, (pn.x, pn.y),
+                      (ld.fx * fct, ld.fy * fct), 0.0)
+            if ld.m:
+                b.add("C", "couple", f"couple at node {ld.node} ({why})", ld.handle, (pn.x, pn.y),
+                      (0.0, 0.0), ld.m * fct)
+    others = [m for m in frame.members if m.id != member_id and m.start in comp]
+    segs = []
+    for om in others:
+        Lo = frame.geometry(om)[0]
+        add_member_loads(b, frame, loads.by_member, om.id, 0.0, Lo, cut_member=False, x_cut=cut.x,
+                         own=lambda a: True)
+        na, nb = frame.nodes[om.start], frame.nodes[om.end]
+        segs.append(((na.x, na.y), (nb.x, nb.y)))
+    lo, hi = cut.span(sd)
+    add_member_loads(b, frame, loads.by_member, member_id, lo, hi, cut_member=True, x_cut=cut.x, own=cut.owner(sd))
+    segs.insert(0, cut.piece(lo, hi, frame.nodes[mem.start]))
+    scale = max([abs(v) for r in result.reactions for v in (r.fx, r.fy, r.m)] + [0.0])
+    nonzero = sum(1 for r in reactions for v in (r.fx, r.fy, r.m) if abs(v) > 1e-9 * scale)
+    cost = (1 if sup_idx else 0, nonzero, len(b.terms), 0 if sd == "start" else 1)
+    return _Candidate(cost, sd, node, comp, b, sup_idx, segs, others)
 
-    if side == "auto":
-        chosen = min(candidates, key=lambda t: t[0])
-    else:
-        chosen = next(t for t in candidates if t[1] == side)
-    _cost, sd, node, comp, b, sup_idx, segs, others = chosen
+
+def _side_body(frame: "Frame", result, cut: _Cut, loads: _Loads, chosen: _Candidate) -> FreeBody:
+    """The chosen side as a free body, with the words that explain the choice."""
+    member_id, sd, node, comp, sup_idx, others = (cut.mem.id, chosen.side, chosen.node, chosen.comp,
+                                                  chosen.sup_idx, chosen.others)
     method: Method = "reactions" if sup_idx else "statics"
     desc = f"{sd} side of the cut: the piece of member {member_id} from its {sd} (node {node}) to the cut"
     if others:
@@ -310,10 +381,10 @@ def cut_free_body(
         desc += (" Both sides carry supports; this side needs fewer reaction components. The reactions "
                  f"at node(s) {', '.join(map(str, at_nodes))} are taken as solved.")
     notes = ()
-    if settlements and method != "statics":
+    if loads.settlements and method != "statics":
         notes = ("Support settlements act in this result; they put no force on the free body, their "
                  "effect is contained in the reactions.",)
     joints = tuple((frame.nodes[n].x, frame.nodes[n].y) for n in sorted(comp))
-    return FreeBody(member_id, x, L, sd, method, cut, ex, b.terms, tuple(sorted(comp)), tuple(segs), joints,
-                    sup_idx, result.name, getattr(result, "kind", "case"), factors, solver_vals["n"],
-                    solver_vals["v"], solver_vals["m"], desc, notes, limit)
+    return FreeBody(member_id, cut.x, cut.L, sd, method, cut.point, cut.ex, chosen.builder.terms, tuple(sorted(comp)),
+                    tuple(chosen.segs), joints, sup_idx, result.name, result.kind, cut.factors,
+                    cut.solver_vals["n"], cut.solver_vals["v"], cut.solver_vals["m"], desc, notes, cut.limit)
