@@ -30,12 +30,26 @@ from pathlib import Path
 from typing import IO, Iterator
 
 __all__ = [
+    "same_file",
     "atomic_path",
     "atomic_open",
     "write_text",
     "write_bytes",
     "temp_name",
 ]
+
+
+def same_file(a: Path | str, b: Path | str) -> bool:
+    """True when ``a`` and ``b`` name the same file (symlinks, hard links,
+    ``..`` and case-insensitive file systems included); for paths that do
+    not exist yet, when they resolve to the same place."""
+    a, b = Path(a), Path(b)
+    try:
+        if a.exists() and b.exists():
+            return os.path.samefile(a, b)
+        return a.resolve() == b.resolve()
+    except OSError:
+        return a.absolute() == b.absolute()
 
 
 def temp_name(target: Path) -> Path:

@@ -82,9 +82,10 @@ def _output_folder(out: Path | None, inputs: list[Path]) -> None:
     for parent in (out, *out.parents):
         if parent.exists():
             if not parent.is_dir():
+                from .atomic import same_file
                 from .errors import InputFileError
 
-                what = "an input drawing" if any(parent.resolve() == Path(p).resolve() for p in inputs) else "a file"
+                what = "an input drawing" if any(same_file(parent, p) for p in inputs) else "a file"
                 raise InputFileError(f"--out {out}: {parent} is {what}, not a folder; choose a folder for the results")
             return
 
@@ -220,11 +221,11 @@ def run_template(args) -> int:
     from .atomic import atomic_path
     from .errors import InputFileError
     from .symbols import define_blocks, define_layers
+    from .units import insunits_code
 
-    units = {"in": 1, "inch": 1, "ft": 2, "feet": 2, "foot": 2, "mm": 4, "cm": 5, "m": 6}
-    code = units.get(args.length_unit.lower())
+    code = insunits_code(args.length_unit)
     if code is None:
-        raise InputFileError(f"--length-unit must be one of {', '.join(sorted(units))}, got {args.length_unit!r}")
+        raise InputFileError(f"--length-unit must be one of m, mm, cm, ft, in, got {args.length_unit!r}")
     if args.path.exists():
         raise InputFileError(f"{args.path} exists already; choose a new file name")
     folder = args.path.parent if str(args.path.parent) else Path(".")

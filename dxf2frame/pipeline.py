@@ -24,6 +24,7 @@ from .solver import CaseResult, Determinacy, check, combine, solve
 from .solver.combinations import builtin_combinations, format_combination, parse_combination
 from .solver.errors import MissingSectionError, SolverError, UnstableFrameError
 
+from .atomic import same_file
 from .drawing_model import DrawingModel
 from .errors import AnalysisError, Dxf2FrameError, InputFileError, SettingsError, one_line
 from .read.reader import read_file
@@ -299,17 +300,6 @@ def _governing(report: dict) -> dict[str, float | None]:
     return {"max_m": big["m"], "max_v": big["v"], "max_n": big["n"], "worst_deflection_ratio": ratio}
 
 
-def _same_file(a: Path, b: Path) -> bool:
-    """True when ``a`` and ``b`` name the same file (symlinks, hard links,
-    ``..`` and case-insensitive file systems included)."""
-    try:
-        if a.exists() and b.exists():
-            return os.path.samefile(a, b)
-        return a.resolve() == b.resolve()
-    except OSError:
-        return a.absolute() == b.absolute()
-
-
 def check_outputs(source: Path, paths: dict[str, Path]) -> None:
     """Refuse output paths that would overwrite the input drawing, each
     other, or an existing folder, and an output folder that is a file.
@@ -319,7 +309,7 @@ def check_outputs(source: Path, paths: dict[str, Path]) -> None:
     """
     seen: dict[Path, str] = {}
     for key, target in paths.items():
-        if _same_file(target, source):
+        if same_file(target, source):
             flag = "--report" if key == "report" else "--out"
             raise SettingsError(f"the {key} output {target} would overwrite the input drawing; choose another {flag}")
         if target.is_dir():

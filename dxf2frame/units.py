@@ -52,6 +52,8 @@ __all__ = [
     "normalise_length_unit",
     "force_length_units",
     "INSUNITS",
+    "INSUNITS_OTHER",
+    "insunits_code",
 ]
 
 #: kind -> (SI unit pint string, human description, example)
@@ -70,6 +72,14 @@ KINDS: dict[str, tuple[str, str, str]] = {
 
 #: $INSUNITS codes the reader understands -> short pint name of the unit
 INSUNITS: dict[int, str] = {1: "inch", 2: "ft", 4: "mm", 5: "cm", 6: "m"}
+#: the other $INSUNITS codes, named in the message that refuses them
+INSUNITS_OTHER: dict[int, str] = {
+    0: "unitless", 3: "miles", 7: "kilometres", 8: "microinches", 9: "mils", 10: "yards",
+    11: "angstroms", 12: "nanometres", 13: "microns", 14: "decimetres", 15: "decametres",
+    16: "hectometres", 17: "gigametres", 18: "astronomical units", 19: "light years",
+    20: "parsecs", 21: "US survey feet", 22: "US survey inches", 23: "US survey yards",
+    24: "US survey miles",
+}
 
 # Exact metres per unit (by definition; avoids 12 * 0.0254 float noise).
 _EXACT_LENGTH: dict[str, float] = {
@@ -283,3 +293,14 @@ def force_length_units(text: str) -> tuple[str, str]:
     unit_factor(parts[0], "force")
     length_unit_scale(parts[1])
     return parts[0], parts[1]
+
+
+def insunits_code(name: str) -> int | None:
+    """The ``$INSUNITS`` code of a length unit the reader understands
+    (``"feet"`` -> 2), None for any other name.
+
+    >>> insunits_code("mm"), insunits_code("inches"), insunits_code("yd")
+    (4, 1, None)
+    """
+    short = _LENGTH_ALIASES.get(name.strip().lower())
+    return next((code for code, unit in INSUNITS.items() if unit == short), None)

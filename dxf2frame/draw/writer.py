@@ -53,7 +53,7 @@ import numpy as np
 import shapely
 from ezdxf.enums import TextEntityAlignment
 
-from ..atomic import atomic_path
+from ..atomic import atomic_path, same_file
 from ..drawing_file import open_document
 from .curves import (DIAGRAMS, FrameGeom, frame_geom, chord_tolerance, sample_curves, drawn_curves, FlatCurve, has_batch, sample_batch,
                              sample_member_by_member, segment_max, straight_chains, thin, zero_crossings)
@@ -127,11 +127,7 @@ def _load_source(source: Path) -> "Drawing":
 
 
 def _check_target(source: Path, out: Path) -> None:
-    try:
-        same = Path(out).resolve() == Path(source).resolve()
-    except OSError:
-        same = False
-    if same:
+    if same_file(out, source):
         raise SettingsError("the output drawing would overwrite the input; choose another output path")
 
 

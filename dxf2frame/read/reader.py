@@ -119,7 +119,7 @@ from .dispatch import ENTITY_DATA_ERRORS, HANDLERS
 from ..errors import DrawingError, GeometryError, InputFileError
 from .context import ReadContext, Source
 from ..settings import Settings, load_settings
-from ..units import INSUNITS, length_unit_scale, normalise_length_unit, parse_quantity
+from ..units import INSUNITS, INSUNITS_OTHER, length_unit_scale, normalise_length_unit, parse_quantity
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
@@ -138,13 +138,6 @@ __all__ = [
 MAX_RELATIVE_ROUNDING = 1e-7
 
 _DOUBLE_EPS = 2.0**-52
-_INSUNITS_NAMES = {
-    0: "unitless", 3: "miles", 7: "kilometres", 8: "microinches", 9: "mils", 10: "yards",
-    11: "angstroms", 12: "nanometres", 13: "microns", 14: "decimetres", 15: "decametres",
-    16: "hectometres", 17: "gigametres", 18: "astronomical units", 19: "light years",
-    20: "parsecs", 21: "US survey feet", 22: "US survey inches", 23: "US survey yards",
-    24: "US survey miles",
-}
 
 
 # ---------------------------------------------------------------------------
@@ -169,7 +162,7 @@ def _drawing_unit(doc, settings: Settings, length_unit: str | None, warnings: li
         return header_unit
     if settings.length_unit:
         return settings.length_unit
-    what = _INSUNITS_NAMES.get(code, f"code {code}")
+    what = INSUNITS_OTHER.get(code, f"code {code}")
     raise DrawingError(
         f"the drawing does not give a usable length unit ($INSUNITS = {code}, {what})",
         hint="set the drawing units to inches, feet, mm, cm or m, or give [units] length in "

@@ -18,7 +18,7 @@ from ..errors import InputFileError
 from .data import Comparison, MemberRef, ValueChange
 from .outputs import format_value, format_percent, format_point, unit_labels
 from ..settings import Settings
-from ..units import length_unit_scale
+from ..units import INSUNITS, length_unit_scale
 
 __all__ = ["cloud_points", "mark_changes"]
 
@@ -49,8 +49,6 @@ def cloud_points(xmin: float, ymin: float, xmax: float, ymax: float, arc: float)
 
 
 def _drawing_unit(doc, fallback: str | None) -> str:
-    from ..units import INSUNITS
-
     code = int(doc.header.get("$INSUNITS", 0) or 0)
     if code in INSUNITS:
         return INSUNITS[code]
