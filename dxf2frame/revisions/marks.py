@@ -102,103 +102,141 @@ def mark_changes(
                                          or settings.length_unit)
     s = length_unit_scale(cmp.units["length"]) / length_unit_scale(unit)  # comparison length -> drawing units
     layer = settings.output_layer("changes")
+    _prepare_layer(doc, layer)
+    pair = cmp.pairs[-1] if cmp.pairs else None
+    pen = _Marker.around(doc.modelspace(), layer, pair, s)
+    if pair is not None:
+        entries = _mark_pair(pen, pair, unit_labels(cmp.units))
+        _write_schedule(pen, pair, cmp, entries)
+    return _save_audited(doc, Path(out_path))
+
+
+# -- the steps of a marked drawing -----------------------------------------------------------
+
+
+def _prepare_layer(doc, layer: str) -> None:
     if layer not in doc.layers:
         doc.layers.add(layer, color=_CHANGES_COLOR)
     if "D2F-CLOUD" not in doc.linetypes:
         doc.linetypes.add("D2F-CLOUD", pattern=[0.6, 0.5, -0.1], description="dxf2frame change cloud")
-    msp = doc.modelspace()
-    u = unit_labels(cmp.units)
 
-    pair = cmp.pairs[-1] if cmp.pairs else None
-    refs = [m.new for m in pair.matched] + pair.new_members + pair.removed_members if pair else []
-    pts = [p for r in refs for p in (r.start, r.end)]
-    pts += [p for r in (pair.reactions if pair else []) for p in (r.new_at,)]
-    xy = np.array(pts or [(0.0, 0.0), (1.0, 1.0)], float) * s
-    lo, hi = xy.min(axis=0), xy.max(axis=0)
-    extent = float(max(hi[0] - lo[0], hi[1] - lo[1], 1e-9))
-    margin, arc, height = 0.015 * extent, 0.02 * extent, 0.011 * extent
 
-    def attribs(color: int | None) -> dict:
-        return {"layer": layer} if color is None else {"layer": layer, "color": color}
+class _Marker:
+    """Draws clouds, tags and texts on the changes layer, sized to the extent
+    of the compared members (``s``: comparison length -> drawing units)."""
 
-    def cloud(box, color: int | None = None) -> None:
+    def __init__(self, msp, layer: str, s: float, lo: np.ndarray, hi: np.ndarray) -> None:
+        self.msp, self.layer, self.s = msp, layer, s
+        self.lo, self.hi = lo, hi
+        self.extent = float(max(hi[0] - lo[0], hi[1] - lo[1], 1e-9))
+        self.margin, self.arc, self.height = 0.015 * self.extent, 0.02 * self.extent, 0.011 * self.extent
+
+    @classmethod
+    def around(cls, msp, layer: str, pair, s: float) -> "_Marker":
+        refs = [m.new for m in pair.matched] + pair.new_members + pair.removed_members if pair else []
+        pts = [p for r in refs for p in (r.start, r.end)]
+        pts += [p for r in (pair.reactions if pair else []) for p in (r.new_at,)]
+        xy = np.array(pts or [(0.0, 0.0), (1.0, 1.0)], float) * s
+        return cls(msp, layer, s, xy.min(axis=0), xy.max(axis=0))
+
+    def attribs(self, color: int | None) -> dict:
+        return {"layer": self.layer} if color is None else {"layer": self.layer, "color": color}
+
+    def cloud(self, box, color: int | None = None) -> None:
         xmin, ymin, xmax, ymax = box
-        msp.add_lwpolyline(cloud_points(xmin - margin, ymin - margin, xmax + margin, ymax + margin, arc),
-                           format="xyb", close=True, dxfattribs=attribs(color))
+        m = self.margin
+        self.msp.add_lwpolyline(cloud_points(xmin - m, ymin - m, xmax + m, ymax + m, self.arc),
+                                format="xyb", close=True, dxfattribs=self.attribs(color))
 
-    def tag(label: str, at: tuple[float, float], color: int | None = None) -> None:
-        r = 1.3 * height * max(1.0, 0.45 * len(label))
-        msp.add_circle(at, r, dxfattribs=attribs(color))
-        msp.add_mtext(label, dxfattribs={**attribs(color), "char_height": height, "insert": at,
-                                         "attachment_point": 5})  # middle centre
+    def tag(self, label: str, at: tuple[float, float], color: int | None = None) -> None:
+        r = 1.3 * self.height * max(1.0, 0.45 * len(label))
+        self.msp.add_circle(at, r, dxfattribs=self.attribs(color))
+        self.msp.add_mtext(label, dxfattribs={**self.attribs(color), "char_height": self.height, "insert": at,
+                                              "attachment_point": 5})  # middle centre
 
-    def beside(a: tuple[float, float], b: tuple[float, float]) -> tuple[float, float]:
+    def beside(self, a: tuple[float, float], b: tuple[float, float]) -> tuple[float, float]:
         """A point off the midpoint of a-b on its local +y side, clear of the cloud."""
         L = math.dist(a, b) or 1.0
         nx, ny = -(b[1] - a[1]) / L, (b[0] - a[0]) / L
-        d = 2 * margin + 1.6 * height
+        d = 2 * self.margin + 1.6 * self.height
         return (0.5 * (a[0] + b[0]) + d * nx, 0.5 * (a[1] + b[1]) + d * ny)
 
-    def ends(r: MemberRef) -> tuple[tuple[float, float], tuple[float, float]]:
+    def off_point(self, x: float, y: float) -> tuple[float, float]:
+        """A tag's place below right of a point."""
+        d = 2 * self.margin + 1.6 * self.height
+        return (x + d, y - d)
+
+    def ends(self, r: MemberRef) -> tuple[tuple[float, float], tuple[float, float]]:
+        s = self.s
         return (r.start[0] * s, r.start[1] * s), (r.end[0] * s, r.end[1] * s)
 
-    def box_of(a, b) -> tuple[float, float, float, float]:
-        return min(a[0], b[0]), min(a[1], b[1]), max(a[0], b[0]), max(a[1], b[1])
 
+def _box_of(a, b) -> tuple[float, float, float, float]:
+    return min(a[0], b[0]), min(a[1], b[1]), max(a[0], b[0]), max(a[1], b[1])
+
+
+def _mark_pair(pen: _Marker, pair, u: Mapping[str, str]) -> list[tuple[str, list[str], int | None]]:
+    """Clouds and tags of the pair's changes; returns the schedule entries
+    (tag, lines, colour) in tag order."""
+    s = pen.s
     entries: list[tuple[str, list[str], int | None]] = []
-    if pair is not None:
-        for k, m in enumerate(pair.flagged_members, start=1):
-            a, b = ends(m.new)
-            cloud(box_of(a, b))
-            tag(f"C{k}", beside(a, b))
-            head = f"member {m.new.id} on {m.new.layer}" + (f", {m.how} from {m.old.id}" if m.how != "same ends" else "")
-            entries.append((f"C{k}", [head] + [_value_line(v, u[v.quantity]) for v in m.values if v.flagged], None))
-        base = len(pair.flagged_members)
-        for k, r in enumerate(pair.flagged_reactions, start=base + 1):
-            x, y = r.new_at[0] * s, r.new_at[1] * s
-            cloud((x, y, x, y))
-            tag(f"C{k}", (x + 2 * margin + 1.6 * height, y - 2 * margin - 1.6 * height))
-            entries.append((f"C{k}", [f"reaction at {format_point(r.new_at)}"]
-                            + [_value_line(v, u[v.quantity]) for v in r.values if v.flagged], None))
-        for k, m in enumerate(pair.new_members, start=1):
-            a, b = ends(m)
-            cloud(box_of(a, b), _NEW_COLOR)
-            tag(f"N{k}", beside(a, b), _NEW_COLOR)
-            entries.append((f"N{k}", [f"new member {m.id} on {m.layer}"], _NEW_COLOR))
-        for k, p in enumerate(pair.new_supports, start=len(pair.new_members) + 1):
-            x, y = p[0] * s, p[1] * s
-            cloud((x, y, x, y), _NEW_COLOR)
-            tag(f"N{k}", (x + 2 * margin + 1.6 * height, y - 2 * margin - 1.6 * height), _NEW_COLOR)
-            entries.append((f"N{k}", [f"new support at {format_point(p)}"], _NEW_COLOR))
-        for k, m in enumerate(pair.removed_members, start=1):
-            a, b = ends(m)
-            msp.add_line(a, b, dxfattribs={**attribs(_REMOVED_COLOR), "linetype": "D2F-CLOUD",
-                                           "ltscale": max(extent / 50.0, 1e-6)})
-            tag(f"R{k}", beside(a, b), _REMOVED_COLOR)
-            entries.append((f"R{k}", [f"removed member {m.id} on {m.layer}"], _REMOVED_COLOR))
-        for k, p in enumerate(pair.removed_supports, start=len(pair.removed_members) + 1):
-            entries.append((f"R{k}", [f"removed support at {format_point(p)}"], _REMOVED_COLOR))
+    for k, m in enumerate(pair.flagged_members, start=1):
+        a, b = pen.ends(m.new)
+        pen.cloud(_box_of(a, b))
+        pen.tag(f"C{k}", pen.beside(a, b))
+        head = f"member {m.new.id} on {m.new.layer}" + (f", {m.how} from {m.old.id}" if m.how != "same ends" else "")
+        entries.append((f"C{k}", [head] + [_value_line(v, u[v.quantity]) for v in m.values if v.flagged], None))
+    base = len(pair.flagged_members)
+    for k, r in enumerate(pair.flagged_reactions, start=base + 1):
+        x, y = r.new_at[0] * s, r.new_at[1] * s
+        pen.cloud((x, y, x, y))
+        pen.tag(f"C{k}", pen.off_point(x, y))
+        entries.append((f"C{k}", [f"reaction at {format_point(r.new_at)}"]
+                        + [_value_line(v, u[v.quantity]) for v in r.values if v.flagged], None))
+    for k, m in enumerate(pair.new_members, start=1):
+        a, b = pen.ends(m)
+        pen.cloud(_box_of(a, b), _NEW_COLOR)
+        pen.tag(f"N{k}", pen.beside(a, b), _NEW_COLOR)
+        entries.append((f"N{k}", [f"new member {m.id} on {m.layer}"], _NEW_COLOR))
+    for k, p in enumerate(pair.new_supports, start=len(pair.new_members) + 1):
+        x, y = p[0] * s, p[1] * s
+        pen.cloud((x, y, x, y), _NEW_COLOR)
+        pen.tag(f"N{k}", pen.off_point(x, y), _NEW_COLOR)
+        entries.append((f"N{k}", [f"new support at {format_point(p)}"], _NEW_COLOR))
+    for k, m in enumerate(pair.removed_members, start=1):
+        a, b = pen.ends(m)
+        pen.msp.add_line(a, b, dxfattribs={**pen.attribs(_REMOVED_COLOR), "linetype": "D2F-CLOUD",
+                                           "ltscale": max(pen.extent / 50.0, 1e-6)})
+        pen.tag(f"R{k}", pen.beside(a, b), _REMOVED_COLOR)
+        entries.append((f"R{k}", [f"removed member {m.id} on {m.layer}"], _REMOVED_COLOR))
+    for k, p in enumerate(pair.removed_supports, start=len(pair.removed_members) + 1):
+        entries.append((f"R{k}", [f"removed support at {format_point(p)}"], _REMOVED_COLOR))
+    return entries
 
-        # the change schedule, right of the frame
-        x0, y = float(hi[0]) + 6 * margin, float(hi[1])
-        title = [f"CHANGES {pair.old_source} -> {pair.new_source}",
-                 f"flagged above {100 * cmp.threshold:g}% ({cmp.units['force']}, {cmp.units['length']})"]
-        title += pair.notes
-        if not (entries or pair.notes):
-            title.append("no change above the threshold")
-        msp.add_mtext("\\P".join(title), dxfattribs={**attribs(None), "char_height": height, "insert": (x0, y),
+
+def _write_schedule(pen: _Marker, pair, cmp: Comparison, entries: list[tuple[str, list[str], int | None]]) -> None:
+    """The change schedule, right of the frame: a title, then per tag its lines."""
+    h = pen.height
+    x0, y = float(pen.hi[0]) + 6 * pen.margin, float(pen.hi[1])
+    title = [f"CHANGES {pair.old_source} -> {pair.new_source}",
+             f"flagged above {100 * cmp.threshold:g}% ({cmp.units['force']}, {cmp.units['length']})"]
+    title += pair.notes
+    if not (entries or pair.notes):
+        title.append("no change above the threshold")
+    pen.msp.add_mtext("\\P".join(title), dxfattribs={**pen.attribs(None), "char_height": h, "insert": (x0, y),
                                                        "attachment_point": 1})
-        y -= (len(title) + 1) * 1.7 * height
-        for label, lines, color in entries:
-            msp.add_mtext(f"{label}  " + "\\P      ".join(lines),
-                          dxfattribs={**attribs(color), "char_height": height, "insert": (x0, y),
+    y -= (len(title) + 1) * 1.7 * h
+    for label, lines, color in entries:
+        pen.msp.add_mtext(f"{label}  " + "\\P      ".join(lines),
+                          dxfattribs={**pen.attribs(color), "char_height": h, "insert": (x0, y),
                                       "attachment_point": 1})  # top left
-            y -= (len(lines) + 0.6) * 1.7 * height
+        y -= (len(lines) + 0.6) * 1.7 * h
 
+
+def _save_audited(doc, out_path: Path) -> Path:
     auditor = doc.audit()
     if auditor.has_errors:  # pragma: no cover - would be a bug here
         raise RuntimeError(f"the marked drawing fails the audit: {[str(e) for e in auditor.errors][:3]}")
-    out_path = Path(out_path)
     out_path.parent.mkdir(parents=True, exist_ok=True)
     with atomic_path(out_path) as tmp:
         doc.saveas(tmp)
