@@ -12,6 +12,7 @@ from pathlib import Path
 from typing import Callable, Iterable
 
 from .errors import InputFileError, one_line
+from .numbers import summary_value
 from .pipeline import (EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_OK, EXIT_UNSTABLE, FileOutcome, SolveRequest,
                        output_paths, solve_file)
 
@@ -132,10 +133,6 @@ def _with_source(o: FileOutcome) -> str:
     return msg if msg.startswith(str(o.source)) else f"{o.source}: {msg}"
 
 
-def _fmt(v: float | None, digits: int = 4) -> str:
-    return "-" if v is None else f"{v:.{digits}g}"
-
-
 def summary_table(outcomes: list[FileOutcome]) -> str:
     """Plain-text table: file, status, determinacy, governing |M|, |V|, |N|,
     worst span/deflection, time."""
@@ -146,9 +143,9 @@ def summary_table(outcomes: list[FileOutcome]) -> str:
         det = o.determinacy + (f" ({o.degree})" if o.degree else "") if o.determinacy else "-"
         rows.append([
             Path(o.source).name, o.status, det,
-            _fmt(o.max_m) + (f" {u[0]}*{u[1]}" if u and o.max_m is not None else ""),
-            _fmt(o.max_v) + (f" {u[0]}" if u and o.max_v is not None else ""),
-            _fmt(o.max_n) + (f" {u[0]}" if u and o.max_n is not None else ""),
+            summary_value(o.max_m) + (f" {u[0]}*{u[1]}" if u and o.max_m is not None else ""),
+            summary_value(o.max_v) + (f" {u[0]}" if u and o.max_v is not None else ""),
+            summary_value(o.max_n) + (f" {u[0]}" if u and o.max_n is not None else ""),
             "-" if o.worst_deflection_ratio is None else f"L/{o.worst_deflection_ratio:.0f}",
             f"{o.seconds:.2f}",
         ])

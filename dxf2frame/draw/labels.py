@@ -72,6 +72,7 @@ from typing import TYPE_CHECKING, Iterable, Sequence
 import numpy as np
 import shapely
 
+from ..numbers import label_value
 from .style import TEXT_STYLES, Pen
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -92,18 +93,6 @@ _MAX_TEXT_OBSTACLES = 1000  # the drawing's own texts labels keep off (none when
 
 
 # -- small helpers -------------------------------------------------------------
-
-
-def format_value(v: float) -> str:
-    """Four significant figures, no exponent between 1e-3 and 1e6."""
-    if not math.isfinite(v) or v == 0.0:
-        return "0"
-    a = abs(v)
-    if a >= 1e6 or a < 1e-3:
-        return f"{v:.3e}"
-    digits = max(0, 3 - math.floor(math.log10(a)))
-    s = f"{v:.{digits}f}"
-    return "0" if float(s) == 0.0 else s
 
 
 # -- placing boxes -------------------------------------------------------------
@@ -289,7 +278,7 @@ def label_requests(cs: list[tuple["Curve", np.ndarray, np.ndarray, np.ndarray]],
         v = float(c.y[j])
         if not abs(v) >= skip or v == 0.0:
             return None
-        text = f"{sym}={format_value(v * factor)}"
+        text = f"{sym}={label_value(v * factor)}"
         key = None
         if keyed:
             key = int(c.who[j])

@@ -59,8 +59,9 @@ from .curves import (DIAGRAMS, FrameGeom, frame_geom, chord_tolerance, sample_cu
                              sample_member_by_member, segment_max, straight_chains, thin, zero_crossings)
 from ..errors import SettingsError
 from .labels import (OTHER_SIGN, PRIORITY, SAME_AT_JOINT, Box, LabelPlacer, as_lines, drawing_texts,
-                     label_requests, format_value, label_font, Label, merge_at_joints, geometries_near, place_labels, Spot, text_width)
+                     label_requests, label_font, Label, merge_at_joints, geometries_near, place_labels, Spot, text_width)
 from .legend import draw_legend_and_notes, notes_paragraphs
+from ..numbers import label_value
 from ..report.report import UnitFactors, unit_factors
 from .selection import Selection, select_results
 from .style import RESULT_LAYER_STYLES, Pen, clear_result_layers, prepare_layers, result_layer_names
@@ -469,13 +470,13 @@ def _draw_reactions(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
             factor = uf.moment if comp == 2 else uf.force
             texts: list[tuple[str, int | None, float]]
             if not sel.envelope:
-                texts = [(f"{sym}={format_value(v_big * factor)}", None, v_big)]
+                texts = [(f"{sym}={label_value(v_big * factor)}", None, v_big)]
             elif abs(v_big - v_oth) <= 1e-9 * ref:
-                texts = [(f"{sym}={format_value(v_big * factor)} [all]", None, v_big)]
+                texts = [(f"{sym}={label_value(v_big * factor)} [all]", None, v_big)]
             else:
-                texts = [(f"{sym}={format_value(v_big * factor)} [C{kb + 1}]", kb, v_big)]
+                texts = [(f"{sym}={label_value(v_big * factor)} [C{kb + 1}]", kb, v_big)]
                 if v_oth * v_big < 0 and abs(v_oth) >= OTHER_SIGN * abs(v_big):
-                    texts.append((f"{sym}={format_value(v_oth * factor)} [C{ko + 1}]", ko, v_oth))
+                    texts.append((f"{sym}={label_value(v_oth * factor)} [C{ko + 1}]", ko, v_oth))
             if comp == 0:
                 a, b = p + (-gap - La, 0.0), p + (-gap, 0.0)
                 tail, tip = (a, b) if v_big > 0 else (b, a)

@@ -5,7 +5,7 @@ cuts an analysed drawing gets and the files (:mod:`.sheets`).
 """
 from .terms import Term, DistributedPart, Side
 from .free_body import FreeBody, Method, cut_free_body
-from .numbers import fmt
+from ..numbers import fmt
 from .wording import SheetHeader, sheet_markdown, sheet_text
 from .sheets import SheetRequestError, drawing_revision, write_cut_sheets, write_sheets
 

@@ -18,8 +18,8 @@ from typing import TYPE_CHECKING, Any, Literal
 import networkx as nx
 import numpy as np
 
-from .numbers import SI_UNITS, fmt
-from .terms import Side, Term, add_member_loads, TermBuilder, case_text
+from ..numbers import fmt
+from .terms import SI_UNITS, Side, Term, TermBuilder, add_member_loads, case_text
 from ..report.report import UnitFactors
 
 if TYPE_CHECKING:  # pragma: no cover - typing only

@@ -99,7 +99,8 @@ from typing import TYPE_CHECKING, Any, Iterable, Protocol, Sequence
 from ..atomic import atomic_path, write_text
 from ..errors import Dxf2FrameError
 from .free_body import FreeBody, cut_free_body, member_value
-from .numbers import SI_UNITS, fmt
+from ..numbers import fmt
+from .terms import SI_UNITS
 from .wording import SheetHeader, sheet_markdown, sheet_text
 from ..report.report import UnitFactors, locate_points, member_groups, unit_factors
 

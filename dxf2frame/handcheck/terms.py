@@ -20,10 +20,15 @@ from typing import TYPE_CHECKING, Any, Callable, Literal
 
 import numpy as np
 
+from ..report.report import UnitFactors
+
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from ..solver import Frame
 
 __all__ = ["Side", "DistributedPart", "Term"]
+
+#: the units of a sheet when no others are given: the frame's own (N, m)
+SI_UNITS = UnitFactors("N", "m", 1.0, 1.0)
 
 Side = Literal["start", "end"]
 

@@ -18,7 +18,8 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
 from .. import CAUTION
-from .numbers import SI_UNITS, fmt
+from ..numbers import fmt
+from .terms import SI_UNITS
 from ..report.report import UnitFactors
 
 if TYPE_CHECKING:  # pragma: no cover - typing only

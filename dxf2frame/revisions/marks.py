@@ -16,7 +16,8 @@ import numpy as np
 from ..atomic import atomic_path
 from ..errors import InputFileError
 from .data import Comparison, MemberRef, ValueChange
-from .outputs import format_value, format_percent, format_point, unit_labels
+from ..numbers import cell_value
+from .outputs import format_percent, format_point, unit_labels
 from ..settings import Settings
 from ..units import INSUNITS, length_unit_scale
 
@@ -61,7 +62,7 @@ def _drawing_unit(doc, fallback: str | None) -> str:
 def _value_line(vc: ValueChange, unit: str) -> str:
     label = {"deflection": "defl"}.get(vc.quantity, vc.quantity)
     pct = format_percent(vc)
-    return f"{label} {format_value(vc.old)} -> {format_value(vc.new)} {unit}" + (f" {pct}" if pct else "")
+    return f"{label} {cell_value(vc.old)} -> {cell_value(vc.new)} {unit}" + (f" {pct}" if pct else "")
 
 
 def mark_changes(

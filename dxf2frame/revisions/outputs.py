@@ -4,7 +4,7 @@
 revisions; :func:`comparison_rows` the flat rows (columns
 :data:`CSV_COLUMNS`) and :func:`write_comparison` the CSV and JSON files,
 each written atomically.  :func:`unit_labels` and the number formats
-(``format_value``, ``format_percent``, ``format_point``) are shared with the marked drawing.
+(``cell_value``, ``format_percent``, ``format_point``) are shared with the marked drawing.
 """
 from __future__ import annotations
 
@@ -18,22 +18,13 @@ from typing import Any, Mapping
 import numpy as np
 
 from ..atomic import write_text
+from ..numbers import cell_value
 from .data import MEMBER_QUANTITIES, REACTION_QUANTITIES, Comparison, ValueChange
 
 __all__ = ["comparison_table", "comparison_rows", "unit_labels", "CSV_COLUMNS", "write_comparison"]
 
 
 # -- text output ------------------------------------------------------------------------
-
-
-def format_value(v: float | None) -> str:
-    if v is None:
-        return "-"
-    if v == 0:
-        return "0"
-    if abs(v) >= 1000:
-        return f"{v:.0f}"
-    return f"{v:.4g}"
 
 
 def format_percent(vc: ValueChange) -> str:
@@ -49,7 +40,7 @@ def format_percent(vc: ValueChange) -> str:
 def _cell(vc: ValueChange) -> str:
     if vc.old is None and vc.new is None:
         return "-"
-    text = f"{format_value(vc.old)} -> {format_value(vc.new)}"
+    text = f"{cell_value(vc.old)} -> {cell_value(vc.new)}"
     if vc.old is not None and vc.new is not None and vc.old != vc.new:
         text += f" {format_percent(vc)}"
     return text + (" *" if vc.flagged else "")
@@ -71,7 +62,7 @@ def _grid(head: list[str], rows: list[list[str]], indent: str = "  ") -> list[st
 
 
 def format_point(p: tuple[float, float]) -> str:
-    return f"({format_value(p[0])}, {format_value(p[1])})"
+    return f"({cell_value(p[0])}, {cell_value(p[1])})"
 
 
 def comparison_table(cmp: Comparison, *, only_flagged: bool = False) -> str:
