@@ -268,47 +268,10 @@ def read_document(
     _check_handles(doc, settings, warnings)
     unit = _drawing_unit(doc, settings, length_unit, warnings)
     scale = length_unit_scale(unit)
-    force = settings.force_unit
-    snap_m: float | None = None
-    if settings.snap is not None:
-        if isinstance(settings.snap, str):
-            snap_m = parse_quantity(settings.snap, "length", default_unit=unit, tag="geometry.snap")
-        else:
-            snap_m = float(settings.snap) * scale
-    z_tol = max(0.5e-3, snap_m or 0.0) / scale
-    defaults = {
-        "force": force,
-        "distributed": f"({force})/({unit})",
-        "moment": f"({force})*({unit})",
-        "length": unit,
-        "spring_linear": f"({force})/({unit})",
-        "spring_rotational": f"({force})*({unit})/rad",
-        "angle": "deg",
-        "stress": f"({force})/({unit})**2",
-        "area": f"({unit})**2",
-        "inertia": f"({unit})**4",
-    }
-    ctx = ReadContext(doc, settings, unit, scale, z_tol, defaults, warnings=warnings)
-
-    msp = doc.modelspace()
-    for e in msp:
-        handler = HANDLERS.get(e.dxftype())
-        if handler is None:
-            continue
-        layer = e.dxf.get("layer", "0")
-        if settings.is_result_layer(layer):
-            continue
-        try:
-            handler(ctx, e, Source(e.dxf.handle or "", layer))
-        except ENTITY_DATA_ERRORS as exc:
-            # ezdxf could load the entity but not interpret it: damaged data
-            raise DrawingError(
-                f"cannot interpret this {e.dxftype()} ({type(exc).__name__}: {exc})",
-                handle=e.dxf.handle or "",
-                layer=layer,
-                hint="its data look damaged; redraw the entity",
-            ) from None
-
+    snap_m = _snap_metres(settings, unit, scale)
+    ctx = ReadContext(doc, settings, unit, scale, max(0.5e-3, snap_m or 0.0) / scale,
+                      _default_units(settings.force_unit, unit), warnings=warnings)
+    _read_entities(ctx, doc, settings)
     if not ctx.segments:
         raise GeometryError(
             f"no members found on layer '{settings.layers['frame']}' or '{settings.layers['frame']}-*'",
@@ -318,7 +281,6 @@ def read_document(
         tol = snap_m
     else:
         import numpy as np
-
         pts = [s.p0 for s in ctx.segments] + [s.p1 for s in ctx.segments]
         tol = default_tolerance(np.asarray(pts))
     result = build_frame(
@@ -342,8 +304,55 @@ def read_document(
         hinges=ctx.hinges,
         n_loads=ctx.n_loads,
         extents=(x0 / scale, y0 / scale, x1 / scale, y1 / scale),
-        force_unit=force,
+        force_unit=settings.force_unit,
     )
+
+
+def _snap_metres(settings: Settings, unit: str, scale: float) -> float | None:
+    """The settings' snap tolerance in metres (a bare number is in drawing units)."""
+    if settings.snap is None:
+        return None
+    if isinstance(settings.snap, str):
+        return parse_quantity(settings.snap, "length", default_unit=unit, tag="geometry.snap")
+    return float(settings.snap) * scale
+
+
+def _default_units(force: str, unit: str) -> dict[str, str]:
+    """Kind -> the unit of a bare number in an attribute: the settings' force
+    unit and the drawing's length unit."""
+    return {
+        "force": force,
+        "distributed": f"({force})/({unit})",
+        "moment": f"({force})*({unit})",
+        "length": unit,
+        "spring_linear": f"({force})/({unit})",
+        "spring_rotational": f"({force})*({unit})/rad",
+        "angle": "deg",
+        "stress": f"({force})/({unit})**2",
+        "area": f"({unit})**2",
+        "inertia": f"({unit})**4",
+    }
+
+
+def _read_entities(ctx: ReadContext, doc, settings: Settings) -> None:
+    """Hand every modelspace entity off the result layers to its handler."""
+    for e in doc.modelspace():
+        handler = HANDLERS.get(e.dxftype())
+        if handler is None:
+            continue
+        layer = e.dxf.get("layer", "0")
+        if settings.is_result_layer(layer):
+            continue
+        try:
+            handler(ctx, e, Source(e.dxf.handle or "", layer))
+        except ENTITY_DATA_ERRORS as exc:
+            # ezdxf could load the entity but not interpret it: damaged data
+            raise DrawingError(
+                f"cannot interpret this {e.dxftype()} ({type(exc).__name__}: {exc})",
+                handle=e.dxf.handle or "",
+                layer=layer,
+                hint="its data look damaged; redraw the entity",
+            ) from None
 
 
 def read_drawing(
