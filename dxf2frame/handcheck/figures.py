@@ -102,22 +102,41 @@ def draw_free_body(ax: "Axes", fb: "FreeBody", uf: "UnitFactors") -> None:
     k = uf.length
     segs = [(np.array(a) * k, np.array(b) * k) for a, b in fb.segments]
     cut = np.array(fb.cut_point) * k
-    ex = np.array(fb.axis, dtype=float)
-    ey = np.array([-ex[1], ex[0]])
     pts = [p for s in segs for p in s] + [cut] + [np.array(t.point) * k for t in fb.terms]
     pts_arr = np.array(pts)
     lo, hi = pts_arr.min(axis=0), pts_arr.max(axis=0)
     size = float(max(hi - lo)) or fb.length * k or 1.0
-    la = 0.2 * size
+    _draw_body(ax, fb, segs, cut, size, k)
+    drawn = _draw_cut_forces(ax, fb, cut, size)
+    drawn += _draw_terms(ax, fb, uf, size)
+    allp = np.array(pts + drawn)
+    lo, hi = allp.min(axis=0), allp.max(axis=0)
+    n_x, n_y = _draw_dimensions(ax, fb, cut, size, lo, hi, k)
+    ax.set_aspect("equal")
+    pad = 0.15 * size
+    ax.set_xlim(lo[0] - 2 * pad, hi[0] + 2 * pad + (0.12 * size * n_y))
+    ax.set_ylim(lo[1] - pad - 0.09 * size * n_x, hi[1] + pad)
+    ax.set_axis_off()
+    ax.set_title(f"Free body: {fb.side} side of the cut (forces at the cut in their positive sense; "
+                 f"dimensions in {uf.length_unit})", fontsize=7.5)
 
+
+def _draw_body(ax: "Axes", fb: "FreeBody", segs, cut: np.ndarray, size: float, k: float) -> None:
+    """The members of the free body, its joints and the cut face."""
+    ex = np.array(fb.axis, dtype=float)
+    ey = np.array([-ex[1], ex[0]])
     for a, b in segs:
         ax.plot([a[0], b[0]], [a[1], b[1]], color="black", lw=2.6, solid_capstyle="round", zorder=2)
     for j in fb.joints:
         ax.plot(j[0] * k, j[1] * k, "o", color="black", ms=3, zorder=2)
-    # the cut face
     ax.plot(*np.array([cut - 0.07 * size * ey, cut + 0.07 * size * ey]).T, color=INTERNAL, lw=1.0, ls="--")
 
-    # internal forces at the cut, positive sense
+
+def _draw_cut_forces(ax: "Axes", fb: "FreeBody", cut: np.ndarray, size: float) -> list[np.ndarray]:
+    """N, V, M at the cut in their positive sense; returns the points drawn."""
+    ex = np.array(fb.axis, dtype=float)
+    ey = np.array([-ex[1], ex[0]])
+    la = 0.2 * size
     out = ex if fb.side == "start" else -ex
     vdir = -ey if fb.side == "start" else ey
     _arrow(ax, cut, cut + 0.8 * la * out, INTERNAL)
@@ -127,9 +146,13 @@ def draw_free_body(ax: "Axes", fb: "FreeBody", uf: "UnitFactors") -> None:
     _label(ax, vbase + 0.45 * la * vdir, "V", INTERNAL, ha="center", va="center")
     lab = _curved(ax, cut, 0.12 * size, fb.side == "start", INTERNAL)
     _label(ax, lab, "M", INTERNAL)
-    drawn: list[np.ndarray] = [cut + 0.8 * la * out, vbase - 0.4 * la * vdir, vbase + 0.4 * la * vdir,
-                               np.array(lab)]
+    return [cut + 0.8 * la * out, vbase - 0.4 * la * vdir, vbase + 0.4 * la * vdir, np.array(lab)]
 
+
+def _draw_terms(ax: "Axes", fb: "FreeBody", uf: "UnitFactors", size: float) -> list[np.ndarray]:
+    """Every load and reaction on the free body, labelled; returns the points drawn."""
+    k = uf.length
+    drawn: list[np.ndarray] = []
     wmax = max([max(abs(t.distributed.w0), abs(t.distributed.w1)) for t in fb.terms if t.distributed] + [0.0])
     place = _Placer(ax, size)
     stacked: dict[str, float] = {}
@@ -142,33 +165,7 @@ def draw_free_body(ax: "Axes", fb: "FreeBody", uf: "UnitFactors") -> None:
         la = 0.2 * size * stagger
         color = SUPPORT if t.kind in ("reaction", "end force") else LOAD
         if t.distributed is not None:
-            d = t.distributed
-            u = np.array(d.direction)
-            along = np.array(d.member_axis)
-            c0 = p - (d.centroid_s - d.s0) * along * k
-            c1 = p + (d.s1 - d.centroid_s) * along * k
-            n = max(3, int(8 * np.linalg.norm(c1 - c0) / size) + 2)
-            # several loads on one member: stack their diagrams away from it
-            lift = stacked.get(d.member, 0.0)
-            stacked[d.member] = lift + 0.14 * size
-            c0, c1 = c0 - u * lift, c1 - u * lift
-            tails = []
-            for i in range(n):
-                f = i / (n - 1)
-                w = d.w0 + (d.w1 - d.w0) * f
-                head = c0 + (c1 - c0) * f
-                h = 0.12 * size * (abs(w) / wmax if wmax else 0.0)
-                tail = head - u * h
-                tails.append(tail)
-                if h > 1e-9 * size:
-                    _arrow(ax, tail, head, LOAD, lw=0.8)
-            tails = np.array(tails)
-            ax.plot(tails[:, 0], tails[:, 1], color=LOAD, lw=0.8)
-            la = 0.2 * size
-            _arrow(ax, p - u * (1.1 * la + lift), p - u * lift, LOAD, ls="--", lw=1.2)
-            drawn += list(tails) + [p - u * (1.15 * la + lift)]
-            place(p - u * (1.15 * la + lift), f"{t.label} = {_fmt(d.resultant * uf.force)} {uf.force_unit}", LOAD,
-                   ha="center", va="center")
+            drawn += _draw_distributed(ax, t, p, uf, size, wmax, stacked, place)
             continue
         if t.kind == "reaction":
             for comp, vec in ((t.fx, np.array([1.0, 0.0])), (t.fy, np.array([0.0, 1.0]))):
@@ -189,10 +186,46 @@ def draw_free_body(ax: "Axes", fb: "FreeBody", uf: "UnitFactors") -> None:
             at = _curved(ax, p, 0.08 * size, t.couple > 0, color)
             drawn += [np.array(at), p - 0.08 * size]
             place(at, f"{t.label} = {_fmt(abs(t.couple) * uf.moment)} {uf.moment_unit}", color, ha="left")
+    return drawn
 
-    allp = np.array(pts + drawn)
-    lo, hi = allp.min(axis=0), allp.max(axis=0)
-    # dimension lines from the cut to the points of application
+
+def _draw_distributed(ax: "Axes", t, p: np.ndarray, uf: "UnitFactors", size: float, wmax: float,
+                      stacked: dict[str, float], place) -> list[np.ndarray]:
+    """A distributed load as its diagram of arrows plus its resultant (dashed);
+    several on one member are stacked away from it.  Returns the points drawn."""
+    k = uf.length
+    d = t.distributed
+    u = np.array(d.direction)
+    along = np.array(d.member_axis)
+    c0 = p - (d.centroid_s - d.s0) * along * k
+    c1 = p + (d.s1 - d.centroid_s) * along * k
+    n = max(3, int(8 * np.linalg.norm(c1 - c0) / size) + 2)
+    lift = stacked.get(d.member, 0.0)
+    stacked[d.member] = lift + 0.14 * size
+    c0, c1 = c0 - u * lift, c1 - u * lift
+    tails = []
+    for i in range(n):
+        f = i / (n - 1)
+        w = d.w0 + (d.w1 - d.w0) * f
+        head = c0 + (c1 - c0) * f
+        h = 0.12 * size * (abs(w) / wmax if wmax else 0.0)
+        tail = head - u * h
+        tails.append(tail)
+        if h > 1e-9 * size:
+            _arrow(ax, tail, head, LOAD, lw=0.8)
+    tails = np.array(tails)
+    ax.plot(tails[:, 0], tails[:, 1], color=LOAD, lw=0.8)
+    la = 0.2 * size
+    _arrow(ax, p - u * (1.1 * la + lift), p - u * lift, LOAD, ls="--", lw=1.2)
+    place(p - u * (1.15 * la + lift), f"{t.label} = {_fmt(d.resultant * uf.force)} {uf.force_unit}", LOAD,
+          ha="center", va="center")
+    return list(tails) + [p - u * (1.15 * la + lift)]
+
+
+def _draw_dimensions(ax: "Axes", fb: "FreeBody", cut: np.ndarray, size: float, lo: np.ndarray, hi: np.ndarray,
+                     k: float) -> tuple[int, int]:
+    """Dimension lines from the cut to the points of application (up to five
+    each way); returns how many were drawn along x and along y."""
     xs = sorted({round(float(t.point[0] * k - cut[0]), 9) for t in fb.terms} - {0.0}, key=abs)[:5]
     ys = sorted({round(float(t.point[1] * k - cut[1]), 9) for t in fb.terms} - {0.0}, key=abs)[:5]
     ybase = lo[1] - 0.12 * size
@@ -209,14 +242,7 @@ def draw_free_body(ax: "Axes", fb: "FreeBody", uf: "UnitFactors") -> None:
         _label(ax, (x, cut[1] + dy / 2), f" {_fmt(abs(dy))}", DIM, ha="left", va="center", size=6)
     if xs or ys:
         ax.plot([cut[0]], [cut[1]], "x", color=DIM, ms=5)
-
-    ax.set_aspect("equal")
-    pad = 0.15 * size
-    ax.set_xlim(lo[0] - 2 * pad, hi[0] + 2 * pad + (0.12 * size * len(ys)))
-    ax.set_ylim(lo[1] - pad - 0.09 * size * len(xs), hi[1] + pad)
-    ax.set_axis_off()
-    ax.set_title(f"Free body: {fb.side} side of the cut (forces at the cut in their positive sense; "
-                 f"dimensions in {uf.length_unit})", fontsize=7.5)
+    return len(xs), len(ys)
 
 
 def draw_element(ax: "Axes", fb: "FreeBody", uf: "UnitFactors") -> None:
