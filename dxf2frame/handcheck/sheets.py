@@ -312,28 +312,10 @@ def write_sheets(
     uf = unit_factors(force_unit, length_unit)
     model = analysis.model
     frame = model.frame
-    scale = model.unit_scale
     fixed = _find_result(analysis, result_name) if result_name else None
     groups = member_groups(frame)
     group_of = {m.id: (g, off) for g in groups.values() for m, off in zip(g.members, g.offsets)}
-
-    pts = [(float(px), float(py)) for px, py in points]
-    cuts: list[tuple[str, float, Any, str]] = []
-    if pts:
-        for (px, py), (mid, x) in zip(pts, locate_points(model, pts)):
-            r = fixed if fixed is not None else _governing_at(analysis, mid, x)
-            why = f"requested point ({px:g}, {py:g})"
-            if fixed is None:
-                why += f"; {r.name} gives the largest |M| there among the strength combinations"
-            cuts.append((mid, x, r, why))
-    else:
-        cuts = _default_cuts(analysis, [fixed] if fixed is not None else _strength_candidates(analysis))
-        if len(cuts) > MAX_DEFAULT_SHEETS:
-            # a checker reviews the worst members first: keep those with the
-            # largest |M| at their governing point
-            cuts = sorted(cuts, key=lambda c: -abs(float(c[2].members[c[0]].moment(c[1]))))
-            cuts = cuts[:MAX_DEFAULT_SHEETS]
-
+    cuts = _requested_cuts(analysis, points, fixed)
     source = Path(model.source)
     try:
         revision = drawing_revision(source)
@@ -344,26 +326,57 @@ def write_sheets(
     for mid, x, r, why in cuts:
         fb = cut_free_body(frame, r, mid, x)
         g, off = group_of[mid]
-        mem = frame.member(mid)
-        X, Y = model.to_drawing(*fb.cut_point)
-        at = (off + x) * uf.length
-        member_txt = (f"{g.id}" + (f" (entity #{mem.handle}" if mem.handle else " (") +
-                      (f", layer {mem.layer})" if mem.layer else ")") +
-                      f", from ({fmt(g.start[0] / scale)}, {fmt(g.start[1] / scale)}) to "
-                      f"({fmt(g.end[0] / scale)}, {fmt(g.end[1] / scale)}) {model.length_unit} (drawing), "
-                      f"length {fmt(g.length * uf.length)} {uf.length_unit}")
-        member_txt = member_txt.replace(" ()", "")
-        if len(g.members) > 1:
-            member_txt += f"; analysis element {mid} (the member is split at a load or hinge)"
-        cut_txt = (f"drawing point ({fmt(X)}, {fmt(Y)}) {model.length_unit}, {fmt(at)} {uf.length_unit} "
-                   f"from the member start")
-        if len(g.members) > 1:
-            cut_txt += f" ({fmt(x * uf.length)} {uf.length_unit} from the start of element {mid})"
-        header = SheetHeader(
-            title=f"member {g.id} at {fmt(at)} {uf.length_unit} from its start, {r.name}",
-            source=source.name, revision=revision, member=member_txt, cut=cut_txt,
-            frame_status=status, reason=why,
-        )
-        sheets.append((fb, header))
+        sheets.append((fb, _sheet_header(model, fb, g, off, mid, x, r, why, uf, source.name, revision, status)))
         fams.append(r.family)
     return write_cut_sheets(sheets, folder, uf, families=fams)
+
+
+def _requested_cuts(analysis: "AnalysedDrawing", points: Iterable[tuple[float, float]],
+                    fixed) -> list[tuple[str, float, Any, str]]:
+    """(element id, x, result, why) of every cut: at the given points, else
+    at each member's governing extreme (the worst :data:`MAX_DEFAULT_SHEETS`)."""
+    model = analysis.model
+    pts = [(float(px), float(py)) for px, py in points]
+    cuts: list[tuple[str, float, Any, str]] = []
+    if pts:
+        for (px, py), (mid, x) in zip(pts, locate_points(model, pts)):
+            r = fixed if fixed is not None else _governing_at(analysis, mid, x)
+            why = f"requested point ({px:g}, {py:g})"
+            if fixed is None:
+                why += f"; {r.name} gives the largest |M| there among the strength combinations"
+            cuts.append((mid, x, r, why))
+        return cuts
+    cuts = _default_cuts(analysis, [fixed] if fixed is not None else _strength_candidates(analysis))
+    if len(cuts) > MAX_DEFAULT_SHEETS:
+        # a checker reviews the worst members first: keep those with the
+        # largest |M| at their governing point
+        cuts = sorted(cuts, key=lambda c: -abs(float(c[2].members[c[0]].moment(c[1]))))
+        cuts = cuts[:MAX_DEFAULT_SHEETS]
+    return cuts
+
+
+def _sheet_header(model, fb: FreeBody, g, off: float, mid: str, x: float, r, why: str, uf: UnitFactors,
+                  source_name: str, revision: str, status: str) -> SheetHeader:
+    """The header of one sheet: the member, the cut, the frame, why this cut."""
+    frame = model.frame
+    scale = model.unit_scale
+    mem = frame.member(mid)
+    X, Y = model.to_drawing(*fb.cut_point)
+    at = (off + x) * uf.length
+    member_txt = (f"{g.id}" + (f" (entity #{mem.handle}" if mem.handle else " (") +
+                  (f", layer {mem.layer})" if mem.layer else ")") +
+                  f", from ({fmt(g.start[0] / scale)}, {fmt(g.start[1] / scale)}) to "
+                  f"({fmt(g.end[0] / scale)}, {fmt(g.end[1] / scale)}) {model.length_unit} (drawing), "
+                  f"length {fmt(g.length * uf.length)} {uf.length_unit}")
+    member_txt = member_txt.replace(" ()", "")
+    if len(g.members) > 1:
+        member_txt += f"; analysis element {mid} (the member is split at a load or hinge)"
+    cut_txt = (f"drawing point ({fmt(X)}, {fmt(Y)}) {model.length_unit}, {fmt(at)} {uf.length_unit} "
+               f"from the member start")
+    if len(g.members) > 1:
+        cut_txt += f" ({fmt(x * uf.length)} {uf.length_unit} from the start of element {mid})"
+    return SheetHeader(
+        title=f"member {g.id} at {fmt(at)} {uf.length_unit} from its start, {r.name}",
+        source=source_name, revision=revision, member=member_txt, cut=cut_txt,
+        frame_status=status, reason=why,
+    )
