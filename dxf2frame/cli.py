@@ -54,6 +54,8 @@ def _common(p: argparse.ArgumentParser) -> None:
 
 
 def build_parser() -> argparse.ArgumentParser:
+    # Long by nature: one declaration per command and option, read top to bottom like the help it
+    # prints.
     fmt = argparse.RawDescriptionHelpFormatter
     parser = argparse.ArgumentParser(
         prog="dxf2frame",

@@ -156,6 +156,8 @@ def open_document(path: Path | str, settings: Settings | None = None):
         The recover mode had to drop a drawing entity because its handle
         clashes with another one (the analysis would silently miss it).
     """
+    # Long by intent: the refusals before parsing, the normal read and the recover read form one
+    # sequence of fall-backs with one set of messages.
     p = Path(path)
     settings = settings or Settings()
     if not p.exists():

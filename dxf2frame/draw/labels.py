@@ -267,6 +267,7 @@ def label_requests(cs: list[tuple["Curve", np.ndarray, np.ndarray, np.ndarray]],
     nodes : its start and end node; gmax : the diagram's largest |value| [SI]
     factor : SI -> report units; keyed : append the governing result's key
     """
+    # Long by intent: the label rules of the module docstring, in the order they are stated there.
     skip = _SKIP_LABEL * gmax
     tol = SAME_AT_JOINT * gmax
     flat = [float(np.ptp(c.y)) <= _FLAT * gmax for c, *_r in cs]

@@ -193,6 +193,8 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[FlatCurve], labe
     outlines of the elements long enough for labels and the zero-crossing
     ticks are appended to ``lines`` (obstacles for this layer's labels),
     the box of the whole diagram to ``extents``."""
+    # Long by intent: one diagram's outline, fill, ticks and label requests share the arrays of its
+    # curves; split, they would be passed around whole.
     geom, h, us, uf = ctx.geom, ctx.h, ctx.us, ctx.uf
     size = geom.size
     factor, unit = (uf.moment, uf.moment_unit) if key == "moment" else (uf.force, uf.force_unit)
@@ -340,6 +342,8 @@ def annotate_results(
     ``layers``: result layer key -> name (the settings' ``[output_layers]``;
     None: the defaults).
     """
+    # Long by intent: the numbered steps below are the recipe of a result drawing; each is a call,
+    # and the working arrays of one diagram are released before the next.
     names = result_layer_names(layers)
     clear_result_layers(doc, names.values())
     prepare_layers(doc, names)
@@ -521,6 +525,8 @@ def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
     uses the exact largest displacement when the results have
     ``member_table()``.  Returns the drawn points (k, 2), or None.
     """
+    # Long by intent: the exaggeration factor, the chords of short elements and the run polylines
+    # share the sampled displacements.
     cands = [r for r in sel.results if getattr(r, "displacements", None) is not None]
     if not cands:
         legend.append(("deflected", "deflected shape: not available (member sections are needed)"))

@@ -617,6 +617,8 @@ def assemble_report(
     DrawingError  a probe lies on no member
     UnitError  unknown report unit
     """
+    # Long by intent: it lays out the schema-1 report block by block in the order of the schema
+    # document.
     uf = unit_factors(force_unit, length_unit)
     frame = model.frame
     gx = _group_index(frame)
