@@ -71,13 +71,13 @@ def notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list
             "structure along +X and +Y, moments counter-clockwise positive."
         )
     paras.append(f"Shown: {shown}")
-    deg = f", degree {det.degree}" if getattr(det, "degree", 0) else ""
-    mech = f", {det.mechanisms} mechanism(s)" if getattr(det, "mechanisms", 0) else ""
+    deg = f", degree {det.degree}" if det.degree else ""
+    mech = f", {det.mechanisms} mechanism(s)" if det.mechanisms else ""
     paras.append(f"Determinacy: {det.status}{deg}{mech}. {det.count_check}")
     if det.detail:
         paras.append(det.detail)
     paras += extra
-    warnings = list(model.warnings) + [w for w in (getattr(det, "warnings", None) or []) if w not in model.warnings]
+    warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
     if warnings:
         paras.append(f"Warnings ({len(warnings)}):")
         paras += [f"- {w}" for w in warnings[:_MAX_WARNINGS]]

@@ -57,8 +57,8 @@ def select_results(results: Sequence, show: str | None) -> Selection:
         combos = [r for r in results if r.kind == "combination"]
         chosen, what = [], ""
         if fam.lower() != "all":
-            chosen = [r for r in combos if str(getattr(r, "family", "") or "").lower() == fam.lower()]
-            if not chosen and not any(getattr(r, "family", None) for r in combos):
+            chosen = [r for r in combos if r.family.lower() == fam.lower()]
+            if not chosen and not any(r.family for r in combos):
                 chosen = [r for r in combos if r.name.lower().startswith(fam.lower())]
             what = f"{fam} combinations"
         if not chosen:

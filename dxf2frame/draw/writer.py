@@ -680,7 +680,7 @@ def annotate_mechanism(doc: "Drawing", model: "DrawingModel", det,
     frame = model.frame
     layer = names["mechanism"]
     xy = np.array([(n.x, n.y) for n in frame.nodes], dtype=float).reshape(-1, 2) / model.unit_scale
-    modes = list(getattr(det, "modes", None) or [])
+    modes = list(det.modes)
     drawn = 0
     for k, mode in enumerate(modes, start=1):
         mv = np.asarray(mode, dtype=float).reshape(len(xy), -1)[:, :2]
@@ -699,7 +699,7 @@ def annotate_mechanism(doc: "Drawing", model: "DrawingModel", det,
         drawn += 1
     legend = [("mechanism", f"mechanism: {drawn} mode(s) drawn displaced (largest movement "
                             f"{int(_MECHANISM_TARGET * 100)} % of the frame size); circles mark moving nodes")]
-    involved = getattr(det, "nodes_involved", None) or []
+    involved = det.nodes_involved
     extra = []
     for k, nodes in enumerate(involved, start=1):
         pts = ", ".join(f"({frame.nodes[n].x / model.unit_scale:.4g}, {frame.nodes[n].y / model.unit_scale:.4g})"

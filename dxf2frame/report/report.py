@@ -525,8 +525,7 @@ def _probe_rows(res, located, probes, groups_of, uf: UnitFactors) -> list[dict]:
 
 
 def _family(res) -> str:
-    fam = getattr(res, "family", None)
-    return str(fam) if fam else "all"
+    return res.family or "all"
 
 
 def _envelope(name: str, family: str, names: list[str], cols: list[dict[str, np.ndarray]],
@@ -627,7 +626,7 @@ def assemble_report(
     probes = [(float(x), float(y)) for x, y in probes]
     located = locate_points(model, probes, probe_tolerance) if (probes and results) else []
 
-    det_warnings = list(getattr(det, "warnings", []) or [])
+    det_warnings = list(det.warnings)
     determinacy = {
         "status": det.status,
         "degree": int(det.degree),
@@ -636,7 +635,7 @@ def assemble_report(
         "detail": det.detail,
         "warnings": det_warnings,
     }
-    involved = getattr(det, "nodes_involved", None) or []
+    involved = det.nodes_involved
     if involved:
         determinacy["nodes_involved"] = [
             [{"node": int(n), "x": _num(frame.nodes[n].x * uf.length), "y": _num(frame.nodes[n].y * uf.length)}
@@ -655,9 +654,9 @@ def assemble_report(
             "members": _member_table(cols, static),
             "probes": _probe_rows(res, located, probes, groups_of, uf),
         }
-        if getattr(res, "factors", None):
+        if res.factors:
             entry["factors"] = {k: float(v) for k, v in res.factors.items()}
-        if getattr(res, "family", None):
+        if res.family:
             entry["family"] = res.family
         out_results.append(entry)
 
