@@ -212,26 +212,13 @@ def element_table(res, frame: "Frame") -> dict[str, np.ndarray]:
 
     Keys: n_min ... m_max, m_min_at, m_max_at (from the element start) and
     deflection_max (largest magnitude of the displacement along the
-    element, NaN without sections).  Uses the solver's vectorised
-    ``member_table()`` when the result has one, else each member's
-    ``extremes()`` and ``max_deflection()``.
+    element, NaN without sections), from the solver's vectorised
+    ``member_table()``.
     """
-    table_fn = getattr(res, "member_table", None)
-    if table_fn is not None:
-        tbl = table_fn()
-        pos = {mid: i for i, mid in enumerate(res.members)}
-        order = np.array([pos[m.id] for m in frame.members], dtype=int)
-        return {k: np.asarray(tbl[k], dtype=float)[order] for k in _TABLE_KEYS}
-    cols: dict[str, list[float]] = {k: [] for k in _TABLE_KEYS}
-    for m in frame.members:
-        mr = res.members[m.id]
-        ex = mr.extremes()
-        for k in _TABLE_KEYS[:-1]:
-            cols[k].append(float(ex[k]))
-        md = getattr(mr, "max_deflection", None)
-        d = md() if md is not None else None
-        cols["deflection_max"].append(float(d[0]) if d is not None else math.nan)
-    return {k: np.asarray(v, dtype=float) for k, v in cols.items()}
+    tbl = res.member_table()
+    pos = {mid: i for i, mid in enumerate(res.members)}
+    order = np.array([pos[m.id] for m in frame.members], dtype=int)
+    return {k: np.asarray(tbl[k], dtype=float)[order] for k in _TABLE_KEYS}
 
 
 @dataclass
@@ -272,36 +259,26 @@ def _held_ends(frame: "Frame", groups: list[MemberGroup]) -> np.ndarray:
 def _relative_table(res, frame: "Frame", gx: _GroupIndex) -> np.ndarray:
     """Per element (``frame.members`` order) [m]: the largest transverse
     deflection measured from the chord of its reported member (for a
-    one-element member its own chord); NaN without sections.  Uses the
-    solver's vectorised ``relative_deflection_table`` when the result's
-    members have one, else each element's ``max_relative_deflection()``
-    (own chord)."""
+    one-element member its own chord); NaN without sections, from the
+    solver's vectorised ``relative_deflection_table``."""
     mres = res.members
-    table_fn = getattr(mres, "relative_deflection_table", None)
-    if table_fn is not None:
-        pos = {mid: i for i, mid in enumerate(mres)}
-        order = np.array([pos[m.id] for m in frame.members], dtype=int)
-        d = getattr(mres, "end_displacements", None)
-        if not gx.multi or d is None:
-            return np.asarray(table_fn()["deflection_rel_max"], dtype=float)[order]
-        # elements of one member are collinear and run the same way: their
-        # local y agree, so the member chord is linear in the distance along it
-        ref = d[:, [1, 3]].copy()
-        for gi, idx, offs in gx.multi:
-            rows = order[idx]
-            vs, ve = d[rows[0], 1], d[rows[-1], 3]
-            total = gx.groups[gi].length
-            lens = np.array([frame.geometry(frame.members[i])[0] for i in idx])
-            o = np.asarray(offs)
-            ref[rows, 0] = vs + (ve - vs) * o / total
-            ref[rows, 1] = vs + (ve - vs) * (o + lens) / total
-        return np.asarray(table_fn(ref)["deflection_rel_max"], dtype=float)[order]
-    out = []
-    for m in frame.members:
-        fn = getattr(res.members[m.id], "max_relative_deflection", None)
-        r = fn() if fn is not None else None
-        out.append(float(r[0]) if r is not None else math.nan)
-    return np.asarray(out, dtype=float)
+    pos = {mid: i for i, mid in enumerate(mres)}
+    order = np.array([pos[m.id] for m in frame.members], dtype=int)
+    d = mres.end_displacements
+    if not gx.multi or d is None:
+        return np.asarray(mres.relative_deflection_table()["deflection_rel_max"], dtype=float)[order]
+    # elements of one member are collinear and run the same way: their
+    # local y agree, so the member chord is linear in the distance along it
+    ref = d[:, [1, 3]].copy()
+    for gi, idx, offs in gx.multi:
+        rows = order[idx]
+        vs, ve = d[rows[0], 1], d[rows[-1], 3]
+        total = gx.groups[gi].length
+        lens = np.array([frame.geometry(frame.members[i])[0] for i in idx])
+        o = np.asarray(offs)
+        ref[rows, 0] = vs + (ve - vs) * o / total
+        ref[rows, 1] = vs + (ve - vs) * (o + lens) / total
+    return np.asarray(mres.relative_deflection_table(ref)["deflection_rel_max"], dtype=float)[order]
 
 
 def _group_values(tbl: dict[str, np.ndarray], gx: _GroupIndex) -> dict[str, np.ndarray]:
@@ -395,9 +372,7 @@ def _member_columns(res, frame: "Frame", gx: _GroupIndex, uf: UnitFactors, stati
     length / ``deflection_max``."""
     tbl = element_table(res, frame)
     tbl["deflection_rel_max"] = _relative_table(res, frame, gx)
-    release = getattr(res.members, "release", None)
-    if release is not None:
-        release()                 # the tables are kept; large frames hold one result's pieces at a time
+    res.members.release()         # the tables are kept; large frames hold one result's pieces at a time
     g = _group_values(tbl, gx)
     F, L, M = uf.force, uf.length, uf.moment
     scale = {"n_min": F, "n_max": F, "v_min": F, "v_max": F, "m_min": M, "m_max": M,
