@@ -39,6 +39,9 @@ def run_check(args) -> int:
         f"({len({m.group for m in frame.members})} reported)",
         f"supports     {len(frame.supports)}" + (f" ({', '.join(f'{n} {k}' for k, n in sorted(kinds.items()))})" if kinds else ""),
         f"hinges       {model.hinges}",
+        f"crossings    {model.crossings_joined} joined"
+        + (f", {len(model.crossings_separate)} left separate" if model.crossings_separate else ""),
+        *(f"  separate   {t}" for t in model.crossings_separate),
         f"loads        {model.n_loads} blocks; per case: "
         + (", ".join(f"{c} {n}" for c, n in loads_per_case.items()) or "none"),
         f"sections     {'given for every member' if frame.has_sections else 'missing for some members (deflections need them)'}",

@@ -24,7 +24,7 @@ On member layers (``FRAME`` and ``FRAME-*``, remappable):
 ``INSERT`` on any layer:
 
 * on ``SUPPORTS`` / ``CONNECTIONS`` / ``LOADS``: a convention symbol
-  (``PIN ROLLER FIXED SLIDER SPRING`` / ``JOINT HINGE`` /
+  (``PIN ROLLER FIXED SLIDER SPRING`` / ``JOINT HINGE CROSSOVER`` /
   ``FORCE COUPLE UDL``, names case-insensitive and remappable).  Any other
   block name there is an :class:`UnknownBlockError`; a symbol of another
   group (a FORCE on SUPPORTS) likewise.  MINSERT grids give one symbol per
@@ -328,6 +328,7 @@ def read_document(
         tol=tol,
         section_for=settings.section_for,
         unit=(unit, scale),
+        unjoined_layers=settings.unjoined_layers,
     )
     ctx.warnings.extend(result.warnings)
     _check_precision(result.frame, unit, scale)
@@ -342,6 +343,8 @@ def read_document(
         n_loads=ctx.n_loads,
         extents=(x0 / scale, y0 / scale, x1 / scale, y1 / scale),
         force_unit=force,
+        crossings_joined=result.crossings_joined,
+        crossings_separate=result.crossings_separate,
     )
 
 

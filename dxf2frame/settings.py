@@ -13,14 +13,16 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     ``snap`` (snap tolerance: a quantity string such as ``"5 mm"`` or a bare
     number in drawing units; default: the larger of 0.5 mm and 1e-6 of the
     frame's extents diagonal), ``arc_segments`` (0: arcs and bulges are an
-    error; N > 0: chord each into N straight members).
+    error; N > 0: chord each into N straight members), ``unjoined_layers``
+    (member layers whose crossings with each other stay separate; default
+    ``["FRAME-BRACES"]``; every other crossing is joined rigidly).
 ``[limits]``
     ``max_file_mb`` (200), ``max_entities`` (500000).
 ``[layers]``
     input layer names ``frame``, ``supports``, ``connections``, ``loads``.
 ``[blocks]``
-    block names by kind: ``pin roller fixed slider spring joint hinge force
-    couple udl``, e.g. ``pin = "SUP-PIN"``.  A remapped kind no longer
+    block names by kind: ``pin roller fixed slider spring joint hinge
+    crossover force couple udl``, e.g. ``pin = "SUP-PIN"``.  A remapped kind no longer
     answers to its default name.
 ``[attributes]``
     attribute tags by their convention name, e.g. ``P = "FORCE_VALUE"``.
@@ -73,7 +75,7 @@ SETTINGS_FILENAME = "dxf2frame.toml"
 
 #: convention block names (the kinds), upper case
 BLOCK_KINDS: tuple[str, ...] = (
-    "PIN", "ROLLER", "FIXED", "SLIDER", "SPRING", "JOINT", "HINGE", "FORCE", "COUPLE", "UDL",
+    "PIN", "ROLLER", "FIXED", "SLIDER", "SPRING", "JOINT", "HINGE", "CROSSOVER", "FORCE", "COUPLE", "UDL",
 )
 
 #: attribute tags of the convention
@@ -122,6 +124,8 @@ class Settings:
     length_unit : drawing unit when the header does not say (None: must be given)
     snap : snap tolerance; str (quantity with unit), float (drawing units) or None (automatic)
     arc_segments : 0 = arcs are errors, N = chord each arc into N members
+    unjoined_layers : upper-case member layers whose crossings with each
+        other stay separate (every other crossing is joined rigidly)
     max_file_mb, max_entities : input limits
     layers : {"frame"|"supports"|"connections"|"loads": layer name}
     blocks : {kind (upper case, e.g. "PIN"): block name (upper case)}
@@ -141,6 +145,7 @@ class Settings:
     length_unit: str | None = None
     snap: str | float | None = None
     arc_segments: int = 0
+    unjoined_layers: tuple[str, ...] = ("FRAME-BRACES",)
     max_file_mb: float = 200.0
     max_entities: int = 500_000
     layers: Mapping[str, str] = field(default_factory=lambda: _ro(_DEFAULT_LAYERS))
@@ -331,7 +336,13 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
 
     # [geometry]
     g = _table(data, "geometry", path)
-    _check_keys(g, {"snap", "arc_segments"}, "geometry", path)
+    _check_keys(g, {"snap", "arc_segments", "unjoined_layers"}, "geometry", path)
+    if "unjoined_layers" in g:
+        ul = g["unjoined_layers"]
+        if not isinstance(ul, list) or not all(isinstance(x, str) and x.strip() for x in ul):
+            raise SettingsError("must be a list of layer names, e.g. [\"FRAME-BRACES\"]", path=path,
+                                key="geometry.unjoined_layers")
+        kw["unjoined_layers"] = tuple(dict.fromkeys(x.strip().upper() for x in ul))
     if "snap" in g:
         s = g["snap"]
         if isinstance(s, str) and _is_bare_number(s):

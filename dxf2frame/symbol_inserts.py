@@ -188,6 +188,7 @@ _SYMBOL_HANDLERS: dict[str, Callable] = {
     "SPRING": _symbol_support,
     "JOINT": _symbol_connection,
     "HINGE": _symbol_connection,
+    "CROSSOVER": _symbol_connection,
     "FORCE": _symbol_force,
     "COUPLE": _symbol_couple,
     "UDL": _symbol_udl,
