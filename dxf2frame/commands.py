@@ -25,10 +25,24 @@ def run_check(args) -> int:
     from .reader import read_drawing
     from .settings import load_settings
 
+    from .pipeline import combination_specs
+    from .sketch_checks import EQUAL_STIFFNESS_WARNING, combination_problems, section_lines, stiffness_basis
+
     settings = load_settings(args.settings, args.drawing)
     model = read_drawing(args.drawing, settings, length_unit=args.length_unit)
     frame = model.frame
     det = check(frame, unit_scale=model.unit_scale)
+    # the same checks as solve, so that the two commands agree
+    present = list(frame.cases())
+    model.warnings.extend(combination_problems(settings, present, combination_specs(settings, present)))
+    basis = stiffness_basis(frame, det.status, settings)
+    if basis == "equal":
+        model.warnings.append(EQUAL_STIFFNESS_WARNING)
+    stiffness = {
+        "sections": "given for every member",
+        "none": "not needed for the forces (deflections need sections)" if det.status != "unstable" else "-",
+        "equal": "none given: equal relative stiffness (equal EI, axial shortening neglected), no deflections",
+    }[basis]
     loads_per_case = Counter(ld.case for ld in frame.loads)
     kinds = Counter(s.kind for s in frame.supports)
     _say(
@@ -44,7 +58,8 @@ def run_check(args) -> int:
         *(f"  separate   {t}" for t in model.crossings_separate),
         f"loads        {model.n_loads} blocks; per case: "
         + (", ".join(f"{c} {n}" for c, n in loads_per_case.items()) or "none"),
-        f"sections     {'given for every member' if frame.has_sections else 'missing for some members (deflections need them)'}",
+        f"sections     {stiffness}",
+        *(f"  layer      {t}" for t in section_lines(frame, settings)),
         "",
         f"determinacy  {det.status}" + (f", degree {det.degree}" if det.status == "indeterminate" else "")
         + (f", {det.mechanisms} mechanism(s)" if det.mechanisms else ""),

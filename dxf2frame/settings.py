@@ -33,6 +33,10 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     ``E``, ``A``, ``I`` as quantity strings with units (``"200 GPa"``,
     ``"5000 mm**2"``, ``"8e7 mm**4"``) and an optional ``name``.  A layer
     section may leave out values that the default section gives.
+``[cases]``
+    an office's own load case names mapped onto the standard case letters
+    of ASCE/SEI 7 (``D L Lr S R W E``), e.g. ``LIVE = "L"``; names are
+    matched case-insensitively.
 ``[combinations]``
     ``builtin`` (subset of ``["LRFD", "ASD"]``), ``extra`` (list of
     combination strings, parsed by the solver), ``draw`` (what the
@@ -69,7 +73,16 @@ __all__ = [
     "BLOCK_KINDS",
     "ATTRIBUTE_TAGS",
     "OUTPUT_LAYER_KEYS",
+    "STANDARD_CASES",
+    "MISSING_SECTIONS_CHOICES",
 ]
+
+#: standard load case letters (ASCE/SEI 7): the built-in combinations use them
+STANDARD_CASES: tuple[str, ...] = ("D", "L", "Lr", "S", "R", "W", "E")
+
+#: what an indeterminate frame without any section does: solve with equal
+#: relative stiffness (with a warning) or refuse (exit 2)
+MISSING_SECTIONS_CHOICES: tuple[str, ...] = ("equal", "refuse")
 
 SETTINGS_FILENAME = "dxf2frame.toml"
 
@@ -103,7 +116,7 @@ _DEFAULT_LAYERS = {"frame": "FRAME", "supports": "SUPPORTS", "connections": "CON
 _BUILTIN_COMBOS = ("LRFD", "ASD")
 _TOP_KEYS = {
     "units", "geometry", "limits", "layers", "blocks", "attributes",
-    "output_layers", "sections", "combinations", "deflection", "compare",
+    "output_layers", "sections", "combinations", "deflection", "compare", "cases", "analysis",
 }
 
 
@@ -132,6 +145,9 @@ class Settings:
     attributes : {convention tag: tag used in the drawing (upper case)}
     output_layers : {key: result layer name}
     sections : {"DEFAULT" or upper-case layer name: solver.Section in SI (Pa, m**2, m**4)}
+    cases : {upper-case office case name: standard case letter}
+    missing_sections : "equal" (an indeterminate frame without any section
+        is solved with equal relative stiffness, with a warning) or "refuse"
     combinations_builtin : names of built-in sets ("LRFD", "ASD")
     combinations_extra : combination strings such as "1.2D + 1.6L"
     combinations_draw : what the output drawing shows ("envelope:LRFD", a case or combination)
@@ -153,6 +169,8 @@ class Settings:
     attributes: Mapping[str, str] = field(default_factory=lambda: _ro({t: t for t in ATTRIBUTE_TAGS}))
     output_layers: Mapping[str, str] = field(default_factory=lambda: _ro(DEFAULT_OUTPUT_LAYERS))
     sections: Mapping[str, Section] = field(default_factory=lambda: _ro({}))
+    cases: Mapping[str, str] = field(default_factory=lambda: _ro({}))
+    missing_sections: str = "equal"
     combinations_builtin: tuple[str, ...] = _BUILTIN_COMBOS
     combinations_extra: tuple[str, ...] = ()
     combinations_draw: str = "envelope:LRFD"
@@ -181,6 +199,11 @@ class Settings:
         """Section of members on ``layer``: the layer's own, else the default,
         else None (no sections given: a determinate frame still solves)."""
         return self.sections.get(layer.upper(), self.sections.get("DEFAULT"))
+
+    def case_name(self, name: str) -> str:
+        """Load case of a CASE text: the standard letter an office name is
+        mapped onto in ``[cases]``, else the text itself."""
+        return self.cases.get(name.strip().upper(), name.strip())
 
     def block_kind(self, name: str) -> str | None:
         """Convention kind ("PIN", "ROLLER", ..., "UDL") of a block name
@@ -432,6 +455,30 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
             raise SettingsError("must be a string", path=path, key=f"sections.{name}.name")
         sections[name] = Section(E=vals["E"], A=vals["A"], I=vals["I"], name=label)
     kw["sections"] = _ro(sections)
+
+    # [cases]
+    ca = _table(data, "cases", path)
+    standard = {c.upper(): c for c in STANDARD_CASES}
+    cases: dict[str, str] = {}
+    for k, v in ca.items():
+        target = _str(v, f"cases.{k}", path)
+        if target.upper() not in standard:
+            raise SettingsError(
+                f"maps onto {target!r}, which is not a standard case letter ({', '.join(STANDARD_CASES)})",
+                path=path, key=f"cases.{k}",
+            )
+        cases[str(k).strip().upper()] = standard[target.upper()]
+    kw["cases"] = _ro(cases)
+
+    # [analysis]
+    an = _table(data, "analysis", path)
+    _check_keys(an, {"missing_sections"}, "analysis", path)
+    if "missing_sections" in an:
+        ms = _str(an["missing_sections"], "analysis.missing_sections", path).lower()
+        if ms not in MISSING_SECTIONS_CHOICES:
+            raise SettingsError(f"must be one of {', '.join(MISSING_SECTIONS_CHOICES)}, got {an['missing_sections']!r}",
+                                path=path, key="analysis.missing_sections")
+        kw["missing_sections"] = ms
 
     # [combinations]
     co = _table(data, "combinations", path)
