@@ -231,7 +231,7 @@ def stiffness_basis(frame: Frame, status: str, settings: Settings) -> str:
         what = (f"spring support #{springs[0].handle}" if springs
                 else f"the settlement of support #{settle[0].handle}")
         raise AnalysisError(
-            f"the frame is statically indeterminate, no member has a section and {what} makes the forces depend "
+            f"the frame is statically indeterminate, its members have no section and {what} makes the forces depend "
             "on the real stiffness (equal relative stiffness cannot stand in for it)",
             handle=springs[0].handle if springs else settle[0].handle,
             layer=springs[0].layer if springs else "", hint=hint)
