@@ -66,8 +66,14 @@ def run_check(args) -> int:
         f"count        {det.count_check}",
         f"detail       {det.detail}",
     )
-    for w in list(model.warnings) + list(det.warnings):
+    warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
+    for w in warnings:
         _say(f"warning      {one_line(w)}")
+    if getattr(args, "strict", False) and warnings:
+        from .errors import Dxf2FrameError
+        from .pipeline import strict_message
+
+        raise Dxf2FrameError(strict_message(warnings))
     return EXIT_UNSTABLE if det.status == "unstable" else EXIT_OK
 
 
@@ -86,7 +92,7 @@ def run_solve(args) -> int:
     req = SolveRequest(
         out=args.out, report=args.report, units=args.units, probes=list(args.probe), show=args.show,
         png=not args.no_png, sheets=args.sheets, settings_path=args.settings,
-        length_unit=args.length_unit, single=single,
+        length_unit=args.length_unit, single=single, strict=args.strict,
     )
     return run_batch(files, req, workers=args.workers, scheduler=args.scheduler)
 

@@ -109,6 +109,12 @@ def combination_specs(settings: Settings, present: list[str]) -> list[tuple[str,
     return specs
 
 
+def strict_message(warnings: list[str]) -> str:
+    """The error of ``--strict`` for a drawing with warnings."""
+    return (f"--strict: {len(warnings)} warning(s) make this drawing bad input; the first: "
+            f"{one_line(warnings[0])}")
+
+
 def _member_where(model: DrawingModel, ids) -> tuple[str, str]:
     """(handle, layer) of the first member named in ``ids`` (for messages)."""
     for mid in ids:
@@ -266,6 +272,7 @@ class SolveRequest:
     settings_path: Path | None = None
     length_unit: str | None = None
     single: bool = True
+    strict: bool = False
 
 
 @dataclass
@@ -496,7 +503,9 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
         check_outputs(source, paths)
         analysis = analyse(source, settings, length_unit=req.length_unit)
         model, det = analysis.model, analysis.determinacy
-        outcome.warnings = list(model.warnings) + list(det.warnings)
+        outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
+        if req.strict and outcome.warnings:
+            raise Dxf2FrameError(strict_message(outcome.warnings))
         force_u, length_u = _report_units(req, model, settings)
         outcome.units = (force_u, length_u)
         outcome.determinacy, outcome.degree = det.status, det.degree

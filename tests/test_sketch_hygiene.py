@@ -164,3 +164,27 @@ def test_a_gap_wider_than_the_near_miss_distance_and_a_true_cantilever_are_not_w
     doc.saveas(tmp_path / "c" / "canopy.dxf")
     rc, out, _ = _run(capsys, "check", tmp_path / "c" / "canopy.dxf")
     assert rc == 0 and "near miss" not in out
+
+
+def test_batch_shows_every_files_warnings_and_strict_makes_them_bad_input(tmp_path, capsys):
+    a = tmp_path / "a"
+    a.mkdir()
+    gap, _, _ = _gap_frame(a, 2.0)
+    b = tmp_path / "b"
+    b.mkdir()
+    clean = _beam(b, SECTIONS, {"W": "5 kN/m", "CASE": "D"})
+    rc, out, err = _run(capsys, "solve", gap, clean, "--workers", "1", "--no-png", "--out", tmp_path / "o")
+    assert rc == 0
+    assert re.search(r"warning: gap\.dxf: near miss", err)           # a batch loses no warning
+    head = out.splitlines()[0].split()
+    assert head[-3:] == ["warnings", "time", "s"]
+    rows = {ln.split()[0]: ln.split() for ln in out.splitlines()[2:4]}
+    assert rows["gap.dxf"][-2] == "1" and rows["beam.dxf"][-2] == "0"   # the column before the time
+
+    rc, _, err = _run(capsys, "check", gap, "--strict")
+    assert rc == 2 and "--strict: 1 warning(s)" in err
+    rc, _, err = _run(capsys, "solve", gap, "--strict", "--no-png", "--out", tmp_path / "s")
+    assert rc == 2 and "--strict" in err and "near miss" in err
+    assert not (tmp_path / "s").exists() or not any((tmp_path / "s").iterdir())
+    rc, _, _ = _run(capsys, "solve", clean, "--strict", "--no-png", "--out", tmp_path / "s2")
+    assert rc == 0
