@@ -188,3 +188,15 @@ def test_batch_shows_every_files_warnings_and_strict_makes_them_bad_input(tmp_pa
     assert not (tmp_path / "s").exists() or not any((tmp_path / "s").iterdir())
     rc, _, _ = _run(capsys, "solve", clean, "--strict", "--no-png", "--out", tmp_path / "s2")
     assert rc == 0
+
+
+def test_mistyped_unit_is_bad_input_with_a_suggestion(tmp_path, capsys):
+    # the SI prefix giga is G and pascal is Pa (SI brochure, BIPM): '200 Gpa' means '200 GPa'
+    path = _beam(tmp_path, SECTIONS.replace('"200 GPa"', '"200 Gpa"'), {"W": "5 kN/m", "CASE": "D"})
+    rc, _, err = _run(capsys, "check", path)
+    assert rc == 2 and "did you mean '200 GPa'?" in err and "Traceback" not in err
+    assert "UndefinedUnitError" not in err and "registry" not in err
+    # the same in a load attribute, naming the entity
+    path = _beam(tmp_path, SECTIONS, {"W": "5 KN/m", "CASE": "D"})
+    rc, _, err = _run(capsys, "solve", path, "--no-png", "--out", tmp_path / "o")
+    assert rc == 2 and "did you mean '5 kN/m'?" in err and "LOADS" in err
