@@ -157,8 +157,10 @@ def build_parser() -> argparse.ArgumentParser:
         "template", formatter_class=fmt, epilog=EPILOG,
         help="write an empty drawing with the input layers and symbol blocks ready to use",
         description=textwrap.dedent("""\
-            Start a new framing sketch: the layers FRAME, SUPPORTS, CONNECTIONS, LOADS
-            and the support, connection and load blocks with their attributes.
+            Start a new framing sketch: the layers FRAME, FRAME-BRACES, SUPPORTS,
+            CONNECTIONS, LOADS and the support, connection (JOINT, HINGE, CROSSOVER)
+            and load blocks with their attributes. Crossing members are joined
+            unless both are on FRAME-BRACES or a CROSSOVER sits on the crossing.
 
             example:  dxf2frame template my-frame.dxf --length-unit m"""),
     )

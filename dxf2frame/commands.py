@@ -149,6 +149,7 @@ def run_template(args) -> int:
     define_blocks(doc)
     with atomic_path(args.path) as tmp:
         doc.saveas(tmp)
-    _say(f"wrote {args.path}: layers FRAME, SUPPORTS, CONNECTIONS, LOADS and the symbol blocks",
+    _say(f"wrote {args.path}: layers FRAME, FRAME-BRACES (crossings there stay separate), SUPPORTS, "
+         "CONNECTIONS, LOADS and the symbol blocks (CROSSOVER keeps two crossing members apart)",
          CAUTION)
     return 0

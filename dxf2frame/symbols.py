@@ -40,7 +40,7 @@ BLOCK_ATTRIBUTES: dict[str, dict[str, str]] = {
 }
 
 #: input layers and their colours (ACI) in a fresh template
-INPUT_LAYERS: dict[str, int] = {"FRAME": 7, "SUPPORTS": 3, "CONNECTIONS": 4, "LOADS": 1}
+INPUT_LAYERS: dict[str, int] = {"FRAME": 7, "FRAME-BRACES": 8, "SUPPORTS": 3, "CONNECTIONS": 4, "LOADS": 1}
 
 
 def _ground(blk, y: float, half: float = 0.6) -> None:
