@@ -37,6 +37,10 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     an office's own load case names mapped onto the standard case letters
     of ASCE/SEI 7 (``D L Lr S R W E``), e.g. ``LIVE = "L"``; names are
     matched case-insensitively.
+``[analysis]``
+    ``missing_sections``: ``"equal"`` (default: an indeterminate frame
+    without any section is solved with equal relative stiffness, with a
+    warning) or ``"refuse"`` (it is bad input).
 ``[combinations]``
     ``builtin`` (subset of ``["LRFD", "ASD"]``), ``extra`` (list of
     combination strings, parsed by the solver), ``draw`` (what the

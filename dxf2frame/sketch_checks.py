@@ -26,6 +26,7 @@ from typing import Iterable, Sequence
 
 import numpy as np
 import shapely
+from scipy.spatial import cKDTree
 
 from solver import Frame, Settlement
 
@@ -161,7 +162,8 @@ def near_misses(frame: Frame, tol: float, unit: tuple[str, float]) -> list[tuple
     L = np.hypot(*(xy[ei] - xy[si]).T)
     lines = shapely.linestrings(np.stack([xy[si], xy[ei]], axis=1))
     tree = shapely.STRtree(lines)
-    sup_nodes = [s.node for s in frame.supports]
+    sup_nodes = np.array([s.node for s in frame.supports], dtype=np.intp)
+    sup_tree = cKDTree(xy[sup_nodes]) if len(sup_nodes) else None
     seen: set[frozenset] = set()
     out = []
     free = np.flatnonzero((degree == 1) & ~supported)
@@ -177,9 +179,11 @@ def near_misses(frame: Frame, tol: float, unit: tuple[str, float]) -> list[tuple
             gap = float(shapely.distance(p, lines[k]))
             if gap <= near_miss_distance(tol, min(L[mi], L[k])) and (best is None or gap < best[0]):
                 best = (gap, members[k].handle, members[k].layer, "member")
-        for s_i, sn in enumerate(sup_nodes):
+        near_sup = sup_tree.query_ball_point(xy[nid], reach) if sup_tree is not None else []
+        for s_i in near_sup:
+            sn = int(sup_nodes[s_i])
             gap = float(np.hypot(*(xy[sn] - xy[nid])))
-            if sn != nid and gap <= reach and (best is None or gap < best[0]):
+            if sn != nid and (best is None or gap < best[0]):
                 s = frame.supports[s_i]
                 best = (gap, s.handle, s.layer, f"{s.kind} support")
         if best is None:
