@@ -172,32 +172,40 @@ def near_misses(frame: Frame, tol: float, unit: tuple[str, float]) -> list[tuple
         own = members[mi]
         p = shapely.points(xy[nid])
         reach = near_miss_distance(tol, L[mi])
-        best = None  # (gap, handle, layer, what)
+        best = None  # (gap, handle, layer, what, overshoot)
+        other_end = own.end if own.start == nid else own.start
         for k in tree.query(p, predicate="dwithin", distance=reach).tolist():
             if k == mi or members[k].handle == own.handle and members[k].group == own.group:
                 continue
             gap = float(shapely.distance(p, lines[k]))
-            if gap <= near_miss_distance(tol, min(L[mi], L[k])) and (best is None or gap < best[0]):
-                best = (gap, members[k].handle, members[k].layer, "member")
+            # a short piece beyond a joint is a line drawn past the member it meets
+            overshoot = other_end in (members[k].start, members[k].end)
+            limit = reach if overshoot else near_miss_distance(tol, min(L[mi], L[k]))
+            if gap <= limit and (best is None or gap < best[0]):
+                best = (gap, members[k].handle, members[k].layer, "member", overshoot)
         near_sup = sup_tree.query_ball_point(xy[nid], reach) if sup_tree is not None else []
         for s_i in near_sup:
             sn = int(sup_nodes[s_i])
             gap = float(np.hypot(*(xy[sn] - xy[nid])))
             if sn != nid and (best is None or gap < best[0]):
                 s = frame.supports[s_i]
-                best = (gap, s.handle, s.layer, f"{s.kind} support")
+                best = (gap, s.handle, s.layer, f"{s.kind} support", False)
         if best is None:
             continue
-        gap, h2, l2, what = best
+        gap, h2, l2, what, overshoot = best
         pair = frozenset((own.handle, h2))
         if pair in seen:
             continue
         seen.add(pair)
         x, y = xy[nid] / scale
-        out.append((float(x), float(y),
-                    f"near miss: the free end of member #{own.handle} on layer '{own.layer}' at ({x:.6g}, {y:.6g}) "
-                    f"{name} stops {gap / scale:.3g} {name} short of {what} #{h2} on layer '{l2}'; a joint was "
-                    "probably meant: join the lines, or move them clearly apart"))
+        where = f"the free end of member #{own.handle} on layer '{own.layer}' at ({x:.6g}, {y:.6g}) {name}"
+        if overshoot:
+            text = (f"near miss: {where} runs {gap / scale:.3g} {name} past member #{h2} on layer '{l2}', "
+                    "leaving a short free stub; trim the line to the joint (or draw the stub clearly longer)")
+        else:
+            text = (f"near miss: {where} stops {gap / scale:.3g} {name} short of {what} #{h2} on layer '{l2}'; "
+                    "a joint was probably meant: join the lines, or move them clearly apart")
+        out.append((float(x), float(y), text))
     return out
 
 

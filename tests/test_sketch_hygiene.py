@@ -200,3 +200,39 @@ def test_mistyped_unit_is_bad_input_with_a_suggestion(tmp_path, capsys):
     path = _beam(tmp_path, SECTIONS, {"W": "5 KN/m", "CASE": "D"})
     rc, _, err = _run(capsys, "solve", path, "--no-png", "--out", tmp_path / "o")
     assert rc == 2 and "did you mean '5 kN/m'?" in err and "LOADS" in err
+
+
+def test_a_line_drawn_just_past_its_column_is_a_near_miss(tmp_path, capsys):
+    """Overshoot: the beam runs 2 mm past the right column's top, leaving a
+    2 mm free stub (10 snap tolerances = 5 mm)."""
+    doc = new_drawing("mm")
+    msp = doc.modelspace()
+    add_member(msp, (0, 0), (0, 3000))
+    beam = add_member(msp, (0, 3000), (6002, 3000))
+    col = add_member(msp, (6000, 0), (6000, 3000))
+    add_support(msp, "fixed", (0, 0))
+    add_support(msp, "fixed", (6000, 0))
+    path = tmp_path / "over.dxf"
+    doc.saveas(path)
+    (tmp_path / "dxf2frame.toml").write_text(SECTIONS + '[geometry]\nsnap = "0.5 mm"\n')
+    rc, out, _ = _run(capsys, "check", path)
+    warn = [ln for ln in out.splitlines() if "near miss" in ln]
+    assert rc == 0 and len(warn) == 1, out
+    assert f"#{beam.dxf.handle}" in warn[0] and f"#{col.dxf.handle}" in warn[0] and "runs 2 mm past" in warn[0]
+
+
+def test_new_settings_keys_are_validated():
+    from dxf2frame.errors import SettingsError
+    from dxf2frame.settings import Settings
+
+    s = Settings.from_dict({"cases": {"live": "l", "Roof": "LR"}, "analysis": {"missing_sections": "Refuse"},
+                            "geometry": {"unjoined_layers": ["frame-x", "FRAME-X"]}, "blocks": {"crossover": "XO"}})
+    assert s.case_name("Live") == "L" and s.case_name("ROOF") == "Lr" and s.case_name("W") == "W"
+    assert s.missing_sections == "refuse" and s.unjoined_layers == ("FRAME-X",)
+    assert s.block_kind("xo") == "CROSSOVER" and s.block_kind("CROSSOVER") is None
+    for bad, key in (({"cases": {"LIVE": "Q"}}, "cases.LIVE"),
+                     ({"analysis": {"missing_sections": "guess"}}, "analysis.missing_sections"),
+                     ({"geometry": {"unjoined_layers": "FRAME-BRACES"}}, "geometry.unjoined_layers")):
+        with pytest.raises(SettingsError) as ei:
+            Settings.from_dict(bad)
+        assert key in str(ei.value)
