@@ -26,7 +26,8 @@ def run_check(args) -> int:
     from .settings import load_settings
 
     from .pipeline import combination_specs
-    from .sketch_checks import EQUAL_STIFFNESS_WARNING, combination_problems, section_lines, stiffness_basis
+    from .sketch_checks import (EQUAL_STIFFNESS_WARNING, absent_case_notes, combination_problems, section_lines,
+                                 stiffness_basis)
 
     settings = load_settings(args.settings, args.drawing)
     model = read_drawing(args.drawing, settings, length_unit=args.length_unit)
@@ -66,6 +67,8 @@ def run_check(args) -> int:
         f"count        {det.count_check}",
         f"detail       {det.detail}",
     )
+    for note in absent_case_notes(settings, present):
+        _say(f"note         {note}")
     warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
     for w in warnings:
         _say(f"warning      {one_line(w)}")

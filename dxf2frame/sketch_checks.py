@@ -38,6 +38,7 @@ __all__ = [
     "check_section_keys",
     "section_lines",
     "combination_problems",
+    "absent_case_notes",
     "near_misses",
     "near_miss_distance",
     "stiffness_basis",
@@ -120,6 +121,25 @@ def combination_problems(settings: Settings, present: Sequence[str], specs) -> l
                 "[combinations] extra" if c not in STANDARD_CASES else "add a combination with it under [combinations]")
         out.append(f"load case {c!r} enters no load combination: it is solved on its own but left out of every "
                    f"combination and envelope; {hint}")
+    return out
+
+
+def absent_case_notes(settings: Settings, present: Sequence[str]) -> list[str]:
+    """Notes (not warnings) for the settings' own combinations that name a
+    standard case the drawing has no loads in: normal (a frame without snow
+    loads), the term contributes nothing."""
+    from solver.combinations import parse_combination
+
+    out = []
+    for text in settings.combinations_extra:
+        try:
+            names = {settings.case_name(c) if c not in present else c for c in parse_combination(text)}
+        except ValueError:
+            continue
+        absent = sorted(c for c in names if c not in present and c in STANDARD_CASES)
+        if absent:
+            out.append(f"combination {text!r}: the drawing has no loads in case(s) {', '.join(absent)}; "
+                       "those terms contribute nothing")
     return out
 
 

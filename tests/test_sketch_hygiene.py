@@ -92,6 +92,8 @@ def test_unknown_case_in_a_formula_is_bad_input_but_an_absent_standard_case_is_n
     assert not (tmp_path / "o").exists()
     # S is a standard case letter the drawing simply has no loads in
     (tmp_path / "dxf2frame.toml").write_text(SECTIONS + '[combinations]\nextra = ["1.2D+1.6L+0.5S"]\n')
+    rc, out, _ = _run(capsys, "check", path, "--strict")
+    assert rc == 0 and re.search(r"note .*no loads in case\(s\) L, S", out)   # a note, not a warning
     rc, _, err = _run(capsys, "solve", path, "--out", tmp_path / "o2", "--no-png")
     assert rc == 0, err
 
