@@ -207,3 +207,28 @@ def test_crossing_lines_and_split_lines_give_identical_results(bays, storeys, lo
     assert mf.keys() == ms.keys()
     for k in mf:
         assert np.allclose(mf[k], ms[k], rtol=1e-7, atol=1e-7 * total)
+
+
+@hsettings(max_examples=5, deadline=None, suppress_health_check=[HealthCheck.too_slow,
+                                                                  HealthCheck.function_scoped_fixture])
+@given(
+    bays=st.lists(st.integers(3, 9), min_size=2, max_size=3),
+    storeys=st.lists(st.integers(3, 5), min_size=2, max_size=3),
+    w=st.floats(1.0, 40.0),
+)
+def test_drawings_with_crossing_or_split_lines_give_identical_results(tmp_path_factory, bays, storeys, w):
+    """Hypothesis, through the DXF reader: the same frame drawn both ways
+    gives the same reactions and end moments; statics checks the total."""
+    folder = tmp_path_factory.mktemp("grid")
+    xs = tuple(float(v) for v in np.concatenate([[0.0], np.cumsum(bays)]))
+    ys = tuple(float(v) for v in np.cumsum(storeys))
+    full = analyse(_frame_drawing(folder / "full.dxf", xs, ys, w, full=True), SECTIONS)
+    split = analyse(_frame_drawing(folder / "split.dxf", xs, ys, w, full=False), SECTIONS)
+    total = w * 1e3 * (xs[-1] - xs[0]) * len(ys)
+    assert math.isclose(sum(r.fy for r in full.cases[0].reactions), total, rel_tol=1e-9)   # statics
+    for ra, rb in zip(full.cases[0].reactions, split.cases[0].reactions):
+        assert np.allclose((ra.fx, ra.fy, ra.m), (rb.fx, rb.fy, rb.m), rtol=1e-8, atol=1e-8 * total)
+    mf, ms = _end_moments(full), _end_moments(split)
+    assert mf.keys() == ms.keys()
+    for k in mf:
+        assert np.allclose(mf[k], ms[k], rtol=1e-7, atol=1e-8 * total)
