@@ -131,14 +131,19 @@ def _with_source(o: FileOutcome) -> str:
     return msg if msg.startswith(str(o.source)) else f"{o.source}: {msg}"
 
 
+def _with_source_text(o: FileOutcome, text: str) -> str:
+    return f"{Path(o.source).name}: {one_line(text)}"
+
+
 def _fmt(v: float | None, digits: int = 4) -> str:
     return "-" if v is None else f"{v:.{digits}g}"
 
 
 def summary_table(outcomes: list[FileOutcome]) -> str:
     """Plain-text table: file, status, determinacy, governing |M|, |V|, |N|,
-    worst span/deflection, time."""
-    head = ["file", "status", "determinacy", "max |M|", "max |V|", "max |N|", "span/defl", "time s"]
+    worst span/deflection ("n/a" for a frame solved without sections), the
+    number of warnings, time."""
+    head = ["file", "status", "determinacy", "max |M|", "max |V|", "max |N|", "span/defl", "warnings", "time s"]
     rows = []
     for o in outcomes:
         u = o.units
@@ -148,7 +153,9 @@ def summary_table(outcomes: list[FileOutcome]) -> str:
             _fmt(o.max_m) + (f" {u[0]}*{u[1]}" if u and o.max_m is not None else ""),
             _fmt(o.max_v) + (f" {u[0]}" if u and o.max_v is not None else ""),
             _fmt(o.max_n) + (f" {u[0]}" if u and o.max_n is not None else ""),
-            "-" if o.worst_deflection_ratio is None else f"L/{o.worst_deflection_ratio:.0f}",
+            ("n/a" if o.status == "ok" else "-") if o.worst_deflection_ratio is None
+            else f"L/{o.worst_deflection_ratio:.0f}",
+            str(len(o.warnings)),
             f"{o.seconds:.2f}",
         ])
     widths = [max(len(r[i]) for r in [head] + rows) for i in range(len(head))]
@@ -180,9 +187,9 @@ def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = Non
         elif o.status == "unstable":
             print(f"dxf2frame: {o.source}: the frame is unstable (a mechanism); no results. {one_line(o.message)}",
                   file=err)
-        if single and o.status in ("ok", "unstable"):
-            for w in o.warnings:
-                print(f"dxf2frame: warning: {one_line(w)}", file=err)
+        # every file's warnings reach the console (in a batch prefixed with the file)
+        for w in o.warnings:
+            print(f"dxf2frame: warning: {one_line(w) if single else _with_source_text(o, w)}", file=err)
     if single:
         o = outcomes[0]
         if o.outputs:

@@ -43,6 +43,11 @@ def _common(p: argparse.ArgumentParser) -> None:
     p.add_argument("--debug", action="store_true", help="show a traceback for internal errors")
 
 
+def _strict(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--strict", action="store_true",
+                   help="treat every warning as bad input (exit 2, nothing written): for CI pipelines")
+
+
 def build_parser() -> argparse.ArgumentParser:
     fmt = argparse.RawDescriptionHelpFormatter
     parser = argparse.ArgumentParser(
@@ -69,6 +74,7 @@ def build_parser() -> argparse.ArgumentParser:
             example:  dxf2frame check drawings/packing-shed-rev-A.dxf"""),
     )
     p.add_argument("drawing", type=Path, help="DXF file to read")
+    _strict(p)
     _common(p)
 
     p = sub.add_parser(
@@ -105,6 +111,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="parallel processes for many drawings (default: number of cores)")
     p.add_argument("--scheduler", metavar="ADDRESS",
                    help="run the batch on a Dask distributed scheduler (needs the 'dask' extra)")
+    _strict(p)
     _common(p)
 
     p = sub.add_parser(
@@ -150,8 +157,10 @@ def build_parser() -> argparse.ArgumentParser:
         "template", formatter_class=fmt, epilog=EPILOG,
         help="write an empty drawing with the input layers and symbol blocks ready to use",
         description=textwrap.dedent("""\
-            Start a new framing sketch: the layers FRAME, SUPPORTS, CONNECTIONS, LOADS
-            and the support, connection and load blocks with their attributes.
+            Start a new framing sketch: the layers FRAME, FRAME-BRACES, SUPPORTS,
+            CONNECTIONS, LOADS and the support, connection (JOINT, HINGE, CROSSOVER)
+            and load blocks with their attributes. Crossing members are joined
+            unless both are on FRAME-BRACES or a CROSSOVER sits on the crossing.
 
             example:  dxf2frame template my-frame.dxf --length-unit m"""),
     )

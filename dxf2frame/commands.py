@@ -25,10 +25,25 @@ def run_check(args) -> int:
     from .reader import read_drawing
     from .settings import load_settings
 
+    from .pipeline import combination_specs
+    from .sketch_checks import (EQUAL_STIFFNESS_WARNING, absent_case_notes, combination_problems, section_lines,
+                                 stiffness_basis)
+
     settings = load_settings(args.settings, args.drawing)
     model = read_drawing(args.drawing, settings, length_unit=args.length_unit)
     frame = model.frame
     det = check(frame, unit_scale=model.unit_scale)
+    # the same checks as solve, so that the two commands agree
+    present = list(frame.cases())
+    model.warnings.extend(combination_problems(settings, present, combination_specs(settings, present)))
+    basis = stiffness_basis(frame, det.status, settings)
+    if basis == "equal":
+        model.warnings.append(EQUAL_STIFFNESS_WARNING)
+    stiffness = {
+        "sections": "given for every member",
+        "none": "not needed for the forces (deflections need sections)" if det.status != "unstable" else "-",
+        "equal": "none given: equal relative stiffness (equal EI, axial shortening neglected), no deflections",
+    }[basis]
     loads_per_case = Counter(ld.case for ld in frame.loads)
     kinds = Counter(s.kind for s in frame.supports)
     _say(
@@ -39,17 +54,29 @@ def run_check(args) -> int:
         f"({len({m.group for m in frame.members})} reported)",
         f"supports     {len(frame.supports)}" + (f" ({', '.join(f'{n} {k}' for k, n in sorted(kinds.items()))})" if kinds else ""),
         f"hinges       {model.hinges}",
+        f"crossings    {model.crossings_joined} joined"
+        + (f", {len(model.crossings_separate)} left separate" if model.crossings_separate else ""),
+        *(f"  separate   {t}" for t in model.crossings_separate),
         f"loads        {model.n_loads} blocks; per case: "
         + (", ".join(f"{c} {n}" for c, n in loads_per_case.items()) or "none"),
-        f"sections     {'given for every member' if frame.has_sections else 'missing for some members (deflections need them)'}",
+        f"sections     {stiffness}",
+        *(f"  layer      {t}" for t in section_lines(frame, settings)),
         "",
         f"determinacy  {det.status}" + (f", degree {det.degree}" if det.status == "indeterminate" else "")
         + (f", {det.mechanisms} mechanism(s)" if det.mechanisms else ""),
         f"count        {det.count_check}",
         f"detail       {det.detail}",
     )
-    for w in list(model.warnings) + list(det.warnings):
+    for note in absent_case_notes(settings, present):
+        _say(f"note         {note}")
+    warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
+    for w in warnings:
         _say(f"warning      {one_line(w)}")
+    if getattr(args, "strict", False) and warnings:
+        from .errors import Dxf2FrameError
+        from .pipeline import strict_message
+
+        raise Dxf2FrameError(strict_message(warnings))
     return EXIT_UNSTABLE if det.status == "unstable" else EXIT_OK
 
 
@@ -68,7 +95,7 @@ def run_solve(args) -> int:
     req = SolveRequest(
         out=args.out, report=args.report, units=args.units, probes=list(args.probe), show=args.show,
         png=not args.no_png, sheets=args.sheets, settings_path=args.settings,
-        length_unit=args.length_unit, single=single,
+        length_unit=args.length_unit, single=single, strict=args.strict,
     )
     return run_batch(files, req, workers=args.workers, scheduler=args.scheduler)
 
@@ -125,6 +152,7 @@ def run_template(args) -> int:
     define_blocks(doc)
     with atomic_path(args.path) as tmp:
         doc.saveas(tmp)
-    _say(f"wrote {args.path}: layers FRAME, SUPPORTS, CONNECTIONS, LOADS and the symbol blocks",
+    _say(f"wrote {args.path}: layers FRAME, FRAME-BRACES (crossings there stay separate), SUPPORTS, "
+         "CONNECTIONS, LOADS and the symbol blocks (CROSSOVER keeps two crossing members apart)",
          CAUTION)
     return 0

@@ -46,7 +46,7 @@ _ENTITY_DATA_ERRORS = (ValueError, TypeError, ArithmeticError, IndexError, KeyEr
 #: which symbol kinds belong on which input layer role
 SYMBOL_GROUPS: dict[str, tuple[str, ...]] = {
     "supports": ("PIN", "ROLLER", "FIXED", "SLIDER", "SPRING"),
-    "connections": ("JOINT", "HINGE"),
+    "connections": ("JOINT", "HINGE", "CROSSOVER"),
     "loads": ("FORCE", "COUPLE", "UDL"),
 }
 _ROLE_OF_KIND = {k: role for role, kinds in SYMBOL_GROUPS.items() for k in kinds}

@@ -26,7 +26,8 @@ from solver.errors import MissingSectionError, SolverError, UnstableFrameError
 from .drawing_model import DrawingModel
 from .errors import AnalysisError, Dxf2FrameError, InputFileError, SettingsError, one_line
 from .reader import read_drawing
-from .settings import Settings, load_settings
+from .settings import STANDARD_CASES, Settings, load_settings
+from .sketch_checks import EQUAL_STIFFNESS_WARNING, combination_problems, stiffness_basis, unknown_case_error
 
 __all__ = [
     "Analysis",
@@ -69,7 +70,13 @@ class Analysis:
 
 def combination_specs(settings: Settings, present: list[str]) -> list[tuple[str, dict[str, float], str]]:
     """(name, factors, family) of every combination the settings ask for,
-    built-in families first, then the settings' own list ("user")."""
+    built-in families first, then the settings' own list ("user").
+
+    A case name in the settings' list is mapped through ``[cases]``; one that
+    is neither a case of the drawing (``present``) nor a standard case
+    letter is a :class:`SettingsError` naming the formula; a standard case
+    the drawing has no loads in contributes nothing (as in the built-in
+    sets)."""
     specs: list[tuple[str, dict[str, float], str]] = []
     seen: set[str] = set()
     for family in settings.combinations_builtin:
@@ -83,6 +90,14 @@ def combination_specs(settings: Settings, present: list[str]) -> list[tuple[str,
             factors = parse_combination(text)
         except ValueError as exc:
             raise SettingsError(f"cannot read combination {text!r}: {exc}", key="combinations.extra") from exc
+        mapped: dict[str, float] = {}
+        for c, f in factors.items():
+            c = c if c in present else settings.case_name(c)
+            mapped[c] = mapped.get(c, 0.0) + f
+        factors = mapped
+        unknown = [c for c in factors if c not in present and c not in STANDARD_CASES]
+        if unknown:
+            raise unknown_case_error(text, unknown[0], present)
         missing = [c for c in factors if c not in present]
         if missing:
             # a combination naming a case the drawing does not have: the
@@ -94,6 +109,12 @@ def combination_specs(settings: Settings, present: list[str]) -> list[tuple[str,
     return specs
 
 
+def strict_message(warnings: list[str]) -> str:
+    """The error of ``--strict`` for a drawing with warnings."""
+    return (f"--strict: {len(warnings)} warning(s) make this drawing bad input; the first: "
+            f"{one_line(warnings[0])}")
+
+
 def _member_where(model: DrawingModel, ids) -> tuple[str, str]:
     """(handle, layer) of the first member named in ``ids`` (for messages)."""
     for mid in ids:
@@ -103,13 +124,31 @@ def _member_where(model: DrawingModel, ids) -> tuple[str, str]:
     return "", ""
 
 
-def _solve_checked(model: DrawingModel, det: Determinacy) -> dict[str, CaseResult]:
+def _solve_equal(frame) -> dict[str, CaseResult]:
+    """Solve a frame without sections with equal relative stiffness (see
+    :mod:`solver.relative`); the results carry no displacements."""
+    from solver.relative import equal_stiffness_section, without_deflections
+
+    saved = [m.section for m in frame.members]
+    section = equal_stiffness_section(frame)
+    try:
+        for m in frame.members:
+            m.section = section
+        cases = solve(frame)
+    finally:
+        for m, s in zip(frame.members, saved):
+            m.section = s
+    return {k: without_deflections(v) for k, v in cases.items()}
+
+
+def _solve_checked(model: DrawingModel, det: Determinacy, *, equal: bool = False) -> dict[str, CaseResult]:
     """``solver.solve`` with its errors turned into bad-input errors that name
     the drawing entity, and every number of the results checked finite (a
-    nearly singular model must not pass as an answer)."""
+    nearly singular model must not pass as an answer).  ``equal``: solve
+    with equal relative stiffness (no sections given)."""
     frame = model.frame
     try:
-        cases = solve(frame, determinate=det.status == "determinate")
+        cases = _solve_equal(frame) if equal else solve(frame, determinate=det.status == "determinate")
     except MissingSectionError as exc:
         handle, layer = _member_where(model, exc.members)
         names = ", ".join(exc.members[:6]) + (" ..." if len(exc.members) > 6 else "")
@@ -187,16 +226,23 @@ def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | 
     det = check(model.frame, unit_scale=model.unit_scale)
     t["check"] = time.perf_counter() - t0
     analysis = Analysis(model, settings, det, timings=t)
+    # settings and stiffness problems are bad input: said before solving
+    present = list(model.frame.cases())
+    specs = combination_specs(settings, present)
+    model.warnings.extend(combination_problems(settings, present, specs))
     if det.status == "unstable":
         return analysis
+    basis = stiffness_basis(model.frame, det.status, settings)
+    if basis == "equal":
+        model.warnings.append(EQUAL_STIFFNESS_WARNING)
 
     t0 = time.perf_counter()
-    cases = _solve_checked(model, det)
+    cases = _solve_checked(model, det, equal=basis == "equal")
     t["solve"] = time.perf_counter() - t0
 
     t0 = time.perf_counter()
     analysis.cases = list(cases.values())
-    for name, factors, family in combination_specs(settings, list(cases)):
+    for name, factors, family in specs:
         analysis.combinations.append(combine(cases, factors, name, family=family))
     t["combine"] = time.perf_counter() - t0
     return analysis
@@ -226,6 +272,7 @@ class SolveRequest:
     settings_path: Path | None = None
     length_unit: str | None = None
     single: bool = True
+    strict: bool = False
 
 
 @dataclass
@@ -456,7 +503,9 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
         check_outputs(source, paths)
         analysis = analyse(source, settings, length_unit=req.length_unit)
         model, det = analysis.model, analysis.determinacy
-        outcome.warnings = list(model.warnings) + list(det.warnings)
+        outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
+        if req.strict and outcome.warnings:
+            raise Dxf2FrameError(strict_message(outcome.warnings))
         force_u, length_u = _report_units(req, model, settings)
         outcome.units = (force_u, length_u)
         outcome.determinacy, outcome.degree = det.status, det.degree

@@ -24,7 +24,7 @@ On member layers (``FRAME`` and ``FRAME-*``, remappable):
 ``INSERT`` on any layer:
 
 * on ``SUPPORTS`` / ``CONNECTIONS`` / ``LOADS``: a convention symbol
-  (``PIN ROLLER FIXED SLIDER SPRING`` / ``JOINT HINGE`` /
+  (``PIN ROLLER FIXED SLIDER SPRING`` / ``JOINT HINGE CROSSOVER`` /
   ``FORCE COUPLE UDL``, names case-insensitive and remappable).  Any other
   block name there is an :class:`UnknownBlockError`; a symbol of another
   group (a FORCE on SUPPORTS) likewise.  MINSERT grids give one symbol per
@@ -118,6 +118,7 @@ from .entity_dispatch import _ENTITY_DATA_ERRORS, HANDLERS, SYMBOL_GROUPS
 from .errors import DrawingError, GeometryError, InputFileError
 from .reading_context import MAX_COORDINATE_M, _Ctx, _Source
 from .settings import Settings, load_settings
+from .sketch_checks import check_section_keys, default_case_warning, near_misses
 from .units import INSUNITS, length_unit_scale, normalise_length_unit, parse_quantity
 
 __all__ = ["read_drawing", "read_document", "open_document", "HANDLERS", "SYMBOL_GROUPS", "MAX_COORDINATE_M",
@@ -328,9 +329,16 @@ def read_document(
         tol=tol,
         section_for=settings.section_for,
         unit=(unit, scale),
+        unjoined_layers=settings.unjoined_layers,
     )
     ctx.warnings.extend(result.warnings)
     _check_precision(result.frame, unit, scale)
+    check_section_keys(result.frame, settings)
+    default_case = default_case_warning(ctx.default_case)
+    if default_case:
+        ctx.warnings.append(default_case)
+    misses = near_misses(result.frame, tol, (unit, scale))
+    ctx.warnings.extend(text for _, _, text in misses)
     x0, y0, x1, y1 = result.extents
     return DrawingModel(
         frame=result.frame,
@@ -342,6 +350,9 @@ def read_document(
         n_loads=ctx.n_loads,
         extents=(x0 / scale, y0 / scale, x1 / scale, y1 / scale),
         force_unit=force,
+        crossings_joined=result.crossings_joined,
+        crossings_separate=result.crossings_separate,
+        near_misses=misses,
     )
 
 

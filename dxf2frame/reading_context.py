@@ -65,6 +65,7 @@ class _Ctx:
     warnings: list[str] = field(default_factory=list)
     hinges: int = 0
     n_loads: int = 0
+    default_case: list[str] = field(default_factory=list)  # handles of loads without CASE
     _attdefs: dict[str, dict[str, str]] = field(default_factory=dict)
     _relevant: dict[str, tuple[bool, bool]] = field(default_factory=dict)
 

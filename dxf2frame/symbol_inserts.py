@@ -18,7 +18,9 @@ direction of the block's local +X after the insert's full transformation
 [rad, counter-clockwise from +X].  A FORCE acts along the transformed
 local -Y (its arrow) unless ``ANGLE`` (counter-clockwise from +X, the
 direction it acts) is given; a COUPLE is counter-clockwise positive; a
-load or settlement without ``CASE`` belongs to case D.
+load or settlement without ``CASE`` belongs to case D (loads that took
+that default are counted for one warning); a CASE named in the settings'
+``[cases]`` is mapped onto its standard letter.
 """
 from __future__ import annotations
 
@@ -60,8 +62,16 @@ def _placement(ctx: _Ctx, e, src: _Source) -> tuple[tuple[float, float], Vec3, V
     return (p.x * ctx.scale, p.y * ctx.scale), ux.normalize(), arrow.normalize()
 
 
-def _case(attrs: dict[str, str]) -> str:
-    return attrs.get("CASE", "D").strip() or "D"
+def _case(attrs: dict[str, str], ctx: _Ctx | None = None, src: _Source | None = None) -> str:
+    """Load case of a symbol: its CASE text (an office name mapped onto a
+    standard letter by the settings' ``[cases]``), else ``D``; a load (given
+    ``ctx`` and ``src``) that took the default is counted for a warning."""
+    text = attrs.get("CASE", "").strip()
+    if not text:
+        if ctx is not None and src is not None:
+            ctx.default_case.append(src.handle)
+        return "D"
+    return ctx.settings.case_name(text) if ctx is not None else text
 
 
 def _symbol_support(ctx: _Ctx, e, kind: str, src: _Source) -> None:
@@ -84,7 +94,7 @@ def _symbol_support(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     sr = q(attrs, "SETTLE_R", "angle", src, default_unit="rad")
     settle = None if sx is None and sy is None and sr is None else (sx or 0.0, sy or 0.0, sr or 0.0)
     ctx.supports.append(
-        SupportSpec(at, kind.lower(), angle, settle=settle, settle_case=_case(attrs),
+        SupportSpec(at, kind.lower(), angle, settle=settle, settle_case=_case(attrs, ctx),
                     handle=src.handle, layer=src.layer, **stiff)
     )
 
@@ -121,7 +131,7 @@ def _symbol_force(ctx: _Ctx, e, kind: str, src: _Source) -> None:
         dx, dy = math.cos(ang), math.sin(ang)
     else:
         dx, dy = arrow.x, arrow.y
-    ctx.loads.append(ForceSpec(at, P * dx, P * dy, _case(attrs), src.handle, src.layer))
+    ctx.loads.append(ForceSpec(at, P * dx, P * dy, _case(attrs, ctx, src), src.handle, src.layer))
 
 
 def _symbol_couple(ctx: _Ctx, e, kind: str, src: _Source) -> None:
@@ -131,7 +141,7 @@ def _symbol_couple(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     M = ctx.quantity(attrs, "M", "moment", src)
     if M is None:
         raise _missing("COUPLE", "M", src, ctx)
-    ctx.loads.append(CoupleSpec(at, M, _case(attrs), src.handle, src.layer))
+    ctx.loads.append(CoupleSpec(at, M, _case(attrs, ctx, src), src.handle, src.layer))
 
 
 def _choice(attrs: dict[str, str], tag: str, allowed: tuple[str, ...], default: str, src: _Source, ctx: _Ctx) -> str:
@@ -176,7 +186,7 @@ def _symbol_udl(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     direction = _choice(attrs, "DIR", ("GRAVITY", "X", "Y", "NORMAL"), "GRAVITY", src, ctx)
     basis = _choice(attrs, "BASIS", ("LENGTH", "PROJECTED"), "LENGTH", src, ctx)
     ctx.loads.append(
-        UdlSpec(at, w1, w2, start, end, direction, basis == "PROJECTED", _case(attrs), src.handle, src.layer)
+        UdlSpec(at, w1, w2, start, end, direction, basis == "PROJECTED", _case(attrs, ctx, src), src.handle, src.layer)
     )
 
 
@@ -188,6 +198,7 @@ _SYMBOL_HANDLERS: dict[str, Callable] = {
     "SPRING": _symbol_support,
     "JOINT": _symbol_connection,
     "HINGE": _symbol_connection,
+    "CROSSOVER": _symbol_connection,
     "FORCE": _symbol_force,
     "COUPLE": _symbol_couple,
     "UDL": _symbol_udl,

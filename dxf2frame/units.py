@@ -134,9 +134,41 @@ def _unit_si_factor(unit: str, kind: str) -> float:
         return float(q.to(si).magnitude)
     except pint.DimensionalityError:
         raise _ParseFailure(f"unit {unit!r} is not {what} (e.g. '{example}')") from None
+    except pint.UndefinedUnitError as exc:
+        raise _ParseFailure(_unknown_unit_text(unit, exc, kind)) from None
     except Exception as exc:  # pint raises many kinds for bad text
         raise _ParseFailure(f"unknown unit {unit!r} ({exc})") from None
 
+
+
+#: units a structural drawing uses, in their usual spelling (for "did you mean")
+_COMMON_UNITS: tuple[str, ...] = (
+    "N", "kN", "MN", "lbf", "kip", "tonf", "Pa", "kPa", "MPa", "GPa", "psi", "ksi", "psf", "ksf",
+    "m", "mm", "cm", "km", "inch", "in", "ft", "yd", "deg", "rad", "kgf",
+)
+
+
+def _unknown_unit_text(text: str, exc: Exception, kind: str) -> str:
+    """"unknown unit 'Gpa' in '200 Gpa'; did you mean '200 GPa'?" (without
+    the unit library's own wording).  The suggestion is the common unit
+    spelled the same but for letter case, else the closest by spelling,
+    offered only when the corrected text reads as the wanted kind."""
+    import difflib
+
+    names = getattr(exc, "unit_names", None) or exc.args[:1]
+    bad = names[0] if isinstance(names, (tuple, list)) and names else str(names)
+    bad = str(bad)
+    msg = f"unknown unit {bad!r} in {text.strip()!r}"
+    same_case = [u for u in _COMMON_UNITS if u.lower() == bad.lower()]
+    close = same_case or difflib.get_close_matches(bad, _COMMON_UNITS, n=3, cutoff=0.6)
+    for cand in close:
+        fixed = re.sub(rf"(?<![A-Za-z_]){re.escape(bad)}(?![A-Za-z_0-9])", cand, text.strip())
+        try:
+            _parse_cached(fixed if _HAS_DIGIT.search(fixed) else f"1 {fixed}", kind, "")
+        except Exception:  # noqa: BLE001 - only a suggestion
+            continue
+        return f"{msg}; did you mean {fixed!r}?"
+    return msg
 
 
 def _describe_dimension(q) -> str:
@@ -170,6 +202,8 @@ def _parse_cached(text: str, kind: str, default_unit: str) -> float:
         si, what, example = KINDS[kind]
         try:
             q = ureg.parse_expression(t)
+        except pint.UndefinedUnitError as exc:
+            raise _ParseFailure(_unknown_unit_text(t, exc, kind)) from None
         except Exception as exc:
             raise _ParseFailure(f"cannot read {t!r} as a quantity ({type(exc).__name__}: {exc})") from None
         if not isinstance(q, ureg.Quantity):

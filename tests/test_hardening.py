@@ -534,16 +534,20 @@ def test_broken_settings_file(tmp_path, capsys, text, names):
 # ---------------------------------------------------------------------------
 
 
-def test_indeterminate_frame_without_sections(tmp_path, capsys):
+def test_indeterminate_frame_without_sections_refused_when_the_settings_say_so(tmp_path, capsys):
+    """With [analysis] missing_sections = "refuse" an indeterminate frame
+    without sections is bad input for check and solve alike (by default it
+    is solved with equal relative stiffness: tests/test_equal_stiffness.py)."""
     doc = new_drawing("m")
     msp = doc.modelspace()
     line = add_member(msp, (0, 0), (SPAN, 0))
     add_support(msp, "fixed", (0, 0))
     add_support(msp, "roller", (SPAN, 0))
     add_load(msp, "udl", (3, 0), W="10 kN/m")
-    path = write_case(tmp_path / "in", doc, settings='[units]\nforce = "kN"\n[combinations]\nbuiltin = []\n')
+    path = write_case(tmp_path / "in", doc, settings='[units]\nforce = "kN"\n[combinations]\nbuiltin = []\n'
+                      '[analysis]\nmissing_sections = "refuse"\n')
     rc, out, err = run_cli(capsys, "check", path)
-    assert rc == 0 and "indeterminate" in out, err
+    assert_bad_input(rc, err, None, names=(f"#{line.dxf.handle}", "'FRAME'", "no section"))
     rc, _, err = run_cli(capsys, "solve", path, "--out", tmp_path / "out", "--no-png")
     assert_bad_input(rc, err, tmp_path / "out", names=(f"#{line.dxf.handle}", "'FRAME'", "no section"))
 
