@@ -12,8 +12,8 @@ from pathlib import Path
 from typing import Callable, Iterable
 
 from .errors import InputFileError, one_line
-from .pipeline import (EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_OK, EXIT_UNSTABLE, FileOutcome, SolveRequest,
-                       output_paths, solve_file)
+from .pipeline import (EXIT_BAD_INPUT, EXIT_CANNOT_WRITE, EXIT_INTERNAL, EXIT_OK, EXIT_UNSTABLE, FileOutcome,
+                       SolveRequest, output_paths, solve_file)
 
 __all__ = ["expand_inputs", "run_batch", "solve_many", "summary_table", "batch_exit_code"]
 
@@ -116,10 +116,11 @@ def solve_many(
 
 
 def batch_exit_code(outcomes: list[FileOutcome]) -> int:
-    """2 if any drawing was bad input, else 1 if any internal error, else 3
-    if any frame was unstable, else 0."""
+    """The worst status of the batch: 2 if any drawing was bad input, else 4
+    if any output could not be written, else 1 if any internal error (a
+    killed worker included), else 3 if any frame was unstable, else 0."""
     codes = {o.exit_code for o in outcomes}
-    for code in (EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_UNSTABLE):
+    for code in (EXIT_BAD_INPUT, EXIT_CANNOT_WRITE, EXIT_INTERNAL, EXIT_UNSTABLE):
         if code in codes:
             return code
     return EXIT_OK
@@ -173,7 +174,7 @@ def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = Non
     outcomes = solve_many(files, req, workers=workers, scheduler=scheduler, on_done=progress)
     for o in outcomes:
         where = _with_source(o)
-        if o.status == "bad input":
+        if o.status in ("bad input", "cannot write"):
             print(f"dxf2frame: error: {where}", file=err)
         elif o.status == "internal error":
             print(f"dxf2frame: internal error: {where} (please report it)", file=err)

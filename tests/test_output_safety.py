@@ -1,0 +1,208 @@
+"""Outputs are swapped in as one set, and the machine's faults are not ours.
+
+A run either replaces the whole previous set of outputs (drawing, report,
+CSV, PNG, sheets) or leaves it complete and byte for byte unchanged; a
+folder that cannot be written, a full disk or the file size limit is one
+line naming what, where and why, and exit status 4 (not "internal error").
+Interrupted runs (Ctrl-C, SIGTERM) and dead runs leave no staging folders.
+
+The tests run as root in CI, where file permissions stop nothing: a
+read-only folder is simulated by monkeypatching the calls that would meet
+it (a real-permission variant runs only as an ordinary user), the file size
+limit is real (``RLIMIT_FSIZE`` binds root too).
+"""
+from __future__ import annotations
+
+import errno
+import json
+import os
+import signal
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from dxf_builders import add_load, add_member, add_support, new_drawing
+from dxf2frame.cli import main
+
+ROOT = Path(__file__).resolve().parents[1]
+
+FAST_SETTINGS = """\
+[units]
+force = "kN"
+[sections.default]
+E = "200 GPa"
+A = "5000 mm**2"
+I = "8e7 mm**4"
+[combinations]
+builtin = []
+draw = "D"
+"""
+
+
+def beam(folder: Path, w: float = 10.0, name: str = "frame.dxf") -> Path:
+    """A simply supported 6 m beam under a uniform load ``w`` kN/m."""
+    doc = new_drawing("m")
+    msp = doc.modelspace()
+    add_member(msp, (0, 0), (6, 0))
+    add_support(msp, "pin", (0, 0))
+    add_support(msp, "roller", (6, 0))
+    add_load(msp, "udl", (2, 0), W=f"{w} kN/m", CASE="D")
+    folder.mkdir(parents=True, exist_ok=True)
+    path = folder / name
+    doc.saveas(path)
+    (folder / "dxf2frame.toml").write_text(FAST_SETTINGS, encoding="utf-8")
+    return path
+
+
+def run_cli(capsys, *args) -> tuple[int, str, str]:
+    capsys.readouterr()
+    rc = main([str(a) for a in args])
+    cap = capsys.readouterr()
+    return rc, cap.out, cap.err
+
+
+def snapshot(*folders: Path) -> dict[Path, bytes]:
+    """Every file below the folders (hidden ones included) and its bytes."""
+    return {p: p.read_bytes() for f in folders if f.exists() for p in sorted(f.rglob("*")) if p.is_file()}
+
+
+def hidden(*folders: Path) -> list[Path]:
+    return [p for f in folders if f.exists() for p in f.rglob(".*")]
+
+
+@pytest.fixture
+def solved_once(tmp_path, capsys):
+    """A first solve: drawing, CSV, PNG in ``out``, the report in ``rep``;
+    then the drawing is changed (twice the load) so a second solve would
+    write different files."""
+    path = beam(tmp_path / "in")
+    out, rep = tmp_path / "out", tmp_path / "rep"
+    rep.mkdir()
+    rc, _, err = run_cli(capsys, "solve", path, "--out", out, "--report", rep / "frame.json", "--units", "kN,m")
+    assert rc == 0, err
+    before = snapshot(out, rep)
+    assert {p.suffix for p in before} == {".dxf", ".json", ".csv", ".png"}
+    beam(tmp_path / "in", w=20.0)
+    return path, out, rep, before
+
+
+def test_a_failed_later_move_puts_the_previous_set_back(solved_once, capsys, monkeypatch):
+    import dxf2frame.staging as staging
+
+    path, out, rep, before = solved_once
+    real_move, calls = staging.move_into_place, []
+
+    def failing_second(staged, target):
+        calls.append(target)
+        if len(calls) == 2:  # the drawing is in place already; the report move fails
+            raise OSError(errno.EROFS, os.strerror(errno.EROFS), str(target))
+        real_move(staged, target)
+
+    monkeypatch.setattr(staging, "move_into_place", failing_second)
+    rc, stdout, err = run_cli(capsys, "solve", path, "--out", out, "--report", rep / "frame.json", "--units", "kN,m")
+    assert rc == 4, err
+    assert len(calls) == 2 and calls[1] == rep / "frame.json"
+    assert err.strip().splitlines() == [err.strip()] and "Traceback" not in err
+    assert "cannot write frame.json" in err and str(rep) in err and os.strerror(errno.EROFS) in err
+    assert snapshot(out, rep) == before  # the complete previous set, unchanged
+    assert hidden(out, rep) == []
+    assert "wrote" not in stdout
+
+
+def test_a_read_only_report_folder_stops_before_the_first_move(solved_once, capsys, monkeypatch):
+    """As root a chmod stops nothing: the read-only folder is simulated where
+    the commit meets it (making its hidden folder for the previous files)."""
+    import tempfile
+
+    import dxf2frame.staging as staging
+
+    path, out, rep, before = solved_once
+    real_mkdtemp, real_move, moves = tempfile.mkdtemp, staging.move_into_place, []
+
+    def mkdtemp(*a, dir=None, **kw):
+        if dir is not None and Path(dir) == rep:
+            raise OSError(errno.EROFS, os.strerror(errno.EROFS), str(dir))
+        return real_mkdtemp(*a, dir=dir, **kw)
+
+    monkeypatch.setattr(tempfile, "mkdtemp", mkdtemp)
+    monkeypatch.setattr(staging, "move_into_place", lambda s, t: (moves.append(t), real_move(s, t)))
+    rc, _, err = run_cli(capsys, "solve", path, "--out", out, "--report", rep / "frame.json", "--units", "kN,m")
+    assert rc == 4, err
+    assert moves == []  # checked before the first move
+    assert "cannot write frame.json" in err and str(rep) in err and "Read-only file system" in err
+    assert snapshot(out, rep) == before
+    assert hidden(out, rep) == []
+
+
+@pytest.mark.skipif(not hasattr(os, "geteuid") or os.geteuid() == 0,
+                    reason="file permissions do not stop root")
+def test_a_real_read_only_report_folder(solved_once, capsys):
+    path, out, rep, before = solved_once
+    rep.chmod(0o555)
+    try:
+        rc, _, err = run_cli(capsys, "solve", path, "--out", out, "--report", rep / "frame.json")
+    finally:
+        rep.chmod(0o755)
+    assert rc == 4, err
+    assert "cannot write" in err and str(rep) in err and "Permission denied" in err
+    assert snapshot(out, rep) == before
+    assert hidden(out, rep) == []
+
+
+def test_a_new_solve_replaces_the_whole_set(solved_once, capsys):
+    path, out, rep, before = solved_once
+    rc, _, err = run_cli(capsys, "solve", path, "--out", out, "--report", rep / "frame.json", "--units", "kN,m")
+    assert rc == 0, err
+    after = snapshot(out, rep)
+    assert set(after) == set(before)
+    assert all(after[p] != before[p] for p in after if p.suffix in (".json", ".csv", ".dxf"))
+    report = json.loads((rep / "frame.json").read_text(encoding="utf-8"))
+    m = max(r["m_max"] for r in report["results"][0]["members"])
+    # M max = wL^2/8 = 20 * 36 / 8 = 90 kN*m (AISC Manual, Table 3-23 case 1; from memory)
+    assert m == pytest.approx(90.0, rel=1e-6)
+    assert hidden(out, rep) == []
+
+
+def test_disk_full_while_staging_is_exit_4_and_keeps_the_previous_set(solved_once, capsys, monkeypatch):
+    import dxf2frame.writer as writer
+
+    path, out, rep, before = solved_once
+    real = writer.write_result_drawing
+
+    def full(source, target, *a, **kw):
+        real(source, target, *a, **kw)
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC), str(target))
+
+    monkeypatch.setattr(writer, "write_result_drawing", full)
+    rc, _, err = run_cli(capsys, "solve", path, "--out", out, "--report", rep / "frame.json")
+    assert rc == 4, err
+    assert "cannot write the results of frame.dxf" in err and str(out) in err and "No space left" in err
+    assert snapshot(out, rep) == before
+    assert hidden(out, rep) == []
+
+
+def _limit_file_size(limit: int):
+    def apply() -> None:
+        import resource
+
+        resource.setrlimit(resource.RLIMIT_FSIZE, (limit, limit))
+    return apply
+
+
+def test_file_size_limit_is_exit_4_not_a_killed_process(tmp_path):
+    """``ulimit -f``: the kernel sends SIGXFSZ (which would kill the process
+    without a word) and the write fails with EFBIG; the CLI ignores the
+    signal and says which file could not be written."""
+    path = beam(tmp_path / "in")
+    out = tmp_path / "out"
+    proc = subprocess.run(
+        [sys.executable, "-m", "dxf2frame", "solve", str(path), "--out", str(out), "--no-png"],
+        capture_output=True, text=True, cwd=ROOT, timeout=120, preexec_fn=_limit_file_size(20_000),
+        env={**os.environ, "PYTHONDONTWRITEBYTECODE": "1"},
+    )
+    assert proc.returncode == 4, (proc.returncode, proc.stderr)
+    assert "Traceback" not in proc.stderr and len(proc.stderr.strip().splitlines()) == 1, proc.stderr
+    assert "cannot write" in proc.stderr and "file size limit" in proc.stderr
+    assert snapshot(out) == {} and hidden(out) == []
