@@ -33,7 +33,7 @@ import shutil
 import socket
 import tempfile
 from pathlib import Path
-from typing import Iterator, Mapping
+from typing import Iterable, Iterator, Mapping
 
 from .errors import CannotWriteError, one_line
 
@@ -238,21 +238,32 @@ class OutputSet:
             self._aside[key] = _owned_folder(folder)
         return self._aside[key]
 
-    def commit(self, moves: Mapping[Path, Path]) -> list[Path]:
+    def commit(self, moves: Mapping[Path, Path], *, drop: Iterable[Path] = ()) -> list[Path]:
         """Move every ``staged -> target`` into place, all or none.
+
+        ``drop``: previous files that are no part of the new set (sheets of
+        an earlier run with more cuts); they go with the previous files on
+        success and come back with them on a failure.
 
         Raises :class:`CannotWriteError` when a target folder cannot be
         written (nothing moved) or a move fails (everything moved undone,
         the previous files back in place).  Returns the targets.
         """
         pairs = [(Path(s), Path(t)) for s, t in moves.items()]
-        for _, target in pairs:  # 1. every folder writable before the first move
+        drop = [Path(p) for p in drop if Path(p) not in {t for _, t in pairs}]
+        for target in [t for _, t in pairs] + drop:  # 1. every folder writable before the first move
             with writing(target.name, target.parent):
                 self.created += make_folders(target.parent)
                 self._aside_folder(target.parent)
         moved: list[Path] = []
         set_aside: list[tuple[Path, Path]] = []
         try:
+            for k, target in enumerate(drop):
+                with writing(target.name, target.parent):
+                    if target.exists() or target.is_symlink():
+                        old = self._aside_folder(target.parent) / f"dropped-{k}-{target.name}"
+                        os.replace(target, old)
+                        set_aside.append((old, target))
             for k, (staged, target) in enumerate(pairs):
                 with writing(target.name, target.parent):
                     if target.exists() or target.is_symlink():  # 2. keep the previous file

@@ -206,3 +206,71 @@ def test_file_size_limit_is_exit_4_not_a_killed_process(tmp_path):
     assert "Traceback" not in proc.stderr and len(proc.stderr.strip().splitlines()) == 1, proc.stderr
     assert "cannot write" in proc.stderr and "file size limit" in proc.stderr
     assert snapshot(out) == {} and hidden(out) == []
+
+
+# ---------------------------------------------------------------------------
+# explain and compare: the same staged, all-or-nothing output as solve
+# ---------------------------------------------------------------------------
+
+
+def test_explain_failing_midway_leaves_no_sheet(tmp_path, capsys, monkeypatch):
+    """The disk fills after the first sheet's figure is written: no
+    ``sheets/sheet-1.png`` may be left behind, and no ``sheets`` folder."""
+    import dxf2frame.handcheck as handcheck
+
+    path = beam(tmp_path / "in")
+
+    def full(target, text, **kw):
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC), str(target))
+
+    monkeypatch.setattr(handcheck, "write_text", full)
+    rc, _, err = run_cli(capsys, "explain", path, "--at", "3,0", "--result", "D")
+    assert rc == 4, err
+    assert "cannot write the hand-check sheets of frame.dxf" in err and "No space left" in err
+    assert not (tmp_path / "in" / "sheets").exists()
+
+
+def test_explain_failing_keeps_the_previous_sheets(tmp_path, capsys, monkeypatch):
+    import dxf2frame.staging as staging
+
+    path = beam(tmp_path / "in")
+    out = tmp_path / "sheets"
+    rc, _, err = run_cli(capsys, "explain", path, "--at", "1,0", "--at", "3,0", "--result", "D", "--out", out)
+    assert rc == 0, err
+    before = snapshot(out)
+    assert {p.name for p in before} >= {"sheet-1.md", "sheet-2.png", "sheets.pdf"}
+    real_move, calls = staging.move_into_place, []
+
+    def failing_third(staged, target):
+        calls.append(target)
+        if len(calls) == 3:
+            raise OSError(errno.EIO, os.strerror(errno.EIO), str(target))
+        real_move(staged, target)
+
+    monkeypatch.setattr(staging, "move_into_place", failing_third)
+    # one cut now: sheet-2 of the previous run would be dropped by a success
+    rc, _, err = run_cli(capsys, "explain", path, "--at", "4,0", "--result", "D", "--out", out)
+    assert rc == 4, err
+    assert snapshot(out) == before and hidden(out) == []
+    monkeypatch.setattr(staging, "move_into_place", real_move)
+    rc, _, err = run_cli(capsys, "explain", path, "--at", "4,0", "--result", "D", "--out", out)
+    assert rc == 0, err
+    assert sorted(p.name for p in out.iterdir()) == ["sheet-1.md", "sheet-1.png", "sheets.pdf"]
+
+
+def test_compare_failing_midway_leaves_no_folder_and_no_table(tmp_path, capsys, monkeypatch):
+    import dxf2frame.compare as compare
+
+    rev_a = beam(tmp_path / "in", name="rev-A.dxf")
+    rev_b = beam(tmp_path / "in", w=20.0, name="rev-B.dxf")
+    out = tmp_path / "compared"
+
+    def full(*a, **kw):
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+    monkeypatch.setattr(compare, "mark_changes", full)  # after the table files are staged
+    rc, stdout, err = run_cli(capsys, "compare", rev_a, rev_b, "--out", out)
+    assert rc == 4, err
+    assert "cannot write the comparison of rev-B.dxf" in err and str(out) in err
+    assert not out.exists()
+    assert stdout == ""  # no table without its files
