@@ -158,8 +158,10 @@ def summary_table(outcomes: list[FileOutcome]) -> str:
 
 
 def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = None,
-              scheduler: str | None = None, stream=None) -> int:
-    """Solve, print progress and messages, print the summary; return the exit status."""
+              scheduler: str | None = None, stream=None, debug: bool = False) -> int:
+    """Solve, print progress and messages, print the summary; return the exit status.
+
+    ``debug``: print the traceback of each internal error after its line."""
     stream = stream or sys.stdout
     err = sys.stderr
     single = len(files) == 1
@@ -178,6 +180,8 @@ def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = Non
             print(f"dxf2frame: error: {where}", file=err)
         elif o.status == "internal error":
             print(f"dxf2frame: internal error: {where} (please report it)", file=err)
+            if debug and o.traceback:
+                print(o.traceback.rstrip("\n"), file=err)
         elif o.status == "unstable":
             print(f"dxf2frame: {o.source}: the frame is unstable (a mechanism); no results. {one_line(o.message)}",
                   file=err)

@@ -70,7 +70,8 @@ def run_solve(args) -> int:
         png=not args.no_png, sheets=args.sheets, settings_path=args.settings,
         length_unit=args.length_unit, single=single,
     )
-    return run_batch(files, req, workers=args.workers, scheduler=args.scheduler)
+    return run_batch(files, req, workers=args.workers, scheduler=args.scheduler,
+                     debug=getattr(args, "debug", False))
 
 
 def _output_folder(out: Path | None, inputs: list[Path]) -> None:

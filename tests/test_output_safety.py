@@ -274,3 +274,27 @@ def test_compare_failing_midway_leaves_no_folder_and_no_table(tmp_path, capsys, 
     assert "cannot write the comparison of rev-B.dxf" in err and str(out) in err
     assert not out.exists()
     assert stdout == ""  # no table without its files
+
+
+# ---------------------------------------------------------------------------
+# --debug shows the traceback of an internal error
+# ---------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("debug", [False, True])
+def test_debug_prints_the_traceback_of_an_internal_error(tmp_path, capsys, monkeypatch, debug):
+    import dxf2frame.writer as writer
+
+    def broken_writer(*a, **kw):
+        raise RuntimeError("a fault of ours")
+
+    monkeypatch.setattr(writer, "write_result_drawing", broken_writer)
+    path = beam(tmp_path / "in")
+    rc, _, err = run_cli(capsys, "solve", path, "--out", tmp_path / "out", "--no-png",
+                         *(["--debug"] if debug else []))
+    assert rc == 1
+    assert "internal error" in err and "a fault of ours" in err
+    if debug:
+        assert "Traceback (most recent call last)" in err and "broken_writer" in err
+    else:
+        assert "Traceback" not in err and len(err.strip().splitlines()) == 1
