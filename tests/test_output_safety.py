@@ -298,3 +298,66 @@ def test_debug_prints_the_traceback_of_an_internal_error(tmp_path, capsys, monke
         assert "Traceback (most recent call last)" in err and "broken_writer" in err
     else:
         assert "Traceback" not in err and len(err.strip().splitlines()) == 1
+
+
+# ---------------------------------------------------------------------------
+# SIGTERM and SIGKILL: no staging folder survives
+# ---------------------------------------------------------------------------
+
+
+def test_sigterm_during_a_solve_cleans_up_and_exits_143(solved_once, capsys, monkeypatch):
+    import dxf2frame.writer as writer
+
+    path, out, rep, before = solved_once
+    real = writer.write_result_drawing
+
+    def terminated_midway(*a, **kw):
+        real(*a, **kw)  # a staged drawing exists...
+        os.kill(os.getpid(), signal.SIGTERM)  # ...when the service manager stops us
+        raise AssertionError("SIGTERM must unwind the run")  # pragma: no cover
+
+    monkeypatch.setattr(writer, "write_result_drawing", terminated_midway)
+    handler_before = signal.getsignal(signal.SIGTERM)
+    rc, stdout, err = run_cli(capsys, "solve", path, "--out", out, "--report", rep / "frame.json")
+    assert rc == 143, err
+    assert "terminated" in err and "Traceback" not in err
+    assert snapshot(out, rep) == before and hidden(out, rep) == []
+    assert signal.getsignal(signal.SIGTERM) == handler_before  # main restores the handler
+
+
+def _killed_run_in(folder: Path) -> int:
+    """A process that stages a half-written file in ``folder`` and is then
+    killed outright (SIGKILL: no cleanup can run); returns its pid."""
+    code = (
+        "import os, signal, sys\n"
+        "from dxf2frame.staging import OutputSet\n"
+        "s = OutputSet(sys.argv[1]).__enter__()\n"
+        "s.staged('frame-results.dxf').write_text('half a drawing')\n"
+        "os.kill(os.getpid(), signal.SIGKILL)\n"
+    )
+    proc = subprocess.Popen([sys.executable, "-c", code, str(folder)], cwd=ROOT)
+    assert proc.wait(timeout=60) == -signal.SIGKILL
+    return proc.pid
+
+
+def test_staging_folders_of_killed_runs_are_removed_by_the_next_run(tmp_path, capsys):
+    path = beam(tmp_path / "in")
+    out = tmp_path / "out"
+    out.mkdir()
+    dead = _killed_run_in(out)
+    [left] = hidden(out)
+    assert left.name.startswith(f".dxf2frame-{dead}-") and (left / "frame-results.dxf").exists()
+    # a run still going: its folder must survive the next run
+    live = subprocess.Popen([sys.executable, "-c", "import time; time.sleep(60)"])
+    try:
+        import socket
+
+        live_dir = out / f".dxf2frame-{live.pid}-busy"
+        live_dir.mkdir()
+        (live_dir / "owner").write_text(f"{live.pid} {socket.gethostname()}\n")
+        rc, _, err = run_cli(capsys, "solve", path, "--out", out, "--no-png")
+        assert rc == 0, err
+        assert hidden(out) == [live_dir] and (live_dir / "owner").exists()
+    finally:
+        live.kill()
+        live.wait()
