@@ -361,3 +361,71 @@ def test_staging_folders_of_killed_runs_are_removed_by_the_next_run(tmp_path, ca
     finally:
         live.kill()
         live.wait()
+
+
+# ---------------------------------------------------------------------------
+# batch faults: a killed worker, Ctrl-C
+# ---------------------------------------------------------------------------
+
+
+def _batch(folder: Path, names: list[str]) -> list[Path]:
+    return [beam(folder, w=10.0 + k, name=n) for k, n in enumerate(names)]
+
+
+def test_a_killed_worker_does_not_stop_the_batch(tmp_path, capsys, monkeypatch):
+    """The worker solving ``killer.dxf`` kills itself with SIGKILL while it
+    stages its outputs (as the out-of-memory killer would); the pool workers
+    are forked, so they see this monkeypatch."""
+    import dxf2frame.writer as writer
+
+    real = writer.write_result_drawing
+
+    def oom(source, target, *a, **kw):
+        real(source, target, *a, **kw)
+        if Path(source).name == "killer.dxf":
+            os.kill(os.getpid(), signal.SIGKILL)
+
+    monkeypatch.setattr(writer, "write_result_drawing", oom)
+    names = ["a.dxf", "b.dxf", "killer.dxf", "d.dxf", "e.dxf"]
+    files = _batch(tmp_path / "in", names)
+    out = tmp_path / "out"
+    rc, stdout, err = run_cli(capsys, "solve", *files, "--out", out, "--no-png", "--workers", "2")
+    assert rc == 1, err
+    rows = {line.split()[0]: line.split()[1] for line in stdout.splitlines() if line.endswith(tuple("0123456789"))
+            and line.split()[0] in names}
+    assert rows == {"a.dxf": "ok", "b.dxf": "ok", "killer.dxf": "worker", "d.dxf": "ok", "e.dxf": "ok"}, stdout
+    assert "killer.dxf" in err and "killed" in err and "Traceback" not in err
+    assert sorted(p.name for p in out.glob("*.json")) == [f"{n[:-4]}-results.json" for n in names if n != "killer.dxf"]
+    assert not list(out.glob("killer*")) and hidden(out) == []
+
+
+def test_ctrl_c_on_a_batch_cancels_at_once_and_reports_what_finished(tmp_path, capsys, monkeypatch):
+    """``stop.dxf``'s worker sends SIGINT to the batch (the parent) as a user
+    pressing Ctrl-C would; every other drawing but ``quick.dxf`` takes 60 s
+    in its staging folder.  The batch must stop within seconds, report the
+    drawings that finished, leave no staging folder and exit 130."""
+    import time
+
+    import dxf2frame.writer as writer
+
+    real = writer.write_result_drawing
+
+    def slow(source, target, *a, **kw):
+        real(source, target, *a, **kw)
+        name = Path(source).name
+        if name == "stop.dxf":
+            os.kill(os.getppid(), signal.SIGINT)
+        if name not in ("quick.dxf", "stop.dxf"):
+            time.sleep(60)
+
+    monkeypatch.setattr(writer, "write_result_drawing", slow)
+    names = ["quick.dxf", "slow-1.dxf", "stop.dxf", "slow-2.dxf", "slow-3.dxf", "slow-4.dxf"]
+    files = _batch(tmp_path / "in", names)
+    out = tmp_path / "out"
+    t0 = time.perf_counter()
+    rc, stdout, err = run_cli(capsys, "solve", *files, "--out", out, "--no-png", "--workers", "2")
+    assert time.perf_counter() - t0 < 30
+    assert rc == 130, err
+    assert "interrupted" in err and "Traceback" not in err
+    assert "quick.dxf" in stdout  # what finished is reported
+    assert not list(out.glob("slow-*")) and hidden(out) == []
