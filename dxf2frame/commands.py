@@ -109,6 +109,7 @@ def run_template(args) -> int:
 
     from .atomic import atomic_path
     from .errors import InputFileError
+    from .staging import writing
     from .symbols import define_blocks, define_layers
 
     units = {"in": 1, "inch": 1, "ft": 2, "feet": 2, "foot": 2, "mm": 4, "cm": 5, "m": 6}
@@ -124,7 +125,7 @@ def run_template(args) -> int:
     doc.header["$INSUNITS"] = code
     define_layers(doc)
     define_blocks(doc)
-    with atomic_path(args.path) as tmp:
+    with writing(args.path.name, folder), atomic_path(args.path) as tmp:
         doc.saveas(tmp)
     _say(f"wrote {args.path}: layers FRAME, SUPPORTS, CONNECTIONS, LOADS and the symbol blocks",
          CAUTION)

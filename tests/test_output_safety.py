@@ -429,3 +429,16 @@ def test_ctrl_c_on_a_batch_cancels_at_once_and_reports_what_finished(tmp_path, c
     assert "interrupted" in err and "Traceback" not in err
     assert "quick.dxf" in stdout  # what finished is reported
     assert not list(out.glob("slow-*")) and hidden(out) == []
+
+
+def test_template_into_a_full_disk_is_exit_4(tmp_path, capsys, monkeypatch):
+    import ezdxf.document
+
+    def full(self, filename, *a, **kw):
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC), str(filename))
+
+    monkeypatch.setattr(ezdxf.document.Drawing, "saveas", full)
+    rc, _, err = run_cli(capsys, "template", tmp_path / "new.dxf")
+    assert rc == 4, err
+    assert "cannot write new.dxf" in err and str(tmp_path) in err and "No space left" in err
+    assert list(tmp_path.iterdir()) == []
