@@ -178,13 +178,17 @@ def _stop_pool(pool: ProcessPoolExecutor) -> None:
     pool.shutdown(wait=True)
 
 
+def _sweep_outputs(source: Path, req: SolveRequest) -> None:
+    """Remove the staging folders of dead workers where ``source`` writes."""
+    for folder in {p.parent for p in output_paths(Path(source), req).values()}:
+        sweep_stale(folder)
+
+
 def _killed_outcome(source: Path, req: SolveRequest) -> FileOutcome:
     """The outcome of a drawing whose worker process was killed (SIGKILL, as
     the out-of-memory killer does) even when it was retried alone; the dead
     worker's staging folders are removed."""
-    paths = output_paths(Path(source), req)
-    for folder in {p.parent for p in paths.values()}:
-        sweep_stale(folder)
+    _sweep_outputs(source, req)
     return FileOutcome(
         str(source), "worker killed", EXIT_INTERNAL,
         "the process solving this drawing was killed from outside (perhaps by the system for lack of "
@@ -248,6 +252,8 @@ def _solve_in_pools(files: list[Path], req: SolveRequest, workers: int,
                     report(i, out)
         except BaseException:
             _stop_pool(pool)
+            for i in in_flight.values():  # a worker stuck in C code past the grace time was SIGKILLed
+                _sweep_outputs(files[i], req)
             for fut, i in in_flight.items():  # finished while the pool stopped: their outputs are in place
                 if fut.done() and not fut.cancelled() and fut.exception() is None:
                     with contextlib.suppress(Exception):
