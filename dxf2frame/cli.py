@@ -2,14 +2,20 @@
 
 Exit status: 0 done; 2 bad input (one line naming the entity handle and
 layer, no output written); 3 the frame is unstable (report and mechanism
-drawing written, no numbers); 1 an internal error (please report it).
+drawing written, no numbers); 4 an output could not be written (read-only
+folder, disk full, file size limit, no permission: one line naming what,
+where and why; the previous outputs are kept); 1 an internal error (please
+report it, with --debug output); 130 interrupted (Ctrl-C), 143 terminated
+(SIGTERM): no partial output.
 """
 from __future__ import annotations
 
 import argparse
+import contextlib
 import os
 import logging
 import math
+import signal
 import sys
 import textwrap
 from pathlib import Path
@@ -21,7 +27,9 @@ __all__ = ["main", "build_parser"]
 
 EPILOG = (
     "exit status: 0 done, 2 bad input (nothing written), 3 frame unstable "
-    "(report and mechanism drawing written), 1 internal error.\n\n" + CAUTION
+    "(report and mechanism drawing written), 4 an output could not be written "
+    "(read-only folder, disk full, file size limit; previous outputs kept), "
+    "1 internal error, 130 interrupted, 143 terminated.\n\n" + CAUTION
 )
 
 
@@ -202,9 +210,41 @@ def _quiet_library_logs(debug: bool) -> None:
         log.addHandler(logging.NullHandler())
 
 
+@contextlib.contextmanager
+def _signals_for_a_run():
+    """For the duration of a command: SIGTERM unwinds like Ctrl-C (staging
+    cleaned, exit 143), and SIGXFSZ (the file size limit, ``ulimit -f``) is
+    ignored so that the write fails with EFBIG and is reported instead of
+    the process dying without a word.  The previous handlers are restored
+    (``main`` may run inside another program, or a test)."""
+    from .staging import raise_terminated
+
+    wanted = {"SIGTERM": raise_terminated, "SIGXFSZ": signal.SIG_IGN}
+    saved = {}
+    for name, handler in wanted.items():
+        num = getattr(signal, name, None)
+        if num is None:
+            continue
+        try:
+            saved[num] = signal.signal(num, handler)
+        except (ValueError, OSError):  # not the main thread: leave signals alone
+            pass
+    try:
+        yield
+    finally:
+        for num, handler in saved.items():
+            with contextlib.suppress(ValueError, OSError, TypeError):
+                signal.signal(num, handler)
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; returns the exit status and never raises
     (except with ``--debug`` for an internal error)."""
+    with _signals_for_a_run():
+        return _main(argv)
+
+
+def _main(argv: list[str] | None) -> int:
     _robust_streams()
     parser = build_parser()
     try:
@@ -222,9 +262,11 @@ def main(argv: list[str] | None = None) -> int:
         return handler(args)
     except Dxf2FrameError as exc:
         return _fail(exc, getattr(args, "debug", False))
-    except KeyboardInterrupt:
-        print("dxf2frame: interrupted", file=sys.stderr)
-        return 130
+    except KeyboardInterrupt as exc:
+        code = getattr(exc, "exit_code", 130)  # staging.Terminated: SIGTERM, 143
+        print("dxf2frame: " + ("terminated" if code == 143 else "interrupted")
+              + "; no partial output", file=sys.stderr)
+        return code
     except BrokenPipeError:
         # the reader of our output went away (``dxf2frame check x.dxf | head``):
         # not an error of ours; silence the interpreter's own complaint at exit

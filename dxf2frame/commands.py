@@ -97,7 +97,8 @@ def run_solve(args) -> int:
         png=not args.no_png, sheets=args.sheets, settings_path=args.settings,
         length_unit=args.length_unit, single=single, strict=args.strict,
     )
-    return run_batch(files, req, workers=args.workers, scheduler=args.scheduler)
+    return run_batch(files, req, workers=args.workers, scheduler=args.scheduler,
+                     debug=getattr(args, "debug", False))
 
 
 def _output_folder(out: Path | None, inputs: list[Path]) -> None:
@@ -135,6 +136,7 @@ def run_template(args) -> int:
 
     from .atomic import atomic_path
     from .errors import InputFileError
+    from .staging import writing
     from .symbols import define_blocks, define_layers
 
     units = {"in": 1, "inch": 1, "ft": 2, "feet": 2, "foot": 2, "mm": 4, "cm": 5, "m": 6}
@@ -150,7 +152,7 @@ def run_template(args) -> int:
     doc.header["$INSUNITS"] = code
     define_layers(doc)
     define_blocks(doc)
-    with atomic_path(args.path) as tmp:
+    with writing(args.path.name, folder), atomic_path(args.path) as tmp:
         doc.saveas(tmp)
     _say(f"wrote {args.path}: layers FRAME, FRAME-BRACES (crossings there stay separate), SUPPORTS, "
          "CONNECTIONS, LOADS and the symbol blocks (CROSSOVER keeps two crossing members apart)",

@@ -78,6 +78,7 @@ from .revision_marks import cloud_points, mark_changes
 from .revision_match import MOVE_FRACTION, PARALLEL_DEG, match_members
 from .revision_output import CSV_COLUMNS, comparison_rows, comparison_table, unit_labels, write_comparison
 from .revision_reports import _check_report, _member_governing, _member_refs, _support_governing, convert_report
+from .staging import OutputSet, writing
 from .units import length_unit_scale, unit_factor
 
 __all__ = [
@@ -337,14 +338,21 @@ def run_compare_command(args, *, stream=None) -> int:
     threshold = args.threshold if getattr(args, "threshold", None) is not None else settings.compare_threshold
     cmp = compare_reports(reports, threshold=threshold, units=units)
 
-    print(comparison_table(cmp), file=stream, end="")
+    table = comparison_table(cmp)
     out = Path(args.out) if getattr(args, "out", None) else newest.parent / "compared"
-    written = write_comparison(cmp, out, stem=f"{newest.stem}-comparison")
-    if newest_dxf is not None:
-        written["drawing"] = mark_changes(newest_dxf, reports[-1], cmp, out / f"{newest_dxf.stem}-changes.dxf",
-                                          settings, drawing_unit=getattr(args, "length_unit", None)
-                                          if newest.suffix.lower() == ".dxf" else None)
-    else:
+    # staged and swapped in as one set (staging.OutputSet): a failure leaves
+    # the previous comparison complete, never an empty folder or half of it
+    what = f"the comparison of {newest.name}"
+    with OutputSet(out, what=what) as out_set, writing(what, out):
+        staged = write_comparison(cmp, out_set.staged("files"), stem=f"{newest.stem}-comparison")
+        if newest_dxf is not None:
+            staged["drawing"] = mark_changes(
+                newest_dxf, reports[-1], cmp, out_set.staged("files") / f"{newest_dxf.stem}-changes.dxf",
+                settings, drawing_unit=getattr(args, "length_unit", None)
+                if newest.suffix.lower() == ".dxf" else None)
+        written = dict(zip(staged, out_set.commit({p: out / p.name for p in staged.values()})))
+    print(table, file=stream, end="")
+    if newest_dxf is None:
         print(f"note: the drawing of {newest} was not found beside it; no marked drawing written", file=stream)
     for p in written.values():
         print(f"wrote {p}", file=stream)

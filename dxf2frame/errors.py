@@ -30,6 +30,7 @@ __all__ = [
     "SettingsError",
     "InputFileError",
     "AnalysisError",
+    "CannotWriteError",
 ]
 
 
@@ -102,3 +103,11 @@ class AnalysisError(DrawingError):
     """The model read from the drawing cannot be analysed as given: members
     without sections in an indeterminate frame, a load the solver cannot
     apply, a nearly singular stiffness, results that are not finite."""
+
+
+class CannotWriteError(Dxf2FrameError):
+    """An output cannot be written: a read-only or missing-permission folder,
+    a full disk, the file size limit.  The user's machine, not the drawing:
+    exit status 4 (``EXIT_CANNOT_WRITE``); the previous outputs are kept."""
+
+    exit_code = 4

@@ -373,6 +373,23 @@ def _sheet_units(text: str | None, default_force: str, default_length: str) -> t
     return parts[0], parts[1]
 
 
+def _write_sheets_staged(analysis: "Analysis", out: Path, **options) -> list[Path]:
+    """:func:`write_sheets` into a staging folder, then the whole set of
+    sheets swapped into ``out`` (:class:`~dxf2frame.staging.OutputSet`):
+    a failure (bad input found while writing, a full disk, Ctrl-C) leaves
+    the previous sheets complete and no new file.  Sheets of an earlier run
+    with more cuts are dropped with the swap.  Returns the paths in ``out``."""
+    from .staging import OutputSet, writing
+
+    what = f"the hand-check sheets of {Path(analysis.model.source).name}"
+    with OutputSet(out, what=what) as out_set, writing(what, out):
+        staged = write_sheets(analysis, out_set.staged("sheets"), **options)
+        count = sum(1 for p in staged if p.suffix == ".md")
+        leftovers = [p for p in out.iterdir()
+                     if (mt := _SHEET_FILE.match(p.name)) and int(mt.group(1)) > count]
+        return out_set.commit({p: out / p.name for p in staged}, drop=leftovers)
+
+
 def run_explain_command(args) -> int:
     """The ``explain`` subcommand: sheets for points of one drawing.
 
@@ -395,8 +412,9 @@ def run_explain_command(args) -> int:
     force_u, length_u = _sheet_units(getattr(args, "units", None), settings.force_unit,
                                      analysis.model.length_unit)
     out = Path(args.out) if getattr(args, "out", None) else drawing.parent / "sheets"
-    written = write_sheets(analysis, out, points=list(getattr(args, "at", None) or []),
-                           result_name=getattr(args, "result", None), force_unit=force_u, length_unit=length_u)
+    written = _write_sheets_staged(analysis, out, points=list(getattr(args, "at", None) or []),
+                                   result_name=getattr(args, "result", None), force_unit=force_u,
+                                   length_unit=length_u)
     n = sum(1 for p in written if p.suffix == ".md")
     print(f"wrote {n} hand-check sheet(s) to {out} (Markdown + PNG per cut, all in {written[-1].name})")
     print(CAUTION)

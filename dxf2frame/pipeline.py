@@ -6,14 +6,11 @@ whose status says what happened, so one bad drawing cannot stop a batch.
 """
 from __future__ import annotations
 
-import contextlib
-import errno
 import gc
 import math
 import os
-import shutil
-import tempfile
 import time
+import traceback
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -24,10 +21,11 @@ from solver.combinations import builtin_combinations, format_combination, parse_
 from solver.errors import MissingSectionError, SolverError, UnstableFrameError
 
 from .drawing_model import DrawingModel
-from .errors import AnalysisError, Dxf2FrameError, InputFileError, SettingsError, one_line
+from .errors import AnalysisError, CannotWriteError, Dxf2FrameError, InputFileError, SettingsError, one_line
 from .reader import read_drawing
 from .settings import STANDARD_CASES, Settings, load_settings
 from .sketch_checks import EQUAL_STIFFNESS_WARNING, combination_problems, stiffness_basis, unknown_case_error
+from .staging import OutputSet, writing
 
 __all__ = [
     "Analysis",
@@ -42,9 +40,14 @@ __all__ = [
     "EXIT_BAD_INPUT",
     "EXIT_UNSTABLE",
     "EXIT_INTERNAL",
+    "EXIT_CANNOT_WRITE",
 ]
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT, EXIT_UNSTABLE = 0, 1, 2, 3
+#: an output could not be written (read-only folder, disk full, file size
+#: limit, no permission): the user's machine, not the drawing; the previous
+#: outputs are kept
+EXIT_CANNOT_WRITE = CannotWriteError.exit_code  # 4
 
 
 @dataclass
@@ -280,7 +283,7 @@ class FileOutcome:
     """What happened to one drawing (picklable, for process pools)."""
 
     source: str
-    status: str  # "ok" | "unstable" | "bad input" | "internal error"
+    status: str  # "ok" | "unstable" | "bad input" | "cannot write" | "internal error" | "worker killed"
     exit_code: int
     message: str = ""
     determinacy: str = ""
@@ -294,6 +297,7 @@ class FileOutcome:
     outputs: list[str] = field(default_factory=list)
     timings: dict[str, float] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
+    traceback: str = ""  # of an internal error, for --debug
 
 
 def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
@@ -393,47 +397,6 @@ def check_outputs(source: Path, paths: dict[str, Path]) -> None:
                 break
 
 
-def _make_folders(folder: Path) -> list[Path]:
-    """``mkdir -p``; returns the folders it created, outermost first."""
-    missing = []
-    for parent in (folder, *folder.parents):
-        if parent.exists():
-            break
-        missing.append(parent)
-    folder.mkdir(parents=True, exist_ok=True)
-    return missing[::-1]
-
-
-def _remove(path: Path) -> None:
-    if path.is_dir() and not path.is_symlink():
-        shutil.rmtree(path, ignore_errors=True)
-    else:
-        with contextlib.suppress(OSError):
-            path.unlink()
-
-
-def _move_into_place(staged: Path, target: Path) -> None:
-    """Rename ``staged`` to ``target`` (atomic on one file system; across file
-    systems a hidden copy beside the target is renamed)."""
-    if staged.is_dir() and target.exists():
-        shutil.rmtree(target)
-    try:
-        os.replace(staged, target)
-    except OSError as exc:
-        if exc.errno != errno.EXDEV:
-            raise
-        tmp = target.with_name(f".{target.name}.{os.getpid()}.tmp")
-        try:
-            if staged.is_dir():
-                shutil.copytree(staged, tmp)
-            else:
-                shutil.copy2(staged, tmp)
-            os.replace(tmp, target)
-        except BaseException:
-            _remove(tmp)
-            raise
-
-
 #: above this many members the preview shows the moment panel only
 PREVIEW_PANEL_LIMIT = 2000
 
@@ -468,10 +431,14 @@ def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     """Run the whole ``solve`` command on one drawing; never raises for bad input.
 
     Outputs are written into a hidden staging folder beside the result
-    drawing and moved into place only when all of them are complete; on any
-    failure the staging folder, outputs already moved and folders created
-    for them are removed, so bad input leaves nothing behind.  The input
-    drawing is only read.
+    drawing and swapped in as one set only when all of them are complete
+    (:class:`~dxf2frame.staging.OutputSet`): every target folder is checked
+    writable before the first move, the previous outputs are kept aside
+    until every move succeeded and put back on a failure.  So a run either
+    replaces the whole previous set or leaves it complete and unchanged, and
+    bad input leaves nothing behind.  An output that cannot be written (a
+    read-only folder, a full disk, the file size limit) is status "cannot
+    write", :data:`EXIT_CANNOT_WRITE`.  The input drawing is only read.
 
     The cyclic garbage collector is paused for the run: an ezdxf document is
     millions of small objects that every full collection walks again, while
@@ -494,8 +461,6 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     source = Path(source)
     t_start = time.perf_counter()
     outcome = FileOutcome(source=str(source), status="ok", exit_code=EXIT_OK)
-    created: list[Path] = []
-    moved: list[Path] = []
     done = False
     try:
         settings = load_settings(req.settings_path, source)
@@ -514,12 +479,12 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             # a probe off every member is bad input: say so before anything is written
             report_mod.locate_points(model, req.probes)
         final = paths["drawing"].parent
-        created += _make_folders(final)
-        # everything is written into a staging folder first and moved into
-        # place at the end, so a failure leaves no partial output
-        staging = Path(tempfile.mkdtemp(prefix=".dxf2frame-", dir=final))
-        try:
-            staged = {k: staging / p.name for k, p in paths.items()}
+        what = f"the results of {source.name}"
+        # everything is written into a staging folder first and the whole set
+        # is swapped in at the end (staging.OutputSet): a failure leaves the
+        # previous set of outputs complete and unchanged, or nothing
+        with OutputSet(final, what=what) as out_set, writing(what, final):
+            staged = {k: out_set.staged(p.name) for k, p in paths.items()}
             t0 = time.perf_counter()
             show = req.show or settings.combinations_draw
             if analysis.stable:
@@ -551,42 +516,35 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             if req.sheets and analysis.stable:
                 from . import handcheck
 
-                sheet_dir = staging / f"{paths['drawing'].stem}-sheets"
+                sheet_dir = out_set.staged(f"{paths['drawing'].stem}-sheets")
                 handcheck.write_sheets(analysis, sheet_dir, points=req.probes,
                                        force_unit=force_u, length_unit=length_u)
                 written.append("sheets")
                 paths["sheets"] = final / sheet_dir.name
                 staged["sheets"] = sheet_dir
-            for key in written:
-                target = paths[key]
-                created += _make_folders(target.parent)
-                _move_into_place(staged[key], target)
-                moved.append(target)
-            outcome.outputs = [str(t) for t in moved]
-        finally:
-            shutil.rmtree(staging, ignore_errors=True)
+            governing = _governing(rep) if analysis.stable else {}
+            committed = out_set.commit({staged[k]: paths[k] for k in written})
+        outcome.outputs = [str(t) for t in committed]
 
         outcome.timings = analysis.timings
         if not analysis.stable:
             outcome.status, outcome.exit_code = "unstable", EXIT_UNSTABLE
             outcome.message = one_line(det.detail)
         else:
-            for k, v in _governing(rep).items():
+            for k, v in governing.items():
                 setattr(outcome, k, v)
             outcome.message = f"{det.status}" + (f", degree {det.degree}" if det.degree else "")
         done = True
+    except CannotWriteError as exc:
+        outcome.status, outcome.exit_code, outcome.message = "cannot write", EXIT_CANNOT_WRITE, one_line(str(exc))
     except Dxf2FrameError as exc:
         outcome.status, outcome.exit_code, outcome.message = "bad input", EXIT_BAD_INPUT, one_line(str(exc))
     except Exception as exc:  # noqa: BLE001 - a batch must survive anything
         outcome.status, outcome.exit_code = "internal error", EXIT_INTERNAL
         outcome.message = one_line(f"{type(exc).__name__}: {exc}")
+        outcome.traceback = traceback.format_exc()
     finally:
-        if not done:  # also on KeyboardInterrupt: a finished set of outputs or none
-            for target in reversed(moved):
-                _remove(target)
-            for folder in reversed(created):
-                with contextlib.suppress(OSError):
-                    folder.rmdir()  # only if empty
+        if not done:  # also on KeyboardInterrupt: the staging is gone, the previous outputs kept
             outcome.outputs = []
     outcome.seconds = time.perf_counter() - t_start
     return outcome
