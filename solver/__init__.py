@@ -11,6 +11,9 @@ from .results import CaseResult, Reaction, combine, combine_many, envelope, reac
 from .combinations import builtin_combinations, format_combination, parse_combination
 from .stiffness import solve
 from .determinacy import check, Determinacy
+from .second_order import (ALPHA_CR_LIMIT, BucklingError, BucklingResult, ConvergenceError, SecondOrderResult,
+                           SwayAmplification, critical_load_factor, second_order, storey_levels,
+                           sway_amplification)
 
 __all__ = list(_model_all) + [
     "solve",
@@ -35,4 +38,14 @@ __all__ = list(_model_all) + [
     "SupportError",
     "check",
     "Determinacy",
+    "critical_load_factor",
+    "second_order",
+    "sway_amplification",
+    "storey_levels",
+    "BucklingResult",
+    "SecondOrderResult",
+    "SwayAmplification",
+    "BucklingError",
+    "ConvergenceError",
+    "ALPHA_CR_LIMIT",
 ]
