@@ -14,6 +14,8 @@ from .determinacy import check, Determinacy
 from .second_order import (ALPHA_CR_LIMIT, BucklingError, BucklingResult, ConvergenceError, SecondOrderResult,
                            SwayAmplification, critical_load_factor, second_order, storey_levels,
                            sway_amplification)
+from .moving import (InfluenceLine, LoadPath, MemberEnvelope, MovingLoads, UnitLoadSolutions, Vehicle,
+                     locate_point, path_along_members, path_through_points)
 
 __all__ = list(_model_all) + [
     "solve",
@@ -48,4 +50,13 @@ __all__ = list(_model_all) + [
     "BucklingError",
     "ConvergenceError",
     "ALPHA_CR_LIMIT",
+    "MovingLoads",
+    "Vehicle",
+    "LoadPath",
+    "InfluenceLine",
+    "MemberEnvelope",
+    "UnitLoadSolutions",
+    "path_along_members",
+    "path_through_points",
+    "locate_point",
 ]
