@@ -32,7 +32,7 @@ import scipy.sparse as sp
 from .element import condense
 from .errors import LoadError, SolverError
 from .model import Frame
-from .stiffness import FrameModel, displacements, factorise, member_end_forces, prepare, support_reactions
+from .stiffness import FrameModel, displacements, factorise, prepare, support_reactions
 
 __all__ = [
     "LoadPath",
@@ -233,8 +233,10 @@ class UnitLoadSolutions:
     """A unit point load at each of ``s`` (path coordinates), solved.
 
     ``member``, ``a`` (ns,): where each station lies; ``p`` (ns, 2) the
-    unit load's local (axial, transverse) components; ``end_forces`` (m, 6,
-    ns) every member's end forces (local, by the nodes on the member);
+    unit load's local (axial, transverse) components; ``start_forces`` (m,
+    3, ns) every member's start-end forces ``Ni, Vi, Mi`` (local, by the
+    start node on the member: with the member's own loads they fix N, V, M
+    everywhere along it);
     ``reactions`` (n_supports, 3, ns) global fx, fy, m of each support.
     """
 
@@ -242,7 +244,7 @@ class UnitLoadSolutions:
     member: np.ndarray
     a: np.ndarray
     p: np.ndarray
-    end_forces: np.ndarray
+    start_forces: np.ndarray
     reactions: np.ndarray
 
     def member_values(self, which: str, rows: np.ndarray, x: np.ndarray, side: str = "right") -> np.ndarray:
@@ -252,7 +254,7 @@ class UnitLoadSolutions:
         itself: included for ``side="right"``)."""
         rows = np.asarray(rows, dtype=np.intp)
         x = np.asarray(x, dtype=float)
-        fe = self.end_forces[rows]  # (k, 6, ns)
+        fe = self.start_forces[rows]  # (k, 3, ns)
         same = rows[:, None] == self.member[None, :]
         before = (self.a[None, :] <= x[:, None]) if side == "right" else (self.a[None, :] < x[:, None])
         hit = same & before
@@ -381,8 +383,9 @@ class MovingLoads:
         if np.any(F[~model.act] != 0.0):
             raise SolverError("a path station puts a couple on a joint where every member end is pinned")
         U = displacements(model, self._fact, _Rhs(F))
-        _, fe = member_end_forces(model, U, np.zeros((1, len(model.ids), 6)))
-        fe[j, :, np.arange(ns)] += f0
+        # start-end forces only, k[:3] T u + f0 (one batched product)
+        fe = np.matmul(np.matmul(model.k_loc[:, :3, :], model.T), U[model.dof])
+        fe[j, :, np.arange(ns)] += f0[:, :3]
         Rs = support_reactions(model, U, F)
         nodes = np.array([sp_.node for sp_ in self.frame.supports], dtype=np.intp)
         cn, sn_ = model.sup.cos[nodes][:, None], model.sup.sin[nodes][:, None]
@@ -439,7 +442,7 @@ class MovingLoads:
         return fronts, dirs, pos
 
     def envelope(self, vehicle: Vehicle, *, step: float, points_per_member: int = 11,
-                 directions: Sequence[int] = (1, -1), chunk: int = 4096) -> dict[str, MemberEnvelope]:
+                 directions: Sequence[int] = (1, -1), chunk: int = 1024) -> dict[str, MemberEnvelope]:
         """Envelope of N, V, M along every member as ``vehicle`` crosses the
         path (front axle moved by ``step``, in each of ``directions``).
 
@@ -450,6 +453,35 @@ class MovingLoads:
         axle position, and combined by a sparse product.
         """
         fronts, dirs, pos = self._placements(vehicle, float(step), [int(d) for d in directions])
+        sol, A = self._placement_matrix(vehicle, pos)
+        rows, xs = self._samples(sol, points_per_member)
+        # start-end forces Ni, Vi, Mi of every member for every placement:
+        # superposition, (m, n_placements) each
+        Ni, Vi, Mi = (np.asarray((A.T @ sol.start_forces[:, c, :].T).T) for c in range(3))
+        vals: dict[str, np.ndarray] = {}
+        at: dict[str, np.ndarray] = {}
+        for q in ("N", "V", "M"):
+            best = _Extremes(len(rows))
+            for side in (("right", "left") if q != "M" else ("right",)):
+                HA = (self._load_term(sol, rows, xs, q, side) @ A).tocsr()
+                for lo in range(0, len(rows), chunk):
+                    sl = slice(lo, lo + chunk)
+                    r = rows[sl]
+                    if q == "N":
+                        E = -Ni[r]
+                    elif q == "V":
+                        E = Vi[r]
+                    else:
+                        E = xs[sl, None] * Vi[r] - Mi[r]
+                    best.update(sl, E + HA[sl].toarray())
+            vals[f"{q}_max"], at[f"{q}_max"] = best.vmax, best.amax
+            vals[f"{q}_min"], at[f"{q}_min"] = best.vmin, best.amin
+        return self._by_member(rows, xs, vals, at, fronts, dirs)
+
+    def _placement_matrix(self, vehicle: Vehicle, pos: np.ndarray):
+        """Unit-load solutions at every distinct axle position on the path,
+        and the sparse (n_positions, n_placements) matrix of axle loads
+        that superposes them into each placement."""
         Lp = self.path.length
         tol = 1e-9 * max(Lp, 1.0)
         on = (pos >= -tol) & (pos <= Lp + tol)
@@ -460,31 +492,30 @@ class MovingLoads:
         sol = self.unit_solutions(s_u)
         place = np.nonzero(on)
         loads = np.broadcast_to(np.asarray(vehicle.loads, dtype=float), pos.shape)[on]
-        A = sp.csr_matrix((loads, (inv.ravel(), place[0])), shape=(len(s_u), len(fronts)))
-        rows, xs = self._samples(sol, points_per_member)
-        out_vals: dict[str, np.ndarray] = {}
-        out_at: dict[str, np.ndarray] = {}
-        for q in ("N", "V", "M"):
-            sides = ("right", "left") if q != "M" else ("right",)
-            vmax = np.full(len(rows), -np.inf)
-            vmin = np.full(len(rows), np.inf)
-            amax = np.zeros(len(rows), np.intp)
-            amin = np.zeros(len(rows), np.intp)
-            for lo in range(0, len(rows), chunk):
-                sl = slice(lo, lo + chunk)
-                for side in sides:
-                    G = sol.member_values(q, rows[sl], xs[sl], side)
-                    E = np.asarray((A.T @ G.T).T)  # (k, n_place)
-                    i1, i2 = np.argmax(E, axis=1), np.argmin(E, axis=1)
-                    e1, e2 = E[np.arange(len(i1)), i1], E[np.arange(len(i2)), i2]
-                    b1, b2 = e1 > vmax[sl], e2 < vmin[sl]
-                    vmax[sl] = np.where(b1, e1, vmax[sl])
-                    amax[sl] = np.where(b1, i1, amax[sl])
-                    vmin[sl] = np.where(b2, e2, vmin[sl])
-                    amin[sl] = np.where(b2, i2, amin[sl])
-            out_vals[f"{q}_max"], out_at[f"{q}_max"] = vmax, amax
-            out_vals[f"{q}_min"], out_at[f"{q}_min"] = vmin, amin
-        return self._by_member(rows, xs, out_vals, out_at, fronts, dirs)
+        A = sp.csr_matrix((loads, (inv.ravel(), place[0])), shape=(len(s_u), pos.shape[0]))
+        return sol, A
+
+    def _load_term(self, sol: UnitLoadSolutions, rows: np.ndarray, xs: np.ndarray, q: str,
+                   side: str) -> sp.csr_matrix:
+        """Sparse (n_samples, n_stations): the unit load's own contribution
+        to N, V or M at a sample of the member it stands on, before the
+        sample (see :meth:`UnitLoadSolutions.member_values`)."""
+        L = self.model.L
+        offset = np.concatenate([[0.0], np.cumsum(L + 1.0)])
+        keys = xs + offset[rows]  # ascending: samples are sorted by member, then x
+        bounds = np.searchsorted(rows, np.arange(len(L) + 1))
+        first = np.searchsorted(keys, sol.a + offset[sol.member], side="left" if side == "right" else "right")
+        stop = bounds[sol.member + 1]
+        cnt = np.maximum(stop - first, 0)
+        u = np.repeat(np.arange(len(sol.s)), cnt)
+        i = np.repeat(first - np.concatenate([[0], np.cumsum(cnt)[:-1]]), cnt) + np.arange(int(cnt.sum()))
+        if q == "N":
+            v = -sol.p[u, 0]
+        elif q == "V":
+            v = sol.p[u, 1]
+        else:
+            v = sol.p[u, 1] * (xs[i] - sol.a[u])
+        return sp.csr_matrix((v, (i, u)), shape=(len(rows), len(sol.s)))
 
     def _samples(self, sol: UnitLoadSolutions, per_member: int) -> tuple[np.ndarray, np.ndarray]:
         """(rows, x) sample points of every member, sorted by member then x."""
@@ -513,6 +544,25 @@ class MovingLoads:
         return out
 
 
+class _Extremes:
+    """Running largest and smallest value of each sample over placements,
+    with the placement that gives it."""
+
+    def __init__(self, k: int) -> None:
+        self.vmax, self.vmin = np.full(k, -np.inf), np.full(k, np.inf)
+        self.amax, self.amin = np.zeros(k, np.intp), np.zeros(k, np.intp)
+
+    def update(self, sl: slice, E: np.ndarray) -> None:
+        r = np.arange(E.shape[0])
+        i1, i2 = np.argmax(E, axis=1), np.argmin(E, axis=1)
+        e1, e2 = E[r, i1], E[r, i2]
+        b1, b2 = e1 > self.vmax[sl], e2 < self.vmin[sl]
+        self.vmax[sl] = np.where(b1, e1, self.vmax[sl])
+        self.amax[sl] = np.where(b1, i1, self.amax[sl])
+        self.vmin[sl] = np.where(b2, e2, self.vmin[sl])
+        self.amin[sl] = np.where(b2, i2, self.amin[sl])
+
+
 @dataclass(eq=False)
 class _Rhs:
     """Load columns for :func:`solver.stiffness.displacements` (no
@@ -522,4 +572,4 @@ class _Rhs:
 
     @property
     def Ur(self) -> np.ndarray:
-        return np.zeros_like(self.F)
+        return np.broadcast_to(0.0, self.F.shape)

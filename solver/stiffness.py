@@ -68,6 +68,8 @@ __all__ = [
 PIVOT_TOL = 1e-11
 """Smallest pivot of the unit-diagonal stiffness matrix accepted as stable."""
 
+_RHS_BLOCK = 64  # right-hand-side columns per SuperLU solve call
+
 
 # --------------------------------------------------------------------------
 # step 1: the model without loads
@@ -297,8 +299,7 @@ class LoadVectors:
             if f != 0.0 and len(l):
                 ls = ls + l.scaled(f)
         return LoadVectors([name], self.F @ w[:, None], self.Ur @ w[:, None],
-                           np.einsum("c,cmk->mk", w, self.f0)[None] if len(w) else self.f0[:1] * 0,
-                           [ls])
+                           np.einsum("c,cmk->mk", w, self.f0)[None], [ls])
 
 
 def _node_axes(sup: SupportData, vec: np.ndarray) -> np.ndarray:
@@ -384,8 +385,20 @@ class Factorisation:
     def solve(self, rhs: np.ndarray) -> np.ndarray:
         if self.lu is None:
             return np.zeros_like(rhs, dtype=float)
-        sc = self.scale if rhs.ndim == 1 else self.scale[:, None]
-        return sc * self.lu.solve(sc * rhs)
+        if rhs.ndim == 1:
+            return self.scale * self.lu.solve(self.scale * rhs)
+        sc = self.scale[:, None]
+        k = rhs.shape[1]
+        if k <= _RHS_BLOCK:
+            return sc * self.lu.solve(sc * rhs)
+        # SuperLU's solve slows down far more than in proportion to the
+        # number of columns: many right-hand sides go in blocks (each
+        # column's solution is the same either way)
+        out = np.empty((rhs.shape[0], k))
+        for lo in range(0, k, _RHS_BLOCK):
+            blk = np.asfortranarray(sc * rhs[:, lo:lo + _RHS_BLOCK])
+            out[:, lo:lo + _RHS_BLOCK] = sc * self.lu.solve(blk)
+        return out
 
 
 def factorise(model: FrameModel, extra: sp.spmatrix | None = None, *,
