@@ -46,6 +46,7 @@ __all__ = [
     "storey_levels",
     "sway_amplification",
     "axial_forces",
+    "chord_shears",
 ]
 
 ALPHA_CR_LIMIT = 10.0
@@ -321,10 +322,11 @@ class SecondOrderResult:
     result : the second-order :class:`CaseResult` (kind "combination"),
         usable wherever a first-order one is: reactions, node
         displacements, member end forces and end displacements are
-        second order.  Between its ends a member's N, V, M diagram is the
-        equilibrium of the second-order end forces with the member loads in
-        the undeformed geometry (the member's own P-delta moment between
-        its ends is not added).  Do not superpose it with other results.
+        second order; member shears are perpendicular to the displaced
+        chord (:func:`chord_shears`), so a member's N, V, M diagram runs
+        between its second-order end moments with the member loads in
+        between (the member's own bow, P-delta, between its ends is not
+        added to it).  Do not superpose it with other results.
     first_order : the first-order result of the same combination
     alpha_cr : elastic critical load factor of the combination
     iterations : P-Delta iterations used
@@ -390,6 +392,28 @@ def sway_amplification(frame: Frame, first: CaseResult, second: CaseResult,
         d1, d2 = drift(u1), drift(u2)
         out.append(SwayAmplification(level, below, d1, d2, _ratio(d1, d2), m1, m2, _ratio(m1, m2),
                                      tuple(frame.members[j].id for j in cols)))
+    return out
+
+
+def chord_shears(fe: np.ndarray, fe_first: np.ndarray, L: np.ndarray) -> np.ndarray:
+    """Second-order end forces (m, 6) with the shears taken perpendicular
+    to each member's displaced chord.
+
+    The P-Delta end forces ``(k + kg) d`` are in the undeformed member
+    axes, where the axial force's sideways component at the rotated chord
+    (N * psi) appears as shear, so the end moments do not balance the
+    shears on the undeformed member.  A self-equilibrated pair of
+    transverse forces ``+r/L`` at the start, ``-r/L`` at the end removes
+    the imbalance ``r``; the member loads' share of the moment equation is
+    taken from the first-order end forces ``fe_first`` of the same loads
+    (which balance them exactly).  The N, V, M diagram of the member then
+    runs from its second-order start moment to its second-order end
+    moment.
+    """
+    out = np.array(fe, dtype=float)
+    imbalance = (out[:, 2] + out[:, 5] + out[:, 4] * L) - (fe_first[:, 2] + fe_first[:, 5] + fe_first[:, 4] * L)
+    out[:, 1] += imbalance / L
+    out[:, 4] -= imbalance / L
     return out
 
 
@@ -464,9 +488,10 @@ def second_order(frame: Frame, factors: Mapping[str, float] | str | None = None,
                                f"{max_iterations} iterations (tolerance {tol:g})", combination=st.name)
     Rs = support_reactions(model, U, st.loads.F, Kg)
     U0, dl0, fe0 = _to_original(st, U, dl, fe)
+    first = _linear_result(st, family)
+    fe0[:, :, 0] = chord_shears(fe0[:, :, 0], first.members.end_forces, st.model0.L)
     res = case_results(st.model0, st.loads0, U0, dl0, fe0, Rs,
                        kind="combination", factors=[st.factors], family=family)[st.name]
-    first = _linear_result(st, family)
     storeys = sway_amplification(frame, first, res, levels)
     return SecondOrderResult(res, first, alpha, it, storeys, alpha >= ALPHA_CR_LIMIT)
 

@@ -154,3 +154,29 @@ def test_locate_point_on_a_member():
     assert locate_point(f, 9.0, 0.0) == ("S2", pytest.approx(3.0))
     with pytest.raises(LoadError):
         locate_point(f, 3.0, 1.0)
+
+
+def test_hinged_beam_influence_lines_are_the_statics_of_its_parts():
+    # cantilever A-B (fixed at A, a = 4 m) carrying at an internal hinge B
+    # a suspended span B-C (roller at C, L = 10 m).  Statically determinate,
+    # so its influence lines are straight (Mueller-Breslau; statics): for a
+    # unit load at x, R_A = 1 and M_A = x (hogging) on A-B; on B-C the hinge
+    # passes (L - x)/(L - a) to the cantilever: R_A = (L - x)/(L - a), and
+    # M_A = a (L - x)/(L - a).
+    a, L = 4.0, 10.0
+    f = Frame()
+    n0, n1, n2 = f.add_node(0.0, 0.0), f.add_node(a, 0.0), f.add_node(L, 0.0)
+    f.add_member(n0, n1, SEC, id="AB", release_end=True)
+    f.add_member(n1, n2, SEC, id="BC")
+    f.add_support(n0, "fixed")
+    f.add_support(n2, "roller")
+    ml = MovingLoads(f, path_along_members(f, ["AB", "BC"]))
+    fy = ml.influence_line("fy", support=0, step=0.5)
+    mA = ml.influence_line("m", support=0, step=0.5)
+    x = fy.s
+    share = np.where(x <= a, 1.0, (L - x) / (L - a))
+    arm = np.where(x <= a, x, a)
+    assert np.allclose(fy.values, share, atol=1e-9)
+    # the support's reaction couple balances the load's moment about A:
+    # m = (unit load, downward) * lever arm, counter-clockwise positive
+    assert np.allclose(mA.values, share * arm, atol=1e-9)

@@ -165,6 +165,8 @@ def test_cantilever_beam_column_moment_amplification(ratio):
     exact = H * math.tan(k * h) / k
     assert abs(res.result.reactions[0].m) == pytest.approx(exact, rel=0.01)
     assert abs(res.result.members["C"].moment(0.0)) == pytest.approx(exact, rel=0.01)
+    # the diagram runs from that base moment to zero at the free tip
+    assert res.result.members["C"].moment(h) == pytest.approx(0.0, abs=1e-6 * exact)
     # tip deflection, exact: H (tan(kL) - kL) / (P k) (same source, from memory)
     assert res.result.displacements[1, 0] == pytest.approx(H * (math.tan(k * h) - k * h) / (P * k), rel=0.01)
     # the first-order companion is plain statics: M = H L
@@ -205,3 +207,29 @@ def test_second_order_result_looks_like_a_first_order_one():
     lin = first["D"].scaled(1.2) + first["L"].scaled(1.6)
     assert res.alpha_cr > 10
     assert np.allclose(r.reaction_array(), lin.reaction_array(), rtol=0.05, atol=1e-6 * 130e3)
+
+
+@pytest.mark.parametrize("hinge", ["pin support", "member release"])
+def test_pinned_base_portal_p_delta_against_the_beam_column_solution(hinge):
+    # Pinned-base portal, rigid beam, equal axial load P on each column and
+    # a lateral load H: by symmetry each column carries H/2 and is a
+    # cantilever of height h held against rotation at the top, free to
+    # sway at the pinned base.  Exact beam-column result (Timoshenko and
+    # Gere, from memory): top moment (H/2) tan(kh)/k, k = sqrt(P/EI); and
+    # alpha_cr = Pcr/P with Pcr = pi^2 EI/(2h)^2 (K = 2, as above).
+    h, span, H = 5.0, 8.0, 10e3
+    P = 0.4 * math.pi**2 * EI / (2 * h) ** 2
+    if hinge == "pin support":
+        f = _portal(h, span, "pin", P, H)
+    else:  # fixed supports, the columns hinged to them by a member release
+        f = _portal(h, span, "fixed", P, H)
+        f.members[0].release_start = True
+        f.members[2].release_start = True
+    res = second_order(f, "D")
+    k = math.sqrt(P / EI)
+    exact = 0.5 * H * math.tan(k * h) / k
+    for cid in ("CL", "CR"):
+        assert abs(res.result.members[cid].moment(h)) == pytest.approx(exact, rel=0.01)
+        assert abs(res.result.members[cid].moment(0.0)) == pytest.approx(0.0, abs=1e-6 * exact)
+    assert res.alpha_cr == pytest.approx(1 / 0.4, rel=0.01)
+    assert not res.first_order_ok
