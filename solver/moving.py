@@ -20,6 +20,23 @@ axle load is positive along it.  Path coordinate ``s`` [length] runs from
 the first point of the path.  Member results follow :mod:`solver.forces`
 (N tension +, V clockwise +, M sagging +, x from the member start).  The
 vehicle's effect alone is reported: add the other loads by superposition.
+
+Examples
+--------
+A 12 m simple span crossed by one 80 kN axle: the largest moment is
+PL/4 = 240 kN*m, at midspan.
+
+>>> from solver import Frame, Section, MovingLoads, Vehicle, path_along_members
+>>> f = Frame()
+>>> a, b = f.add_node(0.0, 0.0), f.add_node(12.0, 0.0)
+>>> _ = f.add_member(a, b, Section(E=200e9, A=5e-3, I=8e-5), id="G1")
+>>> _ = f.add_support(a, "pin"); _ = f.add_support(b, "roller")
+>>> ml = MovingLoads(f, path_along_members(f, ["G1"]))
+>>> g = ml.envelope(Vehicle((80e3,)), step=0.5)["G1"].governing("M_max")
+>>> round(g["value"] / 1e3, 6), g["x"]
+(240.0, 6.0)
+>>> ml.influence_line("fy", support=0, step=3.0).values.round(6).tolist()
+[1.0, 0.75, 0.5, 0.25, 0.0]
 """
 from __future__ import annotations
 

@@ -13,6 +13,26 @@ condensed shapes (:func:`solver.element.condensation_map`).
 Units: the frame's (N, m, Pa in the DXF pipeline).  Axial force tension
 positive; a load factor is dimensionless.  Sign conventions as in
 :mod:`solver.stiffness`.
+
+Examples
+--------
+A 5 m flagpole column, fixed at the base, 100 kN on its top: the Euler
+load of a cantilever is pi^2 EI / (2L)^2.
+
+>>> import math
+>>> from solver import Frame, Section, NodalLoad, critical_load_factor, second_order
+>>> f = Frame()
+>>> a, b = f.add_node(0.0, 0.0), f.add_node(0.0, 5.0)
+>>> _ = f.add_member(a, b, Section(E=200e9, A=5e-3, I=8e-5))
+>>> _ = f.add_support(a, "fixed")
+>>> _ = f.add_load(NodalLoad(b, fx=2e3, fy=-100e3, case="D"))
+>>> res = critical_load_factor(f, "1.0D")
+>>> euler = math.pi**2 * 200e9 * 8e-5 / (2 * 5.0) ** 2
+>>> round(res.alpha_cr * 100e3 / euler, 3), res.first_order_ok
+(1.0, True)
+>>> pd = second_order(f, "1.0D")
+>>> round(abs(pd.result.reactions[0].m) / 10e3, 2)   # 2 kN * 5 m, amplified
+1.06
 """
 from __future__ import annotations
 

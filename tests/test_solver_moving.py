@@ -180,3 +180,36 @@ def test_hinged_beam_influence_lines_are_the_statics_of_its_parts():
     # the support's reaction couple balances the load's moment about A:
     # m = (unit load, downward) * lever arm, counter-clockwise positive
     assert np.allclose(mA.values, share * arm, atol=1e-9)
+
+
+def test_unit_load_solutions_superpose_to_the_direct_solution():
+    # superposition (the frame is linear): a vehicle's effect at one
+    # placement equals a direct solve with its axles as point loads.  A
+    # property of the method, checked on an inclined, hinged, two-span
+    # frame with a column, where every unit-load path of the code is used.
+    from solver import PointLoad, solve
+    f = Frame()
+    n = [f.add_node(0.0, 0.0), f.add_node(5.0, 1.0), f.add_node(11.0, 1.0), f.add_node(5.0, -3.0)]
+    f.add_member(n[0], n[1], SEC, id="R1", release_end=True)
+    f.add_member(n[1], n[2], SEC, id="R2")
+    f.add_member(n[3], n[1], SEC, id="COL")
+    f.add_support(n[0], "pin")
+    f.add_support(n[2], "roller", angle=0.3)
+    f.add_support(n[3], "fixed")
+    path = path_along_members(f, ["R1", "R2"])
+    ml = MovingLoads(f, path)
+    veh = Vehicle((60e3, 40e3), (2.5,))
+    front = 7.0
+    s = veh.axle_positions(front, +1)
+    sol = ml.unit_solutions(s)
+    for (j, a), P in zip(zip(*path.locate(s)), veh.loads):
+        f.add_load(PointLoad(f.members[j].id, float(a), py=-P, case="V"))
+    direct = solve(f)["V"]
+    by_units = sol.reactions @ np.asarray(veh.loads)
+    assert np.allclose(by_units, direct.reaction_array(), rtol=1e-9, atol=1e-6)
+    rows = np.array([0, 1, 1, 2])
+    xs = np.array([1.0, 0.5, 4.0, 2.0])
+    for q, name in (("N", "axial"), ("V", "shear"), ("M", "moment")):
+        got = sol.member_values(q, rows, xs) @ np.asarray(veh.loads)
+        want = [getattr(direct.members[f.members[r].id], name)(x) for r, x in zip(rows, xs)]
+        assert np.allclose(got, want, rtol=1e-9, atol=1e-6)
