@@ -12,7 +12,8 @@ from .combinations import builtin_combinations, format_combination, parse_combin
 from .stiffness import solve
 from .determinacy import check, Determinacy
 from .second_order import (ALPHA_CR_LIMIT, BucklingError, BucklingResult, ConvergenceError, SecondOrderResult,
-                           SwayAmplification, critical_load_factor, second_order, storey_levels,
+                           SwayAmplification, critical_load_factor, critical_load_factors, second_order,
+                           second_order_many, storey_levels,
                            sway_amplification)
 from .moving import (InfluenceLine, LoadPath, MemberEnvelope, MovingLoads, UnitLoadSolutions, Vehicle,
                      locate_point, path_along_members, path_through_points)
@@ -41,7 +42,9 @@ __all__ = list(_model_all) + [
     "check",
     "Determinacy",
     "critical_load_factor",
+    "critical_load_factors",
     "second_order",
+    "second_order_many",
     "sway_amplification",
     "storey_levels",
     "BucklingResult",

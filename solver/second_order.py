@@ -62,7 +62,9 @@ __all__ = [
     "SecondOrderResult",
     "ALPHA_CR_LIMIT",
     "critical_load_factor",
+    "critical_load_factors",
     "second_order",
+    "second_order_many",
     "storey_levels",
     "sway_amplification",
     "axial_forces",
@@ -128,17 +130,44 @@ class _Setup:
     C: np.ndarray  # (m_ref, 6, 6) condensation map of the refined elements
 
 
-def _setup(frame: Frame, factors, name: str | None, subdivisions: int) -> _Setup:
-    fac = _factors(frame, factors)
-    label = name if name is not None else (format_combination(fac) or "0")
-    cases = [c for c in frame.cases() if fac.get(c, 0.0) != 0.0]
+@dataclass(eq=False)
+class _Prepared:
+    """The frame and its refined copy, prepared, with every load case's
+    load vectors on each (shared by the combinations of one frame)."""
+
+    frame: Frame
+    model0: FrameModel
+    cases0: LoadVectors
+    refined: RefinedFrame
+    model: FrameModel
+    cases: LoadVectors
+    C: np.ndarray
+
+
+def _prepare(frame: Frame, subdivisions: int) -> _Prepared:
+    cases = list(frame.cases())
     model0 = prepare(frame)  # checks geometry, sections, supports
-    loads0 = load_vectors(model0, cases).combined(fac, label)  # checks loads
+    cases0 = load_vectors(model0, cases)  # checks loads
     refined = subdivide(frame, subdivisions)
     model = prepare(refined.frame)
-    loads = load_vectors(model, cases).combined(fac, label)
-    C = condensation_map(model.k_full, model.rel_s, model.rel_e)
-    return _Setup(label, fac, model0, loads0, refined, model, loads, C)
+    return _Prepared(frame, model0, cases0, refined, model, load_vectors(model, cases),
+                     condensation_map(model.k_full, model.rel_s, model.rel_e))
+
+
+def _setup(frame: Frame, factors, name: str | None, subdivisions: int,
+           prep: _Prepared | None = None) -> _Setup:
+    prep = prep if prep is not None else _prepare(frame, subdivisions)
+    fac = _factors(frame, factors)
+    label = name if name is not None else (format_combination(fac) or "0")
+    return _Setup(label, fac, prep.model0, prep.cases0.combined(fac, label), prep.refined, prep.model,
+                  prep.cases.combined(fac, label), prep.C)
+
+
+def _combos(combinations) -> list[tuple[str, dict]]:
+    """(name, factors) pairs from a mapping {name: factors or text} or a
+    sequence of pairs."""
+    items = combinations.items() if isinstance(combinations, Mapping) else combinations
+    return [(str(n), f) for n, f in items]
 
 
 def axial_forces(fe: np.ndarray) -> np.ndarray:
@@ -287,7 +316,11 @@ def critical_load_factor(frame: Frame, factors: Mapping[str, float] | str | None
     :class:`BucklingResult` (``alpha_cr`` is inf when nothing is in
     compression; ``shape`` is then zero)
     """
-    st = _setup(frame, factors, name, subdivisions)
+    return _buckling(_setup(frame, factors, name, subdivisions), modes, raise_if_buckles)
+
+
+def _buckling(st: _Setup, modes: int, raise_if_buckles: bool) -> BucklingResult:
+    """:func:`critical_load_factor` of a set-up combination."""
     _, _, fe = _first_order(st)
     found, mode = _critical(st, axial_forces(fe[:, :, 0]), max(1, int(modes)))
     alpha = float(found[0])
@@ -302,6 +335,22 @@ def critical_load_factor(frame: Frame, factors: Mapping[str, float] | str | None
             f"combination {st.name} buckles: its load reaches the elastic critical load "
             f"(alpha_cr = {alpha:.3g} <= 1); the frame cannot carry it", combination=st.name, alpha_cr=alpha)
     return res
+
+
+def critical_load_factors(frame: Frame, combinations, *, subdivisions: int = 4, modes: int = 1,
+                          raise_if_buckles: bool = True) -> dict[str, BucklingResult]:
+    """:func:`critical_load_factor` of several combinations of one frame,
+    ``{name: BucklingResult}`` in the given order; the frame is refined,
+    checked and its load cases turned into load vectors once.
+
+    ``combinations`` is ``{name: factors}`` (factors a mapping or a
+    combination text) or a sequence of ``(name, factors)`` pairs.  With
+    ``raise_if_buckles`` the first combination with alpha_cr <= 1 raises
+    :class:`BucklingError` naming it.
+    """
+    prep = _prepare(frame, subdivisions)
+    return {n: _buckling(_setup(frame, f, n, subdivisions, prep), modes, raise_if_buckles)
+            for n, f in _combos(combinations)}
 
 
 # --------------------------------------------------------------------------
@@ -480,8 +529,12 @@ def second_order(frame: Frame, factors: Mapping[str, float] | str | None = None,
         singular during the iteration
     ConvergenceError : no convergence within ``max_iterations``
     """
-    st = _setup(frame, factors, name, subdivisions)
-    model = st.model
+    return _p_delta(frame, _setup(frame, factors, name, subdivisions), family, tol, max_iterations, levels)
+
+
+def _p_delta(frame: Frame, st: _Setup, family: str, tol: float, max_iterations: int,
+             levels: Sequence[float] | None) -> SecondOrderResult:
+    """:func:`second_order` of a set-up combination."""
     U, dl, fe = _first_order(st)
     N = axial_forces(fe[:, :, 0])
     found, _ = _critical(st, N, 1)
@@ -491,6 +544,23 @@ def second_order(frame: Frame, factors: Mapping[str, float] | str | None = None,
             f"combination {st.name} buckles: its load reaches the elastic critical load "
             f"(alpha_cr = {alpha:.3g} <= 1); no second-order equilibrium exists", combination=st.name,
             alpha_cr=alpha)
+    U, dl, fe, Kg, it = _iterate(st, U, N, tol, max_iterations)
+    Rs = support_reactions(st.model, U, st.loads.F, Kg)
+    U0, dl0, fe0 = _to_original(st, U, dl, fe)
+    first = _linear_result(st, family)
+    fe0[:, :, 0] = chord_shears(fe0[:, :, 0], first.members.end_forces, st.model0.L)
+    res = case_results(st.model0, st.loads0, U0, dl0, fe0, Rs,
+                       kind="combination", factors=[st.factors], family=family)[st.name]
+    storeys = sway_amplification(frame, first, res, levels)
+    return SecondOrderResult(res, first, alpha, it, storeys, alpha >= ALPHA_CR_LIMIT)
+
+
+def _iterate(st: _Setup, U: np.ndarray, N: np.ndarray, tol: float, max_iterations: int):
+    """The P-Delta iteration from the first-order state (U, N): (U, dl, fe,
+    Kg, iterations) at convergence."""
+    model = st.model
+    if int(max_iterations) < 1:
+        raise ValueError("max_iterations must be at least 1")
     for it in range(1, int(max_iterations) + 1):
         kg = _kg_local(st, N)
         Kg = assemble(model, kg)
@@ -502,18 +572,9 @@ def second_order(frame: Frame, factors: Mapping[str, float] | str | None = None,
         dn = np.max(np.abs(N_new - N)) <= tol * max(np.max(np.abs(N_new)), 1e-300) if len(N) else True
         U, N = U_new, N_new
         if du and dn:
-            break
-    else:
-        raise ConvergenceError(f"combination {st.name}: the P-Delta iteration did not converge in "
-                               f"{max_iterations} iterations (tolerance {tol:g})", combination=st.name)
-    Rs = support_reactions(model, U, st.loads.F, Kg)
-    U0, dl0, fe0 = _to_original(st, U, dl, fe)
-    first = _linear_result(st, family)
-    fe0[:, :, 0] = chord_shears(fe0[:, :, 0], first.members.end_forces, st.model0.L)
-    res = case_results(st.model0, st.loads0, U0, dl0, fe0, Rs,
-                       kind="combination", factors=[st.factors], family=family)[st.name]
-    storeys = sway_amplification(frame, first, res, levels)
-    return SecondOrderResult(res, first, alpha, it, storeys, alpha >= ALPHA_CR_LIMIT)
+            return U, dl, fe, Kg, it
+    raise ConvergenceError(f"combination {st.name}: the P-Delta iteration did not converge in "
+                           f"{max_iterations} iterations (tolerance {tol:g})", combination=st.name)
 
 
 def _linear_result(st: _Setup, family: str) -> CaseResult:
@@ -525,3 +586,16 @@ def _linear_result(st: _Setup, family: str) -> CaseResult:
     Rs = support_reactions(model0, U, st.loads0.F)
     return case_results(model0, st.loads0, U, dl, fe, Rs, kind="combination", factors=[st.factors],
                         family=family)[st.name]
+
+
+def second_order_many(frame: Frame, combinations, *, family: str = "", subdivisions: int = 4,
+                      tol: float = 1e-8, max_iterations: int = 50,
+                      levels: Sequence[float] | None = None) -> dict[str, SecondOrderResult]:
+    """:func:`second_order` of several combinations of one frame (each its
+    own analysis), ``{name: SecondOrderResult}`` in the given order; the
+    frame is refined, checked and its load cases turned into load vectors
+    once.  ``combinations`` as in :func:`critical_load_factors`.  The first
+    combination that buckles raises :class:`BucklingError` naming it."""
+    prep = _prepare(frame, subdivisions)
+    return {n: _p_delta(frame, _setup(frame, f, n, subdivisions, prep), family, tol, max_iterations, levels)
+            for n, f in _combos(combinations)}

@@ -233,3 +233,25 @@ def test_pinned_base_portal_p_delta_against_the_beam_column_solution(hinge):
         assert abs(res.result.members[cid].moment(0.0)) == pytest.approx(0.0, abs=1e-6 * exact)
     assert res.alpha_cr == pytest.approx(1 / 0.4, rel=0.01)
     assert not res.first_order_ok
+
+
+def test_many_combinations_each_its_own_analysis():
+    # alpha_cr scales inversely with the load factor (the eigenproblem is
+    # linear in the load): 1.0D and 2.0D of a pinned column give Pcr/P and
+    # Pcr/(2P) (Euler, from memory)
+    from solver import critical_load_factors, second_order_many
+    h, P = 6.0, 100e3
+    pcr = math.pi**2 * EI / h**2
+    f = column(h, "pin", "roller", P)
+    res = critical_load_factors(f, {"1.0D": "1.0D", "2.0D": {"D": 2.0}})
+    assert list(res) == ["1.0D", "2.0D"]
+    assert res["1.0D"].alpha_cr == pytest.approx(pcr / P, rel=0.01)
+    assert res["2.0D"].alpha_cr == pytest.approx(pcr / (2 * P), rel=0.01)
+    g = column(4.0, "fixed", None, 200e3, 5e3)
+    pd = second_order_many(g, [("a", {"D": 1.0}), ("b", {"D": 1.5})])
+    for name, fac in (("a", 1.0), ("b", 1.5)):
+        # Timoshenko and Gere as above, with P and H both scaled by fac
+        k = math.sqrt(fac * 200e3 / EI)
+        exact = fac * 5e3 * math.tan(k * 4.0) / k
+        assert abs(pd[name].result.reactions[0].m) == pytest.approx(exact, rel=0.01)
+        assert pd[name].name == name
