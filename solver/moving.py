@@ -495,6 +495,38 @@ class MovingLoads:
             vals[f"{q}_min"], at[f"{q}_min"] = best.vmin, best.amin
         return self._by_member(rows, xs, vals, at, fronts, dirs)
 
+    def reaction_envelope(self, vehicle: Vehicle, *, step: float,
+                          directions: Sequence[int] = (1, -1)) -> list[dict]:
+        """Per support (``Frame.supports`` order): for c in fx, fy, m (global,
+        moment CCW) ``c_max``, ``c_min`` and the governing ``c_max_front``,
+        ``c_max_direction`` (likewise for min) as ``vehicle`` crosses the
+        path."""
+        fronts, dirs, pos = self._placements(vehicle, float(step), [int(d) for d in directions])
+        sol, A = self._placement_matrix(vehicle, pos)
+        ns = sol.reactions.shape[0]
+        R = np.asarray((A.T @ sol.reactions.reshape(ns * 3, -1).T).T).reshape(ns, 3, -1)
+        out = []
+        for k, sup in enumerate(self.frame.supports):
+            row: dict = {"node": sup.node, "support_index": k}
+            for ci, comp in enumerate(("fx", "fy", "m")):
+                col = R[k, ci]
+                for ext, i in (("max", int(np.argmax(col))), ("min", int(np.argmin(col)))):
+                    row[f"{comp}_{ext}"] = float(col[i])
+                    row[f"{comp}_{ext}_front"] = float(fronts[i])
+                    row[f"{comp}_{ext}_direction"] = int(dirs[i])
+            out.append(row)
+        return out
+
+    def axle_points(self, vehicle: Vehicle, front: float, direction: int) -> np.ndarray:
+        """(k, 2) global coordinates of the axles on the path with the front
+        axle at path coordinate ``front`` travelling in ``direction`` (+1 /
+        -1), for drawing a governing position; axles off the path are
+        left out."""
+        s = vehicle.axle_positions(front, direction)
+        tol = 1e-9 * max(self.path.length, 1.0)
+        s = s[(s >= -tol) & (s <= self.path.length + tol)]
+        return self.points(s)
+
     def _placement_matrix(self, vehicle: Vehicle, pos: np.ndarray):
         """Unit-load solutions at every distinct axle position on the path,
         and the sparse (n_positions, n_placements) matrix of axle loads

@@ -213,3 +213,21 @@ def test_unit_load_solutions_superpose_to_the_direct_solution():
         got = sol.member_values(q, rows, xs) @ np.asarray(veh.loads)
         want = [getattr(direct.members[f.members[r].id], name)(x) for r, x in zip(rows, xs)]
         assert np.allclose(got, want, rtol=1e-9, atol=1e-6)
+
+
+def test_reaction_envelope_and_governing_axle_points():
+    # simple span L = 10 m, axles 100 + 50 kN 4 m apart: the largest left
+    # reaction puts the heavy axle on the support, the light one 4 m in:
+    # 100 + 50 * 6/10 = 130 kN (influence line of a simple-span reaction,
+    # statics)
+    L = 10.0
+    f = simple_span(L)
+    ml = MovingLoads(f, path_along_members(f, ["B"]))
+    veh = Vehicle((100e3, 50e3), (4.0,))
+    env = ml.reaction_envelope(veh, step=0.5)
+    left = env[0]
+    assert left["fy_max"] == pytest.approx(130e3, rel=1e-9)
+    assert left["fy_min"] == pytest.approx(0.0, abs=1e-6)
+    pts = ml.axle_points(veh, left["fy_max_front"], left["fy_max_direction"])
+    assert sorted(pts[:, 0].round(9).tolist()) == [0.0, 4.0]
+    assert np.allclose(pts[:, 1], 0.0)
