@@ -231,3 +231,22 @@ def test_reaction_envelope_and_governing_axle_points():
     pts = ml.axle_points(veh, left["fy_max_front"], left["fy_max_direction"])
     assert sorted(pts[:, 0].round(9).tolist()) == [0.0, 4.0]
     assert np.allclose(pts[:, 1], 0.0)
+
+
+def test_two_span_hogging_envelope_by_the_three_moment_equation():
+    # two equal spans L, unit load at x in span 1: the three-moment equation
+    # gives the support moment M_B = -x (L^2 - x^2) / (4 L^2) (from memory),
+    # largest at x = L / sqrt(3): |M_B| = L / (6 sqrt(3)) = 0.0962 L per unit
+    # load.  One moving load P: the envelope's hogging at B is that times P
+    # (the stations fall within L/600 of the peak, where the curve is flat).
+    L, P = 6.0, 10e3
+    f = two_spans(L)
+    ml = MovingLoads(f, path_along_members(f, ["S1", "S2"]))
+    env = ml.envelope(Vehicle((P,)), step=L / 600)
+    g = env["S1"].governing("M_min")
+    assert g["x"] == pytest.approx(L)
+    assert g["value"] == pytest.approx(-P * L / (6 * np.sqrt(3)), rel=1e-5)
+    # the influence line itself, at the stations
+    il = ml.influence_line("M", member="S1", x=L, step=0.5)
+    x = il.s[il.s <= L]
+    assert np.allclose(il.values[il.s <= L], -x * (L**2 - x**2) / (4 * L**2), atol=1e-9)

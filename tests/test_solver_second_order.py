@@ -255,3 +255,11 @@ def test_many_combinations_each_its_own_analysis():
         exact = fac * 5e3 * math.tan(k * 4.0) / k
         assert abs(pd[name].result.reactions[0].m) == pytest.approx(exact, rel=0.01)
         assert pd[name].name == name
+
+
+def test_p_delta_that_does_not_converge_says_so():
+    from solver import ConvergenceError
+    f = _portal(5.0, 8.0, "fixed", 300e3, 20e3)
+    with pytest.raises(ConvergenceError) as ei:
+        second_order(f, "D", name="W1", tol=1e-15, max_iterations=1)
+    assert ei.value.combination == "W1" and "W1" in str(ei.value)
