@@ -402,6 +402,10 @@ class SecondOrderResult:
     storeys : :class:`SwayAmplification` per storey level
     first_order_ok : alpha_cr >= :data:`ALPHA_CR_LIMIT`
     criterion : the rule used, in words
+    detail : the same result on the internally subdivided frame (member
+        ``id`` cut into ``id#0``, ``id#1``, ...; its nodes after the
+        frame's own), whose diagrams also carry each member's own bow
+        (P-delta) at the subdivision points
     """
 
     result: CaseResult
@@ -411,6 +415,7 @@ class SecondOrderResult:
     storeys: list[SwayAmplification] = field(default_factory=list)
     first_order_ok: bool = False
     criterion: str = CRITERION
+    detail: CaseResult | None = None
 
     @property
     def name(self) -> str:
@@ -536,7 +541,8 @@ def _p_delta(frame: Frame, st: _Setup, family: str, tol: float, max_iterations: 
              levels: Sequence[float] | None) -> SecondOrderResult:
     """:func:`second_order` of a set-up combination."""
     U, dl, fe = _first_order(st)
-    N = axial_forces(fe[:, :, 0])
+    fe_lin = fe[:, :, 0].copy()
+    N = axial_forces(fe_lin)
     found, _ = _critical(st, N, 1)
     alpha = float(found[0])
     if alpha <= 1.0:
@@ -545,14 +551,18 @@ def _p_delta(frame: Frame, st: _Setup, family: str, tol: float, max_iterations: 
             f"(alpha_cr = {alpha:.3g} <= 1); no second-order equilibrium exists", combination=st.name,
             alpha_cr=alpha)
     U, dl, fe, Kg, it = _iterate(st, U, N, tol, max_iterations)
+    fe_sub = fe.copy()
+    fe_sub[:, :, 0] = chord_shears(fe[:, :, 0], fe_lin, st.model.L)
     Rs = support_reactions(st.model, U, st.loads.F, Kg)
+    detail = case_results(st.model, st.loads, U, dl, fe_sub, Rs, kind="combination", factors=[st.factors],
+                          family=family)[st.name]
     U0, dl0, fe0 = _to_original(st, U, dl, fe)
     first = _linear_result(st, family)
     fe0[:, :, 0] = chord_shears(fe0[:, :, 0], first.members.end_forces, st.model0.L)
     res = case_results(st.model0, st.loads0, U0, dl0, fe0, Rs,
                        kind="combination", factors=[st.factors], family=family)[st.name]
     storeys = sway_amplification(frame, first, res, levels)
-    return SecondOrderResult(res, first, alpha, it, storeys, alpha >= ALPHA_CR_LIMIT)
+    return SecondOrderResult(res, first, alpha, it, storeys, alpha >= ALPHA_CR_LIMIT, detail=detail)
 
 
 def _iterate(st: _Setup, U: np.ndarray, N: np.ndarray, tol: float, max_iterations: int):

@@ -263,3 +263,22 @@ def test_p_delta_that_does_not_converge_says_so():
     with pytest.raises(ConvergenceError) as ei:
         second_order(f, "D", name="W1", tol=1e-15, max_iterations=1)
     assert ei.value.combination == "W1" and "W1" in str(ei.value)
+
+
+@pytest.mark.parametrize("ratio", [0.3, 0.6])
+def test_member_bow_in_the_detailed_result(ratio):
+    # pin-ended beam-column, axial P and uniform lateral q: exact midspan
+    # moment M = (q / k^2) (sec(kL/2) - 1), k = sqrt(P/EI) (Timoshenko and
+    # Gere, from memory), against qL^2/8 at first order.  The member's own
+    # bow is carried by the subdivided result at its subdivision points.
+    from solver import DistributedLoad
+    L, q = 6.0, 2e3
+    P = ratio * math.pi**2 * EI / L**2
+    f = column(L, "pin", "roller", P)
+    f.add_load(DistributedLoad("C", q1=(q, 0.0), case="D"))
+    res = second_order(f, "D")
+    k = math.sqrt(P / EI)
+    exact = q / k**2 * (1 / math.cos(k * L / 2) - 1)
+    mid = res.detail.members["C#2"].moment(0.0)    # 4 pieces: C#2 starts at midspan
+    assert abs(mid) == pytest.approx(exact, rel=0.01)
+    assert abs(res.first_order.members["C"].moment(L / 2)) == pytest.approx(q * L**2 / 8, rel=1e-9)
