@@ -11,6 +11,12 @@ from .results import CaseResult, Reaction, combine, combine_many, envelope, reac
 from .combinations import builtin_combinations, format_combination, parse_combination
 from .stiffness import solve
 from .determinacy import check, Determinacy
+from .second_order import (ALPHA_CR_LIMIT, BucklingError, BucklingResult, ConvergenceError, SecondOrderResult,
+                           SwayAmplification, critical_load_factor, critical_load_factors, second_order,
+                           second_order_many, storey_levels,
+                           sway_amplification)
+from .moving import (InfluenceLine, LoadPath, MemberEnvelope, MovingLoads, UnitLoadSolutions, Vehicle,
+                     locate_point, path_along_members, path_through_points)
 
 __all__ = list(_model_all) + [
     "solve",
@@ -35,4 +41,25 @@ __all__ = list(_model_all) + [
     "SupportError",
     "check",
     "Determinacy",
+    "critical_load_factor",
+    "critical_load_factors",
+    "second_order",
+    "second_order_many",
+    "sway_amplification",
+    "storey_levels",
+    "BucklingResult",
+    "SecondOrderResult",
+    "SwayAmplification",
+    "BucklingError",
+    "ConvergenceError",
+    "ALPHA_CR_LIMIT",
+    "MovingLoads",
+    "Vehicle",
+    "LoadPath",
+    "InfluenceLine",
+    "MemberEnvelope",
+    "UnitLoadSolutions",
+    "path_along_members",
+    "path_through_points",
+    "locate_point",
 ]
