@@ -11,6 +11,8 @@ from .results import CaseResult, Reaction, combine, combine_many, envelope, reac
 from .combinations import builtin_combinations, format_combination, parse_combination
 from .stiffness import solve
 from .determinacy import check, Determinacy
+from .storeys import (DEFAULT_DRIFT_LIMIT, Storey, StoreyDrift, Storeys, drift_envelope, find_storeys,
+                      node_table, storey_drifts)
 
 __all__ = list(_model_all) + [
     "solve",
@@ -35,4 +37,13 @@ __all__ = list(_model_all) + [
     "SupportError",
     "check",
     "Determinacy",
+    # storeys and drift
+    "DEFAULT_DRIFT_LIMIT",
+    "Storey",
+    "Storeys",
+    "StoreyDrift",
+    "find_storeys",
+    "storey_drifts",
+    "drift_envelope",
+    "node_table",
 ]
