@@ -13,6 +13,8 @@ from .stiffness import solve
 from .determinacy import check, Determinacy
 from .storeys import (DEFAULT_DRIFT_LIMIT, Storey, StoreyDrift, Storeys, drift_envelope, find_storeys,
                       node_table, storey_drifts)
+from .shapes import (SectionProperties, ShapeError, parse_shape, polygon_properties, section_from_outline,
+                     section_from_shape, shape_polygon, shape_properties)
 
 __all__ = list(_model_all) + [
     "solve",
@@ -46,4 +48,13 @@ __all__ = list(_model_all) + [
     "storey_drifts",
     "drift_envelope",
     "node_table",
+    # sections from shapes
+    "ShapeError",
+    "SectionProperties",
+    "parse_shape",
+    "shape_polygon",
+    "shape_properties",
+    "polygon_properties",
+    "section_from_shape",
+    "section_from_outline",
 ]
