@@ -15,6 +15,7 @@ from .storeys import (DEFAULT_DRIFT_LIMIT, Storey, StoreyDrift, Storeys, drift_e
                       node_table, storey_drifts)
 from .shapes import (SectionProperties, ShapeError, parse_shape, polygon_properties, section_from_outline,
                      section_from_shape, shape_polygon, shape_properties)
+from .selfweight import DENSITY, STANDARD_GRAVITY, add_self_weight, self_weight_loads
 
 __all__ = list(_model_all) + [
     "solve",
@@ -57,4 +58,9 @@ __all__ = list(_model_all) + [
     "polygon_properties",
     "section_from_shape",
     "section_from_outline",
+    # self-weight
+    "STANDARD_GRAVITY",
+    "DENSITY",
+    "self_weight_loads",
+    "add_self_weight",
 ]
