@@ -16,6 +16,7 @@ from .storeys import (DEFAULT_DRIFT_LIMIT, Storey, StoreyDrift, Storeys, drift_e
 from .shapes import (SectionProperties, ShapeError, parse_shape, polygon_properties, section_from_outline,
                      section_from_shape, shape_polygon, shape_properties)
 from .selfweight import DENSITY, STANDARD_GRAVITY, add_self_weight, self_weight_loads
+from .patterns import PatternEnvelope, PatternPart, pattern_envelope, pattern_parts, solve_pattern_parts
 
 __all__ = list(_model_all) + [
     "solve",
@@ -65,4 +66,10 @@ __all__ = list(_model_all) + [
     "DENSITY",
     "self_weight_loads",
     "add_self_weight",
+    # pattern live load
+    "PatternPart",
+    "PatternEnvelope",
+    "pattern_parts",
+    "solve_pattern_parts",
+    "pattern_envelope",
 ]
