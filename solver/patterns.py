@@ -39,6 +39,25 @@ station at all.
 
 Sign conventions are those of :mod:`solver.forces` (tension +, clockwise
 shear +, sagging moment +); units those of the frame.
+
+Examples
+--------
+Three equal 6 m spans under 10 kN/m of live load:
+
+>>> from solver import DistributedLoad, Frame, Section
+>>> f = Frame()
+>>> n = [f.add_node(6.0 * i, 0.0) for i in range(4)]
+>>> for i in range(3):
+...     m = f.add_member(n[i], n[i + 1], Section(E=200e9, A=5e-3, I=8e-5))
+...     _ = f.add_load(DistributedLoad(m.id, q1=(0.0, -10e3), case="L"))
+>>> _ = f.add_support(n[0], "pin")
+>>> for k in n[1:]:
+...     _ = f.add_support(k, "roller")
+>>> ext = pattern_envelope(f, "L").member_extremes("M")["M1"]
+>>> round(ext["max"] / 1e3, 2), ext["max_by"]        # 0.10125 w L^2
+(36.45, 'L on M1, M3')
+>>> round(ext["min"] / 1e3, 2), ext["min_by"]        # -7/60 w L^2 at the support
+(-42.0, 'L on M1, M2')
 """
 from __future__ import annotations
 

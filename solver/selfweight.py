@@ -14,6 +14,14 @@ frame in metres), g in m/s^2, loads in N/m.  A frame in other units needs
 
 Densities (:data:`DENSITY`) are nominal values for self-weight; check them
 against the values the project's code prescribes.
+
+Examples
+--------
+>>> from solver import Frame, Section
+>>> f = Frame()
+>>> m = f.add_member(f.add_node(0, 0), f.add_node(6, 0), Section(E=200e9, A=5e-3, I=8e-5))
+>>> [round(ld.q1[1], 2) for ld in self_weight_loads(f, "steel")]   # N/m: 7850 * g * A
+[-384.91]
 """
 from __future__ import annotations
 

@@ -32,6 +32,14 @@ taken about a point near the centroid (numerically safe) and moved to the
 centroid by the parallel-axis theorem.  A CHS uses the exact closed forms
 of a circular tube, A = pi (D^2 - d^2) / 4 and I = pi (D^4 - d^4) / 64;
 its polygon (``CHS_SEGMENTS`` sides) serves for drawing only.
+
+Examples
+--------
+>>> p = shape_properties("I 310x165x6x10", unit=1e-3)   # sizes in mm, frame in m
+>>> round(p.area * 1e6), round(p.Ix * 1e6, 2)          # mm^2, 10^6 mm^4
+(5040, 86.47)
+>>> polygon_properties([(0, 0), (2, 0), (2, 6), (0, 6)]).Ix   # b h^3 / 12
+36.0
 """
 from __future__ import annotations
 

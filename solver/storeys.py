@@ -34,6 +34,24 @@ choose the limit the project's code sets.
 Units and signs: global X right, Y up; ``ux`` [length] positive to the
 right, so a positive drift is a sway to the right; heights [length];
 ratios are dimensionless.
+
+Examples
+--------
+A fixed-base portal, 4 m high, pushed by 10 kN at the eaves:
+
+>>> from solver import Frame, NodalLoad, Section, solve
+>>> f = Frame()
+>>> a, b, c, d = (f.add_node(x, y) for x, y in [(0, 0), (0, 4), (6, 4), (6, 0)])
+>>> for s, e in ((a, b), (b, c), (d, c)):
+...     _ = f.add_member(s, e, Section(E=200e9, A=1.0, I=8e-5))   # A: axially rigid
+>>> _ = f.add_support(a, "fixed"); _ = f.add_support(d, "fixed")
+>>> _ = f.add_load(NodalLoad(b, fx=10e3, case="W"))
+>>> st = find_storeys(f)
+>>> st.levels
+(4.0,)
+>>> dr = storey_drifts(f, solve(f)["W"], st)[0]
+>>> round(dr.drift * 1e3, 3), round(1 / dr.ratio), dr.ok   # slope deflection: H h^3 / (15 E I), h/1500
+(2.667, 1500, True)
 """
 from __future__ import annotations
 
