@@ -61,13 +61,14 @@ Three equal 6 m spans under 10 kN/m of live load:
 """
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field, replace
 
 import numpy as np
 
 from .model import Frame, Load, MemberCouple, DistributedLoad, PointLoad
-from .results import CaseResult
+from .combinations import format_combination
+from .results import CaseResult, combine
 from .stiffness import solve
 
 __all__ = ["PatternPart", "PatternEnvelope", "pattern_parts", "solve_pattern_parts", "pattern_envelope"]
@@ -154,9 +155,11 @@ def pattern_parts(frame: Frame, case: str, by: str = "span") -> list[PatternPart
     return parts
 
 
-def solve_pattern_parts(frame: Frame, parts: Iterable[PatternPart]) -> dict[str, CaseResult]:
+def solve_pattern_parts(frame: Frame, parts: Iterable[PatternPart], *,
+                        determinate: bool | None = None) -> dict[str, CaseResult]:
     """Solve every part as a sub-case, all in one :func:`solver.solve` call
-    (one factorisation, the parts as columns of one right-hand side).
+    (one factorisation, the parts as columns of one right-hand side);
+    ``determinate`` is passed on to :func:`solver.solve`.
 
     Returns ``{part name: CaseResult}``; each result is named
     ``"<case>[<part name>]"`` with factors ``{that name: 1.0}``.
@@ -167,7 +170,7 @@ def solve_pattern_parts(frame: Frame, parts: Iterable[PatternPart]) -> dict[str,
         raise ValueError("pattern part names must be unique")
     loads = [replace(ld, case=sub) for p, sub in zip(parts, subs) for ld in p.loads]
     sub_frame = Frame(frame.nodes, frame.members, frame.supports, loads)
-    res = solve(sub_frame, cases=subs)
+    res = solve(sub_frame, cases=subs, determinate=determinate)
     frame_cases = tuple(frame.cases())
     return {p.name: replace(res[sub], frame_cases=frame_cases) for p, sub in zip(parts, subs)}
 
@@ -208,6 +211,21 @@ class PatternEnvelope:
             lab = f"{factor:g}({lab})"
         name = lab if base is None else f"{base.name} + {lab}"
         return replace(total, name=name, kind="combination")
+
+    def in_combination(self, case_results: Mapping[str, CaseResult], factors: Mapping[str, float],
+                       name: str | None = None) -> tuple[CaseResult | None, float]:
+        """``(base, factor)`` for a combination: ``base`` the combination of
+        every other case (None when there is none), ``factor`` the
+        combination's factor on the patterned case (0 when it lacks it).
+        Pass them to :meth:`member_extremes` or :meth:`station_envelope`
+        for the combination's envelope with the patterned case arranged.
+        """
+        others = {k: v for k, v in factors.items() if k != self.case and float(v) != 0.0}
+        factor = float(factors.get(self.case, 0.0))
+        if not others:
+            return None, factor
+        base = combine(case_results, others, name if name is not None else format_combination(others))
+        return base, factor
 
     def stations(self, per_member: int = 21) -> tuple[np.ndarray, np.ndarray]:
         """(rows, x) of the stations: ``per_member`` evenly spaced points on
@@ -296,7 +314,8 @@ class PatternEnvelope:
         return out
 
 
-def pattern_envelope(frame: Frame, case: str, by: str = "span") -> PatternEnvelope:
+def pattern_envelope(frame: Frame, case: str, by: str = "span", *,
+                     determinate: bool | None = None) -> PatternEnvelope:
     """Split ``case`` into parts (:func:`pattern_parts`), solve them
     (:func:`solve_pattern_parts`) and return their :class:`PatternEnvelope`.
 
@@ -305,4 +324,4 @@ def pattern_envelope(frame: Frame, case: str, by: str = "span") -> PatternEnvelo
     parts = pattern_parts(frame, case, by)
     if not parts:
         raise ValueError(f"load case {case!r} has no loads to arrange in patterns")
-    return PatternEnvelope(case, tuple(parts), solve_pattern_parts(frame, parts))
+    return PatternEnvelope(case, tuple(parts), solve_pattern_parts(frame, parts, determinate=determinate))
