@@ -2,6 +2,12 @@
 
 Build a :class:`Frame`, then :func:`check` it and :func:`solve` it.  All
 quantities are in one consistent unit system chosen by the caller.
+
+What engineers check next, on top of the solution: storeys and their
+drift (:mod:`solver.storeys`), sections from shape texts or drawn outlines
+(:mod:`solver.shapes`), self-weight loads (:mod:`solver.selfweight`),
+combinations with wind and earthquake both ways
+(:func:`with_reversals`), and pattern live load (:mod:`solver.patterns`).
 """
 from .model import *  # noqa: F401,F403
 from .model import __all__ as _model_all

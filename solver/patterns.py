@@ -9,10 +9,12 @@ structure when that gives a more severe effect than the whole).
 Parts
 -----
 ``by="span"`` (default): a span is a chain of members between *breaks*:
-supported nodes and nodes where other than two members meet (the joints of
-a frame).  A beam drawn as several members between two supports, or split
-at an internal hinge, is one span; a column between its base and a joint
-is a span of its own.  ``by="member"``: every reported member (its
+supported nodes, nodes where other than two members meet (the joints of a
+frame), and nodes where two members meet at an angle of more than 1 degree
+(a frame's corner, a roof ridge).  A straight beam drawn as several
+members between two supports, or split at an internal hinge, is one span;
+a column between its base and a joint is a span of its own; the two
+rafters of a pitched roof are two spans (unbalanced loading covered).  ``by="member"``: every reported member (its
 ``group``) is a part.  A nodal load or settlement at a node inside a span
 belongs to that span; at a break it is a part of its own ("node 7").
 Spans carrying no load of the case are not parts.  A part is named by its
@@ -74,6 +76,7 @@ from .stiffness import solve
 __all__ = ["PatternPart", "PatternEnvelope", "pattern_parts", "solve_pattern_parts", "pattern_envelope"]
 
 _QUANTITY = {"N": "n", "V": "v", "M": "m"}
+_KINK = float(np.sin(np.radians(1.0)))  # members meeting at more than 1 degree: a span break
 
 
 @dataclass(frozen=True)
@@ -95,6 +98,16 @@ def _spans(frame: Frame, by: str) -> tuple[dict[str, int], set[int]]:
     """{member id: span index}, span indices in member order; the break nodes."""
     deg = np.bincount([n for m in frame.members for n in (m.start, m.end)], minlength=len(frame.nodes))
     breaks = {s.node for s in frame.supports} | {int(i) for i in np.flatnonzero(deg != 2)}
+    # a node joining two members at an angle (a frame's corner, a ridge) is a break too
+    dirs: dict[int, list[tuple[float, float]]] = {}
+    for m in frame.members:
+        a, b = frame.nodes[m.start], frame.nodes[m.end]
+        L = float(np.hypot(b.x - a.x, b.y - a.y)) or 1.0
+        dirs.setdefault(m.start, []).append(((b.x - a.x) / L, (b.y - a.y) / L))
+        dirs.setdefault(m.end, []).append(((a.x - b.x) / L, (a.y - b.y) / L))
+    for n, ds in dirs.items():
+        if len(ds) == 2 and abs(ds[0][0] * ds[1][1] - ds[0][1] * ds[1][0]) > _KINK:
+            breaks.add(n)
     if by == "member":
         groups: dict[str, int] = {}
         return {m.id: groups.setdefault(m.group, len(groups)) for m in frame.members}, breaks
@@ -295,7 +308,8 @@ class PatternEnvelope:
         for k in range(len(rows)):
             cand.setdefault(env["max_parts"][k], None)
             cand.setdefault(env["min_parts"][k], None)
-        tables = {p: self.pattern_result(p, factor=factor, base=base).members.table() for p in cand}
+        # one result per distinct governing pattern (typically a few per span)
+        tables = {p: self.pattern_result(p, factor=factor, base=base).members.force_table() for p in cand}
         ids = next(iter(self.part_results.values())).members.layout.ids
         out: dict[str, dict] = {}
         for j, mid in enumerate(ids):
