@@ -4,13 +4,17 @@ Checks against the formulas of the properties-of-plane-areas table of
 Roark's Formulas for Stress and Strain (rectangle, hollow rectangle,
 circle and circular tube, from memory), the parallel-axis theorem for an
 I made of three rectangles, and a hand computation of an L-shaped outline
-worked in the test.
+worked in the test; any star-shaped polygon against sympy's exact
+polygon integration (sympy.integrals.intpoly).
 """
 from __future__ import annotations
 
 import math
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from shapely.geometry import Polygon as ShPolygon
 
 from solver.shapes import (
     CHS_SEGMENTS,
@@ -134,3 +138,46 @@ def test_bad_outlines():
         polygon_properties([(0, 0), (1, 0), (1, 1), (0, 1)], [[(2, 2), (3, 2), (3, 3)]])  # hole outside
     with pytest.raises(ShapeError):
         shape_properties("RECT 1x1", unit=0)
+
+
+# --------------------------------------------------------------------------
+# any polygon against sympy's polygon integration (an independent library)
+
+def _sympy_props(pts):
+    """Area, centroid y and centroidal I_x by sympy's exact integration over
+    the polygon (it takes the vertices clockwise)."""
+    import sympy as sy
+    from sympy.integrals.intpoly import polytope_integrate
+
+    x, y = sy.symbols("x y")
+    cw = pts if _signed_area(pts) < 0 else pts[::-1]
+    poly = sy.Polygon(*[sy.Point(sy.Rational(px), sy.Rational(py)) for px, py in cw])
+    A = polytope_integrate(poly, sy.Integer(1))
+    Sy = polytope_integrate(poly, y)
+    Iyy = polytope_integrate(poly, y**2)
+    cy = Sy / A
+    return float(A), float(cy), float(Iyy - A * cy**2)
+
+
+def _signed_area(pts):
+    return 0.5 * sum(x0 * y1 - x1 * y0 for (x0, y0), (x1, y1) in zip(pts, pts[1:] + pts[:1]))
+
+
+@settings(max_examples=30)
+@given(st.lists(st.tuples(st.floats(0.2, 1.0), st.floats(0.5, 2.0)), min_size=3, max_size=9),
+       st.booleans())
+def test_star_polygon_against_sympy(arms, clockwise):
+    # a star-shaped (simple, possibly non-convex) polygon: vertex k at angle
+    # 2 pi (k + f_k/2)/n and radius r_k, off the origin, rounded to 1e-3
+    n = len(arms)
+    pts = [(round(3.0 + r * math.cos(2 * math.pi * (k + f / 2) / n), 3),
+            round(-1.0 + r * math.sin(2 * math.pi * (k + f / 2) / n), 3)) for k, (f, r) in enumerate(arms)]
+    if clockwise:
+        pts = pts[::-1]
+    if not ShPolygon(pts).is_valid or abs(_signed_area(pts)) < 1e-3:
+        return
+    A, cy, Ix = _sympy_props(pts)
+    p = polygon_properties(pts)
+    assert p.area == pytest.approx(A, rel=1e-9)       # sympy polytope_integrate
+    assert p.cy == pytest.approx(cy, rel=1e-9)
+    assert p.Ix == pytest.approx(Ix, rel=1e-9)

@@ -8,7 +8,6 @@ beams.
 """
 from __future__ import annotations
 
-import numpy as np
 import pytest
 import sympy as sy
 
