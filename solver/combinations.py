@@ -306,24 +306,33 @@ def with_reversals(
     combination flip independently (2**k variants).  Names are the
     formatted factors, so they show the sign; a combination given by name
     keeps its name for the sign it was written with, and its mirrors are
-    named by their factors.  Duplicates (a mirror that is already in the
-    list) are dropped, first kept; other combinations pass unchanged.
+    named by their factors (followed by ``" (mirror of <name>)"`` in the
+    odd case that a given combination of other factors bears that name).
+    A mirror that is itself in the list is left to it (name and place);
+    duplicates among the given combinations are dropped, first kept; other
+    combinations pass unchanged.
 
     >>> with_reversals([("0.9D+W", {"D": 0.9, "W": 1.0})])
     [('0.9D+W', {'D': 0.9, 'W': 1.0}), ('0.9D-W', {'D': 0.9, 'W': -1.0})]
     """
     rev = list(dict.fromkeys(reversible))
+    combos = [(name, dict(factors)) for name, factors in combos]
+    given_names = {name for name, _ in combos}
+
+    def signature(f: dict[str, float]) -> tuple:
+        return tuple(sorted((k, v) for k, v in f.items() if v != 0.0))
+
+    given_sigs = {signature(f) for _, f in combos}
     out: list[tuple[str, dict[str, float]]] = []
     seen: set[tuple] = set()
 
     def push(name: str, f: dict[str, float]) -> None:
-        sig = tuple(sorted(f.items()))
+        sig = signature(f)
         if sig not in seen:
             seen.add(sig)
             out.append((name, f))
 
     for name, factors in combos:
-        factors = dict(factors)
         push(name, factors)
         flips = [c for c in rev if factors.get(c, 0.0) != 0.0]
         for mask in range(1, 2 ** len(flips)):
@@ -331,5 +340,10 @@ def with_reversals(
             for i, c in enumerate(flips):
                 if mask >> i & 1:
                     g[c] = -g[c]
-            push(format_combination(g), g)
+            if signature(g) in given_sigs:  # given in the list: it keeps its own name and place
+                continue
+            mirror = format_combination(g)
+            if mirror in given_names:  # a given combination of other factors bears this name
+                mirror = f"{mirror} (mirror of {name})"
+            push(mirror, g)
     return out

@@ -267,12 +267,22 @@ def shape_properties(text: str, unit: float) -> SectionProperties:
     return SectionProperties(A, 0.0, 0.0, I, I, 0.0, D, D)
 
 
-def section_from_shape(text: str, E: float, unit: float, name: str | None = None) -> Section:
+def _about(p: SectionProperties, axis: str) -> float:
+    if axis == "x":
+        return p.Ix
+    if axis == "y":
+        return p.Iy
+    raise ValueError("axis must be 'x' (bending about the horizontal axis) or 'y' (about the vertical axis)")
+
+
+def section_from_shape(text: str, E: float, unit: float, name: str | None = None, *, axis: str = "x") -> Section:
     """A :class:`~solver.model.Section` from a shape text: ``E``
-    [force/length**2], A and I (about the horizontal axis) from
-    :func:`shape_properties`; the name defaults to the text."""
+    [force/length**2], A and I from :func:`shape_properties`; the name
+    defaults to the text.  ``axis="x"`` (default) bends about the
+    horizontal centroidal axis (an I or RHS about its strong axis);
+    ``axis="y"`` about the vertical one (the shape turned a quarter)."""
     p = shape_properties(text, unit)
-    return Section(E=E, A=p.area, I=p.Ix, name=name if name is not None else " ".join(str(text).split()))
+    return Section(E=E, A=p.area, I=_about(p, axis), name=name if name is not None else " ".join(str(text).split()))
 
 
 def section_from_outline(
@@ -282,9 +292,10 @@ def section_from_outline(
     *,
     unit: float = 1.0,
     name: str = "",
+    axis: str = "x",
 ) -> Section:
     """A :class:`~solver.model.Section` from a drawn outline (see
     :func:`polygon_properties`), bending about the horizontal centroidal
-    axis."""
+    axis (``axis="x"``, default) or the vertical one (``axis="y"``)."""
     p = polygon_properties(vertices, holes, unit=unit)
-    return Section(E=E, A=p.area, I=p.Ix, name=name)
+    return Section(E=E, A=p.area, I=_about(p, axis), name=name)

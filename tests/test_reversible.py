@@ -75,3 +75,11 @@ def test_reversed_wind_mirrors_the_sway():
     up, down = res["0.9D+W"], res["0.9D-W"]
     wind = cases["W"].displacements[b, 0]
     assert up.displacements[b, 0] - down.displacements[b, 0] == pytest.approx(2 * wind, rel=1e-12)
+
+
+def test_mirror_name_never_shadows_a_given_name():
+    combos = [("0.9D-W", {"D": 1.0}), ("0.9D+W", {"D": 0.9, "W": 1.0})]
+    got = with_reversals(combos, ["W"])
+    names = [n for n, _ in got]
+    assert names == ["0.9D-W", "0.9D+W", "0.9D-W (mirror of 0.9D+W)"]
+    assert len(set(names)) == len(names)

@@ -95,6 +95,11 @@ def test_i_section_parallel_axis():
     assert p.Ix == pytest.approx((2 * flange + web) * MM**4, rel=1e-12)
     assert p.Iy == pytest.approx((2 * tf * b**3 / 12 + hw * tw**3 / 12) * MM**4, rel=1e-12)
     assert p.depth == pytest.approx(h * MM)
+    # turned a quarter: bending about the web axis, 2 tf b^3/12 + hw tw^3/12 (Roark)
+    weak = section_from_shape("I 310x165x6x10", 210e9, MM, axis="y")
+    assert weak.I == pytest.approx((2 * tf * b**3 / 12 + hw * tw**3 / 12) * MM**4, rel=1e-12)
+    with pytest.raises(ValueError):
+        section_from_shape("I 310x165x6x10", 210e9, MM, axis="z")
 
 
 def test_drawn_l_shape_hand_computation():
