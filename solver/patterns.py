@@ -18,7 +18,8 @@ rafters of a pitched roof are two spans (unbalanced loading covered).  ``by="mem
 ``group``) is a part.  A nodal load or settlement at a node inside a span
 belongs to that span; at a break it is a part of its own ("node 7").
 Spans carrying no load of the case are not parts.  A part is named by its
-members: ``"M3"`` or ``"M3+M4"``.
+members: ``"M3"``, ``"M3+M4"``, or first and last for more than three
+(``"M3..M9"``).
 
 Envelope
 --------
@@ -70,6 +71,7 @@ import numpy as np
 
 from .model import Frame, Load, MemberCouple, DistributedLoad, PointLoad
 from .combinations import format_combination
+from .errors import LoadError
 from .results import CaseResult, combine
 from .stiffness import solve
 
@@ -133,7 +135,7 @@ def _spans(frame: Frame, by: str) -> tuple[dict[str, int], set[int]]:
 
 
 def _span_name(members: list[str]) -> str:
-    return "+".join(members)
+    return "+".join(members) if len(members) <= 3 else f"{members[0]}..{members[-1]}"
 
 
 def pattern_parts(frame: Frame, case: str, by: str = "span") -> list[PatternPart]:
@@ -156,7 +158,7 @@ def pattern_parts(frame: Frame, case: str, by: str = "span") -> list[PatternPart
             continue
         if isinstance(ld, (PointLoad, MemberCouple, DistributedLoad)):
             if ld.member not in span_of:
-                raise KeyError(f"load on member {ld.member!r}, which does not exist")
+                raise LoadError(f"load on member {ld.member!r}, which does not exist", handle=ld.handle)
             by_span.setdefault(span_of[ld.member], []).append(ld)
         elif ld.node in node_span:
             by_span.setdefault(node_span[ld.node], []).append(ld)

@@ -18,7 +18,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from solver import DistributedLoad, Frame, NodalLoad, PointLoad, Section, solve
+from solver import DistributedLoad, Frame, LoadError, NodalLoad, PointLoad, Section, solve
 from solver.patterns import pattern_envelope, pattern_parts
 
 SEC = Section(200e9, 5e-3, 8e-5)
@@ -119,6 +119,10 @@ def test_nodal_parts_and_errors():
         pattern_envelope(f, "Lr")
     with pytest.raises(ValueError):
         pattern_parts(f, "L", by="bay")
+    f.add_load(PointLoad("nope", 1.0, py=-1.0, case="L", handle="3F"))
+    with pytest.raises(LoadError) as e:
+        pattern_parts(f, "L")
+    assert e.value.handle == "3F"
 
 
 @settings(max_examples=25)
