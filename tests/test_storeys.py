@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import pytest
 import sympy as sy
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from solver import Frame, NodalLoad, Section, solve
 from solver.storeys import DEFAULT_DRIFT_LIMIT, drift_envelope, find_storeys, node_table, storey_drifts
@@ -160,3 +162,37 @@ def test_node_table():
     # the two column tops move alike: the beam is axially rigid (A = 1000 m^2)
     assert t["ux"][1] == pytest.approx(t["ux"][2], rel=1e-6)
     assert DEFAULT_DRIFT_LIMIT == 400.0  # h/400, common practice for service wind drift
+
+
+@settings(max_examples=20)
+@given(st.lists(st.tuples(st.floats(2.5, 5.0), st.floats(2e-5, 3e-4), st.floats(-50e3, 50e3)),
+                min_size=1, max_size=4),
+       st.integers(1, 3))
+def test_shear_frame_any_height(storeys, bays):
+    # n storeys, ``bays`` bays, very stiff beams, fixed bases: storey k
+    # drifts V_k h_k^3 / (12 sum EI) (fixed-fixed columns, sway stiffness
+    # 12EI/h^3, from memory), V_k the sum of the lateral loads at and above
+    # level k
+    f = Frame()
+    yv = 0.0
+    row = [f.add_node(5.0 * j, 0.0) for j in range(bays + 1)]
+    for n in row:
+        f.add_support(n, "fixed")
+    for h, Ic, H in storeys:
+        yv += h
+        new = [f.add_node(5.0 * j, yv) for j in range(bays + 1)]
+        for a, b in zip(row, new):
+            f.add_member(a, b, Section(E, A_RIGID, Ic))
+        for a, b in zip(new[:-1], new[1:]):
+            f.add_member(a, b, Section(E, A_RIGID, 1e3))
+        f.add_load(NodalLoad(new[0], fx=H, case="W"))
+        row = new
+    st_ = find_storeys(f)
+    assert len(st_) == len(storeys)
+    d = storey_drifts(f, solve(f)["W"], st_)
+    expect = [sum(H for _, _, H in storeys[k:]) * h**3 / (12 * (bays + 1) * E * Ic)
+              for k, (h, Ic, _) in enumerate(storeys)]
+    scale = max(abs(v) for v in expect) + 1e-15  # the stiff beams still turn a little
+    for k, (h, Ic, _) in enumerate(storeys):
+        assert d[k].drift == pytest.approx(expect[k], rel=1e-4, abs=1e-4 * scale)
+        assert d[k].height == pytest.approx(h)
