@@ -14,7 +14,8 @@ from .model import __all__ as _model_all
 from .errors import LoadError, MissingSectionError, SolverError, SupportError, UnstableFrameError
 from .forces import DeflectionCheck, LoadSet, MemberLayout, MemberResult, MemberResults
 from .results import CaseResult, Reaction, combine, combine_many, envelope, reaction_envelope
-from .combinations import REVERSIBLE_DEFAULT, builtin_combinations, format_combination, parse_combination, with_reversals
+from .combinations import (REVERSIBLE_DEFAULT, builtin_combinations, format_combination, parse_combination,
+                           with_reversals)
 from .stiffness import solve
 from .determinacy import check, Determinacy
 from .storeys import (DEFAULT_DRIFT_LIMIT, Storey, StoreyDrift, Storeys, drift_envelope, find_storeys,
