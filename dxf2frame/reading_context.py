@@ -170,6 +170,7 @@ class _Ctx:
             handle=src.handle,
             layer=src.layer,
             tag=self.settings.attr(tag),
+            notes=self.warnings,
         )
 
 
