@@ -28,7 +28,8 @@ On member layers (``FRAME`` and ``FRAME-*``, remappable):
   ``FORCE COUPLE UDL``, names case-insensitive and remappable).  Any other
   block name there is an :class:`UnknownBlockError`; a symbol of another
   group (a FORCE on SUPPORTS) likewise.  MINSERT grids give one symbol per
-  grid cell.
+  grid cell; a grid with a zero row or column spacing (copies stacked on
+  one point) is refused.
 * on any other layer: a convention symbol is ignored with a warning (it is
   on the wrong layer); any other block is exploded through ezdxf's
   ``virtual_entities()`` (recursively, with the insert's scale, rotation,
@@ -111,6 +112,7 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
+from .block_expansion import check_expansion
 from .cleanup import build_frame, default_tolerance
 from .drawing_file import _describe, open_document
 from .drawing_model import DrawingModel
@@ -263,6 +265,7 @@ def read_document(
             f"{source}: {n_entities} entities, more than the limit of {settings.max_entities} "
             "(raise [limits] max_entities in dxf2frame.toml if this is intended)"
         )
+    check_expansion(doc, settings.max_entities)
     warnings: list[str] = []
     _check_handles(doc, settings, warnings)
     unit = _drawing_unit(doc, settings, length_unit, warnings)

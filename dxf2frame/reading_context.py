@@ -66,7 +66,7 @@ class _Ctx:
     hinges: int = 0
     n_loads: int = 0
     _attdefs: dict[str, dict[str, str]] = field(default_factory=dict)
-    _relevant: dict[str, tuple[bool, bool]] = field(default_factory=dict)
+    _reads_memo: dict[tuple[str, str], bool] = field(default_factory=dict)
 
     # -- helpers -------------------------------------------------------------
     def role_of_layer(self, layer: str) -> str | None:
@@ -137,27 +137,51 @@ class _Ctx:
                 out[canon] = t
         return out
 
-    def block_relevance(self, name: str) -> tuple[bool, bool]:
-        """(has content on input layers or nested inserts, has layer-0 linework)."""
-        r = self._relevant.get(name)
-        if r is None:
-            blk = self.doc.blocks.get(name)
-            relevant = layer0 = False
-            if blk is not None:
-                for e in blk:
-                    t = e.dxftype()
-                    if t in ("ATTDEF",):
-                        continue
-                    lay = e.dxf.get("layer", "0")
-                    if t == "INSERT":
-                        relevant = True
-                    elif lay == "0":
-                        layer0 = True
-                    elif self.settings.is_frame_layer(lay) or self.role_of_layer(lay):
-                        relevant = True
-            r = (relevant, layer0)
-            self._relevant[name] = r
-        return r
+    def block_reads(self, name: str, layer: str) -> bool:
+        """True when exploding a reference of block ``name`` on ``layer``
+        gives the reader something: an entity on a frame or input layer, a
+        convention symbol (read, or ignored with a warning), or a nested
+        reference to a block that reads.  Pieces on layer ``0`` take the
+        layer of the reference; result layers are skipped.  Decorative
+        nesting of any depth (also a block containing itself) gives False,
+        so it is never exploded or refused."""
+        return self._reads(name, layer, set())[0]
+
+    def _reads(self, name: str, layer: str, visiting: set) -> tuple[bool, bool]:
+        """(reads, result depends on a block still being visited)."""
+        key = (name, layer)
+        if key in self._reads_memo:
+            return self._reads_memo[key], False
+        if key in visiting:
+            return False, True  # a cycle adds nothing the first pass does not find
+        blk = self.doc.blocks.get(name)
+        if blk is None:
+            return False, False
+        visiting.add(key)
+        found = open_cycle = False
+        for e in blk:
+            t = e.dxftype()
+            if t == "ATTDEF":
+                continue
+            lay = e.dxf.get("layer", "0")
+            eff = layer if lay == "0" else lay
+            if self.settings.is_result_layer(eff):
+                continue
+            if t == "INSERT":
+                nested = e.dxf.get("name", "")
+                if self.role_of_layer(eff) is not None or self.settings.block_kind(nested) is not None:
+                    found = True
+                else:
+                    found, cyc = self._reads(nested, eff, visiting)
+                    open_cycle = open_cycle or cyc
+            elif self.settings.is_frame_layer(eff) or self.role_of_layer(eff):
+                found = True
+            if found:
+                break
+        visiting.discard(key)
+        if found or not open_cycle:
+            self._reads_memo[key] = found
+        return found, open_cycle and not found
 
     def quantity(self, attrs: dict[str, str], tag: str, kind: str, src: _Source, default_unit: str | None = None):
         text = attrs.get(tag)

@@ -126,3 +126,186 @@ def test_unicode_minus_and_comma_from_the_command_line(tmp_path, capsys):
     rc, _, err = run_cli(capsys, "solve", path, "--out", tmp_path / "out2", "--no-png")
     assert_bad_input(rc, err, tmp_path / "out2", names=(f"#{bad.dxf.handle}", "'LOADS'", "P", "5,5 kN",
                                                          "'5.5 kN'"))
+
+
+# ---------------------------------------------------------------------------
+# MINSERT grids and damaged block references
+# ---------------------------------------------------------------------------
+
+
+def _minsert(msp, block, at, *, rows=1, cols=1, row_spacing=0.0, col_spacing=0.0, layer="LOADS", **attribs):
+    ins = msp.add_blockref(block, at, dxfattribs={
+        "layer": layer, "row_count": rows, "column_count": cols,
+        "row_spacing": row_spacing, "column_spacing": col_spacing})
+    for tag, value in attribs.items():
+        ins.add_attrib(tag.upper(), str(value), insert=at)
+    return ins
+
+
+def test_minsert_with_zero_spacing_stacks_loads_and_is_refused(tmp_path, capsys):
+    doc = beam_doc()
+    ins = _minsert(doc.modelspace(), "FORCE", (SPAN / 2, 0.0), cols=10, P="5 kN")
+    path = write_case(tmp_path / "in", doc)
+    rc, _, err = run_cli(capsys, "solve", path, "--out", tmp_path / "out", "--no-png")
+    assert_bad_input(rc, err, tmp_path / "out", names=(f"#{ins.dxf.handle}", "'LOADS'", "10 columns", "spacing 0",
+                                                        "FORCE"))
+
+
+def test_minsert_grid_gives_one_load_per_cell(tmp_path, capsys):
+    doc = beam_doc(w="0 kN/m")
+    _minsert(doc.modelspace(), "FORCE", (1.0, 0.0), cols=3, col_spacing=1.0, P="10 kN")
+    path = write_case(tmp_path / "in", doc)
+    report, _ = solve_ok(capsys, path, tmp_path / "out")
+    res = next(r for r in report["results"] if r["name"] == "D")
+    fy = [f for _, f in sorted((r["x"], r["fy"]) for r in res["reactions"])]
+    # statics (moments about the left support): R_right = sum(P x) / L = 10 (1 + 2 + 3) / 6 = 10 kN,
+    # R_left = 30 - 10 = 20 kN
+    assert fy == pytest.approx([20.0, 10.0], rel=1e-9)
+
+
+def _text_without_insertion_x(doc, handle: str) -> bytes:
+    import io
+    import re
+
+    buf = io.StringIO()
+    doc.write(buf)
+    text = buf.getvalue()
+    start = text.index(f"\n  5\n{handle}\n")
+    end = text.index("\n  0\n", start)
+    entity = re.sub(r"\n 10\n[^\n]*", "", text[start:end], count=1)
+    return (text[:start] + entity + text[end:]).encode("utf-8")
+
+
+@pytest.mark.parametrize("where", ["loads", "frame-block"])
+def test_insert_without_insertion_point_is_refused(tmp_path, capsys, where):
+    from dxf_builders import add_block, add_member, insert_block
+
+    doc = beam_doc()
+    msp = doc.modelspace()
+    if where == "loads":
+        ins = add_load(msp, "force", (2.5, 0.0), P="5 kN")
+    else:
+        blk = add_block(doc, "BRACE")
+        add_member(blk, (0, 0), (0, 2.0))
+        ins = insert_block(msp, "BRACE", (3.0, 0.0))
+    data = _text_without_insertion_x(doc, ins.dxf.handle)
+    path = write_case(tmp_path / "in", data=data)
+    rc, _, err = run_cli(capsys, "solve", path, "--out", tmp_path / "out", "--no-png")
+    assert_bad_input(rc, err, tmp_path / "out", names=(f"#{ins.dxf.handle}", "insertion point"))
+
+
+# ---------------------------------------------------------------------------
+# unbounded work: grids and nested blocks counted before anything is expanded
+# ---------------------------------------------------------------------------
+
+_LIMITED_RUN = """
+import resource, sys
+resource.setrlimit(resource.RLIMIT_AS, ({mb} << 20, {mb} << 20))
+from dxf2frame.cli import main
+for args in {cases!r}:
+    try:
+        rc = main(args)
+    except MemoryError:
+        rc = "MemoryError"
+    print("RC", rc, flush=True)
+"""
+
+
+def _run_limited(cases: list[list[str]], mb: int = 1500, timeout: float = 120.0):
+    """Run CLI commands in one fresh interpreter under an address-space limit
+    of ``mb`` MiB; returns (exit statuses, stderr)."""
+    import os
+    import subprocess
+    import sys
+
+    env = {**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1", "MPLBACKEND": "Agg"}
+    script = _LIMITED_RUN.format(mb=mb, cases=[[str(a) for a in c] for c in cases])
+    proc = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, env=env, timeout=timeout)
+    codes = [line.split()[1] for line in proc.stdout.splitlines() if line.startswith("RC ")]
+    return codes, proc.stderr
+
+
+def _grid_drawings(tmp_path):
+    """Four 1000 x 1000 grids (a million cells each): PIN on SUPPORTS, FORCE on
+    LOADS, a block holding a FRAME line, and a decorative block on its own layer."""
+    from dxf_builders import add_block, add_member
+
+    out = {}
+    for kind in ("pin", "force", "frame-block", "decor"):
+        doc = beam_doc()
+        msp = doc.modelspace()
+        if kind == "pin":
+            ins = _minsert(msp, "PIN", (0, 10), rows=1000, cols=1000, row_spacing=1, col_spacing=1, layer="SUPPORTS")
+        elif kind == "force":
+            ins = _minsert(msp, "FORCE", (0, 10), rows=1000, cols=1000, row_spacing=1, col_spacing=1, P="1 kN")
+        elif kind == "frame-block":
+            add_member(add_block(doc, "POST"), (0, 0), (0, 0.5))
+            ins = _minsert(msp, "POST", (0, 10), rows=1000, cols=1000, row_spacing=1, col_spacing=1, layer="0")
+        else:
+            doc.layers.add("TILES")
+            blk = add_block(doc, "TILE")
+            blk.add_circle((0, 0), 0.2, dxfattribs={"layer": "TILES"})
+            ins = _minsert(msp, "TILE", (0, 10), rows=1000, cols=1000, row_spacing=1, col_spacing=1, layer="TILES")
+        out[kind] = (write_case(tmp_path / kind, doc), ins.dxf.handle)
+    return out
+
+
+def test_huge_grids_are_refused_before_expanding_anything(tmp_path):
+    cases = _grid_drawings(tmp_path)
+    runs = []
+    for kind, (path, _) in cases.items():
+        runs.append(["check", path])
+        runs.append(["solve", path, "--out", tmp_path / f"out-{kind}"])
+    codes, err = _run_limited(runs)
+    assert codes == ["2"] * len(runs), err
+    lines = err.strip().splitlines()
+    assert len(lines) == len(runs), err
+    for line, args in zip(lines, runs):
+        handle = next(h for k, (p, h) in cases.items() if p == args[1])
+        for text in (f"#{handle}", "1000 x 1000", "1000000", "limit of 500000", "max_entities"):
+            assert text in line, (text, line)
+    assert not any((tmp_path / f"out-{kind}").exists() and any((tmp_path / f"out-{kind}").iterdir())
+                   for kind in cases)
+
+
+def test_nested_block_expansion_is_counted(tmp_path, capsys):
+    from dxf_builders import add_block, insert_block
+
+    doc = beam_doc()
+    msp = doc.modelspace()
+    doc.layers.add("DECOR")
+    leaf = add_block(doc, "B0")
+    leaf.add_point((0, 0), dxfattribs={"layer": "DECOR"})
+    for level in range(1, 7):  # B6 holds 10 B5, each 10 B4, ...: 10**6 points
+        blk = add_block(doc, f"B{level}")
+        for k in range(10):
+            insert_block(blk, f"B{level - 1}", (k, 0), layer="DECOR")
+    top = insert_block(msp, "B6", (0, 20), layer="DECOR")
+    path = write_case(tmp_path / "in", doc)
+    rc, _, err = run_cli(capsys, "check", path)
+    assert_bad_input(rc, err, names=(f"#{top.dxf.handle}", "'DECOR'", "B6", "limit of 500000"))
+
+
+def test_decorative_blocks_nested_deeply_are_not_refused(tmp_path, capsys):
+    from dxf_builders import add_block, insert_block
+
+    doc = beam_doc()
+    doc.layers.add("DECOR")
+    add_block(doc, "N0").add_circle((0, 0), 0.1, dxfattribs={"layer": "DECOR"})
+    for level in range(1, 25):
+        insert_block(add_block(doc, f"N{level}"), f"N{level - 1}", (0.1, 0), layer="0")
+    insert_block(doc.modelspace(), "N24", (0, 5), layer="DECOR")
+    path = write_case(tmp_path / "in", doc)
+    from test_hardening import check_simple_beam
+    report, _ = solve_ok(capsys, path, tmp_path / "out")
+    check_simple_beam(report)
+
+    # the same nesting with a member at the bottom matters: refused
+    doc = beam_doc()
+    add_block(doc, "N0").add_line((0, 0), (0, 1), dxfattribs={"layer": "FRAME"})
+    for level in range(1, 25):
+        insert_block(add_block(doc, f"N{level}"), f"N{level - 1}", (0.1, 0), layer="0")
+    deep = insert_block(doc.modelspace(), "N24", (0, 5), layer="0")
+    path = write_case(tmp_path / "in2", doc)
+    rc, _, err = run_cli(capsys, "check", path)
+    assert_bad_input(rc, err, names=(f"#{deep.dxf.handle}", "nested more than 16 deep"))
