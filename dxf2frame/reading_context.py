@@ -24,7 +24,7 @@ from dataclasses import dataclass, field
 from ezdxf.math import Vec3
 
 from .cleanup import ConnectionSpec, Segment, SupportSpec
-from .errors import GeometryError
+from .errors import DrawingError, GeometryError, shorten
 from .settings import Settings
 from .units import parse_quantity
 
@@ -121,9 +121,11 @@ class _Ctx:
             self._attdefs[block_name] = d
         return d
 
-    def attributes(self, insert) -> dict[str, str]:
+    def attributes(self, insert, src: _Source | None = None) -> dict[str, str]:
         """Convention tag -> stripped text; ATTRIBs first, ATTDEF defaults for
-        missing tags; empty values omitted."""
+        missing tags; empty values omitted.  A value longer than
+        ``limits.max_attribute_chars`` is a :class:`DrawingError` naming
+        ``src`` (the insert by default)."""
         raw: dict[str, str] = {}
         for tag, text in self.attdef_defaults(insert.dxf.name).items():
             raw[tag] = text
@@ -134,6 +136,8 @@ class _Ctx:
             t = (text or "").strip()
             canon = self.settings.canonical_tag(tag)
             if t and canon is not None:
+                if len(t) > self.settings.max_attribute_chars:
+                    raise _too_long(tag, t, self.settings.max_attribute_chars, insert, src)
                 out[canon] = t
         return out
 
@@ -197,6 +201,19 @@ class _Ctx:
             notes=self.warnings,
         )
 
+
+
+def _too_long(tag: str, text: str, limit: int, insert, src: _Source | None) -> DrawingError:
+    """The refusal of an attribute value over ``limits.max_attribute_chars``."""
+    handle = src.handle if src is not None else (insert.dxf.handle or "")
+    layer = src.layer if src is not None else insert.dxf.get("layer", "")
+    return DrawingError(
+        f"attribute {shorten(tag, 40)} has a value of {len(text)} characters ({shorten(text, 40)!r}), "
+        f"more than the limit of {limit}",
+        handle=handle,
+        layer=layer,
+        hint="shorten it, or raise [limits] max_attribute_chars in dxf2frame.toml if this is intended",
+    )
 
 
 # ---------------------------------------------------------------------------

@@ -41,7 +41,7 @@ import math
 import re
 from functools import lru_cache
 
-from .errors import UnitError
+from .errors import UnitError, shorten
 
 __all__ = [
     "KINDS",
@@ -132,6 +132,8 @@ def number_text(text: str) -> tuple[str, str | None]:
     drop it and read another number.
     """
     t = str(text).strip()
+    if len(t) > _MAX_TEXT:
+        raise _ParseFailure(f"value of {len(t)} characters, longer than {_MAX_TEXT} ({shorten(t)!r})")
     dashes = sorted({_MINUS_LIKE[c] for c in t if c in _MINUS_LIKE})
     t = t.replace(_MINUS_SIGN, "-")
     for c in _MINUS_LIKE:
@@ -140,28 +142,28 @@ def number_text(text: str) -> tuple[str, str | None]:
         raise _ParseFailure(_comma_message(t))
     if _GROUPED_DIGITS.search(t):
         raise _ParseFailure(
-            f"{t!r} has digits separated by a space (a thousands separator?); write one number "
+            f"{shorten(t)!r} has digits separated by a space (a thousands separator?); write one number "
             f"without separators, e.g. {_GROUPED_DIGITS.sub(lambda m: m.group()[0] + m.group()[-1], t)!r}"
         )
     if _TWO_POINTS.search(t):
         raise _ParseFailure(
-            f"{t!r} has two decimal points in one number (points as thousands separators?); "
+            f"{shorten(t)!r} has two decimal points in one number (points as thousands separators?); "
             "write the number with one decimal point and no thousands separator, e.g. '1000.5 kN'"
         )
     for c in t:
         if not (c.isascii() and c.isalnum() or c in _PLAIN or (not c.isascii() and c.isalpha())):
             raise _ParseFailure(
-                f"{t!r} holds the character {c!r} (U+{ord(c):04X}), which is not part of a number or unit"
+                f"{shorten(t)!r} holds the character {c!r} (U+{ord(c):04X}), which is not part of a number or unit"
             )
     note = None
     if dashes:
-        note = f"{' and '.join(dashes)} read as a minus sign in {t!r}"
+        note = f"{' and '.join(dashes)} read as a minus sign in {shorten(t)!r}"
     return t, note
 
 
 def _comma_message(t: str) -> str:
     """The refusal of a number text with a comma, with the two readings."""
-    head = f"{t!r}: a comma in a number is ambiguous (decimal comma or thousands separator)"
+    head = f"{shorten(t)!r}: a comma in a number is ambiguous (decimal comma or thousands separator)"
     m = re.fullmatch(r"([-+]?\d*),(\d+)(.*)", t)
     if m and "." not in t:
         decimal = f"{m.group(1)}.{m.group(2)}{m.group(3)}"
@@ -310,7 +312,7 @@ def parse_quantity(
         # ArithmeticError: pint overflows on text such as 'N**1E3'
         what = KINDS[kind][1]
         label = f"attribute {tag}: " if tag else ""
-        reason = str(exc) if isinstance(exc, _ParseFailure) else f"cannot read {str(text).strip()!r} ({exc})"
+        reason = str(exc) if isinstance(exc, _ParseFailure) else f"cannot read {shorten(str(text).strip())!r} ({exc})"
         raise UnitError(
             f"{label}{reason}",
             handle=handle,

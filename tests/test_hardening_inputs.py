@@ -309,3 +309,41 @@ def test_decorative_blocks_nested_deeply_are_not_refused(tmp_path, capsys):
     path = write_case(tmp_path / "in2", doc)
     rc, _, err = run_cli(capsys, "check", path)
     assert_bad_input(rc, err, names=(f"#{deep.dxf.handle}", "nested more than 16 deep"))
+
+
+# ---------------------------------------------------------------------------
+# attribute lengths
+# ---------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("tag, command", [("CASE", "solve"), ("CASE", "explain"), ("P", "solve"), ("P", "check")])
+def test_huge_attribute_values_are_refused_and_not_echoed(tmp_path, capsys, tag, command):
+    doc = beam_doc()
+    values = {"P": "5 kN", "CASE": "L"}
+    values[tag] = ("9" if tag == "P" else "X") * 1_000_000 + " kN" * (tag == "P")
+    ins = add_load(doc.modelspace(), "force", (SPAN / 2, 0.0), **values)
+    path = write_case(tmp_path / "in", doc)
+    args = [command, path] + (["--out", tmp_path / "out", "--no-png"] if command == "solve" else [])
+    if command == "explain":
+        args += ["--out", tmp_path / "out"]
+    rc, _, err = run_cli(capsys, *args)
+    assert_bad_input(rc, err, tmp_path / "out", names=(f"#{ins.dxf.handle}", "'LOADS'", tag,
+                                                         "characters", "max_attribute_chars"))
+    assert len(err) < 400, err
+
+
+def test_attribute_length_limit_is_a_setting(tmp_path, capsys):
+    doc = beam_doc(case="Dead load of the roof")
+    path = write_case(tmp_path / "in", doc, settings=FAST_SETTINGS + "[limits]\nmax_attribute_chars = 10\n")
+    rc, _, err = run_cli(capsys, "check", path)
+    assert_bad_input(rc, err, names=("CASE", "21 characters", "limit of 10"))
+    write_case(tmp_path / "in", doc, settings=FAST_SETTINGS + "[limits]\nmax_attribute_chars = 0\n")
+    rc, _, err = run_cli(capsys, "check", path)
+    assert_bad_input(rc, err, names=("limits.max_attribute_chars",))
+
+
+def test_messages_shorten_long_texts():
+    from dxf2frame.errors import DrawingError
+
+    exc = DrawingError("value " + "x" * 100_000, handle="A" * 5000, layer="L" * 5000, hint="h" * 100_000)
+    assert len(str(exc)) < 2000 and "100006 characters" in str(exc)
