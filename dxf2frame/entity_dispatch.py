@@ -236,7 +236,7 @@ def _insert_one(ctx: _Ctx, e, src: _Source) -> None:
         orig = getattr(v, "source_of_copy", None)
         h = orig.dxf.handle if orig is not None and orig.dxf.handle else str(i + 1)
         lay = v.dxf.get("layer", "0")
-        eff = src.layer if lay == "0" else lay
+        eff = src.layer if lay == "0" else ctx.text(lay, "the layer name", f"{src.handle}_{h}")
         if ctx.settings.is_result_layer(eff):
             continue
         handler = HANDLERS.get(v.dxftype())

@@ -118,7 +118,7 @@ from .drawing_file import _describe, open_document
 from .drawing_model import DrawingModel
 from .entity_dispatch import _ENTITY_DATA_ERRORS, HANDLERS, SYMBOL_GROUPS
 from .errors import DrawingError, GeometryError, InputFileError
-from .reading_context import MAX_COORDINATE_M, _Ctx, _Source
+from .reading_context import MAX_COORDINATE_M, _Ctx, _decode_surrogates, _Source
 from .settings import Settings, load_settings
 from .units import INSUNITS, length_unit_scale, normalise_length_unit, parse_quantity
 
@@ -297,7 +297,7 @@ def read_document(
         handler = HANDLERS.get(e.dxftype())
         if handler is None:
             continue
-        layer = e.dxf.get("layer", "0")
+        layer = ctx.text(e.dxf.get("layer", "0"), "the layer name", e.dxf.handle or "")
         if settings.is_result_layer(layer):
             continue
         try:
@@ -340,7 +340,7 @@ def read_document(
         source=source,
         length_unit=unit,
         unit_scale=scale,
-        warnings=ctx.warnings,
+        warnings=[_decode_surrogates(w) for w in ctx.warnings],  # block names etc. quoted raw
         hinges=ctx.hinges,
         n_loads=ctx.n_loads,
         extents=(x0 / scale, y0 / scale, x1 / scale, y1 / scale),

@@ -19,12 +19,13 @@ floats (:func:`dxf2frame.units.parse_quantity`); a bare number is taken in
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 
 from ezdxf.math import Vec3
 
 from .cleanup import ConnectionSpec, Segment, SupportSpec
-from .errors import DrawingError, GeometryError, shorten
+from .errors import DrawingError, GeometryError, one_line, shorten
 from .settings import Settings
 from .units import parse_quantity
 
@@ -67,6 +68,7 @@ class _Ctx:
     n_loads: int = 0
     _attdefs: dict[str, dict[str, str]] = field(default_factory=dict)
     _reads_memo: dict[tuple[str, str], bool] = field(default_factory=dict)
+    _decoded: set[str] = field(default_factory=set)
 
     # -- helpers -------------------------------------------------------------
     def role_of_layer(self, layer: str) -> str | None:
@@ -132,8 +134,9 @@ class _Ctx:
         for a in insert.attribs:
             raw[a.dxf.tag.upper()] = a.dxf.get("text", "")
         out: dict[str, str] = {}
+        where = src.handle if src is not None else (insert.dxf.handle or "")
         for tag, text in raw.items():
-            t = (text or "").strip()
+            t = self.text((text or "").strip(), f"attribute {tag}", where)
             canon = self.settings.canonical_tag(tag)
             if t and canon is not None:
                 if len(t) > self.settings.max_attribute_chars:
@@ -187,6 +190,23 @@ class _Ctx:
             self._reads_memo[key] = found
         return found, open_cycle and not found
 
+    def text(self, raw: str, what: str, handle: str) -> str:
+        """A text from the drawing (layer name, attribute value) with bytes
+        that were not UTF-8 (kept by ezdxf as surrogates) decoded as
+        Windows-1252, the usual code page of older CAD programs; each such
+        text is a warning naming the entity once.  Other texts are returned
+        unchanged."""
+        if not _SURROGATE.search(raw):
+            return raw
+        fixed = _decode_surrogates(raw)
+        if raw not in self._decoded:
+            self._decoded.add(raw)
+            self.warnings.append(
+                f"{what} of #{handle} holds bytes that are not UTF-8 ({one_line(shorten(raw))}); read as "
+                f"Windows-1252: '{shorten(fixed)}' (save the drawing again as UTF-8 to silence this warning)"
+            )
+        return fixed
+
     def quantity(self, attrs: dict[str, str], tag: str, kind: str, src: _Source, default_unit: str | None = None):
         text = attrs.get(tag)
         if text is None:
@@ -201,6 +221,17 @@ class _Ctx:
             notes=self.warnings,
         )
 
+
+
+_SURROGATE = re.compile("[\udc80-\udcff]")
+
+
+def _decode_surrogates(text: str) -> str:
+    """Undecodable bytes (surrogate escapes U+DC80..U+DCFF) decoded as
+    Windows-1252; anything that still cannot be decoded becomes U+FFFD."""
+    raw = text.encode("utf-8", "surrogateescape")
+    out = raw.decode("utf-8", "surrogateescape")
+    return _SURROGATE.sub(lambda m: bytes([ord(m.group()) - 0xDC00]).decode("cp1252", "replace"), out)
 
 
 def _too_long(tag: str, text: str, limit: int, insert, src: _Source | None) -> DrawingError:

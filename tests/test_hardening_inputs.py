@@ -347,3 +347,52 @@ def test_messages_shorten_long_texts():
 
     exc = DrawingError("value " + "x" * 100_000, handle="A" * 5000, layer="L" * 5000, hint="h" * 100_000)
     assert len(str(exc)) < 2000 and "100006 characters" in str(exc)
+
+
+# ---------------------------------------------------------------------------
+# bytes that are not UTF-8 in an R2018 file
+# ---------------------------------------------------------------------------
+
+
+def _latin1_drawing(folder, name="frame.dxf"):
+    """A beam on layer 'FRAME-Bé' with a FORCE of case 'Lé', saved as R2018
+    (UTF-8) and then patched so that both 'é' are the single Latin-1 byte E9,
+    as an older program would write them."""
+    doc = beam_doc(frame_layer="FRAME-Bé")
+    add_load(doc.modelspace(), "force", (SPAN / 2, 0.0), P="12 kN", CASE="Lé")
+    path = write_case(folder, doc, name=name)
+    data = path.read_bytes()
+    assert data.count("é".encode("utf-8")) >= 2
+    path.write_bytes(data.replace("é".encode("utf-8"), b"\xe9"))
+    return path
+
+
+@pytest.mark.parametrize("command", ["check", "solve", "explain", "compare", "batch"])
+def test_bytes_that_are_not_utf8_are_read_as_latin1_with_a_warning(tmp_path, capsys, command):
+    a = _latin1_drawing(tmp_path / "in")
+    out = tmp_path / "out"
+    if command == "check":
+        args = ["check", a]
+    elif command == "solve":
+        args = ["solve", a, "--out", out, "--units", "kN,m"]
+    elif command == "explain":
+        args = ["explain", a, "--out", out, "--at", "3,0"]
+    elif command == "compare":
+        b = _latin1_drawing(tmp_path / "in", name="frame-b.dxf")
+        args = ["compare", a, b, "--out", out]
+    else:
+        _latin1_drawing(tmp_path / "in", name="frame-b.dxf")
+        args = ["solve", tmp_path / "in", "--out", out, "--no-png", "--units", "kN,m"]
+    rc, stdout, err = run_cli(capsys, *args)
+    assert rc == 0, err
+    assert "Traceback" not in err and "internal error" not in err
+    if command in ("check", "solve"):
+        assert "not UTF-8" in stdout + err and "Windows-1252" in stdout + err
+    if command in ("solve", "batch"):
+        report = json.loads((out / "frame-results.json").read_text(encoding="utf-8"))
+        assert "Lé" in [r["name"] for r in report["results"]]
+        res = next(r for r in report["results"] if r["name"] == "Lé")
+        # 12 kN at midspan of a simple beam: R = P/2 = 6 kN each (AISC Manual, Table 3-23 case 7; from memory)
+        assert sorted(r["fy"] for r in res["reactions"]) == pytest.approx([6.0, 6.0], rel=1e-9)
+        assert {m["layer"] for m in res["members"]} == {"FRAME-Bé"}
+        assert any("not UTF-8" in w for w in report["warnings"])
