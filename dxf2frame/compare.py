@@ -71,7 +71,7 @@ from typing import Iterable, Mapping, Sequence
 
 import numpy as np
 
-from .errors import InputFileError
+from .errors import InputFileError, shorten
 from .revision_data import (FLOOR_FRACTION, MEMBER_QUANTITIES, REACTION_QUANTITIES, Comparison, MemberChange,
                             MemberRef, ReactionChange, RevisionDiff, ValueChange)
 from .revision_marks import cloud_points, mark_changes
@@ -259,6 +259,10 @@ def _load_json_report(path: Path) -> dict:
         raise InputFileError(f"{path}: cannot read: {exc.strerror or exc}") from None
     except (UnicodeDecodeError, json.JSONDecodeError) as exc:
         raise InputFileError(f"{path}: not a JSON report: {exc}") from None
+    except RecursionError:
+        raise InputFileError(f"{path}: not a JSON report: lists or tables nested too deep") from None
+    except ValueError as exc:  # an integer longer than Python's digit limit
+        raise InputFileError(f"{path}: not a JSON report: {shorten(str(exc), 120)}") from None
     _check_report(data, str(path))
     return data
 

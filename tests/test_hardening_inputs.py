@@ -396,3 +396,68 @@ def test_bytes_that_are_not_utf8_are_read_as_latin1_with_a_warning(tmp_path, cap
         assert sorted(r["fy"] for r in res["reactions"]) == pytest.approx([6.0, 6.0], rel=1e-9)
         assert {m["layer"] for m in res["members"]} == {"FRAME-Bé"}
         assert any("not UTF-8" in w for w in report["warnings"])
+
+
+# ---------------------------------------------------------------------------
+# compare: report files that are not what the schema says
+# ---------------------------------------------------------------------------
+
+
+def _two_reports(tmp_path, capsys):
+    for name in ("rev-a", "rev-b"):
+        path = write_case(tmp_path / "in", beam_doc(), name=f"{name}.dxf")
+        solve_ok(capsys, path, tmp_path / "reports")
+    return tmp_path / "reports" / "rev-a-results.json", tmp_path / "reports" / "rev-b-results.json"
+
+
+def _set(report: dict, path: str, value):
+    *head, last = path.split(".")
+    node = report
+    for key in head:
+        node = node[int(key)] if isinstance(node, list) else node[key]
+    node[int(last) if isinstance(node, list) else last] = value
+
+
+@pytest.mark.parametrize("key, value", [
+    ("results.0.members.0.m_max", "12.5"),
+    ("results.0.members.0.start", ["0", 0]),
+    ("results.0.reactions.0.x", None),
+    ("results.0.reactions.0.fy", True),
+    ("results.0.members.0.n_min", [1, 2]),
+    ("results.0.members", {"a": 1}),
+    ("results.0", "D"),
+    ("units.force", 5),
+])
+def test_compare_refuses_report_values_of_the_wrong_type(tmp_path, capsys, key, value):
+    a, b = _two_reports(tmp_path, capsys)
+    report = json.loads(b.read_text(encoding="utf-8"))
+    _set(report, key, value)
+    b.write_text(json.dumps(report), encoding="utf-8")
+    rc, _, err = run_cli(capsys, "compare", a, b, "--out", tmp_path / "cmp")
+    shown = key.replace(".0.", "[0].").replace(".0", "[0]") if key.startswith("results") else key
+    assert_bad_input(rc, err, tmp_path / "cmp", names=(str(b), shown))
+
+
+@pytest.mark.parametrize("text, names", [
+    ("[" * 100_000 + "]" * 100_000, ("nested too deep",)),
+    ('{"schema": 1, "units": {"force": "kN", "length": "m"}, "results": [], "x": ' + "9" * 5000 + "}",
+     ("not a JSON report",)),
+])
+def test_compare_refuses_hostile_json(tmp_path, capsys, text, names):
+    a, b = _two_reports(tmp_path, capsys)
+    b.write_text(text, encoding="utf-8")
+    rc, _, err = run_cli(capsys, "compare", a, b, "--out", tmp_path / "cmp")
+    assert_bad_input(rc, err, tmp_path / "cmp", names=(str(b),) + names)
+    assert len(err) < 600
+
+
+def test_compare_refuses_a_huge_integer_value(tmp_path, capsys):
+    a, b = _two_reports(tmp_path, capsys)
+    text = b.read_text(encoding="utf-8")
+    report = json.loads(text)
+    old = report["results"][0]["members"][0]["m_max"]
+    report["results"][0]["members"][0]["m_max"] = 10 ** 400  # within the parser's digit limit, beyond a float
+    b.write_text(json.dumps(report), encoding="utf-8")
+    rc, _, err = run_cli(capsys, "compare", a, b, "--out", tmp_path / "cmp")
+    assert_bad_input(rc, err, tmp_path / "cmp", names=(str(b), "results[0].members[0].m_max", "finite number"))
+    assert old is not None
