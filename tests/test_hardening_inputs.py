@@ -461,3 +461,53 @@ def test_compare_refuses_a_huge_integer_value(tmp_path, capsys):
     rc, _, err = run_cli(capsys, "compare", a, b, "--out", tmp_path / "cmp")
     assert_bad_input(rc, err, tmp_path / "cmp", names=(str(b), "results[0].members[0].m_max", "finite number"))
     assert old is not None
+
+
+# ---------------------------------------------------------------------------
+# the preview: far-away linework, huge decorative grids, failures
+# ---------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("far", [1e308, 1e200, 1e13])
+def test_far_away_line_on_another_layer_does_not_stop_the_preview(tmp_path, capsys, far):
+    doc = beam_doc()
+    doc.layers.add("DECOR")
+    line = doc.modelspace().add_line((-far, 0), (far, far), dxfattribs={"layer": "DECOR"})
+    path = write_case(tmp_path / "in", doc)
+    rc, _, err = run_cli(capsys, "solve", path, "--out", tmp_path / "out", "--units", "kN,m")
+    assert rc == 0, err
+    assert (tmp_path / "out" / "frame-results.png").stat().st_size > 1000
+    assert f"#{line.dxf.handle}" in err and "not drawn" in err
+    from test_hardening import check_simple_beam
+    check_simple_beam(json.loads((tmp_path / "out" / "frame-results.json").read_text(encoding="utf-8")))
+
+
+def test_huge_decorative_grid_is_left_out_of_the_preview(tmp_path):
+    from dxf_builders import add_block
+
+    doc = beam_doc()
+    doc.layers.add("TILES")
+    add_block(doc, "TILE").add_circle((0, 0), 0.2, dxfattribs={"layer": "TILES"})
+    grid = _minsert(doc.modelspace(), "TILE", (0, 10), rows=300, cols=300, row_spacing=1, col_spacing=1,
+                    layer="TILES")
+    path = write_case(tmp_path / "in", doc)
+    codes, err = _run_limited([["solve", path, "--out", tmp_path / "out", "--units", "kN,m"]], timeout=90)
+    assert codes == ["0"], err
+    assert f"#{grid.dxf.handle}" in err and "180000" in err  # 90000 cells, each a reference and a circle
+    assert "not drawn" in err
+    assert (tmp_path / "out" / "frame-results.png").exists()
+
+
+def test_a_preview_that_fails_is_a_warning(tmp_path, capsys, monkeypatch):
+    import dxf2frame.preview as preview
+
+    def broken(*a, **kw):
+        raise ValueError("figure size must be positive finite")
+
+    monkeypatch.setattr(preview, "render_panels_png", broken)
+    path = write_case(tmp_path / "in", beam_doc())
+    rc, _, err = run_cli(capsys, "solve", path, "--out", tmp_path / "out", "--units", "kN,m")
+    assert rc == 0, err
+    assert "preview: not drawn" in err and "figure size" in err
+    assert not (tmp_path / "out" / "frame-results.png").exists()
+    assert (tmp_path / "out" / "frame-results.json").exists() and (tmp_path / "out" / "frame-results.dxf").exists()
