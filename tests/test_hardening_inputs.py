@@ -511,3 +511,43 @@ def test_a_preview_that_fails_is_a_warning(tmp_path, capsys, monkeypatch):
     assert "preview: not drawn" in err and "figure size" in err
     assert not (tmp_path / "out" / "frame-results.png").exists()
     assert (tmp_path / "out" / "frame-results.json").exists() and (tmp_path / "out" / "frame-results.dxf").exists()
+
+
+# ---------------------------------------------------------------------------
+# truncated files
+# ---------------------------------------------------------------------------
+
+
+def _cut(doc, where: str) -> bytes:
+    import io
+
+    buf = io.StringIO()
+    doc.write(buf)
+    text = buf.getvalue()
+    if where == "entities":  # just after the first member's handle
+        start = text.index("\nENTITIES\n")
+        at = text.index("\nLINE\n", start) + len("\nLINE\n  5\n")
+    elif where == "header":
+        at = text.index("$INSUNITS") - 40
+    elif where == "blocks":
+        at = text.index("\nBLOCKS\n") + 300
+    else:  # after the ENTITIES section, inside OBJECTS
+        at = text.index("\nOBJECTS\n") + 200
+    return text[:at].encode("utf-8")
+
+
+@pytest.mark.parametrize("where, section", [("entities", "ENTITIES"), ("header", "HEADER"), ("blocks", "BLOCKS")])
+@pytest.mark.parametrize("command", ["check", "solve"])
+def test_truncated_files_are_called_damaged(tmp_path, capsys, where, section, command):
+    path = write_case(tmp_path / "in", data=_cut(beam_doc(), where))
+    args = [command, path] + (["--out", tmp_path / "out", "--no-png"] if command == "solve" else [])
+    rc, _, err = run_cli(capsys, *args)
+    assert_bad_input(rc, err, tmp_path / "out", names=(str(path), "damaged", f"inside the {section} section"))
+
+
+def test_file_cut_after_its_entities_is_read_with_a_warning(tmp_path, capsys):
+    path = write_case(tmp_path / "in", data=_cut(beam_doc(), "objects"))
+    report, err = solve_ok(capsys, path, tmp_path / "out")
+    from test_hardening import check_simple_beam
+    check_simple_beam(report)
+    assert "recovery mode" in err
