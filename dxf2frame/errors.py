@@ -107,8 +107,8 @@ class SettingsError(Dxf2FrameError):
     def __init__(self, message: str, *, path: str = "", key: str = "") -> None:
         self.path, self.key = path, key
         where = f"{path}: " if path else ""
-        k = f"[{key}] " if key else ""
-        super().__init__(f"{where}{k}{message}")
+        k = f"[{shorten(key)}] " if key else ""
+        super().__init__(f"{where}{k}{shorten(message, 10 * MAX_ECHO)}")
 
 
 class InputFileError(Dxf2FrameError):

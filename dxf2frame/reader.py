@@ -117,7 +117,7 @@ from .cleanup import build_frame, default_tolerance
 from .drawing_file import _describe, open_document
 from .drawing_model import DrawingModel
 from .entity_dispatch import _ENTITY_DATA_ERRORS, HANDLERS, SYMBOL_GROUPS
-from .errors import DrawingError, GeometryError, InputFileError
+from .errors import MAX_ECHO, DrawingError, GeometryError, InputFileError, shorten
 from .reading_context import MAX_COORDINATE_M, _Ctx, _decode_surrogates, _Source
 from .settings import Settings, load_settings
 from .units import INSUNITS, length_unit_scale, normalise_length_unit, parse_quantity
@@ -340,7 +340,7 @@ def read_document(
         source=source,
         length_unit=unit,
         unit_scale=scale,
-        warnings=[_decode_surrogates(w) for w in ctx.warnings],  # block names etc. quoted raw
+        warnings=[_decode_surrogates(shorten(w, 10 * MAX_ECHO)) for w in ctx.warnings],  # names quoted raw
         hinges=ctx.hinges,
         n_loads=ctx.n_loads,
         extents=(x0 / scale, y0 / scale, x1 / scale, y1 / scale),

@@ -551,3 +551,19 @@ def test_file_cut_after_its_entities_is_read_with_a_warning(tmp_path, capsys):
     from test_hardening import check_simple_beam
     check_simple_beam(report)
     assert "recovery mode" in err
+
+
+def test_long_names_in_warnings_and_settings_errors_are_shortened(tmp_path, capsys):
+    from dxf_builders import add_support
+
+    doc = beam_doc()
+    long_layer = "DECOR-" + "x" * 5000
+    doc.layers.add(long_layer)
+    add_support(doc.modelspace(), "pin", (10.0, 10.0), layer=long_layer)  # a symbol off its layer: a warning
+    path = write_case(tmp_path / "in", doc)
+    report, err = solve_ok(capsys, path, tmp_path / "out")
+    assert report["warnings"] and all(len(w) < 1000 for w in report["warnings"])
+    write_case(tmp_path / "in", doc, settings=FAST_SETTINGS + f'[units]\nlength = "{"q" * 100_000}"\n'.replace(
+        "[units]\n", "", 1).replace("length", "[geometry]\nsnap", 1))
+    rc, _, err = run_cli(capsys, "check", path)
+    assert rc == 2 and len(err) < 1200, err[:300]
