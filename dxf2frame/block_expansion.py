@@ -89,8 +89,8 @@ def check_expansion(doc, limit: int) -> int:
     grid = f"a MINSERT grid of {rows} x {cols} = {cells} cells of" if cells > 1 else "a reference to"
     whole = "" if worst_n == total else f"; the drawing expands to {total} in all"
     raise GeometryError(
-        f"{grid} block '{worst.dxf.get('name', '')}', which expands to {worst_n} entities with its nested "
-        f"blocks{whole}, more than the limit of {limit}",
+        f"{grid} block '{worst.dxf.get('name', '')}', which expands to {worst_n} entities (references and "
+        f"the entities of their blocks){whole}, more than the limit of {limit}",
         handle=worst.dxf.handle or "",
         layer=worst.dxf.get("layer", "0"),
         hint="raise [limits] max_entities in dxf2frame.toml if this is intended",
