@@ -567,3 +567,14 @@ def test_long_names_in_warnings_and_settings_errors_are_shortened(tmp_path, caps
         "[units]\n", "", 1).replace("length", "[geometry]\nsnap", 1))
     rc, _, err = run_cli(capsys, "check", path)
     assert rc == 2 and len(err) < 1200, err[:300]
+
+
+@pytest.mark.parametrize("key", ["source", "results.0.members.0.layer", "results.0.name"])
+def test_compare_refuses_half_surrogate_escapes(tmp_path, capsys, key):
+    a, b = _two_reports(tmp_path, capsys)
+    report = json.loads(b.read_text(encoding="utf-8"))
+    _set(report, key, "FR\udce9")
+    b.write_text(json.dumps(report), encoding="utf-8")  # ensure_ascii: written as the escape \\udce9
+    rc, _, err = run_cli(capsys, "compare", a, b, "--out", tmp_path / "cmp")
+    shown = key.replace(".0.", "[0].").replace(".0", "[0]")
+    assert_bad_input(rc, err, tmp_path / "cmp", names=(str(b), shown, "UTF-16"))
