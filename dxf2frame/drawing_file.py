@@ -25,12 +25,13 @@ import ezdxf
 from ezdxf import recover
 
 from .entity_dispatch import HANDLERS
-from .errors import DrawingError, InputFileError
+from .errors import DrawingError, InputFileError, one_line
 from .settings import Settings
 
 __all__ = ["open_document"]
 
 _BINARY_SENTINEL = b"AutoCAD Binary DXF"
+_UNDECODED = re.compile("[\ud800-\udfff]")
 _NOTE_LIMIT = 5
 
 
@@ -199,6 +200,9 @@ def open_document(path: Path | str, settings: Settings | None = None):
     settings = settings or Settings()
     if not p.exists():
         raise InputFileError(f"{p}: file not found")
+    if _UNDECODED.search(p.name):
+        # the name goes into the report, the notes layer and the preview
+        raise InputFileError(f"{one_line(str(p))}: the file name holds bytes that are not UTF-8; rename the file")
     if not p.is_file():
         raise InputFileError(f"{p}: not a file")
     try:

@@ -9,6 +9,7 @@ AISC Manual, Table 3-23 (via ``check_simple_beam``).
 from __future__ import annotations
 
 import json
+from pathlib import Path
 import math
 
 import pytest
@@ -578,3 +579,16 @@ def test_compare_refuses_half_surrogate_escapes(tmp_path, capsys, key):
     rc, _, err = run_cli(capsys, "compare", a, b, "--out", tmp_path / "cmp")
     shown = key.replace(".0.", "[0].").replace(".0", "[0]")
     assert_bad_input(rc, err, tmp_path / "cmp", names=(str(b), shown, "UTF-16"))
+
+
+@pytest.mark.parametrize("command", ["check", "solve"])
+def test_file_name_that_is_not_utf8_is_refused(tmp_path, capsys, command):
+    import os
+
+    folder = tmp_path / "in"
+    path = write_case(folder, beam_doc())
+    odd = Path(os.fsdecode(os.fsencode(str(folder)) + b"/Tr\xe4ger.dxf"))
+    path.rename(odd)
+    args = [command, odd] + (["--out", tmp_path / "out", "--no-png"] if command == "solve" else [])
+    rc, _, err = run_cli(capsys, *args)
+    assert_bad_input(rc, err, tmp_path / "out", names=("Tr\\xe4ger.dxf", "not UTF-8", "rename"))
