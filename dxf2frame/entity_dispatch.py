@@ -136,7 +136,7 @@ def _check_insertion_point(e, src: _Source) -> None:
     (damaged group codes) is refused: ezdxf would place it at the origin."""
     if not e.dxf.hasattr("insert"):
         raise GeometryError(
-            "block reference has no insertion point (its group code 10 is missing); it would be "
+            "block reference has no insertion point (group codes 10/20 missing or damaged); it would be "
             "placed at the origin",
             handle=src.handle,
             layer=src.layer,

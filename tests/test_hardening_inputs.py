@@ -164,7 +164,7 @@ def test_minsert_grid_gives_one_load_per_cell(tmp_path, capsys):
     assert fy == pytest.approx([20.0, 10.0], rel=1e-9)
 
 
-def _text_without_insertion_x(doc, handle: str) -> bytes:
+def _text_without_insertion_x(doc, handle: str, code: str = "10") -> bytes:
     import io
     import re
 
@@ -173,12 +173,13 @@ def _text_without_insertion_x(doc, handle: str) -> bytes:
     text = buf.getvalue()
     start = text.index(f"\n  5\n{handle}\n")
     end = text.index("\n  0\n", start)
-    entity = re.sub(r"\n 10\n[^\n]*", "", text[start:end], count=1)
+    entity = re.sub(rf"\n {code}\n[^\n]*", "", text[start:end], count=1)
     return (text[:start] + entity + text[end:]).encode("utf-8")
 
 
+@pytest.mark.parametrize("code", ["10", "20"])
 @pytest.mark.parametrize("where", ["loads", "frame-block"])
-def test_insert_without_insertion_point_is_refused(tmp_path, capsys, where):
+def test_insert_without_insertion_point_is_refused(tmp_path, capsys, where, code):
     from dxf_builders import add_block, add_member, insert_block
 
     doc = beam_doc()
@@ -189,7 +190,7 @@ def test_insert_without_insertion_point_is_refused(tmp_path, capsys, where):
         blk = add_block(doc, "BRACE")
         add_member(blk, (0, 0), (0, 2.0))
         ins = insert_block(msp, "BRACE", (3.0, 0.0))
-    data = _text_without_insertion_x(doc, ins.dxf.handle)
+    data = _text_without_insertion_x(doc, ins.dxf.handle, code)
     path = write_case(tmp_path / "in", data=data)
     rc, _, err = run_cli(capsys, "solve", path, "--out", tmp_path / "out", "--no-png")
     assert_bad_input(rc, err, tmp_path / "out", names=(f"#{ins.dxf.handle}", "insertion point"))
