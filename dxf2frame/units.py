@@ -113,7 +113,8 @@ _MINUS_LIKE: dict[str, str] = {
 #: characters of a number text besides ASCII letters and digits (pint reads
 #: "kN\u00b7m", "mm\u00b2", "30\u00b0" and "\u00b5m" correctly)
 _PLAIN = frozenset(" .+-*/^()_\u00b7\u00b2\u00b3\u00b0\u00b5")
-_GROUPED_DIGITS = re.compile(r"\d[ \u00a0\u2009\u202f]+\d")
+_GROUPED_DIGITS = re.compile(r"\d\s+\d")
+_SPACES = re.compile(r"\s+")
 _TWO_POINTS = re.compile(r"\.\d*\.")
 
 
@@ -145,6 +146,7 @@ def number_text(text: str) -> tuple[str, str | None]:
             f"{shorten(t)!r} has digits separated by a space (a thousands separator?); write one number "
             f"without separators, e.g. {_GROUPED_DIGITS.sub(lambda m: m.group()[0] + m.group()[-1], t)!r}"
         )
+    t = _SPACES.sub(" ", t)  # a no-break or thin space between number and unit is a space
     if _TWO_POINTS.search(t):
         raise _ParseFailure(
             f"{shorten(t)!r} has two decimal points in one number (points as thousands separators?); "

@@ -68,6 +68,12 @@ def test_commas_and_grouped_digits_are_refused_as_ambiguous(text, fix):
     assert fix in msg
 
 
+@pytest.mark.parametrize("space", ["\u00a0", "\u2009", "\u202f", "\t", "  "])
+def test_any_space_between_number_and_unit_is_a_space(space):
+    assert _force(f"5{space}kN") == 5000.0  # 1 kN = 1000 N (SI prefix)
+    assert _force(f"\u2212 2.5{space}kN") == -2500.0
+
+
 @pytest.mark.parametrize("junk", [";", "!", "=", "#", "[", "]", "%", "&", "|", "\u00d7", "\u2044"])
 def test_characters_the_unit_parser_would_drop_are_refused(junk):
     # the unit parser reads "5 kN; 2" as 10 kN: such texts must be refused
