@@ -40,27 +40,53 @@ def expanded_count(insert, blocks, memo: dict[str, int] | None = None) -> int:
     memo : block name -> expanded count of its content, shared between calls
     """
     memo = {} if memo is None else memo
-    return _cells(insert) * (1 + _block_count(insert.dxf.get("name", ""), blocks, memo, set()))
+    return _cells(insert) * (1 + _block_count(insert.dxf.get("name", ""), blocks, memo))
 
 
-def _block_count(name: str, blocks, memo: dict[str, int], visiting: set[str]) -> int:
-    if name in memo:
-        return memo[name]
-    if name in visiting:
-        return 0
-    blk = blocks.get(name)
-    if blk is None:
-        return 0
-    visiting.add(name)
-    total = 0
-    for e in blk:
-        if e.dxftype() == "INSERT":
-            total += _cells(e) * (1 + _block_count(e.dxf.get("name", ""), blocks, memo, visiting))
-        else:
-            total += 1
-    visiting.discard(name)
-    memo[name] = total
-    return total
+def _block_count(root: str, blocks, memo: dict[str, int]) -> int:
+    """Expanded count of the content of block ``root`` (memoised in ``memo``).
+
+    Iterative (a hostile file may nest thousands of blocks, deeper than
+    Python's recursion limit); a reference back into a block still being
+    counted (a block containing itself) counts its cells only."""
+    if root in memo:
+        return memo[root]
+    stack: list[list] = []  # [name, [(child, cells)], next index, total]
+    on_path: set[str] = set()
+
+    def enter(name: str) -> None:
+        blk = blocks.get(name)
+        if blk is None:
+            memo[name] = 0
+            return
+        refs, direct = [], 0
+        for e in blk:
+            if e.dxftype() == "INSERT":
+                refs.append((e.dxf.get("name", ""), _cells(e)))
+            else:
+                direct += 1
+        stack.append([name, refs, 0, direct])
+        on_path.add(name)
+
+    enter(root)
+    while stack:
+        frame = stack[-1]
+        name, refs, k = frame[0], frame[1], frame[2]
+        if k < len(refs):
+            child, cells = refs[k]
+            if child in memo:
+                frame[3] += cells * (1 + memo[child])
+                frame[2] += 1
+            elif child in on_path:
+                frame[3] += cells
+                frame[2] += 1
+            else:
+                enter(child)  # counted when its frame is done (or memo set to 0)
+            continue
+        stack.pop()
+        on_path.discard(name)
+        memo[name] = frame[3]
+    return memo[root]
 
 
 def check_expansion(doc, limit: int) -> int:

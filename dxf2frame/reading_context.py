@@ -152,43 +152,68 @@ class _Ctx:
         layer of the reference; result layers are skipped.  Decorative
         nesting of any depth (also a block containing itself) gives False,
         so it is never exploded or refused."""
-        return self._reads(name, layer, set())[0]
+        memo = self._reads_memo
+        if (name, layer) in memo:
+            return memo[(name, layer)]
+        # iterative depth-first search: a hostile file may nest thousands of
+        # blocks, deeper than Python's recursion limit
+        stack: list[list] = []  # [key, entities iterator, found, depends on an open block]
+        on_path: set[tuple[str, str]] = set()
+        result = False
 
-    def _reads(self, name: str, layer: str, visiting: set) -> tuple[bool, bool]:
-        """(reads, result depends on a block still being visited)."""
-        key = (name, layer)
-        if key in self._reads_memo:
-            return self._reads_memo[key], False
-        if key in visiting:
-            return False, True  # a cycle adds nothing the first pass does not find
-        blk = self.doc.blocks.get(name)
-        if blk is None:
-            return False, False
-        visiting.add(key)
-        found = open_cycle = False
-        for e in blk:
+        def enter(key: tuple[str, str]) -> None:
+            blk = self.doc.blocks.get(key[0])
+            if blk is None:
+                memo[key] = False
+                return
+            stack.append([key, iter(blk), False, False])
+            on_path.add(key)
+
+        def finish(found: bool, open_cycle: bool) -> None:
+            nonlocal result
+            key = stack.pop()[0]
+            on_path.discard(key)
+            if found or not open_cycle:
+                memo[key] = found
+            if stack:
+                stack[-1][2] = stack[-1][2] or found
+                stack[-1][3] = stack[-1][3] or (open_cycle and not found)
+            else:
+                result = found
+
+        enter((name, layer))
+        if not stack:
+            return False
+        while stack:
+            frame = stack[-1]
+            (_, layer_of_ref), entities = frame[0], frame[1]
+            if frame[2]:
+                finish(True, False)
+                continue
+            e = next(entities, None)
+            if e is None:
+                finish(False, frame[3])
+                continue
             t = e.dxftype()
             if t == "ATTDEF":
                 continue
             lay = e.dxf.get("layer", "0")
-            eff = layer if lay == "0" else lay
+            eff = layer_of_ref if lay == "0" else lay
             if self.settings.is_result_layer(eff):
                 continue
             if t == "INSERT":
                 nested = e.dxf.get("name", "")
                 if self.role_of_layer(eff) is not None or self.settings.block_kind(nested) is not None:
-                    found = True
+                    frame[2] = True
+                elif (nested, eff) in memo:
+                    frame[2] = memo[(nested, eff)]
+                elif (nested, eff) in on_path:
+                    frame[3] = True  # a cycle adds nothing the first pass does not find
                 else:
-                    found, cyc = self._reads(nested, eff, visiting)
-                    open_cycle = open_cycle or cyc
+                    enter((nested, eff))
             elif self.settings.is_frame_layer(eff) or self.role_of_layer(eff):
-                found = True
-            if found:
-                break
-        visiting.discard(key)
-        if found or not open_cycle:
-            self._reads_memo[key] = found
-        return found, open_cycle and not found
+                frame[2] = True
+        return result
 
     def text(self, raw: str, what: str, handle: str) -> str:
         """A text from the drawing (layer name, attribute value) with bytes

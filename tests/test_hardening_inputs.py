@@ -599,3 +599,24 @@ def test_file_name_that_is_not_utf8_is_refused(tmp_path, capsys, command):
     args = [command, odd] + (["--out", tmp_path / "out", "--no-png"] if command == "solve" else [])
     rc, _, err = run_cli(capsys, *args)
     assert_bad_input(rc, err, tmp_path / "out", names=("Tr\\xe4ger.dxf", "not UTF-8", "rename"))
+
+
+@pytest.mark.parametrize("bottom", ["decor", "frame"])
+def test_thousands_of_nested_blocks_do_not_exhaust_the_stack(tmp_path, capsys, bottom):
+    from dxf_builders import add_block, insert_block
+
+    doc = beam_doc()
+    doc.layers.add("DECOR")
+    layer = "FRAME" if bottom == "frame" else "DECOR"
+    add_block(doc, "D0").add_line((0, 0), (0, 1), dxfattribs={"layer": layer})
+    for level in range(1, 3000):
+        insert_block(add_block(doc, f"D{level}"), f"D{level - 1}", (0, 0), layer="0")
+    top = insert_block(doc.modelspace(), "D2999", (10, 10), layer="DECOR")
+    path = write_case(tmp_path / "in", doc)
+    rc, _, err = run_cli(capsys, "solve", path, "--out", tmp_path / "out", "--units", "kN,m")
+    if bottom == "decor":
+        assert rc == 0, err
+        from test_hardening import check_simple_beam
+        check_simple_beam(json.loads((tmp_path / "out" / "frame-results.json").read_text(encoding="utf-8")))
+    else:
+        assert_bad_input(rc, err, tmp_path / "out", names=(f"#{top.dxf.handle}", "nested more than 16 deep"))
