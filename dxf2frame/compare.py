@@ -64,6 +64,7 @@ Example
 from __future__ import annotations
 
 import json
+import re
 import math
 import sys
 from pathlib import Path
@@ -71,7 +72,7 @@ from typing import Iterable, Mapping, Sequence
 
 import numpy as np
 
-from .errors import InputFileError
+from .errors import InputFileError, one_line, shorten
 from .revision_data import (FLOOR_FRACTION, MEMBER_QUANTITIES, REACTION_QUANTITIES, Comparison, MemberChange,
                             MemberRef, ReactionChange, RevisionDiff, ValueChange)
 from .revision_marks import cloud_points, mark_changes
@@ -255,13 +256,41 @@ def compare_reports(
 
 def _load_json_report(path: Path) -> dict:
     try:
-        data = json.loads(path.read_text(encoding="utf-8"))
+        text = path.read_text(encoding="utf-8")
+        data = json.loads(text)
     except OSError as exc:
         raise InputFileError(f"{path}: cannot read: {exc.strerror or exc}") from None
     except (UnicodeDecodeError, json.JSONDecodeError) as exc:
         raise InputFileError(f"{path}: not a JSON report: {exc}") from None
+    except RecursionError:
+        raise InputFileError(f"{path}: not a JSON report: lists or tables nested too deep") from None
+    except ValueError as exc:  # an integer longer than Python's digit limit
+        raise InputFileError(f"{path}: not a JSON report: {shorten(str(exc), 120)}") from None
+    if _ESCAPED_SURROGATE.search(text):
+        _refuse_lone_surrogates(data, path)
     _check_report(data, str(path))
     return data
+
+
+_ESCAPED_SURROGATE = re.compile(r"\\u[dD][89a-fA-F][0-9a-fA-F]{2}")
+_LONE_SURROGATE = re.compile("[\ud800-\udfff]")
+
+
+def _refuse_lone_surrogates(data, path: Path) -> None:
+    """A JSON text may escape half a UTF-16 pair (``"\\udce9"``): such a
+    string cannot be written to any file or terminal, so the report is
+    refused naming the key."""
+    stack = [(data, "")]
+    while stack:
+        node, where = stack.pop()
+        items = node.items() if isinstance(node, dict) else enumerate(node) if isinstance(node, list) else ()
+        for k, v in items:
+            at = f"{where}[{k}]" if isinstance(node, list) else (f"{where}.{k}" if where else str(k))
+            if isinstance(v, (dict, list)):
+                stack.append((v, at))
+            elif isinstance(v, str) and _LONE_SURROGATE.search(v) or isinstance(k, str) and _LONE_SURROGATE.search(k):
+                raise InputFileError(f"{path}: {one_line(shorten(at))} holds an escaped character that is "
+                                     "not a Unicode character (half of a UTF-16 pair)")
 
 
 def _report_of_drawing(path: Path, args, units: tuple[str, str] | None):

@@ -402,7 +402,7 @@ PREVIEW_PANEL_LIMIT = 2000
 
 
 def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
-                    force_u: str, length_u: str) -> None:
+                    force_u: str, length_u: str) -> list[str]:
     """PNG preview: one panel per diagram for a solved frame (moment, shear,
     axial, reactions with the deflected shape), the whole drawing for an
     unstable one."""
@@ -410,8 +410,7 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
     from .writer import result_layer_names
 
     if not analysis.stable:
-        preview.render_png(drawing, png)
-        return
+        return preview.render_png(drawing, png)
     names = result_layer_names(analysis.settings)
     loads = analysis.settings.layer("loads")
     panels = [
@@ -424,7 +423,25 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
         panels = panels[:1]
     hide = list(names.values()) + [loads]
     footer = f"{analysis.model.source.name}: showing {show}. {CAUTION}"
-    preview.render_panels_png(drawing, png, panels, hide=hide, footer=footer)
+    return preview.render_panels_png(drawing, png, panels, hide=hide, footer=footer)
+
+
+def _try_preview(drawing: Path, png: Path, analysis: Analysis, show: str, force_u: str, length_u: str,
+                 warnings: list[str]) -> bool:
+    """Render the preview; a preview that cannot be drawn is a warning (added
+    to ``warnings``), never a failed solve: the drawing and report are
+    the results.  Entities the preview left out are warnings too.  Returns
+    whether a PNG was written."""
+    try:
+        notes = _render_preview(drawing, png, analysis, show, force_u, length_u)
+    except MemoryError:
+        warnings.append("preview: not drawn (not enough memory); the drawing and report are complete")
+        return False
+    except Exception as exc:  # noqa: BLE001 - matplotlib/ezdxf failures of any kind on odd content
+        warnings.append(f"preview: not drawn ({type(exc).__name__}: {exc}); the drawing and report are complete")
+        return False
+    warnings.extend(notes or [])
+    return png.exists()
 
 
 def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
@@ -510,9 +527,11 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             written = ["drawing", "report"] + (["csv"] if with_csv else [])
             if req.png:
                 t0 = time.perf_counter()
-                _render_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u)
+                drawn = _try_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u,
+                                     outcome.warnings)
                 analysis.timings["png"] = time.perf_counter() - t0
-                written.append("png")
+                if drawn:
+                    written.append("png")
             if req.sheets and analysis.stable:
                 from . import handcheck
 

@@ -28,7 +28,8 @@ On member layers (``FRAME`` and ``FRAME-*``, remappable):
   ``FORCE COUPLE UDL``, names case-insensitive and remappable).  Any other
   block name there is an :class:`UnknownBlockError`; a symbol of another
   group (a FORCE on SUPPORTS) likewise.  MINSERT grids give one symbol per
-  grid cell.
+  grid cell; a grid with a zero row or column spacing (copies stacked on
+  one point) is refused.
 * on any other layer: a convention symbol is ignored with a warning (it is
   on the wrong layer); any other block is exploded through ezdxf's
   ``virtual_entities()`` (recursively, with the insert's scale, rotation,
@@ -111,12 +112,13 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
+from .block_expansion import check_expansion
 from .cleanup import build_frame, default_tolerance
 from .drawing_file import _describe, open_document
 from .drawing_model import DrawingModel
 from .entity_dispatch import _ENTITY_DATA_ERRORS, HANDLERS, SYMBOL_GROUPS
-from .errors import DrawingError, GeometryError, InputFileError
-from .reading_context import MAX_COORDINATE_M, _Ctx, _Source
+from .errors import MAX_ECHO, DrawingError, GeometryError, InputFileError, shorten
+from .reading_context import MAX_COORDINATE_M, _Ctx, _decode_surrogates, _Source
 from .settings import Settings, load_settings
 from .sketch_checks import check_section_keys, default_case_warning, near_misses
 from .units import INSUNITS, length_unit_scale, normalise_length_unit, parse_quantity
@@ -264,6 +266,7 @@ def read_document(
             f"{source}: {n_entities} entities, more than the limit of {settings.max_entities} "
             "(raise [limits] max_entities in dxf2frame.toml if this is intended)"
         )
+    check_expansion(doc, settings.max_entities)
     warnings: list[str] = []
     _check_handles(doc, settings, warnings)
     unit = _drawing_unit(doc, settings, length_unit, warnings)
@@ -295,7 +298,7 @@ def read_document(
         handler = HANDLERS.get(e.dxftype())
         if handler is None:
             continue
-        layer = e.dxf.get("layer", "0")
+        layer = ctx.text(e.dxf.get("layer", "0"), "the layer name", e.dxf.handle or "")
         if settings.is_result_layer(layer):
             continue
         try:
@@ -345,7 +348,7 @@ def read_document(
         source=source,
         length_unit=unit,
         unit_scale=scale,
-        warnings=ctx.warnings,
+        warnings=[_decode_surrogates(shorten(w, 10 * MAX_ECHO)) for w in ctx.warnings],  # names quoted raw
         hinges=ctx.hinges,
         n_loads=ctx.n_loads,
         extents=(x0 / scale, y0 / scale, x1 / scale, y1 / scale),

@@ -17,7 +17,9 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     (member layers whose crossings with each other stay separate; default
     ``["FRAME-BRACES"]``; every other crossing is joined rigidly).
 ``[limits]``
-    ``max_file_mb`` (200), ``max_entities`` (500000).
+    ``max_file_mb`` (200), ``max_entities`` (500000: entities after every
+    MINSERT cell and nested block is counted), ``max_attribute_chars``
+    (500: longest attribute value read).
 ``[layers]``
     input layer names ``frame``, ``supports``, ``connections``, ``loads``.
 ``[blocks]``
@@ -143,7 +145,7 @@ class Settings:
     arc_segments : 0 = arcs are errors, N = chord each arc into N members
     unjoined_layers : upper-case member layers whose crossings with each
         other stay separate (every other crossing is joined rigidly)
-    max_file_mb, max_entities : input limits
+    max_file_mb, max_entities, max_attribute_chars : input limits
     layers : {"frame"|"supports"|"connections"|"loads": layer name}
     blocks : {kind (upper case, e.g. "PIN"): block name (upper case)}
     attributes : {convention tag: tag used in the drawing (upper case)}
@@ -168,6 +170,7 @@ class Settings:
     unjoined_layers: tuple[str, ...] = ("FRAME-BRACES",)
     max_file_mb: float = 200.0
     max_entities: int = 500_000
+    max_attribute_chars: int = 500
     layers: Mapping[str, str] = field(default_factory=lambda: _ro(_DEFAULT_LAYERS))
     blocks: Mapping[str, str] = field(default_factory=lambda: _ro({k: k for k in BLOCK_KINDS}))
     attributes: Mapping[str, str] = field(default_factory=lambda: _ro({t: t for t in ATTRIBUTE_TAGS}))
@@ -391,11 +394,16 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
 
     # [limits]
     lim = _table(data, "limits", path)
-    _check_keys(lim, {"max_file_mb", "max_entities"}, "limits", path)
+    _check_keys(lim, {"max_file_mb", "max_entities", "max_attribute_chars"}, "limits", path)
     if "max_file_mb" in lim:
         kw["max_file_mb"] = _number(lim["max_file_mb"], "limits.max_file_mb", path)
     if "max_entities" in lim:
         kw["max_entities"] = int(_number(lim["max_entities"], "limits.max_entities", path))
+    if "max_attribute_chars" in lim:
+        n = lim["max_attribute_chars"]
+        if isinstance(n, bool) or not isinstance(n, int) or n < 1:
+            raise SettingsError(f"must be an integer >= 1, got {n!r}", path=path, key="limits.max_attribute_chars")
+        kw["max_attribute_chars"] = n
 
     # [layers]
     lay = _table(data, "layers", path)

@@ -76,7 +76,7 @@ def _case(attrs: dict[str, str], ctx: _Ctx | None = None, src: _Source | None = 
 
 def _symbol_support(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     at, ux, _ = _placement(ctx, e, src)
-    attrs = ctx.attributes(e)
+    attrs = ctx.attributes(e, src)
     angle = math.atan2(ux.y, ux.x)
     if abs(angle) < 1e-12:
         angle = 0.0
@@ -104,7 +104,7 @@ def _symbol_connection(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     layers = None
     if kind == "HINGE":
         ctx.hinges += 1
-        attrs = ctx.attributes(e)
+        attrs = ctx.attributes(e, src)
         if "MEMBERS" in attrs:
             layers = tuple(s.strip() for s in _SPLIT_LIST.split(attrs["MEMBERS"]) if s.strip()) or None
     ctx.connections.append(ConnectionSpec(at, kind.lower(), layers, src.handle, src.layer))
@@ -122,7 +122,7 @@ def _missing(what: str, tags: str, src: _Source, ctx: _Ctx) -> DrawingError:
 def _symbol_force(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     ctx.n_loads += 1
     at, _, arrow = _placement(ctx, e, src)
-    attrs = ctx.attributes(e)
+    attrs = ctx.attributes(e, src)
     P = ctx.quantity(attrs, "P", "force", src)
     if P is None:
         raise _missing("FORCE", "P", src, ctx)
@@ -137,7 +137,7 @@ def _symbol_force(ctx: _Ctx, e, kind: str, src: _Source) -> None:
 def _symbol_couple(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     ctx.n_loads += 1
     at, _, _ = _placement(ctx, e, src)
-    attrs = ctx.attributes(e)
+    attrs = ctx.attributes(e, src)
     M = ctx.quantity(attrs, "M", "moment", src)
     if M is None:
         raise _missing("COUPLE", "M", src, ctx)
@@ -159,7 +159,7 @@ def _choice(attrs: dict[str, str], tag: str, allowed: tuple[str, ...], default: 
 def _symbol_udl(ctx: _Ctx, e, kind: str, src: _Source) -> None:
     ctx.n_loads += 1
     at, _, _ = _placement(ctx, e, src)
-    attrs = ctx.attributes(e)
+    attrs = ctx.attributes(e, src)
     q = ctx.quantity
     w = q(attrs, "W", "distributed", src)
     w1 = q(attrs, "W1", "distributed", src)
