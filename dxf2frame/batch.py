@@ -3,20 +3,25 @@ progress, and a summary table.  One bad drawing never stops the batch.
 """
 from __future__ import annotations
 
+import contextlib
 import glob
 import os
+import signal
 import sys
 import time
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from collections import deque
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from concurrent.futures.process import BrokenProcessPool
 from pathlib import Path
 from typing import Callable, Iterable
 
 from .errors import InputFileError, one_line
 from .numbers import summary_value
-from .pipeline import (EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_OK, EXIT_UNSTABLE, FileOutcome, SolveRequest,
-                       output_paths, solve_file)
+from .pipeline import (EXIT_BAD_INPUT, EXIT_CANNOT_WRITE, EXIT_INTERNAL, EXIT_OK, EXIT_UNSTABLE, FileOutcome,
+                       SolveRequest, output_paths, solve_file)
+from .staging import Terminated, raise_terminated, sweep_stale
 
-__all__ = ["expand_inputs", "run_batch", "solve_many", "summary_table", "batch_exit_code"]
+__all__ = ["expand_inputs", "run_batch", "solve_many", "summary_table", "batch_exit_code", "BatchInterrupted"]
 
 
 def expand_inputs(patterns: Iterable[str]) -> list[Path]:
@@ -82,6 +87,12 @@ def solve_many(
     process).  ``scheduler``: address of a Dask distributed scheduler, or
     ``"local"`` for an in-process Dask cluster (needs the ``dask`` extra).
     ``on_done(outcome, done_count, total)`` is called as each file finishes.
+
+    A pool worker killed from outside does not stop the batch (see
+    :func:`_solve_in_pools`).  Ctrl-C or SIGTERM cancels the work not yet
+    started and stops the running workers at once (their staging folders
+    cleaned), then raises :class:`BatchInterrupted` carrying the outcomes
+    of the drawings that finished.
     """
     n = len(files)
     _check_output_clash(files, req)
@@ -96,32 +107,171 @@ def solve_many(
         return [results[i] for i in range(n)]
 
     workers = max(1, workers if workers is not None else _default_workers())
-    if workers == 1 or n == 1:
-        for k, f in enumerate(files, start=1):
-            results[k - 1] = out = solve_file(f, req)
-            if on_done:
-                on_done(out, k, n)
-    else:
-        _warm_up(req.png)
-        with ProcessPoolExecutor(max_workers=min(workers, n)) as pool:
-            futs = {pool.submit(solve_file, f, req): i for i, f in enumerate(files)}
-            for k, fut in enumerate(as_completed(futs), start=1):
-                i = futs[fut]
-                try:
-                    out = fut.result()
-                except Exception as exc:  # noqa: BLE001 - a worker died
-                    out = FileOutcome(str(files[i]), "internal error", EXIT_INTERNAL, f"{type(exc).__name__}: {exc}")
-                results[i] = out
-                if on_done:
-                    on_done(out, k, n)
+
+    def report(i: int, out: FileOutcome) -> None:
+        results[i] = out
+        if on_done:
+            on_done(out, len(results), n)
+
+    try:
+        if workers == 1 or n == 1:
+            for i, f in enumerate(files):
+                report(i, solve_file(f, req))
+        else:
+            _warm_up(req.png)
+            _solve_in_pools(files, req, min(workers, n), report)
+    except KeyboardInterrupt as exc:  # Ctrl-C, or SIGTERM as staging.Terminated
+        raise BatchInterrupted([results[i] for i in sorted(results)], n,
+                               getattr(exc, "exit_code", 130)) from None
     return [results[i] for i in range(n)]
 
 
+class BatchInterrupted(KeyboardInterrupt):
+    """Ctrl-C (or SIGTERM) during a batch: the work still pending was
+    cancelled and the running workers stopped (their staging folders
+    cleaned).  ``finished``: the outcomes of the drawings done before, in
+    the order of the inputs; ``total``: the number of inputs;
+    ``exit_code``: 130 (Ctrl-C) or 143 (SIGTERM)."""
+
+    def __init__(self, finished: list[FileOutcome], total: int, exit_code: int = 130) -> None:
+        super().__init__(f"interrupted after {len(finished)} of {total} drawings")
+        self.finished, self.total, self.exit_code = finished, total, exit_code
+
+
+def _worker_init() -> None:
+    """Each pool worker: Ctrl-C at the terminal reaches the whole process
+    group, but only the parent acts on it (it cancels the batch and stops
+    the workers); SIGTERM kills an idle worker at once."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+
+
+def _solve_in_worker(source: Path, req: SolveRequest) -> FileOutcome:
+    """``solve_file`` in a pool worker.  SIGTERM (the parent stopping the
+    batch) unwinds the run like Ctrl-C, which removes its staging folder,
+    and then ends the worker."""
+    signal.signal(signal.SIGTERM, raise_terminated)
+    try:
+        return solve_file(source, req)
+    except Terminated:
+        os._exit(Terminated.exit_code)
+    finally:
+        signal.signal(signal.SIGTERM, signal.SIG_DFL)
+
+
+def _stop_pool(pool: ProcessPoolExecutor) -> None:
+    """Cancel the work not yet started and stop the running workers now.
+
+    ``ProcessPoolExecutor`` has no public way to stop running work, so its
+    worker processes are read from the private ``_processes``; each gets
+    SIGTERM (it cleans its staging folder and exits), then SIGKILL if it
+    has not gone within a few seconds."""
+    procs = list((getattr(pool, "_processes", None) or {}).values())
+    pool.shutdown(wait=False, cancel_futures=True)
+    for p in procs:
+        with contextlib.suppress(Exception):
+            p.terminate()
+    for p in procs:
+        with contextlib.suppress(Exception):
+            p.join(timeout=5)
+            if p.is_alive():
+                p.kill()
+                p.join(timeout=5)
+    pool.shutdown(wait=True)
+
+
+def _sweep_outputs(source: Path, req: SolveRequest) -> None:
+    """Remove the staging folders of dead workers where ``source`` writes."""
+    for folder in {p.parent for p in output_paths(Path(source), req).values()}:
+        sweep_stale(folder)
+
+
+def _killed_outcome(source: Path, req: SolveRequest) -> FileOutcome:
+    """The outcome of a drawing whose worker process was killed (SIGKILL, as
+    the out-of-memory killer does) even when it was retried alone; the dead
+    worker's staging folders are removed."""
+    _sweep_outputs(source, req)
+    return FileOutcome(
+        str(source), "worker killed", EXIT_INTERNAL,
+        "the process solving this drawing was killed from outside (perhaps by the system for lack of "
+        "memory), also when retried alone; nothing was written for it, the other drawings were solved")
+
+
+def _solve_alone(source: Path, req: SolveRequest) -> FileOutcome:
+    """One drawing in a pool of its own: tells a drawing that kills its
+    worker from one that only shared a pool with it."""
+    pool = ProcessPoolExecutor(max_workers=1, initializer=_worker_init)
+    try:
+        return pool.submit(_solve_in_worker, source, req).result()
+    except BrokenProcessPool:
+        pool.shutdown(wait=True)  # the dead worker reaped, so its staging can go
+        return _killed_outcome(source, req)
+    except KeyboardInterrupt:
+        _stop_pool(pool)
+        raise
+    finally:
+        pool.shutdown(wait=True)
+
+
+def _solve_in_pools(files: list[Path], req: SolveRequest, workers: int,
+                    report: Callable[[int, FileOutcome], None]) -> None:
+    """Solve ``files`` in a process pool, at most ``workers`` at a time,
+    calling ``report(index, outcome)`` as each finishes.
+
+    A worker killed from outside (the out-of-memory killer) breaks the
+    whole pool: every file then in flight is retried alone in a pool of its
+    own (the one that kills its worker again gets status "worker killed"),
+    and the files not yet started go on in a new pool.  Ctrl-C stops the
+    pool at once (pending work cancelled, running workers stopped and their
+    staging folders cleaned) and propagates."""
+    pending = deque(range(len(files)))
+    while pending:
+        suspects: list[int] = []
+        pool = ProcessPoolExecutor(max_workers=min(workers, len(pending)), initializer=_worker_init)
+        in_flight: dict = {}
+        try:
+            while (pending and not suspects) or in_flight:
+                while pending and not suspects and len(in_flight) < workers:
+                    i = pending.popleft()
+                    try:
+                        in_flight[pool.submit(_solve_in_worker, files[i], req)] = i
+                    except BrokenProcessPool:
+                        pending.appendleft(i)
+                        break
+                if not in_flight:
+                    break
+                done, _ = wait(in_flight, return_when=FIRST_COMPLETED)
+                for fut in done:
+                    i = in_flight.pop(fut)
+                    try:
+                        out = fut.result()
+                    except BrokenProcessPool:
+                        suspects.append(i)
+                        continue
+                    except Exception as exc:  # noqa: BLE001 - anything else from the pool machinery
+                        out = FileOutcome(str(files[i]), "internal error", EXIT_INTERNAL,
+                                          f"{type(exc).__name__}: {exc}")
+                    report(i, out)
+        except BaseException:
+            _stop_pool(pool)
+            for i in in_flight.values():  # a worker stuck in C code past the grace time was SIGKILLed
+                _sweep_outputs(files[i], req)
+            for fut, i in in_flight.items():  # finished while the pool stopped: their outputs are in place
+                if fut.done() and not fut.cancelled() and fut.exception() is None:
+                    with contextlib.suppress(Exception):
+                        report(i, fut.result())
+            raise
+        pool.shutdown(wait=True)
+        for i in sorted(suspects):
+            report(i, _solve_alone(files[i], req))
+
+
 def batch_exit_code(outcomes: list[FileOutcome]) -> int:
-    """2 if any drawing was bad input, else 1 if any internal error, else 3
-    if any frame was unstable, else 0."""
+    """The worst status of the batch: 2 if any drawing was bad input, else 4
+    if any output could not be written, else 1 if any internal error (a
+    killed worker included), else 3 if any frame was unstable, else 0."""
     codes = {o.exit_code for o in outcomes}
-    for code in (EXIT_BAD_INPUT, EXIT_INTERNAL, EXIT_UNSTABLE):
+    for code in (EXIT_BAD_INPUT, EXIT_CANNOT_WRITE, EXIT_INTERNAL, EXIT_UNSTABLE):
         if code in codes:
             return code
     return EXIT_OK
@@ -133,10 +283,15 @@ def _with_source(o: FileOutcome) -> str:
     return msg if msg.startswith(str(o.source)) else f"{o.source}: {msg}"
 
 
+def _with_source_text(o: FileOutcome, text: str) -> str:
+    return f"{Path(o.source).name}: {one_line(text)}"
+
+
 def summary_table(outcomes: list[FileOutcome]) -> str:
     """Plain-text table: file, status, determinacy, governing |M|, |V|, |N|,
-    worst span/deflection, time."""
-    head = ["file", "status", "determinacy", "max |M|", "max |V|", "max |N|", "span/defl", "time s"]
+    worst span/deflection ("n/a" for a frame solved without sections), the
+    number of warnings, time."""
+    head = ["file", "status", "determinacy", "max |M|", "max |V|", "max |N|", "span/defl", "warnings", "time s"]
     rows = []
     for o in outcomes:
         u = o.units
@@ -146,7 +301,9 @@ def summary_table(outcomes: list[FileOutcome]) -> str:
             summary_value(o.max_m) + (f" {u[0]}*{u[1]}" if u and o.max_m is not None else ""),
             summary_value(o.max_v) + (f" {u[0]}" if u and o.max_v is not None else ""),
             summary_value(o.max_n) + (f" {u[0]}" if u and o.max_n is not None else ""),
-            "-" if o.worst_deflection_ratio is None else f"L/{o.worst_deflection_ratio:.0f}",
+            ("n/a" if o.status == "ok" else "-") if o.worst_deflection_ratio is None
+            else f"L/{o.worst_deflection_ratio:.0f}",
+            str(len(o.warnings)),
             f"{o.seconds:.2f}",
         ])
     widths = [max(len(r[i]) for r in [head] + rows) for i in range(len(head))]
@@ -155,8 +312,10 @@ def summary_table(outcomes: list[FileOutcome]) -> str:
 
 
 def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = None,
-              scheduler: str | None = None, stream=None) -> int:
-    """Solve, print progress and messages, print the summary; return the exit status."""
+              scheduler: str | None = None, stream=None, debug: bool = False) -> int:
+    """Solve, print progress and messages, print the summary; return the exit status.
+
+    ``debug``: print the traceback of each internal error after its line."""
     stream = stream or sys.stdout
     err = sys.stderr
     single = len(files) == 1
@@ -168,19 +327,26 @@ def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = Non
         bar = "#" * int(20 * k / n)
         print(f"[{bar:<20}] {k}/{n}  {Path(out.source).name}: {out.status}", file=err, flush=True)
 
-    outcomes = solve_many(files, req, workers=workers, scheduler=scheduler, on_done=progress)
+    try:
+        outcomes = solve_many(files, req, workers=workers, scheduler=scheduler, on_done=progress)
+    except BatchInterrupted as stop:
+        return _report_interrupted(stop, stream, err, time.perf_counter() - t0)
     for o in outcomes:
         where = _with_source(o)
-        if o.status == "bad input":
+        if o.status in ("bad input", "cannot write"):
+            print(f"dxf2frame: error: {where}", file=err)
+        elif o.status == "worker killed":
             print(f"dxf2frame: error: {where}", file=err)
         elif o.status == "internal error":
             print(f"dxf2frame: internal error: {where} (please report it)", file=err)
+            if debug and o.traceback:
+                print(o.traceback.rstrip("\n"), file=err)
         elif o.status == "unstable":
             print(f"dxf2frame: {o.source}: the frame is unstable (a mechanism); no results. {one_line(o.message)}",
                   file=err)
-        if single and o.status in ("ok", "unstable"):
-            for w in o.warnings:
-                print(f"dxf2frame: warning: {one_line(w)}", file=err)
+        # every file's warnings reach the console (in a batch prefixed with the file)
+        for w in o.warnings:
+            print(f"dxf2frame: warning: {one_line(w) if single else _with_source_text(o, w)}", file=err)
     if single:
         o = outcomes[0]
         if o.outputs:
@@ -191,3 +357,15 @@ def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = Non
         print(summary_table(outcomes), file=stream)
         print(f"{len(outcomes)} drawings in {time.perf_counter() - t0:.1f} s", file=stream)
     return batch_exit_code(outcomes)
+
+
+def _report_interrupted(stop: BatchInterrupted, stream, err, seconds: float) -> int:
+    """After Ctrl-C or SIGTERM: the summary of the drawings that finished and
+    one line saying how many were not solved; returns 130 (143 for SIGTERM)."""
+    if stop.finished:
+        print(summary_table(stop.finished), file=stream)
+    why = "terminated" if stop.exit_code == 143 else "interrupted"
+    left = stop.total - len(stop.finished)
+    print(f"dxf2frame: {why} after {seconds:.1f} s: {len(stop.finished)} of {stop.total} drawing(s) finished "
+          f"(their outputs are complete); {left} not solved, nothing written for them", file=err)
+    return stop.exit_code

@@ -2,14 +2,20 @@
 
 Exit status: 0 done; 2 bad input (one line naming the entity handle and
 layer, no output written); 3 the frame is unstable (report and mechanism
-drawing written, no numbers); 1 an internal error (please report it).
+drawing written, no numbers); 4 an output could not be written (read-only
+folder, disk full, file size limit, no permission: one line naming what,
+where and why; the previous outputs are kept); 1 an internal error (please
+report it, with --debug output); 130 interrupted (Ctrl-C), 143 terminated
+(SIGTERM): no partial output.
 """
 from __future__ import annotations
 
 import argparse
+import contextlib
 import os
 import logging
 import math
+import signal
 import sys
 import textwrap
 from pathlib import Path
@@ -21,7 +27,9 @@ __all__ = ["main", "build_parser"]
 
 EPILOG = (
     "exit status: 0 done, 2 bad input (nothing written), 3 frame unstable "
-    "(report and mechanism drawing written), 1 internal error.\n\n" + CAUTION
+    "(report and mechanism drawing written), 4 an output could not be written "
+    "(read-only folder, disk full, file size limit; previous outputs kept), "
+    "1 internal error, 130 interrupted, 143 terminated.\n\n" + CAUTION
 )
 
 
@@ -53,6 +61,11 @@ def _common(p: argparse.ArgumentParser) -> None:
     p.add_argument("--debug", action="store_true", help="show a traceback for internal errors")
 
 
+def _strict(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--strict", action="store_true",
+                   help="treat every warning as bad input (exit 2, nothing written): for CI pipelines")
+
+
 def build_parser() -> argparse.ArgumentParser:
     # Long by nature: one declaration per command and option, read top to bottom like the help it
     # prints.
@@ -81,6 +94,7 @@ def build_parser() -> argparse.ArgumentParser:
             example:  dxf2frame check drawings/packing-shed-rev-A.dxf"""),
     )
     p.add_argument("drawing", type=Path, help="DXF file to read")
+    _strict(p)
     _common(p)
 
     p = sub.add_parser(
@@ -117,6 +131,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="parallel processes for many drawings (default: number of cores)")
     p.add_argument("--scheduler", metavar="ADDRESS",
                    help="run the batch on a Dask distributed scheduler (needs the 'dask' extra)")
+    _strict(p)
     _common(p)
 
     p = sub.add_parser(
@@ -162,8 +177,10 @@ def build_parser() -> argparse.ArgumentParser:
         "template", formatter_class=fmt, epilog=EPILOG,
         help="write an empty drawing with the input layers and symbol blocks ready to use",
         description=textwrap.dedent("""\
-            Start a new framing sketch: the layers FRAME, SUPPORTS, CONNECTIONS, LOADS
-            and the support, connection and load blocks with their attributes.
+            Start a new framing sketch: the layers FRAME, FRAME-BRACES, SUPPORTS,
+            CONNECTIONS, LOADS and the support, connection (JOINT, HINGE, CROSSOVER)
+            and load blocks with their attributes. Crossing members are joined
+            unless both are on FRAME-BRACES or a CROSSOVER sits on the crossing.
 
             example:  dxf2frame template my-frame.dxf --length-unit m"""),
     )
@@ -205,9 +222,41 @@ def _quiet_library_logs(debug: bool) -> None:
         log.addHandler(logging.NullHandler())
 
 
+@contextlib.contextmanager
+def _signals_for_a_run():
+    """For the duration of a command: SIGTERM unwinds like Ctrl-C (staging
+    cleaned, exit 143), and SIGXFSZ (the file size limit, ``ulimit -f``) is
+    ignored so that the write fails with EFBIG and is reported instead of
+    the process dying without a word.  The previous handlers are restored
+    (``main`` may run inside another program, or a test)."""
+    from .staging import raise_terminated
+
+    wanted = {"SIGTERM": raise_terminated, "SIGXFSZ": signal.SIG_IGN}
+    saved = {}
+    for name, handler in wanted.items():
+        num = getattr(signal, name, None)
+        if num is None:
+            continue
+        try:
+            saved[num] = signal.signal(num, handler)
+        except (ValueError, OSError):  # not the main thread: leave signals alone
+            pass
+    try:
+        yield
+    finally:
+        for num, handler in saved.items():
+            with contextlib.suppress(ValueError, OSError, TypeError):
+                signal.signal(num, handler)
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; returns the exit status and never raises
     (except with ``--debug`` for an internal error)."""
+    with _signals_for_a_run():
+        return _main(argv)
+
+
+def _main(argv: list[str] | None) -> int:
     _robust_streams()
     parser = build_parser()
     try:
@@ -225,9 +274,11 @@ def main(argv: list[str] | None = None) -> int:
         return handler(args)
     except Dxf2FrameError as exc:
         return _fail(exc, getattr(args, "debug", False))
-    except KeyboardInterrupt:
-        print("dxf2frame: interrupted", file=sys.stderr)
-        return 130
+    except KeyboardInterrupt as exc:
+        code = getattr(exc, "exit_code", 130)  # staging.Terminated: SIGTERM, 143
+        print("dxf2frame: " + ("terminated" if code == 143 else "interrupted")
+              + "; no partial output", file=sys.stderr)
+        return code
     except BrokenPipeError:
         # the reader of our output went away (``dxf2frame check x.dxf | head``):
         # not an error of ours; silence the interpreter's own complaint at exit

@@ -25,10 +25,25 @@ def run_check(args) -> int:
     from .read.reader import read_drawing
     from .settings import load_settings
 
+    from .pipeline import combination_specs
+    from .read.sketch_checks import (EQUAL_STIFFNESS_WARNING, absent_case_notes, combination_problems, section_lines,
+                                 stiffness_basis)
+
     settings = load_settings(args.settings, args.drawing)
     model = read_drawing(args.drawing, settings, length_unit=args.length_unit)
     frame = model.frame
     det = check(frame, unit_scale=model.unit_scale)
+    # the same checks as solve, so that the two commands agree
+    present = list(frame.cases())
+    model.warnings.extend(combination_problems(settings, present, combination_specs(settings, present)))
+    basis = stiffness_basis(frame, det.status, settings)
+    if basis == "equal":
+        model.warnings.append(EQUAL_STIFFNESS_WARNING)
+    stiffness = {
+        "sections": "given for every member",
+        "none": "not needed for the forces (deflections need sections)" if det.status != "unstable" else "-",
+        "equal": "none given: equal relative stiffness (equal EI, axial shortening neglected), no deflections",
+    }[basis]
     loads_per_case = Counter(ld.case for ld in frame.loads)
     kinds = Counter(s.kind for s in frame.supports)
     _say(
@@ -39,17 +54,29 @@ def run_check(args) -> int:
         f"({len({m.group for m in frame.members})} reported)",
         f"supports     {len(frame.supports)}" + (f" ({', '.join(f'{n} {k}' for k, n in sorted(kinds.items()))})" if kinds else ""),
         f"hinges       {model.hinges}",
+        f"crossings    {model.crossings_joined} joined"
+        + (f", {len(model.crossings_separate)} left separate" if model.crossings_separate else ""),
+        *(f"  separate   {t}" for t in model.crossings_separate),
         f"loads        {model.n_loads} blocks; per case: "
         + (", ".join(f"{c} {n}" for c, n in loads_per_case.items()) or "none"),
-        f"sections     {'given for every member' if frame.has_sections else 'missing for some members (deflections need them)'}",
+        f"sections     {stiffness}",
+        *(f"  layer      {t}" for t in section_lines(frame, settings)),
         "",
         f"determinacy  {det.status}" + (f", degree {det.degree}" if det.status == "indeterminate" else "")
         + (f", {det.mechanisms} mechanism(s)" if det.mechanisms else ""),
         f"count        {det.count_check}",
         f"detail       {det.detail}",
     )
-    for w in list(model.warnings) + list(det.warnings):
+    for note in absent_case_notes(settings, present):
+        _say(f"note         {note}")
+    warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
+    for w in warnings:
         _say(f"warning      {one_line(w)}")
+    if args.strict and warnings:
+        from .errors import Dxf2FrameError
+        from .pipeline import strict_message
+
+        raise Dxf2FrameError(strict_message(warnings))
     return EXIT_UNSTABLE if det.status == "unstable" else EXIT_OK
 
 
@@ -68,9 +95,10 @@ def run_solve(args) -> int:
     req = SolveRequest(
         out=args.out, report=args.report, units=args.units, probes=list(args.probe), show=args.show,
         png=not args.no_png, sheets=args.sheets, settings_path=args.settings,
-        length_unit=args.length_unit, single=single,
+        length_unit=args.length_unit, single=single, strict=args.strict,
     )
-    return run_batch(files, req, workers=args.workers, scheduler=args.scheduler)
+    return run_batch(files, req, workers=args.workers, scheduler=args.scheduler,
+                     debug=args.debug)
 
 
 def _output_folder(out: Path | None, inputs: list[Path]) -> None:
@@ -103,7 +131,9 @@ def run_compare(args, *, stream=None) -> int:
 
     from .errors import InputFileError
     from .revisions import compare_reports, comparison_table, mark_changes, write_comparison
+    from .revisions.reports import load_json_report
     from .settings import load_settings
+    from .staging import OutputSet, writing
 
     _output_folder(args.out, list(args.revisions))
     stream = stream or sys.stdout
@@ -120,7 +150,7 @@ def run_compare(args, *, stream=None) -> int:
         if p.suffix.lower() == ".dxf":
             rep, settings = _report_of_drawing(p, args, units)
         else:
-            rep = _load_json_report(p)
+            rep = load_json_report(p)
             settings = None
         reports.append(rep)
     newest = paths[-1]
@@ -130,34 +160,24 @@ def run_compare(args, *, stream=None) -> int:
     threshold = args.threshold if args.threshold is not None else settings.compare_threshold
     cmp = compare_reports(reports, threshold=threshold, units=units)
 
-    print(comparison_table(cmp), file=stream, end="")
+    table = comparison_table(cmp)
     out = Path(args.out) if args.out else newest.parent / "compared"
-    written = write_comparison(cmp, out, stem=f"{newest.stem}-comparison")
-    if newest_dxf is not None:
-        written["drawing"] = mark_changes(newest_dxf, reports[-1], cmp, out / f"{newest_dxf.stem}-changes.dxf",
-                                          settings, drawing_unit=args.length_unit
-                                          if newest.suffix.lower() == ".dxf" else None)
-    else:
+    # staged and swapped in as one set (staging.OutputSet): a failure leaves
+    # the previous comparison complete, never an empty folder or half of it
+    what = f"the comparison of {newest.name}"
+    with OutputSet(out, what=what) as out_set, writing(what, out):
+        staged = write_comparison(cmp, out_set.staged("files"), stem=f"{newest.stem}-comparison")
+        if newest_dxf is not None:
+            staged["drawing"] = mark_changes(
+                newest_dxf, reports[-1], cmp, out_set.staged("files") / f"{newest_dxf.stem}-changes.dxf",
+                settings, drawing_unit=args.length_unit if newest.suffix.lower() == ".dxf" else None)
+        written = dict(zip(staged, out_set.commit({p: out / p.name for p in staged.values()})))
+    print(table, file=stream, end="")
+    if newest_dxf is None:
         print(f"note: the drawing of {newest} was not found beside it; no marked drawing written", file=stream)
     for p in written.values():
         print(f"wrote {p}", file=stream)
     return 0
-
-
-def _load_json_report(path: Path) -> dict:
-    import json
-
-    from .errors import InputFileError
-    from .revisions.reports import check_report
-
-    try:
-        data = json.loads(path.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise InputFileError(f"{path}: cannot read: {exc.strerror or exc}") from None
-    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
-        raise InputFileError(f"{path}: not a JSON report: {exc}") from None
-    check_report(data, str(path))
-    return data
 
 
 def _report_of_drawing(path: Path, args, units: tuple[str, str] | None):
@@ -195,7 +215,7 @@ def run_explain(args) -> int:
     ``settings`` (Path or None), ``length_unit`` (str or None).
     Returns the exit status (0 written, 3 unstable frame).
     """
-    from .handcheck import write_sheets
+    from .handcheck import write_sheets_staged
     from .pipeline import EXIT_OK, EXIT_UNSTABLE, analyse
     from .settings import load_settings
 
@@ -208,8 +228,9 @@ def run_explain(args) -> int:
         return EXIT_UNSTABLE
     force_u, length_u = args.units or (settings.force_unit, analysis.model.length_unit)
     out = Path(args.out) if args.out else drawing.parent / "sheets"
-    written = write_sheets(analysis, out, points=list(args.at or []), result_name=args.result,
-                           force_unit=force_u, length_unit=length_u)
+    # staged and swapped in as one set: a failure leaves the previous sheets complete
+    written = write_sheets_staged(analysis, out, points=list(args.at or []), result_name=args.result,
+                                  force_unit=force_u, length_unit=length_u)
     n = sum(1 for p in written if p.suffix == ".md")
     _say(f"wrote {n} hand-check sheet(s) to {out} (Markdown + PNG per cut, all in {written[-1].name})", CAUTION)
     return EXIT_OK
@@ -220,6 +241,7 @@ def run_template(args) -> int:
 
     from .atomic import atomic_path
     from .errors import InputFileError
+    from .staging import writing
     from .symbols import define_blocks, define_layers
     from .units import insunits_code
 
@@ -235,8 +257,9 @@ def run_template(args) -> int:
     doc.header["$INSUNITS"] = code
     define_layers(doc)
     define_blocks(doc)
-    with atomic_path(args.path) as tmp:
+    with writing(args.path.name, folder), atomic_path(args.path) as tmp:
         doc.saveas(tmp)
-    _say(f"wrote {args.path}: layers FRAME, SUPPORTS, CONNECTIONS, LOADS and the symbol blocks",
+    _say(f"wrote {args.path}: layers FRAME, FRAME-BRACES (crossings there stay separate), SUPPORTS, "
+         "CONNECTIONS, LOADS and the symbol blocks (CROSSOVER keeps two crossing members apart)",
          CAUTION)
     return 0

@@ -4,7 +4,9 @@
 naming the file, a missing or empty file, one that does not start like a
 DXF (ASCII ``0/SECTION`` or the binary sentinel), one over
 ``limits.max_file_mb``, and an ASCII file whose count of entity tags is far
-over ``limits.max_entities`` (counted in chunks, without parsing).  A file
+over ``limits.max_entities`` (counted in chunks, without parsing), and an
+ASCII file cut off before its ENTITIES section is complete (no ``EOF``,
+:func:`_truncation`): it would read as a drawing with things missing.  A file
 ezdxf cannot load is read again in ezdxf's recover mode; ezdxf's log
 messages (collected per thread, never printed) and the audit's fixes become
 one note, and a repair that dropped a drawing entity because its handle
@@ -22,7 +24,7 @@ from typing import Iterator
 import ezdxf
 from ezdxf import recover
 
-from .errors import DrawingError, InputFileError
+from .errors import DrawingError, InputFileError, one_line
 from .settings import Settings
 
 __all__ = ["open_document", "READ_ENTITY_TYPES"]
@@ -39,6 +41,7 @@ READ_ENTITY_TYPES = frozenset({
 })
 
 _BINARY_SENTINEL = b"AutoCAD Binary DXF"
+_UNDECODED = re.compile("[\ud800-\udfff]")
 _NOTE_LIMIT = 5
 
 
@@ -111,6 +114,53 @@ def _count_entity_tags(path: Path, chunk: int = 1 << 23) -> int:
     return count + len(_ENTITY_TAG.findall(carry))
 
 
+_SECTION_MARK = re.compile(rb"\n[ \t]*0[ \t]*\r?\n(SECTION|ENDSEC|EOF)[ \t]*(?=\r?\n|$)"
+                           rb"(?:(?=\r?\n[ \t]*2[ \t]*\r?\n([A-Za-z_]+)))?")
+#: sections an analysis needs complete: a file cut inside them (or before
+#: ENTITIES) is missing units, layers, blocks or entities
+_NEEDED_SECTIONS = ("HEADER", "CLASSES", "TABLES", "BLOCKS", "ENTITIES")
+
+
+def _truncation(path: Path, chunk: int = 1 << 23) -> str | None:
+    """How an ASCII DXF file is cut off before its drawing is complete, or
+    None.  A file without the final ``EOF`` whose ENTITIES section is not
+    closed ends inside (or before) a section the analysis needs: reading it
+    in recovery mode would silently give a drawing with members, loads or
+    the length unit missing."""
+    events: dict[int, tuple[bytes, bytes | None]] = {}
+    offset, carry = 0, b"\n"
+    with open(path, "rb") as fh:
+        while True:
+            block = fh.read(chunk)
+            if not block:
+                break
+            data = carry + block
+            base = offset - len(carry)
+            for m in _SECTION_MARK.finditer(data):
+                events[base + m.start()] = (m.group(1), m.group(2))
+            offset += len(block)
+            carry = data[-256:]
+    section, closed_entities = None, False
+    for _, (mark, name) in sorted(events.items()):
+        if mark == b"EOF":
+            return None
+        if mark == b"SECTION":
+            section = (name or b"?").decode("ascii", "replace").upper()
+        elif mark == b"ENDSEC":
+            closed_entities = closed_entities or section == "ENTITIES"
+            if section is not None and not section.startswith("after "):
+                section = f"after {section}"
+    if closed_entities:
+        return None
+    if section is None:
+        return "it ends before its ENTITIES section"
+    if section.startswith("after "):
+        return f"it ends after the {section[6:]} section, before the ENTITIES section"
+    if section not in _NEEDED_SECTIONS:
+        return f"it ends inside the {section} section, before the ENTITIES section"
+    return f"it ends inside the {section} section"
+
+
 def _looks_like_dxf(head: bytes) -> bool:
     """True when the first bytes are those of a binary DXF or an ASCII DXF
     whose first tag (after comments) opens a SECTION; the recover mode
@@ -162,6 +212,9 @@ def open_document(path: Path | str, settings: Settings | None = None):
     settings = settings or Settings()
     if not p.exists():
         raise InputFileError(f"{p}: file not found")
+    if _UNDECODED.search(p.name):
+        # the name goes into the report, the notes layer and the preview
+        raise InputFileError(f"{one_line(str(p))}: the file name holds bytes that are not UTF-8; rename the file")
     if not p.is_file():
         raise InputFileError(f"{p}: not a file")
     try:
@@ -187,6 +240,13 @@ def open_document(path: Path | str, settings: Settings | None = None):
             raise InputFileError(
                 f"{p}: about {tags} entities, more than the limit of {settings.max_entities} "
                 "(raise [limits] max_entities in dxf2frame.toml if this is intended)"
+            )
+    if not head.startswith(_BINARY_SENTINEL):
+        cut = _truncation(p)
+        if cut is not None:
+            raise InputFileError(
+                f"{p}: the file is damaged: {cut} (cut off at {size} bytes?); the drawing is incomplete "
+                "(members, loads or the length unit would be missing), so it is not read"
             )
     notes: list[str] = []
     with _ezdxf_messages() as first_try:

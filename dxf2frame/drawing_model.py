@@ -24,6 +24,11 @@ class DrawingModel:
     n_loads : number of load blocks read
     extents : (xmin, ymin, xmax, ymax) of the frame in drawing units
     force_unit : pint name of the default force unit of the settings
+    crossings_joined : crossing points where members were joined rigidly
+    crossings_separate : one text per crossing left separate (handles,
+        where, why)
+    near_misses : free member ends close to another member or a support,
+        as (x, y) in drawing units and the warning text
     """
 
     frame: Frame
@@ -35,6 +40,9 @@ class DrawingModel:
     n_loads: int = 0
     extents: tuple[float, float, float, float] = (0.0, 0.0, 0.0, 0.0)
     force_unit: str = "kN"
+    crossings_joined: int = 0
+    crossings_separate: list[str] = field(default_factory=list)
+    near_misses: list[tuple[float, float, str]] = field(default_factory=list)
 
     def to_drawing(self, x_m: float, y_m: float) -> tuple[float, float]:
         """Convert analysis coordinates (m) to drawing coordinates."""

@@ -19,8 +19,25 @@ def one_line(text: str) -> str:
     t = " ".join(str(text).replace("\t", " ").splitlines())
     return _CONTROL.sub(lambda m: f"\\x{ord(m.group()) & 0xFF:02x}", t).strip()
 
+#: longest quoted text (a value, a layer name) a message echoes [characters]
+MAX_ECHO = 80
+
+
+def shorten(text: str, limit: int = MAX_ECHO) -> str:
+    """``text`` cut to about ``limit`` characters for a message: a long value
+    (an attribute of a megabyte) keeps its start and end and says how long
+    it was, so the message stays one readable line."""
+    t = str(text)
+    if len(t) <= limit:
+        return t
+    keep = max(limit - 30, 10)
+    return f"{t[: keep * 2 // 3]}...{t[-(keep // 3):]} ({len(t)} characters)"
+
+
 __all__ = [
     "one_line",
+    "shorten",
+    "MAX_ECHO",
     "Dxf2FrameError",
     "DrawingError",
     "UnitError",
@@ -30,6 +47,7 @@ __all__ = [
     "SettingsError",
     "InputFileError",
     "AnalysisError",
+    "CannotWriteError",
 ]
 
 
@@ -60,12 +78,12 @@ class DrawingError(Dxf2FrameError):
     def __str__(self) -> str:
         where = []
         if self.handle:
-            where.append(f"entity #{self.handle}")
+            where.append(f"entity #{shorten(self.handle)}")
         if self.layer:
-            where.append(f"on layer '{self.layer}'")
+            where.append(f"on layer '{shorten(self.layer)}'")
         head = (" ".join(where) + ": ") if where else ""
-        tail = f" ({self.hint})" if self.hint else ""
-        return f"{head}{self.message}{tail}"
+        tail = f" ({shorten(self.hint, 10 * MAX_ECHO)})" if self.hint else ""
+        return f"{head}{shorten(self.message, 10 * MAX_ECHO)}{tail}"
 
 
 class UnitError(DrawingError):
@@ -90,8 +108,8 @@ class SettingsError(Dxf2FrameError):
     def __init__(self, message: str, *, path: str = "", key: str = "") -> None:
         self.path, self.key = path, key
         where = f"{path}: " if path else ""
-        k = f"[{key}] " if key else ""
-        super().__init__(f"{where}{k}{message}")
+        k = f"[{shorten(key)}] " if key else ""
+        super().__init__(f"{where}{k}{shorten(message, 10 * MAX_ECHO)}")
 
 
 class InputFileError(Dxf2FrameError):
@@ -102,3 +120,11 @@ class AnalysisError(DrawingError):
     """The model read from the drawing cannot be analysed as given: members
     without sections in an indeterminate frame, a load the solver cannot
     apply, a nearly singular stiffness, results that are not finite."""
+
+
+class CannotWriteError(Dxf2FrameError):
+    """An output cannot be written: a read-only or missing-permission folder,
+    a full disk, the file size limit.  The user's machine, not the drawing:
+    exit status 4 (``EXIT_CANNOT_WRITE``); the previous outputs are kept."""
+
+    exit_code = 4

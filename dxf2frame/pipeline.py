@@ -6,14 +6,10 @@ whose status says what happened, so one bad drawing cannot stop a batch.
 """
 from __future__ import annotations
 
-import contextlib
-import errno
 import gc
 import math
-import os
-import shutil
-import tempfile
 import time
+import traceback
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -26,9 +22,11 @@ from .solver.errors import MissingSectionError, SolverError, UnstableFrameError
 
 from .atomic import same_file
 from .drawing_model import DrawingModel
-from .errors import AnalysisError, Dxf2FrameError, InputFileError, SettingsError, one_line
+from .errors import AnalysisError, CannotWriteError, Dxf2FrameError, InputFileError, SettingsError, one_line
 from .read.reader import read_file
-from .settings import Settings, load_settings
+from .read.sketch_checks import EQUAL_STIFFNESS_WARNING, combination_problems, stiffness_basis, unknown_case_error
+from .settings import STANDARD_CASES, Settings, load_settings
+from .staging import OutputSet, writing
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
@@ -46,9 +44,14 @@ __all__ = [
     "EXIT_BAD_INPUT",
     "EXIT_UNSTABLE",
     "EXIT_INTERNAL",
+    "EXIT_CANNOT_WRITE",
 ]
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT, EXIT_UNSTABLE = 0, 1, 2, 3
+#: an output could not be written (read-only folder, disk full, file size
+#: limit, no permission): the user's machine, not the drawing; the previous
+#: outputs are kept
+EXIT_CANNOT_WRITE = CannotWriteError.exit_code  # 4
 
 
 @dataclass
@@ -80,7 +83,13 @@ class Analysis:
 
 def combination_specs(settings: Settings, present: list[str]) -> list[tuple[str, dict[str, float], str]]:
     """(name, factors, family) of every combination the settings ask for,
-    built-in families first, then the settings' own list ("user")."""
+    built-in families first, then the settings' own list ("user").
+
+    A case name in the settings' list is mapped through ``[cases]``; one that
+    is neither a case of the drawing (``present``) nor a standard case
+    letter is a :class:`SettingsError` naming the formula; a standard case
+    the drawing has no loads in contributes nothing (as in the built-in
+    sets)."""
     specs: list[tuple[str, dict[str, float], str]] = []
     seen: set[str] = set()
     for family in settings.combinations_builtin:
@@ -94,6 +103,14 @@ def combination_specs(settings: Settings, present: list[str]) -> list[tuple[str,
             factors = parse_combination(text)
         except ValueError as exc:
             raise SettingsError(f"cannot read combination {text!r}: {exc}", key="combinations.extra") from exc
+        mapped: dict[str, float] = {}
+        for c, f in factors.items():
+            c = c if c in present else settings.case_name(c)
+            mapped[c] = mapped.get(c, 0.0) + f
+        factors = mapped
+        unknown = [c for c in factors if c not in present and c not in STANDARD_CASES]
+        if unknown:
+            raise unknown_case_error(text, unknown[0], present)
         missing = [c for c in factors if c not in present]
         if missing:
             # a combination naming a case the drawing does not have: the
@@ -105,6 +122,12 @@ def combination_specs(settings: Settings, present: list[str]) -> list[tuple[str,
     return specs
 
 
+def strict_message(warnings: list[str]) -> str:
+    """The error of ``--strict`` for a drawing with warnings."""
+    return (f"--strict: {len(warnings)} warning(s) make this drawing bad input; the first: "
+            f"{one_line(warnings[0])}")
+
+
 def _member_where(model: DrawingModel, ids) -> tuple[str, str]:
     """(handle, layer) of the first member named in ``ids`` (for messages)."""
     for mid in ids:
@@ -114,13 +137,31 @@ def _member_where(model: DrawingModel, ids) -> tuple[str, str]:
     return "", ""
 
 
-def _solve_checked(model: DrawingModel, det: Determinacy) -> dict[str, CaseResult]:
+def _solve_equal(frame) -> dict[str, CaseResult]:
+    """Solve a frame without sections with equal relative stiffness (see
+    :mod:`solver.relative`); the results carry no displacements."""
+    from dxf2frame.solver.relative import equal_stiffness_section, without_deflections
+
+    saved = [m.section for m in frame.members]
+    section = equal_stiffness_section(frame)
+    try:
+        for m in frame.members:
+            m.section = section
+        cases = solve(frame)
+    finally:
+        for m, s in zip(frame.members, saved):
+            m.section = s
+    return {k: without_deflections(v) for k, v in cases.items()}
+
+
+def _solve_checked(model: DrawingModel, det: Determinacy, *, equal: bool = False) -> dict[str, CaseResult]:
     """``solver.solve`` with its errors turned into bad-input errors that name
     the drawing entity, and every number of the results checked finite (a
-    nearly singular model must not pass as an answer)."""
+    nearly singular model must not pass as an answer).  ``equal``: solve
+    with equal relative stiffness (no sections given)."""
     frame = model.frame
     try:
-        cases = solve(frame, determinate=det.status == "determinate")
+        cases = _solve_equal(frame) if equal else solve(frame, determinate=det.status == "determinate")
     except MissingSectionError as exc:
         handle, layer = _member_where(model, exc.members)
         names = ", ".join(exc.members[:6]) + (" ..." if len(exc.members) > 6 else "")
@@ -192,16 +233,23 @@ def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | 
     det = check(model.frame, unit_scale=model.unit_scale)
     t["check"] = time.perf_counter() - t0
     analysis = Analysis(model, settings, det, timings=t, document=document)
+    # settings and stiffness problems are bad input: said before solving
+    present = list(model.frame.cases())
+    specs = combination_specs(settings, present)
+    model.warnings.extend(combination_problems(settings, present, specs))
     if det.status == "unstable":
         return analysis
+    basis = stiffness_basis(model.frame, det.status, settings)
+    if basis == "equal":
+        model.warnings.append(EQUAL_STIFFNESS_WARNING)
 
     t0 = time.perf_counter()
-    cases = _solve_checked(model, det)
+    cases = _solve_checked(model, det, equal=basis == "equal")
     t["solve"] = time.perf_counter() - t0
 
     t0 = time.perf_counter()
     analysis.cases = list(cases.values())
-    for name, factors, family in combination_specs(settings, list(cases)):
+    for name, factors, family in specs:
         analysis.combinations.append(combine(cases, factors, name, family=family))
     t["combine"] = time.perf_counter() - t0
     return analysis
@@ -232,6 +280,7 @@ class SolveRequest:
     settings_path: Path | None = None
     length_unit: str | None = None
     single: bool = True
+    strict: bool = False
 
 
 @dataclass
@@ -239,7 +288,7 @@ class FileOutcome:
     """What happened to one drawing (picklable, for process pools)."""
 
     source: str
-    status: str  # "ok" | "unstable" | "bad input" | "internal error"
+    status: str  # "ok" | "unstable" | "bad input" | "cannot write" | "internal error" | "worker killed"
     exit_code: int
     message: str = ""
     determinacy: str = ""
@@ -253,6 +302,7 @@ class FileOutcome:
     outputs: list[str] = field(default_factory=list)
     timings: dict[str, float] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
+    traceback: str = ""  # of an internal error, for --debug
 
 
 def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
@@ -326,53 +376,12 @@ def check_outputs(source: Path, paths: dict[str, Path]) -> None:
                 break
 
 
-def _make_folders(folder: Path) -> list[Path]:
-    """``mkdir -p``; returns the folders it created, outermost first."""
-    missing = []
-    for parent in (folder, *folder.parents):
-        if parent.exists():
-            break
-        missing.append(parent)
-    folder.mkdir(parents=True, exist_ok=True)
-    return missing[::-1]
-
-
-def _remove(path: Path) -> None:
-    if path.is_dir() and not path.is_symlink():
-        shutil.rmtree(path, ignore_errors=True)
-    else:
-        with contextlib.suppress(OSError):
-            path.unlink()
-
-
-def _move_into_place(staged: Path, target: Path) -> None:
-    """Rename ``staged`` to ``target`` (atomic on one file system; across file
-    systems a hidden copy beside the target is renamed)."""
-    if staged.is_dir() and target.exists():
-        shutil.rmtree(target)
-    try:
-        os.replace(staged, target)
-    except OSError as exc:
-        if exc.errno != errno.EXDEV:
-            raise
-        tmp = target.with_name(f".{target.name}.{os.getpid()}.tmp")
-        try:
-            if staged.is_dir():
-                shutil.copytree(staged, tmp)
-            else:
-                shutil.copy2(staged, tmp)
-            os.replace(tmp, target)
-        except BaseException:
-            _remove(tmp)
-            raise
-
-
 #: above this many members the preview shows the moment panel only
 PREVIEW_PANEL_LIMIT = 2000
 
 
 def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
-                    force_u: str, length_u: str) -> None:
+                    force_u: str, length_u: str) -> list[str]:
     """PNG preview: one panel per diagram for a solved frame (moment, shear,
     axial, reactions with the deflected shape), the whole drawing for an
     unstable one."""
@@ -381,8 +390,7 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
     from .draw.style import result_layer_names
 
     if not analysis.stable:
-        preview.render_png(drawing, png)
-        return
+        return preview.render_png(drawing, png)
     names = result_layer_names(analysis.settings.output_layers)
     loads = analysis.settings.layer("loads")
     panels = [
@@ -395,17 +403,39 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
         panels = panels[:1]
     hide = list(names.values()) + [loads]
     footer = f"{analysis.model.source.name}: showing {show}. {CAUTION}"
-    preview.render_panels_png(drawing, png, panels, hide=hide, footer=footer)
+    return preview.render_panels_png(drawing, png, panels, hide=hide, footer=footer)
+
+
+def _try_preview(drawing: Path, png: Path, analysis: Analysis, show: str, force_u: str, length_u: str,
+                 warnings: list[str]) -> bool:
+    """Render the preview; a preview that cannot be drawn is a warning (added
+    to ``warnings``), never a failed solve: the drawing and report are
+    the results.  Entities the preview left out are warnings too.  Returns
+    whether a PNG was written."""
+    try:
+        notes = _render_preview(drawing, png, analysis, show, force_u, length_u)
+    except MemoryError:
+        warnings.append("preview: not drawn (not enough memory); the drawing and report are complete")
+        return False
+    except Exception as exc:  # noqa: BLE001 - matplotlib/ezdxf failures of any kind on odd content
+        warnings.append(f"preview: not drawn ({type(exc).__name__}: {exc}); the drawing and report are complete")
+        return False
+    warnings.extend(notes or [])
+    return png.exists()
 
 
 def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     """Run the whole ``solve`` command on one drawing; never raises for bad input.
 
     Outputs are written into a hidden staging folder beside the result
-    drawing and moved into place only when all of them are complete; on any
-    failure the staging folder, outputs already moved and folders created
-    for them are removed, so bad input leaves nothing behind.  The input
-    drawing is only read.
+    drawing and swapped in as one set only when all of them are complete
+    (:class:`~dxf2frame.staging.OutputSet`): every target folder is checked
+    writable before the first move, the previous outputs are kept aside
+    until every move succeeded and put back on a failure.  So a run either
+    replaces the whole previous set or leaves it complete and unchanged, and
+    bad input leaves nothing behind.  An output that cannot be written (a
+    read-only folder, a full disk, the file size limit) is status "cannot
+    write", :data:`EXIT_CANNOT_WRITE`.  The input drawing is only read.
 
     The cyclic garbage collector is paused for the run: an ezdxf document is
     millions of small objects that every full collection walks again, while
@@ -428,8 +458,6 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     source = Path(source)
     t_start = time.perf_counter()
     outcome = FileOutcome(source=str(source), status="ok", exit_code=EXIT_OK)
-    created: list[Path] = []
-    moved: list[Path] = []
     done = False
     try:
         settings = load_settings(req.settings_path, source)
@@ -437,7 +465,9 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
         check_outputs(source, paths)
         analysis = analyse(source, settings, length_unit=req.length_unit)
         model, det = analysis.model, analysis.determinacy
-        outcome.warnings = list(model.warnings) + list(det.warnings)
+        outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
+        if req.strict and outcome.warnings:
+            raise Dxf2FrameError(strict_message(outcome.warnings))
         force_u, length_u = req.units or (settings.force_unit, model.length_unit)
         outcome.units = (force_u, length_u)
         outcome.determinacy, outcome.degree = det.status, det.degree
@@ -446,12 +476,12 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             # a probe off every member is bad input: say so before anything is written
             report_mod.locate_points(model, req.probes)
         final = paths["drawing"].parent
-        created += _make_folders(final)
-        # everything is written into a staging folder first and moved into
-        # place at the end, so a failure leaves no partial output
-        staging = Path(tempfile.mkdtemp(prefix=".dxf2frame-", dir=final))
-        try:
-            staged = {k: staging / p.name for k, p in paths.items()}
+        what = f"the results of {source.name}"
+        # everything is written into a staging folder first and the whole set
+        # is swapped in at the end (staging.OutputSet): a failure leaves the
+        # previous set of outputs complete and unchanged, or nothing
+        with OutputSet(final, what=what) as out_set, writing(what, final):
+            staged = {k: out_set.staged(p.name) for k, p in paths.items()}
             t0 = time.perf_counter()
             show = req.show or settings.combinations_draw
             if analysis.stable:
@@ -477,48 +507,43 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             written = ["drawing", "report"] + (["csv"] if with_csv else [])
             if req.png:
                 t0 = time.perf_counter()
-                _render_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u)
+                drawn = _try_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u,
+                                     outcome.warnings)
                 analysis.timings["png"] = time.perf_counter() - t0
-                written.append("png")
+                if drawn:
+                    written.append("png")
             if req.sheets and analysis.stable:
                 from .handcheck import sheets as handcheck
 
-                sheet_dir = staging / f"{paths['drawing'].stem}-sheets"
+                sheet_dir = out_set.staged(f"{paths['drawing'].stem}-sheets")
                 handcheck.write_sheets(analysis, sheet_dir, points=req.probes,
                                        force_unit=force_u, length_unit=length_u)
                 written.append("sheets")
                 paths["sheets"] = final / sheet_dir.name
                 staged["sheets"] = sheet_dir
-            for key in written:
-                target = paths[key]
-                created += _make_folders(target.parent)
-                _move_into_place(staged[key], target)
-                moved.append(target)
-            outcome.outputs = [str(t) for t in moved]
-        finally:
-            shutil.rmtree(staging, ignore_errors=True)
+            governing = _governing(rep) if analysis.stable else {}
+            committed = out_set.commit({staged[k]: paths[k] for k in written})
+        outcome.outputs = [str(t) for t in committed]
 
         outcome.timings = analysis.timings
         if not analysis.stable:
             outcome.status, outcome.exit_code = "unstable", EXIT_UNSTABLE
             outcome.message = one_line(det.detail)
         else:
-            for k, v in _governing(rep).items():
+            for k, v in governing.items():
                 setattr(outcome, k, v)
             outcome.message = f"{det.status}" + (f", degree {det.degree}" if det.degree else "")
         done = True
+    except CannotWriteError as exc:
+        outcome.status, outcome.exit_code, outcome.message = "cannot write", EXIT_CANNOT_WRITE, one_line(str(exc))
     except Dxf2FrameError as exc:
         outcome.status, outcome.exit_code, outcome.message = "bad input", EXIT_BAD_INPUT, one_line(str(exc))
     except Exception as exc:  # noqa: BLE001 - a batch must survive anything
         outcome.status, outcome.exit_code = "internal error", EXIT_INTERNAL
         outcome.message = one_line(f"{type(exc).__name__}: {exc}")
+        outcome.traceback = traceback.format_exc()
     finally:
-        if not done:  # also on KeyboardInterrupt: a finished set of outputs or none
-            for target in reversed(moved):
-                _remove(target)
-            for folder in reversed(created):
-                with contextlib.suppress(OSError):
-                    folder.rmdir()  # only if empty
+        if not done:  # also on KeyboardInterrupt: the staging is gone, the previous outputs kept
             outcome.outputs = []
     outcome.seconds = time.perf_counter() - t_start
     return outcome

@@ -13,14 +13,18 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     ``snap`` (snap tolerance: a quantity string such as ``"5 mm"`` or a bare
     number in drawing units; default: the larger of 0.5 mm and 1e-6 of the
     frame's extents diagonal), ``arc_segments`` (0: arcs and bulges are an
-    error; N > 0: chord each into N straight members).
+    error; N > 0: chord each into N straight members), ``unjoined_layers``
+    (member layers whose crossings with each other stay separate; default
+    ``["FRAME-BRACES"]``; every other crossing is joined rigidly).
 ``[limits]``
-    ``max_file_mb`` (200), ``max_entities`` (500000).
+    ``max_file_mb`` (200), ``max_entities`` (500000: entities after every
+    MINSERT cell and nested block is counted), ``max_attribute_chars``
+    (500: longest attribute value read).
 ``[layers]``
     input layer names ``frame``, ``supports``, ``connections``, ``loads``.
 ``[blocks]``
-    block names by kind: ``pin roller fixed slider spring joint hinge force
-    couple udl``, e.g. ``pin = "SUP-PIN"``.  A remapped kind no longer
+    block names by kind: ``pin roller fixed slider spring joint hinge
+    crossover force couple udl``, e.g. ``pin = "SUP-PIN"``.  A remapped kind no longer
     answers to its default name.
 ``[attributes]``
     attribute tags by their convention name, e.g. ``P = "FORCE_VALUE"``.
@@ -31,6 +35,14 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     ``E``, ``A``, ``I`` as quantity strings with units (``"200 GPa"``,
     ``"5000 mm**2"``, ``"8e7 mm**4"``) and an optional ``name``.  A layer
     section may leave out values that the default section gives.
+``[cases]``
+    an office's own load case names mapped onto the standard case letters
+    of ASCE/SEI 7 (``D L Lr S R W E``), e.g. ``LIVE = "L"``; names are
+    matched case-insensitively.
+``[analysis]``
+    ``missing_sections``: ``"equal"`` (default: an indeterminate frame
+    without any section is solved with equal relative stiffness, with a
+    warning) or ``"refuse"`` (it is bad input).
 ``[combinations]``
     ``builtin`` (subset of ``["LRFD", "ASD"]``), ``extra`` (list of
     combination strings, parsed by the solver), ``draw`` (what the
@@ -67,13 +79,22 @@ __all__ = [
     "BLOCK_KINDS",
     "ATTRIBUTE_TAGS",
     "OUTPUT_LAYER_KEYS",
+    "STANDARD_CASES",
+    "MISSING_SECTIONS_CHOICES",
 ]
+
+#: standard load case letters (ASCE/SEI 7): the built-in combinations use them
+STANDARD_CASES: tuple[str, ...] = ("D", "L", "Lr", "S", "R", "W", "E")
+
+#: what an indeterminate frame without any section does: solve with equal
+#: relative stiffness (with a warning) or refuse (exit 2)
+MISSING_SECTIONS_CHOICES: tuple[str, ...] = ("equal", "refuse")
 
 SETTINGS_FILENAME = "dxf2frame.toml"
 
 #: convention block names (the kinds), upper case
 BLOCK_KINDS: tuple[str, ...] = (
-    "PIN", "ROLLER", "FIXED", "SLIDER", "SPRING", "JOINT", "HINGE", "FORCE", "COUPLE", "UDL",
+    "PIN", "ROLLER", "FIXED", "SLIDER", "SPRING", "JOINT", "HINGE", "CROSSOVER", "FORCE", "COUPLE", "UDL",
 )
 
 #: attribute tags of the convention
@@ -101,7 +122,7 @@ _DEFAULT_LAYERS = {"frame": "FRAME", "supports": "SUPPORTS", "connections": "CON
 _BUILTIN_COMBOS = ("LRFD", "ASD")
 _TOP_KEYS = {
     "units", "geometry", "limits", "layers", "blocks", "attributes",
-    "output_layers", "sections", "combinations", "deflection", "compare",
+    "output_layers", "sections", "combinations", "deflection", "compare", "cases", "analysis",
 }
 
 
@@ -122,12 +143,17 @@ class Settings:
     length_unit : drawing unit when the header does not say (None: must be given)
     snap : snap tolerance; str (quantity with unit), float (drawing units) or None (automatic)
     arc_segments : 0 = arcs are errors, N = chord each arc into N members
-    max_file_mb, max_entities : input limits
+    unjoined_layers : upper-case member layers whose crossings with each
+        other stay separate (every other crossing is joined rigidly)
+    max_file_mb, max_entities, max_attribute_chars : input limits
     layers : {"frame"|"supports"|"connections"|"loads": layer name}
     blocks : {kind (upper case, e.g. "PIN"): block name (upper case)}
     attributes : {convention tag: tag used in the drawing (upper case)}
     output_layers : {key: result layer name}
     sections : {"DEFAULT" or upper-case layer name: solver.Section in SI (Pa, m**2, m**4)}
+    cases : {upper-case office case name: standard case letter}
+    missing_sections : "equal" (an indeterminate frame without any section
+        is solved with equal relative stiffness, with a warning) or "refuse"
     combinations_builtin : names of built-in sets ("LRFD", "ASD")
     combinations_extra : combination strings such as "1.2D + 1.6L"
     combinations_draw : what the output drawing shows ("envelope:LRFD", a case or combination)
@@ -141,13 +167,17 @@ class Settings:
     length_unit: str | None = None
     snap: str | float | None = None
     arc_segments: int = 0
+    unjoined_layers: tuple[str, ...] = ("FRAME-BRACES",)
     max_file_mb: float = 200.0
     max_entities: int = 500_000
+    max_attribute_chars: int = 500
     layers: Mapping[str, str] = field(default_factory=lambda: _ro(_DEFAULT_LAYERS))
     blocks: Mapping[str, str] = field(default_factory=lambda: _ro({k: k for k in BLOCK_KINDS}))
     attributes: Mapping[str, str] = field(default_factory=lambda: _ro({t: t for t in ATTRIBUTE_TAGS}))
     output_layers: Mapping[str, str] = field(default_factory=lambda: _ro(DEFAULT_OUTPUT_LAYERS))
     sections: Mapping[str, Section] = field(default_factory=lambda: _ro({}))
+    cases: Mapping[str, str] = field(default_factory=lambda: _ro({}))
+    missing_sections: str = "equal"
     combinations_builtin: tuple[str, ...] = _BUILTIN_COMBOS
     combinations_extra: tuple[str, ...] = ()
     combinations_draw: str = "envelope:LRFD"
@@ -176,6 +206,11 @@ class Settings:
         """Section of members on ``layer``: the layer's own, else the default,
         else None (no sections given: a determinate frame still solves)."""
         return self.sections.get(layer.upper(), self.sections.get("DEFAULT"))
+
+    def case_name(self, name: str) -> str:
+        """Load case of a CASE text: the standard letter an office name is
+        mapped onto in ``[cases]``, else the text itself."""
+        return self.cases.get(name.strip().upper(), name.strip())
 
     def block_kind(self, name: str) -> str | None:
         """Convention kind ("PIN", "ROLLER", ..., "UDL") of a block name
@@ -331,7 +366,13 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
 
     # [geometry]
     g = _table(data, "geometry", path)
-    _check_keys(g, {"snap", "arc_segments"}, "geometry", path)
+    _check_keys(g, {"snap", "arc_segments", "unjoined_layers"}, "geometry", path)
+    if "unjoined_layers" in g:
+        ul = g["unjoined_layers"]
+        if not isinstance(ul, list) or not all(isinstance(x, str) and x.strip() for x in ul):
+            raise SettingsError("must be a list of layer names, e.g. [\"FRAME-BRACES\"]", path=path,
+                                key="geometry.unjoined_layers")
+        kw["unjoined_layers"] = tuple(dict.fromkeys(x.strip().upper() for x in ul))
     if "snap" in g:
         s = g["snap"]
         if isinstance(s, str) and _is_bare_number(s):
@@ -353,11 +394,16 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
 
     # [limits]
     lim = _table(data, "limits", path)
-    _check_keys(lim, {"max_file_mb", "max_entities"}, "limits", path)
+    _check_keys(lim, {"max_file_mb", "max_entities", "max_attribute_chars"}, "limits", path)
     if "max_file_mb" in lim:
         kw["max_file_mb"] = _number(lim["max_file_mb"], "limits.max_file_mb", path)
     if "max_entities" in lim:
         kw["max_entities"] = int(_number(lim["max_entities"], "limits.max_entities", path))
+    if "max_attribute_chars" in lim:
+        n = lim["max_attribute_chars"]
+        if isinstance(n, bool) or not isinstance(n, int) or n < 1:
+            raise SettingsError(f"must be an integer >= 1, got {n!r}", path=path, key="limits.max_attribute_chars")
+        kw["max_attribute_chars"] = n
 
     # [layers]
     lay = _table(data, "layers", path)
@@ -421,6 +467,30 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
             raise SettingsError("must be a string", path=path, key=f"sections.{name}.name")
         sections[name] = Section(E=vals["E"], A=vals["A"], I=vals["I"], name=label)
     kw["sections"] = _ro(sections)
+
+    # [cases]
+    ca = _table(data, "cases", path)
+    standard = {c.upper(): c for c in STANDARD_CASES}
+    cases: dict[str, str] = {}
+    for k, v in ca.items():
+        target = _str(v, f"cases.{k}", path)
+        if target.upper() not in standard:
+            raise SettingsError(
+                f"maps onto {target!r}, which is not a standard case letter ({', '.join(STANDARD_CASES)})",
+                path=path, key=f"cases.{k}",
+            )
+        cases[str(k).strip().upper()] = standard[target.upper()]
+    kw["cases"] = _ro(cases)
+
+    # [analysis]
+    an = _table(data, "analysis", path)
+    _check_keys(an, {"missing_sections"}, "analysis", path)
+    if "missing_sections" in an:
+        ms = _str(an["missing_sections"], "analysis.missing_sections", path).lower()
+        if ms not in MISSING_SECTIONS_CHOICES:
+            raise SettingsError(f"must be one of {', '.join(MISSING_SECTIONS_CHOICES)}, got {an['missing_sections']!r}",
+                                path=path, key="analysis.missing_sections")
+        kw["missing_sections"] = ms
 
     # [combinations]
     co = _table(data, "combinations", path)

@@ -33,13 +33,14 @@ BLOCK_ATTRIBUTES: dict[str, dict[str, str]] = {
     "SPRING": {"KX": "", "KY": "", "KR": "", "SETTLE_X": "", "SETTLE_Y": "", "SETTLE_R": "", "CASE": ""},
     "JOINT": {},
     "HINGE": {"MEMBERS": ""},
+    "CROSSOVER": {},
     "FORCE": {"P": "", "ANGLE": "", "CASE": "D"},
     "COUPLE": {"M": "", "CASE": "D"},
     "UDL": {"W": "", "W1": "", "W2": "", "FROM": "", "TO": "", "DIR": "", "BASIS": "", "CASE": "D"},
 }
 
 #: input layers and their colours (ACI) in a fresh template
-INPUT_LAYERS: dict[str, int] = {"FRAME": 7, "SUPPORTS": 3, "CONNECTIONS": 4, "LOADS": 1}
+INPUT_LAYERS: dict[str, int] = {"FRAME": 7, "FRAME-BRACES": 8, "SUPPORTS": 3, "CONNECTIONS": 4, "LOADS": 1}
 
 
 def _ground(blk, y: float, half: float = 0.6) -> None:
@@ -87,6 +88,9 @@ def _draw(name: str, blk) -> None:
         blk.add_solid([(-0.15, -0.15), (0.15, -0.15), (-0.15, 0.15), (0.15, 0.15)])
     elif name == "HINGE":
         blk.add_circle((0, 0), 0.2)
+    elif name == "CROSSOVER":  # one line hopping over the other
+        blk.add_line((-0.5, 0), (0.5, 0))
+        blk.add_arc((0, 0), 0.25, 0, 180)
     elif name == "FORCE":
         blk.add_line((0, 0.25), (0, 1.2))
         _arrow_head(blk, (0, 0), -math.pi / 2)

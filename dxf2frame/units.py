@@ -41,7 +41,7 @@ import math
 import re
 from functools import lru_cache
 
-from .errors import UnitError
+from .errors import UnitError, shorten
 
 __all__ = [
     "KINDS",
@@ -54,6 +54,7 @@ __all__ = [
     "INSUNITS",
     "INSUNITS_OTHER",
     "insunits_code",
+    "number_text",
 ]
 
 #: kind -> (SI unit pint string, human description, example)
@@ -104,6 +105,86 @@ _CHAINED_POWER = re.compile(r"\s*(\*\*|\^)")
 _HAS_DIGIT = re.compile(r"\d")
 
 
+# -- characters of number texts ------------------------------------------------
+# The unit parser silently drops characters it does not know ("\u22125 kN"
+# would be +5 kN, "5,5 kN" 55 kN, "5 kN; 2" 10 kN), so every character is
+# checked here first: a text is read exactly as written or refused.
+
+#: the Unicode minus sign: what CAD programs write for "-"; read silently
+_MINUS_SIGN = "\u2212"
+#: dashes a drafter may have typed for a minus: read as "-" with a warning
+_MINUS_LIKE: dict[str, str] = {
+    "\u2013": "an en dash",
+    "\u2012": "a figure dash",
+    "\u2010": "a hyphen",
+    "\u2011": "a non-breaking hyphen",
+    "\ufe63": "a small hyphen-minus",
+    "\uff0d": "a full-width hyphen-minus",
+}
+#: characters of a number text besides ASCII letters and digits (pint reads
+#: "kN\u00b7m", "mm\u00b2", "30\u00b0" and "\u00b5m" correctly)
+_PLAIN = frozenset(" .+-*/^()_\u00b7\u00b2\u00b3\u00b0\u00b5")
+_GROUPED_DIGITS = re.compile(r"\d\s+\d")
+_SPACES = re.compile(r"\s+")
+_TWO_POINTS = re.compile(r"\.\d*\.")
+
+
+def number_text(text: str) -> tuple[str, str | None]:
+    """Check the characters of a number text and normalise its minus sign.
+
+    Returns ``(text, note)``: the text with the Unicode minus (U+2212) and
+    minus-like dashes (:data:`_MINUS_LIKE`) replaced by ``-``, and a note
+    when a dash was taken for a minus (``None`` otherwise).
+
+    Raises ``_ParseFailure`` for a comma (a decimal comma and a thousands
+    comma cannot be told apart: ``"1,000"`` is 1 or 1000), digits grouped
+    by spaces (``"1 000"``), two points in one number (``"1.000.5"``), and any character that is not an ASCII letter
+    or digit, a non-ASCII letter (``\u00b5``, ``\u00c5``) or one of
+    ``. + - * / ^ ( ) _ \u00b7 \u00b2 \u00b3 \u00b0``: the unit parser would
+    drop it and read another number.
+    """
+    t = str(text).strip()
+    if len(t) > _MAX_TEXT:
+        raise _ParseFailure(f"value of {len(t)} characters, longer than {_MAX_TEXT} ({shorten(t)!r})")
+    dashes = sorted({_MINUS_LIKE[c] for c in t if c in _MINUS_LIKE})
+    t = t.replace(_MINUS_SIGN, "-")
+    for c in _MINUS_LIKE:
+        t = t.replace(c, "-")
+    if "," in t:
+        raise _ParseFailure(_comma_message(t))
+    if _GROUPED_DIGITS.search(t):
+        raise _ParseFailure(
+            f"{shorten(t)!r} has digits separated by a space (a thousands separator?); write one number "
+            f"without separators, e.g. {_GROUPED_DIGITS.sub(lambda m: m.group()[0] + m.group()[-1], t)!r}"
+        )
+    t = _SPACES.sub(" ", t)  # a no-break or thin space between number and unit is a space
+    if _TWO_POINTS.search(t):
+        raise _ParseFailure(
+            f"{shorten(t)!r} has two decimal points in one number (points as thousands separators?); "
+            "write the number with one decimal point and no thousands separator, e.g. '1000.5 kN'"
+        )
+    for c in t:
+        if not (c.isascii() and c.isalnum() or c in _PLAIN or (not c.isascii() and c.isalpha())):
+            raise _ParseFailure(
+                f"{shorten(t)!r} holds the character {c!r} (U+{ord(c):04X}), which is not part of a number or unit"
+            )
+    note = None
+    if dashes:
+        note = f"{' and '.join(dashes)} read as a minus sign in {shorten(t)!r}"
+    return t, note
+
+
+def _comma_message(t: str) -> str:
+    """The refusal of a number text with a comma, with the two readings."""
+    head = f"{shorten(t)!r}: a comma in a number is ambiguous (decimal comma or thousands separator)"
+    m = re.fullmatch(r"([-+]?\d*),(\d+)(.*)", t)
+    if m and "." not in t:
+        decimal = f"{m.group(1)}.{m.group(2)}{m.group(3)}"
+        thousands = f"{m.group(1)}{m.group(2)}{m.group(3)}"
+        return f"{head}; write {decimal!r} if the comma is a decimal point, or {thousands!r} for a thousands separator"
+    return f"{head}; write the number with a point as the decimal mark and no thousands separator, e.g. '5.5 kN'"
+
+
 @lru_cache(maxsize=1)
 def registry():
     """The process-wide pint ``UnitRegistry`` (created on first use)."""
@@ -145,9 +226,41 @@ def _unit_si_factor(unit: str, kind: str) -> float:
         return float(q.to(si).magnitude)
     except pint.DimensionalityError:
         raise _ParseFailure(f"unit {unit!r} is not {what} (e.g. '{example}')") from None
+    except pint.UndefinedUnitError as exc:
+        raise _ParseFailure(_unknown_unit_text(unit, exc, kind)) from None
     except Exception as exc:  # pint raises many kinds for bad text
         raise _ParseFailure(f"unknown unit {unit!r} ({exc})") from None
 
+
+
+#: units a structural drawing uses, in their usual spelling (for "did you mean")
+_COMMON_UNITS: tuple[str, ...] = (
+    "N", "kN", "MN", "lbf", "kip", "tonf", "Pa", "kPa", "MPa", "GPa", "psi", "ksi", "psf", "ksf",
+    "m", "mm", "cm", "km", "inch", "in", "ft", "yd", "deg", "rad", "kgf",
+)
+
+
+def _unknown_unit_text(text: str, exc: Exception, kind: str) -> str:
+    """"unknown unit 'Gpa' in '200 Gpa'; did you mean '200 GPa'?" (without
+    the unit library's own wording).  The suggestion is the common unit
+    spelled the same but for letter case, else the closest by spelling,
+    offered only when the corrected text reads as the wanted kind."""
+    import difflib
+
+    names = getattr(exc, "unit_names", None) or exc.args[:1]
+    bad = names[0] if isinstance(names, (tuple, list)) and names else str(names)
+    bad = str(bad)
+    msg = f"unknown unit {bad!r} in {text.strip()!r}"
+    same_case = [u for u in _COMMON_UNITS if u.lower() == bad.lower()]
+    close = same_case or difflib.get_close_matches(bad, _COMMON_UNITS, n=3, cutoff=0.6)
+    for cand in close:
+        fixed = re.sub(rf"(?<![A-Za-z_]){re.escape(bad)}(?![A-Za-z_0-9])", cand, text.strip())
+        try:
+            _parse_cached(fixed if _HAS_DIGIT.search(fixed) else f"1 {fixed}", kind, "")
+        except Exception:  # noqa: BLE001 - only a suggestion
+            continue
+        return f"{msg}; did you mean {fixed!r}?"
+    return msg
 
 
 def _describe_dimension(q) -> str:
@@ -181,6 +294,8 @@ def _parse_cached(text: str, kind: str, default_unit: str) -> float:
         si, what, example = KINDS[kind]
         try:
             q = ureg.parse_expression(t)
+        except pint.UndefinedUnitError as exc:
+            raise _ParseFailure(_unknown_unit_text(t, exc, kind)) from None
         except Exception as exc:
             raise _ParseFailure(f"cannot read {t!r} as a quantity ({type(exc).__name__}: {exc})") from None
         if not isinstance(q, ureg.Quantity):
@@ -209,6 +324,7 @@ def parse_quantity(
     handle: str = "",
     layer: str = "",
     tag: str = "",
+    notes: list[str] | None = None,
 ) -> float:
     """Parse attribute text as a physical quantity and return it in SI units.
 
@@ -220,6 +336,8 @@ def parse_quantity(
     default_unit : pint unit text applied to a bare number (``"kN"``,
         ``"(kN)/(ft)"``, ``"deg"``, ...)
     handle, layer, tag : where the text came from, for the error message
+    notes : a list that receives a warning (naming handle, layer and tag)
+        when a dash was read as a minus sign; see :func:`number_text`
 
     Returns
     -------
@@ -229,22 +347,29 @@ def parse_quantity(
     Raises
     ------
     UnitError
-        Empty, NaN or infinite values, text pint cannot read, or a unit of
-        the wrong dimension; the message names handle, layer and tag.
+        Empty, NaN or infinite values, text pint cannot read, a unit of
+        the wrong dimension, a comma in a number, or a character that is
+        no part of a number or unit; the message names handle, layer, tag
+        and value.
     """
     try:
-        return _parse_cached(str(text), kind, default_unit)
+        t, note = number_text(str(text))
+        value = _parse_cached(t, kind, default_unit)
     except (_ParseFailure, ArithmeticError) as exc:
         # ArithmeticError: pint overflows on text such as 'N**1E3'
         what = KINDS[kind][1]
         label = f"attribute {tag}: " if tag else ""
-        reason = str(exc) if isinstance(exc, _ParseFailure) else f"cannot read {str(text).strip()!r} ({exc})"
+        reason = str(exc) if isinstance(exc, _ParseFailure) else f"cannot read {shorten(str(text).strip())!r} ({exc})"
         raise UnitError(
             f"{label}{reason}",
             handle=handle,
             layer=layer,
             hint=f"write {what} with a unit, e.g. '{KINDS[kind][2]}'",
         ) from None
+    if note is not None and notes is not None:
+        where = " ".join(w for w in (f"#{handle}" if handle else "", f"on layer '{layer}'" if layer else "") if w)
+        notes.append(f"{where + ': ' if where else ''}{tag or 'value'}: {note} (write '-' to silence this warning)")
+    return value
 
 
 def unit_factor(unit: str, kind: str) -> float:

@@ -2,15 +2,37 @@
 
 Build a :class:`Frame`, then :func:`check` it and :func:`solve` it.  All
 quantities are in one consistent unit system chosen by the caller.
+
+What engineers check next, on top of the solution: storeys and their
+drift (:mod:`solver.storeys`), sections from shape texts or drawn outlines
+(:mod:`solver.shapes`), self-weight loads (:mod:`solver.selfweight`),
+combinations with wind and earthquake both ways
+(:func:`with_reversals`), and pattern live load (:mod:`solver.patterns`).
+Beyond first order: the elastic critical load factor and P-Delta
+(:mod:`solver.second_order`), moving loads and influence lines
+(:mod:`solver.moving`).
 """
 from .model import *  # noqa: F401,F403
 from .model import __all__ as _model_all
 from .errors import LoadError, MissingSectionError, SolverError, SupportError, UnstableFrameError
 from .forces import DeflectionCheck, LoadSet, MemberLayout, MemberResult, MemberResults
 from .results import CaseResult, Reaction, combine, combine_many, envelope, reaction_envelope
-from .combinations import builtin_combinations, format_combination, parse_combination
+from .combinations import (REVERSIBLE_DEFAULT, builtin_combinations, format_combination, parse_combination,
+                           with_reversals)
 from .stiffness import solve
 from .determinacy import check, Determinacy
+from .second_order import (ALPHA_CR_LIMIT, BucklingError, BucklingResult, ConvergenceError, SecondOrderResult,
+                           SwayAmplification, critical_load_factor, critical_load_factors, second_order,
+                           second_order_many, storey_levels,
+                           sway_amplification)
+from .moving import (InfluenceLine, LoadPath, MemberEnvelope, MovingLoads, UnitLoadSolutions, Vehicle,
+                     locate_point, path_along_members, path_through_points)
+from .storeys import (DEFAULT_DRIFT_LIMIT, Storey, StoreyDrift, Storeys, drift_envelope, find_storeys,
+                      node_table, storey_drifts)
+from .shapes import (SectionProperties, ShapeError, parse_shape, polygon_properties, section_from_outline,
+                     section_from_shape, shape_polygon, shape_properties)
+from .selfweight import DENSITY, STANDARD_GRAVITY, add_self_weight, self_weight_loads
+from .patterns import PatternEnvelope, PatternPart, pattern_envelope, pattern_parts, solve_pattern_parts
 
 __all__ = list(_model_all) + [
     "solve",
@@ -28,6 +50,8 @@ __all__ = list(_model_all) + [
     "parse_combination",
     "format_combination",
     "builtin_combinations",
+    "with_reversals",
+    "REVERSIBLE_DEFAULT",
     "SolverError",
     "UnstableFrameError",
     "MissingSectionError",
@@ -35,4 +59,54 @@ __all__ = list(_model_all) + [
     "SupportError",
     "check",
     "Determinacy",
+    "critical_load_factor",
+    "critical_load_factors",
+    "second_order",
+    "second_order_many",
+    "sway_amplification",
+    "storey_levels",
+    "BucklingResult",
+    "SecondOrderResult",
+    "SwayAmplification",
+    "BucklingError",
+    "ConvergenceError",
+    "ALPHA_CR_LIMIT",
+    "MovingLoads",
+    "Vehicle",
+    "LoadPath",
+    "InfluenceLine",
+    "MemberEnvelope",
+    "UnitLoadSolutions",
+    "path_along_members",
+    "path_through_points",
+    "locate_point",
+    # storeys and drift
+    "DEFAULT_DRIFT_LIMIT",
+    "Storey",
+    "Storeys",
+    "StoreyDrift",
+    "find_storeys",
+    "storey_drifts",
+    "drift_envelope",
+    "node_table",
+    # sections from shapes
+    "ShapeError",
+    "SectionProperties",
+    "parse_shape",
+    "shape_polygon",
+    "shape_properties",
+    "polygon_properties",
+    "section_from_shape",
+    "section_from_outline",
+    # self-weight
+    "STANDARD_GRAVITY",
+    "DENSITY",
+    "self_weight_loads",
+    "add_self_weight",
+    # pattern live load
+    "PatternPart",
+    "PatternEnvelope",
+    "pattern_parts",
+    "solve_pattern_parts",
+    "pattern_envelope",
 ]

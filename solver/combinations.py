@@ -44,7 +44,12 @@ __all__ = [
     "format_combination",
     "expand_template",
     "builtin_combinations",
+    "REVERSIBLE_DEFAULT",
+    "with_reversals",
 ]
+
+REVERSIBLE_DEFAULT: tuple[str, ...] = ("W", "E")
+"""Cases that act both ways by default: wind and earthquake."""
 
 ASCE7_EDITION = "ASCE/SEI 7-16"
 
@@ -241,6 +246,8 @@ def builtin_combinations(
     kind: str,
     present_cases: Sequence[str],
     templates: Sequence[str] | None = None,
+    *,
+    reversible: Sequence[str] = (),
 ) -> list[tuple[str, dict[str, float]]]:
     """The basic combinations of one set for the load cases a frame has.
 
@@ -258,7 +265,9 @@ def builtin_combinations(
     is absent dropped, combinations that became duplicates dropped (first
     kept), and combinations left with no case but D dropped -- except the
     ones that are D alone by definition (1.4D, D).  ``name`` is the
-    formatted combination, e.g. ``"1.2D+1.6L+0.5S"``.
+    formatted combination, e.g. ``"1.2D+1.6L+0.5S"``.  With
+    ``reversible`` (e.g. ``["W", "E"]``) the list goes through
+    :func:`with_reversals`.
     """
     if templates is None:
         key = str(kind).upper()
@@ -281,4 +290,60 @@ def builtin_combinations(
                 continue
             seen.add(sig)
             out.append((format_combination(kept), kept))
+    return with_reversals(out, reversible) if reversible else out
+
+
+def with_reversals(
+    combos: Sequence[tuple[str, dict[str, float]]],
+    reversible: Sequence[str] = REVERSIBLE_DEFAULT,
+) -> list[tuple[str, dict[str, float]]]:
+    """Every combination holding a reversible case, with both signs.
+
+    Wind and earthquake act in either direction along the frame: each
+    combination of ``combos`` that holds a case of ``reversible`` (with a
+    non-zero factor) is followed by its mirror, that case's factor negated
+    (``1.2D+W+L`` then ``1.2D-W+L``).  Several reversible cases in one
+    combination flip independently (2**k variants).  Names are the
+    formatted factors, so they show the sign; a combination given by name
+    keeps its name for the sign it was written with, and its mirrors are
+    named by their factors (followed by ``" (mirror of <name>)"`` in the
+    odd case that a given combination of other factors bears that name).
+    A mirror that is itself in the list is left to it (name and place);
+    duplicates among the given combinations are dropped, first kept; other
+    combinations pass unchanged.
+
+    >>> with_reversals([("0.9D+W", {"D": 0.9, "W": 1.0})])
+    [('0.9D+W', {'D': 0.9, 'W': 1.0}), ('0.9D-W', {'D': 0.9, 'W': -1.0})]
+    """
+    rev = list(dict.fromkeys(reversible))
+    combos = [(name, dict(factors)) for name, factors in combos]
+    given_names = {name for name, _ in combos}
+
+    def signature(f: dict[str, float]) -> tuple:
+        return tuple(sorted((k, v) for k, v in f.items() if v != 0.0))
+
+    given_sigs = {signature(f) for _, f in combos}
+    out: list[tuple[str, dict[str, float]]] = []
+    seen: set[tuple] = set()
+
+    def push(name: str, f: dict[str, float]) -> None:
+        sig = signature(f)
+        if sig not in seen:
+            seen.add(sig)
+            out.append((name, f))
+
+    for name, factors in combos:
+        push(name, factors)
+        flips = [c for c in rev if factors.get(c, 0.0) != 0.0]
+        for mask in range(1, 2 ** len(flips)):
+            g = dict(factors)
+            for i, c in enumerate(flips):
+                if mask >> i & 1:
+                    g[c] = -g[c]
+            if signature(g) in given_sigs:  # given in the list: it keeps its own name and place
+                continue
+            mirror = format_combination(g)
+            if mirror in given_names:  # a given combination of other factors bears this name
+                mirror = f"{mirror} (mirror of {name})"
+            push(mirror, g)
     return out

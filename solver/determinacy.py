@@ -347,9 +347,9 @@ def _rows(cols_a, cx_a, cy_a, d, cols_b=None, cx_b=None, cy_b=None):
     return np.hstack([cols_a, cols_b]), np.hstack([va, -vb])
 
 
-def _reduce(geo: _Geometry) -> _Reduced:
-    """Contract rigid clusters and assemble the compatibility rows (see the
-    module docstring, step 1)."""
+def _rigid_clusters(geo: _Geometry):
+    """(has_rigid, member_cluster, node_cluster, nc): members and nodes
+    joined by rigid member ends form one cluster (-1: none)."""
     n, m = len(geo.xy), len(geo.start)
     has_rigid = ~(geo.rel_s & geo.rel_e)
     # graph of rigid member-end connections: vertices = nodes, then members
@@ -367,7 +367,12 @@ def _reduce(geo: _Geometry) -> _Reduced:
     lookup[cl_labels] = np.arange(nc)
     node_cluster = np.where(geo.n_rigid_ends > 0, lookup[label[:n]], -1)
 
-    # cluster reference point and radius from the end points of its members
+    return has_rigid, member_cluster, node_cluster, nc
+
+
+def _cluster_frames(geo: _Geometry, has_rigid, member_cluster, nc: int):
+    """(ref, rad): reference point and radius of each cluster, from the end
+    points of its members (radius 1 for a cluster of no extent)."""
     hm = np.flatnonzero(has_rigid)
     pc = np.concatenate([member_cluster[hm], member_cluster[hm]])
     pts = np.vstack([geo.P[geo.start[hm]], geo.P[geo.end[hm]]])
@@ -378,7 +383,14 @@ def _reduce(geo: _Geometry) -> _Reduced:
         np.maximum.at(rad, pc, np.hypot(*(pts - ref[pc]).T))
     rad = np.where(rad > 0, rad, 1.0)
 
-    # unknowns
+    return ref, rad
+
+
+def _unknowns(geo: _Geometry, node_cluster, nc: int, ref, rad):
+    """The contracted unknowns: three per cluster, two or three per free
+    node; how each node's translation and rotation read from them, and
+    the node of each unknown."""
+    n = len(geo.xy)
     free = np.flatnonzero(node_cluster < 0)
     n_free_dof = np.where(geo.rot_restrained[free], 3, 2)
     free_start = 3 * nc + np.concatenate([[0], np.cumsum(n_free_dof)[:-1]]).astype(np.int64)
@@ -410,6 +422,14 @@ def _reduce(geo: _Geometry) -> _Reduced:
         has = n_free_dof > j
         dof_node[free_start[has] + j] = free[has]
 
+    return n_dof, node_cols, node_cx, node_cy, node_rcol, node_rcoef, dof_node
+
+
+def _compatibility_blocks(geo: _Geometry, has_rigid, member_cluster, node_cluster, ref, rad, node_cols,
+                          node_cx, node_cy, node_rcol, node_rcoef) -> list:
+    """Row blocks ``(cols, vals, row_node)`` of the compatibility matrix:
+    bars do not stretch, pinned ends of cluster members follow their node,
+    supports hold their directions and rotations."""
     blocks: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []  # (cols, vals, row_node)
     # bars: no stretch
     bars = np.flatnonzero(~has_rigid)
@@ -440,6 +460,12 @@ def _reduce(geo: _Geometry) -> _Reduced:
     if len(rn):
         blocks.append((node_rcol[rn][:, None], node_rcoef[rn][:, None], rn))
 
+    return blocks
+
+
+def _stack_rows(blocks: list, n_dof: int):
+    """(A, row_node): the blocks as one sparse matrix with unit rows (rows
+    of no length dropped)."""
     if blocks:
         width = max(b[0].shape[1] for b in blocks)
         cols_l, vals_l, rnode = [], [], []
@@ -463,6 +489,19 @@ def _reduce(geo: _Geometry) -> _Reduced:
     else:
         A = sp.csr_matrix((0, n_dof))
         row_node = np.zeros(0, dtype=np.int64)
+    return A, row_node
+
+
+def _reduce(geo: _Geometry) -> _Reduced:
+    """Contract rigid clusters and assemble the compatibility rows (see the
+    module docstring, step 1)."""
+    has_rigid, member_cluster, node_cluster, nc = _rigid_clusters(geo)
+    ref, rad = _cluster_frames(geo, has_rigid, member_cluster, nc)
+    n_dof, node_cols, node_cx, node_cy, node_rcol, node_rcoef, dof_node = _unknowns(geo, node_cluster, nc, ref,
+                                                                                    rad)
+    blocks = _compatibility_blocks(geo, has_rigid, member_cluster, node_cluster, ref, rad, node_cols, node_cx,
+                                   node_cy, node_rcol, node_rcoef)
+    A, row_node = _stack_rows(blocks, n_dof)
     return _Reduced(A, row_node, n_dof, node_cluster, member_cluster, ref, rad, node_cols, node_cx, node_cy,
                     node_rcol, node_rcoef, dof_node)
 
@@ -924,51 +963,9 @@ def _has_transverse(vecs, axes: str, c: float, s: float) -> bool:
 # ---------------------------------------------------------------------------
 
 
-def check(frame: Frame, *, dense_limit: int = DENSE_LIMIT, unit_scale: float = 1.0) -> Determinacy:
-    """Classify a frame as determinate, indeterminate (with degree) or
-    unstable (with its mechanisms).
-
-    Parameters
-    ----------
-    frame : the frame; only geometry, releases and supports matter (loads
-        only for the two-force-member warning)
-    dense_limit : parts with more contracted unknowns than this use the
-        sparse null-space search instead of a dense SVD
-    unit_scale : model length units per drawing unit; coordinates in
-        ``detail`` are divided by it (pass ``DrawingModel.unit_scale`` to
-        quote drawing coordinates).  Modes stay in model units.
-
-    Returns
-    -------
-    Determinacy
-
-    Raises
-    ------
-    FrameDataError  no members, a zero-length member, or a reference to a
-        node that does not exist
-    """
-    geo = _geometry(frame)
-    red = _reduce(geo)
-    n, m = len(geo.xy), len(geo.start)
-    words = _Words(geo, unit_scale)
-
-    # connected parts of the frame (graph pre-check), each treated alone
-    g = sp.coo_matrix((np.ones(m), (geo.start, geo.end)), shape=(n, n))
-    n_comp, comp_of_node = connected_components(g, directed=False)
-    split = _split(geo, red, comp_of_node, n_comp)
-    parts = [_part(geo, red, split, c, dense_limit) for c in range(n_comp)]
-    mechanisms = sum(p.mechanisms for p in parts)
-
-    # counts: unknowns and equations of the full equilibrium matrix
-    n_rigid_total = int(geo.n_rigid_ends.sum())
-    pure = int(geo.pure_pin.sum())
-    unknowns = m + n_rigid_total + geo.r
-    equations = 3 * n - pure
-    degree = unknowns - equations + mechanisms
-    c_cond = (2 * m - n_rigid_total) - pure
-    status = "unstable" if mechanisms else ("indeterminate" if degree > 0 else "determinate")
-    count_check = _count_text(geo.r, m, n, c_cond, degree, mechanisms)
-
+def _check_warnings(frame: Frame, geo, parts, words) -> list[str]:
+    """Warnings of :func:`check`: transverse loads on two-force members,
+    lone nodes, a frame close to a mechanism, a truncated count."""
     warnings = _transverse_warnings(frame, geo)
     lone = np.flatnonzero(geo.n_ends == 0)
     if len(lone):
@@ -983,6 +980,13 @@ def check(frame: Frame, *, dense_limit: int = DENSE_LIMIT, unit_scale: float = 1
         warnings.append(f"more than {_MAX_BLOCK} mechanisms in one part: the count is a lower bound; "
                         "add supports and members first")
 
+    return warnings
+
+
+def _describe_mechanisms(geo, red, split, parts, words, n_comp: int):
+    """(modes, nodes involved, members involved, sentences): the first
+    :data:`_MAX_MODES` mechanism shapes of the parts in frame dofs and one
+    sentence per mechanism (a part's free rigid-body modes in one)."""
     modes: list[np.ndarray] = []
     nodes_involved: list[list[int]] = []
     members_involved: list[list[str]] = []
@@ -1045,20 +1049,79 @@ def check(frame: Frame, *, dense_limit: int = DENSE_LIMIT, unit_scale: float = 1
         if p.truncated:
             sentences.append(f"{part_name[0].upper()}{part_name[1:]} has at least {p.mechanisms} mechanisms.")
 
+    return modes, nodes_involved, members_involved, sentences
+
+
+def _detail(status: str, degree: int, mechanisms: int, n_modes: int, sentences: list[str],
+            warnings: list[str]) -> str:
+    """The one-paragraph verdict of :func:`check` (appends to ``warnings``
+    when mechanism shapes were dropped)."""
     if status == "unstable":
         plural = "s" if mechanisms != 1 else ""
-        more = mechanisms - len(modes)
+        more = mechanisms - n_modes
         extra = f" ({more} more mechanism{'s' if more != 1 else ''} not described.)" if more > 0 else ""
         detail = (f"Unstable: {mechanisms} independent mechanism{plural}; the frame cannot carry load "
                   f"and is not solved. " + " ".join(sentences) + extra +
                   " Add a support or a member, or remove a hinge, near the nodes named.")
         if more > 0:
-            warnings.append(f"only the first {len(modes)} of {mechanisms} mechanism shapes are kept")
+            warnings.append(f"only the first {n_modes} of {mechanisms} mechanism shapes are kept")
     elif status == "indeterminate":
         detail = (f"Stable and statically indeterminate to degree {degree}: {degree} redundant "
                   f"force{'s' if degree != 1 else ''} (axial redundants included) beyond what equilibrium "
                   f"alone gives.")
     else:
         detail = "Stable and statically determinate (degree 0): equilibrium alone gives every force."
+    return detail
+
+
+def check(frame: Frame, *, dense_limit: int = DENSE_LIMIT, unit_scale: float = 1.0) -> Determinacy:
+    """Classify a frame as determinate, indeterminate (with degree) or
+    unstable (with its mechanisms).
+
+    Parameters
+    ----------
+    frame : the frame; only geometry, releases and supports matter (loads
+        only for the two-force-member warning)
+    dense_limit : parts with more contracted unknowns than this use the
+        sparse null-space search instead of a dense SVD
+    unit_scale : model length units per drawing unit; coordinates in
+        ``detail`` are divided by it (pass ``DrawingModel.unit_scale`` to
+        quote drawing coordinates).  Modes stay in model units.
+
+    Returns
+    -------
+    Determinacy
+
+    Raises
+    ------
+    FrameDataError  no members, a zero-length member, or a reference to a
+        node that does not exist
+    """
+    geo = _geometry(frame)
+    red = _reduce(geo)
+    n, m = len(geo.xy), len(geo.start)
+    words = _Words(geo, unit_scale)
+
+    # connected parts of the frame (graph pre-check), each treated alone
+    g = sp.coo_matrix((np.ones(m), (geo.start, geo.end)), shape=(n, n))
+    n_comp, comp_of_node = connected_components(g, directed=False)
+    split = _split(geo, red, comp_of_node, n_comp)
+    parts = [_part(geo, red, split, c, dense_limit) for c in range(n_comp)]
+    mechanisms = sum(p.mechanisms for p in parts)
+
+    # counts: unknowns and equations of the full equilibrium matrix
+    n_rigid_total = int(geo.n_rigid_ends.sum())
+    pure = int(geo.pure_pin.sum())
+    unknowns = m + n_rigid_total + geo.r
+    equations = 3 * n - pure
+    degree = unknowns - equations + mechanisms
+    c_cond = (2 * m - n_rigid_total) - pure
+    status = "unstable" if mechanisms else ("indeterminate" if degree > 0 else "determinate")
+    count_check = _count_text(geo.r, m, n, c_cond, degree, mechanisms)
+
+    warnings = _check_warnings(frame, geo, parts, words)
+    modes, nodes_involved, members_involved, sentences = _describe_mechanisms(geo, red, split, parts, words,
+                                                                              n_comp)
+    detail = _detail(status, degree, mechanisms, len(modes), sentences, warnings)
     return Determinacy(status, int(degree), int(mechanisms), count_check, detail, modes, nodes_involved,
                        members_involved, warnings)

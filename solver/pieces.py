@@ -124,27 +124,28 @@ class _Pieces:
         )
 
 
-def _build_pieces(
-    length: np.ndarray,
-    end_forces: np.ndarray,
-    loads: LoadSet,
-    end_disp: np.ndarray | None = None,
-    EA: np.ndarray | None = None,
-    EI: np.ndarray | None = None,
-) -> _Pieces:
-    """Cut every member at its load break points and integrate piecewise.
+@dataclass(frozen=True, eq=False)
+class _Breaks:
+    """Break points of many members: every member end and load position,
+    sorted per member, with the break point of each load."""
 
-    ``length`` (m,), ``end_forces`` (m, 6), ``end_disp`` (m, 4) local
-    ``u_i, v_i, u_j, v_j`` (with ``EA``, ``EI``) or None.
-    """
-    L = np.asarray(length, dtype=float)
+    mem: np.ndarray
+    x: np.ndarray
+    start: np.ndarray
+    count: np.ndarray
+    of_point: np.ndarray
+    of_couple: np.ndarray
+    of_dist_a: np.ndarray
+    of_dist_b: np.ndarray
+    last: np.ndarray
+
+
+def _break_points(L: np.ndarray, loads: LoadSet) -> _Breaks:
+    """The break points of every member (see :class:`_Breaks`)."""
     m = len(L)
-    ef = np.asarray(end_forces, dtype=float).reshape(m, 6)
+    ar = np.arange(m)
     P_, C_, D_ = loads.points, loads.couples, loads.distributed
     pm, cm, dm = loads.point_member, loads.couple_member, loads.dist_member
-    ar = np.arange(m)
-
-    # break points: member ends and every load position, sorted per member
     e_mem = np.concatenate([ar, ar, pm, cm, dm, dm])
     e_x = np.concatenate([np.zeros(m), L, P_[:, 0], C_[:, 0], D_[:, 0], D_[:, 1]])
     order = np.lexsort((e_x, e_mem))
@@ -167,23 +168,14 @@ def _build_pieces(
     bp_db = bp_of_entry[k0 + len(D_):]
     last_bp = bp_start + bp_count - 1
 
-    # pieces: every break point except the last of each member
-    is_piece = np.ones(nbp, bool)
-    is_piece[last_bp] = False
-    piece_bp = np.flatnonzero(is_piece)
-    npc = len(piece_bp)
-    mem = bp_mem[piece_bp]
-    x0 = bp_x[piece_bp]
-    h = bp_x[piece_bp + 1] - x0
-    start = bp_start - ar  # piece id = bp id - member index
-    count = bp_count - 1
+    return _Breaks(bp_mem, bp_x, bp_start, bp_count, bp_p, bp_c, bp_da, bp_db, last_bp)
 
-    # concentrated jumps at break points (left free body: N -= px, V += py, M -= c)
-    jN = np.bincount(bp_p, weights=-P_[:, 1], minlength=nbp)
-    jV = np.bincount(bp_p, weights=P_[:, 2], minlength=nbp)
-    jM = np.bincount(bp_c, weights=-C_[:, 1], minlength=nbp)
 
-    # distributed loads spread over the pieces they cover
+def _piece_loads(D_: np.ndarray, dm: np.ndarray, br: _Breaks, x0: np.ndarray):
+    """(qx0, gx, qy0, gy): distributed load intensity at each piece start
+    and its slope, the loads spread over the pieces they cover."""
+    npc = len(x0)
+    bp_da, bp_db = br.of_dist_a, br.of_dist_b
     qx0 = np.zeros(npc)
     gx = np.zeros(npc)
     qy0 = np.zeros(npc)
@@ -207,17 +199,27 @@ def _build_pieces(
             qy0 = np.bincount(pc, weights=qya, minlength=npc)
             gy = np.bincount(pc, weights=gyd, minlength=npc)
 
-    with_defl = end_disp is not None and EI is not None and EA is not None
+    return qx0, gx, qy0, gy
+
+
+def _march(ef, piece_bp, start, count, h, jumps, loads_on, stiff):
+    """N, V, M (and with ``stiff`` = (EA, EI) per piece the particular
+    axial and transverse displacement and slope, zero at the member start)
+    just right of each piece start: equilibrium of the left free body,
+    marching along every member piece by piece (vectorised over members)."""
+    jN, jV, jM = jumps
+    qx0, gx, qy0, gy = loads_on
+    npc, m = len(h), len(start)
+    with_defl = stiff is not None
     N0 = np.zeros(npc)
     V0 = np.zeros(npc)
     M0 = np.zeros(npc)
+    up0 = vp0 = tp0 = None
     if with_defl:
-        eai = np.asarray(EA, float)[mem]
-        eii = np.asarray(EI, float)[mem]
+        eai, eii = stiff
         up0 = np.zeros(npc)
         vp0 = np.zeros(npc)
         tp0 = np.zeros(npc)
-    # march along each member piece by piece (vectorised over members)
     by_count = np.argsort(-count, kind="stable")
     sorted_count = count[by_count]
     for k in range(int(count.max()) if m else 0):
@@ -242,6 +244,54 @@ def _build_pieces(
                 tp0[p] = tp0[q] + (M0[q] * hq + 0.5 * V0[q] * hq**2 + qy0[q] * hq**3 / 6.0
                                    + gy[q] * hq**4 / 24.0) / ei
 
+    return N0, V0, M0, up0, vp0, tp0
+
+
+def _build_pieces(
+    length: np.ndarray,
+    end_forces: np.ndarray,
+    loads: LoadSet,
+    end_disp: np.ndarray | None = None,
+    EA: np.ndarray | None = None,
+    EI: np.ndarray | None = None,
+) -> _Pieces:
+    """Cut every member at its load break points and integrate piecewise.
+
+    ``length`` (m,), ``end_forces`` (m, 6), ``end_disp`` (m, 4) local
+    ``u_i, v_i, u_j, v_j`` (with ``EA``, ``EI``) or None.
+    """
+    L = np.asarray(length, dtype=float)
+    m = len(L)
+    ef = np.asarray(end_forces, dtype=float).reshape(m, 6)
+    P_, C_ = loads.points, loads.couples
+    ar = np.arange(m)
+    br = _break_points(L, loads)
+    bp_mem, bp_x, bp_start, bp_count = br.mem, br.x, br.start, br.count
+    bp_p, bp_c, last_bp = br.of_point, br.of_couple, br.last
+    nbp = len(bp_mem)
+
+    # pieces: every break point except the last of each member
+    is_piece = np.ones(nbp, bool)
+    is_piece[last_bp] = False
+    piece_bp = np.flatnonzero(is_piece)
+    mem = bp_mem[piece_bp]
+    x0 = bp_x[piece_bp]
+    h = bp_x[piece_bp + 1] - x0
+    start = bp_start - ar  # piece id = bp id - member index
+    count = bp_count - 1
+
+    # concentrated jumps at break points (left free body: N -= px, V += py, M -= c)
+    jN = np.bincount(bp_p, weights=-P_[:, 1], minlength=nbp)
+    jV = np.bincount(bp_p, weights=P_[:, 2], minlength=nbp)
+    jM = np.bincount(bp_c, weights=-C_[:, 1], minlength=nbp)
+
+
+    qx0, gx, qy0, gy = _piece_loads(loads.distributed, loads.dist_member, br, x0)
+    with_defl = end_disp is not None and EI is not None and EA is not None
+    stiff = (np.asarray(EA, float)[mem], np.asarray(EI, float)[mem]) if with_defl else None
+    N0, V0, M0, up0, vp0, tp0 = _march(ef, piece_bp, start, count, h, (jN, jV, jM), (qx0, gx, qy0, gy),
+                                       stiff)
+
     # values at the member ends
     lastp = start + count - 1
     hl = h[lastp]
@@ -255,6 +305,7 @@ def _build_pieces(
     ea_p = ei_p = None
     if with_defl:
         d = np.asarray(end_disp, dtype=float).reshape(m, 4)
+        eai, eii = stiff
         ei_l = eii[lastp]
         # v = v_i + th_i x + (particular part with zero value and slope at
         # x = 0); th_i follows from v(L) = v_j

@@ -78,43 +78,13 @@ def _sign_changes(b: np.ndarray, tol: np.ndarray) -> np.ndarray:
     return np.count_nonzero(filled[:, 1:] * filled[:, :-1] < 0, axis=1)
 
 
-def real_roots_unit(coef: np.ndarray, rows: np.ndarray | None = None,
-                    ref: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Real roots in [0, 1] of many polynomials at once.
-
-    Parameters
-    ----------
-    coef : (P, d+1) ascending coefficients of polynomials in s
-    rows : optional (P,) labels returned with each root (default 0..P-1)
-    ref : optional (P,) magnitude below which a coefficient counts as zero
-        after scaling by 1e-13 (default: each polynomial's own largest
-        coefficient); a polynomial entirely below it has no roots reported
-
-    Returns
-    -------
-    (labels, s) : one entry per root in [0, 1].  Roots are isolated with
-    the variation-diminishing property of the Bernstein form (the number
-    of sign changes of the Bernstein coefficients bounds the number of
-    roots on the interval and has its parity; intervals with one change
-    hold exactly one root) by repeated halving, then located by
-    safeguarded Newton iteration inside their bracket.  A multiple root is
-    reported at the centre of an interval narrower than 2**-44.
-    """
-    coef = np.asarray(coef, dtype=float)
-    P, n = coef.shape
-    rows = np.arange(P) if rows is None else np.asarray(rows)
-    if P == 0:
-        return rows[:0], np.zeros(0)
-    own = np.abs(coef).max(axis=1)
-    scale = own if ref is None else np.maximum(np.asarray(ref, dtype=float), 0.0)
-    live = np.flatnonzero((own > 1e-13 * scale) & (own > 0))
-    if n == 1 or len(live) == 0:
-        return rows[:0], np.zeros(0)
-    c = coef[live] / own[live, None]
-    tol_row = np.full(len(live), 1e-14) * np.maximum(scale[live] / own[live], 1.0)
-    found_w, found_s = [], []
-    # deflate roots at the ends (a member end at a support is a common
-    # one): divide by s or by (1 - s) while the end value is negligible
+def _deflate_end_roots(c: np.ndarray, tol_row: np.ndarray):
+    """(d, found_w, found_s): deflate roots at the ends (a member end at a
+    support is a common one): divide by s or by (1 - s) while the end
+    value is negligible; the roots taken out are listed (row, s)."""
+    n = c.shape[1]
+    found_w: list[np.ndarray] = []
+    found_s: list[np.ndarray] = []
     d = c.copy()
     for _ in range(n - 1):
         z0 = np.abs(d[:, 0]) <= tol_row
@@ -136,10 +106,19 @@ def real_roots_unit(coef: np.ndarray, rows: np.ndarray | None = None,
                 acc = acc + d[z1, k]
                 q[:, k - 1] = acc
             d[z1] = q
+    return d, found_w, found_s
+
+
+def _isolate(d: np.ndarray, tol_row: np.ndarray, found_w: list, found_s: list):
+    """Isolate the roots in [0, 1] by halving the Bernstein form: roots
+    met at an interval end or left in an interval narrower than 2**-45
+    are appended to ``found_w``/``found_s``; returns the clean brackets
+    (rows, interval starts, widths, Bernstein value at the start)."""
+    n = d.shape[1]
     B = d @ _bernstein_matrix(n - 1)
     B /= np.maximum(np.abs(B).max(axis=1), 1e-300)[:, None]
-    who = np.arange(len(live))
-    lo = np.zeros(len(live))
+    who = np.arange(len(d))
+    lo = np.zeros(len(d))
     width = 1.0
     iso_w, iso_lo, iso_w_len, iso_b0 = [], [], [], []
     for depth in range(46):
@@ -174,42 +153,86 @@ def real_roots_unit(coef: np.ndarray, rows: np.ndarray | None = None,
         B = np.concatenate([Bl, Br])
         # a root exactly at the common midpoint is found by both halves'
         # end tests; duplicates are harmless to callers
+    return iso_w, iso_lo, iso_w_len, iso_b0
+
+
+def _polish(cw: np.ndarray, a: np.ndarray, b: np.ndarray, sa: np.ndarray) -> np.ndarray:
+    """Safeguarded Newton iteration of polynomials ``cw`` inside their
+    brackets [a, b] (``sa``: sign at a); returns the roots."""
+    dw = _polyder(cw)
+    # start from the secant of the bracket (false position), not its
+    # middle: Newton is then usually in its quadratic range at once
+    fa, fb = _polyval(cw, a), _polyval(cw, b)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        x = a + (b - a) * fa / (fa - fb)
+    x = np.where(np.isfinite(x) & (x > a) & (x < b), x, 0.5 * (a + b))
+    act = np.arange(len(cw))
+    for _ in range(80):
+        cx = cw[act]
+        fx = _polyval(cx, x[act])
+        fp = _polyval(dw[act], x[act])
+        same = np.sign(fx) == sa[act]
+        a[act] = np.where(same, x[act], a[act])
+        b[act] = np.where(same, b[act], x[act])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            xn = x[act] - fx / fp
+        ok = np.isfinite(xn) & (xn > a[act]) & (xn < b[act])
+        xnew = np.where(ok, xn, 0.5 * (a[act] + b[act]))
+        # converged: a Newton step this small leaves an error of its
+        # square; or f is down to the rounding noise of evaluating it
+        # (Horner with |coefficients|), where further steps only wander
+        noise = np.abs(fx) <= 8e-16 * _polyval(np.abs(cx), x[act])
+        done = (np.abs(xnew - x[act]) <= 1e-14) | noise | (b[act] - a[act] <= 4e-16)
+        x[act] = np.where(noise, x[act], xnew)
+        act = act[~done]
+        if len(act) == 0:
+            break
+    return x
+
+
+def real_roots_unit(coef: np.ndarray, rows: np.ndarray | None = None,
+                    ref: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Real roots in [0, 1] of many polynomials at once.
+
+    Parameters
+    ----------
+    coef : (P, d+1) ascending coefficients of polynomials in s
+    rows : optional (P,) labels returned with each root (default 0..P-1)
+    ref : optional (P,) magnitude below which a coefficient counts as zero
+        after scaling by 1e-13 (default: each polynomial's own largest
+        coefficient); a polynomial entirely below it has no roots reported
+
+    Returns
+    -------
+    (labels, s) : one entry per root in [0, 1].  Roots are isolated with
+    the variation-diminishing property of the Bernstein form (the number
+    of sign changes of the Bernstein coefficients bounds the number of
+    roots on the interval and has its parity; intervals with one change
+    hold exactly one root) by repeated halving, then located by
+    safeguarded Newton iteration inside their bracket.  A multiple root is
+    reported at the centre of an interval narrower than 2**-44.
+    """
+    coef = np.asarray(coef, dtype=float)
+    P, n = coef.shape
+    rows = np.arange(P) if rows is None else np.asarray(rows)
+    if P == 0:
+        return rows[:0], np.zeros(0)
+    own = np.abs(coef).max(axis=1)
+    scale = own if ref is None else np.maximum(np.asarray(ref, dtype=float), 0.0)
+    live = np.flatnonzero((own > 1e-13 * scale) & (own > 0))
+    if n == 1 or len(live) == 0:
+        return rows[:0], np.zeros(0)
+    c = coef[live] / own[live, None]
+    tol_row = np.full(len(live), 1e-14) * np.maximum(scale[live] / own[live], 1.0)
+    d, found_w, found_s = _deflate_end_roots(c, tol_row)
+    iso_w, iso_lo, iso_w_len, iso_b0 = _isolate(d, tol_row, found_w, found_s)
     if iso_w:
         w = np.concatenate(iso_w)
         a = np.concatenate(iso_lo)
         b = a + np.concatenate(iso_w_len)
         sa = np.sign(np.concatenate(iso_b0))
-        cw = d[w]
-        dw = _polyder(cw)
-        # start from the secant of the bracket (false position), not its
-        # middle: Newton is then usually in its quadratic range at once
-        fa, fb = _polyval(cw, a), _polyval(cw, b)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            x = a + (b - a) * fa / (fa - fb)
-        x = np.where(np.isfinite(x) & (x > a) & (x < b), x, 0.5 * (a + b))
-        act = np.arange(len(w))
-        for _ in range(80):
-            cx = cw[act]
-            fx = _polyval(cx, x[act])
-            fp = _polyval(dw[act], x[act])
-            same = np.sign(fx) == sa[act]
-            a[act] = np.where(same, x[act], a[act])
-            b[act] = np.where(same, b[act], x[act])
-            with np.errstate(divide="ignore", invalid="ignore"):
-                xn = x[act] - fx / fp
-            ok = np.isfinite(xn) & (xn > a[act]) & (xn < b[act])
-            xnew = np.where(ok, xn, 0.5 * (a[act] + b[act]))
-            # converged: a Newton step this small leaves an error of its
-            # square; or f is down to the rounding noise of evaluating it
-            # (Horner with |coefficients|), where further steps only wander
-            noise = np.abs(fx) <= 8e-16 * _polyval(np.abs(cx), x[act])
-            done = (np.abs(xnew - x[act]) <= 1e-14) | noise | (b[act] - a[act] <= 4e-16)
-            x[act] = np.where(noise, x[act], xnew)
-            act = act[~done]
-            if len(act) == 0:
-                break
         found_w.append(w)
-        found_s.append(x)
+        found_s.append(_polish(d[w], a, b, sa))
     wa = np.concatenate(found_w) if found_w else np.zeros(0, np.intp)
     sa_ = np.concatenate(found_s) if found_s else np.zeros(0)
     return rows[live[wa]], np.clip(sa_, 0.0, 1.0)

@@ -1,363 +1,366 @@
-"""Direct stiffness solution of a planar frame.
+"""Direct stiffness solution of a planar frame, as named steps.
+
+:func:`solve` runs the steps in order; each is a function of its own so
+the second-order and moving-load analyses reuse them:
+
+1. :func:`prepare` -- geometry, stiffness properties, supports, the dof
+   map and the assembled sparse stiffness (:class:`FrameModel`; nothing
+   here depends on the loads);
+2. :func:`load_vectors` -- nodal load vectors, prescribed settlements and
+   fixed-end forces of every case (:class:`LoadVectors`);
+3. :func:`factorise` -- the free-free stiffness (plus any extra matrix,
+   e.g. a geometric stiffness) scaled to unit diagonal and factorised once
+   (:class:`Factorisation`); a singular matrix is a mechanism;
+4. :func:`displacements` -- ``K_ff u_f = F_f - K_fr u_r`` for all cases at
+   once (the cases are the columns of one right-hand side);
+5. recovery -- :func:`member_end_forces`, :func:`support_reactions` and
+   :func:`case_results`.
 
 Elements are 2D frame members (axial + Euler-Bernoulli bending, prismatic)
 with optional moment releases at either end, condensed out at element
-level.  Supports restrain movement along their own axes x', y' (turned
-``angle`` counter-clockwise) and rotation; the translational dofs of a
-supported node are expressed in those axes (a transformation of the node,
-not a penalty), so an inclined roller is an exact zero displacement along
-y'.  Springs act along the same axes.  Settlements prescribe the
-restrained components.
-
-Member loads enter through fixed-end forces computed from the exact
-homogeneous solutions of the element: the Hermite cubics (bending) and the
-linear functions (axial) are the displacement fields of a unit end
-movement with the other end clamped, so by Betti's reciprocal theorem the
-fixed-end reaction in dof k is ``-(integral of shape_k * load)``, exact for
-any load (3-point Gauss quadrature is exact for the degree-4 integrand of a
-linearly varying load).  Released ends condense these forces with the
-same algebra as the stiffness.
-
-One sparse matrix (scipy.sparse, CSC) is assembled for the whole frame,
-scaled to unit diagonal and factorised once (SuperLU, symmetric mode); all
-load cases are solved as the columns of one right-hand side.
+level (:mod:`solver.element`).  Supports restrain movement along their own
+axes (:mod:`solver.supports`); settlements prescribe the restrained
+components.
 
 Sign conventions: global X right, Y up, rotations and moments
 counter-clockwise.  Member end forces are the forces the nodes exert on
 the member, in local axes (x start -> end, y 90 degrees CCW from x).
 Reactions are the forces the supports exert on the structure, global.
+Units: one consistent system chosen by the caller (N, m, Pa in the DXF
+pipeline).
 """
 from __future__ import annotations
 
-import math
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.linalg import splu
 
-from .errors import LoadError, MissingSectionError, SolverError, SupportError, UnstableFrameError
+from .case_loads import gather_loads
+from .element import condense, element_stiffness, fixed_end_forces, full_local_stiffness, clamped_fixed_end_forces
+from .errors import LoadError, MissingSectionError, SolverError, UnstableFrameError
 from .forces import LoadSet, MemberLayout, MemberResults
-from .model import DistributedLoad, Frame, MemberCouple, NodalLoad, PointLoad, Settlement
+from .model import Frame, Member
 from .results import CaseResult, Reaction
+from .supports import SupportData, gather_supports
 
-__all__ = ["solve", "element_stiffness", "fixed_end_forces", "PIVOT_TOL"]
+__all__ = [
+    "solve",
+    "element_stiffness",
+    "fixed_end_forces",
+    "PIVOT_TOL",
+    "FrameModel",
+    "LoadVectors",
+    "Factorisation",
+    "prepare",
+    "load_vectors",
+    "factorise",
+    "displacements",
+    "member_end_forces",
+    "support_reactions",
+    "case_results",
+    "assemble",
+    "unstable",
+]
 
 PIVOT_TOL = 1e-11
 """Smallest pivot of the unit-diagonal stiffness matrix accepted as stable."""
 
-_POS_TOL = 1e-9  # relative tolerance on load positions (a / L)
-_GAUSS_S = np.array([-math.sqrt(0.6), 0.0, math.sqrt(0.6)])
-_GAUSS_W = np.array([5.0, 8.0, 5.0]) / 9.0
+_RHS_BLOCK = 64  # right-hand-side columns per SuperLU solve call
 
 
 # --------------------------------------------------------------------------
-# element level
+# step 1: the model without loads
 
 
-def _full_local_stiffness(L: np.ndarray, EA: np.ndarray, EI: np.ndarray) -> np.ndarray:
-    """(m, 6, 6) local stiffness of rigidly connected members, dofs
-    ``u_i, v_i, th_i, u_j, v_j, th_j``."""
-    m = len(L)
-    k = np.zeros((m, 6, 6))
-    a = EA / L
-    b12, b6, b4, b2 = 12 * EI / L**3, 6 * EI / L**2, 4 * EI / L, 2 * EI / L
-    k[:, 0, 0] = k[:, 3, 3] = a
-    k[:, 0, 3] = k[:, 3, 0] = -a
-    k[:, 1, 1] = k[:, 4, 4] = b12
-    k[:, 1, 4] = k[:, 4, 1] = -b12
-    k[:, 1, 2] = k[:, 2, 1] = k[:, 1, 5] = k[:, 5, 1] = b6
-    k[:, 2, 4] = k[:, 4, 2] = k[:, 4, 5] = k[:, 5, 4] = -b6
-    k[:, 2, 2] = k[:, 5, 5] = b4
-    k[:, 2, 5] = k[:, 5, 2] = b2
-    return k
+@dataclass(frozen=True, eq=False)
+class FrameModel:
+    """A frame ready for loads: geometry, stiffness, supports, dofs and the
+    assembled stiffness matrix.
 
+    Dofs are three per node, ``3*node + (0, 1, 2)``: translations along the
+    node axes (the axes of the node's supports; global for unsupported
+    nodes) and the rotation.  ``act`` marks dofs that exist (a rotation is
+    dropped where nothing gives it stiffness: every member end pinned and
+    no rotational restraint; a node without members has no dofs);
+    ``rig`` the rigidly restrained ones, ``free`` the unknowns.
 
-def _release_groups(rel_s: np.ndarray, rel_e: np.ndarray) -> list[tuple[np.ndarray, list[int]]]:
-    groups = []
-    for rs, re, R in ((True, False, [2]), (False, True, [5]), (True, True, [2, 5])):
-        idx = np.flatnonzero((rel_s == rs) & (rel_e == re))
-        if len(idx):
-            groups.append((idx, R))
-    return groups
-
-
-def _condense(k: np.ndarray, vecs: np.ndarray | None, rel_s: np.ndarray, rel_e: np.ndarray):
-    """Static condensation of released end rotations.
-
-    ``k`` (m, 6, 6) is condensed in place of a copy; ``vecs`` (m, 6, c)
-    fixed-end forces are condensed with it.  Rows and columns of released
-    dofs become exactly zero.
+    Attributes
+    ----------
+    frame : the frame
+    xy : (n, 2) node coordinates
+    si, ei : (m,) start and end node of each member
+    L, c, s : (m,) member length and direction cosines of local x
+    rel_s, rel_e : (m,) moment releases
+    ids : member ids in frame order
+    EA, EI : (m,) axial [force] and bending [force*length**2] stiffness
+        (nominal values when ``nominal``)
+    nominal : some member has no section; the frame is solved with nominal
+        stiffness (forces only, valid for a determinate frame)
+    missing : the members without a section
+    sup : the supports gathered per node
+    act, rig, free : (3n,) bool dof masks; ``free_idx``, ``rig_idx`` indices
+    T : (m, 6, 6) rotation from node axes to member local axes
+    dof : (m, 6) global dof numbers of each member's ends
+    k_full : (m, 6, 6) local stiffness before condensation of releases
+    k_loc : (m, 6, 6) local stiffness, releases condensed
+    K : (3n, 3n) assembled stiffness in node axes (CSR, no springs)
+    spring_diag : (3n,) spring stiffness on the free dofs (0 elsewhere)
     """
-    k = k.copy()
-    vecs = None if vecs is None else vecs.copy()
-    for idx, R in _release_groups(rel_s, rel_e):
-        kg = k[idx]
-        kRR = kg[:, R][:, :, R]
-        kR = kg[:, R, :]  # (g, r, 6)
-        Q = np.swapaxes(np.linalg.solve(kRR, np.swapaxes(kg[:, :, R], 1, 2)), 1, 2)  # k[:, :, R] kRR^-1
-        kc = kg - Q @ kR
-        kc[:, R, :] = 0.0
-        kc[:, :, R] = 0.0
-        k[idx] = kc
-        if vecs is not None:
-            vg = vecs[idx]
-            vc = vg - Q @ vg[:, R, :]
-            vc[:, R, :] = 0.0
-            vecs[idx] = vc
-    return k, vecs
+
+    frame: Frame
+    xy: np.ndarray
+    si: np.ndarray
+    ei: np.ndarray
+    L: np.ndarray
+    c: np.ndarray
+    s: np.ndarray
+    rel_s: np.ndarray
+    rel_e: np.ndarray
+    ids: tuple[str, ...]
+    EA: np.ndarray
+    EI: np.ndarray
+    nominal: bool
+    missing: tuple[Member, ...]
+    sup: SupportData
+    act: np.ndarray
+    rig: np.ndarray
+    free: np.ndarray
+    free_idx: np.ndarray
+    rig_idx: np.ndarray
+    T: np.ndarray
+    dof: np.ndarray
+    k_full: np.ndarray
+    k_loc: np.ndarray
+    K: sp.csr_matrix
+    spring_diag: np.ndarray
+
+    @property
+    def n_dofs(self) -> int:
+        return 3 * len(self.xy)
+
+    def layout(self) -> MemberLayout:
+        """Geometry and stiffness of the members for the results (no
+        stiffness when ``nominal``)."""
+        return MemberLayout(self.ids, self.L, self.c, self.s, None if self.nominal else self.EA,
+                            None if self.nominal else self.EI)
+
+    def geo(self) -> tuple:
+        """(L, c, s, {member id: index}) as :func:`~dxf2frame.solver.case_loads.gather_loads` takes it."""
+        return (self.L, self.c, self.s, dict(zip(self.ids, range(len(self.ids)))))
 
 
-def element_stiffness(length, EA, EI, release_start=False, release_end=False) -> np.ndarray:
-    """Local stiffness matrices (m, 6, 6) of frame members, released end
-    rotations condensed out (their rows and columns are zero).
+def _member_geometry(frame: Frame):
+    """Node coordinates, member ends, lengths, directions, releases and
+    ids, checked (members exist, refer to nodes, have length, unique ids)."""
+    if not frame.members:
+        raise SolverError("the frame has no members")
+    n = len(frame.nodes)
+    m = len(frame.members)
+    xy = np.array([(nd.x, nd.y) for nd in frame.nodes], dtype=float).reshape(n, 2)
+    si = np.array([mb.start for mb in frame.members], dtype=np.intp)
+    ei = np.array([mb.end for mb in frame.members], dtype=np.intp)
+    if si.min() < 0 or ei.min() < 0 or si.max() >= n or ei.max() >= n:
+        bad = next(mb for mb in frame.members if not (0 <= mb.start < n and 0 <= mb.end < n))
+        raise SolverError(f"member {bad.id} refers to a node that does not exist", handle=bad.handle,
+                          members=[bad.id])
+    d = xy[ei] - xy[si]
+    L = np.hypot(d[:, 0], d[:, 1])
+    if not np.all(L > 0):
+        bad = frame.members[int(np.argmin(L))]
+        raise SolverError(f"member {bad.id} has zero length", handle=bad.handle, members=[bad.id])
+    c, s = d[:, 0] / L, d[:, 1] / L
+    rel_s = np.array([mb.release_start for mb in frame.members], dtype=bool)
+    rel_e = np.array([mb.release_end for mb in frame.members], dtype=bool)
+    ids = tuple(mb.id for mb in frame.members)
+    if len(set(ids)) != m:
+        raise SolverError("member ids must be unique")
+    return xy, si, ei, L, c, s, rel_s, rel_e, ids
 
-    Parameters are arrays (or scalars) of member length, axial stiffness
-    EA [force], bending stiffness EI [force*length**2] and release flags.
+
+def _member_stiffness(frame: Frame, L: np.ndarray, determinate: bool | None):
+    """(EA, EI, nominal, missing): the sections' stiffness, or nominal
+    values when some member has no section and the caller says the frame
+    is determinate."""
+    m = len(frame.members)
+    missing = tuple(mb for mb in frame.members if mb.section is None)
+    if missing:
+        if determinate is not True:
+            raise MissingSectionError(
+                f"{len(missing)} member(s) have no section ({', '.join(mb.id for mb in missing[:8])}"
+                f"{' ...' if len(missing) > 8 else ''}); give sections, or solve with determinate=True "
+                "after checking that the frame is statically determinate",
+                handle=missing[0].handle, members=[mb.id for mb in missing])
+        return np.ones(m), np.full(m, float(np.mean(L)) ** 2), True, missing
+    EA = np.array([mb.section.E * mb.section.A for mb in frame.members], dtype=float)
+    EI = np.array([mb.section.E * mb.section.I for mb in frame.members], dtype=float)
+    return EA, EI, False, missing
+
+
+def _active_dofs(n: int, si, ei, rel_s, rel_e, sup: SupportData) -> np.ndarray:
+    """(3n,) bool: the dofs that exist.  A rotation is dropped where
+    nothing gives it stiffness (every member end pinned, no rotational
+    restraint); a node without members has no dofs at all."""
+    rot_ends = np.bincount(si[~rel_s], minlength=n) + np.bincount(ei[~rel_e], minlength=n)
+    touched = np.bincount(np.concatenate([si, ei]), minlength=n) > 0
+    active = np.repeat(touched[:, None], 3, axis=1)
+    active[:, 2] &= (rot_ends > 0) | sup.rigid[:, 2] | (sup.spring[:, 2] > 0)
+    return active.ravel()
+
+
+def _node_to_local(c, s, si, ei, sup: SupportData) -> np.ndarray:
+    """(m, 6, 6) rotation taking end displacements in node axes to member
+    local axes."""
+    m = len(c)
+    T = np.zeros((m, 6, 6))
+    for end, nodes in ((0, si), (3, ei)):
+        ce = c * sup.cos[nodes] + s * sup.sin[nodes]
+        se = s * sup.cos[nodes] - c * sup.sin[nodes]
+        T[:, end, end] = ce
+        T[:, end, end + 1] = se
+        T[:, end + 1, end] = -se
+        T[:, end + 1, end + 1] = ce
+        T[:, end + 2, end + 2] = 1.0
+    return T
+
+
+def assemble(model_or_T, k_local: np.ndarray, dof: np.ndarray | None = None,
+             n_dofs: int | None = None) -> sp.csr_matrix:
+    """Assemble local element matrices (m, 6, 6) into one sparse (3n, 3n)
+    matrix in node axes: ``sum T^T k T`` scattered to the member dofs.
+
+    Called as ``assemble(model, k_local)`` with a :class:`FrameModel`, or
+    ``assemble(T, k_local, dof, n_dofs)``.
     """
-    L = np.atleast_1d(np.asarray(length, dtype=float))
-    EA = np.broadcast_to(np.asarray(EA, dtype=float), L.shape)
-    EI = np.broadcast_to(np.asarray(EI, dtype=float), L.shape)
-    rs = np.broadcast_to(np.asarray(release_start, dtype=bool), L.shape)
-    re = np.broadcast_to(np.asarray(release_end, dtype=bool), L.shape)
-    k, _ = _condense(_full_local_stiffness(L, EA, EI), None, rs, re)
-    return k
+    if isinstance(model_or_T, FrameModel):
+        T, dof, n_dofs = model_or_T.T, model_or_T.dof, model_or_T.n_dofs
+    else:
+        T = model_or_T
+    ke = np.einsum("mji,mjk,mkl->mil", T, k_local, T, optimize=True)
+    rows = np.repeat(dof, 6, axis=1).ravel()
+    cols = np.tile(dof, (1, 6)).ravel()
+    return sp.csr_matrix((ke.ravel(), (rows, cols)), shape=(n_dofs, n_dofs))
 
 
-def _fef_clamped(L: np.ndarray, loads: LoadSet) -> np.ndarray:
-    """(m, 6) fixed-end forces (by the nodes on the member, local) of
-    clamped-clamped members: minus the work-equivalent nodal loads of the
-    exact element shape functions."""
-    m = len(L)
-    out = np.zeros((m, 6))
+def prepare(frame: Frame, *, determinate: bool | None = None) -> FrameModel:
+    """Step 1: check the frame and assemble its stiffness (see
+    :class:`FrameModel`).  ``determinate`` as in :func:`solve`."""
+    xy, si, ei, L, c, s, rel_s, rel_e, ids = _member_geometry(frame)
+    EA, EI, nominal, missing = _member_stiffness(frame, L, determinate)
+    sup = gather_supports(frame)
+    n = len(xy)
+    act = _active_dofs(n, si, ei, rel_s, rel_e, sup)
+    rig = sup.rigid.ravel() & act
+    free = act & ~rig
+    k_full = full_local_stiffness(L, EA, EI)
+    k_loc, _ = condense(k_full, None, rel_s, rel_e)
+    T = _node_to_local(c, s, si, ei, sup)
+    dof = np.column_stack([3 * si, 3 * si + 1, 3 * si + 2, 3 * ei, 3 * ei + 1, 3 * ei + 2])
+    K = assemble(T, k_loc, dof, 3 * n)
+    return FrameModel(frame, xy, si, ei, L, c, s, rel_s, rel_e, ids, EA, EI, nominal, missing, sup,
+                      act, rig, free, np.flatnonzero(free), np.flatnonzero(rig), T, dof, k_full, k_loc, K,
+                      sup.spring.ravel() * free)
 
-    def shapes(xi, Lm):
-        h1 = 1 - 3 * xi**2 + 2 * xi**3
-        h2 = Lm * (xi - 2 * xi**2 + xi**3)
-        h3 = 3 * xi**2 - 2 * xi**3
-        h4 = Lm * (-(xi**2) + xi**3)
-        return h1, h2, h3, h4
 
-    def add(mem, px, py, xi, Lm):
-        h1, h2, h3, h4 = shapes(xi, Lm)
-        vals = -np.column_stack([(1 - xi) * px, h1 * py, h2 * py, xi * px, h3 * py, h4 * py])
-        for col in range(6):
-            out[:, col] += np.bincount(mem, weights=vals[:, col], minlength=m)
+# --------------------------------------------------------------------------
+# step 2: loads
 
-    P = loads.points
-    if len(P):
-        Lm = L[loads.point_member]
-        add(loads.point_member, P[:, 1], P[:, 2], P[:, 0] / Lm, Lm)
-    C = loads.couples
-    if len(C):
-        mem = loads.couple_member
-        Lm = L[mem]
-        xi = C[:, 0] / Lm
-        d1 = (-6 * xi + 6 * xi**2) / Lm
-        d2 = 1 - 4 * xi + 3 * xi**2
-        d3 = (6 * xi - 6 * xi**2) / Lm
-        d4 = -2 * xi + 3 * xi**2
-        c = C[:, 1]
-        vals = -np.column_stack([0 * c, d1 * c, d2 * c, 0 * c, d3 * c, d4 * c])
-        for col in range(6):
-            out[:, col] += np.bincount(mem, weights=vals[:, col], minlength=m)
-    D = loads.distributed
-    if len(D):
-        mem = loads.dist_member
-        Lm = L[mem]
-        a, b = D[:, 0], D[:, 1]
-        half, mid = 0.5 * (b - a), 0.5 * (a + b)
-        for s, w in zip(_GAUSS_S, _GAUSS_W):
-            x = mid + half * s
-            r = (x - a) / (b - a)
-            qx = D[:, 2] + (D[:, 4] - D[:, 2]) * r
-            qy = D[:, 3] + (D[:, 5] - D[:, 3]) * r
-            add(mem, w * half * qx, w * half * qy, x / Lm, Lm)
+
+@dataclass(eq=False)
+class LoadVectors:
+    """The loads of several cases (the columns), in the model's dofs.
+
+    Attributes
+    ----------
+    names : the case names, one per column
+    F : (3n, nc) nodal loads in node axes, the equivalent nodal loads of
+        the member loads included
+    Ur : (3n, nc) prescribed displacements of the rigid dofs (settlements,
+        node axes; zero on every other dof)
+    f0 : (nc, m, 6) fixed-end forces of the member loads, local axes,
+        releases condensed
+    loadsets : the member loads of each case (local axes, for the diagrams)
+    """
+
+    names: list[str]
+    F: np.ndarray
+    Ur: np.ndarray
+    f0: np.ndarray
+    loadsets: list[LoadSet]
+
+    def combined(self, factors: dict[str, float], name: str) -> "LoadVectors":
+        """One column: the sum of the cases scaled by ``factors`` (cases
+        not among ``names`` contribute nothing)."""
+        w = np.array([float(factors.get(nm, 0.0)) for nm in self.names])
+        ls = LoadSet.empty()
+        for f, l in zip(w, self.loadsets):
+            if f != 0.0 and len(l):
+                ls = ls + l.scaled(f)
+        return LoadVectors([name], self.F @ w[:, None], self.Ur @ w[:, None],
+                           np.einsum("c,cmk->mk", w, self.f0)[None], [ls])
+
+
+def _node_axes(sup: SupportData, vec: np.ndarray) -> np.ndarray:
+    """(n, 3) global (x, y, rotation) -> (3n,) in node axes."""
+    out = np.empty(3 * len(vec))
+    out[0::3] = sup.cos * vec[:, 0] + sup.sin * vec[:, 1]
+    out[1::3] = -sup.sin * vec[:, 0] + sup.cos * vec[:, 1]
+    out[2::3] = vec[:, 2]
     return out
 
 
-def fixed_end_forces(length, loads: LoadSet, release_start=False, release_end=False) -> np.ndarray:
-    """Fixed-end forces (m, 6) ``[Ni, Vi, Mi, Nj, Vj, Mj]``: the forces the
-    nodes exert on each member, local axes, when both end nodes are held
-    still, released ends free to rotate (condensed: their moment is zero).
+def load_vectors(model: FrameModel, case_names: Sequence[str]) -> LoadVectors:
+    """Step 2: gather and check the loads of ``case_names`` and turn them
+    into load vectors (see :class:`LoadVectors`).
 
-    ``loads`` is a :class:`~dxf2frame.solver.forces.LoadSet` indexed by member.
-    """
-    L = np.atleast_1d(np.asarray(length, dtype=float))
-    f = _fef_clamped(L, loads)
-    rs = np.broadcast_to(np.asarray(release_start, dtype=bool), L.shape)
-    re = np.broadcast_to(np.asarray(release_end, dtype=bool), L.shape)
-    if not (rs.any() or re.any()):
-        return f
-    # condensation needs stiffness ratios only: unit EA, EI
-    k = _full_local_stiffness(L, np.ones_like(L), np.ones_like(L))
-    _, fc = _condense(k, f[:, :, None], rs, re)
-    return fc[:, :, 0]
-
-
-# --------------------------------------------------------------------------
-# supports
-
-
-@dataclass
-class _SupportData:
-    """Node axes and restraints gathered from the supports (node axes =
-    the axes of the node's supports; global for unsupported nodes)."""
-
-    cos: np.ndarray  # (n,) node axes
-    sin: np.ndarray
-    rigid: np.ndarray  # (n, 3) bool, in node axes
-    spring: np.ndarray  # (n, 3) spring stiffness on non-rigid components
-    owner: np.ndarray  # (n, 3) support index owning each rigid restraint (-1)
-    springs: list[tuple[int, int, int, float]]  # (support index, node, comp, k)
-    supported: np.ndarray  # (n,) bool
-
-
-def _gather_supports(frame: Frame) -> _SupportData:
-    n = len(frame.nodes)
-    angle = np.zeros(n)
-    have = np.zeros(n, bool)
-    for s in frame.supports:  # axes from the first support that restrains a translation
-        if not (0 <= s.node < n):
-            raise SupportError(f"support on node {s.node}, which does not exist", handle=s.handle)
-        if not have[s.node] and (s.ux or s.uy):
-            angle[s.node], have[s.node] = s.angle, True
-    for s in frame.supports:
-        if not have[s.node]:
-            angle[s.node], have[s.node] = s.angle, True
-    rigid = np.zeros((n, 3), bool)
-    spring = np.zeros((n, 3))
-    owner = np.full((n, 3), -1)
-    springs: list[tuple[int, int, int, float]] = []
-    for si, s in enumerate(frame.supports):
-        d = s.angle - angle[s.node]
-        if abs(math.sin(d)) < 1e-9:
-            cx, cy = 0, 1
-        elif abs(math.cos(d)) < 1e-9:
-            cx, cy = 1, 0
-        elif s.ux or s.uy or s.kx or s.ky:
-            raise SupportError(
-                f"two supports at node {s.node} have axes that are neither parallel nor perpendicular",
-                handle=s.handle, nodes=[s.node])
-        else:
-            cx, cy = 0, 1
-        for fixed, k, comp in ((s.ux, s.kx, cx), (s.uy, s.ky, cy), (s.rz, s.kr, 2)):
-            if fixed:
-                rigid[s.node, comp] = True
-                if owner[s.node, comp] < 0:
-                    owner[s.node, comp] = si
-            elif k is not None and k != 0:
-                if not (math.isfinite(k) and k > 0):
-                    raise SupportError(f"spring stiffness must be positive, got {k!r}", handle=s.handle,
-                                       nodes=[s.node])
-                springs.append((si, s.node, comp, float(k)))
-    springs = [t for t in springs if not rigid[t[1], t[2]]]
-    for _, node, comp, k in springs:
-        spring[node, comp] += k
-    return _SupportData(np.cos(angle), np.sin(angle), rigid, spring, owner, springs, have)
+    Raises LoadError for a load that cannot be applied (including a
+    settlement at a node without support) and UnstableFrameError for a
+    load on a dof that does not exist (a couple on a joint where every
+    member end is pinned, or a load on a node without members)."""
+    case_names = list(case_names)
+    N, m, nc = model.n_dofs, len(model.ids), len(case_names)
+    sup = model.sup
+    per_case = gather_loads(model.frame, case_names, model.geo())
+    F = np.zeros((N, nc))
+    Ur = np.zeros((N, nc))
+    f0 = np.zeros((nc, m, 6))
+    loadsets: list[LoadSet] = []
+    for ci, name in enumerate(case_names):
+        cl = per_case[name]
+        F[:, ci] = _node_axes(sup, cl.nodal)
+        ls = cl.loadset()
+        loadsets.append(ls)
+        if len(ls):
+            f0[ci] = clamped_fixed_end_forces(model.L, ls)
+        if cl.settle_set.any():
+            bad = np.flatnonzero(cl.settle_set.any(axis=1) & ~sup.supported)
+            if len(bad):
+                raise LoadError(f"settlement at node {int(bad[0])}, which has no support", nodes=[int(bad[0])])
+            Ur[:, ci] = _node_axes(sup, cl.settle)
+    Ur[~model.rig] = 0.0
+    if (model.rel_s.any() or model.rel_e.any()) and nc:
+        _, fc = condense(model.k_full, np.moveaxis(f0, 0, 2), model.rel_s, model.rel_e)
+        f0 = np.moveaxis(fc, 2, 0)
+    if nc:  # equivalent nodal loads: -T^T f0, scattered to the nodes
+        eq = -np.einsum("mji,cmj->cmi", model.T, f0, optimize=True)
+        for ci in range(nc):
+            F[:, ci] += np.bincount(model.dof.ravel(), weights=eq[ci].ravel(), minlength=N)
+    dropped = ~model.act
+    if nc and np.any(np.abs(F[dropped]) > 0):
+        bad = np.flatnonzero(np.any(np.abs(F[dropped]) > 0, axis=1))
+        raise unstable(np.flatnonzero(dropped)[bad], "a load on a joint where every member end is pinned"
+                       " (or on a node without members)")
+    return LoadVectors(case_names, F, Ur, f0, loadsets)
 
 
 # --------------------------------------------------------------------------
-# loads
+# steps 3 and 4: factorise and solve
 
 
-@dataclass
-class _CaseLoads:
-    nodal: np.ndarray  # (n, 3) global fx, fy, m
-    points: list
-    couples: list
-    dists: list
-    settle: np.ndarray  # (n, 3) global dx, dy, rz
-    settle_set: np.ndarray  # (n, 3) bool: a settlement was given
-
-    @classmethod
-    def empty(cls, n: int) -> "_CaseLoads":
-        return cls(np.zeros((n, 3)), [], [], [], np.zeros((n, 3)), np.zeros((n, 3), bool))
-
-    def loadset(self) -> LoadSet:
-        p = np.array(self.points, dtype=float).reshape(-1, 4)
-        c = np.array(self.couples, dtype=float).reshape(-1, 3)
-        d = np.array(self.dists, dtype=float).reshape(-1, 7)
-        return LoadSet.build(p[:, 1:], c[:, 1:], d[:, 1:], p[:, 0].astype(np.intp),
-                             c[:, 0].astype(np.intp), d[:, 0].astype(np.intp))
-
-
-def _finite(handle: str, *vals: float) -> None:
-    for v in vals:
-        if not (isinstance(v, (int, float, np.floating, np.integer)) and math.isfinite(v)):
-            raise LoadError(f"load value {v!r} is not a finite number", handle=handle)
-
-
-def _position(a: float, L: float, handle: str, mid: str) -> float:
-    _finite(handle, a)
-    tol = _POS_TOL * L
-    if a < -tol or a > L + tol:
-        raise LoadError(f"position {a:g} lies outside member {mid} (length {L:g})", handle=handle, members=[mid])
-    return min(max(float(a), 0.0), L)
-
-
-def _gather_loads(frame: Frame, cases: list[str], geo: tuple) -> dict[str, _CaseLoads]:
-    L, c, s, index = geo
-    n = len(frame.nodes)
-    out = {name: _CaseLoads.empty(n) for name in cases}
-    for ld in frame.loads:
-        cl = out.get(ld.case)
-        if cl is None:
-            continue
-        h = getattr(ld, "handle", "")
-        if isinstance(ld, (NodalLoad, Settlement)):
-            if not (0 <= ld.node < n):
-                raise LoadError(f"load on node {ld.node}, which does not exist", handle=h)
-            if isinstance(ld, NodalLoad):
-                _finite(h, ld.fx, ld.fy, ld.m)
-                cl.nodal[ld.node] += (ld.fx, ld.fy, ld.m)
-            else:
-                _finite(h, ld.dx, ld.dy, ld.rz)
-                cl.settle[ld.node] += (ld.dx, ld.dy, ld.rz)
-                cl.settle_set[ld.node] |= np.array([ld.dx != 0, ld.dy != 0, ld.rz != 0])
-            continue
-        j = index.get(ld.member)
-        if j is None:
-            raise LoadError(f"load on member {ld.member!r}, which does not exist", handle=h)
-        Lj, cj, sj = L[j], c[j], s[j]
-        if isinstance(ld, PointLoad):
-            a = _position(ld.a, Lj, h, ld.member)
-            _finite(h, ld.px, ld.py)
-            px, py = (ld.px, ld.py) if ld.axes == "local" else (cj * ld.px + sj * ld.py, -sj * ld.px + cj * ld.py)
-            cl.points.append((j, a, px, py))
-        elif isinstance(ld, MemberCouple):
-            a = _position(ld.a, Lj, h, ld.member)
-            _finite(h, ld.m)
-            cl.couples.append((j, a, ld.m))
-        elif isinstance(ld, DistributedLoad):
-            q1 = tuple(ld.q1)
-            q2 = q1 if ld.q2 is None else tuple(ld.q2)
-            _finite(h, *q1, *q2)
-            a = _position(ld.a, Lj, h, ld.member)
-            b = _position(Lj if ld.b is None else ld.b, Lj, h, ld.member)
-            if b < a:
-                a, b, q1, q2 = b, a, q2, q1
-            if b - a <= _POS_TOL * Lj:
-                raise LoadError(f"distributed load on member {ld.member} covers no length (a={a:g}, b={b:g})",
-                                handle=h, members=[ld.member])
-            f = abs(cj) if ld.projected else 1.0
-            if ld.axes == "local":
-                l1, l2 = q1, q2
-            else:
-                l1 = (cj * q1[0] + sj * q1[1], -sj * q1[0] + cj * q1[1])
-                l2 = (cj * q2[0] + sj * q2[1], -sj * q2[0] + cj * q2[1])
-            cl.dists.append((j, a, b, f * l1[0], f * l1[1], f * l2[0], f * l2[1]))
-        else:
-            raise LoadError(f"unknown load type {type(ld).__name__}", handle=h)
-    return out
-
-
-# --------------------------------------------------------------------------
-# solve
-
-
-def _unstable(dofs: Iterable[int], what: str) -> UnstableFrameError:
+def unstable(dofs: Iterable[int], what: str) -> UnstableFrameError:
+    """The error for a mechanism found at ``dofs`` (global dof numbers)."""
     nodes = sorted({int(d) // 3 for d in dofs})
     shown = ", ".join(str(v) for v in nodes[:12]) + (" ..." if len(nodes) > 12 else "")
     return UnstableFrameError(
@@ -367,8 +370,185 @@ def _unstable(dofs: Iterable[int], what: str) -> UnstableFrameError:
     )
 
 
+@dataclass(eq=False)
+class Factorisation:
+    """The free-free stiffness, scaled to unit diagonal and factorised
+    (SuperLU, symmetric mode): ``solve(rhs)`` gives ``K_ff^-1 rhs`` for a
+    (n_free,) or (n_free, k) right-hand side.  ``lu`` is None when the
+    frame has no free dof."""
+
+    free_idx: np.ndarray
+    scale: np.ndarray
+    lu: object | None
+    Kff: sp.csc_matrix | None
+
+    def solve(self, rhs: np.ndarray) -> np.ndarray:
+        if self.lu is None:
+            return np.zeros_like(rhs, dtype=float)
+        if rhs.ndim == 1:
+            return self.scale * self.lu.solve(self.scale * rhs)
+        sc = self.scale[:, None]
+        k = rhs.shape[1]
+        if k <= _RHS_BLOCK:
+            return sc * self.lu.solve(sc * rhs)
+        # SuperLU's solve slows down far more than in proportion to the
+        # number of columns: many right-hand sides go in blocks (each
+        # column's solution is the same either way)
+        out = np.empty((rhs.shape[0], k))
+        for lo in range(0, k, _RHS_BLOCK):
+            blk = np.asfortranarray(sc * rhs[:, lo:lo + _RHS_BLOCK])
+            out[:, lo:lo + _RHS_BLOCK] = sc * self.lu.solve(blk)
+        return out
+
+
+def factorise(model: FrameModel, extra: sp.spmatrix | None = None, *,
+              on_singular=None) -> Factorisation:
+    """Step 3: factorise ``K_ff + springs (+ extra_ff)``.
+
+    ``extra`` is an optional (3n, 3n) matrix in node axes added to the
+    stiffness (a geometric stiffness for second-order analysis).  A
+    non-positive diagonal, a failed factorisation or a pivot below
+    :data:`PIVOT_TOL` of the unit-diagonal matrix raises the error
+    ``on_singular(dofs, what)`` returns (default: UnstableFrameError naming
+    the nodes).
+    """
+    err = on_singular or unstable
+    free_idx = model.free_idx
+    if not len(free_idx):
+        return Factorisation(free_idx, np.ones(0), None, None)
+    K = model.K if extra is None else (model.K + extra).tocsr()
+    Kff = (K[free_idx][:, free_idx] + sp.diags(model.spring_diag[free_idx])).tocsc()
+    diag = Kff.diagonal()
+    if np.any(diag <= 0):
+        raise err(free_idx[diag <= 0], "no stiffness")
+    dsc = 1.0 / np.sqrt(diag)
+    Ds = sp.diags(dsc)
+    Ks = (Ds @ Kff @ Ds).tocsc()
+    try:
+        lu = splu(Ks, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+                  options={"SymmetricMode": True})
+    except RuntimeError:
+        raise err(free_idx, "singular stiffness") from None
+    piv = np.abs(lu.U.diagonal())
+    if piv.size and (not np.all(np.isfinite(piv)) or piv.min() < PIVOT_TOL):
+        inv = np.empty_like(lu.perm_c)
+        inv[lu.perm_c] = np.arange(len(inv))
+        weak = inv[np.flatnonzero(~(piv >= PIVOT_TOL))]
+        raise err(free_idx[weak], "no stiffness left after elimination")
+    return Factorisation(free_idx, dsc, lu, Kff)
+
+
+def displacements(model: FrameModel, fact: Factorisation, loads: LoadVectors,
+                  extra: sp.spmatrix | None = None) -> np.ndarray:
+    """Step 4: (3n, nc) displacements in node axes, ``K_ff u_f = F_f -
+    K_fr u_r`` (``extra`` as given to :func:`factorise`)."""
+    free_idx, rig_idx = model.free_idx, model.rig_idx
+    nc = loads.F.shape[1]
+    U = np.zeros((model.n_dofs, nc))
+    U[rig_idx] = loads.Ur[rig_idx]
+    if len(free_idx) and nc:
+        K = model.K if extra is None else (model.K + extra).tocsr()
+        Kf = K[free_idx]
+        rhs = loads.F[free_idx] - (Kf[:, rig_idx] @ loads.Ur[rig_idx] if len(rig_idx) else 0.0)
+        U[free_idx] = fact.solve(rhs)
+        if not np.all(np.isfinite(U)):
+            raise unstable(free_idx, "non-finite displacements")
+    return U
+
+
+def _confirm_determinate(model: FrameModel) -> None:
+    """A frame solved without sections must be statically determinate:
+    confirm by counting (valid once the frame is known to be stable)."""
+    unknowns = (int(np.sum(3 - model.rel_s - model.rel_e)) + int(model.rig.sum())
+                + int(np.sum(model.spring_diag > 0)))
+    degree = unknowns - int(model.act.sum())
+    if degree != 0:
+        missing = model.missing
+        raise MissingSectionError(
+            f"the frame is statically indeterminate (degree {degree}) and {len(missing)} member(s) "
+            "have no section; its forces depend on the stiffness",
+            handle=missing[0].handle, members=[mb.id for mb in missing])
+
+
+# --------------------------------------------------------------------------
+# step 5: recovery
+
+
+def member_end_forces(model: FrameModel, U: np.ndarray, f0: np.ndarray,
+                      k_local: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """(dl, fe): member end displacements (m, 6, nc) and end forces (m, 6,
+    nc) in local axes, ``fe = k dl + f0`` (``k_local`` defaults to the
+    model's condensed elastic stiffness; pass ``k + kg`` for second order).
+    ``f0`` is (nc, m, 6)."""
+    k = model.k_loc if k_local is None else k_local
+    de = U[model.dof]  # (m, 6, nc) node axes
+    dl = np.einsum("mij,mjc->mic", model.T, de, optimize=True)
+    fe = np.einsum("mij,mjc->mic", k, dl, optimize=True) + np.moveaxis(f0, 0, 2)
+    return dl, fe
+
+
+def support_reactions(model: FrameModel, U: np.ndarray, F: np.ndarray,
+                      extra: sp.spmatrix | None = None) -> np.ndarray:
+    """(n_supports, 3, nc) reactions in node axes (x', y', moment) of each
+    support: rigid restraints ``K u - F`` (with ``extra`` added to K),
+    springs ``-k u``."""
+    N, nc = model.n_dofs, U.shape[1]
+    rig_idx = model.rig_idx
+    R = np.zeros((N, nc))
+    if len(rig_idx):
+        K = model.K if extra is None else (model.K + extra).tocsr()
+        R[rig_idx] = K[rig_idx] @ U - F[rig_idx]
+    Rs = np.zeros((len(model.frame.supports), 3, nc))
+    own = model.sup.owner.ravel()
+    for g in rig_idx:
+        Rs[own[g], g % 3] += R[g]
+    for si_, node, comp, k in model.sup.springs:
+        Rs[si_, comp] -= k * U[3 * node + comp]
+    return Rs
+
+
+def global_displacements(model: FrameModel, U: np.ndarray) -> np.ndarray:
+    """(n, 3, nc) node displacements: global ux, uy [length], rz [rad]."""
+    sup = model.sup
+    ux = sup.cos[:, None] * U[0::3] - sup.sin[:, None] * U[1::3]
+    uy = sup.sin[:, None] * U[0::3] + sup.cos[:, None] * U[1::3]
+    return np.stack([ux, uy, U[2::3]], axis=1)
+
+
+def case_results(model: FrameModel, loads: LoadVectors, U: np.ndarray, dl: np.ndarray, fe: np.ndarray,
+                 Rs: np.ndarray, *, kind: str = "case", factors: Sequence[dict] | None = None,
+                 family: str = "") -> dict[str, CaseResult]:
+    """Step 5: one :class:`CaseResult` per column of ``loads``
+    (``factors``: the case factors of each column; default ``{name: 1}``)."""
+    frame, nominal = model.frame, model.nominal
+    sup, xy = model.sup, model.xy
+    gd = global_displacements(model, U)
+    layout = model.layout()
+    frame_cases = tuple(frame.cases())
+    results: dict[str, CaseResult] = {}
+    for ci, name in enumerate(loads.names):
+        reactions = []
+        for k_, sp_ in enumerate(frame.supports):
+            nd = sp_.node
+            cn, sn = sup.cos[nd], sup.sin[nd]
+            rx, ry, rm = Rs[k_, :, ci]
+            reactions.append(Reaction(nd, float(xy[nd, 0]), float(xy[nd, 1]), float(cn * rx - sn * ry),
+                                      float(sn * rx + cn * ry), float(rm), k_))
+        disp = None if nominal else gd[:, :, ci].copy()
+        ed = None if nominal else dl[:, [0, 1, 3, 4], ci]
+        members = MemberResults(layout, fe[:, :, ci], loads.loadsets[ci], ed)
+        fac = {name: 1.0} if factors is None else dict(factors[ci])
+        results[name] = CaseResult(name, kind, fac, disp, reactions, members, family=family,
+                                   frame_cases=frame_cases)
+    return results
+
+
+# --------------------------------------------------------------------------
+# the whole linear analysis
+
+
 def solve(frame: Frame, cases: Iterable[str] | None = None, *, determinate: bool | None = None) -> dict[str, CaseResult]:
-    """Solve every load case of a frame.
+    """Solve every load case of a frame (first-order, linear elastic).
 
     Parameters
     ----------
@@ -395,196 +575,12 @@ def solve(frame: Frame, cases: Iterable[str] | None = None, *, determinate: bool
     if not frame.members:
         raise SolverError("the frame has no members")
     case_names = list(frame.cases()) if cases is None else list(dict.fromkeys(cases))
-    n = len(frame.nodes)
-    m = len(frame.members)
-    N = 3 * n
-    xy = np.array([(nd.x, nd.y) for nd in frame.nodes], dtype=float).reshape(n, 2)
-    si = np.array([mb.start for mb in frame.members], dtype=np.intp)
-    ei = np.array([mb.end for mb in frame.members], dtype=np.intp)
-    if si.min() < 0 or ei.min() < 0 or si.max() >= n or ei.max() >= n:
-        bad = next(mb for mb in frame.members if not (0 <= mb.start < n and 0 <= mb.end < n))
-        raise SolverError(f"member {bad.id} refers to a node that does not exist", handle=bad.handle,
-                          members=[bad.id])
-    d = xy[ei] - xy[si]
-    L = np.hypot(d[:, 0], d[:, 1])
-    if not np.all(L > 0):
-        bad = frame.members[int(np.argmin(L))]
-        raise SolverError(f"member {bad.id} has zero length", handle=bad.handle, members=[bad.id])
-    c, s = d[:, 0] / L, d[:, 1] / L
-    rel_s = np.array([mb.release_start for mb in frame.members], dtype=bool)
-    rel_e = np.array([mb.release_end for mb in frame.members], dtype=bool)
-    ids = tuple(mb.id for mb in frame.members)
-    if len(set(ids)) != m:
-        raise SolverError("member ids must be unique")
-
-    # stiffness properties
-    missing = [mb for mb in frame.members if mb.section is None]
-    nominal = bool(missing)
-    if nominal:
-        if determinate is not True:
-            raise MissingSectionError(
-                f"{len(missing)} member(s) have no section ({', '.join(mb.id for mb in missing[:8])}"
-                f"{' ...' if len(missing) > 8 else ''}); give sections, or solve with determinate=True "
-                "after checking that the frame is statically determinate",
-                handle=missing[0].handle, members=[mb.id for mb in missing])
-        EA = np.ones(m)
-        EI = np.full(m, float(np.mean(L)) ** 2)
-    else:
-        EA = np.array([mb.section.E * mb.section.A for mb in frame.members], dtype=float)
-        EI = np.array([mb.section.E * mb.section.I for mb in frame.members], dtype=float)
-
-    sup = _gather_supports(frame)
-
-    # dofs: a rotation is dropped where nothing gives it stiffness (every
-    # member end pinned, no rotational restraint); a node without members
-    # has no dofs at all
-    rot_ends = np.bincount(si[~rel_s], minlength=n) + np.bincount(ei[~rel_e], minlength=n)
-    touched = np.bincount(np.concatenate([si, ei]), minlength=n) > 0
-    active = np.repeat(touched[:, None], 3, axis=1)
-    active[:, 2] &= (rot_ends > 0) | sup.rigid[:, 2] | (sup.spring[:, 2] > 0)
-    act = active.ravel()
-    rig = sup.rigid.ravel() & act
-    free = act & ~rig
-    free_idx = np.flatnonzero(free)
-    rig_idx = np.flatnonzero(rig)
-
-    # element matrices: local, condensed, then to node axes
-    k_full = _full_local_stiffness(L, EA, EI)
-    k_loc, _ = _condense(k_full, None, rel_s, rel_e)
-    T = np.zeros((m, 6, 6))
-    for end, nodes in ((0, si), (3, ei)):
-        ce = c * sup.cos[nodes] + s * sup.sin[nodes]
-        se = s * sup.cos[nodes] - c * sup.sin[nodes]
-        T[:, end, end] = ce
-        T[:, end, end + 1] = se
-        T[:, end + 1, end] = -se
-        T[:, end + 1, end + 1] = ce
-        T[:, end + 2, end + 2] = 1.0
-    ke = np.einsum("mji,mjk,mkl->mil", T, k_loc, T, optimize=True)
-    dof = np.column_stack([3 * si, 3 * si + 1, 3 * si + 2, 3 * ei, 3 * ei + 1, 3 * ei + 2])
-    rows = np.repeat(dof, 6, axis=1).ravel()
-    cols = np.tile(dof, (1, 6)).ravel()
-    K = sp.csr_matrix((ke.ravel(), (rows, cols)), shape=(N, N))
-    spring_diag = sup.spring.ravel() * free
-
-    # loads, case by case
-    geo = (L, c, s, dict(zip(ids, range(m))))
-    per_case = _gather_loads(frame, case_names, geo)
-    nc = len(case_names)
-    F = np.zeros((N, nc))
-    Ur = np.zeros((N, nc))
-    f0 = np.zeros((nc, m, 6))
-    loadsets: list[LoadSet] = []
-    for ci, name in enumerate(case_names):
-        cl = per_case[name]
-        nod = cl.nodal
-        # global -> node axes
-        F[0::3, ci] = sup.cos * nod[:, 0] + sup.sin * nod[:, 1]
-        F[1::3, ci] = -sup.sin * nod[:, 0] + sup.cos * nod[:, 1]
-        F[2::3, ci] = nod[:, 2]
-        ls = cl.loadset()
-        loadsets.append(ls)
-        if len(ls):
-            f0[ci] = _fef_clamped(L, ls)
-        st = cl.settle
-        if cl.settle_set.any():
-            bad = np.flatnonzero(cl.settle_set.any(axis=1) & ~sup.supported)
-            if len(bad):
-                raise LoadError(f"settlement at node {int(bad[0])}, which has no support", nodes=[int(bad[0])])
-            Ur[0::3, ci] = sup.cos * st[:, 0] + sup.sin * st[:, 1]
-            Ur[1::3, ci] = -sup.sin * st[:, 0] + sup.cos * st[:, 1]
-            Ur[2::3, ci] = st[:, 2]
-    Ur[~rig] = 0.0
-    if (rel_s.any() or rel_e.any()) and nc:
-        _, fc = _condense(k_full, np.moveaxis(f0, 0, 2), rel_s, rel_e)
-        f0 = np.moveaxis(fc, 2, 0)
-    # equivalent nodal loads: -T^T f0, scattered to the nodes
-    if nc:
-        eq = -np.einsum("mji,cmj->cmi", T, f0, optimize=True)
-        for ci in range(nc):
-            F[:, ci] += np.bincount(dof.ravel(), weights=eq[ci].ravel(), minlength=N)
-    dropped = ~act
-    if nc and np.any(np.abs(F[dropped]) > 0):
-        bad = np.flatnonzero(np.any(np.abs(F[dropped]) > 0, axis=1))
-        raise _unstable(np.flatnonzero(dropped)[bad], "a load on a joint where every member end is pinned"
-                        " (or on a node without members)")
-
-    # solve K_ff u_f = F_f - K_fr u_r
-    U = np.zeros((N, nc))
-    U[rig_idx] = Ur[rig_idx]
-    if len(free_idx):
-        Kf = K[free_idx]
-        Kff = (Kf[:, free_idx] + sp.diags(spring_diag[free_idx])).tocsc()
-        rhs = F[free_idx] - (Kf[:, rig_idx] @ Ur[rig_idx] if len(rig_idx) else 0.0)
-        diag = Kff.diagonal()
-        if np.any(diag <= 0):
-            raise _unstable(free_idx[diag <= 0], "no stiffness")
-        dsc = 1.0 / np.sqrt(diag)
-        Ds = sp.diags(dsc)
-        Ks = (Ds @ Kff @ Ds).tocsc()
-        try:
-            lu = splu(Ks, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
-                      options={"SymmetricMode": True})
-        except RuntimeError:
-            raise _unstable(free_idx, "singular stiffness") from None
-        piv = np.abs(lu.U.diagonal())
-        if piv.size and (not np.all(np.isfinite(piv)) or piv.min() < PIVOT_TOL):
-            inv = np.empty_like(lu.perm_c)
-            inv[lu.perm_c] = np.arange(len(inv))
-            weak = inv[np.flatnonzero(~(piv >= PIVOT_TOL))]
-            raise _unstable(free_idx[weak], "no stiffness left after elimination")
-        if nc:
-            U[free_idx] = dsc[:, None] * lu.solve(dsc[:, None] * rhs)
-            if not np.all(np.isfinite(U)):
-                raise _unstable(free_idx, "non-finite displacements")
-
-    # determinate frame without sections: confirm by counting (valid once
-    # the frame is known to be stable)
-    if nominal:
-        unknowns = int(np.sum(3 - rel_s - rel_e)) + int(rig.sum()) + int(np.sum(spring_diag > 0))
-        degree = unknowns - int(act.sum())
-        if degree != 0:
-            raise MissingSectionError(
-                f"the frame is statically indeterminate (degree {degree}) and {len(missing)} member(s) "
-                "have no section; its forces depend on the stiffness",
-                handle=missing[0].handle, members=[mb.id for mb in missing])
-
-    # member end forces (local) and end displacements
-    de = U[dof]  # (m, 6, nc) node axes
-    dl = np.einsum("mij,mjc->mic", T, de, optimize=True)
-    fe = np.einsum("mij,mjc->mic", k_loc, dl, optimize=True) + np.moveaxis(f0, 0, 2)
-
-    # reactions: rigid restraints K u - F, springs -k u (node axes)
-    R = np.zeros((N, nc))
-    if len(rig_idx):
-        R[rig_idx] = K[rig_idx] @ U - F[rig_idx]
-    nsup = len(frame.supports)
-    Rs = np.zeros((nsup, 3, nc))
-    own = sup.owner.ravel()
-    for g in rig_idx:
-        Rs[own[g], g % 3] += R[g]
-    for si_, node, comp, k in sup.springs:
-        Rs[si_, comp] -= k * U[3 * node + comp]
-
-    # global displacements
-    ux = sup.cos[:, None] * U[0::3] - sup.sin[:, None] * U[1::3]
-    uy = sup.sin[:, None] * U[0::3] + sup.cos[:, None] * U[1::3]
-    rz = U[2::3]
-
-    layout = MemberLayout(ids, L, c, s, None if nominal else EA, None if nominal else EI)
-    frame_cases = tuple(frame.cases())
-    results: dict[str, CaseResult] = {}
-    for ci, name in enumerate(case_names):
-        reactions = []
-        for k_, sp_ in enumerate(frame.supports):
-            nd = sp_.node
-            cn, sn = sup.cos[nd], sup.sin[nd]
-            rx, ry, rm = Rs[k_, :, ci]
-            reactions.append(Reaction(nd, float(xy[nd, 0]), float(xy[nd, 1]), float(cn * rx - sn * ry),
-                                      float(sn * rx + cn * ry), float(rm), k_))
-        disp = None if nominal else np.column_stack([ux[:, ci], uy[:, ci], rz[:, ci]])
-        ed = None if nominal else dl[:, [0, 1, 3, 4], ci]
-        members = MemberResults(layout, fe[:, :, ci], loadsets[ci], ed)
-        results[name] = CaseResult(name, "case", {name: 1.0}, disp, reactions, members,
-                                   frame_cases=frame_cases)
-    return results
+    model = prepare(frame, determinate=determinate)
+    loads = load_vectors(model, case_names)
+    fact = factorise(model)
+    U = displacements(model, fact, loads)
+    if model.nominal:
+        _confirm_determinate(model)
+    dl, fe = member_end_forces(model, U, loads.f0)
+    Rs = support_reactions(model, U, loads.F)
+    return case_results(model, loads, U, dl, fe, Rs)

@@ -15,7 +15,7 @@ Blocks defined by :func:`new_drawing` (insertion point = base point
 
 * ``PIN ROLLER FIXED SLIDER``: CASE [D], SETTLE_X, SETTLE_Y, SETTLE_R
 * ``SPRING``: the same plus KX, KY, KR
-* ``JOINT``: none; ``HINGE``: MEMBERS
+* ``JOINT``, ``CROSSOVER``: none; ``HINGE``: MEMBERS
 * ``FORCE`` (arrow tip at the base point, pointing to local -Y): P, ANGLE, CASE [D]
 * ``COUPLE``: M, CASE [D]
 * ``UDL``: W, W1, W2, FROM, TO, DIR [GRAVITY], BASIS [LENGTH], CASE [D]
@@ -45,6 +45,7 @@ __all__ = [
     "add_load",
     "add_hinge",
     "add_joint",
+    "add_crossover",
     "add_block",
     "insert_block",
     "save",
@@ -64,6 +65,7 @@ BLOCK_ATTDEFS: dict[str, dict[str, str]] = {
     "SPRING": {**_SUPPORT_ATTRS, "KX": "", "KY": "", "KR": ""},
     "JOINT": {},
     "HINGE": {"MEMBERS": ""},
+    "CROSSOVER": {},
     "FORCE": {"P": "", "ANGLE": "", "CASE": "D"},
     "COUPLE": {"M": "", "CASE": "D"},
     "UDL": {"W": "", "W1": "", "W2": "", "FROM": "", "TO": "", "DIR": "GRAVITY", "BASIS": "LENGTH", "CASE": "D"},
@@ -78,6 +80,7 @@ _SYMBOL_LINES: dict[str, list[tuple[tuple[float, float], tuple[float, float]]]] 
     "SPRING": [((0, 0), (0.1, -0.1)), ((0.1, -0.1), (-0.1, -0.2)), ((-0.1, -0.2), (0, -0.3))],
     "JOINT": [((-0.1, 0), (0.1, 0)), ((0, -0.1), (0, 0.1))],
     "HINGE": [((-0.1, -0.1), (0.1, 0.1)), ((-0.1, 0.1), (0.1, -0.1))],
+    "CROSSOVER": [((-0.2, 0), (-0.1, 0.1)), ((-0.1, 0.1), (0.1, 0.1)), ((0.1, 0.1), (0.2, 0))],
     "FORCE": [((0, 1), (0, 0)), ((0, 0), (-0.1, 0.2)), ((0, 0), (0.1, 0.2))],
     "COUPLE": [((0.3, 0), (0, 0.3)), ((0, 0.3), (-0.3, 0))],
     "UDL": [((-0.5, 0.5), (0.5, 0.5)), ((0, 0.5), (0, 0))],
@@ -220,6 +223,11 @@ def add_hinge(
 def add_joint(layout: BaseLayout, at: Sequence[float], *, layer: str = "CONNECTIONS") -> Insert:
     """A JOINT block (joins crossing members)."""
     return add_symbol(layout, "JOINT", at, layer=layer)
+
+
+def add_crossover(layout: BaseLayout, at: Sequence[float], *, layer: str = "CONNECTIONS") -> Insert:
+    """A CROSSOVER block (keeps crossing members separate)."""
+    return add_symbol(layout, "CROSSOVER", at, layer=layer)
 
 
 def add_block(doc: Drawing, name: str, base_point: Sequence[float] = (0.0, 0.0)) -> BlockLayout:

@@ -183,3 +183,12 @@ def test_long_functions_say_why():
                 body = lines[node.lineno - 1:node.end_lineno]
                 if len(body) > 85:
                     assert any("# Long by" in line for line in body), f"{mod}.{node.name}: {len(body)} lines"
+
+
+def test_the_file_opener_knows_the_entity_types_the_reader_reads():
+    """drawing_file keeps its own list so that opening a file needs no reading
+    code; it must name exactly the types the reader has a handler for."""
+    from dxf2frame.drawing_file import READ_ENTITY_TYPES
+    from dxf2frame.read.dispatch import HANDLERS
+
+    assert set(HANDLERS) == READ_ENTITY_TYPES

@@ -66,18 +66,20 @@ KIP = 4448.2216152605
 KN = 1000.0
 
 COMBINATION = {"D": 1.2, "L": 1.6, "S": 0.5}
-SETTINGS = """\
+BEAM_SECTION = """\
+[sections."FRAME-BEAMS"]
+E = "200 GPa"
+A = "5700 mm**2"
+I = "8.6e7 mm**4"
+"""
+SETTINGS = f"""\
 [units]
 force = "kN"
 [sections.default]
 E = "200 GPa"
 A = "9100 mm**2"
 I = "1.1e8 mm**4"
-[sections."FRAME-BEAMS"]
-E = "200 GPa"
-A = "5700 mm**2"
-I = "8.6e7 mm**4"
-[combinations]
+{BEAM_SECTION}[combinations]
 builtin = []
 extra = ["1.2D + 1.6L + 0.5S"]
 draw = "envelope:all"
@@ -277,7 +279,11 @@ def write_frame(spec: FrameSpec, folder: Path) -> Path:
     for block, p, rot, yscale, attrs in spec.loads:
         add_load(msp, block, p, rot, yscale=yscale, **attrs)
     folder.mkdir(parents=True, exist_ok=True)
-    (folder / "dxf2frame.toml").write_text(SETTINGS, encoding="utf-8")
+    settings = SETTINGS
+    if not any(layer == "FRAME-BEAMS" for _, layer in spec.lines):
+        # a section keyed by a layer no member uses is an error (convention v2)
+        settings = SETTINGS.replace(BEAM_SECTION, "")
+    (folder / "dxf2frame.toml").write_text(settings, encoding="utf-8")
     path = folder / "frame.dxf"
     doc.saveas(path)
     return path

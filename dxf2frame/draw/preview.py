@@ -11,6 +11,7 @@ matplotlib backend), so rendering is safe in worker processes and threads.
 from __future__ import annotations
 
 import io
+import math
 from pathlib import Path
 from typing import Iterable
 
@@ -51,8 +52,10 @@ def render_doc_png(
     *,
     dpi: int = 150,
     layers: Iterable[str] | None = None,
-) -> None:
+) -> list[str]:
     """Render the modelspace of an open document to ``png_path`` (atomic).
+
+    Returns notes naming the entities left out (see :class:`_Bounded`).
 
     Parameters
     ----------
@@ -65,10 +68,12 @@ def render_doc_png(
     msp = doc.modelspace()
     keep = {name.upper() for name in layers} if layers is not None else None
 
-    def wanted(entity) -> bool:
+    def wanted_layer(entity) -> bool:
         return keep is None or entity.dxf.get("layer", "0").upper() in keep
 
-    box = _extents(msp, wanted)
+    bounded = _Bounded(doc, msp, wanted_layer)
+    wanted = bounded.drawn(wanted_layer)
+    box = bounded.box
     fig = Figure(dpi=dpi)
     FigureCanvasAgg(fig)
     ax = fig.add_axes((0.0, 0.0, 1.0, 1.0))
@@ -101,6 +106,7 @@ def render_doc_png(
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=dpi, facecolor="white")
     write_bytes(png_path, buf.getvalue())
+    return bounded.notes
 
 
 class _QuickBackend(MatplotlibBackend):
@@ -161,15 +167,67 @@ class _QuickBackend(MatplotlibBackend):
         super().finalize()
 
 
-def _extents(msp, wanted) -> tuple[float, float, float, float] | None:
-    """(xmin, ymin, xmax, ymax) of the drawn entities, or None if unknown."""
-    try:
-        box = bbox.extents((e for e in msp if wanted(e)), fast=True)
-    except Exception:  # noqa: BLE001 - fall back to matplotlib's own limits
-        return None
-    if not box.has_data or not max(box.size.x, box.size.y) > 0:
-        return None
-    return box.extmin.x, box.extmin.y, box.extmax.x, box.extmax.y
+#: coordinates beyond this [drawing units] are no drawing's content (the
+#: reader refuses them on input layers); entities reaching them are not drawn
+_MAX_COORDINATE = 1e12
+#: a block reference (a MINSERT grid, nested blocks) expanding to more
+#: entities than this is not drawn: drawing it would take minutes
+_MAX_PIECES = 20_000
+
+
+class _Bounded:
+    """Which entities of a layout the preview can draw in bounded time and
+    space, and their extents.
+
+    Left out (each listed in :attr:`notes`): entities whose bounding box is
+    not finite or reaches beyond :data:`_MAX_COORDINATE` (a stray line to
+    1e308 would make the window infinite), and block references that
+    expand to more than :data:`_MAX_PIECES` entities (a decorative grid of a
+    million cells).  Entities without a box (text of unknown size) are drawn.
+    """
+
+    def __init__(self, doc, msp, wanted) -> None:
+        from ..block_expansion import expanded_count
+
+        self.notes: list[str] = []
+        self._left_out: set[int] = set()
+        memo: dict[str, int] = {}
+        total = bbox.BoundingBox()
+        for e in msp:
+            if not wanted(e):
+                continue
+            if e.dxftype() == "INSERT":
+                n = expanded_count(e, doc.blocks, memo)
+                if n > _MAX_PIECES:
+                    self._leave_out(e, f"it expands to {n} entities")
+                    continue
+            try:
+                box = bbox.BoundingBox()
+                for b in bbox.multi_recursive([e], fast=True):
+                    box.extend(b)
+            except Exception:  # noqa: BLE001 - no box: drawn, not counted in the window
+                continue
+            if not box.has_data:
+                continue
+            corners = (box.extmin.x, box.extmin.y, box.extmax.x, box.extmax.y)
+            if not all(math.isfinite(c) and abs(c) <= _MAX_COORDINATE for c in corners):
+                self._leave_out(e, f"it reaches {max(abs(c) for c in corners):.3g} drawing units from the origin")
+                continue
+            total.extend(box)
+        self.box = None
+        if total.has_data and max(total.size.x, total.size.y) > 0:
+            self.box = (total.extmin.x, total.extmin.y, total.extmax.x, total.extmax.y)
+
+    def _leave_out(self, e, why: str) -> None:
+        self._left_out.add(id(e))
+        if len(self.notes) < 5:
+            self.notes.append(f"preview: {e.dxftype()} #{e.dxf.handle} on layer '{e.dxf.get('layer', '0')}' "
+                              f"not drawn ({why})")
+
+    def drawn(self, wanted):
+        """``wanted`` less the entities left out."""
+        left_out = self._left_out
+        return lambda e: id(e) not in left_out and wanted(e)
 
 
 def _hide_small_text(min_height: float):
@@ -192,16 +250,16 @@ def render_png(
     *,
     dpi: int = 150,
     layers: list[str] | None = None,
-) -> None:
+) -> list[str]:
     """Render the modelspace of the DXF file ``dxf_path`` to ``png_path``.
 
     White background, picture cropped to the drawing's content, written
     atomically (a failure leaves no PNG).  ``layers`` limits the drawing to
     the named layers (e.g. the frame layers plus ``RESULT-MOMENT``).
     Raises :class:`~dxf2frame.errors.InputFileError` if the file cannot be
-    read.
+    read.  Returns notes naming entities left out (see :class:`_Bounded`).
     """
-    render_doc_png(_load(Path(dxf_path)), Path(png_path), dpi=dpi, layers=layers)
+    return render_doc_png(_load(Path(dxf_path)), Path(png_path), dpi=dpi, layers=layers)
 
 
 #: Panel width of a multi-panel preview [in].
@@ -216,7 +274,7 @@ def render_panels_png(
     hide: Iterable[str] = (),
     footer: str = "",
     dpi: int = 150,
-) -> None:
+) -> list[str]:
     """Render one picture made of panels, one per result quantity.
 
     Each panel shows the drawing's own layers (less ``hide``, e.g. every
@@ -243,10 +301,10 @@ def render_panels_png(
         layer = entity.dxf.get("layer", "0").upper()
         return layer not in hidden or layer in shown_extra
 
-    box = _extents(msp, in_any_panel)
+    bounded = _Bounded(doc, msp, in_any_panel)
+    box = bounded.box
     if box is None:
-        render_doc_png(doc, png_path, dpi=dpi)
-        return
+        return render_doc_png(doc, png_path, dpi=dpi)
     pad = 0.04 * max(box[2] - box[0], box[3] - box[1])
     x0, y0, x1, y1 = box[0] - pad, box[1] - pad, box[2] + pad, box[3] + pad
     w, h = x1 - x0, y1 - y0
@@ -266,8 +324,8 @@ def render_panels_png(
         ax.set_axis_off()
         keep = {n.upper() for n in names}
 
-        def wanted(entity, keep=keep) -> bool:
-            return base(entity) or entity.dxf.get("layer", "0").upper() in keep
+        def wanted(entity, keep=keep, drawn=bounded.drawn(in_any_panel)) -> bool:
+            return drawn(entity) and (base(entity) or entity.dxf.get("layer", "0").upper() in keep)
 
         config = Configuration(background_policy=BackgroundPolicy.WHITE)
         props = LayoutProperties.from_layout(msp)
@@ -285,3 +343,4 @@ def render_panels_png(
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=dpi, facecolor="white")
     write_bytes(png_path, buf.getvalue())
+    return bounded.notes

@@ -390,6 +390,7 @@ def annotate_results(
 
     # 4. deflected shape
     bent = _draw_deflected(pen, model, geom, sel, names["deflected"], h, summary, legend, chains=chains)
+    boxes += _draw_near_misses(pen, model, names["notes"], h)
 
     # 5. labels, layer by layer (each result layer reads on its own), most important first
     members = shapely.linestrings(np.stack([geom.start, geom.end], axis=1)) if n_el else np.zeros(0, dtype=object)
@@ -425,6 +426,19 @@ def annotate_results(
                            content=content, keys=keys, font=font)
     summary.entities = pen.count
     return summary
+
+
+def _draw_near_misses(pen: Pen, model, layer: str, h: float) -> list[Box]:
+    """A circle and the words "near miss?" at each free member end that
+    stops just short of another member or a support (the warning in the
+    notes names both handles); returns the boxes drawn on."""
+    boxes: list[Box] = []
+    for x, y, _text in model.near_misses:
+        r = 1.2 * h
+        pen.circle((x, y), r, layer)
+        pen.text("near miss?", (x, y + r + 0.8 * h), 0.8 * h, layer)
+        boxes.append((x - 4 * h, y - r, x + 4 * h, y + r + 1.4 * h))
+    return boxes
 
 
 def _reaction_table(sel: Selection) -> tuple[list[int], np.ndarray]:

@@ -69,7 +69,7 @@ drawing gives the same sheets.  Every file is written atomically.
 
 Where the parts live
 --------------------
-Number formatting in :mod:`dxf2frame.handcheck.numbers`, the terms in
+Number formatting in :mod:`dxf2frame.numbers`, the terms in
 :mod:`dxf2frame.handcheck.terms`, the cut and the choice of the free body
 in :mod:`dxf2frame.handcheck.free_body`, the sheet's Markdown and text in
 :mod:`dxf2frame.handcheck.wording`, the figures in
@@ -113,6 +113,7 @@ __all__ = [
     "drawing_revision",
     "write_cut_sheets",
     "write_sheets",
+    "write_sheets_staged",
 ]
 
 
@@ -380,3 +381,20 @@ def _sheet_header(model, fb: FreeBody, g, off: float, mid: str, x: float, r, why
         source=source_name, revision=revision, member=member_txt, cut=cut_txt,
         frame_status=status, reason=why,
     )
+
+
+def write_sheets_staged(analysis: "AnalysedDrawing", out: Path, **options) -> list[Path]:
+    """:func:`write_sheets` into a staging folder, then the whole set of
+    sheets swapped into ``out`` (:class:`~dxf2frame.staging.OutputSet`):
+    a failure (bad input found while writing, a full disk, Ctrl-C) leaves
+    the previous sheets complete and no new file.  Sheets of an earlier run
+    with more cuts are dropped with the swap.  Returns the paths in ``out``."""
+    from ..staging import OutputSet, writing
+
+    what = f"the hand-check sheets of {Path(analysis.model.source).name}"
+    with OutputSet(out, what=what) as out_set, writing(what, out):
+        staged = write_sheets(analysis, out_set.staged("sheets"), **options)
+        count = sum(1 for p in staged if p.suffix == ".md")
+        leftovers = [p for p in out.iterdir()
+                     if (mt := _SHEET_FILE.match(p.name)) and int(mt.group(1)) > count]
+        return out_set.commit({p: out / p.name for p in staged}, drop=leftovers)

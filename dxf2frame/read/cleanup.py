@@ -12,8 +12,13 @@ What :func:`build_frame` does, in order:
    tolerance are merged (KD-tree pairs, clusters keep their first point).
 3. A segment is split where another segment's end, a support, a JOINT or a
    HINGE lies on its interior (within tolerance; candidates come from a
-   shapely STRtree, so no all-pairs loop).  Two segments that merely cross
-   stay unjoined.  FORCE and COUPLE loads do not split anything.
+   shapely STRtree, so no all-pairs loop).  Two segments that cross are
+   joined rigidly at the crossing (both are split there), as drafters draw
+   column lines full height and floor lines full width; they stay separate
+   when both lie on an unjoined layer (``unjoined_layers``, default
+   ``FRAME-BRACES``) or a CROSSOVER symbol sits on the crossing.  A JOINT
+   or HINGE on a crossing joins it whatever the layers.  FORCE and COUPLE
+   loads do not split anything.
 4. Pieces get ids ``"<handle>-<k>"``, k = 1, 2, ... counted along the drawn
    entity from its first vertex.  A piece split only by a HINGE that
    touches nothing else becomes elements ``"<handle>-<k>a"``,
@@ -78,7 +83,11 @@ __all__ = [
     "CleanResult",
     "build_frame",
     "default_tolerance",
+    "DEFAULT_UNJOINED_LAYERS",
 ]
+
+#: member layers whose crossings stay separate unless a JOINT or HINGE joins them
+DEFAULT_UNJOINED_LAYERS: tuple[str, ...] = ("FRAME-BRACES",)
 
 Point = tuple[float, float]
 
@@ -128,11 +137,12 @@ class SupportSpec:
 
 @dataclass(frozen=True)
 class ConnectionSpec:
-    """A JOINT or HINGE symbol.  ``layers``: for a hinge, the member layers
-    whose ends are released (None = all member ends at the joint)."""
+    """A JOINT, HINGE or CROSSOVER symbol.  ``layers``: for a hinge, the
+    member layers whose ends are released (None = all member ends at the
+    joint).  A CROSSOVER keeps the two members crossing under it separate."""
 
     at: Point
-    kind: Literal["joint", "hinge"]
+    kind: Literal["joint", "hinge", "crossover"]
     layers: tuple[str, ...] | None = None
     handle: str = ""
     layer: str = ""
@@ -194,11 +204,16 @@ class CleanResult:
     frame : the analysis model (SI)
     warnings : texts naming entity handles
     extents : (xmin, ymin, xmax, ymax) of the members [m]
+    crossings_joined : number of crossing points where members were joined
+    crossings_separate : one text per crossing left separate (both handles,
+        where, and why: unjoined layers or a CROSSOVER)
     """
 
     frame: Frame
     warnings: list[str] = field(default_factory=list)
     extents: tuple[float, float, float, float] = (0.0, 0.0, 0.0, 0.0)
+    crossings_joined: int = 0
+    crossings_separate: list[str] = field(default_factory=list)
 
 
 def default_tolerance(points: np.ndarray, *, floor: float = 0.5e-3, rel: float = 1e-6) -> float:
@@ -242,6 +257,33 @@ def _cluster(points: np.ndarray, tol: float) -> np.ndarray:
     return first[comp]
 
 
+def _crossings(segs: Sequence[Segment], tol: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Proper crossings of the segments: (i, j, points) with i < j, where the
+    interiors of segments i and j cross at a point farther than ``tol`` from
+    every end of both (an end on another segment is a T-junction, handled
+    by the split step).  Collinear overlaps are not crossings."""
+    n = len(segs)
+    if n < 2:
+        return np.zeros(0, np.intp), np.zeros(0, np.intp), np.zeros((0, 2))
+    A = np.array([s.p0 for s in segs], dtype=float)
+    B = np.array([s.p1 for s in segs], dtype=float)
+    lines = shapely.linestrings(np.stack([A, B], axis=1))
+    i, j = shapely.STRtree(lines).query(lines, predicate="crosses")
+    keep = i < j
+    i, j = i[keep], j[keep]
+    d1, d2 = B[i] - A[i], B[j] - A[j]
+    den = d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]
+    ok = den != 0.0
+    i, j, d1, d2, den = i[ok], j[ok], d1[ok], d2[ok], den[ok]
+    r = A[j] - A[i]
+    t = (r[:, 0] * d2[:, 1] - r[:, 1] * d2[:, 0]) / den  # along segment i
+    u = (r[:, 0] * d1[:, 1] - r[:, 1] * d1[:, 0]) / den  # along segment j
+    L1, L2 = np.hypot(d1[:, 0], d1[:, 1]), np.hypot(d2[:, 0], d2[:, 1])
+    inner = (t * L1 > tol) & ((1 - t) * L1 > tol) & (u * L2 > tol) & ((1 - u) * L2 > tol)
+    P = A[i] + t[:, None] * d1
+    return i[inner], j[inner], P[inner]
+
+
 def _handles_text(handles: Iterable[str], limit: int = 8) -> str:
     hs = list(dict.fromkeys(h for h in handles if h))
     text = ", ".join(f"#{h}" for h in hs[:limit])
@@ -282,6 +324,7 @@ def build_frame(
     tol: float,
     section_for: Callable[[str], Section | None] | None = None,
     unit: tuple[str, float] = ("m", 1.0),
+    unjoined_layers: Iterable[str] = DEFAULT_UNJOINED_LAYERS,
 ) -> CleanResult:
     """Snap, split and assemble the analysis model.
 
@@ -293,6 +336,8 @@ def build_frame(
     section_for : layer name -> Section or None
     unit : (name, metres per unit) of the drawing, used to state distances
         in error messages in drawing units
+    unjoined_layers : member layers (case-insensitive) whose crossings with
+        each other stay separate
 
     Returns
     -------
@@ -327,22 +372,32 @@ def build_frame(
             hint="draw member centrelines as LINE or LWPOLYLINE on layer FRAME or FRAME-*",
         )
     n = len(segs)
+    crossovers = [c for c in connections if c.kind == "crossover"]
+    connections = [c for c in connections if c.kind != "crossover"]
     nsup, ncon = len(supports), len(connections)
+
+    # -- crossings: joined unless unjoined layers or a CROSSOVER say otherwise
+    cross_xy, crossings_separate = _joined_crossings(
+        segs, tol, {x.upper() for x in unjoined_layers}, crossovers, connections, units, warnings)
+    ncross = len(cross_xy)
 
     # -- 2. snap ------------------------------------------------------------
     # segment ends in drawing order (start, end of the first segment, ...), then
-    # support and connection points: a cluster keeps the first drawn point
-    pts = np.empty((2 * n + nsup + ncon, 2))
+    # support, connection and crossing points: a cluster keeps the first drawn point
+    pts = np.empty((2 * n + nsup + ncon + ncross, 2))
     pts[0 : 2 * n : 2] = [s.p0 for s in segs]
     pts[1 : 2 * n : 2] = [s.p1 for s in segs]
     if nsup:
         pts[2 * n : 2 * n + nsup] = [s.at for s in supports]
     if ncon:
-        pts[2 * n + nsup :] = [c.at for c in connections]
+        pts[2 * n + nsup : 2 * n + nsup + ncon] = [c.at for c in connections]
+    if ncross:
+        pts[2 * n + nsup + ncon :] = cross_xy
     label = _cluster(pts, tol)
     e0, e1 = label[0 : 2 * n : 2].copy(), label[1 : 2 * n : 2].copy()
     sup_lab = label[2 * n : 2 * n + nsup]
-    con_lab = label[2 * n + nsup :]
+    con_lab = label[2 * n + nsup : 2 * n + nsup + ncon]
+    cross_lab = label[2 * n + nsup + ncon :]
 
     collapsed = e0 == e1
     if collapsed.any():
@@ -361,7 +416,7 @@ def build_frame(
     joint_labels = {int(l) for l, c in zip(con_lab, connections) if c.kind == "joint"}
     hinge_labels = {int(l) for l, c in zip(con_lab, connections) if c.kind == "hinge"}
     support_labels = {int(l) for l in sup_lab}
-    cand = np.unique(np.concatenate([endpoint_labels, sup_lab, con_lab]).astype(np.int64))
+    cand = np.unique(np.concatenate([endpoint_labels, sup_lab, con_lab, cross_lab]).astype(np.int64))
     cand_xy = pts[cand]
 
     A, B = pts[e0], pts[e1]
@@ -601,7 +656,7 @@ def build_frame(
         if len(gset) > 1:
             warnings.append(
                 f"{kind} #{spec.handle} lies on members {', '.join(sorted(gset))}, which cross without "
-                f"a JOINT; applied to {frame.members[best].id}"
+                f"being joined; applied to {frame.members[best].id}"
             )
         return best
 
@@ -647,7 +702,55 @@ def build_frame(
         float(node_xy[:, 0].min()), float(node_xy[:, 1].min()),
         float(node_xy[:, 0].max()), float(node_xy[:, 1].max()),
     )
-    return CleanResult(frame, warnings, ext)
+    return CleanResult(frame, warnings, ext, len(np.unique(cross_lab)), crossings_separate)
+
+
+def _joined_crossings(
+    segs: Sequence[Segment],
+    tol: float,
+    unjoined: set[str],
+    crossovers: Sequence[ConnectionSpec],
+    connections: Sequence[ConnectionSpec],
+    units: _Units,
+    warnings: list[str],
+) -> tuple[np.ndarray, list[str]]:
+    """Crossing points [m] where the crossing members are joined, and a text
+    for each crossing left separate.  A crossing stays separate when both
+    members lie on ``unjoined`` layers (upper case) or a CROSSOVER lies on it
+    within ``tol``, unless a JOINT or HINGE lies on it.  A CROSSOVER on no
+    crossing is a warning naming it."""
+    i, j, P = _crossings(segs, tol)
+    used = np.zeros(len(crossovers), dtype=bool)
+    over = np.zeros(len(P), dtype=bool)
+    if len(crossovers) and len(P):
+        ctree = cKDTree(np.array([c.at for c in crossovers], dtype=float))
+        for k, hits in enumerate(ctree.query_ball_point(P, tol)):
+            if hits:
+                over[k] = True
+                used[hits] = True
+    for c, u in zip(crossovers, used):
+        if not u:
+            warnings.append(
+                f"CROSSOVER #{c.handle} on layer '{c.layer}' sits on no crossing of two members "
+                f"({units.fmt(tol)} snap tolerance); it has no effect"
+            )
+    by_symbol = np.zeros(len(P), dtype=bool)
+    if connections and len(P):
+        jtree = cKDTree(np.array([c.at for c in connections], dtype=float))
+        by_symbol = np.array([bool(h) for h in jtree.query_ball_point(P, tol)], dtype=bool)
+    both_unjoined = np.array(
+        [segs[a].layer.upper() in unjoined and segs[b].layer.upper() in unjoined for a, b in zip(i, j)],
+        dtype=bool,
+    )
+    separate = (over | both_unjoined) & ~by_symbol
+    texts = []
+    for a, b, p, o in zip(i[separate], j[separate], P[separate], over[separate]):
+        why = "CROSSOVER" if o else "unjoined layers"
+        texts.append(
+            f"#{segs[a].handle} ('{segs[a].layer}') x #{segs[b].handle} ('{segs[b].layer}') at "
+            f"({p[0] / units.scale:.6g}, {p[1] / units.scale:.6g}) {units.name}: {why}"
+        )
+    return P[~separate], texts
 
 
 def _add_udl(frame: Frame, spec: UdlSpec, mis: list[int], group: str, lengths, tol: float, units: _Units) -> None:

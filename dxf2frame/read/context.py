@@ -19,12 +19,13 @@ floats (:func:`dxf2frame.units.parse_quantity`); a bare number is taken in
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass, field
 
 from ezdxf.math import Vec3
 
 from .cleanup import ConnectionSpec, Segment, SupportSpec
-from ..errors import GeometryError
+from ..errors import DrawingError, GeometryError, one_line, shorten
 from ..settings import Settings
 from ..units import parse_quantity
 
@@ -65,8 +66,10 @@ class ReadContext:
     warnings: list[str] = field(default_factory=list)
     hinges: int = 0
     n_loads: int = 0
+    default_case: list[str] = field(default_factory=list)  # handles of loads without CASE
     _attdefs: dict[str, dict[str, str]] = field(default_factory=dict)
-    _relevant: dict[str, tuple[bool, bool]] = field(default_factory=dict)
+    _reads_memo: dict[tuple[str, str], bool] = field(default_factory=dict)
+    _decoded: set[str] = field(default_factory=set)
 
     # -- helpers -------------------------------------------------------------
     def role_of_layer(self, layer: str) -> str | None:
@@ -121,43 +124,114 @@ class ReadContext:
             self._attdefs[block_name] = d
         return d
 
-    def attributes(self, insert) -> dict[str, str]:
+    def attributes(self, insert, src: Source | None = None) -> dict[str, str]:
         """Convention tag -> stripped text; ATTRIBs first, ATTDEF defaults for
-        missing tags; empty values omitted."""
+        missing tags; empty values omitted.  A value longer than
+        ``limits.max_attribute_chars`` is a :class:`DrawingError` naming
+        ``src`` (the insert by default)."""
         raw: dict[str, str] = {}
         for tag, text in self.attdef_defaults(insert.dxf.name).items():
             raw[tag] = text
         for a in insert.attribs:
             raw[a.dxf.tag.upper()] = a.dxf.get("text", "")
         out: dict[str, str] = {}
+        where = src.handle if src is not None else (insert.dxf.handle or "")
         for tag, text in raw.items():
-            t = (text or "").strip()
+            t = self.text((text or "").strip(), f"attribute {tag}", where)
             canon = self.settings.canonical_tag(tag)
             if t and canon is not None:
+                if len(t) > self.settings.max_attribute_chars:
+                    raise _too_long(tag, t, self.settings.max_attribute_chars, insert, src)
                 out[canon] = t
         return out
 
-    def block_relevance(self, name: str) -> tuple[bool, bool]:
-        """(has content on input layers or nested inserts, has layer-0 linework)."""
-        r = self._relevant.get(name)
-        if r is None:
-            blk = self.doc.blocks.get(name)
-            relevant = layer0 = False
-            if blk is not None:
-                for e in blk:
-                    t = e.dxftype()
-                    if t in ("ATTDEF",):
-                        continue
-                    lay = e.dxf.get("layer", "0")
-                    if t == "INSERT":
-                        relevant = True
-                    elif lay == "0":
-                        layer0 = True
-                    elif self.settings.is_frame_layer(lay) or self.role_of_layer(lay):
-                        relevant = True
-            r = (relevant, layer0)
-            self._relevant[name] = r
-        return r
+    def block_reads(self, name: str, layer: str) -> bool:
+        """True when exploding a reference of block ``name`` on ``layer``
+        gives the reader something: an entity on a frame or input layer, a
+        convention symbol (read, or ignored with a warning), or a nested
+        reference to a block that reads.  Pieces on layer ``0`` take the
+        layer of the reference; result layers are skipped.  Decorative
+        nesting of any depth (also a block containing itself) gives False,
+        so it is never exploded or refused."""
+        memo = self._reads_memo
+        if (name, layer) in memo:
+            return memo[(name, layer)]
+        # iterative depth-first search: a hostile file may nest thousands of
+        # blocks, deeper than Python's recursion limit
+        stack: list[list] = []  # [key, entities iterator, found, depends on an open block]
+        on_path: set[tuple[str, str]] = set()
+        result = False
+
+        def enter(key: tuple[str, str]) -> None:
+            blk = self.doc.blocks.get(key[0])
+            if blk is None:
+                memo[key] = False
+                return
+            stack.append([key, iter(blk), False, False])
+            on_path.add(key)
+
+        def finish(found: bool, open_cycle: bool) -> None:
+            nonlocal result
+            key = stack.pop()[0]
+            on_path.discard(key)
+            if found or not open_cycle:
+                memo[key] = found
+            if stack:
+                stack[-1][2] = stack[-1][2] or found
+                stack[-1][3] = stack[-1][3] or (open_cycle and not found)
+            else:
+                result = found
+
+        enter((name, layer))
+        if not stack:
+            return False
+        while stack:
+            frame = stack[-1]
+            (_, layer_of_ref), entities = frame[0], frame[1]
+            if frame[2]:
+                finish(True, False)
+                continue
+            e = next(entities, None)
+            if e is None:
+                finish(False, frame[3])
+                continue
+            t = e.dxftype()
+            if t == "ATTDEF":
+                continue
+            lay = e.dxf.get("layer", "0")
+            eff = layer_of_ref if lay == "0" else lay
+            if self.settings.is_result_layer(eff):
+                continue
+            if t == "INSERT":
+                nested = e.dxf.get("name", "")
+                if self.role_of_layer(eff) is not None or self.settings.block_kind(nested) is not None:
+                    frame[2] = True
+                elif (nested, eff) in memo:
+                    frame[2] = memo[(nested, eff)]
+                elif (nested, eff) in on_path:
+                    frame[3] = True  # a cycle adds nothing the first pass does not find
+                else:
+                    enter((nested, eff))
+            elif self.settings.is_frame_layer(eff) or self.role_of_layer(eff):
+                frame[2] = True
+        return result
+
+    def text(self, raw: str, what: str, handle: str) -> str:
+        """A text from the drawing (layer name, attribute value) with bytes
+        that were not UTF-8 (kept by ezdxf as surrogates) decoded as
+        Windows-1252, the usual code page of older CAD programs; each such
+        text is a warning naming the entity once.  Other texts are returned
+        unchanged."""
+        if not _SURROGATE.search(raw):
+            return raw
+        fixed = decode_surrogates(raw)
+        if raw not in self._decoded:
+            self._decoded.add(raw)
+            self.warnings.append(
+                f"{what} of #{handle} holds bytes that are not UTF-8 ({one_line(shorten(raw))}); read as "
+                f"Windows-1252: '{shorten(fixed)}' (save the drawing again as UTF-8 to silence this warning)"
+            )
+        return fixed
 
     def quantity(self, attrs: dict[str, str], tag: str, kind: str, src: Source, default_unit: str | None = None):
         text = attrs.get(tag)
@@ -170,8 +244,33 @@ class ReadContext:
             handle=src.handle,
             layer=src.layer,
             tag=self.settings.attr(tag),
+            notes=self.warnings,
         )
 
+
+
+_SURROGATE = re.compile("[\udc80-\udcff]")
+
+
+def decode_surrogates(text: str) -> str:
+    """Undecodable bytes (surrogate escapes U+DC80..U+DCFF) decoded as
+    Windows-1252; anything that still cannot be decoded becomes U+FFFD."""
+    raw = text.encode("utf-8", "surrogateescape")
+    out = raw.decode("utf-8", "surrogateescape")
+    return _SURROGATE.sub(lambda m: bytes([ord(m.group()) - 0xDC00]).decode("cp1252", "replace"), out)
+
+
+def _too_long(tag: str, text: str, limit: int, insert, src: Source | None) -> DrawingError:
+    """The refusal of an attribute value over ``limits.max_attribute_chars``."""
+    handle = src.handle if src is not None else (insert.dxf.handle or "")
+    layer = src.layer if src is not None else insert.dxf.get("layer", "")
+    return DrawingError(
+        f"attribute {shorten(tag, 40)} has a value of {len(text)} characters ({shorten(text, 40)!r}), "
+        f"more than the limit of {limit}",
+        handle=handle,
+        layer=layer,
+        hint="shorten it, or raise [limits] max_attribute_chars in dxf2frame.toml if this is intended",
+    )
 
 
 # ---------------------------------------------------------------------------

@@ -9,11 +9,19 @@ MINSERT grid on its own, handle ``<insert>.i``) is
   convention symbol of that layer's group (:data:`SYMBOL_GROUPS`), read by
   :mod:`dxf2frame.read.symbol_inserts`; any other block there is an
   :class:`~dxf2frame.errors.UnknownBlockError`;
-* elsewhere: a convention symbol is ignored with a warning; any other
-  block with something to read is exploded (ezdxf ``virtual_entities()``,
-  at most 16 levels deep) and its pieces go through :data:`HANDLERS` as if
+* elsewhere: a convention symbol is ignored with a warning (one for a
+  whole grid); any other block with something to read
+  (:meth:`ReadContext.block_reads`) is exploded (ezdxf ``virtual_entities()``, at
+  most 16 levels deep) and its pieces go through :data:`HANDLERS` as if
   drawn in model space, handle ``<insert>_<entity>``, pieces on layer
-  ``0`` on the layer of the reference.
+  ``0`` on the layer of the reference.  Blocks with nothing to read are
+  never exploded, however deep they nest or large their grid.
+
+A MINSERT grid that is read is refused when it has more cells than
+``limits.max_entities`` or a zero spacing along a count above 1 (copies
+stacked on one point: the drawing shows one symbol but holds several).  A
+block reference without an insertion point (a damaged file) is refused
+rather than placed at the origin.
 
 An anonymous reference to a dynamic block counts under the dynamic
 block's own name.  Rotation, scale factors and insertion point must be
@@ -35,7 +43,7 @@ from .linework import handle_curve, handle_line, handle_lwpolyline, handle_polyl
 from .context import ReadContext, Source
 from .symbol_inserts import SYMBOL_HANDLERS
 
-__all__ = ["HANDLERS", "SYMBOL_GROUPS"]
+__all__ = ["HANDLERS", "SYMBOL_GROUPS", "grid_size"]
 
 _MAX_DEPTH = 16
 
@@ -46,7 +54,7 @@ ENTITY_DATA_ERRORS = (ValueError, TypeError, ArithmeticError, IndexError, KeyErr
 #: which symbol kinds belong on which input layer role
 SYMBOL_GROUPS: dict[str, tuple[str, ...]] = {
     "supports": ("PIN", "ROLLER", "FIXED", "SLIDER", "SPRING"),
-    "connections": ("JOINT", "HINGE"),
+    "connections": ("JOINT", "HINGE", "CROSSOVER"),
     "loads": ("FORCE", "COUPLE", "UDL"),
 }
 _ROLE_OF_KIND = {k: role for role, kinds in SYMBOL_GROUPS.items() for k in kinds}
@@ -58,11 +66,82 @@ _ROLE_OF_KIND = {k: role for role, kinds in SYMBOL_GROUPS.items() for k in kinds
 
 
 def _handle_insert(ctx: ReadContext, e, src: Source) -> None:
-    if e.mcount > 1:
-        for i, cell in enumerate(e.multi_insert(), start=1):
-            _insert_one(ctx, cell, Source(f"{src.handle}.{i}", src.layer, src.virtual, src.depth))
-    else:
+    rows, cols = grid_size(e)
+    if rows * cols == 1 or not _grid_is_read(ctx, e, src):
+        # one reference, or a grid that is ignored (with one warning) as a whole
         _insert_one(ctx, e, src)
+        return
+    _check_grid(ctx, e, src, rows, cols)
+    for i, cell in enumerate(e.multi_insert(), start=1):
+        _insert_one(ctx, cell, Source(f"{src.handle}.{i}", src.layer, src.virtual, src.depth))
+
+
+def grid_size(e) -> tuple[int, int]:
+    """(rows, columns) of a MINSERT grid as written, (1, 1) for a plain INSERT;
+    counts below 1 or unreadable count as 1."""
+    out = []
+    for key in ("row_count", "column_count"):
+        try:
+            out.append(max(1, int(e.dxf.get(key, 1))))
+        except (TypeError, ValueError, OverflowError):
+            out.append(1)
+    return out[0], out[1]
+
+
+def _grid_is_read(ctx: ReadContext, e, src: Source) -> bool:
+    """True when the cells of a grid are read one by one: symbols (or wrong
+    blocks) on an input layer, or a non-symbol block with something to read."""
+    if ctx.role_of_layer(src.layer) is not None:
+        return True
+    if ctx.settings.block_kind(_block_name(ctx, e)) is not None:
+        return False  # a symbol off its layer: one warning for the whole grid
+    return ctx.block_reads(e.dxf.name, src.layer)
+
+
+def _check_grid(ctx: ReadContext, e, src: Source, rows: int, cols: int) -> None:
+    """A MINSERT grid that is read: within the entity limit, its insertion
+    point present, and no cells stacked on one point.
+
+    A grid with a zero row or column spacing puts several copies on one
+    point: the drawing shows one symbol (one load arrow, one support) but
+    holds several, so a drafter cannot see what will be analysed; it is
+    refused rather than read as stacked loads."""
+    name = _block_name(ctx, e)
+    cells = rows * cols
+    limit = ctx.settings.max_entities
+    if cells > limit:
+        raise GeometryError(
+            f"MINSERT of block '{name}' has {rows} x {cols} = {cells} cells, more than the limit of {limit}",
+            handle=src.handle,
+            layer=src.layer,
+            hint="raise [limits] max_entities in dxf2frame.toml if this is intended",
+        )
+    _check_insertion_point(e, src)
+    stacked = [(what, n) for what, n, key in (("row", rows, "row_spacing"), ("column", cols, "column_spacing"))
+               if n > 1 and not e.dxf.get(key, 0.0)]
+    if stacked:
+        what = " and ".join(f"{n} {w}s at {w} spacing 0" for w, n in stacked)
+        copies = math.prod(n for _, n in stacked)
+        raise GeometryError(
+            f"MINSERT of block '{name}' stacks {copies} copies on each point ({what}): the drawing shows "
+            f"one but holds {copies}",
+            handle=src.handle,
+            layer=src.layer,
+            hint="give the grid a spacing, or set the count to 1 (write one symbol with the total value)",
+        )
+
+
+def _check_insertion_point(e, src: Source) -> None:
+    """A block reference whose insertion point is missing from the file
+    (damaged group codes) is refused: ezdxf would place it at the origin."""
+    if not e.dxf.hasattr("insert"):
+        raise GeometryError(
+            "block reference has no insertion point (group codes 10/20 missing or damaged); it would be "
+            "placed at the origin",
+            handle=src.handle,
+            layer=src.layer,
+            hint="the file is damaged or was written by a faulty program; insert the block again",
+        )
 
 
 def _block_name(ctx: ReadContext, e) -> str:
@@ -80,7 +159,10 @@ def _block_name(ctx: ReadContext, e) -> str:
 
 
 def _check_insert_numbers(e, src: Source) -> None:
-    """Rotation, scale and insertion point of a block reference must be finite."""
+    """Rotation, scale and insertion point of a block reference must be
+    finite, and the insertion point must be present."""
+    if not src.virtual:
+        _check_insertion_point(e, src)
     for key in ("rotation", "xscale", "yscale", "zscale"):
         v = e.dxf.get(key, 0.0)
         if not (isinstance(v, (int, float)) and math.isfinite(v)):
@@ -130,9 +212,7 @@ def _insert_one(ctx: ReadContext, e, src: Source) -> None:
             f"block '{name}' #{src.handle} on layer '{src.layer}' ignored: {kind} symbols belong on layer '{right}'"
         )
         return
-    relevant, layer0 = ctx.block_relevance(e.dxf.name)
-    layer0_counts = layer0 and ctx.settings.is_frame_layer(src.layer)
-    if not (relevant or layer0_counts):
+    if not ctx.block_reads(e.dxf.name, src.layer):
         return
     _check_insert_numbers(e, src)
     if not src.virtual:
@@ -156,7 +236,7 @@ def _insert_one(ctx: ReadContext, e, src: Source) -> None:
         orig = getattr(v, "source_of_copy", None)
         h = orig.dxf.handle if orig is not None and orig.dxf.handle else str(i + 1)
         lay = v.dxf.get("layer", "0")
-        eff = src.layer if lay == "0" else lay
+        eff = src.layer if lay == "0" else ctx.text(lay, "the layer name", f"{src.handle}_{h}")
         if ctx.settings.is_result_layer(eff):
             continue
         handler = HANDLERS.get(v.dxftype())

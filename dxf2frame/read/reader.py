@@ -24,11 +24,12 @@ On member layers (``FRAME`` and ``FRAME-*``, remappable):
 ``INSERT`` on any layer:
 
 * on ``SUPPORTS`` / ``CONNECTIONS`` / ``LOADS``: a convention symbol
-  (``PIN ROLLER FIXED SLIDER SPRING`` / ``JOINT HINGE`` /
+  (``PIN ROLLER FIXED SLIDER SPRING`` / ``JOINT HINGE CROSSOVER`` /
   ``FORCE COUPLE UDL``, names case-insensitive and remappable).  Any other
   block name there is an :class:`UnknownBlockError`; a symbol of another
   group (a FORCE on SUPPORTS) likewise.  MINSERT grids give one symbol per
-  grid cell.
+  grid cell; a grid with a zero row or column spacing (copies stacked on
+  one point) is refused.
 * on any other layer: a convention symbol is ignored with a warning (it is
   on the wrong layer); any other block is exploded through ezdxf's
   ``virtual_entities()`` (recursively, with the insert's scale, rotation,
@@ -112,13 +113,15 @@ import math
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from ..block_expansion import check_expansion
 from .cleanup import build_frame, default_tolerance
 from ..drawing_file import describe_entity, open_document
 from ..drawing_model import DrawingModel
 from .dispatch import ENTITY_DATA_ERRORS, HANDLERS
-from ..errors import DrawingError, GeometryError, InputFileError
-from .context import ReadContext, Source
+from ..errors import MAX_ECHO, DrawingError, GeometryError, InputFileError, shorten
+from .context import ReadContext, Source, decode_surrogates
 from ..settings import Settings, load_settings
+from .sketch_checks import check_section_keys, default_case_warning, near_misses
 from ..units import INSUNITS, INSUNITS_OTHER, length_unit_scale, normalise_length_unit, parse_quantity
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -264,6 +267,7 @@ def read_document(
             f"{source}: {n_entities} entities, more than the limit of {settings.max_entities} "
             "(raise [limits] max_entities in dxf2frame.toml if this is intended)"
         )
+    check_expansion(doc, settings.max_entities)
     warnings: list[str] = []
     _check_handles(doc, settings, warnings)
     unit = _drawing_unit(doc, settings, length_unit, warnings)
@@ -277,12 +281,7 @@ def read_document(
             f"no members found on layer '{settings.layers['frame']}' or '{settings.layers['frame']}-*'",
             hint="draw member centrelines as LINE or LWPOLYLINE on those layers (or remap [layers] frame)",
         )
-    if snap_m is not None and snap_m > 0:
-        tol = snap_m
-    else:
-        import numpy as np
-        pts = [s.p0 for s in ctx.segments] + [s.p1 for s in ctx.segments]
-        tol = default_tolerance(np.asarray(pts))
+    tol = snap_m if snap_m is not None and snap_m > 0 else _default_snap(ctx)
     result = build_frame(
         ctx.segments,
         ctx.supports,
@@ -291,20 +290,30 @@ def read_document(
         tol=tol,
         section_for=settings.section_for,
         unit=(unit, scale),
+        unjoined_layers=settings.unjoined_layers,
     )
     ctx.warnings.extend(result.warnings)
     _check_precision(result.frame, unit, scale)
+    check_section_keys(result.frame, settings)
+    default_case = default_case_warning(ctx.default_case)
+    if default_case:
+        ctx.warnings.append(default_case)
+    misses = near_misses(result.frame, tol, (unit, scale))
+    ctx.warnings.extend(text for _, _, text in misses)
     x0, y0, x1, y1 = result.extents
     return DrawingModel(
         frame=result.frame,
         source=source,
         length_unit=unit,
         unit_scale=scale,
-        warnings=ctx.warnings,
+        warnings=[decode_surrogates(shorten(w, 10 * MAX_ECHO)) for w in ctx.warnings],  # names quoted raw
         hinges=ctx.hinges,
         n_loads=ctx.n_loads,
         extents=(x0 / scale, y0 / scale, x1 / scale, y1 / scale),
         force_unit=settings.force_unit,
+        crossings_joined=result.crossings_joined,
+        crossings_separate=result.crossings_separate,
+        near_misses=misses,
     )
 
 
@@ -315,6 +324,15 @@ def _snap_metres(settings: Settings, unit: str, scale: float) -> float | None:
     if isinstance(settings.snap, str):
         return parse_quantity(settings.snap, "length", default_unit=unit, tag="geometry.snap")
     return float(settings.snap) * scale
+
+
+def _default_snap(ctx: ReadContext) -> float:
+    """The snap tolerance [m] when the settings give none: from the spread of
+    the member end points (:func:`~dxf2frame.read.cleanup.default_tolerance`)."""
+    import numpy as np
+
+    pts = [s.p0 for s in ctx.segments] + [s.p1 for s in ctx.segments]
+    return default_tolerance(np.asarray(pts))
 
 
 def _default_units(force: str, unit: str) -> dict[str, str]:
@@ -340,7 +358,7 @@ def _read_entities(ctx: ReadContext, doc, settings: Settings) -> None:
         handler = HANDLERS.get(e.dxftype())
         if handler is None:
             continue
-        layer = e.dxf.get("layer", "0")
+        layer = ctx.text(e.dxf.get("layer", "0"), "the layer name", e.dxf.handle or "")
         if settings.is_result_layer(layer):
             continue
         try:

@@ -18,7 +18,9 @@ direction of the block's local +X after the insert's full transformation
 [rad, counter-clockwise from +X].  A FORCE acts along the transformed
 local -Y (its arrow) unless ``ANGLE`` (counter-clockwise from +X, the
 direction it acts) is given; a COUPLE is counter-clockwise positive; a
-load or settlement without ``CASE`` belongs to case D.
+load or settlement without ``CASE`` belongs to case D (loads that took
+that default are counted for one warning); a CASE named in the settings'
+``[cases]`` is mapped onto its standard letter.
 """
 from __future__ import annotations
 
@@ -60,13 +62,21 @@ def _placement(ctx: ReadContext, e, src: Source) -> tuple[tuple[float, float], V
     return (p.x * ctx.scale, p.y * ctx.scale), ux.normalize(), arrow.normalize()
 
 
-def _case(attrs: dict[str, str]) -> str:
-    return attrs.get("CASE", "D").strip() or "D"
+def _case(attrs: dict[str, str], ctx: ReadContext | None = None, src: Source | None = None) -> str:
+    """Load case of a symbol: its CASE text (an office name mapped onto a
+    standard letter by the settings' ``[cases]``), else ``D``; a load (given
+    ``ctx`` and ``src``) that took the default is counted for a warning."""
+    text = attrs.get("CASE", "").strip()
+    if not text:
+        if ctx is not None and src is not None:
+            ctx.default_case.append(src.handle)
+        return "D"
+    return ctx.settings.case_name(text) if ctx is not None else text
 
 
 def _symbol_support(ctx: ReadContext, e, kind: str, src: Source) -> None:
     at, ux, _ = _placement(ctx, e, src)
-    attrs = ctx.attributes(e)
+    attrs = ctx.attributes(e, src)
     angle = math.atan2(ux.y, ux.x)
     if abs(angle) < 1e-12:
         angle = 0.0
@@ -84,7 +94,7 @@ def _symbol_support(ctx: ReadContext, e, kind: str, src: Source) -> None:
     sr = q(attrs, "SETTLE_R", "angle", src, default_unit="rad")
     settle = None if sx is None and sy is None and sr is None else (sx or 0.0, sy or 0.0, sr or 0.0)
     ctx.supports.append(
-        SupportSpec(at, kind.lower(), angle, settle=settle, settle_case=_case(attrs),
+        SupportSpec(at, kind.lower(), angle, settle=settle, settle_case=_case(attrs, ctx),
                     handle=src.handle, layer=src.layer, **stiff)
     )
 
@@ -94,7 +104,7 @@ def _symbol_connection(ctx: ReadContext, e, kind: str, src: Source) -> None:
     layers = None
     if kind == "HINGE":
         ctx.hinges += 1
-        attrs = ctx.attributes(e)
+        attrs = ctx.attributes(e, src)
         if "MEMBERS" in attrs:
             layers = tuple(s.strip() for s in _SPLIT_LIST.split(attrs["MEMBERS"]) if s.strip()) or None
     ctx.connections.append(ConnectionSpec(at, kind.lower(), layers, src.handle, src.layer))
@@ -112,7 +122,7 @@ def _missing(what: str, tags: str, src: Source, ctx: ReadContext) -> DrawingErro
 def _symbol_force(ctx: ReadContext, e, kind: str, src: Source) -> None:
     ctx.n_loads += 1
     at, _, arrow = _placement(ctx, e, src)
-    attrs = ctx.attributes(e)
+    attrs = ctx.attributes(e, src)
     P = ctx.quantity(attrs, "P", "force", src)
     if P is None:
         raise _missing("FORCE", "P", src, ctx)
@@ -121,17 +131,17 @@ def _symbol_force(ctx: ReadContext, e, kind: str, src: Source) -> None:
         dx, dy = math.cos(ang), math.sin(ang)
     else:
         dx, dy = arrow.x, arrow.y
-    ctx.loads.append(ForceSpec(at, P * dx, P * dy, _case(attrs), src.handle, src.layer))
+    ctx.loads.append(ForceSpec(at, P * dx, P * dy, _case(attrs, ctx, src), src.handle, src.layer))
 
 
 def _symbol_couple(ctx: ReadContext, e, kind: str, src: Source) -> None:
     ctx.n_loads += 1
     at, _, _ = _placement(ctx, e, src)
-    attrs = ctx.attributes(e)
+    attrs = ctx.attributes(e, src)
     M = ctx.quantity(attrs, "M", "moment", src)
     if M is None:
         raise _missing("COUPLE", "M", src, ctx)
-    ctx.loads.append(CoupleSpec(at, M, _case(attrs), src.handle, src.layer))
+    ctx.loads.append(CoupleSpec(at, M, _case(attrs, ctx, src), src.handle, src.layer))
 
 
 def _choice(attrs: dict[str, str], tag: str, allowed: tuple[str, ...], default: str, src: Source, ctx: ReadContext) -> str:
@@ -149,7 +159,7 @@ def _choice(attrs: dict[str, str], tag: str, allowed: tuple[str, ...], default: 
 def _symbol_udl(ctx: ReadContext, e, kind: str, src: Source) -> None:
     ctx.n_loads += 1
     at, _, _ = _placement(ctx, e, src)
-    attrs = ctx.attributes(e)
+    attrs = ctx.attributes(e, src)
     q = ctx.quantity
     w = q(attrs, "W", "distributed", src)
     w1 = q(attrs, "W1", "distributed", src)
@@ -176,7 +186,7 @@ def _symbol_udl(ctx: ReadContext, e, kind: str, src: Source) -> None:
     direction = _choice(attrs, "DIR", ("GRAVITY", "X", "Y", "NORMAL"), "GRAVITY", src, ctx)
     basis = _choice(attrs, "BASIS", ("LENGTH", "PROJECTED"), "LENGTH", src, ctx)
     ctx.loads.append(
-        UdlSpec(at, w1, w2, start, end, direction, basis == "PROJECTED", _case(attrs), src.handle, src.layer)
+        UdlSpec(at, w1, w2, start, end, direction, basis == "PROJECTED", _case(attrs, ctx, src), src.handle, src.layer)
     )
 
 
@@ -188,6 +198,7 @@ SYMBOL_HANDLERS: dict[str, Callable] = {
     "SPRING": _symbol_support,
     "JOINT": _symbol_connection,
     "HINGE": _symbol_connection,
+    "CROSSOVER": _symbol_connection,
     "FORCE": _symbol_force,
     "COUPLE": _symbol_couple,
     "UDL": _symbol_udl,

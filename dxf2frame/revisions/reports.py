@@ -10,15 +10,19 @@ magnitudes per member and per support location, over the results of kind
 from __future__ import annotations
 
 import copy
+import json
+import math
+import re
+from pathlib import Path
 from typing import Any, Mapping
 
 import numpy as np
 
-from ..errors import InputFileError
+from ..errors import InputFileError, one_line, shorten
 from .data import MEMBER_QUANTITIES, REACTION_QUANTITIES, MemberRef
 from ..units import length_unit_scale, unit_factor
 
-__all__ = ["convert_report"]
+__all__ = ["convert_report", "load_json_report"]
 
 
 # -- report access -------------------------------------------------------------
@@ -114,6 +118,88 @@ def check_report(report: Any, label: str) -> None:
         raise InputFileError(f"{label}: the report's 'units' must give 'force' and 'length'")
     if not isinstance(report.get("results", []), list):
         raise InputFileError(f"{label}: 'results' must be a list")
+    _check_schema(report, label)
+
+
+# -- schema of the values a comparison reads -------------------------------------------
+
+#: keys of each list entry a comparison reads -> what they must be
+#: ("num": a finite number; "num?": a finite number or null; "text"; "point": [x, y])
+_ENTRY_KEYS: dict[str, dict[str, str]] = {
+    "members": {"id": "text", "layer": "text?", "handle": "text?", "start": "point", "end": "point",
+                "length": "num?", "n_min": "num?", "n_max": "num?", "v_min": "num?", "v_max": "num?",
+                "m_min": "num?", "m_max": "num?", "m_min_at": "num?", "m_max_at": "num?",
+                "deflection_max": "num?"},
+    "reactions": {"x": "num", "y": "num", "fx": "num?", "fy": "num?", "m": "num?"},
+    "probes": {"n": "num?", "v": "num?", "m": "num?"},
+}
+
+
+def _is_number(v: Any) -> bool:
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        return False
+    try:
+        return math.isfinite(float(v))
+    except OverflowError:  # an integer of hundreds of digits
+        return False
+
+
+def _value_ok(v: Any, what: str) -> bool:
+    optional = what.endswith("?")
+    if v is None:
+        return optional
+    kind = what.rstrip("?")
+    if kind == "num":
+        return _is_number(v)
+    if kind == "text":
+        return isinstance(v, (str, int)) and not isinstance(v, bool)
+    return isinstance(v, list) and len(v) == 2 and all(_is_number(c) for c in v)  # point
+
+
+def _describe(v: Any) -> str:
+    if isinstance(v, (dict, list)):
+        return f"a {'list' if isinstance(v, list) else 'table'} of {len(v)} entries"
+    return shorten(repr(v), 40)
+
+
+def _check_schema(report: Mapping, label: str) -> None:
+    """Every value a comparison reads has the type report-schema.md gives it:
+    an :class:`InputFileError` names the file and the key path otherwise
+    (``results[0].members[3].m_max``)."""
+    units = report["units"]
+    for k in ("force", "length"):
+        if not isinstance(units[k], str):
+            raise InputFileError(f"{label}: units.{k} must be a unit name, got {_describe(units[k])}")
+    if "source" in report and not isinstance(report["source"], str):
+        raise InputFileError(f"{label}: source must be a file name, got {_describe(report['source'])}")
+    for i, res in enumerate(report.get("results") or []):
+        where = f"results[{i}]"
+        if not isinstance(res, Mapping):
+            raise InputFileError(f"{label}: {where} must be a table, got {_describe(res)}")
+        for key in ("name", "kind"):
+            if key in res and not isinstance(res[key], str):
+                raise InputFileError(f"{label}: {where}.{key} must be a text, got {_describe(res[key])}")
+        for group, keys in _ENTRY_KEYS.items():
+            entries = res.get(group)
+            if entries is None:
+                continue
+            if not isinstance(entries, list):
+                raise InputFileError(f"{label}: {where}.{group} must be a list, got {_describe(entries)}")
+            for j, entry in enumerate(entries):
+                at = f"{where}.{group}[{j}]"
+                if not isinstance(entry, Mapping):
+                    raise InputFileError(f"{label}: {at} must be a table, got {_describe(entry)}")
+                for key, what in keys.items():
+                    if key not in entry:
+                        if what.endswith("?") or group == "probes":
+                            continue
+                        raise InputFileError(f"{label}: {at} has no '{key}'")
+                    if not _value_ok(entry[key], what):
+                        need = {"num": "a finite number", "text": "a text", "point": "a point [x, y] of numbers"}
+                        raise InputFileError(
+                            f"{label}: {at}.{key} must be {need[what.rstrip('?')]}"
+                            f"{' or null' if what.endswith('?') else ''}, got {_describe(entry[key])}"
+                        )
 
 
 def convert_report(report: Mapping, force_unit: str, length_unit: str) -> dict:
@@ -163,3 +249,45 @@ def convert_report(report: Mapping, force_unit: str, length_unit: str) -> dict:
     out["units"] = {**out["units"], "force": force_unit, "length": length_unit,
                     "moment": f"{force_unit}*{length_unit}", "distributed": f"{force_unit}/{length_unit}"}
     return out
+
+
+def load_json_report(path: Path) -> dict:
+    """A report JSON file read and checked (schema 1, every value a
+    comparison reads); anything else is an :class:`InputFileError` naming the
+    file (and the key)."""
+    try:
+        text = path.read_text(encoding="utf-8")
+        data = json.loads(text)
+    except OSError as exc:
+        raise InputFileError(f"{path}: cannot read: {exc.strerror or exc}") from None
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise InputFileError(f"{path}: not a JSON report: {exc}") from None
+    except RecursionError:
+        raise InputFileError(f"{path}: not a JSON report: lists or tables nested too deep") from None
+    except ValueError as exc:  # an integer longer than Python's digit limit
+        raise InputFileError(f"{path}: not a JSON report: {shorten(str(exc), 120)}") from None
+    if _ESCAPED_SURROGATE.search(text):
+        _refuse_lone_surrogates(data, path)
+    check_report(data, str(path))
+    return data
+
+
+_ESCAPED_SURROGATE = re.compile(r"\\u[dD][89a-fA-F][0-9a-fA-F]{2}")
+_LONE_SURROGATE = re.compile("[\ud800-\udfff]")
+
+
+def _refuse_lone_surrogates(data, path: Path) -> None:
+    """A JSON text may escape half a UTF-16 pair (``"\\udce9"``): such a
+    string cannot be written to any file or terminal, so the report is
+    refused naming the key."""
+    stack = [(data, "")]
+    while stack:
+        node, where = stack.pop()
+        items = node.items() if isinstance(node, dict) else enumerate(node) if isinstance(node, list) else ()
+        for k, v in items:
+            at = f"{where}[{k}]" if isinstance(node, list) else (f"{where}.{k}" if where else str(k))
+            if isinstance(v, (dict, list)):
+                stack.append((v, at))
+            elif isinstance(v, str) and _LONE_SURROGATE.search(v) or isinstance(k, str) and _LONE_SURROGATE.search(k):
+                raise InputFileError(f"{path}: {one_line(shorten(at))} holds an escaped character that is "
+                                     "not a Unicode character (half of a UTF-16 pair)")

@@ -1,0 +1,270 @@
+"""Checks that catch a model the drafter may not have meant.
+
+A wrong model with a green "ok" is the worst outcome, so whatever the
+reader meets that a drafter may not have meant is said, naming the
+handle, and every guess is a warning.  ``check`` and ``solve`` call the
+same functions here, so the two commands agree on every drawing.
+
+* :func:`default_case_warning`: loads without a CASE (put in case D).
+* :func:`check_section_keys`: a section keyed by a layer no member uses is
+  an error (a typo must not fall back to the default section silently).
+* :func:`section_lines`: which section each member layer got (for check).
+* :func:`combination_problems`: an unknown case in a combination formula is
+  an error; a case that enters no combination is a warning.
+* :func:`near_misses`: a free member end close to another member or a
+  support.
+* :func:`stiffness_basis`: what stiffness the solver uses (the sections,
+  none for a determinate frame, or equal relative stiffness), or the error
+  that refuses the frame.
+
+Units: the frame is in SI (m); messages give lengths in drawing units.
+"""
+from __future__ import annotations
+
+import difflib
+from typing import Iterable, Sequence
+
+import numpy as np
+import shapely
+from scipy.spatial import cKDTree
+
+from dxf2frame.solver import Frame, Settlement
+
+from ..errors import AnalysisError, SettingsError
+from ..settings import STANDARD_CASES, Settings
+
+__all__ = [
+    "default_case_warning",
+    "check_section_keys",
+    "section_lines",
+    "combination_problems",
+    "absent_case_notes",
+    "near_misses",
+    "near_miss_distance",
+    "stiffness_basis",
+    "EQUAL_STIFFNESS_WARNING",
+]
+
+#: the warning of a frame solved with equal relative stiffness
+EQUAL_STIFFNESS_WARNING = (
+    "no sections given: the statically indeterminate frame is solved with equal relative stiffness "
+    "(the same EI for every member, axial shortening neglected), as hand methods assume; the forces "
+    "rest on that assumption and no deflections are computed; give E, A and I under [sections] in "
+    "dxf2frame.toml for the real stiffness"
+)
+
+
+def _handles(handles: Sequence[str], limit: int = 8) -> str:
+    hs = list(dict.fromkeys(handles))
+    text = ", ".join(f"#{h}" for h in hs[:limit])
+    return text + (f" and {len(hs) - limit} more" if len(hs) > limit else "")
+
+
+def default_case_warning(handles: Sequence[str]) -> str | None:
+    """One warning for all loads that had no CASE and went to case D."""
+    if not handles:
+        return None
+    return (f"{len(handles)} load(s) have no CASE attribute and were put in load case D, the default "
+            f"({_handles(handles)}); give CASE on every load")
+
+
+def _suggest(word: str, choices: Iterable[str]) -> str:
+    close = difflib.get_close_matches(word.upper(), [c.upper() for c in choices], n=1, cutoff=0.6)
+    if not close:
+        return ""
+    original = next(c for c in choices if c.upper() == close[0])
+    return f"; did you mean {original!r}?"
+
+
+def check_section_keys(frame: Frame, settings: Settings) -> None:
+    """Raise :class:`SettingsError` for a ``[sections."LAYER"]`` whose layer
+    no member uses, naming the key, the member layers and the closest one."""
+    used = sorted({m.layer.upper() for m in frame.members})
+    for key in settings.sections:
+        if key == "DEFAULT" or key in used:
+            continue
+        raise SettingsError(
+            f"[sections.\"{key}\"] is keyed by a layer no member uses; member layers: {', '.join(used)}"
+            + _suggest(key, used),
+            path=str(settings.source or ""), key=f"sections.{key}",
+        )
+
+
+def section_lines(frame: Frame, settings: Settings) -> list[str]:
+    """``LAYER: <where its section comes from>`` for each member layer."""
+    out = []
+    for layer in sorted({m.layer.upper() for m in frame.members}):
+        if layer in settings.sections:
+            sec = settings.sections[layer]
+            out.append(f"{layer}: own section [sections.\"{layer}\"]" + (f" {sec.name}" if sec.name else ""))
+        elif "DEFAULT" in settings.sections:
+            sec = settings.sections["DEFAULT"]
+            out.append(f"{layer}: default section [sections.default]" + (f" {sec.name}" if sec.name else ""))
+        else:
+            out.append(f"{layer}: none")
+    return out
+
+
+def combination_problems(settings: Settings, present: Sequence[str], specs) -> list[str]:
+    """Warnings for the load cases of the drawing that enter no combination
+    of ``specs`` ((name, factors, family) as built by
+    :func:`dxf2frame.pipeline.combination_specs`).  Nothing when the
+    settings ask for no combination at all (cases only, on purpose)."""
+    if not settings.combinations_builtin and not settings.combinations_extra:
+        return []
+    used = {c for _, factors, _ in specs for c in factors}
+    out = []
+    for c in present:
+        if c in used:
+            continue
+        hint = (f"map it onto a standard case letter in [cases] (e.g. {c} = \"L\") or name it in "
+                "[combinations] extra" if c not in STANDARD_CASES else "add a combination with it under [combinations]")
+        out.append(f"load case {c!r} enters no load combination: it is solved on its own but left out of every "
+                   f"combination and envelope; {hint}")
+    return out
+
+
+def absent_case_notes(settings: Settings, present: Sequence[str]) -> list[str]:
+    """Notes (not warnings) for the settings' own combinations that name a
+    standard case the drawing has no loads in: normal (a frame without snow
+    loads), the term contributes nothing."""
+    from dxf2frame.solver.combinations import parse_combination
+
+    out = []
+    for text in settings.combinations_extra:
+        try:
+            names = {settings.case_name(c) if c not in present else c for c in parse_combination(text)}
+        except ValueError:
+            continue
+        absent = sorted(c for c in names if c not in present and c in STANDARD_CASES)
+        if absent:
+            out.append(f"combination {text!r}: the drawing has no loads in case(s) {', '.join(absent)}; "
+                       "those terms contribute nothing")
+    return out
+
+
+def unknown_case_error(text: str, name: str, present: Sequence[str]) -> SettingsError:
+    """The error for a combination formula naming a case that is neither a
+    standard case letter nor a case of the drawing."""
+    choices = list(dict.fromkeys([*present, *STANDARD_CASES]))
+    return SettingsError(
+        f"combination {text!r} names load case {name!r}, which is neither a standard case letter "
+        f"({', '.join(STANDARD_CASES)}) nor a load case of this drawing ({', '.join(present) or 'none'})"
+        + _suggest(name, choices),
+        key="combinations.extra",
+    )
+
+
+def near_miss_distance(tol: float, shorter: float) -> float:
+    """Largest gap [m] still taken for a near miss: the larger of 10 snap
+    tolerances and 2 % of the shorter of the two members (convention v2)."""
+    return max(10.0 * tol, 0.02 * shorter)
+
+
+def near_misses(frame: Frame, tol: float, unit: tuple[str, float]) -> list[tuple[float, float, str]]:
+    """Free member ends (one member, no support) within
+    :func:`near_miss_distance` of another member or of a support.
+
+    Returns (x, y) of the free end in drawing units and the warning text
+    (both handles, the gap and where), one per pair of entities.
+    """
+    name, scale = unit
+    n, members = len(frame.nodes), frame.members
+    if not members:
+        return []
+    xy = np.array([(nd.x, nd.y) for nd in frame.nodes], dtype=float)
+    si = np.array([m.start for m in members])
+    ei = np.array([m.end for m in members])
+    degree = np.bincount(np.concatenate([si, ei]), minlength=n)
+    supported = np.zeros(n, dtype=bool)
+    for s in frame.supports:
+        supported[s.node] = True
+    L = np.hypot(*(xy[ei] - xy[si]).T)
+    lines = shapely.linestrings(np.stack([xy[si], xy[ei]], axis=1))
+    tree = shapely.STRtree(lines)
+    sup_nodes = np.array([s.node for s in frame.supports], dtype=np.intp)
+    sup_tree = cKDTree(xy[sup_nodes]) if len(sup_nodes) else None
+    seen: set[frozenset] = set()
+    out = []
+    free = np.flatnonzero((degree == 1) & ~supported)
+    for nid in free.tolist():
+        mi = int(np.flatnonzero((si == nid) | (ei == nid))[0])
+        own = members[mi]
+        p = shapely.points(xy[nid])
+        reach = near_miss_distance(tol, L[mi])
+        best = None  # (gap, handle, layer, what, overshoot)
+        other_end = own.end if own.start == nid else own.start
+        for k in tree.query(p, predicate="dwithin", distance=reach).tolist():
+            if k == mi or members[k].handle == own.handle and members[k].group == own.group:
+                continue
+            gap = float(shapely.distance(p, lines[k]))
+            # a short piece beyond a joint is a line drawn past the member it meets
+            overshoot = other_end in (members[k].start, members[k].end)
+            limit = reach if overshoot else near_miss_distance(tol, min(L[mi], L[k]))
+            if gap <= limit and (best is None or gap < best[0]):
+                best = (gap, members[k].handle, members[k].layer, "member", overshoot)
+        near_sup = sup_tree.query_ball_point(xy[nid], reach) if sup_tree is not None else []
+        for s_i in near_sup:
+            sn = int(sup_nodes[s_i])
+            gap = float(np.hypot(*(xy[sn] - xy[nid])))
+            if sn != nid and (best is None or gap < best[0]):
+                s = frame.supports[s_i]
+                best = (gap, s.handle, s.layer, f"{s.kind} support", False)
+        if best is None:
+            continue
+        gap, h2, l2, what, overshoot = best
+        pair = frozenset((own.handle, h2))
+        if pair in seen:
+            continue
+        seen.add(pair)
+        x, y = xy[nid] / scale
+        where = f"the free end of member #{own.handle} on layer '{own.layer}' at ({x:.6g}, {y:.6g}) {name}"
+        if overshoot:
+            text = (f"near miss: {where} runs {gap / scale:.3g} {name} past member #{h2} on layer '{l2}', "
+                    "leaving a short free stub; trim the line to the joint (or draw the stub clearly longer)")
+        else:
+            text = (f"near miss: {where} stops {gap / scale:.3g} {name} short of {what} #{h2} on layer '{l2}'; "
+                    "a joint was probably meant: join the lines, or move them clearly apart")
+        out.append((float(x), float(y), text))
+    return out
+
+
+def stiffness_basis(frame: Frame, status: str, settings: Settings) -> str:
+    """What stiffness the solver works with: ``"sections"`` (every member
+    has one), ``"none"`` (a determinate or unstable frame: forces need no
+    stiffness) or ``"equal"`` (no member has a section: equal relative
+    stiffness, to be warned about).
+
+    Raises :class:`AnalysisError` when the frame cannot be solved as drawn:
+    only some members have sections, the settings ask to refuse, or spring
+    supports or settlements make the forces depend on the real stiffness.
+    """
+    missing = [m for m in frame.members if m.section is None]
+    if not missing:
+        return "sections"
+    if status != "indeterminate":
+        return "none"
+    first = missing[0]
+    names = ", ".join(m.id for m in missing[:6]) + (" ..." if len(missing) > 6 else "")
+    hint = "give E, A and I under [sections.default] (or per layer) in dxf2frame.toml"
+    if len(missing) < len(frame.members):
+        raise AnalysisError(
+            f"the frame is statically indeterminate and {len(missing)} member(s) have no section ({names}) while "
+            "others have one; their stiffness decides the forces",
+            handle=first.handle, layer=first.layer, hint=hint)
+    if settings.missing_sections == "refuse":
+        raise AnalysisError(
+            f"the frame is statically indeterminate and its members have no section ({names}); their stiffness "
+            "decides the forces ([analysis] missing_sections = \"refuse\")",
+            handle=first.handle, layer=first.layer, hint=hint)
+    springs = [s for s in frame.supports if s.kind == "spring"]
+    settle = [ld for ld in frame.loads if isinstance(ld, Settlement)]
+    if springs or settle:
+        what = (f"spring support #{springs[0].handle}" if springs
+                else f"the settlement of support #{settle[0].handle}")
+        raise AnalysisError(
+            f"the frame is statically indeterminate, its members have no section and {what} makes the forces depend "
+            "on the real stiffness (equal relative stiffness cannot stand in for it)",
+            handle=springs[0].handle if springs else settle[0].handle,
+            layer=springs[0].layer if springs else "", hint=hint)
+    return "equal"

@@ -1,0 +1,624 @@
+"""Moving loads and influence lines.
+
+A load path runs along members (:func:`path_along_members`, an ordered
+chain of member ids, or :func:`path_through_points`, a polyline whose
+segments lie on members).  :class:`MovingLoads` factorises the frame's
+stiffness once and solves a unit point load at any set of path stations as
+the columns of one right-hand side (superposition: the frame is linear).
+From those unit-load solutions it gives
+
+* influence lines (:meth:`MovingLoads.influence_line`): a reaction
+  component, or N, V, M at a point of a member, as the load moves along
+  the path;
+* the envelope of N, V, M along every member under a :class:`Vehicle`
+  (axle loads and spacings) crossing the path in both directions
+  (:meth:`MovingLoads.envelope`), with the governing vehicle position.
+
+Units: the frame's (N, m in the DXF pipeline); the unit load is 1 [force].
+The load acts along ``direction`` (global, default (0, -1): downward); an
+axle load is positive along it.  Path coordinate ``s`` [length] runs from
+the first point of the path.  Member results follow :mod:`solver.forces`
+(N tension +, V clockwise +, M sagging +, x from the member start).  The
+vehicle's effect alone is reported: add the other loads by superposition.
+
+Examples
+--------
+A 12 m simple span crossed by one 80 kN axle: the largest moment is
+PL/4 = 240 kN*m, at midspan.
+
+>>> from dxf2frame.solver import Frame, Section, MovingLoads, Vehicle, path_along_members
+>>> f = Frame()
+>>> a, b = f.add_node(0.0, 0.0), f.add_node(12.0, 0.0)
+>>> _ = f.add_member(a, b, Section(E=200e9, A=5e-3, I=8e-5), id="G1")
+>>> _ = f.add_support(a, "pin"); _ = f.add_support(b, "roller")
+>>> ml = MovingLoads(f, path_along_members(f, ["G1"]))
+>>> g = ml.envelope(Vehicle((80e3,)), step=0.5)["G1"].governing("M_max")
+>>> round(g["value"] / 1e3, 6), g["x"]
+(240.0, 6.0)
+>>> ml.influence_line("fy", support=0, step=3.0).values.round(6).tolist()
+[1.0, 0.75, 0.5, 0.25, 0.0]
+"""
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.sparse as sp
+
+from .element import condense
+from .errors import LoadError, SolverError
+from .model import Frame
+from .stiffness import FrameModel, displacements, factorise, prepare, support_reactions
+
+__all__ = [
+    "LoadPath",
+    "Vehicle",
+    "MovingLoads",
+    "UnitLoadSolutions",
+    "InfluenceLine",
+    "MemberEnvelope",
+    "path_along_members",
+    "path_through_points",
+    "locate_point",
+]
+
+
+# --------------------------------------------------------------------------
+# paths
+
+
+@dataclass(frozen=True, eq=False)
+class LoadPath:
+    """A path made of member stretches, in travel order.
+
+    Stretch i lies on member ``member[i]`` (index in ``Frame.members``)
+    from local position ``a0[i]`` to ``a1[i]`` [length] (``a1 < a0`` where
+    the path runs against the member); ``s0[i]`` is the path coordinate of
+    its start.  ``length`` is the path's total length.
+    """
+
+    member: np.ndarray
+    a0: np.ndarray
+    a1: np.ndarray
+    s0: np.ndarray
+    length: float
+
+    def locate(self, s) -> tuple[np.ndarray, np.ndarray]:
+        """(member index, position from the member start) of path
+        coordinates ``s`` (array, 0 <= s <= length)."""
+        s = np.clip(np.asarray(s, dtype=float), 0.0, self.length)
+        i = np.clip(np.searchsorted(self.s0, s, side="right") - 1, 0, len(self.s0) - 1)
+        t = s - self.s0[i]
+        a = self.a0[i] + np.sign(self.a1[i] - self.a0[i]) * t
+        lo, hi = np.minimum(self.a0[i], self.a1[i]), np.maximum(self.a0[i], self.a1[i])
+        return self.member[i], np.clip(a, lo, hi)
+
+
+def _path(pieces: list[tuple[int, float, float]]) -> LoadPath:
+    j = np.array([p[0] for p in pieces], dtype=np.intp)
+    a0 = np.array([p[1] for p in pieces], dtype=float)
+    a1 = np.array([p[2] for p in pieces], dtype=float)
+    ln = np.abs(a1 - a0)
+    s0 = np.concatenate([[0.0], np.cumsum(ln)[:-1]])
+    return LoadPath(j, a0, a1, s0, float(ln.sum()))
+
+
+def _member_ends(frame: Frame):
+    xy = np.array([(nd.x, nd.y) for nd in frame.nodes], dtype=float).reshape(-1, 2)
+    si = np.array([mb.start for mb in frame.members], dtype=np.intp)
+    ei = np.array([mb.end for mb in frame.members], dtype=np.intp)
+    return xy, si, ei
+
+
+def path_along_members(frame: Frame, member_ids: Sequence[str]) -> LoadPath:
+    """The path along an ordered chain of members, each sharing a node with
+    the next; it starts at the end of the first member that the second
+    does not touch.  Raises LoadError for a broken chain."""
+    index = frame.member_index()
+    ms = []
+    for mid in member_ids:
+        if mid not in index:
+            raise LoadError(f"path member {mid!r} does not exist", members=[str(mid)])
+        ms.append(frame.members[index[mid]])
+    if not ms:
+        raise LoadError("the path has no members")
+    if len(ms) == 1:
+        at = ms[0].start
+    else:
+        shared = {ms[1].start, ms[1].end}
+        at = ms[0].start if ms[0].end in shared else ms[0].end
+    pieces = []
+    for mb in ms:
+        L = frame.geometry(mb)[0]
+        if mb.start == at:
+            pieces.append((index[mb.id], 0.0, L))
+            at = mb.end
+        elif mb.end == at:
+            pieces.append((index[mb.id], L, 0.0))
+            at = mb.start
+        else:
+            raise LoadError(f"path member {mb.id} does not continue the chain at node {at}",
+                            handle=mb.handle, members=[mb.id])
+    return _path(pieces)
+
+
+def path_through_points(frame: Frame, points: Sequence[tuple[float, float]], tol: float | None = None) -> LoadPath:
+    """The path along a polyline ``points`` [(x, y), ...] whose segments
+    lie on members (within ``tol`` [length], default 1e-6 of the frame's
+    extent).  Each segment is covered by the members lying along it;
+    a stretch of a segment with no member under it raises LoadError."""
+    pts = np.asarray(points, dtype=float).reshape(-1, 2)
+    if len(pts) < 2:
+        raise LoadError("a path needs at least two points")
+    xy, si, ei = _member_ends(frame)
+    ext = float(np.ptp(xy, axis=0).max()) if len(xy) else 1.0
+    tol = 1e-6 * max(ext, 1.0) if tol is None else float(tol)
+    P, Q = xy[si], xy[ei]
+    pieces: list[tuple[int, float, float]] = []
+    for p0, p1 in zip(pts[:-1], pts[1:]):
+        d = p1 - p0
+        seg = float(np.hypot(*d))
+        if seg <= tol:
+            continue
+        u = d / seg
+        nrm = np.array([-u[1], u[0]])
+        on = (np.abs((P - p0) @ nrm) <= tol) & (np.abs((Q - p0) @ nrm) <= tol)
+        tp, tq = (P - p0) @ u, (Q - p0) @ u
+        lo, hi = np.maximum(np.minimum(tp, tq), 0.0), np.minimum(np.maximum(tp, tq), seg)
+        cand = np.flatnonzero(on & (hi - lo > tol))
+        cand = cand[np.argsort(lo[cand])]
+        reach = 0.0
+        for j in cand:
+            if lo[j] > reach + tol:
+                break
+            if hi[j] <= reach + tol:
+                continue
+            start = max(lo[j], reach)
+            L = float(np.hypot(*(Q[j] - P[j])))
+            fwd = tq[j] > tp[j]
+            a0 = (start - tp[j]) if fwd else (tp[j] - start)
+            a1 = (hi[j] - tp[j]) if fwd else (tp[j] - hi[j])
+            pieces.append((int(j), float(np.clip(a0, 0, L)), float(np.clip(a1, 0, L))))
+            reach = hi[j]
+        if reach < seg - tol:
+            at = p0 + reach * u
+            raise LoadError(f"the path leaves the members at ({at[0]:g}, {at[1]:g})")
+    if not pieces:
+        raise LoadError("the path covers no member")
+    return _path(pieces)
+
+
+def locate_point(frame: Frame, x: float, y: float, tol: float | None = None) -> tuple[str, float]:
+    """(member id, position from its start [length]) of the member passing
+    nearest to (x, y), within ``tol`` (default 1e-6 of the frame's
+    extent); LoadError when no member passes there."""
+    xy, si, ei = _member_ends(frame)
+    ext = float(np.ptp(xy, axis=0).max()) if len(xy) else 1.0
+    tol = 1e-6 * max(ext, 1.0) if tol is None else float(tol)
+    d = xy[ei] - xy[si]
+    L = np.hypot(d[:, 0], d[:, 1])
+    t = np.clip(((np.array([x, y]) - xy[si]) * d).sum(axis=1) / L**2, 0.0, 1.0)
+    gap = np.hypot(*(xy[si] + t[:, None] * d - np.array([x, y])).T)
+    j = int(np.argmin(gap))
+    if gap[j] > tol:
+        raise LoadError(f"no member passes through ({x:g}, {y:g})")
+    return frame.members[j].id, float(t[j] * L[j])
+
+
+# --------------------------------------------------------------------------
+# vehicles
+
+
+@dataclass(frozen=True)
+class Vehicle:
+    """A train of axle loads.
+
+    ``loads`` [force] from the front axle back, positive along the load
+    direction; ``spacings`` [length] between consecutive axles (one fewer
+    than the loads).  ``name`` is a label.
+    """
+
+    loads: tuple[float, ...]
+    spacings: tuple[float, ...] = ()
+    name: str = ""
+
+    def __post_init__(self) -> None:
+        if len(self.loads) < 1 or len(self.spacings) != len(self.loads) - 1:
+            raise ValueError("a vehicle needs one or more axle loads and one spacing between each pair")
+        if any(not np.isfinite(v) for v in self.loads) or any(not (s >= 0) for s in self.spacings):
+            raise ValueError("axle loads must be finite and spacings non-negative")
+
+    @property
+    def offsets(self) -> np.ndarray:
+        """(k,) distance of each axle behind the front axle [length]."""
+        return np.concatenate([[0.0], np.cumsum(np.asarray(self.spacings, dtype=float))])
+
+    def axle_positions(self, front: float, direction: int) -> np.ndarray:
+        """Path coordinates of the axles with the front axle at ``front``,
+        travelling toward increasing s (``direction`` +1) or decreasing s
+        (-1)."""
+        return float(front) - direction * self.offsets
+
+
+# --------------------------------------------------------------------------
+# unit-load solutions
+
+
+@dataclass(eq=False)
+class UnitLoadSolutions:
+    """A unit point load at each of ``s`` (path coordinates), solved.
+
+    ``member``, ``a`` (ns,): where each station lies; ``p`` (ns, 2) the
+    unit load's local (axial, transverse) components; ``start_forces`` (m,
+    3, ns) every member's start-end forces ``Ni, Vi, Mi`` (local, by the
+    start node on the member: with the member's own loads they fix N, V, M
+    everywhere along it);
+    ``reactions`` (n_supports, 3, ns) global fx, fy, m of each support.
+    """
+
+    s: np.ndarray
+    member: np.ndarray
+    a: np.ndarray
+    p: np.ndarray
+    start_forces: np.ndarray
+    reactions: np.ndarray
+
+    def member_values(self, which: str, rows: np.ndarray, x: np.ndarray, side: str = "right") -> np.ndarray:
+        """(k, ns) value of N, V or M at (member ``rows[i]``, position
+        ``x[i]``) for the unit load at each station: the end forces plus
+        the unit load itself where it lies on that member before x (at x
+        itself: included for ``side="right"``)."""
+        rows = np.asarray(rows, dtype=np.intp)
+        x = np.asarray(x, dtype=float)
+        fe = self.start_forces[rows]  # (k, 3, ns)
+        same = rows[:, None] == self.member[None, :]
+        before = (self.a[None, :] <= x[:, None]) if side == "right" else (self.a[None, :] < x[:, None])
+        hit = same & before
+        if which == "N":
+            return -fe[:, 0, :] - hit * self.p[None, :, 0]
+        if which == "V":
+            return fe[:, 1, :] + hit * self.p[None, :, 1]
+        if which == "M":
+            return (-fe[:, 2, :] + fe[:, 1, :] * x[:, None]
+                    + hit * self.p[None, :, 1] * (x[:, None] - self.a[None, :]))
+        raise KeyError(f"unknown quantity {which!r}; expected N, V or M")
+
+
+@dataclass(eq=False)
+class InfluenceLine:
+    """Value of a quantity as a unit load moves along the path.
+
+    ``s`` (ns,) path coordinates [length]; ``xy`` (ns, 2) the load points;
+    ``values`` (ns,) the quantity per unit load [its unit / force];
+    ``quantity`` says what it is.
+    """
+
+    quantity: str
+    s: np.ndarray
+    xy: np.ndarray
+    values: np.ndarray
+
+    def at(self, s) -> np.ndarray:
+        """Linear interpolation between the stations."""
+        return np.interp(s, self.s, self.values)
+
+
+@dataclass(eq=False)
+class MemberEnvelope:
+    """Extremes of N, V, M along one member under a moving vehicle.
+
+    ``x`` (k,) positions from the member start [length].  ``values`` maps
+    keys ``N_max N_min V_max V_min M_max M_min`` to (k,) arrays;
+    ``front`` the path coordinate of the front axle that governs each
+    value; ``direction`` +1 / -1 the travel direction then.
+    """
+
+    member: str
+    x: np.ndarray
+    values: dict[str, np.ndarray] = field(default_factory=dict)
+    front: dict[str, np.ndarray] = field(default_factory=dict)
+    direction: dict[str, np.ndarray] = field(default_factory=dict)
+
+    def governing(self, key: str) -> dict:
+        """The extreme of ``key`` (e.g. "M_max") over the member: value,
+        x, front axle position and direction."""
+        v = self.values[key]
+        i = int(np.argmax(v) if key.endswith("max") else np.argmin(v))
+        return {"value": float(v[i]), "x": float(self.x[i]), "front": float(self.front[key][i]),
+                "direction": int(self.direction[key][i])}
+
+
+def _unit_fixed_end_forces(model: FrameModel, j: np.ndarray, a: np.ndarray, p: np.ndarray) -> np.ndarray:
+    """(ns, 6) fixed-end forces of one unit point load per station (local
+    components ``p``), releases condensed (clamped values from the Hermite
+    shapes, as :func:`solver.element.clamped_fixed_end_forces`)."""
+    Lm = model.L[j]
+    xi = a / Lm
+    h1 = 1 - 3 * xi**2 + 2 * xi**3
+    h2 = Lm * (xi - 2 * xi**2 + xi**3)
+    h3 = 3 * xi**2 - 2 * xi**3
+    h4 = Lm * (-(xi**2) + xi**3)
+    px, py = p[:, 0], p[:, 1]
+    f0 = -np.column_stack([(1 - xi) * px, h1 * py, h2 * py, xi * px, h3 * py, h4 * py])
+    rs, re = model.rel_s[j], model.rel_e[j]
+    if rs.any() or re.any():
+        _, fc = condense(model.k_full[j], f0[:, :, None], rs, re)
+        f0 = fc[:, :, 0]
+    return f0
+
+
+class MovingLoads:
+    """Unit-load solutions of a frame along a load path, from one
+    factorisation (see the module docstring).
+
+    Parameters
+    ----------
+    frame : the frame (sections needed unless ``determinate`` is True)
+    path : a :class:`LoadPath`
+    direction : global direction of the load (unit vector after scaling),
+        default (0, -1), downward
+    determinate : as in :func:`solver.solve`
+    """
+
+    def __init__(self, frame: Frame, path: LoadPath, *, direction: tuple[float, float] = (0.0, -1.0),
+                 determinate: bool | None = None) -> None:
+        d = np.asarray(direction, dtype=float)
+        if not (d.shape == (2,) and np.all(np.isfinite(d)) and np.hypot(*d) > 0):
+            raise ValueError("direction must be a non-zero (x, y) vector")
+        self.frame, self.path = frame, path
+        self.direction = d / np.hypot(*d)
+        self.model = prepare(frame, determinate=determinate)
+        self._fact = factorise(self.model)
+
+    # -- unit loads ----------------------------------------------------------
+
+    def stations(self, step: float) -> np.ndarray:
+        """Path coordinates 0, step, 2*step, ... up to and including the
+        path's end [length]."""
+        if not (step > 0):
+            raise ValueError("step must be positive")
+        n = int(np.floor(self.path.length / step + 1e-9))
+        s = np.arange(n + 1) * float(step)
+        return s if abs(s[-1] - self.path.length) <= 1e-9 * self.path.length else np.append(s, self.path.length)
+
+    def unit_solutions(self, s) -> UnitLoadSolutions:
+        """Solve a unit load at each path coordinate of ``s``: all stations
+        as the columns of one right-hand side, with the factorisation made
+        once in the constructor."""
+        model = self.model
+        s = np.asarray(s, dtype=float).ravel()
+        j, a = self.path.locate(s)
+        c, sn = model.c[j], model.s[j]
+        gx, gy = self.direction
+        p = np.column_stack([c * gx + sn * gy, -sn * gx + c * gy])
+        f0 = _unit_fixed_end_forces(model, j, a, p)
+        ns, N = len(s), model.n_dofs
+        eq = -np.einsum("sji,sj->si", model.T[j], f0)
+        F = np.zeros((N, ns))
+        np.add.at(F, (model.dof[j], np.arange(ns)[:, None]), eq)
+        if np.any(F[~model.act] != 0.0):
+            raise SolverError("a path station puts a couple on a joint where every member end is pinned")
+        U = displacements(model, self._fact, _Rhs(F))
+        # start-end forces only, k[:3] T u + f0 (one batched product)
+        fe = np.matmul(np.matmul(model.k_loc[:, :3, :], model.T), U[model.dof])
+        fe[j, :, np.arange(ns)] += f0[:, :3]
+        Rs = support_reactions(model, U, F)
+        nodes = np.array([sp_.node for sp_ in self.frame.supports], dtype=np.intp)
+        cn, sn_ = model.sup.cos[nodes][:, None], model.sup.sin[nodes][:, None]
+        R = np.stack([cn * Rs[:, 0] - sn_ * Rs[:, 1], sn_ * Rs[:, 0] + cn * Rs[:, 1], Rs[:, 2]], axis=1)
+        return UnitLoadSolutions(s, j, a, p, fe, R)
+
+    def points(self, s) -> np.ndarray:
+        """(ns, 2) global coordinates of path coordinates ``s``."""
+        j, a = self.path.locate(s)
+        m = self.model
+        return m.xy[m.si[j]] + a[:, None] * np.column_stack([m.c[j], m.s[j]])
+
+    # -- influence lines -----------------------------------------------------
+
+    def influence_line(self, quantity: str, *, step: float, member: str | None = None, x: float | None = None,
+                       support: int | None = None, side: str = "right") -> InfluenceLine:
+        """Influence line of ``quantity`` at the path stations (``step``).
+
+        ``quantity`` is "N", "V" or "M" at position ``x`` of ``member`` (at a
+        jump, the value just right of x, or just left with ``side="left"``),
+        or "fx", "fy", "m" of the reaction of support number ``support``
+        (its index in ``Frame.supports``; global, moment CCW).
+        """
+        s = self.stations(step)
+        sol = self.unit_solutions(s)
+        if quantity in ("fx", "fy", "m"):
+            if support is None or not (0 <= support < sol.reactions.shape[0]):
+                raise ValueError("give the index of an existing support")
+            vals = sol.reactions[support, ("fx", "fy", "m").index(quantity)]
+            label = f"{quantity} of support {support}"
+        else:
+            if member is None or x is None:
+                raise ValueError("give the member and the position x")
+            row = self.frame.member_index()[member]
+            vals = sol.member_values(quantity, np.array([row]), np.array([float(x)]), side)[0]
+            label = f"{quantity} of member {member} at x={float(x):g}"
+        return InfluenceLine(label, s, self.points(s), vals)
+
+    # -- vehicles ------------------------------------------------------------
+
+    def _placements(self, vehicle: Vehicle, step: float, directions: Sequence[int]):
+        """(fronts, dirs, positions (n_place, k)) of every placement: the
+        front axle on the station grid from the vehicle's first touch of
+        the path to its last."""
+        Lp, Lv = self.path.length, float(vehicle.offsets[-1])
+        k = int(np.ceil((Lp + Lv) / step - 1e-9))
+        grid = np.arange(k + 1) * float(step)
+        fronts, dirs = [], []
+        for d in directions:
+            fronts.append(grid if d > 0 else Lp - grid)
+            dirs.append(np.full(len(grid), int(d)))
+        fronts, dirs = np.concatenate(fronts), np.concatenate(dirs)
+        pos = fronts[:, None] - dirs[:, None] * vehicle.offsets[None, :]
+        return fronts, dirs, pos
+
+    def envelope(self, vehicle: Vehicle, *, step: float, points_per_member: int = 11,
+                 directions: Sequence[int] = (1, -1), chunk: int = 1024) -> dict[str, MemberEnvelope]:
+        """Envelope of N, V, M along every member as ``vehicle`` crosses the
+        path (front axle moved by ``step``, in each of ``directions``).
+
+        Every member is sampled at ``points_per_member`` equally spaced
+        points plus every axle position on it (an extreme under moving
+        point loads lies under an axle).  N and V are taken on both sides
+        of each point.  The unit loads are solved once, at every distinct
+        axle position, and combined by a sparse product.
+        """
+        fronts, dirs, pos = self._placements(vehicle, float(step), [int(d) for d in directions])
+        sol, A = self._placement_matrix(vehicle, pos)
+        rows, xs = self._samples(sol, points_per_member)
+        # start-end forces Ni, Vi, Mi of every member for every placement:
+        # superposition, (m, n_placements) each
+        Ni, Vi, Mi = (np.asarray((A.T @ sol.start_forces[:, c, :].T).T) for c in range(3))
+        vals: dict[str, np.ndarray] = {}
+        at: dict[str, np.ndarray] = {}
+        for q in ("N", "V", "M"):
+            best = _Extremes(len(rows))
+            for side in (("right", "left") if q != "M" else ("right",)):
+                HA = (self._load_term(sol, rows, xs, q, side) @ A).tocsr()
+                for lo in range(0, len(rows), chunk):
+                    sl = slice(lo, lo + chunk)
+                    r = rows[sl]
+                    if q == "N":
+                        E = -Ni[r]
+                    elif q == "V":
+                        E = Vi[r]
+                    else:
+                        E = xs[sl, None] * Vi[r] - Mi[r]
+                    best.update(sl, E + HA[sl].toarray())
+            vals[f"{q}_max"], at[f"{q}_max"] = best.vmax, best.amax
+            vals[f"{q}_min"], at[f"{q}_min"] = best.vmin, best.amin
+        return self._by_member(rows, xs, vals, at, fronts, dirs)
+
+    def reaction_envelope(self, vehicle: Vehicle, *, step: float,
+                          directions: Sequence[int] = (1, -1)) -> list[dict]:
+        """Per support (``Frame.supports`` order): for c in fx, fy, m (global,
+        moment CCW) ``c_max``, ``c_min`` and the governing ``c_max_front``,
+        ``c_max_direction`` (likewise for min) as ``vehicle`` crosses the
+        path."""
+        fronts, dirs, pos = self._placements(vehicle, float(step), [int(d) for d in directions])
+        sol, A = self._placement_matrix(vehicle, pos)
+        ns = sol.reactions.shape[0]
+        R = np.asarray((A.T @ sol.reactions.reshape(ns * 3, -1).T).T).reshape(ns, 3, -1)
+        out = []
+        for k, sup in enumerate(self.frame.supports):
+            row: dict = {"node": sup.node, "support_index": k}
+            for ci, comp in enumerate(("fx", "fy", "m")):
+                col = R[k, ci]
+                for ext, i in (("max", int(np.argmax(col))), ("min", int(np.argmin(col)))):
+                    row[f"{comp}_{ext}"] = float(col[i])
+                    row[f"{comp}_{ext}_front"] = float(fronts[i])
+                    row[f"{comp}_{ext}_direction"] = int(dirs[i])
+            out.append(row)
+        return out
+
+    def axle_points(self, vehicle: Vehicle, front: float, direction: int) -> np.ndarray:
+        """(k, 2) global coordinates of the axles on the path with the front
+        axle at path coordinate ``front`` travelling in ``direction`` (+1 /
+        -1), for drawing a governing position; axles off the path are
+        left out."""
+        s = vehicle.axle_positions(front, direction)
+        tol = 1e-9 * max(self.path.length, 1.0)
+        s = s[(s >= -tol) & (s <= self.path.length + tol)]
+        return self.points(s)
+
+    def _placement_matrix(self, vehicle: Vehicle, pos: np.ndarray):
+        """Unit-load solutions at every distinct axle position on the path,
+        and the sparse (n_positions, n_placements) matrix of axle loads
+        that superposes them into each placement."""
+        Lp = self.path.length
+        tol = 1e-9 * max(Lp, 1.0)
+        on = (pos >= -tol) & (pos <= Lp + tol)
+        s_on = np.clip(pos[on], 0.0, Lp)
+        uniq, inv = np.unique(np.round(s_on / tol).astype(np.int64), return_inverse=True)
+        s_u = np.empty(len(uniq))
+        s_u[inv.ravel()] = s_on  # one representative of each distinct position
+        sol = self.unit_solutions(s_u)
+        place = np.nonzero(on)
+        loads = np.broadcast_to(np.asarray(vehicle.loads, dtype=float), pos.shape)[on]
+        A = sp.csr_matrix((loads, (inv.ravel(), place[0])), shape=(len(s_u), pos.shape[0]))
+        return sol, A
+
+    def _load_term(self, sol: UnitLoadSolutions, rows: np.ndarray, xs: np.ndarray, q: str,
+                   side: str) -> sp.csr_matrix:
+        """Sparse (n_samples, n_stations): the unit load's own contribution
+        to N, V or M at a sample of the member it stands on, before the
+        sample (see :meth:`UnitLoadSolutions.member_values`)."""
+        L = self.model.L
+        offset = np.concatenate([[0.0], np.cumsum(L + 1.0)])
+        keys = xs + offset[rows]  # ascending: samples are sorted by member, then x
+        bounds = np.searchsorted(rows, np.arange(len(L) + 1))
+        first = np.searchsorted(keys, sol.a + offset[sol.member], side="left" if side == "right" else "right")
+        stop = bounds[sol.member + 1]
+        cnt = np.maximum(stop - first, 0)
+        u = np.repeat(np.arange(len(sol.s)), cnt)
+        i = np.repeat(first - np.concatenate([[0], np.cumsum(cnt)[:-1]]), cnt) + np.arange(int(cnt.sum()))
+        if q == "N":
+            v = -sol.p[u, 0]
+        elif q == "V":
+            v = sol.p[u, 1]
+        else:
+            v = sol.p[u, 1] * (xs[i] - sol.a[u])
+        return sp.csr_matrix((v, (i, u)), shape=(len(rows), len(sol.s)))
+
+    def _samples(self, sol: UnitLoadSolutions, per_member: int) -> tuple[np.ndarray, np.ndarray]:
+        """(rows, x) sample points of every member, sorted by member then x."""
+        L = self.model.L
+        m = len(L)
+        t = np.linspace(0.0, 1.0, max(int(per_member), 2))
+        rows = np.concatenate([np.repeat(np.arange(m), len(t)), sol.member])
+        xs = np.concatenate([(L[:, None] * t[None, :]).ravel(), sol.a])
+        order = np.lexsort((xs, rows))
+        rows, xs = rows[order], xs[order]
+        keep = np.ones(len(rows), bool)
+        keep[1:] = (rows[1:] != rows[:-1]) | (np.diff(xs) > 1e-9 * L[rows[1:]])
+        return rows[keep], xs[keep]
+
+    def _by_member(self, rows, xs, vals, at, fronts, dirs) -> dict[str, MemberEnvelope]:
+        out: dict[str, MemberEnvelope] = {}
+        bounds = np.searchsorted(rows, np.arange(len(self.model.ids) + 1))
+        for j, mid in enumerate(self.model.ids):
+            sl = slice(bounds[j], bounds[j + 1])
+            env = MemberEnvelope(mid, xs[sl].copy())
+            for key in vals:
+                env.values[key] = vals[key][sl].copy()
+                env.front[key] = fronts[at[key][sl]]
+                env.direction[key] = dirs[at[key][sl]]
+            out[mid] = env
+        return out
+
+
+class _Extremes:
+    """Running largest and smallest value of each sample over placements,
+    with the placement that gives it."""
+
+    def __init__(self, k: int) -> None:
+        self.vmax, self.vmin = np.full(k, -np.inf), np.full(k, np.inf)
+        self.amax, self.amin = np.zeros(k, np.intp), np.zeros(k, np.intp)
+
+    def update(self, sl: slice, E: np.ndarray) -> None:
+        r = np.arange(E.shape[0])
+        i1, i2 = np.argmax(E, axis=1), np.argmin(E, axis=1)
+        e1, e2 = E[r, i1], E[r, i2]
+        b1, b2 = e1 > self.vmax[sl], e2 < self.vmin[sl]
+        self.vmax[sl] = np.where(b1, e1, self.vmax[sl])
+        self.amax[sl] = np.where(b1, i1, self.amax[sl])
+        self.vmin[sl] = np.where(b2, e2, self.vmin[sl])
+        self.amin[sl] = np.where(b2, i2, self.amin[sl])
+
+
+@dataclass(eq=False)
+class _Rhs:
+    """Load columns for :func:`solver.stiffness.displacements` (no
+    settlements)."""
+
+    F: np.ndarray
+
+    @property
+    def Ur(self) -> np.ndarray:
+        return np.broadcast_to(0.0, self.F.shape)

@@ -1,0 +1,252 @@
+"""Moving loads and influence lines, against closed-form results named
+beside each check (AISC beam diagrams, the classical absolute-maximum
+rule for a train of loads, Mueller-Breslau's principle)."""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from dxf2frame.solver import (
+    Frame,
+    LoadError,
+    MovingLoads,
+    Section,
+    Vehicle,
+    locate_point,
+    path_along_members,
+    path_through_points,
+)
+
+SEC = Section(E=200e9, A=5e-3, I=8e-5)   # Pa, m^2, m^4
+
+
+def simple_span(L: float, reverse: bool = False) -> Frame:
+    f = Frame()
+    a, b = f.add_node(0.0, 0.0), f.add_node(L, 0.0)
+    if reverse:  # drawn right to left: the path runs against the member
+        f.add_member(b, a, SEC, id="B")
+    else:
+        f.add_member(a, b, SEC, id="B")
+    f.add_support(a, "pin")
+    f.add_support(b, "roller")
+    return f
+
+
+def two_spans(L: float) -> Frame:
+    f = Frame()
+    n = [f.add_node(i * L, 0.0) for i in range(3)]
+    f.add_member(n[0], n[1], SEC, id="S1")
+    f.add_member(n[1], n[2], SEC, id="S2")
+    f.add_support(n[0], "pin")
+    f.add_support(n[1], "roller")
+    f.add_support(n[2], "roller")
+    return f
+
+
+def test_single_moving_load_gives_pl_over_4_at_midspan():
+    # simple beam, concentrated load at centre: M_max = PL/4 (AISC beam
+    # diagrams, from memory); the largest shear is P with the load at a
+    # support (statics)
+    L, P = 12.0, 80e3
+    f = simple_span(L)
+    ml = MovingLoads(f, path_along_members(f, ["B"]))
+    env = ml.envelope(Vehicle((P,)), step=0.25)["B"]
+    g = env.governing("M_max")
+    assert g["value"] == pytest.approx(P * L / 4, rel=1e-9)
+    assert g["x"] == pytest.approx(L / 2) and g["front"] == pytest.approx(L / 2)
+    assert env.governing("V_max")["value"] == pytest.approx(P, rel=1e-9)
+    assert env.governing("V_min")["value"] == pytest.approx(-P, rel=1e-9)
+    # a downward load never hogs a simple span
+    assert env.governing("M_min")["value"] == pytest.approx(0.0, abs=1e-6 * P * L)
+
+
+@pytest.mark.parametrize("reverse", [False, True])
+def test_two_axles_absolute_maximum_moment_by_the_classical_rule(reverse):
+    # classical rule (any bridge engineering text, from memory): the
+    # absolute maximum moment occurs under the heavier axle when the span
+    # centre bisects the distance between it and the resultant.
+    # P1 = 100 kN, P2 = 50 kN, 4 m apart, span 20 m: the resultant R =
+    # 150 kN lies e = 50*4/150 = 4/3 m from P1; P1 then stands at x = L/2 -
+    # e/2 = 28/3 m, the left reaction is R (L/2 - e/2) / L = 70 kN and
+    # M = 70 * 28/3 = 653.33 kN*m (more than P1 alone at midspan, 500).
+    L, P1, P2, d = 20.0, 100e3, 50e3, 4.0
+    f = simple_span(L, reverse)
+    ml = MovingLoads(f, path_along_members(f, ["B"]))
+    env = ml.envelope(Vehicle((P1, P2), (d,)), step=1.0 / 3.0)["B"]
+    # sagging is M > 0 about the member's local y: negative for a member
+    # drawn right to left (its local y points down)
+    g = env.governing("M_min" if reverse else "M_max")
+    assert abs(g["value"]) == pytest.approx(70e3 * 28.0 / 3.0, rel=1e-9)
+    x_heavy = 28.0 / 3.0 if not reverse else L - 28.0 / 3.0  # member x runs from its start node
+    x_alt = L - x_heavy  # the mirror position (the vehicle the other way round)
+    assert min(abs(g["x"] - x_heavy), abs(g["x"] - x_alt)) < 1e-6
+
+
+def test_interior_reaction_influence_line_of_two_equal_spans():
+    # Mueller-Breslau: the influence line of R_B is the deflected shape
+    # for a unit lift at B.  Remove B: a simple span 2L with a unit load at
+    # x deflects at its centre x(3L^2 - x^2)/(12EI) (x <= L; simple-beam
+    # concentrated load, AISC beam diagrams, from memory) and a unit load
+    # at the centre deflects it L^3/(6EI), so R_B(x) = x(3L^2 - x^2)/(2L^3),
+    # symmetric about B.
+    L = 6.0
+    f = two_spans(L)
+    ml = MovingLoads(f, path_along_members(f, ["S1", "S2"]))
+    il = ml.influence_line("fy", support=1, step=0.25)
+    x = np.where(il.s <= L, il.s, 2 * L - il.s)
+    expected = x * (3 * L**2 - x**2) / (2 * L**3)
+    assert np.allclose(il.values, expected, atol=1e-9)
+    assert il.values.max() == pytest.approx(1.0)
+    assert np.allclose(il.xy[:, 0], il.s) and np.allclose(il.xy[:, 1], 0.0)
+
+
+def test_midspan_moment_influence_line_of_a_simple_span():
+    # simple beam, load at a: M at x0 = a (L - x0) / L for a <= x0, and
+    # x0 (L - a) / L beyond (statics; the triangle of any structures text)
+    L, x0 = 10.0, 4.0
+    f = simple_span(L)
+    ml = MovingLoads(f, path_along_members(f, ["B"]))
+    il = ml.influence_line("M", member="B", x=x0, step=0.5)
+    a = il.s
+    expected = np.where(a <= x0, a * (L - x0) / L, x0 * (L - a) / L)
+    assert np.allclose(il.values, expected, atol=1e-9)
+    # shear at x0 jumps by the unit load as it passes: -a/L before, 1 - a/L after
+    v_right = ml.influence_line("V", member="B", x=x0, step=0.5)
+    v_left = ml.influence_line("V", member="B", x=x0, step=0.5, side="left")
+    assert np.allclose(v_right.values, np.where(a <= x0, -a / L, 1 - a / L), atol=1e-9)
+    assert np.allclose(v_left.values, np.where(a < x0, -a / L, 1 - a / L), atol=1e-9)
+
+
+def test_polyline_path_over_two_members_matches_the_chain():
+    L = 6.0
+    f = two_spans(L)
+    by_chain = MovingLoads(f, path_along_members(f, ["S1", "S2"]))
+    by_points = MovingLoads(f, path_through_points(f, [(2 * L, 0.0), (0.0, 0.0)]))
+    a = by_chain.influence_line("fy", support=0, step=0.5)
+    b = by_points.influence_line("fy", support=0, step=0.5)
+    assert np.allclose(a.values, b.values[::-1], atol=1e-12)
+    # end support of two spans, unit load at x in span 1: moments about
+    # the far end give R_A = 1 - x/(2L) - R_B(x)/2 (statics with the
+    # Mueller-Breslau R_B above)
+    x = a.s[a.s <= L]
+    rb = x * (3 * L**2 - x**2) / (2 * L**3)
+    assert np.allclose(a.values[a.s <= L], 1 - x / (2 * L) - rb / 2, atol=1e-9)
+
+
+def test_bad_paths_are_refused():
+    f = two_spans(6.0)
+    with pytest.raises(LoadError):
+        path_along_members(f, ["S1", "nope"])
+    with pytest.raises(LoadError):
+        path_through_points(f, [(0.0, 0.0), (0.0, 5.0)])
+    g = Frame()
+    n = [g.add_node(0, 0), g.add_node(1, 0), g.add_node(5, 0), g.add_node(6, 0)]
+    g.add_member(n[0], n[1], SEC, id="A")
+    g.add_member(n[2], n[3], SEC, id="C")
+    with pytest.raises(LoadError):
+        path_along_members(g, ["A", "C"])
+    with pytest.raises(ValueError):
+        Vehicle((1.0, 2.0), ())
+
+
+def test_locate_point_on_a_member():
+    f = two_spans(6.0)
+    assert locate_point(f, 9.0, 0.0) == ("S2", pytest.approx(3.0))
+    with pytest.raises(LoadError):
+        locate_point(f, 3.0, 1.0)
+
+
+def test_hinged_beam_influence_lines_are_the_statics_of_its_parts():
+    # cantilever A-B (fixed at A, a = 4 m) carrying at an internal hinge B
+    # a suspended span B-C (roller at C, L = 10 m).  Statically determinate,
+    # so its influence lines are straight (Mueller-Breslau; statics): for a
+    # unit load at x, R_A = 1 and M_A = x (hogging) on A-B; on B-C the hinge
+    # passes (L - x)/(L - a) to the cantilever: R_A = (L - x)/(L - a), and
+    # M_A = a (L - x)/(L - a).
+    a, L = 4.0, 10.0
+    f = Frame()
+    n0, n1, n2 = f.add_node(0.0, 0.0), f.add_node(a, 0.0), f.add_node(L, 0.0)
+    f.add_member(n0, n1, SEC, id="AB", release_end=True)
+    f.add_member(n1, n2, SEC, id="BC")
+    f.add_support(n0, "fixed")
+    f.add_support(n2, "roller")
+    ml = MovingLoads(f, path_along_members(f, ["AB", "BC"]))
+    fy = ml.influence_line("fy", support=0, step=0.5)
+    mA = ml.influence_line("m", support=0, step=0.5)
+    x = fy.s
+    share = np.where(x <= a, 1.0, (L - x) / (L - a))
+    arm = np.where(x <= a, x, a)
+    assert np.allclose(fy.values, share, atol=1e-9)
+    # the support's reaction couple balances the load's moment about A:
+    # m = (unit load, downward) * lever arm, counter-clockwise positive
+    assert np.allclose(mA.values, share * arm, atol=1e-9)
+
+
+def test_unit_load_solutions_superpose_to_the_direct_solution():
+    # superposition (the frame is linear): a vehicle's effect at one
+    # placement equals a direct solve with its axles as point loads.  A
+    # property of the method, checked on an inclined, hinged, two-span
+    # frame with a column, where every unit-load path of the code is used.
+    from dxf2frame.solver import PointLoad, solve
+    f = Frame()
+    n = [f.add_node(0.0, 0.0), f.add_node(5.0, 1.0), f.add_node(11.0, 1.0), f.add_node(5.0, -3.0)]
+    f.add_member(n[0], n[1], SEC, id="R1", release_end=True)
+    f.add_member(n[1], n[2], SEC, id="R2")
+    f.add_member(n[3], n[1], SEC, id="COL")
+    f.add_support(n[0], "pin")
+    f.add_support(n[2], "roller", angle=0.3)
+    f.add_support(n[3], "fixed")
+    path = path_along_members(f, ["R1", "R2"])
+    ml = MovingLoads(f, path)
+    veh = Vehicle((60e3, 40e3), (2.5,))
+    front = 7.0
+    s = veh.axle_positions(front, +1)
+    sol = ml.unit_solutions(s)
+    for (j, a), P in zip(zip(*path.locate(s)), veh.loads):
+        f.add_load(PointLoad(f.members[j].id, float(a), py=-P, case="V"))
+    direct = solve(f)["V"]
+    by_units = sol.reactions @ np.asarray(veh.loads)
+    assert np.allclose(by_units, direct.reaction_array(), rtol=1e-9, atol=1e-6)
+    rows = np.array([0, 1, 1, 2])
+    xs = np.array([1.0, 0.5, 4.0, 2.0])
+    for q, name in (("N", "axial"), ("V", "shear"), ("M", "moment")):
+        got = sol.member_values(q, rows, xs) @ np.asarray(veh.loads)
+        want = [getattr(direct.members[f.members[r].id], name)(x) for r, x in zip(rows, xs)]
+        assert np.allclose(got, want, rtol=1e-9, atol=1e-6)
+
+
+def test_reaction_envelope_and_governing_axle_points():
+    # simple span L = 10 m, axles 100 + 50 kN 4 m apart: the largest left
+    # reaction puts the heavy axle on the support, the light one 4 m in:
+    # 100 + 50 * 6/10 = 130 kN (influence line of a simple-span reaction,
+    # statics)
+    L = 10.0
+    f = simple_span(L)
+    ml = MovingLoads(f, path_along_members(f, ["B"]))
+    veh = Vehicle((100e3, 50e3), (4.0,))
+    env = ml.reaction_envelope(veh, step=0.5)
+    left = env[0]
+    assert left["fy_max"] == pytest.approx(130e3, rel=1e-9)
+    assert left["fy_min"] == pytest.approx(0.0, abs=1e-6)
+    pts = ml.axle_points(veh, left["fy_max_front"], left["fy_max_direction"])
+    assert sorted(pts[:, 0].round(9).tolist()) == [0.0, 4.0]
+    assert np.allclose(pts[:, 1], 0.0)
+
+
+def test_two_span_hogging_envelope_by_the_three_moment_equation():
+    # two equal spans L, unit load at x in span 1: the three-moment equation
+    # gives the support moment M_B = -x (L^2 - x^2) / (4 L^2) (from memory),
+    # largest at x = L / sqrt(3): |M_B| = L / (6 sqrt(3)) = 0.0962 L per unit
+    # load.  One moving load P: the envelope's hogging at B is that times P
+    # (the stations fall within L/600 of the peak, where the curve is flat).
+    L, P = 6.0, 10e3
+    f = two_spans(L)
+    ml = MovingLoads(f, path_along_members(f, ["S1", "S2"]))
+    env = ml.envelope(Vehicle((P,)), step=L / 600)
+    g = env["S1"].governing("M_min")
+    assert g["x"] == pytest.approx(L)
+    assert g["value"] == pytest.approx(-P * L / (6 * np.sqrt(3)), rel=1e-5)
+    # the influence line itself, at the stations
+    il = ml.influence_line("M", member="S1", x=L, step=0.5)
+    x = il.s[il.s <= L]
+    assert np.allclose(il.values[il.s <= L], -x * (L**2 - x**2) / (4 * L**2), atol=1e-9)

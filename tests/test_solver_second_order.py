@@ -1,0 +1,284 @@
+"""Second-order analysis: elastic critical load factor and P-Delta.
+
+Every numeric check is against a closed-form result named beside it
+(Euler buckling loads, effective lengths, the exact beam-column solution
+of a cantilever), never against a number the code produced.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from dxf2frame.solver import (
+    ALPHA_CR_LIMIT,
+    BucklingError,
+    BucklingResult,
+    Frame,
+    NodalLoad,
+    PointLoad,
+    Section,
+    SecondOrderResult,
+    critical_load_factor,
+    second_order,
+    solve,
+)
+
+E, A, I = 200e9, 5e-3, 8e-5     # Pa, m^2, m^4 (a mid-size steel column)
+EI = E * I
+
+
+def column(h: float, base: str, top: str | None, P: float, H: float = 0.0, case: str = "D"):
+    """A vertical column of height h [m] with axial load P [N] (downward)
+    and lateral load H [N] at the top."""
+    f = Frame()
+    a, b = f.add_node(0.0, 0.0), f.add_node(0.0, h)
+    f.add_member(a, b, Section(E, A, I), id="C")
+    f.add_support(a, base)
+    if top is not None:  # a roller guiding the top vertically (rolls along global Y)
+        f.add_support(b, top, angle=math.pi / 2)
+    f.add_load(NodalLoad(b, fx=H, fy=-P, case=case))
+    return f
+
+
+@pytest.mark.parametrize("pieces", [4, 8])
+def test_pinned_column_euler_load(pieces):
+    # Euler: Pcr = pi^2 EI / L^2 for a pin-ended column (any strength of
+    # materials text, from memory)
+    h, P = 6.0, 100e3
+    res = critical_load_factor(column(h, "pin", "roller", P), "D", subdivisions=pieces)
+    assert isinstance(res, BucklingResult)
+    assert res.alpha_cr * P == pytest.approx(math.pi**2 * EI / h**2, rel=0.01)
+
+
+def test_cantilever_column_euler_load():
+    # Euler: Pcr = pi^2 EI / (4 L^2) for a column fixed at the base, free at
+    # the top (effective length 2L; from memory)
+    h, P = 4.0, 50e3
+    res = critical_load_factor(column(h, "fixed", None, P), "D")
+    assert res.alpha_cr * P == pytest.approx(math.pi**2 * EI / (4 * h**2), rel=0.01)
+    # the buckled shape leans the top sideways, with the base held
+    assert abs(res.shape[1, 0]) == pytest.approx(1.0)
+    assert np.allclose(res.shape[0, :2], 0.0)
+    # and along the member it follows 1 - cos(pi x / 2L) (the Euler mode)
+    x = res.member_points[0]
+    ux = res.member_shape[0, :, 0] / res.member_shape[0, -1, 0]
+    assert np.allclose(ux, 1 - np.cos(np.pi * x / (2 * h)), atol=0.01)
+
+
+def test_pinned_truss_strut_buckles_between_its_pins():
+    # a member pinned at both ends (released end moments) still buckles at
+    # its Euler load: the releases must not remove its bending stiffness
+    # (pi^2 EI / L^2, from memory)
+    f = Frame()
+    a, b = f.add_node(0.0, 0.0), f.add_node(5.0, 0.0)
+    f.add_member(a, b, Section(E, A, I), release_start=True, release_end=True)
+    f.add_support(a, "pin")
+    f.add_support(b, "roller")
+    f.add_load(NodalLoad(b, fx=-10e3, case="D"))
+    res = critical_load_factor(f, "D")
+    assert res.alpha_cr * 10e3 == pytest.approx(math.pi**2 * EI / 25.0, rel=0.01)
+
+
+def _portal(h: float, span: float, base: str, P: float, H: float = 0.0):
+    """Portal frame with a practically rigid beam (I 1e5 times the
+    columns'), axial load P [N] on each column top, H at the left top."""
+    f = Frame()
+    n0, n1 = f.add_node(0.0, 0.0), f.add_node(0.0, h)
+    n2, n3 = f.add_node(span, h), f.add_node(span, 0.0)
+    col, beam = Section(E, A, I), Section(E, 100 * A, 1e5 * I)
+    f.add_member(n0, n1, col, id="CL")
+    f.add_member(n1, n2, beam, id="B")
+    f.add_member(n3, n2, col, id="CR")
+    f.add_support(n0, base)
+    f.add_support(n3, base)
+    f.add_load(NodalLoad(n1, fx=H, fy=-P, case="D"))
+    f.add_load(NodalLoad(n2, fy=-P, case="D"))
+    return f
+
+
+def test_fixed_base_sway_portal_with_rigid_beam():
+    # each column is fixed at the base and, through the rigid beam, held
+    # against rotation but free to sway at the top (fixed-guided): effective
+    # length K = 1, Pcr = pi^2 EI / h^2 per column (effective-length chart
+    # of sway frames, G_top = 0, G_base = 0; from memory)
+    h, P = 5.0, 200e3
+    res = critical_load_factor(_portal(h, 8.0, "fixed", P), "D")
+    assert res.alpha_cr * P == pytest.approx(math.pi**2 * EI / h**2, rel=0.01)
+    # sway mode: both column tops move sideways together
+    assert res.shape[1, 0] == pytest.approx(res.shape[2, 0], rel=1e-3)
+
+
+def test_pinned_base_sway_portal_with_rigid_beam():
+    # pinned base, rotation held at the top, free to sway: K = 2, so
+    # Pcr = pi^2 EI / (2h)^2 per column (sway-frame effective-length chart,
+    # G_top = 0, G_base = infinity; from memory)
+    h, P = 5.0, 50e3
+    res = critical_load_factor(_portal(h, 8.0, "pin", P), "D")
+    assert res.alpha_cr * P == pytest.approx(math.pi**2 * EI / (2 * h) ** 2, rel=0.01)
+
+
+def test_first_order_criterion_reported():
+    # alpha_cr >= 10 for first-order analysis to suffice (EN 1993-1-1
+    # 5.2.1(3), from memory; common practice)
+    assert ALPHA_CR_LIMIT == 10.0
+    h = 6.0
+    pcr = math.pi**2 * EI / h**2
+    light = critical_load_factor(column(h, "pin", "roller", pcr / 20), "D")
+    heavy = critical_load_factor(column(h, "pin", "roller", pcr / 5), "D")
+    assert light.first_order_ok and not heavy.first_order_ok
+    assert "alpha_cr >= 10" in light.criterion
+
+
+def test_combination_at_or_over_the_critical_load_raises_naming_it():
+    h = 6.0
+    pcr = math.pi**2 * EI / h**2
+    f = column(h, "pin", "roller", 0.8 * pcr)
+    with pytest.raises(BucklingError) as ei:
+        critical_load_factor(f, {"D": 1.5}, name="1.5D")
+    assert ei.value.combination == "1.5D" and "1.5D" in str(ei.value)
+    with pytest.raises(BucklingError):
+        second_order(f, {"D": 1.5}, name="1.5D")
+    # asked not to raise, it still reports the factor: 1/(0.8*1.5) of the load
+    res = critical_load_factor(f, {"D": 1.5}, raise_if_buckles=False)
+    assert res.buckles and res.alpha_cr == pytest.approx(1 / 1.2, rel=0.01)
+
+
+def test_tension_only_frame_has_no_critical_load():
+    f = column(4.0, "fixed", None, -100e3)  # pulled, not pushed
+    res = critical_load_factor(f, "D")
+    assert math.isinf(res.alpha_cr) and res.first_order_ok
+
+
+@pytest.mark.parametrize("ratio", [0.2, 0.5, 0.8])
+def test_cantilever_beam_column_moment_amplification(ratio):
+    # exact beam-column solution of a cantilever with axial P and tip
+    # lateral H (Timoshenko and Gere, Theory of Elastic Stability, from
+    # memory): base moment M = H tan(kL) / k, k = sqrt(P / EI), i.e. the
+    # first-order moment H L amplified by tan(kL) / (kL)
+    h, H = 4.0, 5e3
+    P = ratio * math.pi**2 * EI / (4 * h**2)
+    res = second_order(column(h, "fixed", None, P, H), "D", name="P+H")
+    assert isinstance(res, SecondOrderResult)
+    k = math.sqrt(P / EI)
+    exact = H * math.tan(k * h) / k
+    assert abs(res.result.reactions[0].m) == pytest.approx(exact, rel=0.01)
+    assert abs(res.result.members["C"].moment(0.0)) == pytest.approx(exact, rel=0.01)
+    # the diagram runs from that base moment to zero at the free tip
+    assert res.result.members["C"].moment(h) == pytest.approx(0.0, abs=1e-6 * exact)
+    # tip deflection, exact: H (tan(kL) - kL) / (P k) (same source, from memory)
+    assert res.result.displacements[1, 0] == pytest.approx(H * (math.tan(k * h) - k * h) / (P * k), rel=0.01)
+    # the first-order companion is plain statics: M = H L
+    assert abs(res.first_order.reactions[0].m) == pytest.approx(H * h, rel=1e-9)
+    # the storey report carries the same amplification
+    (st,) = res.storeys
+    assert st.moment_ratio == pytest.approx(math.tan(k * h) / (k * h), rel=0.01)
+    assert res.alpha_cr == pytest.approx(1 / ratio, rel=0.01)
+
+
+def test_p_delta_keeps_global_equilibrium_of_horizontal_forces():
+    # P-Delta changes moments, not the storey shear: the horizontal
+    # reactions still balance the applied lateral load (statics)
+    h, P, H = 5.0, 300e3, 20e3
+    res = second_order(_portal(h, 8.0, "fixed", P, H), "D")
+    assert sum(r.fx for r in res.result.reactions) == pytest.approx(-H, rel=1e-6)
+    assert sum(r.fy for r in res.result.reactions) == pytest.approx(2 * P, rel=1e-6)
+    # sway amplification of the storey: about 1 / (1 - 1/alpha_cr) for a
+    # sway frame (amplification factor of EN 1993-1-1 5.2.2(5), from memory;
+    # common practice; within 3 % here)
+    (st,) = [s for s in res.storeys if s.level == pytest.approx(h)]
+    assert st.drift_ratio == pytest.approx(1 / (1 - 1 / res.alpha_cr), rel=0.03)
+    assert set(st.members) == {"CL", "CR"}
+
+
+def test_second_order_result_looks_like_a_first_order_one():
+    f = _portal(5.0, 8.0, "fixed", 100e3, 10e3)
+    f.add_load(PointLoad("B", 4.0, py=-30e3, case="L"))
+    res = second_order(f, "1.2D + 1.6L", family="LRFD")
+    first = solve(f)
+    r = res.result
+    assert r.kind == "combination" and r.family == "LRFD" and r.factors == {"D": 1.2, "L": 1.6}
+    assert set(r.members) == {"CL", "B", "CR"}
+    assert r.displacements.shape == (4, 3)
+    assert len(r.reactions) == len(first["D"].reactions)
+    # with alpha_cr large the second order stays close to the first order
+    # combination (a check of the plumbing, not of a number)
+    lin = first["D"].scaled(1.2) + first["L"].scaled(1.6)
+    assert res.alpha_cr > 10
+    assert np.allclose(r.reaction_array(), lin.reaction_array(), rtol=0.05, atol=1e-6 * 130e3)
+
+
+@pytest.mark.parametrize("hinge", ["pin support", "member release"])
+def test_pinned_base_portal_p_delta_against_the_beam_column_solution(hinge):
+    # Pinned-base portal, rigid beam, equal axial load P on each column and
+    # a lateral load H: by symmetry each column carries H/2 and is a
+    # cantilever of height h held against rotation at the top, free to
+    # sway at the pinned base.  Exact beam-column result (Timoshenko and
+    # Gere, from memory): top moment (H/2) tan(kh)/k, k = sqrt(P/EI); and
+    # alpha_cr = Pcr/P with Pcr = pi^2 EI/(2h)^2 (K = 2, as above).
+    h, span, H = 5.0, 8.0, 10e3
+    P = 0.4 * math.pi**2 * EI / (2 * h) ** 2
+    if hinge == "pin support":
+        f = _portal(h, span, "pin", P, H)
+    else:  # fixed supports, the columns hinged to them by a member release
+        f = _portal(h, span, "fixed", P, H)
+        f.members[0].release_start = True
+        f.members[2].release_start = True
+    res = second_order(f, "D")
+    k = math.sqrt(P / EI)
+    exact = 0.5 * H * math.tan(k * h) / k
+    for cid in ("CL", "CR"):
+        assert abs(res.result.members[cid].moment(h)) == pytest.approx(exact, rel=0.01)
+        assert abs(res.result.members[cid].moment(0.0)) == pytest.approx(0.0, abs=1e-6 * exact)
+    assert res.alpha_cr == pytest.approx(1 / 0.4, rel=0.01)
+    assert not res.first_order_ok
+
+
+def test_many_combinations_each_its_own_analysis():
+    # alpha_cr scales inversely with the load factor (the eigenproblem is
+    # linear in the load): 1.0D and 2.0D of a pinned column give Pcr/P and
+    # Pcr/(2P) (Euler, from memory)
+    from dxf2frame.solver import critical_load_factors, second_order_many
+    h, P = 6.0, 100e3
+    pcr = math.pi**2 * EI / h**2
+    f = column(h, "pin", "roller", P)
+    res = critical_load_factors(f, {"1.0D": "1.0D", "2.0D": {"D": 2.0}})
+    assert list(res) == ["1.0D", "2.0D"]
+    assert res["1.0D"].alpha_cr == pytest.approx(pcr / P, rel=0.01)
+    assert res["2.0D"].alpha_cr == pytest.approx(pcr / (2 * P), rel=0.01)
+    g = column(4.0, "fixed", None, 200e3, 5e3)
+    pd = second_order_many(g, [("a", {"D": 1.0}), ("b", {"D": 1.5})])
+    for name, fac in (("a", 1.0), ("b", 1.5)):
+        # Timoshenko and Gere as above, with P and H both scaled by fac
+        k = math.sqrt(fac * 200e3 / EI)
+        exact = fac * 5e3 * math.tan(k * 4.0) / k
+        assert abs(pd[name].result.reactions[0].m) == pytest.approx(exact, rel=0.01)
+        assert pd[name].name == name
+
+
+def test_p_delta_that_does_not_converge_says_so():
+    from dxf2frame.solver import ConvergenceError
+    f = _portal(5.0, 8.0, "fixed", 300e3, 20e3)
+    with pytest.raises(ConvergenceError) as ei:
+        second_order(f, "D", name="W1", tol=1e-15, max_iterations=1)
+    assert ei.value.combination == "W1" and "W1" in str(ei.value)
+
+
+@pytest.mark.parametrize("ratio", [0.3, 0.6])
+def test_member_bow_in_the_detailed_result(ratio):
+    # pin-ended beam-column, axial P and uniform lateral q: exact midspan
+    # moment M = (q / k^2) (sec(kL/2) - 1), k = sqrt(P/EI) (Timoshenko and
+    # Gere, from memory), against qL^2/8 at first order.  The member's own
+    # bow is carried by the subdivided result at its subdivision points.
+    from dxf2frame.solver import DistributedLoad
+    L, q = 6.0, 2e3
+    P = ratio * math.pi**2 * EI / L**2
+    f = column(L, "pin", "roller", P)
+    f.add_load(DistributedLoad("C", q1=(q, 0.0), case="D"))
+    res = second_order(f, "D")
+    k = math.sqrt(P / EI)
+    exact = q / k**2 * (1 / math.cos(k * L / 2) - 1)
+    mid = res.detail.members["C#2"].moment(0.0)    # 4 pieces: C#2 starts at midspan
+    assert abs(mid) == pytest.approx(exact, rel=0.01)
+    assert abs(res.first_order.members["C"].moment(L / 2)) == pytest.approx(q * L**2 / 8, rel=1e-9)
