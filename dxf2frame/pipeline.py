@@ -451,88 +451,18 @@ def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
 
 
 def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
-    """:func:`solve_file` with the collector paused."""
-    from .report import report as report_mod  # writers are imported lazily: check-only runs stay light
-    from .draw import writer  # the preview (matplotlib) is imported only when a PNG is asked for
-
+    """:func:`solve_file` with the collector paused: prepare (every check of
+    bad input before anything is written), write the output set, record the
+    outcome; every failure becomes the outcome's status."""
     source = Path(source)
     t_start = time.perf_counter()
     outcome = FileOutcome(source=str(source), status="ok", exit_code=EXIT_OK)
     done = False
     try:
-        settings = load_settings(req.settings_path, source)
-        paths = output_paths(source, req)
-        check_outputs(source, paths)
-        analysis = analyse(source, settings, length_unit=req.length_unit)
-        model, det = analysis.model, analysis.determinacy
-        outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
-        if req.strict and outcome.warnings:
-            raise Dxf2FrameError(strict_message(outcome.warnings))
-        force_u, length_u = req.units or (settings.force_unit, model.length_unit)
-        outcome.units = (force_u, length_u)
-        outcome.determinacy, outcome.degree = det.status, det.degree
-
-        if req.probes and analysis.results:
-            # a probe off every member is bad input: say so before anything is written
-            report_mod.locate_points(model, req.probes)
-        final = paths["drawing"].parent
-        what = f"the results of {source.name}"
-        # everything is written into a staging folder first and the whole set
-        # is swapped in at the end (staging.OutputSet): a failure leaves the
-        # previous set of outputs complete and unchanged, or nothing
-        with OutputSet(final, what=what) as out_set, writing(what, final):
-            staged = {k: out_set.staged(p.name) for k, p in paths.items()}
-            t0 = time.perf_counter()
-            show = req.show or settings.combinations_draw
-            if analysis.stable:
-                writer.write_result_drawing(
-                    source, staged["drawing"], model, det, analysis.results, show=show,
-                    layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
-                    document=analysis.document,
-                )
-            else:
-                writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,
-                                               document=analysis.document)
-            analysis.timings["write"] = time.perf_counter() - t0
-            # the report after the drawing: the writer's working arrays are
-            # gone by then, so the two never hold memory at the same time
-            t0 = time.perf_counter()
-            rep = report_mod.assemble_report(
-                model, det, analysis.results, force_unit=force_u, length_unit=length_u,
-                probes=req.probes, deflection_limits=settings.deflection_limits(),
-            )
-            with_csv = req.csv and analysis.stable
-            report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
-            analysis.timings["report"] = time.perf_counter() - t0
-            written = ["drawing", "report"] + (["csv"] if with_csv else [])
-            if req.png:
-                t0 = time.perf_counter()
-                drawn = _try_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u,
-                                     outcome.warnings)
-                analysis.timings["png"] = time.perf_counter() - t0
-                if drawn:
-                    written.append("png")
-            if req.sheets and analysis.stable:
-                from .handcheck import sheets as handcheck
-
-                sheet_dir = out_set.staged(f"{paths['drawing'].stem}-sheets")
-                handcheck.write_sheets(analysis, sheet_dir, points=req.probes,
-                                       force_unit=force_u, length_unit=length_u)
-                written.append("sheets")
-                paths["sheets"] = final / sheet_dir.name
-                staged["sheets"] = sheet_dir
-            governing = _governing(rep) if analysis.stable else {}
-            committed = out_set.commit({staged[k]: paths[k] for k in written})
+        run = _prepare(source, req, outcome)
+        committed, governing = _write_outputs(run, req, outcome)
         outcome.outputs = [str(t) for t in committed]
-
-        outcome.timings = analysis.timings
-        if not analysis.stable:
-            outcome.status, outcome.exit_code = "unstable", EXIT_UNSTABLE
-            outcome.message = one_line(det.detail)
-        else:
-            for k, v in governing.items():
-                setattr(outcome, k, v)
-            outcome.message = f"{det.status}" + (f", degree {det.degree}" if det.degree else "")
+        _record(outcome, run.analysis, governing)
         done = True
     except CannotWriteError as exc:
         outcome.status, outcome.exit_code, outcome.message = "cannot write", EXIT_CANNOT_WRITE, one_line(str(exc))
@@ -547,3 +477,109 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             outcome.outputs = []
     outcome.seconds = time.perf_counter() - t_start
     return outcome
+
+
+@dataclass
+class _Run:
+    """One drawing ready to be written: its analysis, output paths and units."""
+
+    source: Path
+    settings: Settings
+    paths: dict[str, Path]
+    analysis: Analysis
+    force_unit: str
+    length_unit: str
+
+
+def _prepare(source: Path, req: SolveRequest, outcome: FileOutcome) -> _Run:
+    """Settings, output paths, the analysis and every refusal that must come
+    before a file is written (strict warnings, probes off every member)."""
+    from .report import report as report_mod  # imported lazily: check-only runs stay light
+
+    settings = load_settings(req.settings_path, source)
+    paths = output_paths(source, req)
+    check_outputs(source, paths)
+    analysis = analyse(source, settings, length_unit=req.length_unit)
+    model, det = analysis.model, analysis.determinacy
+    outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
+    if req.strict and outcome.warnings:
+        raise Dxf2FrameError(strict_message(outcome.warnings))
+    force_u, length_u = req.units or (settings.force_unit, model.length_unit)
+    outcome.units = (force_u, length_u)
+    outcome.determinacy, outcome.degree = det.status, det.degree
+    if req.probes and analysis.results:
+        # a probe off every member is bad input: say so before anything is written
+        report_mod.locate_points(model, req.probes)
+    return _Run(source, settings, paths, analysis, force_u, length_u)
+
+
+def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[list[Path], dict]:
+    """Drawing, report (and CSV), preview and sheets into a staging folder,
+    then the whole set swapped in (:class:`~dxf2frame.staging.OutputSet`): a
+    failure leaves the previous set of outputs complete and unchanged, or
+    nothing.  Returns the files committed and the governing values."""
+    from .draw import writer  # the preview (matplotlib) is imported only when a PNG is asked for
+    from .report import report as report_mod
+
+    source, settings, paths, analysis = run.source, run.settings, run.paths, run.analysis
+    model, det = analysis.model, analysis.determinacy
+    force_u, length_u = run.force_unit, run.length_unit
+    final = paths["drawing"].parent
+    what = f"the results of {source.name}"
+    with OutputSet(final, what=what) as out_set, writing(what, final):
+        staged = {k: out_set.staged(p.name) for k, p in paths.items()}
+        t0 = time.perf_counter()
+        show = req.show or settings.combinations_draw
+        if analysis.stable:
+            writer.write_result_drawing(
+                source, staged["drawing"], model, det, analysis.results, show=show,
+                layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
+                document=analysis.document,
+            )
+        else:
+            writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,
+                                           document=analysis.document)
+        analysis.timings["write"] = time.perf_counter() - t0
+        # the report after the drawing: the writer's working arrays are
+        # gone by then, so the two never hold memory at the same time
+        t0 = time.perf_counter()
+        rep = report_mod.assemble_report(
+            model, det, analysis.results, force_unit=force_u, length_unit=length_u,
+            probes=req.probes, deflection_limits=settings.deflection_limits(),
+        )
+        with_csv = req.csv and analysis.stable
+        report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
+        analysis.timings["report"] = time.perf_counter() - t0
+        written = ["drawing", "report"] + (["csv"] if with_csv else [])
+        if req.png:
+            t0 = time.perf_counter()
+            drawn = _try_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u,
+                                 outcome.warnings)
+            analysis.timings["png"] = time.perf_counter() - t0
+            if drawn:
+                written.append("png")
+        if req.sheets and analysis.stable:
+            from .handcheck import sheets as handcheck
+
+            sheet_dir = out_set.staged(f"{paths['drawing'].stem}-sheets")
+            handcheck.write_sheets(analysis, sheet_dir, points=req.probes,
+                                   force_unit=force_u, length_unit=length_u)
+            written.append("sheets")
+            paths["sheets"] = final / sheet_dir.name
+            staged["sheets"] = sheet_dir
+        governing = _governing(rep) if analysis.stable else {}
+        committed = out_set.commit({staged[k]: paths[k] for k in written})
+    return committed, governing
+
+
+def _record(outcome: FileOutcome, analysis: Analysis, governing: dict) -> None:
+    """Status, message, timings and governing values of a finished run."""
+    det = analysis.determinacy
+    outcome.timings = analysis.timings
+    if not analysis.stable:
+        outcome.status, outcome.exit_code = "unstable", EXIT_UNSTABLE
+        outcome.message = one_line(det.detail)
+    else:
+        for k, v in governing.items():
+            setattr(outcome, k, v)
+        outcome.message = f"{det.status}" + (f", degree {det.degree}" if det.degree else "")
