@@ -345,10 +345,28 @@ def _remap(data: Mapping[str, Any], key: str, names, path: str, *, allowed: set[
 
 
 def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
+    """Settings from the parsed TOML ``data``, table by table in the order of
+    the file's documentation; the first problem is a SettingsError naming
+    ``path`` and the key."""
     _check_keys(data, _TOP_KEYS, "", path)
     kw: dict[str, Any] = {"source": source}
+    kw.update(_read_units(data, path))
+    kw.update(_read_geometry(data, path))
+    kw.update(_read_limits(data, path))
+    kw.update(_read_layers(data, path))
+    kw.update(_read_output_layers(data, path, kw["layers"]))
+    kw.update(_read_sections(data, path))
+    kw.update(_read_cases(data, path))
+    kw.update(_read_analysis(data, path))
+    kw.update(_read_combinations(data, path))
+    kw.update(_read_deflection(data, path))
+    kw.update(_read_compare(data, path))
+    return Settings(**kw)
 
-    # [units]
+
+def _read_units(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """[units]: the force unit of bare numbers and the drawing unit when the header has none."""
+    kw: dict[str, Any] = {}
     u = _table(data, "units", path)
     _check_keys(u, {"force", "length"}, "units", path)
     if "force" in u:
@@ -363,8 +381,12 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
             kw["length_unit"] = normalise_length_unit(_str(u["length"], "units.length", path))
         except UnitError as exc:
             raise SettingsError(exc.message, path=path, key="units.length") from None
+    return kw
 
-    # [geometry]
+
+def _read_geometry(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """[geometry]: snap tolerance, arc chords, layers whose crossings stay separate."""
+    kw: dict[str, Any] = {}
     g = _table(data, "geometry", path)
     _check_keys(g, {"snap", "arc_segments", "unjoined_layers"}, "geometry", path)
     if "unjoined_layers" in g:
@@ -391,8 +413,12 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
         if isinstance(n, bool) or not isinstance(n, int) or n < 0 or n > 10_000:
             raise SettingsError(f"must be an integer 0..10000, got {n!r}", path=path, key="geometry.arc_segments")
         kw["arc_segments"] = n
+    return kw
 
-    # [limits]
+
+def _read_limits(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """[limits]: the sizes a drawing may have."""
+    kw: dict[str, Any] = {}
     lim = _table(data, "limits", path)
     _check_keys(lim, {"max_file_mb", "max_entities", "max_attribute_chars"}, "limits", path)
     if "max_file_mb" in lim:
@@ -404,8 +430,12 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
         if isinstance(n, bool) or not isinstance(n, int) or n < 1:
             raise SettingsError(f"must be an integer >= 1, got {n!r}", path=path, key="limits.max_attribute_chars")
         kw["max_attribute_chars"] = n
+    return kw
 
-    # [layers]
+
+def _read_layers(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """[layers], [blocks], [attributes]: the convention's input names, remapped one to one."""
+    kw: dict[str, Any] = {}
     lay = _table(data, "layers", path)
     _check_keys(lay, set(_DEFAULT_LAYERS), "layers", path)
     layers = dict(_DEFAULT_LAYERS)
@@ -420,8 +450,12 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
                               what="block name(s) {} used for two kinds"))
     kw["attributes"] = _ro(_remap(data, "attributes", ATTRIBUTE_TAGS, path, allowed=set(ATTRIBUTE_TAGS),
                                   what="tag(s) {} used for two attributes"))
+    return kw
 
-    # [output_layers]
+
+def _read_output_layers(data: Mapping[str, Any], path: str, layers: Mapping[str, str]) -> dict[str, Any]:
+    """[output_layers]: result layer names, none on an input layer."""
+    kw: dict[str, Any] = {}
     ol = _table(data, "output_layers", path)
     _check_keys(ol, set(OUTPUT_LAYER_KEYS), "output_layers", path)
     outs = dict(DEFAULT_OUTPUT_LAYERS)
@@ -432,8 +466,12 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
         if v.upper() in inputs or v.upper().startswith(layers["frame"].upper() + "-"):
             raise SettingsError(f"result layer {v!r} clashes with an input layer", path=path, key=f"output_layers.{k}")
     kw["output_layers"] = _ro(outs)
+    return kw
 
-    # [sections]
+
+def _read_sections(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """[sections]: E, A, I per member layer, [sections.default] filling the gaps."""
+    kw: dict[str, Any] = {}
     sec = _table(data, "sections", path)
     raw: dict[str, Mapping[str, Any]] = {}
     for name, tab in sec.items():
@@ -467,8 +505,12 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
             raise SettingsError("must be a string", path=path, key=f"sections.{name}.name")
         sections[name] = Section(E=vals["E"], A=vals["A"], I=vals["I"], name=label)
     kw["sections"] = _ro(sections)
+    return kw
 
-    # [cases]
+
+def _read_cases(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """[cases]: office case names onto the standard case letters."""
+    kw: dict[str, Any] = {}
     ca = _table(data, "cases", path)
     standard = {c.upper(): c for c in STANDARD_CASES}
     cases: dict[str, str] = {}
@@ -481,8 +523,12 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
             )
         cases[str(k).strip().upper()] = standard[target.upper()]
     kw["cases"] = _ro(cases)
+    return kw
 
-    # [analysis]
+
+def _read_analysis(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """[analysis]: what an indeterminate frame without sections gets."""
+    kw: dict[str, Any] = {}
     an = _table(data, "analysis", path)
     _check_keys(an, {"missing_sections"}, "analysis", path)
     if "missing_sections" in an:
@@ -491,8 +537,12 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
             raise SettingsError(f"must be one of {', '.join(MISSING_SECTIONS_CHOICES)}, got {an['missing_sections']!r}",
                                 path=path, key="analysis.missing_sections")
         kw["missing_sections"] = ms
+    return kw
 
-    # [combinations]
+
+def _read_combinations(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """[combinations]: built-in sets, own formulas, what is drawn."""
+    kw: dict[str, Any] = {}
     co = _table(data, "combinations", path)
     _check_keys(co, {"builtin", "extra", "draw"}, "combinations", path)
     if "builtin" in co:
@@ -510,8 +560,12 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
         kw["combinations_extra"] = tuple(x.strip() for x in e)
     if "draw" in co:
         kw["combinations_draw"] = _str(co["draw"], "combinations.draw", path)
+    return kw
 
-    # [deflection]
+
+def _read_deflection(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """[deflection]: span/limit, per layer."""
+    kw: dict[str, Any] = {}
     de = _table(data, "deflection", path)
     _check_keys(de, {"limit", "layers"}, "deflection", path)
     if "limit" in de:
@@ -523,14 +577,17 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
         kw["deflection_layers"] = _ro(
             {str(k).upper(): _number(v, f"deflection.layers.{k}", path) for k, v in dl.items()}
         )
+    return kw
 
-    # [compare]
+
+def _read_compare(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """[compare]: the threshold of a flagged change."""
+    kw: dict[str, Any] = {}
     cp = _table(data, "compare", path)
     _check_keys(cp, {"threshold"}, "compare", path)
     if "threshold" in cp:
         kw["compare_threshold"] = _number(cp["threshold"], "compare.threshold", path, allow_zero=True)
-
-    return Settings(**kw)
+    return kw
 
 
 def load_settings(path: Path | str | None = None, drawing: Path | str | None = None) -> Settings:
