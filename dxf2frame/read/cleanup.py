@@ -356,8 +356,32 @@ def build_frame(
     units = _Units(*unit)
     section_for = section_for or (lambda layer: None)
     warnings: list[str] = []
+    segs = _drop_zero_length(segments, tol, warnings)
+    crossovers = [c for c in connections if c.kind == "crossover"]
+    connections = [c for c in connections if c.kind != "crossover"]
+    # crossings: joined unless unjoined layers or a CROSSOVER say otherwise
+    cross_xy, crossings_separate = _joined_crossings(
+        segs, tol, {x.upper() for x in unjoined_layers}, crossovers, connections, units, warnings)
+    sn = _snap(segs, supports, connections, cross_xy, tol, warnings)
+    splits, hinge_only = _split_points(sn, connections, tol)
+    kept = _drop_duplicates(_elements(sn, splits, hinge_only, tol), warnings)
+    frame, node_of = _assemble(kept, sn, supports, connections, section_for)
+    at = _Locator(frame, tol, units)
+    support_at = _add_supports(frame, supports, sn.sup_lab, node_of, at, warnings)
+    ends_at = _member_ends(frame)
+    _add_hinges(frame, connections, sn.con_lab, node_of, ends_at, at, warnings)
+    _check_every_part_supported(frame, support_at)
+    _add_loads(frame, loads, at, ends_at, warnings)
+    xy = at.node_xy
+    ext = (float(xy[:, 0].min()), float(xy[:, 1].min()), float(xy[:, 0].max()), float(xy[:, 1].max()))
+    return CleanResult(frame, warnings, ext, len(np.unique(sn.cross_lab)), crossings_separate)
 
-    # -- 1. zero-length -------------------------------------------------
+
+# -- the steps of build_frame ---------------------------------------------------------------
+
+
+def _drop_zero_length(segments: Sequence[Segment], tol: float, warnings: list[str]) -> list[Segment]:
+    """1. Members shorter than the snap tolerance are dropped (with a warning)."""
     segs: list[Segment] = []
     for s in segments:
         if math.hypot(s.p1[0] - s.p0[0], s.p1[1] - s.p0[1]) <= tol:
@@ -371,19 +395,29 @@ def build_frame(
             "the drawing has no members",
             hint="draw member centrelines as LINE or LWPOLYLINE on layer FRAME or FRAME-*",
         )
-    n = len(segs)
-    crossovers = [c for c in connections if c.kind == "crossover"]
-    connections = [c for c in connections if c.kind != "crossover"]
-    nsup, ncon = len(supports), len(connections)
+    return segs
 
-    # -- crossings: joined unless unjoined layers or a CROSSOVER say otherwise
-    cross_xy, crossings_separate = _joined_crossings(
-        segs, tol, {x.upper() for x in unjoined_layers}, crossovers, connections, units, warnings)
-    ncross = len(cross_xy)
 
-    # -- 2. snap ------------------------------------------------------------
-    # segment ends in drawing order (start, end of the first segment, ...), then
-    # support, connection and crossing points: a cluster keeps the first drawn point
+@dataclass
+class _Snapped:
+    """Every point snapped: ``pts`` holds the segment ends in drawing order,
+    then support, connection and crossing points; ``e0``/``e1`` label each
+    segment's ends, the other arrays the symbols' points."""
+
+    segs: list[Segment]
+    pts: np.ndarray
+    e0: np.ndarray
+    e1: np.ndarray
+    sup_lab: np.ndarray
+    con_lab: np.ndarray
+    cross_lab: np.ndarray
+
+
+def _snap(segs: list[Segment], supports: Sequence[SupportSpec], connections: Sequence[ConnectionSpec],
+          cross_xy, tol: float, warnings: list[str]) -> _Snapped:
+    """2. Snap: points closer than ``tol`` become one (a cluster keeps the
+    first drawn point); a segment whose ends snap together is dropped."""
+    n, nsup, ncon, ncross = len(segs), len(supports), len(connections), len(cross_xy)
     pts = np.empty((2 * n + nsup + ncon + ncross, 2))
     pts[0 : 2 * n : 2] = [s.p0 for s in segs]
     pts[1 : 2 * n : 2] = [s.p1 for s in segs]
@@ -395,28 +429,32 @@ def build_frame(
         pts[2 * n + nsup + ncon :] = cross_xy
     label = _cluster(pts, tol)
     e0, e1 = label[0 : 2 * n : 2].copy(), label[1 : 2 * n : 2].copy()
-    sup_lab = label[2 * n : 2 * n + nsup]
-    con_lab = label[2 * n + nsup : 2 * n + nsup + ncon]
-    cross_lab = label[2 * n + nsup + ncon :]
-
+    sn = _Snapped(segs, pts, e0, e1, label[2 * n : 2 * n + nsup], label[2 * n + nsup : 2 * n + nsup + ncon],
+                  label[2 * n + nsup + ncon :])
     collapsed = e0 == e1
     if collapsed.any():
         for i in np.flatnonzero(collapsed):
             s = segs[i]
             warnings.append(f"zero-length member #{s.handle} on layer '{s.layer}' dropped (its ends snap together)")
         keep = ~collapsed
-        segs = [s for s, k in zip(segs, keep) if k]
-        e0, e1 = e0[keep], e1[keep]
-        n = len(segs)
-        if n == 0:
+        sn.segs = [s for s, k in zip(segs, keep) if k]
+        sn.e0, sn.e1 = e0[keep], e1[keep]
+        if not sn.segs:
             raise GeometryError("the drawing has no members after snapping")
+    return sn
 
-    # -- 3. split points ----------------------------------------------------
+
+def _split_points(sn: _Snapped, connections: Sequence[ConnectionSpec], tol: float):
+    """3. Where each segment is split: every snapped point within ``tol`` of
+    its inside, in order along it.  Returns ``(splits, hinge_only)``:
+    segment -> labels, and whether a label is a hinge that only releases a
+    span (an internal pin: the member stays one reported member)."""
+    pts, e0, e1 = sn.pts, sn.e0, sn.e1
     endpoint_labels = np.unique(np.concatenate([e0, e1]))
-    joint_labels = {int(l) for l, c in zip(con_lab, connections) if c.kind == "joint"}
-    hinge_labels = {int(l) for l, c in zip(con_lab, connections) if c.kind == "hinge"}
-    support_labels = {int(l) for l in sup_lab}
-    cand = np.unique(np.concatenate([endpoint_labels, sup_lab, con_lab, cross_lab]).astype(np.int64))
+    joint_labels = {int(l) for l, c in zip(sn.con_lab, connections) if c.kind == "joint"}
+    hinge_labels = {int(l) for l, c in zip(sn.con_lab, connections) if c.kind == "hinge"}
+    support_labels = {int(l) for l in sn.sup_lab}
+    cand = np.unique(np.concatenate([endpoint_labels, sn.sup_lab, sn.con_lab, sn.cross_lab]).astype(np.int64))
     cand_xy = pts[cand]
 
     A, B = pts[e0], pts[e1]
@@ -452,17 +490,23 @@ def build_frame(
     for s_i, l_ in zip(si.tolist(), lab.tolist()):
         if not splits[s_i] or splits[s_i][-1] != l_:
             splits[s_i].append(l_)
+    return splits, hinge_only
 
-    # -- 4. pieces and ids ------------------------------------------------------
+
+def _elements(sn: _Snapped, splits: dict[int, list[int]], hinge_only: Callable[[int], bool],
+              tol: float) -> list[_Element]:
+    """4. Pieces and ids: ``<handle>-<k>`` along each drawn entity; a span
+    split only by a hinge gives elements ``<handle>-<k>a``, ``...b`` of one group."""
+    segs, pts = sn.segs, sn.pts
     first_seen: dict[str, int] = {}
     for i, s in enumerate(segs):
         first_seen.setdefault(s.handle, i)
-    seg_order = sorted(range(n), key=lambda i: (first_seen[segs[i].handle], segs[i].index, i))
+    seg_order = sorted(range(len(segs)), key=lambda i: (first_seen[segs[i].handle], segs[i].index, i))
     k_of_handle: dict[str, int] = defaultdict(int)
     elements: list[_Element] = []
     for i in seg_order:
         s = segs[i]
-        chain = [int(e0[i]), *splits.get(i, []), int(e1[i])]
+        chain = [int(sn.e0[i]), *splits.get(i, []), int(sn.e1[i])]
         # pieces: runs between non-hinge-only boundaries
         runs: list[list[int]] = [[chain[0]]]
         for lbl in chain[1:-1]:
@@ -484,8 +528,11 @@ def build_frame(
             for j, (a, b) in enumerate(zip(run[:-1], run[1:])):
                 suffix = string.ascii_lowercase[j] if j < 26 else f"_{j + 1}"
                 elements.append(_Element(gid + suffix, gid, a, b, s.handle, s.layer))
+    return elements
 
-    # -- 5. duplicates -----------------------------------------------------------
+
+def _drop_duplicates(elements: list[_Element], warnings: list[str]) -> list[_Element]:
+    """5. Elements between the same two nodes: the first drawn is kept."""
     seen: dict[tuple[int, int], _Element] = {}
     kept: list[_Element] = []
     dup_pairs: dict[tuple[str, str], tuple[str, str]] = {}
@@ -504,8 +551,13 @@ def build_frame(
             warnings.append(
                 f"duplicate member #{h2} on layer '{l2}' dropped: it repeats #{h1} on layer '{l1}'"
             )
+    return kept
 
-    # -- 6. nodes and members ----------------------------------------------------
+
+def _assemble(kept: list[_Element], sn: _Snapped, supports: Sequence[SupportSpec],
+              connections: Sequence[ConnectionSpec], section_for) -> tuple[Frame, dict[int, int]]:
+    """6. Nodes (numbered in the order members reach them, with the handles
+    of what meets there) and members; returns the frame and label -> node."""
     frame = Frame()
     node_of: dict[int, int] = {}
     node_sources: dict[int, list[str]] = defaultdict(list)
@@ -514,12 +566,12 @@ def build_frame(
             if lbl not in node_of:
                 node_of[lbl] = len(node_of)
             node_sources[lbl].append(el.handle)
-    for s, lbl in zip(supports, sup_lab.tolist()):
+    for s, lbl in zip(supports, sn.sup_lab.tolist()):
         node_sources[lbl].append(s.handle)
-    for c, lbl in zip(connections, con_lab.tolist()):
+    for c, lbl in zip(connections, sn.con_lab.tolist()):
         node_sources[lbl].append(c.handle)
     for lbl, nid in sorted(node_of.items(), key=lambda kv: kv[1]):
-        frame.add_node(pts[lbl, 0], pts[lbl, 1], tuple(dict.fromkeys(node_sources[lbl])))
+        frame.add_node(sn.pts[lbl, 0], sn.pts[lbl, 1], tuple(dict.fromkeys(node_sources[lbl])))
     for el in kept:  # already oriented: start = smaller X (ties: smaller Y)
         frame.add_member(
             node_of[el.n0],
@@ -530,31 +582,81 @@ def build_frame(
             handle=el.handle,
             group=el.group,
         )
+    return frame, node_of
 
-    node_xy = np.array([[nd.x, nd.y] for nd in frame.nodes])
-    node_tree = cKDTree(node_xy)
-    mA = node_xy[[m.start for m in frame.members]]
-    mB = node_xy[[m.end for m in frame.members]]
-    mtree = shapely.STRtree(shapely.linestrings(np.stack([mA, mB], axis=1)))
 
-    def distance_to_members(p: Point) -> float:
-        _, dist = mtree.query_nearest(shapely.points(p), return_distance=True)
+class _Locator:
+    """Where symbols fall on the assembled frame: nodes and members indexed
+    once, the refusal of a symbol off every member in drawing units."""
+
+    def __init__(self, frame: Frame, tol: float, units: _Units) -> None:
+        self.frame, self.tol, self.units = frame, tol, units
+        self.node_xy = np.array([[nd.x, nd.y] for nd in frame.nodes])
+        self.node_tree = cKDTree(self.node_xy)
+        mA = self.node_xy[[m.start for m in frame.members]]
+        mB = self.node_xy[[m.end for m in frame.members]]
+        self.mtree = shapely.STRtree(shapely.linestrings(np.stack([mA, mB], axis=1)))
+        self.lengths = {m.id: frame.geometry(m) for m in frame.members}
+
+    def distance_to_members(self, p: Point) -> float:
+        _, dist = self.mtree.query_nearest(shapely.points(p), return_distance=True)
         return float(dist[0])
 
-    def off_member(kind: str, spec) -> DrawingError:
+    def off_member(self, kind: str, spec) -> DrawingError:
+        units = self.units
         return DrawingError(
             f"{kind} is not on any member: its insertion point ({spec.at[0] / units.scale:.6g}, "
-            f"{spec.at[1] / units.scale:.6g}) is {units.fmt(distance_to_members(spec.at))} from the nearest member",
+            f"{spec.at[1] / units.scale:.6g}) is {units.fmt(self.distance_to_members(spec.at))} from the nearest member",
             handle=spec.handle,
             layer=spec.layer,
             hint="move the block's insertion point onto a member centreline",
         )
 
-    # -- 7. supports, hinges, settlements ---------------------------------------
+    def near(self, points: np.ndarray) -> tuple[list[int | None], list[np.ndarray]]:
+        """For each point: the node within ``tol`` (or None) and the members within ``tol``."""
+        if not len(points):
+            return [], []
+        nd, ni = self.node_tree.query(points)
+        near_node = [int(i) if d <= self.tol else None for d, i in zip(nd.tolist(), ni.tolist())]
+        lp, lm = self.mtree.query(shapely.points(points), predicate="dwithin", distance=self.tol)
+        order = np.argsort(lp, kind="stable")
+        lp, lm = lp[order], lm[order]
+        cuts = np.searchsorted(lp, np.arange(len(points) + 1))
+        return near_node, [lm[cuts[i] : cuts[i + 1]] for i in range(len(points))]
+
+    def position(self, mi: int, p: Point) -> float:
+        """Distance of ``p`` along member ``mi`` from its start, clamped to the member."""
+        frame = self.frame
+        m = frame.members[mi]
+        L_, c, s_ = self.lengths[m.id]
+        a = frame.nodes[m.start]
+        return min(max((p[0] - a.x) * c + (p[1] - a.y) * s_, 0.0), L_)
+
+    def member_under(self, kind: str, spec, cands: np.ndarray, warnings: list[str]) -> int:
+        """The member a symbol inside a span loads; crossing members not joined there: the nearer (warned)."""
+        if len(cands) == 0:
+            raise self.off_member(kind, spec)
+        if len(cands) == 1:
+            return int(cands[0])
+        frame = self.frame
+        dists = shapely.distance(shapely.points(spec.at), self.mtree.geometries.take(cands))
+        best = int(cands[int(np.argmin(dists))])
+        gset = {frame.members[int(c)].group for c in cands}
+        if len(gset) > 1:
+            warnings.append(
+                f"{kind} #{spec.handle} lies on members {', '.join(sorted(gset))}, which cross without "
+                f"being joined; applied to {frame.members[best].id}"
+            )
+        return best
+
+
+def _add_supports(frame: Frame, supports: Sequence[SupportSpec], sup_lab: np.ndarray, node_of: dict[int, int],
+                  at: _Locator, warnings: list[str]) -> dict[int, SupportSpec]:
+    """7. Supports (one per node) and their settlements; returns node -> support."""
     support_at: dict[int, SupportSpec] = {}
     for spec, lbl in zip(supports, sup_lab.tolist()):
         if lbl not in node_of:
-            raise off_member(f"{spec.kind} support", spec)
+            raise at.off_member(f"{spec.kind} support", spec)
         nid = node_of[lbl]
         if nid in support_at:
             other = support_at[nid]
@@ -580,14 +682,25 @@ def build_frame(
         if spec.settle is not None and any(v != 0.0 for v in spec.settle):
             dx, dy, rz = spec.settle
             frame.add_load(Settlement(nid, dx, dy, rz, case=spec.settle_case, handle=spec.handle))
+    return support_at
 
+
+def _member_ends(frame: Frame) -> dict[int, list[tuple[int, str]]]:
+    """node -> [(member index, "start" or "end")] of the member ends at it."""
     ends_at: dict[int, list[tuple[int, str]]] = defaultdict(list)
     for mi, m in enumerate(frame.members):
         ends_at[m.start].append((mi, "start"))
         ends_at[m.end].append((mi, "end"))
+    return ends_at
+
+
+def _add_hinges(frame: Frame, connections: Sequence[ConnectionSpec], con_lab: np.ndarray, node_of: dict[int, int],
+                ends_at: dict[int, list[tuple[int, str]]], at: _Locator, warnings: list[str]) -> None:
+    """7. Hinges release the member ends at their node (all, or those on the
+    layers their MEMBERS attribute names); every connection must sit on a member."""
     for spec, lbl in zip(connections, con_lab.tolist()):
         if lbl not in node_of:
-            raise off_member(spec.kind.upper(), spec)
+            raise at.off_member(spec.kind.upper(), spec)
         if spec.kind != "hinge":
             continue
         nid = node_of[lbl]
@@ -605,7 +718,9 @@ def build_frame(
                 f"{', '.join(sorted(wanted or []))}"
             )
 
-    # -- 8. every part needs a support ---------------------------------------------
+
+def _check_every_part_supported(frame: Frame, support_at: dict[int, SupportSpec]) -> None:
+    """8. Every connected part of the frame needs a support."""
     g = nx.Graph()
     g.add_nodes_from(range(len(frame.nodes)))
     g.add_edges_from((m.start, m.end, {"mi": mi}) for mi, m in enumerate(frame.members))
@@ -620,64 +735,33 @@ def build_frame(
                 hint="add a support block on layer SUPPORTS, or connect the part to the rest of the frame",
             )
 
-    # -- 9. loads -----------------------------------------------------------------------
-    lengths = {m.id: frame.geometry(m) for m in frame.members}
+
+def _add_loads(frame: Frame, loads: Sequence[LoadSpec], at: _Locator, ends_at: dict[int, list[tuple[int, str]]],
+               warnings: list[str]) -> None:
+    """9. Loads: on a node a nodal load, inside a span a member load; a UDL
+    loads the whole reported member (group) it sits on."""
     groups: dict[str, list[int]] = defaultdict(list)
     for mi, m in enumerate(frame.members):
         groups[m.group].append(mi)
-
-    # all load points at once: nearest node and members within tolerance
-    load_xy = np.array([ld.at for ld in loads], dtype=float).reshape(-1, 2)
-    near_node: list[int | None] = []
-    near_members: list[np.ndarray] = []
-    if len(load_xy):
-        nd, ni = node_tree.query(load_xy)
-        near_node = [int(i) if d <= tol else None for d, i in zip(nd.tolist(), ni.tolist())]
-        lp, lm = mtree.query(shapely.points(load_xy), predicate="dwithin", distance=tol)
-        order = np.argsort(lp, kind="stable")
-        lp, lm = lp[order], lm[order]
-        cuts = np.searchsorted(lp, np.arange(len(load_xy) + 1))
-        near_members = [lm[cuts[i] : cuts[i + 1]] for i in range(len(load_xy))]
-
-    def position(mi: int, p: Point) -> float:
-        m = frame.members[mi]
-        L_, c, s_ = lengths[m.id]
-        a = frame.nodes[m.start]
-        return min(max((p[0] - a.x) * c + (p[1] - a.y) * s_, 0.0), L_)
-
-    def member_under(kind: str, spec, cands: np.ndarray) -> int:
-        if len(cands) == 0:
-            raise off_member(kind, spec)
-        if len(cands) == 1:
-            return int(cands[0])
-        dists = shapely.distance(shapely.points(spec.at), mtree.geometries.take(cands))
-        best = int(cands[int(np.argmin(dists))])
-        gset = {frame.members[int(c)].group for c in cands}
-        if len(gset) > 1:
-            warnings.append(
-                f"{kind} #{spec.handle} lies on members {', '.join(sorted(gset))}, which cross without "
-                f"being joined; applied to {frame.members[best].id}"
-            )
-        return best
-
+    near_node, near_members = at.near(np.array([ld.at for ld in loads], dtype=float).reshape(-1, 2))
     for li, spec in enumerate(loads):
         nid, cands = near_node[li], near_members[li]
         if isinstance(spec, ForceSpec):
             if nid is not None:
                 frame.add_load(NodalLoad(nid, spec.fx, spec.fy, 0.0, case=spec.case, handle=spec.handle))
             else:
-                mi = member_under("force", spec, cands)
+                mi = at.member_under("force", spec, cands, warnings)
                 frame.add_load(
-                    PointLoad(frame.members[mi].id, position(mi, spec.at), spec.fx, spec.fy,
+                    PointLoad(frame.members[mi].id, at.position(mi, spec.at), spec.fx, spec.fy,
                               axes="global", case=spec.case, handle=spec.handle)
                 )
         elif isinstance(spec, CoupleSpec):
             if nid is not None:
                 frame.add_load(NodalLoad(nid, 0.0, 0.0, spec.m, case=spec.case, handle=spec.handle))
             else:
-                mi = member_under("couple", spec, cands)
+                mi = at.member_under("couple", spec, cands, warnings)
                 frame.add_load(
-                    MemberCouple(frame.members[mi].id, position(mi, spec.at), spec.m,
+                    MemberCouple(frame.members[mi].id, at.position(mi, spec.at), spec.m,
                                  case=spec.case, handle=spec.handle)
                 )
         elif isinstance(spec, UdlSpec):
@@ -693,16 +777,10 @@ def build_frame(
                     )
                 group = touching.pop()
             else:
-                group = frame.members[member_under("UDL", spec, cands)].group
-            _add_udl(frame, spec, groups[group], group, lengths, tol, units)
+                group = frame.members[at.member_under("UDL", spec, cands, warnings)].group
+            _add_udl(frame, spec, groups[group], group, at.lengths, at.tol, at.units)
         else:  # pragma: no cover - programming error
             raise TypeError(f"unknown load spec {spec!r}")
-
-    ext = (
-        float(node_xy[:, 0].min()), float(node_xy[:, 1].min()),
-        float(node_xy[:, 0].max()), float(node_xy[:, 1].max()),
-    )
-    return CleanResult(frame, warnings, ext, len(np.unique(cross_lab)), crossings_separate)
 
 
 def _joined_crossings(
