@@ -16,7 +16,7 @@ from __future__ import annotations
 
 from .errors import GeometryError
 
-__all__ = ["expanded_count", "check_expansion"]
+__all__ = ["expanded_count", "nesting_depth", "check_expansion"]
 
 
 def _cells(e) -> int:
@@ -86,6 +86,41 @@ def _block_count(root: str, blocks, memo: dict[str, int]) -> int:
         stack.pop()
         on_path.discard(name)
         memo[name] = frame[3]
+    return memo[root]
+
+
+def nesting_depth(insert, blocks, memo: dict[str, int] | None = None) -> int:
+    """Levels of block references a block reference opens (1 for a block
+    without nested references); a block containing itself counts one pass.
+    Iterative, like :func:`expanded_count`."""
+    memo = {} if memo is None else memo
+    root = insert.dxf.get("name", "")
+    if root not in memo:
+        stack: list[list] = []  # [name, [children], next index, deepest child]
+        on_path: set[str] = set()
+
+        def enter(name: str) -> None:
+            blk = blocks.get(name)
+            if blk is None:
+                memo[name] = 0
+                return
+            stack.append([name, [e.dxf.get("name", "") for e in blk if e.dxftype() == "INSERT"], 0, 0])
+            on_path.add(name)
+
+        enter(root)
+        while stack:
+            frame = stack[-1]
+            if frame[2] < len(frame[1]):
+                child = frame[1][frame[2]]
+                if child in memo or child in on_path:
+                    frame[3] = max(frame[3], memo.get(child, 0))
+                    frame[2] += 1
+                else:
+                    enter(child)
+                continue
+            stack.pop()
+            on_path.discard(frame[0])
+            memo[frame[0]] = 1 + frame[3]
     return memo[root]
 
 

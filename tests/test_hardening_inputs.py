@@ -616,7 +616,26 @@ def test_thousands_of_nested_blocks_do_not_exhaust_the_stack(tmp_path, capsys, b
     rc, _, err = run_cli(capsys, "solve", path, "--out", tmp_path / "out", "--units", "kN,m")
     if bottom == "decor":
         assert rc == 0, err
+        assert f"#{top.dxf.handle}" in err and "3000 levels deep" in err and "not drawn" in err
+        assert (tmp_path / "out" / "frame-results.png").exists()
         from test_hardening import check_simple_beam
         check_simple_beam(json.loads((tmp_path / "out" / "frame-results.json").read_text(encoding="utf-8")))
     else:
         assert_bad_input(rc, err, tmp_path / "out", names=(f"#{top.dxf.handle}", "nested more than 16 deep"))
+
+
+def test_minsert_with_a_count_of_zero_is_refused(tmp_path, capsys):
+    import io
+
+    doc = beam_doc()
+    ins = _minsert(doc.modelspace(), "FORCE", (1.0, 0.0), rows=2, cols=3, row_spacing=1.0, col_spacing=1.0,
+                   P="10 kN")
+    buf = io.StringIO()
+    doc.write(buf)
+    text = buf.getvalue()
+    start = text.index(f"\n  5\n{ins.dxf.handle}\n")
+    end = text.index("\n  0\n", start)
+    entity = text[start:end].replace("\n 71\n2\n", "\n 71\n0\n")  # row count 0: ezdxf would read no cell
+    path = write_case(tmp_path / "in", data=(text[:start] + entity + text[end:]).encode("utf-8"))
+    rc, _, err = run_cli(capsys, "check", path)
+    assert_bad_input(rc, err, names=(f"#{ins.dxf.handle}", "0 rows", "no cell"))

@@ -173,6 +173,9 @@ _MAX_COORDINATE = 1e12
 #: a block reference (a MINSERT grid, nested blocks) expanding to more
 #: entities than this is not drawn: drawing it would take minutes
 _MAX_PIECES = 20_000
+#: a block reference opening more levels of nested blocks than this is not
+#: drawn: the drawing add-on follows nesting by recursion
+_MAX_NESTING = 100
 
 
 class _Bounded:
@@ -183,15 +186,16 @@ class _Bounded:
     not finite or reaches beyond :data:`_MAX_COORDINATE` (a stray line to
     1e308 would make the window infinite), and block references that
     expand to more than :data:`_MAX_PIECES` entities (a decorative grid of a
-    million cells).  Entities without a box (text of unknown size) are drawn.
+    million cells) or nest more than :data:`_MAX_NESTING` levels deep.  Entities without a box (text of unknown size) are drawn.
     """
 
     def __init__(self, doc, msp, wanted) -> None:
-        from ..block_expansion import expanded_count
+        from ..block_expansion import expanded_count, nesting_depth
 
         self.notes: list[str] = []
         self._left_out: set[int] = set()
         memo: dict[str, int] = {}
+        depths: dict[str, int] = {}
         total = bbox.BoundingBox()
         for e in msp:
             if not wanted(e):
@@ -200,6 +204,10 @@ class _Bounded:
                 n = expanded_count(e, doc.blocks, memo)
                 if n > _MAX_PIECES:
                     self._leave_out(e, f"it expands to {n} entities")
+                    continue
+                depth = nesting_depth(e, doc.blocks, depths)
+                if depth > _MAX_NESTING:
+                    self._leave_out(e, f"its blocks nest {depth} levels deep")
                     continue
             try:
                 box = bbox.BoundingBox()

@@ -117,6 +117,15 @@ def _check_grid(ctx: ReadContext, e, src: Source, rows: int, cols: int) -> None:
             hint="raise [limits] max_entities in dxf2frame.toml if this is intended",
         )
     _check_insertion_point(e, src)
+    raw = (e.dxf.get("row_count", 1), e.dxf.get("column_count", 1))
+    if not all(isinstance(n, int) and n >= 1 for n in raw):
+        raise GeometryError(
+            f"MINSERT of block '{name}' has {raw[0]} rows and {raw[1]} columns: a count below 1 would read "
+            "no cell at all",
+            handle=src.handle,
+            layer=src.layer,
+            hint="the file is damaged or was written by a faulty program; insert the block again",
+        )
     stacked = [(what, n) for what, n, key in (("row", rows, "row_spacing"), ("column", cols, "column_spacing"))
                if n > 1 and not e.dxf.get(key, 0.0)]
     if stacked:
