@@ -127,6 +127,10 @@ _PLAIN = frozenset(" .+-*/^()_\u00b7\u00b2\u00b3\u00b0\u00b5")
 _GROUPED_DIGITS = re.compile(r"\d\s+\d")
 _SPACES = re.compile(r"\s+")
 _TWO_POINTS = re.compile(r"\.\d*\.")
+#: the one number a value starts with: a decimal (with exponent) or a plain fraction such as 3/8
+_LEADING_NUMBER = re.compile(r"[+-]?(?:\d+/\d+(?![\d.])|(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)")
+#: digits a unit may carry: an exponent after ** or ^
+_UNIT_EXPONENT = re.compile(r"(?:\*\*|\^)\s*[+-]?\d+(?:\.\d+)?")
 
 
 def number_text(text: str) -> tuple[str, str | None]:
@@ -168,10 +172,28 @@ def number_text(text: str) -> tuple[str, str | None]:
             raise _ParseFailure(
                 f"{shorten(t)!r} holds the character {c!r} (U+{ord(c):04X}), which is not part of a number or unit"
             )
+    if _is_arithmetic(t):
+        raise _ParseFailure(
+            f"{shorten(t)!r} is a calculation, not one number with a unit; write the value it stands for "
+            "as one number (the unit parser would silently work the sum out)"
+        )
     note = None
     if dashes:
         note = f"{' and '.join(dashes)} read as a minus sign in {shorten(t)!r}"
     return t, note
+
+
+def _is_arithmetic(t: str) -> bool:
+    """True when a number text is more than one number and a unit: ``5-2``,
+    ``3*2 kN``, ``2 kN + 1``.  A unit may carry exponents (``in**4``,
+    ``mm^2``); a plain fraction (``3/8 in``) is one number."""
+    m = _LEADING_NUMBER.match(t)
+    if m is None:
+        return False  # no leading number: the unit parser says what is wrong
+    rest = t[m.end():]
+    if rest and not (rest[0] == " " or rest[0].isalpha() or rest[0] in "(\u00b0\u00b5"):
+        return True
+    return any(c in "0123456789" for c in _UNIT_EXPONENT.sub("", rest))
 
 
 def _comma_message(t: str) -> str:

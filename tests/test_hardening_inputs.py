@@ -639,3 +639,23 @@ def test_minsert_with_a_count_of_zero_is_refused(tmp_path, capsys):
     path = write_case(tmp_path / "in", data=(text[:start] + entity + text[end:]).encode("utf-8"))
     rc, _, err = run_cli(capsys, "check", path)
     assert_bad_input(rc, err, names=(f"#{ins.dxf.handle}", "0 rows", "no cell"))
+
+
+@pytest.mark.parametrize("text", ["5-2", "3*2 kN", "2 kN + 1", "10/2/5 kN", "4 kN*2"])
+def test_calculations_in_number_texts_are_refused(text):
+    """The unit parser evaluates arithmetic ('5-2' would be read as 3 kN):
+    a value is one number and its unit, so a calculation is refused."""
+    with pytest.raises(UnitError, match="calculation"):
+        _force(text)
+
+
+@pytest.mark.parametrize("text, kind, meant", [
+    # 3/8 in = 0.375 in = 0.009525 m (1 in = 25.4 mm exactly, by definition of the inch)
+    ("3/8 in", "length", 0.009525),
+    # 204 in^4 = 204 * 0.0254^4 m^4 (same definition)
+    ("204 in**4", "inertia", 204 * 0.0254 ** 4),
+    ("9100 mm^2", "area", 9100e-6),
+    ("200 N/mm\u00b2", "stress", 200e6),
+])
+def test_units_with_exponents_and_plain_fractions_are_one_number(text, kind, meant):
+    assert parse_quantity(text, kind, default_unit="") == pytest.approx(meant, rel=1e-12)
