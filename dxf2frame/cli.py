@@ -66,6 +66,12 @@ def _strict(p: argparse.ArgumentParser) -> None:
                    help="treat every warning as bad input (exit 2, nothing written): for CI pipelines")
 
 
+def _history_flag(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--history", action=argparse.BooleanOptionalAction, default=None,
+                   help="record each solve in the revision history of the drawing's folder "
+                        "(default from settings: [history] record, off)")
+
+
 def build_parser() -> argparse.ArgumentParser:
     # Long by nature: one declaration per command and option, read top to bottom like the help it
     # prints.
@@ -131,6 +137,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="parallel processes for many drawings (default: number of cores)")
     p.add_argument("--scheduler", metavar="ADDRESS",
                    help="run the batch on a Dask distributed scheduler (needs the 'dask' extra)")
+    _history_flag(p)
     _strict(p)
     _common(p)
 

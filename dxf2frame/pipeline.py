@@ -281,6 +281,10 @@ class SolveRequest:
     length_unit: str | None = None
     single: bool = True
     strict: bool = False
+    # -- revision history (issue 19) --
+    #: record the solve in the folder's revision history: True, False, or
+    #: None for the settings' ``[history] record``
+    history: bool | None = None
 
 
 @dataclass
@@ -424,6 +428,47 @@ def _try_preview(drawing: Path, png: Path, analysis: Analysis, show: str, force_
     return png.exists()
 
 
+def _history_on(req: SolveRequest, settings: Settings) -> bool:
+    return settings.history_record if req.history is None else bool(req.history)
+
+
+def _history_digest(source: Path, req: SolveRequest, settings: Settings) -> str | None:
+    """The content hash of the drawing as it is before it is read, when the
+    solve is to be recorded in the revision history."""
+    if not _history_on(req, settings):
+        return None
+    from .revisions.history import content_hash
+
+    return content_hash(source)
+
+
+def _record_history(source: Path, req: SolveRequest, settings: Settings, analysis: Analysis, report: dict,
+                    digest: str | None, report_path: Path, warnings: list[str]) -> None:
+    """Record the finished report in the folder's revision history (after the
+    output set is committed).  A history that cannot be written is a
+    warning (added to ``warnings``), never a failed solve; a damaged one
+    is set aside first (renamed, never deleted) and a new one started."""
+    if not _history_on(req, settings):
+        return
+    import sqlite3
+
+    from .revisions.history import DamagedHistoryError, HistoryError, document_properties, record_report
+
+    props = document_properties(analysis.document)
+    kw = dict(digest=digest, properties=props, label_property=settings.history_label_property,
+              report_path=report_path)
+    try:
+        try:
+            record_report(report, source, **kw)
+        except DamagedHistoryError as exc:
+            warnings.append(f"history: {one_line(str(exc))}; a new history starts with this solve")
+            record_report(report, source, **kw)
+    except HistoryError as exc:
+        warnings.append(f"history: not recorded: {one_line(str(exc))}")
+    except (OSError, sqlite3.Error) as exc:
+        warnings.append(f"history: not recorded in {source.parent}: {one_line(f'{type(exc).__name__}: {exc}')}")
+
+
 def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     """Run the whole ``solve`` command on one drawing; never raises for bad input.
 
@@ -463,6 +508,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
         settings = load_settings(req.settings_path, source)
         paths = output_paths(source, req)
         check_outputs(source, paths)
+        digest = _history_digest(source, req, settings)
         analysis = analyse(source, settings, length_unit=req.length_unit)
         model, det = analysis.model, analysis.determinacy
         outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
@@ -524,6 +570,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             governing = _governing(rep) if analysis.stable else {}
             committed = out_set.commit({staged[k]: paths[k] for k in written})
         outcome.outputs = [str(t) for t in committed]
+        _record_history(source, req, settings, analysis, rep, digest, paths["report"], outcome.warnings)
 
         outcome.timings = analysis.timings
         if not analysis.stable:
