@@ -199,13 +199,13 @@ def _is_damage(exc: sqlite3.DatabaseError) -> bool:
     return "malformed" in text or "not a database" in text
 
 
-def set_aside(path: Path) -> Path | None:
+def set_aside(path: Path, why: str = "damaged") -> Path | None:
     """Rename a damaged database (and its ``-wal`` / ``-shm`` files) to
-    ``<name without .sqlite>.damaged-<UTC time>.sqlite`` beside it; returns
+    ``<name without .sqlite>.<why>-<UTC time>-<pid>.sqlite`` beside it; returns
     the new path, or None when it could not be renamed (another process
     already did, or the folder is read-only)."""
     stamp = _dt.datetime.now(_dt.timezone.utc).strftime("%Y%m%dT%H%M%S.%fZ")
-    target = path.with_name(f"{path.stem}.damaged-{stamp}-{os.getpid()}{path.suffix}")
+    target = path.with_name(f"{path.stem}.{why}-{stamp}-{os.getpid()}{path.suffix}")
     try:
         os.rename(path, target)
     except OSError:
