@@ -74,6 +74,7 @@ __all__ = [
     "Revision",
     "History",
     "revision_of",
+    "document_properties",
     "content_hash",
     "record_report",
     "revision_report",
