@@ -127,6 +127,10 @@ def test_round_trip_of_five_revisions(tmp_path, capsys):
     q, values, unit = trend(view, left_id)
     assert q == "M" and unit == "kN*m"
     assert values == pytest.approx([wl * 36 / 8 for _l, wl, _r, _s in REVISIONS], rel=1e-6)  # wL^2/8, AISC case 1
+    # the support at x = 12 carries the right span's wL/2 (AISC beam formulas case 1, from memory)
+    q, values, unit = trend(view, "12,0")
+    assert q == "fy" and unit == "kN"
+    assert values == pytest.approx([wr * 6 / 2 for _l, _wl, wr, _s in REVISIONS], rel=1e-6)
     out = tmp_path / "trend.png"
     assert main(["history", str(tmp_path), "--trend", left_id, "--png", str(out)]) == 0
     assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"

@@ -57,6 +57,7 @@ import math
 import os
 import re
 import sqlite3
+import time
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Iterator, Mapping
@@ -266,7 +267,7 @@ class History:
         with self._guard():
             self._con = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_S, isolation_level=None)
             self._con.execute("PRAGMA foreign_keys = ON")
-            mode = self._con.execute("PRAGMA journal_mode = WAL").fetchone()
+            mode = _wal(self._con)
             if mode and str(mode[0]).lower() != "wal":
                 raise HistoryError(f"{self.path}: the database cannot use a write-ahead log here "
                                    f"(journal mode {mode[0]}); keep the history on a local disk")
@@ -379,7 +380,7 @@ class History:
         con = self._con
         assert con is not None
         with self._guard():
-            con.execute("BEGIN")
+            con.execute("BEGIN")  # one snapshot: a solve being written is not half seen
             try:
                 q = "SELECT * FROM solves" + (" WHERE series = ?" if series is not None else "")
                 con.row_factory = sqlite3.Row
@@ -405,6 +406,20 @@ class History:
         assert self._con is not None
         with self._guard():
             return int(self._con.execute("SELECT COUNT(*) FROM solves").fetchone()[0])
+
+
+def _wal(con: sqlite3.Connection, attempts: int = 100) -> tuple | None:
+    """Switch to the write-ahead log.  Two processes creating the database
+    at once may find it locked for a moment: wait and try again (the busy
+    timeout does not cover a journal mode change)."""
+    for k in range(attempts):
+        try:
+            return con.execute("PRAGMA journal_mode = WAL").fetchone()
+        except sqlite3.OperationalError as exc:
+            if "locked" not in str(exc).lower() or k == attempts - 1:
+                raise
+            time.sleep(0.05)
+    return None
 
 
 def _natural(label: str) -> tuple:

@@ -181,7 +181,11 @@ def trend(view: SeriesView, ident: str, quantity: str | None = None) -> tuple[st
         values = []
         for k in range(n):
             at, gov = supports[k]
-            values.append(None if keys[k] is None else gov[at.index(keys[k])][q])
+            if keys[k] is None or not at:
+                values.append(None)
+                continue
+            j = min(range(len(at)), key=lambda i: math.dist(at[i], keys[k]))
+            values.append(gov[j][q] if math.dist(at[j], keys[k]) <= max(tol, 1e-9) else None)
         return q, values, unit
     govs = [member_governing(r) for r in view.reports]
     keys = [None] * n
