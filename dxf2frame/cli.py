@@ -102,7 +102,9 @@ def _history_parser(sub, fmt) -> None:
     p.add_argument("--threshold", type=float, metavar="FRACTION",
                    help="count changes larger than this fraction (default from settings: 0.05)")
     p.add_argument("--units", type=_units, metavar="FORCE,LENGTH", help="units of the listing, e.g. kN,m")
-    _common(p)
+    p.add_argument("--settings", type=Path, metavar="TOML",
+                   help="settings file (default: dxf2frame.toml in the folder, else built-in defaults)")
+    p.add_argument("--debug", action="store_true", help="show a traceback for internal errors")
 
 
 def build_parser() -> argparse.ArgumentParser:

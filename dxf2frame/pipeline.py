@@ -482,6 +482,12 @@ def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     read-only folder, a full disk, the file size limit) is status "cannot
     write", :data:`EXIT_CANNOT_WRITE`.  The input drawing is only read.
 
+    With the revision history on (``req.history``, else the settings'
+    ``[history] record``) the finished report is recorded in the history
+    of the drawing's folder once the output set is committed
+    (:mod:`dxf2frame.revisions.history`); a history that cannot be written
+    is a warning of the outcome, never a failed solve.
+
     The cyclic garbage collector is paused for the run: an ezdxf document is
     millions of small objects that every full collection walks again, while
     reference counting frees what the run drops anyway.
