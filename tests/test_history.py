@@ -261,3 +261,24 @@ def test_history_settings_are_checked(tmp_path, capsys):
     d = two_span_drawing(tmp_path / "span.dxf", 10.0, 8.0)
     assert main(["solve", str(d), "--no-png"]) == 2
     assert "history.recrod" in capsys.readouterr().err
+
+
+def test_a_history_that_cannot_be_written_is_a_warning_not_a_failed_solve(tmp_path, capsys):
+    (tmp_path / "dxf2frame.toml").write_text(CASES_ONLY)
+    (tmp_path / HISTORY_FILENAME).mkdir()  # something in the way that is no database file
+    d = two_span_drawing(tmp_path / "span-rev-A.dxf", 10.0, 8.0)
+    assert main(["solve", str(d), "--no-png", "--history"]) == 0
+    err = capsys.readouterr().err
+    assert "history: not recorded" in err
+    assert (tmp_path / "solved" / "span-rev-A-results.json").is_file()
+    assert (tmp_path / HISTORY_FILENAME).is_dir()  # left as it was
+
+
+def test_compare_history_arguments_are_labels_never_files(tmp_path, capsys, monkeypatch):
+    drawings = five_revisions(tmp_path)
+    for d in drawings[:2]:
+        assert main(["solve", str(d), "--no-png", "--history"]) == 0
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "A").write_text("not a drawing")  # a file named like a label does not matter
+    assert main(["compare", "A", "#2", "--history", str(tmp_path), "--out", str(tmp_path / "cmp")]) == 0
+    assert (tmp_path / "cmp" / "span-rev-B-comparison.json").is_file()
