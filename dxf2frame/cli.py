@@ -66,6 +66,47 @@ def _strict(p: argparse.ArgumentParser) -> None:
                    help="treat every warning as bad input (exit 2, nothing written): for CI pipelines")
 
 
+def _history_flag(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--history", action=argparse.BooleanOptionalAction, default=None,
+                   help="record each solve in the revision history of the drawing's folder "
+                        "(default from settings: [history] record, off)")
+
+
+def _history_parser(sub, fmt) -> None:
+    p = sub.add_parser(
+        "history", formatter_class=fmt, epilog=EPILOG,
+        help="list the recorded revisions of a folder and what changed between them",
+        description=textwrap.dedent("""\
+            List the solves recorded in the folder's revision history
+            (.dxf2frame-history.sqlite; solve with --history to record), per series of
+            revisions: governing |M|, |V|, |N|, span/deflection, warnings, and what
+            changed from the previous revision (as compare finds it). With --trend,
+            the governing value of one member (its id) or support (X,Y) across the
+            revisions, and with --png a plot of it.
+
+            examples:
+              dxf2frame history drawings
+              dxf2frame history drawings --trend 111-1 --quantity M --png trend.png
+              dxf2frame history drawings --rebuild"""),
+    )
+    p.add_argument("folder", nargs="?", default=".", help="folder of the drawings (default: the current one)")
+    p.add_argument("--series", metavar="NAME", help="only this series (the file name without its revision ending)")
+    p.add_argument("--trend", metavar="ID",
+                   help="a member id (as in the report) or X,Y (a support, in the report's length unit)")
+    p.add_argument("--quantity", metavar="Q", help="N, V, M or deflection for a member (default M); "
+                                                   "fx, fy or m for a support (default fy)")
+    p.add_argument("--png", type=Path, metavar="OUT", help="write the trend as a PNG plot")
+    p.add_argument("--rebuild", action="store_true",
+                   help="rebuild the history from the saved JSON reports in the folder and its subfolders "
+                        "(the present history is renamed aside, not deleted)")
+    p.add_argument("--threshold", type=float, metavar="FRACTION",
+                   help="count changes larger than this fraction (default from settings: 0.05)")
+    p.add_argument("--units", type=_units, metavar="FORCE,LENGTH", help="units of the listing, e.g. kN,m")
+    p.add_argument("--settings", type=Path, metavar="TOML",
+                   help="settings file (default: dxf2frame.toml in the folder, else built-in defaults)")
+    p.add_argument("--debug", action="store_true", help="show a traceback for internal errors")
+
+
 def build_parser() -> argparse.ArgumentParser:
     # Long by nature: one declaration per command and option, read top to bottom like the help it
     # prints.
@@ -131,6 +172,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="parallel processes for many drawings (default: number of cores)")
     p.add_argument("--scheduler", metavar="ADDRESS",
                    help="run the batch on a Dask distributed scheduler (needs the 'dask' extra)")
+    _history_flag(p)
     _strict(p)
     _common(p)
 
@@ -146,12 +188,18 @@ def build_parser() -> argparse.ArgumentParser:
 
             example:  dxf2frame compare drawings/packing-shed-rev-A.dxf drawings/packing-shed-rev-B.dxf"""),
     )
-    p.add_argument("revisions", nargs="+", help="two or more DXF files or report JSON files, oldest first")
+    p.add_argument("revisions", nargs="+", help="two or more DXF files or report JSON files, oldest first "
+                                                "(with --history: revision labels or #IDs)")
+    p.add_argument("--history", type=Path, metavar="FOLDER",
+                   help="take the revisions from this folder's revision history: each argument is a label "
+                        "(B, or SERIES:B) or a solve id (#12), never a file")
     p.add_argument("--out", type=Path, metavar="FOLDER", help="where to write (default: 'compared' beside the newest)")
     p.add_argument("--threshold", type=float, metavar="FRACTION",
                    help="flag changes larger than this fraction (default from settings: 0.05)")
     p.add_argument("--units", type=_units, metavar="FORCE,LENGTH", help="units of the comparison, e.g. kN,m")
     _common(p)
+
+    _history_parser(sub, fmt)
 
     p = sub.add_parser(
         "explain", formatter_class=fmt, epilog=EPILOG,

@@ -11,7 +11,7 @@ from pathlib import Path
 from . import CAUTION
 from .errors import one_line
 
-__all__ = ["run_check", "run_solve", "run_compare", "run_explain", "run_template"]
+__all__ = ["run_check", "run_solve", "run_compare", "run_explain", "run_template", "run_history"]
 
 
 def _say(*lines: str) -> None:
@@ -95,7 +95,7 @@ def run_solve(args) -> int:
     req = SolveRequest(
         out=args.out, report=args.report, units=args.units, probes=list(args.probe), show=args.show,
         png=not args.no_png, sheets=args.sheets, settings_path=args.settings,
-        length_unit=args.length_unit, single=single, strict=args.strict,
+        length_unit=args.length_unit, single=single, strict=args.strict, history=args.history,
     )
     return run_batch(files, req, workers=args.workers, scheduler=args.scheduler,
                      debug=args.debug)
@@ -140,21 +140,28 @@ def run_compare(args, *, stream=None) -> int:
     paths = [Path(p) for p in args.revisions]
     if len(paths) < 2:
         raise InputFileError("compare needs two or more revisions (drawings or JSON reports), oldest first")
-    for p in paths:
-        if not p.is_file():
-            raise InputFileError(f"{p}: no such file")
     units = args.units
-    reports: list[dict] = []
-    settings = None
-    for p in paths:
-        if p.suffix.lower() == ".dxf":
-            rep, settings = _report_of_drawing(p, args, units)
-        else:
-            rep = load_json_report(p)
-            settings = None
-        reports.append(rep)
+    history = getattr(args, "history", None)
+    if history is not None:  # revision labels of the history, never files
+        paths, reports, newest_dxf = _history_revisions(Path(history), list(args.revisions))
+        settings = None
+    else:
+        for p in paths:
+            if not p.is_file():
+                raise InputFileError(f"{p}: no such file")
+        reports: list[dict] = []
+        settings = None
+        for p in paths:
+            if p.suffix.lower() == ".dxf":
+                rep, settings = _report_of_drawing(p, args, units)
+            else:
+                rep = load_json_report(p)
+                settings = None
+            reports.append(rep)
+        newest_dxf = None
     newest = paths[-1]
-    newest_dxf = newest if newest.suffix.lower() == ".dxf" else _drawing_for_report(newest, reports[-1])
+    if history is None:
+        newest_dxf = newest if newest.suffix.lower() == ".dxf" else _drawing_for_report(newest, reports[-1])
     if settings is None:
         settings = load_settings(args.settings, newest_dxf or newest)
     threshold = args.threshold if args.threshold is not None else settings.compare_threshold
@@ -178,6 +185,28 @@ def run_compare(args, *, stream=None) -> int:
     for p in written.values():
         print(f"wrote {p}", file=stream)
     return 0
+
+
+def _history_revisions(folder: Path, refs: list[str]) -> tuple[list[Path], list[dict], Path | None]:
+    """``compare --history FOLDER``: the revisions named by label (``B``,
+    ``SERIES:B``) or solve id (``#12``) in the folder's history, as report
+    dicts; the paths they stand for (the drawings, for naming the outputs);
+    and the newest drawing when it is still the file that was solved (same
+    content hash), for the marked copy."""
+    from .revisions.history import History, content_hash, revision_report
+    from .revisions.history_view import resolve_revision
+
+    if not folder.is_dir():
+        from .errors import InputFileError
+
+        raise InputFileError(f"--history {folder}: not a folder")
+    with History(folder, create=False, check=True) as hist:
+        revisions = hist.revisions()
+    chosen = [resolve_revision(revisions, ref) for ref in refs]
+    paths = [folder / r.drawing for r in chosen]
+    newest = paths[-1]
+    same = newest.is_file() and chosen[-1].content_hash is not None and content_hash(newest) == chosen[-1].content_hash
+    return paths, [revision_report(r) for r in chosen], newest if same else None
 
 
 def _report_of_drawing(path: Path, args, units: tuple[str, str] | None):
@@ -262,4 +291,55 @@ def run_template(args) -> int:
     _say(f"wrote {args.path}: layers FRAME, FRAME-BRACES (crossings there stay separate), SUPPORTS, "
          "CONNECTIONS, LOADS and the symbol blocks (CROSSOVER keeps two crossing members apart)",
          CAUTION)
+    return 0
+
+
+def run_history(args, *, stream=None) -> int:
+    """The ``history`` command: list the recorded revisions of a folder, or
+    the trend of one member's or support's governing value (``--trend``,
+    with ``--png`` a plot); ``--rebuild`` first rebuilds the history from
+    the saved JSON reports.  Returns 0; bad input (no history, a damaged
+    one, which is set aside, an unknown member) raises (exit 2)."""
+    import sys
+
+    from .errors import InputFileError
+    from .revisions.history import History
+    from .revisions.history_view import history_table, rebuild_history, series_views, trend, write_trend_png
+    from .settings import load_settings
+
+    stream = stream or sys.stdout
+    folder = Path(args.folder)
+    if not folder.is_dir():
+        raise InputFileError(f"{folder}: not a folder")
+    if args.png is not None and not args.trend:
+        raise InputFileError("--png draws a trend: give --trend MEMBER (or --trend X,Y for a support)")
+    if args.rebuild:
+        n, notes, moved = rebuild_history(folder)
+        for note in notes:
+            print(f"note: {note}", file=stream)
+        if moved is not None:
+            print(f"the previous history was kept as {moved}", file=stream)
+        print(f"rebuilt the history of {folder} from {n} report(s)", file=stream)
+    settings = load_settings(args.settings, folder / "history.dxf")
+    threshold = args.threshold if args.threshold is not None else settings.compare_threshold
+    with History(folder, create=False, check=True) as hist:
+        revisions = hist.revisions()
+    if not revisions:
+        print(f"no solves recorded in {hist.path}", file=stream)
+        return 0
+    views = series_views(revisions, threshold=threshold, units=args.units, series=args.series)
+    if not args.trend:
+        print(history_table(views), file=stream, end="")
+        return 0
+    if len(views) > 1:
+        raise InputFileError(f"the history holds several series ({', '.join(v.series for v in views)}); "
+                             "choose one with --series")
+    view = views[0]
+    quantity, values, unit = trend(view, args.trend, args.quantity)
+    print(f"series {view.series}: {args.trend}, governing {quantity} [{unit}]", file=stream)
+    for rev, v in zip(view.revisions, values):
+        print(f"  {rev.name:<16} {'-' if v is None else f'{v:.6g}'}", file=stream)
+    if args.png is not None:
+        out = write_trend_png(view, args.trend, quantity, values, unit, Path(args.png))
+        print(f"wrote {out}", file=stream)
     return 0

@@ -281,6 +281,10 @@ class SolveRequest:
     length_unit: str | None = None
     single: bool = True
     strict: bool = False
+    # -- revision history (issue 19) --
+    #: record the solve in the folder's revision history: True, False, or
+    #: None for the settings' ``[history] record``
+    history: bool | None = None
 
 
 @dataclass
@@ -424,6 +428,47 @@ def _try_preview(drawing: Path, png: Path, analysis: Analysis, show: str, force_
     return png.exists()
 
 
+def _history_on(req: SolveRequest, settings: Settings) -> bool:
+    return settings.history_record if req.history is None else bool(req.history)
+
+
+def _history_digest(source: Path, req: SolveRequest, settings: Settings) -> str | None:
+    """The content hash of the drawing as it is before it is read, when the
+    solve is to be recorded in the revision history."""
+    if not _history_on(req, settings):
+        return None
+    from .revisions.history import content_hash
+
+    return content_hash(source)
+
+
+def _record_history(source: Path, req: SolveRequest, settings: Settings, analysis: Analysis, report: dict,
+                    digest: str | None, report_path: Path, warnings: list[str]) -> None:
+    """Record the finished report in the folder's revision history (after the
+    output set is committed).  A history that cannot be written is a
+    warning (added to ``warnings``), never a failed solve; a damaged one
+    is set aside first (renamed, never deleted) and a new one started."""
+    if not _history_on(req, settings):
+        return
+    import sqlite3
+
+    from .revisions.history import DamagedHistoryError, HistoryError, document_properties, record_report
+
+    props = document_properties(analysis.document)
+    kw = dict(digest=digest, properties=props, label_property=settings.history_label_property,
+              report_path=report_path)
+    try:
+        try:
+            record_report(report, source, **kw)
+        except DamagedHistoryError as exc:
+            warnings.append(f"history: {one_line(str(exc))}; a new history starts with this solve")
+            record_report(report, source, **kw)
+    except HistoryError as exc:
+        warnings.append(f"history: not recorded: {one_line(str(exc))}")
+    except (OSError, sqlite3.Error) as exc:
+        warnings.append(f"history: not recorded in {source.parent}: {one_line(f'{type(exc).__name__}: {exc}')}")
+
+
 def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     """Run the whole ``solve`` command on one drawing; never raises for bad input.
 
@@ -436,6 +481,12 @@ def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     bad input leaves nothing behind.  An output that cannot be written (a
     read-only folder, a full disk, the file size limit) is status "cannot
     write", :data:`EXIT_CANNOT_WRITE`.  The input drawing is only read.
+
+    With the revision history on (``req.history``, else the settings'
+    ``[history] record``) the finished report is recorded in the history
+    of the drawing's folder once the output set is committed
+    (:mod:`dxf2frame.revisions.history`); a history that cannot be written
+    is a warning of the outcome, never a failed solve.
 
     The cyclic garbage collector is paused for the run: an ezdxf document is
     millions of small objects that every full collection walks again, while
@@ -460,8 +511,10 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     done = False
     try:
         run = _prepare(source, req, outcome)
-        committed, governing = _write_outputs(run, req, outcome)
+        committed, governing, rep = _write_outputs(run, req, outcome)
         outcome.outputs = [str(t) for t in committed]
+        _record_history(run.source, req, run.settings, run.analysis, rep, run.digest, run.paths["report"],
+                        outcome.warnings)
         _record(outcome, run.analysis, governing)
         done = True
     except CannotWriteError as exc:
@@ -489,6 +542,7 @@ class _Run:
     analysis: Analysis
     force_unit: str
     length_unit: str
+    digest: str | None = None  # content hash for the revision history, taken before reading
 
 
 def _prepare(source: Path, req: SolveRequest, outcome: FileOutcome) -> _Run:
@@ -499,6 +553,7 @@ def _prepare(source: Path, req: SolveRequest, outcome: FileOutcome) -> _Run:
     settings = load_settings(req.settings_path, source)
     paths = output_paths(source, req)
     check_outputs(source, paths)
+    digest = _history_digest(source, req, settings)
     analysis = analyse(source, settings, length_unit=req.length_unit)
     model, det = analysis.model, analysis.determinacy
     outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
@@ -510,14 +565,15 @@ def _prepare(source: Path, req: SolveRequest, outcome: FileOutcome) -> _Run:
     if req.probes and analysis.results:
         # a probe off every member is bad input: say so before anything is written
         report_mod.locate_points(model, req.probes)
-    return _Run(source, settings, paths, analysis, force_u, length_u)
+    return _Run(source, settings, paths, analysis, force_u, length_u, digest)
 
 
-def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[list[Path], dict]:
+def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[list[Path], dict, dict]:
     """Drawing, report (and CSV), preview and sheets into a staging folder,
     then the whole set swapped in (:class:`~dxf2frame.staging.OutputSet`): a
     failure leaves the previous set of outputs complete and unchanged, or
-    nothing.  Returns the files committed and the governing values."""
+    nothing.  Returns the files committed, the governing values and the
+    report."""
     from .draw import writer  # the preview (matplotlib) is imported only when a PNG is asked for
     from .report import report as report_mod
 
@@ -569,7 +625,7 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
             staged["sheets"] = sheet_dir
         governing = _governing(rep) if analysis.stable else {}
         committed = out_set.commit({staged[k]: paths[k] for k in written})
-    return committed, governing
+    return committed, governing, rep
 
 
 def _record(outcome: FileOutcome, analysis: Analysis, governing: dict) -> None:

@@ -53,6 +53,11 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
 ``[compare]``
     ``threshold`` (relative change reported by the revision comparison,
     default 0.05).
+``[history]``
+    ``record`` (record every ``solve`` in the folder's revision history,
+    default false; ``--history``/``--no-history`` override it),
+    ``label_property`` (custom header property holding the revision label,
+    default ``"REVISION"``).
 
 Layer names are matched case-insensitively, as CAD programs do.  Quantity
 strings are parsed by :mod:`dxf2frame.units`; this module itself does not
@@ -123,6 +128,7 @@ _BUILTIN_COMBOS = ("LRFD", "ASD")
 _TOP_KEYS = {
     "units", "geometry", "limits", "layers", "blocks", "attributes",
     "output_layers", "sections", "combinations", "deflection", "compare", "cases", "analysis",
+    "history",
 }
 
 
@@ -161,6 +167,8 @@ class Settings:
     deflection_layers : {upper-case layer: limit}
     compare_threshold : relative change flagged by the revision comparison
     source : the settings file read, or None for defaults
+    history_record : record every solve in the folder's revision history
+    history_label_property : custom header property holding the revision label
     """
 
     force_unit: str = "kN"
@@ -185,6 +193,9 @@ class Settings:
     deflection_layers: Mapping[str, float] = field(default_factory=lambda: _ro({}))
     compare_threshold: float = 0.05
     source: Path | None = None
+    # -- revision history (issue 19) --
+    history_record: bool = False
+    history_label_property: str = "REVISION"
 
     # derived lookups (built once)
     def __post_init__(self) -> None:
@@ -361,6 +372,7 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
     kw.update(_read_combinations(data, path))
     kw.update(_read_deflection(data, path))
     kw.update(_read_compare(data, path))
+    _history_settings(data, path, kw)
     return Settings(**kw)
 
 
@@ -588,6 +600,18 @@ def _read_compare(data: Mapping[str, Any], path: str) -> dict[str, Any]:
     if "threshold" in cp:
         kw["compare_threshold"] = _number(cp["threshold"], "compare.threshold", path, allow_zero=True)
     return kw
+
+
+def _history_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:
+    """``[history]``: ``record`` (bool), ``label_property`` (text)."""
+    hi = _table(data, "history", path)
+    _check_keys(hi, {"record", "label_property"}, "history", path)
+    if "record" in hi:
+        if not isinstance(hi["record"], bool):
+            raise SettingsError(f"must be true or false, got {hi['record']!r}", path=path, key="history.record")
+        kw["history_record"] = hi["record"]
+    if "label_property" in hi:
+        kw["history_label_property"] = _str(hi["label_property"], "history.label_property", path)
 
 
 def load_settings(path: Path | str | None = None, drawing: Path | str | None = None) -> Settings:
