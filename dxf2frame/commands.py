@@ -190,7 +190,7 @@ def _report_of_drawing(path: Path, args, units: tuple[str, str] | None):
     an = analyse(path, settings, length_unit=args.length_unit)
     fu, lu = units if units else (settings.force_unit, an.model.length_unit)
     rep = build_report(an.model, an.determinacy, an.results, force_unit=fu, length_unit=lu,
-                       deflection_limits=settings.deflection_limits())
+                       deflection_limits=settings.deflection_limits(), drift=settings.drift_options())
     return rep, settings
 
 

@@ -297,6 +297,11 @@ class FileOutcome:
     max_v: float | None = None
     max_n: float | None = None
     worst_deflection_ratio: float | None = None
+    # storeys and drift (issue 18): worst service drift as h / n, and whether
+    # any span/deflection or drift check fails
+    worst_drift_ratio: float | None = None
+    deflection_fails: bool = False
+    drift_fails: bool = False
     units: tuple[str, str] | None = None
     seconds: float = 0.0
     outputs: list[str] = field(default_factory=list)
@@ -318,7 +323,23 @@ def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
         "csv": drawing.with_suffix(".csv"),
         "png": drawing.with_suffix(".png"),
     }
+    paths.update(_storey_paths(drawing))
     return paths
+
+
+def _storey_paths(drawing: Path) -> dict[str, Path]:
+    """The storey drift and node CSVs beside the member CSV."""
+    return {"drift_csv": drawing.with_name(f"{drawing.stem}-drift.csv"),
+            "nodes_csv": drawing.with_name(f"{drawing.stem}-nodes.csv")}
+
+
+def _storey_checks(report: dict) -> dict:
+    """Worst service drift (as h / n, from the report's ``storeys``) and
+    which checks fail (from its ``checks``)."""
+    ratios = [abs(s["ratio"]) for s in report.get("storeys", []) if s.get("ratio")]
+    kinds = {c["check"] for c in report.get("checks", [])}
+    return {"worst_drift_ratio": (1.0 / max(ratios)) if ratios else None,
+            "deflection_fails": "deflection" in kinds, "drift_fails": "drift" in kinds}
 
 
 def _governing(report: dict) -> dict[str, float | None]:
@@ -348,6 +369,15 @@ def _governing(report: dict) -> dict[str, float | None]:
         if len(d):
             ratio = float(d.min()) if ratio is None else min(ratio, float(d.min()))
     return {"max_m": big["m"], "max_v": big["v"], "max_n": big["n"], "worst_deflection_ratio": ratio}
+
+
+def _write_storey_csvs(report: dict, staged: dict[str, Path]) -> list[str]:
+    """The drift and node CSVs (see report.storeys); returns their keys."""
+    from .report.storeys import write_drift_csv, write_nodes_csv
+
+    write_drift_csv(report, staged["drift_csv"])
+    write_nodes_csv(report, staged["nodes_csv"])
+    return ["drift_csv", "nodes_csv"]
 
 
 def check_outputs(source: Path, paths: dict[str, Path]) -> None:
@@ -488,7 +518,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 writer.write_result_drawing(
                     source, staged["drawing"], model, det, analysis.results, show=show,
                     layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
-                    document=analysis.document,
+                    document=analysis.document, drift=settings.drift_options(),
                 )
             else:
                 writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,
@@ -500,11 +530,14 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             rep = report_mod.assemble_report(
                 model, det, analysis.results, force_unit=force_u, length_unit=length_u,
                 probes=req.probes, deflection_limits=settings.deflection_limits(),
+                drift=settings.drift_options(),
             )
+            outcome.warnings += [w for w in rep["warnings"] if w not in outcome.warnings]
             with_csv = req.csv and analysis.stable
             report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
             analysis.timings["report"] = time.perf_counter() - t0
             written = ["drawing", "report"] + (["csv"] if with_csv else [])
+            written += _write_storey_csvs(rep, staged) if with_csv else []
             if req.png:
                 t0 = time.perf_counter()
                 drawn = _try_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u,
@@ -521,7 +554,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 written.append("sheets")
                 paths["sheets"] = final / sheet_dir.name
                 staged["sheets"] = sheet_dir
-            governing = _governing(rep) if analysis.stable else {}
+            governing = {**_governing(rep), **_storey_checks(rep)} if analysis.stable else {}
             committed = out_set.commit({staged[k]: paths[k] for k in written})
         outcome.outputs = [str(t) for t in committed]
 

@@ -53,6 +53,10 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
 ``[compare]``
     ``threshold`` (relative change reported by the revision comparison,
     default 0.05).
+``[drift]``
+    ``limit`` (storey drift as h / limit, default 400), ``measure``
+    (``"mean"`` or ``"max"`` over a storey's column lines), ``levels``
+    (storey tops in drawing units; default: where beams meet columns).
 
 Layer names are matched case-insensitively, as CAD programs do.  Quantity
 strings are parsed by :mod:`dxf2frame.units`; this module itself does not
@@ -124,6 +128,10 @@ _TOP_KEYS = {
     "units", "geometry", "limits", "layers", "blocks", "attributes",
     "output_layers", "sections", "combinations", "deflection", "compare", "cases", "analysis",
 }
+# storeys and drift (issue 18)
+_TOP_KEYS = _TOP_KEYS | {"drift"}
+#: how a storey's drift is taken over its column lines (solver.storey_drifts)
+DRIFT_MEASURES: tuple[str, ...] = ("mean", "max")
 
 
 def _ro(d: Mapping) -> dict:
@@ -161,6 +169,11 @@ class Settings:
     deflection_layers : {upper-case layer: limit}
     compare_threshold : relative change flagged by the revision comparison
     source : the settings file read, or None for defaults
+    drift_limit : storey drift limit as h / limit, default 400 (common
+        practice for service wind drift, usual range 600 to 400)
+    drift_measure : "mean" (default) or "max" over a storey's column lines
+    drift_levels : storey top elevations in drawing units, or None (found
+        where beams meet columns)
     """
 
     force_unit: str = "kN"
@@ -185,6 +198,11 @@ class Settings:
     deflection_layers: Mapping[str, float] = field(default_factory=lambda: _ro({}))
     compare_threshold: float = 0.05
     source: Path | None = None
+    # storeys and drift (issue 18): h / limit, "mean" or "max" over the
+    # column lines, storey tops in drawing units (None: found from the frame)
+    drift_limit: float = 400.0
+    drift_measure: str = "mean"
+    drift_levels: tuple[float, ...] | None = None
 
     # derived lookups (built once)
     def __post_init__(self) -> None:
@@ -260,6 +278,11 @@ class Settings:
     def deflection_limit_for(self, layer: str) -> float:
         """Span / limit ratio for members on ``layer``."""
         return self.deflection_layers.get(layer.upper(), self.deflection_limit)
+
+    def drift_options(self) -> dict[str, Any]:
+        """``{"limit": 400.0, "measure": "mean", "levels": None}`` (levels in drawing units)."""
+        return {"limit": self.drift_limit, "measure": self.drift_measure,
+                "levels": None if self.drift_levels is None else list(self.drift_levels)}
 
     def deflection_limits(self) -> dict[str, Any]:
         """``{"limit": 240.0, "layers": {"FRAME-BEAMS": 360.0}}`` (layer names upper case)."""
@@ -530,7 +553,30 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
     if "threshold" in cp:
         kw["compare_threshold"] = _number(cp["threshold"], "compare.threshold", path, allow_zero=True)
 
+    _drift_settings(data, path, kw)
     return Settings(**kw)
+
+
+def _drift_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:
+    """``[drift]``: ``limit`` (h / limit), ``measure`` ("mean" or "max"),
+    ``levels`` (storey tops in drawing units, ascending)."""
+    dr = _table(data, "drift", path)
+    _check_keys(dr, {"limit", "measure", "levels"}, "drift", path)
+    if "limit" in dr:
+        kw["drift_limit"] = _number(dr["limit"], "drift.limit", path)
+    if "measure" in dr:
+        m = _str(dr["measure"], "drift.measure", path).lower()
+        if m not in DRIFT_MEASURES:
+            raise SettingsError(f"must be one of {', '.join(DRIFT_MEASURES)}, got {dr['measure']!r}",
+                                path=path, key="drift.measure")
+        kw["drift_measure"] = m
+    if "levels" in dr:
+        lv = dr["levels"]
+        if (not isinstance(lv, list) or not lv
+                or not all(isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) for v in lv)):
+            raise SettingsError("must be a non-empty list of elevations in drawing units, e.g. [3000, 6000]",
+                                path=path, key="drift.levels")
+        kw["drift_levels"] = tuple(sorted(float(v) for v in lv))
 
 
 def load_settings(path: Path | str | None = None, drawing: Path | str | None = None) -> Settings:
