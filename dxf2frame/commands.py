@@ -25,12 +25,13 @@ def run_check(args) -> int:
     from .read.reader import read_drawing
     from .settings import load_settings
 
-    from .pipeline import combination_specs
+    from .pipeline import add_self_weight_loads, combination_specs
     from .read.sketch_checks import (EQUAL_STIFFNESS_WARNING, absent_case_notes, combination_problems, section_lines,
                                  stiffness_basis)
 
     settings = load_settings(args.settings, args.drawing)
     model = read_drawing(args.drawing, settings, length_unit=args.length_unit)
+    add_self_weight_loads(model, settings)
     frame = model.frame
     det = check(frame, unit_scale=model.unit_scale)
     # the same checks as solve, so that the two commands agree
@@ -61,6 +62,7 @@ def run_check(args) -> int:
         + (", ".join(f"{c} {n}" for c, n in loads_per_case.items()) or "none"),
         f"sections     {stiffness}",
         *(f"  layer      {t}" for t in section_lines(frame, settings)),
+        *(f"self-weight  {t.removeprefix('self-weight: ')}" for t in model.notes if t.startswith("self-weight")),
         "",
         f"determinacy  {det.status}" + (f", degree {det.degree}" if det.status == "indeterminate" else "")
         + (f", {det.mechanisms} mechanism(s)" if det.mechanisms else ""),

@@ -37,6 +37,7 @@ __all__ = [
     "FileOutcome",
     "analyse",
     "combination_specs",
+    "add_self_weight_loads",
     "solve_file",
     "output_paths",
     "check_outputs",
@@ -212,6 +213,36 @@ def _first_non_finite(res: CaseResult) -> str | None:
     return None
 
 
+def add_self_weight_loads(model: DrawingModel, settings: Settings) -> None:
+    """With ``[self_weight] case`` set: a gravity load rho*g*A along every
+    member (``solver.add_self_weight``), in that case (mapped through
+    ``[cases]``), and a line in ``model.notes`` with the total.
+
+    Raises :class:`SettingsError` naming the layer of a member whose section
+    has no density or no area."""
+    from .solver import STANDARD_GRAVITY, add_self_weight
+
+    case = settings.self_weight_case
+    if case is None or not model.frame.members:
+        return
+    frame = model.frame
+    for m in frame.members:
+        if m.section is None:
+            raise SettingsError(f"[self_weight] needs the area of every member; layer {m.layer} has no section "
+                                f"(member {m.group}, handle {m.handle})", key="self_weight.case")
+        if settings.density_for(m.layer) is None:
+            raise SettingsError(f"[self_weight] needs a density for layer {m.layer} (member {m.group}, handle "
+                                f"{m.handle}): give density = \"7850 kg/m**3\" or material = \"steel\" in its "
+                                "section or in [sections.default]", key="self_weight.case")
+    case = settings.case_name(case)
+    loads = add_self_weight(frame, lambda m: settings.density_for(m.layer), case)
+    length = {m.id: frame.geometry(m)[0] for m in frame.members}
+    total = sum(-ld.q1[1] * length[ld.member] for ld in loads)           # N
+    model.notes.append(f"self-weight: {len(loads)} member loads, {total / 1e3:.4g} kN in all, in load case {case} "
+                       f"(density x g x A along each member, g = {STANDARD_GRAVITY} m/s**2; densities from "
+                       "[sections])")
+
+
 def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | None = None) -> Analysis:
     """Read, check and (when stable) solve one drawing.
 
@@ -227,6 +258,7 @@ def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | 
     t0 = time.perf_counter()
     settings = settings if settings is not None else load_settings(None, path)
     model, document = read_file(path, settings, length_unit=length_unit)
+    add_self_weight_loads(model, settings)
     t["read"] = time.perf_counter() - t0
 
     t0 = time.perf_counter()

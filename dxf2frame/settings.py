@@ -129,7 +129,7 @@ _TOP_KEYS = {
     "output_layers", "sections", "combinations", "deflection", "compare", "cases", "analysis",
 }
 # storeys and drift (issue 18)
-_TOP_KEYS = _TOP_KEYS | {"drift"}
+_TOP_KEYS = _TOP_KEYS | {"drift", "self_weight"}
 #: how a storey's drift is taken over its column lines (solver.storey_drifts)
 DRIFT_MEASURES: tuple[str, ...] = ("mean", "max")
 
@@ -203,6 +203,13 @@ class Settings:
     drift_limit: float = 400.0
     drift_measure: str = "mean"
     drift_levels: tuple[float, ...] | None = None
+    # sections from shapes and self-weight (issue 18): density [kg/m**3] per
+    # section key, the shape text and outline name per section key, the case
+    # the members' own weight joins (None: no self-weight)
+    section_density: Mapping[str, float] = field(default_factory=lambda: _ro({}))
+    section_shapes: Mapping[str, str] = field(default_factory=lambda: _ro({}))
+    section_outlines: Mapping[str, str] = field(default_factory=lambda: _ro({}))
+    self_weight_case: str | None = None
 
     # derived lookups (built once)
     def __post_init__(self) -> None:
@@ -278,6 +285,11 @@ class Settings:
     def deflection_limit_for(self, layer: str) -> float:
         """Span / limit ratio for members on ``layer``."""
         return self.deflection_layers.get(layer.upper(), self.deflection_limit)
+
+    def density_for(self, layer: str) -> float | None:
+        """Density [kg/m**3] of the section of ``layer`` (its own, else the
+        default's), or None."""
+        return self.section_density.get(layer.upper(), self.section_density.get("DEFAULT"))
 
     def drift_options(self) -> dict[str, Any]:
         """``{"limit": 400.0, "measure": "mean", "levels": None}`` (levels in drawing units)."""
@@ -463,7 +475,7 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
         key = f"sections.{name}"
         if not isinstance(tab, Mapping):
             raise SettingsError("must be a table with E, A, I (and optionally name)", path=path, key=key)
-        _check_keys(tab, {"E", "A", "I", "name"}, key, path)
+        _check_keys(tab, {"E", "A", "I", "name"} | SECTION_SHAPE_KEYS, key, path)
         raw[str(name).upper()] = {
             ("name" if str(k).lower() == "name" else str(k).upper()): v for k, v in tab.items()
         }
@@ -472,12 +484,14 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
         for q, kind in (("E", "stress"), ("A", "area"), ("I", "inertia")):
             if q in raw["DEFAULT"]:
                 default_vals[q] = _quantity(raw["DEFAULT"][q], kind, f"sections.default.{q}", path)
+        default_vals.update(_shape_values("DEFAULT", raw["DEFAULT"], path))
     sections: dict[str, Section] = {}
     for name, tab in raw.items():
         vals = dict(default_vals)
         for q, kind in (("E", "stress"), ("A", "area"), ("I", "inertia")):
             if q in tab:
                 vals[q] = _quantity(tab[q], kind, f"sections.{name}.{q}", path)
+        vals.update(_shape_values(name, tab, path))
         missing = [q for q in ("E", "A", "I") if q not in vals]
         if missing:
             raise SettingsError(
@@ -554,7 +568,91 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
         kw["compare_threshold"] = _number(cp["threshold"], "compare.threshold", path, allow_zero=True)
 
     _drift_settings(data, path, kw)
+    _self_weight_settings(data, path, kw)
     return Settings(**kw)
+
+
+# -- sections from shapes, materials and self-weight (issue 18) ------------------
+
+#: keys of a section table besides E, A, I, name
+SECTION_SHAPE_KEYS = frozenset({"shape", "shape_unit", "outline", "material", "density"})
+
+#: Young's modulus [Pa] of the materials whose E is one value: structural
+#: steel 200 GPa (AISC 360 E = 29,000 ksi; from memory), aluminium alloys
+#: 70 GPa (EN 1999-1-1 3.2.5, from memory).  Concrete and timber vary with
+#: grade: give E.
+MATERIAL_E: dict[str, float] = {"steel": 200e9, "aluminium": 70e9}
+
+_SHAPE_UNITS = {"mm": 1e-3, "cm": 1e-2, "m": 1.0, "in": 0.0254, "inch": 0.0254, "ft": 0.3048}
+
+
+def _shape_values(name: str, tab: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """E, A, I given by a section's ``shape`` (with ``shape_unit``) and
+    ``material``; ``{}`` when the table has neither.  Raises SettingsError
+    for a bad shape, unit or material, or a shape given with A or I."""
+    from .solver import DENSITY, ShapeError, shape_properties
+
+    key = f"sections.{'default' if name == 'DEFAULT' else name}"
+    tab = {str(k).lower(): v for k, v in tab.items()}
+    out: dict[str, Any] = {}
+    if "material" in tab:
+        mat = _str(tab["material"], f"{key}.material", path)
+        if mat not in DENSITY:
+            raise SettingsError(f"unknown material {mat!r}; expected one of {', '.join(DENSITY)}",
+                                path=path, key=f"{key}.material")
+        if mat in MATERIAL_E and "e" not in tab:
+            out["E"] = MATERIAL_E[mat]
+    unit_text = tab.get("shape_unit", "mm")
+    if "shape_unit" in tab and "shape" not in tab:
+        raise SettingsError("shape_unit without shape", path=path, key=f"{key}.shape_unit")
+    if "shape" in tab:
+        both = [q.upper() for q in ("a", "i") if q in tab]
+        if both or "outline" in tab:
+            raise SettingsError(f"give the section by shape or by {' and '.join(both) or 'outline'}, not both",
+                                path=path, key=f"{key}.shape")
+        if not isinstance(unit_text, str) or unit_text.strip().lower() not in _SHAPE_UNITS:
+            raise SettingsError(f"must be one of {', '.join(_SHAPE_UNITS)}, got {unit_text!r}", path=path,
+                                key=f"{key}.shape_unit")
+        text = _str(tab["shape"], f"{key}.shape", path)
+        try:
+            p = shape_properties(text, _SHAPE_UNITS[unit_text.strip().lower()])
+        except ShapeError as exc:
+            raise SettingsError(str(exc), path=path, key=f"{key}.shape") from None
+        out["A"], out["I"] = p.area, p.Ix
+    return out
+
+
+def _section_extras(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """Per section (upper-case layer or DEFAULT): density [kg/m**3] from
+    ``density`` or ``material``, the shape text, the outline name."""
+    from .solver import DENSITY
+
+    dens, shapes, outlines = {}, {}, {}
+    for name, tab in _table(data, "sections", path).items():
+        if not isinstance(tab, Mapping):
+            continue
+        up = str(name).upper()
+        key = f"sections.{name}"
+        t = {str(k).lower(): v for k, v in tab.items()}
+        if "density" in t:
+            dens[up] = _quantity(t["density"], "density", f"{key}.density", path)
+        elif "material" in t and t["material"] in DENSITY:
+            dens[up] = DENSITY[t["material"]]
+        if "shape" in t:
+            shapes[up] = f"{str(t['shape']).strip()} ({str(t.get('shape_unit', 'mm')).strip()})"
+        if "outline" in t:
+            outlines[up] = _str(t["outline"], f"{key}.outline", path).upper()
+    return {"section_density": _ro(dens), "section_shapes": _ro(shapes), "section_outlines": _ro(outlines)}
+
+
+def _self_weight_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:
+    """``[self_weight] case``: the load case the members' own weight joins;
+    densities come from the sections (``density`` or ``material``)."""
+    kw.update(_section_extras(data, path))
+    sw = _table(data, "self_weight", path)
+    _check_keys(sw, {"case"}, "self_weight", path)
+    if "case" in sw:
+        kw["self_weight_case"] = _str(sw["case"], "self_weight.case", path)
 
 
 def _drift_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:

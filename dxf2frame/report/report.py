@@ -19,7 +19,8 @@ module adds keys but never renames or drops one.  Added keys:
   ``deflection``;
 * storeys and drift: top level ``storeys``, ``drift_check``, ``checks``
   (the failing span/deflection and drift checks); per result ``drift``
-  and ``nodes`` (see :mod:`.storeys`).
+  and ``nodes`` (see :mod:`.storeys`); ``notes``: one line per load the
+  tool generated (self-weight).
 
 Units and signs
 ---------------
@@ -689,6 +690,7 @@ def _add_storeys_and_checks(report: dict, model: "DrawingModel", results: Sequen
 
     storeys.add_storeys(report, model, results, uf.length, drift)
     storeys.finish_checks(report)
+    report["notes"] = list(model.notes)           # loads the tool generated (self-weight)
 
 
 def build_report(model: "DrawingModel", det, results: Sequence, **kw: Any) -> dict:
