@@ -71,6 +71,8 @@ class Analysis:
     combinations: list[CaseResult] = field(default_factory=list)
     timings: dict[str, float] = field(default_factory=dict)
     document: "Drawing | None" = field(default=None, repr=False)
+    # pattern live load (issue 18): report.patterns.PatternedCase per patterned case
+    patterns: list = field(default_factory=list)
 
     @property
     def results(self) -> list[CaseResult]:
@@ -120,7 +122,25 @@ def combination_specs(settings: Settings, present: list[str]) -> list[tuple[str,
             if not factors:
                 continue
         specs.append((format_combination(factors), factors, "user"))
-    return specs
+    return _both_ways(specs, settings)
+
+
+def _both_ways(specs: list[tuple[str, dict[str, float], str]], settings: Settings
+               ) -> list[tuple[str, dict[str, float], str]]:
+    """Every combination holding a reversible case (``[combinations]
+    reversible``, mapped through ``[cases]``) followed by its mirror with
+    that factor negated, per family (``solver.with_reversals``; the names
+    show the sign)."""
+    from .solver import with_reversals
+
+    rev = [settings.case_name(c) for c in settings.combinations_reversible]
+    if not rev:
+        return specs
+    out: list[tuple[str, dict[str, float], str]] = []
+    for family in dict.fromkeys(f for _, _, f in specs):
+        mine = [(n, f) for n, f, fam in specs if fam == family]
+        out += [(n, f, family) for n, f in with_reversals(mine, rev)]
+    return out
 
 
 def strict_message(warnings: list[str]) -> str:
@@ -243,6 +263,31 @@ def add_self_weight_loads(model: DrawingModel, settings: Settings) -> None:
                        "[sections])")
 
 
+def _add_patterns(analysis: Analysis, cases: dict[str, CaseResult]) -> None:
+    """Pattern envelopes of the ``[patterns] cases`` (see report.patterns);
+    a wanted case the drawing lacks is a warning.  Skipped for a frame
+    solved with equal relative stiffness (no displacements needed, but the
+    parts would be solved with other stiffness than the cases)."""
+    settings, model = analysis.settings, analysis.model
+    if not settings.pattern_cases or not model.frame.members:
+        return
+    from .report.patterns import pattern_cases
+
+    wanted = [settings.case_name(c) for c in settings.pattern_cases]
+    if any(r.displacements is None for r in cases.values()) and analysis.determinacy.status != "determinate":
+        model.warnings.append("[patterns]: no pattern envelope for a frame solved without sections "
+                              "(give sections: the arrangement of the parts depends on the stiffness)")
+        return
+    analysis.patterns, notes = pattern_cases(model.frame, cases, analysis.combinations, wanted,
+                                             settings.pattern_by,
+                                             determinate=analysis.determinacy.status == "determinate")
+    model.warnings.extend(notes)
+    for pc in analysis.patterns:
+        model.notes.append(f"pattern load: {pc.case} arranged {pc.by} by {pc.by} ({len(pc.envelope.parts)} parts) "
+                           f"in {len(pc.results)} result(s); the envelopes with the governing patterns are in the "
+                           "report (patterns) and the summary; the diagrams show the case as drawn")
+
+
 def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | None = None) -> Analysis:
     """Read, check and (when stable) solve one drawing.
 
@@ -283,6 +328,7 @@ def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | 
     analysis.cases = list(cases.values())
     for name, factors, family in specs:
         analysis.combinations.append(combine(cases, factors, name, family=family))
+    _add_patterns(analysis, cases)
     t["combine"] = time.perf_counter() - t0
     return analysis
 
@@ -401,6 +447,37 @@ def _governing(report: dict) -> dict[str, float | None]:
         if len(d):
             ratio = float(d.min()) if ratio is None else min(ratio, float(d.min()))
     return {"max_m": big["m"], "max_v": big["v"], "max_n": big["n"], "worst_deflection_ratio": ratio}
+
+
+def _add_pattern_report(rep: dict, analysis: Analysis, force_u: str, length_u: str) -> None:
+    """The report's ``patterns`` (see report.patterns) when any case is patterned."""
+    if not analysis.patterns:
+        return
+    from .report.patterns import pattern_entries
+    from .report.report import unit_factors
+
+    uf = unit_factors(force_u, length_u)
+    rep["patterns"] = pattern_entries(analysis.model.frame, analysis.patterns, uf.force, uf.length)
+
+
+def _pattern_governing(report: dict, governing: dict) -> None:
+    """Raise the summary's largest |M|, |V|, |N| to the pattern envelopes of
+    the strength results (as :func:`_governing` picks them)."""
+    if not report.get("patterns"):
+        return
+    results = report.get("results", [])
+    combos = [r for r in results if r.get("kind") == "combination"]
+    strength = {r["name"] for r in ([r for r in combos if r.get("family") == "LRFD"] or combos or results)}
+    for p in report["patterns"]:
+        for res in p["results"]:
+            if res["name"] not in strength:
+                continue
+            for m in res["members"]:
+                for q in ("m", "v", "n"):
+                    vals = [abs(v) for v in (m[f"{q}_max"], m[f"{q}_min"]) if v is not None]
+                    if vals:
+                        cur = governing.get(f"max_{q}")
+                        governing[f"max_{q}"] = max(vals) if cur is None else max(cur, max(vals))
 
 
 def _write_storey_csvs(report: dict, staged: dict[str, Path]) -> list[str]:
@@ -564,6 +641,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 probes=req.probes, deflection_limits=settings.deflection_limits(),
                 drift=settings.drift_options(),
             )
+            _add_pattern_report(rep, analysis, force_u, length_u)
             outcome.warnings += [w for w in rep["warnings"] if w not in outcome.warnings]
             with_csv = req.csv and analysis.stable
             report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
@@ -587,6 +665,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 paths["sheets"] = final / sheet_dir.name
                 staged["sheets"] = sheet_dir
             governing = {**_governing(rep), **_storey_checks(rep)} if analysis.stable else {}
+            _pattern_governing(rep, governing)
             committed = out_set.commit({staged[k]: paths[k] for k in written})
         outcome.outputs = [str(t) for t in committed]
 

@@ -46,13 +46,17 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
 ``[combinations]``
     ``builtin`` (subset of ``["LRFD", "ASD"]``), ``extra`` (list of
     combination strings, parsed by the solver), ``draw`` (what the
-    diagrams in the output drawing show).
+    diagrams in the output drawing show), ``reversible`` (cases acting both
+    ways, default ``["W", "E"]``).
 ``[deflection]``
     ``limit`` (span / limit, default 240), ``[deflection.layers]`` per
     member layer.
 ``[compare]``
     ``threshold`` (relative change reported by the revision comparison,
     default 0.05).
+``[patterns]``
+    ``cases`` (load cases arranged span by span for the envelope, e.g.
+    ``["L"]``), ``by`` (``"span"`` or ``"member"``).
 ``[drift]``
     ``limit`` (storey drift as h / limit, default 400), ``measure``
     (``"mean"`` or ``"max"`` over a storey's column lines), ``levels``
@@ -129,7 +133,7 @@ _TOP_KEYS = {
     "output_layers", "sections", "combinations", "deflection", "compare", "cases", "analysis",
 }
 # storeys and drift (issue 18)
-_TOP_KEYS = _TOP_KEYS | {"drift", "self_weight"}
+_TOP_KEYS = _TOP_KEYS | {"drift", "self_weight", "patterns"}
 #: how a storey's drift is taken over its column lines (solver.storey_drifts)
 DRIFT_MEASURES: tuple[str, ...] = ("mean", "max")
 
@@ -165,6 +169,8 @@ class Settings:
     combinations_builtin : names of built-in sets ("LRFD", "ASD")
     combinations_extra : combination strings such as "1.2D + 1.6L"
     combinations_draw : what the output drawing shows ("envelope:LRFD", a case or combination)
+    combinations_reversible : load cases acting both ways: every
+        combination holding one also appears with its factor negated
     deflection_limit : span / limit, default 240
     deflection_layers : {upper-case layer: limit}
     compare_threshold : relative change flagged by the revision comparison
@@ -210,6 +216,11 @@ class Settings:
     section_shapes: Mapping[str, str] = field(default_factory=lambda: _ro({}))
     section_outlines: Mapping[str, str] = field(default_factory=lambda: _ro({}))
     self_weight_case: str | None = None
+    # reversible cases (issue 18): combinations holding them appear with both signs
+    combinations_reversible: tuple[str, ...] = ("W", "E")
+    # pattern live load (issue 18): cases arranged span by span, and how
+    pattern_cases: tuple[str, ...] = ()
+    pattern_by: str = "span"
 
     # derived lookups (built once)
     def __post_init__(self) -> None:
@@ -531,7 +542,7 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
 
     # [combinations]
     co = _table(data, "combinations", path)
-    _check_keys(co, {"builtin", "extra", "draw"}, "combinations", path)
+    _check_keys(co, {"builtin", "extra", "draw", "reversible"}, "combinations", path)
     if "builtin" in co:
         b = co["builtin"]
         if not isinstance(b, list) or not all(isinstance(x, str) for x in b):
@@ -569,6 +580,8 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
 
     _drift_settings(data, path, kw)
     _self_weight_settings(data, path, kw)
+    _reversible_settings(data, path, kw)
+    _pattern_settings(data, path, kw)
     return Settings(**kw)
 
 
@@ -643,6 +656,35 @@ def _section_extras(data: Mapping[str, Any], path: str) -> dict[str, Any]:
         if "outline" in t:
             outlines[up] = _str(t["outline"], f"{key}.outline", path).upper()
     return {"section_density": _ro(dens), "section_shapes": _ro(shapes), "section_outlines": _ro(outlines)}
+
+
+def _pattern_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:
+    """``[patterns]``: ``cases`` (load cases arranged part by part, ASCE/SEI
+    7-16 4.3.3 partial loading), ``by`` ("span" or "member")."""
+    pt = _table(data, "patterns", path)
+    _check_keys(pt, {"cases", "by"}, "patterns", path)
+    if "cases" in pt:
+        c = pt["cases"]
+        if not isinstance(c, list) or not all(isinstance(x, str) and x.strip() for x in c):
+            raise SettingsError("must be a list of load case names, e.g. [\"L\"]", path=path, key="patterns.cases")
+        kw["pattern_cases"] = tuple(dict.fromkeys(x.strip() for x in c))
+    if "by" in pt:
+        b = _str(pt["by"], "patterns.by", path).lower()
+        if b not in ("span", "member"):
+            raise SettingsError(f"must be span or member, got {pt['by']!r}", path=path, key="patterns.by")
+        kw["pattern_by"] = b
+
+
+def _reversible_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:
+    """``[combinations] reversible``: load cases that act both ways (default
+    ``["W", "E"]``; ``[]`` for none)."""
+    co = _table(data, "combinations", path)
+    if "reversible" in co:
+        r = co["reversible"]
+        if not isinstance(r, list) or not all(isinstance(x, str) and x.strip() for x in r):
+            raise SettingsError("must be a list of load case names, e.g. [\"W\", \"E\"] (or [] for none)",
+                                path=path, key="combinations.reversible")
+        kw["combinations_reversible"] = tuple(dict.fromkeys(x.strip() for x in r))
 
 
 def _self_weight_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:
