@@ -618,6 +618,13 @@ def _shape_values(name: str, tab: Mapping[str, Any], path: str) -> dict[str, Any
     unit_text = tab.get("shape_unit", "mm")
     if "shape_unit" in tab and "shape" not in tab:
         raise SettingsError("shape_unit without shape", path=path, key=f"{key}.shape_unit")
+    if "outline" in tab:
+        if any(q in tab for q in ("a", "i", "shape")):
+            raise SettingsError("give the section by outline or by shape / A and I, not both", path=path,
+                                key=f"{key}.outline")
+        # stand-ins, replaced by the outline drawn on layer SECTION-<name> when the drawing is
+        # read (read.section_outlines; a missing outline is an error there, never these values)
+        out["A"], out["I"] = 1.0, 1.0
     if "shape" in tab:
         both = [q.upper() for q in ("a", "i") if q in tab]
         if both or "outline" in tab:
@@ -655,6 +662,12 @@ def _section_extras(data: Mapping[str, Any], path: str) -> dict[str, Any]:
             shapes[up] = f"{str(t['shape']).strip()} ({str(t.get('shape_unit', 'mm')).strip()})"
         if "outline" in t:
             outlines[up] = _str(t["outline"], f"{key}.outline", path).upper()
+    default = outlines.get("DEFAULT")
+    if default is not None:              # a layer section taking A and I from a drawn default outline
+        for name, tab in _table(data, "sections", path).items():
+            t = {str(k).lower() for k in tab} if isinstance(tab, Mapping) else set()
+            if str(name).upper() != "DEFAULT" and not t & {"a", "i", "shape", "outline"}:
+                outlines[str(name).upper()] = default
     return {"section_density": _ro(dens), "section_shapes": _ro(shapes), "section_outlines": _ro(outlines)}
 
 

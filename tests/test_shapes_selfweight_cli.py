@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import json
 import math
+import re
 
 import pytest
 
@@ -130,3 +131,46 @@ def test_bad_shape_and_self_weight_settings(tmp_path, capsys, toml, key):
     path = _beam(tmp_path, toml)
     code, rep, text = _solve(tmp_path, path, capsys)
     assert code == 2 and key in text.err and rep is None
+
+
+def _angle_drawing(tmp_path, toml: str, *, closed: bool = True):
+    (tmp_path / "dxf2frame.toml").write_text(toml, encoding="utf-8")
+    doc = new_drawing(units="mm")
+    msp = doc.modelspace()
+    add_member(msp, (0, 0), (6000, 0))
+    add_support(msp, "pin", (0, 0))
+    add_support(msp, "roller", (6000, 0))
+    add_load(msp, "udl", (3000, 0), W="2 kN/m", CASE="D")
+    doc.layers.add("SECTION-L1")
+    # an L: a 100 x 10 leg along the bottom and a 10 x 140 leg up the left side (mm)
+    msp.add_lwpolyline([(20000, 0), (20100, 0), (20100, 10), (20010, 10), (20010, 150), (20000, 150)],
+                       close=closed, dxfattribs={"layer": "SECTION-L1"})
+    return save(doc, tmp_path / "beam.dxf")
+
+
+def test_section_drawn_as_an_outline(tmp_path, capsys):
+    path = _angle_drawing(tmp_path, '[sections.default]\nE = "200 GPa"\noutline = "L1"\n[combinations]\nbuiltin = []\n')
+    # hand computation (parallel-axis theorem, worked here): legs A1 = 100*10 at y 5, A2 = 10*140 at y 80
+    a1, y1, a2, y2 = 1000.0, 5.0, 1400.0, 80.0
+    area = a1 + a2
+    yc = (a1 * y1 + a2 * y2) / area
+    inertia = 100 * 10**3 / 12 + a1 * (y1 - yc) ** 2 + 10 * 140**3 / 12 + a2 * (y2 - yc) ** 2   # mm^4
+    code, out = _check(path, capsys)
+    assert code == 0, out.err
+    got = re.search(r"A = (\S+) mm\*\*2, I = (\S+) mm\*\*4", out.out)
+    assert float(got.group(1)) == pytest.approx(area, rel=1e-4)          # printed to 5 digits
+    assert float(got.group(2)) == pytest.approx(inertia, rel=1e-4)
+    code, rep, text = _solve(tmp_path, path, capsys)
+    assert code == 0, text.err
+    # simply supported beam, uniform load: 5 w L^4 / (384 E I) (AISC Manual beam diagrams case 1, from memory)
+    defl = 5 * 2e3 * 6.0**4 / (384 * 200e9 * inertia * 1e-12)
+    assert rep["results"][0]["members"][0]["deflection_rel_max"] == pytest.approx(defl, rel=1e-6)
+
+
+def test_section_outline_missing_or_open(tmp_path, capsys):
+    path = _angle_drawing(tmp_path, '[sections.default]\nE = "200 GPa"\noutline = "B7"\n')
+    code, rep, text = _solve(tmp_path, path, capsys)
+    assert code == 2 and "sections.default.outline" in text.err and "SECTION-B7" in text.err and rep is None
+    path = _angle_drawing(tmp_path, '[sections.default]\nE = "200 GPa"\noutline = "L1"\n', closed=False)
+    code, rep, text = _solve(tmp_path, path, capsys)
+    assert code == 2 and "SECTION-L1" in text.err and "closed" in text.err
