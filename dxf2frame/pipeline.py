@@ -10,7 +10,7 @@ import gc
 import math
 import time
 import traceback
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -449,6 +449,32 @@ def _governing(report: dict) -> dict[str, float | None]:
     return {"max_m": big["m"], "max_v": big["v"], "max_n": big["n"], "worst_deflection_ratio": ratio}
 
 
+def _pattern_drawing(analysis: Analysis, show: str) -> tuple[list[CaseResult], str]:
+    """What the result drawing draws: ``show = "patterns:<result>"`` (a
+    patterned case or a combination holding one) draws the envelope of the
+    arrangements that govern M somewhere (each built as a result of family
+    ``patterns:<result>``); anything else the results as they are."""
+    if not show.lower().startswith("patterns:"):
+        return analysis.results, show
+    want = show.partition(":")[2].strip()
+    squash = lambda s: "".join(s.split()).lower()  # noqa: E731
+    for pc in analysis.patterns:
+        for name, base, factor in pc.results:
+            if squash(name) != squash(want):
+                continue
+            env = pc.envelope.station_envelope("M", factor=factor, base=base)
+            chosen = dict.fromkeys(list(env["max_parts"]) + list(env["min_parts"]))
+            family = f"patterns:{name}"
+            extra = []
+            for parts in chosen:
+                r = pc.envelope.pattern_result(parts, factor=factor, base=base)
+                extra.append(replace(r, family=family))
+            return analysis.results + extra, f"envelope:{family}"
+    names = [n for pc in analysis.patterns for n, _, _ in pc.results]
+    raise SettingsError(f"no patterned result named {want!r} to draw; patterned: "
+                        + (", ".join(names) or "none (set [patterns] cases)"), key="combinations.draw")
+
+
 def _add_pattern_report(rep: dict, analysis: Analysis, force_u: str, length_u: str) -> None:
     """The report's ``patterns`` (see report.patterns) when any case is patterned."""
     if not analysis.patterns:
@@ -623,9 +649,10 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             staged = {k: out_set.staged(p.name) for k, p in paths.items()}
             t0 = time.perf_counter()
             show = req.show or settings.combinations_draw
+            drawn_results, drawn_show = _pattern_drawing(analysis, show)
             if analysis.stable:
                 writer.write_result_drawing(
-                    source, staged["drawing"], model, det, analysis.results, show=show,
+                    source, staged["drawing"], model, det, drawn_results, show=drawn_show,
                     layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
                     document=analysis.document, drift=settings.drift_options(),
                 )

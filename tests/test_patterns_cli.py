@@ -69,3 +69,20 @@ def test_bad_pattern_settings(tmp_path, capsys):
     path, _ = _three_spans(tmp_path, '[patterns]\ncases = ["L"]\nby = "bay"\n')
     code = main(["solve", str(path), "--out", str(tmp_path / "out"), "--no-png"])
     assert code == 2 and "patterns.by" in capsys.readouterr().err
+
+
+def test_pattern_envelope_drawn_when_shown(tmp_path, capsys):
+    import ezdxf
+
+    path, (m1, m2, m3) = _three_spans(tmp_path, '[combinations]\nbuiltin = []\nextra = ["1.6L"]\n'
+                                                '[patterns]\ncases = ["L"]\n')
+    out = tmp_path / "out"
+    code = main(["solve", str(path), "--out", str(out), "--no-png", "--units", "kN,m", "--show", "patterns:1.6L"])
+    assert code == 0, capsys.readouterr().err
+    doc = ezdxf.readfile(out / "cb-results.dxf")
+    texts = " ".join(t.dxf.text for t in doc.modelspace().query('TEXT[layer=="RESULT-MOMENT"]'))
+    # the first interior support: -1.6 * 7/60 w L^2 (three-span coefficient table, from memory)
+    assert f"M={-1.6 * 7 / 60 * W * L**2:.2f}" in texts
+    assert f"1.6(L on {m1}, {m2})" in texts                    # the governing pattern is named
+    code = main(["solve", str(path), "--out", str(tmp_path / "o2"), "--no-png", "--show", "patterns:D"])
+    assert code == 2 and "no patterned result named 'D'" in capsys.readouterr().err
