@@ -34,7 +34,15 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
 ``[sections.default]``, ``[sections."<LAYER>"]``
     ``E``, ``A``, ``I`` as quantity strings with units (``"200 GPa"``,
     ``"5000 mm**2"``, ``"8e7 mm**4"``) and an optional ``name``.  A layer
-    section may leave out values that the default section gives.
+    section may leave out values that the default section gives.  Instead
+    of A and I: ``shape`` (``"I 310x165x6x10"``, sizes in ``shape_unit``,
+    default mm) or ``outline`` (the closed polyline on layer
+    ``SECTION-<name>``); ``material`` (a name of ``solver.DENSITY``: the
+    density, and E for steel and aluminium) or ``density``
+    (``"7850 kg/m**3"``).
+``[self_weight]``
+    ``case``: the load case the members' own weight joins (needs a density
+    for every member's section).
 ``[cases]``
     an office's own load case names mapped onto the standard case letters
     of ASCE/SEI 7 (``D L Lr S R W E``), e.g. ``LIVE = "L"``; names are

@@ -219,3 +219,23 @@ def test_levels_from_settings(tmp_path, capsys):
     code, rep, text, *_ = _solve(tmp_path, _portal(tmp_path, 4.0, 6.0, 10.0), capsys)
     assert code == 0
     assert [s["top"] for s in rep["storeys"]] == [4.0] and rep["drift_check"]["measure"] == "max"
+
+
+def test_drawing_in_millimetres_levels_in_drawing_units(tmp_path, capsys):
+    h, L, H, ib = 4.0, 6.0, 10e3, 1.2e-4
+    _settings(tmp_path, _sections(ib) + "[drift]\nlevels = [4000]\n")
+    doc = new_drawing(units="mm")
+    msp = doc.modelspace()
+    doc.layers.add("FRAME-BEAMS")
+    add_member(msp, (0, 0), (0, 4000))
+    add_member(msp, (6000, 0), (6000, 4000))
+    add_member(msp, (0, 4000), (6000, 4000), layer="FRAME-BEAMS")
+    add_support(msp, "fixed", (0, 0))
+    add_support(msp, "fixed", (6000, 0))
+    add_load(msp, "force", (0, 4000), P="10 kN", ANGLE="0", CASE="W")
+    code, rep, text, *_ = _solve(tmp_path, save(doc, tmp_path / "mm.dxf"), capsys, "--units", "kN,mm")
+    assert code == 0, text.err
+    (st,) = rep["storeys"]
+    assert st["top"] == 4000 and st["height"] == 4000
+    # slope-deflection method (sympy, above), in millimetres
+    assert st["drift"] == pytest.approx(_slope_deflection_sway(h, L, H, IC, ib) * 1e3, rel=1e-4)
