@@ -63,6 +63,7 @@ def run_check(args) -> int:
         f"sections     {stiffness}",
         *(f"  layer      {t}" for t in section_lines(frame, settings)),
         *(f"self-weight  {t.removeprefix('self-weight: ')}" for t in model.notes if t.startswith("self-weight")),
+        _storeys_line(model, settings),
         "",
         f"determinacy  {det.status}" + (f", degree {det.degree}" if det.status == "indeterminate" else "")
         + (f", {det.mechanisms} mechanism(s)" if det.mechanisms else ""),
@@ -80,6 +81,18 @@ def run_check(args) -> int:
 
         raise Dxf2FrameError(strict_message(warnings))
     return EXIT_UNSTABLE if det.status == "unstable" else EXIT_OK
+
+
+def _storeys_line(model, settings) -> str:
+    """``storeys      2 (tops at 2.8, 5 m; drift limit h/400)`` from the frame or ``[drift] levels``."""
+    from .pipeline import storeys_of
+
+    st = storeys_of(model, settings)
+    if not len(st):
+        return "storeys      none (no level where a beam meets a column)"
+    tops = ", ".join(f"{t / model.unit_scale:.6g}" for t in st.levels)
+    return (f"storeys      {len(st)} (tops at {tops} {model.length_unit}; drift limit h/{settings.drift_limit:g}, "
+            f"{settings.drift_measure} of the column lines)")
 
 
 def run_solve(args) -> int:

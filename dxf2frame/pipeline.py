@@ -38,6 +38,7 @@ __all__ = [
     "analyse",
     "combination_specs",
     "add_self_weight_loads",
+    "storeys_of",
     "solve_file",
     "output_paths",
     "check_outputs",
@@ -233,6 +234,25 @@ def _first_non_finite(res: CaseResult) -> str | None:
     return None
 
 
+def storeys_of(model: DrawingModel, settings: Settings):
+    """The frame's storeys (``solver.find_storeys``; ``[drift] levels`` in
+    drawing units when given); their warnings (guesses) join
+    ``model.warnings``, so ``check``, ``solve`` and ``--strict`` agree.
+
+    Raises :class:`SettingsError` (key ``drift.levels``) for a level with no
+    column top on it."""
+    from .solver import find_storeys
+
+    levels = settings.drift_levels
+    try:
+        st = find_storeys(model.frame, None if levels is None else [v * model.unit_scale for v in levels])
+    except ValueError as exc:
+        raise SettingsError(f"{exc} (elevations are in drawing units, {model.length_unit})",
+                            key="drift.levels") from None
+    model.warnings.extend(w for w in st.warnings if w not in model.warnings)
+    return st
+
+
 def add_self_weight_loads(model: DrawingModel, settings: Settings) -> None:
     """With ``[self_weight] case`` set: a gravity load rho*g*A along every
     member (``solver.add_self_weight``), in that case (mapped through
@@ -304,6 +324,7 @@ def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | 
     settings = settings if settings is not None else load_settings(None, path)
     model, document = read_file(path, settings, length_unit=length_unit)
     add_self_weight_loads(model, settings)
+    storeys_of(model, settings)
     t["read"] = time.perf_counter() - t0
 
     t0 = time.perf_counter()
