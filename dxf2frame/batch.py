@@ -290,8 +290,11 @@ def _with_source_text(o: FileOutcome, text: str) -> str:
 def summary_table(outcomes: list[FileOutcome]) -> str:
     """Plain-text table: file, status, determinacy, governing |M|, |V|, |N|,
     worst span/deflection ("n/a" for a frame solved without sections), the
-    number of warnings, time."""
-    head = ["file", "status", "determinacy", "max |M|", "max |V|", "max |N|", "span/defl", "warnings", "time s"]
+    worst storey drift (service level), the number of warnings, time.  A
+    value worse than its limit is marked " !" and a note line follows the
+    table."""
+    head = ["file", "status", "determinacy", "max |M|", "max |V|", "max |N|", "span/defl", "drift", "warnings",
+            "time s"]
     rows = []
     for o in outcomes:
         u = o.units
@@ -302,13 +305,31 @@ def summary_table(outcomes: list[FileOutcome]) -> str:
             summary_value(o.max_v) + (f" {u[0]}" if u and o.max_v is not None else ""),
             summary_value(o.max_n) + (f" {u[0]}" if u and o.max_n is not None else ""),
             ("n/a" if o.status == "ok" else "-") if o.worst_deflection_ratio is None
-            else f"L/{o.worst_deflection_ratio:.0f}",
+            else f"L/{o.worst_deflection_ratio:.0f}" + (" !" if o.deflection_fails else ""),
+            _drift_cell(o),
             str(len(o.warnings)),
             f"{o.seconds:.2f}",
         ])
     widths = [max(len(r[i]) for r in [head] + rows) for i in range(len(head))]
     line = lambda r: "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip()  # noqa: E731
-    return "\n".join([line(head), line(["-" * w for w in widths])] + [line(r) for r in rows])
+    table = "\n".join([line(head), line(["-" * w for w in widths])] + [line(r) for r in rows])
+    return table + _checks_note(outcomes)
+
+
+def _drift_cell(o: FileOutcome) -> str:
+    """Worst service storey drift as ``h/n`` (`` !`` when a drift check
+    fails); "n/a" for a solved frame without storeys or sections."""
+    if o.worst_drift_ratio is None:
+        return "n/a" if o.status == "ok" else "-"
+    return f"h/{o.worst_drift_ratio:.0f}" + (" !" if o.drift_fails else "")
+
+
+def _checks_note(outcomes: list[FileOutcome]) -> str:
+    """A line under the table when a check fails (the warnings name the member or storey)."""
+    if not any(o.deflection_fails or o.drift_fails for o in outcomes):
+        return ""
+    return ("\nchecks: ! = worse than the limit in the settings ([deflection] limit, [drift] limit); "
+            "the warnings name each member and storey")
 
 
 def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = None,

@@ -164,7 +164,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="report N, V, M at this drawing point (repeatable)")
     p.add_argument("--show", metavar="NAME",
                    help="what to draw: a load case, a combination ('1.2D+1.6L+0.5S'), "
-                        "or 'envelope:LRFD' / 'envelope:ASD' / 'envelope:all' (default from settings: envelope:LRFD)")
+                        "or 'envelope:LRFD' / 'envelope:ASD' / 'envelope:all', or 'patterns:RESULT' for the pattern "
+                        "envelope of a patterned case or combination (default from settings: envelope:LRFD)")
     p.add_argument("--no-png", action="store_true", help="skip the PNG preview")
     p.add_argument("--sheets", action="store_true",
                    help="also write hand-check calculation sheets for the probes and governing extremes")

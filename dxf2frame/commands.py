@@ -25,12 +25,13 @@ def run_check(args) -> int:
     from .read.reader import read_drawing
     from .settings import load_settings
 
-    from .pipeline import combination_specs
+    from .pipeline import add_self_weight_loads, combination_specs
     from .read.sketch_checks import (EQUAL_STIFFNESS_WARNING, absent_case_notes, combination_problems, section_lines,
                                  stiffness_basis)
 
     settings = load_settings(args.settings, args.drawing)
     model = read_drawing(args.drawing, settings, length_unit=args.length_unit)
+    add_self_weight_loads(model, settings)
     frame = model.frame
     det = check(frame, unit_scale=model.unit_scale)
     # the same checks as solve, so that the two commands agree
@@ -61,6 +62,8 @@ def run_check(args) -> int:
         + (", ".join(f"{c} {n}" for c, n in loads_per_case.items()) or "none"),
         f"sections     {stiffness}",
         *(f"  layer      {t}" for t in section_lines(frame, settings)),
+        *(f"self-weight  {t.removeprefix('self-weight: ')}" for t in model.notes if t.startswith("self-weight")),
+        _storeys_line(model, settings),
         "",
         f"determinacy  {det.status}" + (f", degree {det.degree}" if det.status == "indeterminate" else "")
         + (f", {det.mechanisms} mechanism(s)" if det.mechanisms else ""),
@@ -78,6 +81,18 @@ def run_check(args) -> int:
 
         raise Dxf2FrameError(strict_message(warnings))
     return EXIT_UNSTABLE if det.status == "unstable" else EXIT_OK
+
+
+def _storeys_line(model, settings) -> str:
+    """``storeys      2 (tops at 2.8, 5 m; drift limit h/400)`` from the frame or ``[drift] levels``."""
+    from .pipeline import storeys_of
+
+    st = storeys_of(model, settings)
+    if not len(st):
+        return "storeys      none (no level where a beam meets a column)"
+    tops = ", ".join(f"{t / model.unit_scale:.6g}" for t in st.levels)
+    return (f"storeys      {len(st)} (tops at {tops} {model.length_unit}; drift limit h/{settings.drift_limit:g}, "
+            f"{settings.drift_measure} of the column lines)")
 
 
 def run_solve(args) -> int:
@@ -219,7 +234,7 @@ def _report_of_drawing(path: Path, args, units: tuple[str, str] | None):
     an = analyse(path, settings, length_unit=args.length_unit)
     fu, lu = units if units else (settings.force_unit, an.model.length_unit)
     rep = build_report(an.model, an.determinacy, an.results, force_unit=fu, length_unit=lu,
-                       deflection_limits=settings.deflection_limits())
+                       deflection_limits=settings.deflection_limits(), drift=settings.drift_options())
     return rep, settings
 
 

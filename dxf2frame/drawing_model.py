@@ -43,6 +43,9 @@ class DrawingModel:
     crossings_joined: int = 0
     crossings_separate: list[str] = field(default_factory=list)
     near_misses: list[tuple[float, float, str]] = field(default_factory=list)
+    # loads the tool generated (issue 18: self-weight), one line each, for
+    # check, the report's notes and the notes layer
+    notes: list[str] = field(default_factory=list)
 
     def to_drawing(self, x_m: float, y_m: float) -> tuple[float, float]:
         """Convert analysis coordinates (m) to drawing coordinates."""

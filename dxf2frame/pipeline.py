@@ -10,7 +10,7 @@ import gc
 import math
 import time
 import traceback
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -37,6 +37,8 @@ __all__ = [
     "FileOutcome",
     "analyse",
     "combination_specs",
+    "add_self_weight_loads",
+    "storeys_of",
     "solve_file",
     "output_paths",
     "check_outputs",
@@ -70,6 +72,8 @@ class Analysis:
     combinations: list[CaseResult] = field(default_factory=list)
     timings: dict[str, float] = field(default_factory=dict)
     document: "Drawing | None" = field(default=None, repr=False)
+    # pattern live load (issue 18): report.patterns.PatternedCase per patterned case
+    patterns: list = field(default_factory=list)
 
     @property
     def results(self) -> list[CaseResult]:
@@ -119,7 +123,25 @@ def combination_specs(settings: Settings, present: list[str]) -> list[tuple[str,
             if not factors:
                 continue
         specs.append((format_combination(factors), factors, "user"))
-    return specs
+    return _both_ways(specs, settings)
+
+
+def _both_ways(specs: list[tuple[str, dict[str, float], str]], settings: Settings
+               ) -> list[tuple[str, dict[str, float], str]]:
+    """Every combination holding a reversible case (``[combinations]
+    reversible``, mapped through ``[cases]``) followed by its mirror with
+    that factor negated, per family (``solver.with_reversals``; the names
+    show the sign)."""
+    from .solver import with_reversals
+
+    rev = [settings.case_name(c) for c in settings.combinations_reversible]
+    if not rev:
+        return specs
+    out: list[tuple[str, dict[str, float], str]] = []
+    for family in dict.fromkeys(f for _, _, f in specs):
+        mine = [(n, f) for n, f, fam in specs if fam == family]
+        out += [(n, f, family) for n, f in with_reversals(mine, rev)]
+    return out
 
 
 def strict_message(warnings: list[str]) -> str:
@@ -212,6 +234,80 @@ def _first_non_finite(res: CaseResult) -> str | None:
     return None
 
 
+def storeys_of(model: DrawingModel, settings: Settings):
+    """The frame's storeys (``solver.find_storeys``; ``[drift] levels`` in
+    drawing units when given); their warnings (guesses) join
+    ``model.warnings``, so ``check``, ``solve`` and ``--strict`` agree.
+
+    Raises :class:`SettingsError` (key ``drift.levels``) for a level with no
+    column top on it."""
+    from .solver import find_storeys
+
+    levels = settings.drift_levels
+    try:
+        st = find_storeys(model.frame, None if levels is None else [v * model.unit_scale for v in levels])
+    except ValueError as exc:
+        raise SettingsError(f"{exc} (elevations are in drawing units, {model.length_unit})",
+                            key="drift.levels") from None
+    model.warnings.extend(w for w in st.warnings if w not in model.warnings)
+    return st
+
+
+def add_self_weight_loads(model: DrawingModel, settings: Settings) -> None:
+    """With ``[self_weight] case`` set: a gravity load rho*g*A along every
+    member (``solver.add_self_weight``), in that case (mapped through
+    ``[cases]``), and a line in ``model.notes`` with the total.
+
+    Raises :class:`SettingsError` naming the layer of a member whose section
+    has no density or no area."""
+    from .solver import STANDARD_GRAVITY, add_self_weight
+
+    case = settings.self_weight_case
+    if case is None or not model.frame.members:
+        return
+    frame = model.frame
+    for m in frame.members:
+        if m.section is None:
+            raise SettingsError(f"[self_weight] needs the area of every member; layer {m.layer} has no section "
+                                f"(member {m.group}, handle {m.handle})", key="self_weight.case")
+        if settings.density_for(m.layer) is None:
+            raise SettingsError(f"[self_weight] needs a density for layer {m.layer} (member {m.group}, handle "
+                                f"{m.handle}): give density = \"7850 kg/m**3\" or material = \"steel\" in its "
+                                "section or in [sections.default]", key="self_weight.case")
+    case = settings.case_name(case)
+    loads = add_self_weight(frame, lambda m: settings.density_for(m.layer), case)
+    length = {m.id: frame.geometry(m)[0] for m in frame.members}
+    total = sum(-ld.q1[1] * length[ld.member] for ld in loads)           # N
+    model.notes.append(f"self-weight: {len(loads)} member loads, {total / 1e3:.4g} kN in all, in load case {case} "
+                       f"(density x g x A along each member, g = {STANDARD_GRAVITY} m/s**2; densities from "
+                       "[sections])")
+
+
+def _add_patterns(analysis: Analysis, cases: dict[str, CaseResult]) -> None:
+    """Pattern envelopes of the ``[patterns] cases`` (see report.patterns);
+    a wanted case the drawing lacks is a warning.  Skipped for a frame
+    solved with equal relative stiffness (no displacements needed, but the
+    parts would be solved with other stiffness than the cases)."""
+    settings, model = analysis.settings, analysis.model
+    if not settings.pattern_cases or not model.frame.members:
+        return
+    from .report.patterns import pattern_cases
+
+    wanted = [settings.case_name(c) for c in settings.pattern_cases]
+    if any(r.displacements is None for r in cases.values()) and analysis.determinacy.status != "determinate":
+        model.warnings.append("[patterns]: no pattern envelope for a frame solved without sections "
+                              "(give sections: the arrangement of the parts depends on the stiffness)")
+        return
+    analysis.patterns, notes = pattern_cases(model.frame, cases, analysis.combinations, wanted,
+                                             settings.pattern_by,
+                                             determinate=analysis.determinacy.status == "determinate")
+    model.warnings.extend(notes)
+    for pc in analysis.patterns:
+        model.notes.append(f"pattern load: {pc.case} arranged {pc.by} by {pc.by} ({len(pc.envelope.parts)} parts) "
+                           f"in {len(pc.results)} result(s); the envelopes with the governing patterns are in the "
+                           "report (patterns) and the summary; the diagrams show the case as drawn")
+
+
 def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | None = None) -> Analysis:
     """Read, check and (when stable) solve one drawing.
 
@@ -227,6 +323,8 @@ def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | 
     t0 = time.perf_counter()
     settings = settings if settings is not None else load_settings(None, path)
     model, document = read_file(path, settings, length_unit=length_unit)
+    add_self_weight_loads(model, settings)
+    storeys_of(model, settings)
     t["read"] = time.perf_counter() - t0
 
     t0 = time.perf_counter()
@@ -251,6 +349,7 @@ def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | 
     analysis.cases = list(cases.values())
     for name, factors, family in specs:
         analysis.combinations.append(combine(cases, factors, name, family=family))
+    _add_patterns(analysis, cases)
     t["combine"] = time.perf_counter() - t0
     return analysis
 
@@ -301,6 +400,11 @@ class FileOutcome:
     max_v: float | None = None
     max_n: float | None = None
     worst_deflection_ratio: float | None = None
+    # storeys and drift (issue 18): worst service drift as h / n, and whether
+    # any span/deflection or drift check fails
+    worst_drift_ratio: float | None = None
+    deflection_fails: bool = False
+    drift_fails: bool = False
     units: tuple[str, str] | None = None
     seconds: float = 0.0
     outputs: list[str] = field(default_factory=list)
@@ -322,7 +426,23 @@ def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
         "csv": drawing.with_suffix(".csv"),
         "png": drawing.with_suffix(".png"),
     }
+    paths.update(_storey_paths(drawing))
     return paths
+
+
+def _storey_paths(drawing: Path) -> dict[str, Path]:
+    """The storey drift and node CSVs beside the member CSV."""
+    return {"drift_csv": drawing.with_name(f"{drawing.stem}-drift.csv"),
+            "nodes_csv": drawing.with_name(f"{drawing.stem}-nodes.csv")}
+
+
+def _storey_checks(report: dict) -> dict:
+    """Worst service drift (as h / n, from the report's ``storeys``) and
+    which checks fail (from its ``checks``)."""
+    ratios = [abs(s["ratio"]) for s in report.get("storeys", []) if s.get("ratio")]
+    kinds = {c["check"] for c in report.get("checks", [])}
+    return {"worst_drift_ratio": (1.0 / max(ratios)) if ratios else None,
+            "deflection_fails": "deflection" in kinds, "drift_fails": "drift" in kinds}
 
 
 def _governing(report: dict) -> dict[str, float | None]:
@@ -352,6 +472,72 @@ def _governing(report: dict) -> dict[str, float | None]:
         if len(d):
             ratio = float(d.min()) if ratio is None else min(ratio, float(d.min()))
     return {"max_m": big["m"], "max_v": big["v"], "max_n": big["n"], "worst_deflection_ratio": ratio}
+
+
+def _pattern_drawing(analysis: Analysis, show: str) -> tuple[list[CaseResult], str]:
+    """What the result drawing draws: ``show = "patterns:<result>"`` (a
+    patterned case or a combination holding one) draws the envelope of the
+    arrangements that govern M somewhere (each built as a result of family
+    ``patterns:<result>``); anything else the results as they are."""
+    if not show.lower().startswith("patterns:"):
+        return analysis.results, show
+    want = show.partition(":")[2].strip()
+    squash = lambda s: "".join(s.split()).lower()  # noqa: E731
+    for pc in analysis.patterns:
+        for name, base, factor in pc.results:
+            if squash(name) != squash(want):
+                continue
+            env = pc.envelope.station_envelope("M", factor=factor, base=base)
+            chosen = dict.fromkeys(list(env["max_parts"]) + list(env["min_parts"]))
+            family = f"patterns:{name}"
+            extra = []
+            for parts in chosen:
+                r = pc.envelope.pattern_result(parts, factor=factor, base=base)
+                extra.append(replace(r, family=family))
+            return analysis.results + extra, f"envelope:{family}"
+    names = [n for pc in analysis.patterns for n, _, _ in pc.results]
+    raise SettingsError(f"no patterned result named {want!r} to draw; patterned: "
+                        + (", ".join(names) or "none (set [patterns] cases)"), key="combinations.draw")
+
+
+def _add_pattern_report(rep: dict, analysis: Analysis, force_u: str, length_u: str) -> None:
+    """The report's ``patterns`` (see report.patterns) when any case is patterned."""
+    if not analysis.patterns:
+        return
+    from .report.patterns import pattern_entries
+    from .report.report import unit_factors
+
+    uf = unit_factors(force_u, length_u)
+    rep["patterns"] = pattern_entries(analysis.model.frame, analysis.patterns, uf.force, uf.length)
+
+
+def _pattern_governing(report: dict, governing: dict) -> None:
+    """Raise the summary's largest |M|, |V|, |N| to the pattern envelopes of
+    the strength results (as :func:`_governing` picks them)."""
+    if not report.get("patterns"):
+        return
+    results = report.get("results", [])
+    combos = [r for r in results if r.get("kind") == "combination"]
+    strength = {r["name"] for r in ([r for r in combos if r.get("family") == "LRFD"] or combos or results)}
+    for p in report["patterns"]:
+        for res in p["results"]:
+            if res["name"] not in strength:
+                continue
+            for m in res["members"]:
+                for q in ("m", "v", "n"):
+                    vals = [abs(v) for v in (m[f"{q}_max"], m[f"{q}_min"]) if v is not None]
+                    if vals:
+                        cur = governing.get(f"max_{q}")
+                        governing[f"max_{q}"] = max(vals) if cur is None else max(cur, max(vals))
+
+
+def _write_storey_csvs(report: dict, staged: dict[str, Path]) -> list[str]:
+    """The drift and node CSVs (see report.storeys); returns their keys."""
+    from .report.storeys import write_drift_csv, write_nodes_csv
+
+    write_drift_csv(report, staged["drift_csv"])
+    write_nodes_csv(report, staged["nodes_csv"])
+    return ["drift_csv", "nodes_csv"]
 
 
 def check_outputs(source: Path, paths: dict[str, Path]) -> None:
@@ -586,11 +772,12 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         staged = {k: out_set.staged(p.name) for k, p in paths.items()}
         t0 = time.perf_counter()
         show = req.show or settings.combinations_draw
+        drawn_results, drawn_show = _pattern_drawing(analysis, show)
         if analysis.stable:
             writer.write_result_drawing(
-                source, staged["drawing"], model, det, analysis.results, show=show,
+                source, staged["drawing"], model, det, drawn_results, show=drawn_show,
                 layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
-                document=analysis.document,
+                document=analysis.document, drift=settings.drift_options(),
             )
         else:
             writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,
@@ -602,11 +789,15 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         rep = report_mod.assemble_report(
             model, det, analysis.results, force_unit=force_u, length_unit=length_u,
             probes=req.probes, deflection_limits=settings.deflection_limits(),
+            drift=settings.drift_options(),
         )
+        _add_pattern_report(rep, analysis, force_u, length_u)
+        outcome.warnings += [w for w in rep["warnings"] if w not in outcome.warnings]
         with_csv = req.csv and analysis.stable
         report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
         analysis.timings["report"] = time.perf_counter() - t0
         written = ["drawing", "report"] + (["csv"] if with_csv else [])
+        written += _write_storey_csvs(rep, staged) if with_csv else []
         if req.png:
             t0 = time.perf_counter()
             drawn = _try_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u,
@@ -623,7 +814,8 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
             written.append("sheets")
             paths["sheets"] = final / sheet_dir.name
             staged["sheets"] = sheet_dir
-        governing = _governing(rep) if analysis.stable else {}
+        governing = {**_governing(rep), **_storey_checks(rep)} if analysis.stable else {}
+        _pattern_governing(rep, governing)
         committed = out_set.commit({staged[k]: paths[k] for k in written})
     return committed, governing, rep
 

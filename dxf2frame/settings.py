@@ -34,7 +34,15 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
 ``[sections.default]``, ``[sections."<LAYER>"]``
     ``E``, ``A``, ``I`` as quantity strings with units (``"200 GPa"``,
     ``"5000 mm**2"``, ``"8e7 mm**4"``) and an optional ``name``.  A layer
-    section may leave out values that the default section gives.
+    section may leave out values that the default section gives.  Instead
+    of A and I: ``shape`` (``"I 310x165x6x10"``, sizes in ``shape_unit``,
+    default mm) or ``outline`` (the closed polyline on layer
+    ``SECTION-<name>``); ``material`` (a name of ``solver.DENSITY``: the
+    density, and E for steel and aluminium) or ``density``
+    (``"7850 kg/m**3"``).
+``[self_weight]``
+    ``case``: the load case the members' own weight joins (needs a density
+    for every member's section).
 ``[cases]``
     an office's own load case names mapped onto the standard case letters
     of ASCE/SEI 7 (``D L Lr S R W E``), e.g. ``LIVE = "L"``; names are
@@ -46,7 +54,8 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
 ``[combinations]``
     ``builtin`` (subset of ``["LRFD", "ASD"]``), ``extra`` (list of
     combination strings, parsed by the solver), ``draw`` (what the
-    diagrams in the output drawing show).
+    diagrams in the output drawing show), ``reversible`` (cases acting both
+    ways, default ``["W", "E"]``).
 ``[deflection]``
     ``limit`` (span / limit, default 240), ``[deflection.layers]`` per
     member layer.
@@ -58,6 +67,13 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     default false; ``--history``/``--no-history`` override it),
     ``label_property`` (custom header property holding the revision label,
     default ``"REVISION"``).
+``[patterns]``
+    ``cases`` (load cases arranged span by span for the envelope, e.g.
+    ``["L"]``), ``by`` (``"span"`` or ``"member"``).
+``[drift]``
+    ``limit`` (storey drift as h / limit, default 400), ``measure``
+    (``"mean"`` or ``"max"`` over a storey's column lines), ``levels``
+    (storey tops in drawing units; default: where beams meet columns).
 
 Layer names are matched case-insensitively, as CAD programs do.  Quantity
 strings are parsed by :mod:`dxf2frame.units`; this module itself does not
@@ -130,6 +146,10 @@ _TOP_KEYS = {
     "output_layers", "sections", "combinations", "deflection", "compare", "cases", "analysis",
     "history",
 }
+# storeys and drift (issue 18)
+_TOP_KEYS = _TOP_KEYS | {"drift", "self_weight", "patterns"}
+#: how a storey's drift is taken over its column lines (solver.storey_drifts)
+DRIFT_MEASURES: tuple[str, ...] = ("mean", "max")
 
 
 def _ro(d: Mapping) -> dict:
@@ -163,12 +183,19 @@ class Settings:
     combinations_builtin : names of built-in sets ("LRFD", "ASD")
     combinations_extra : combination strings such as "1.2D + 1.6L"
     combinations_draw : what the output drawing shows ("envelope:LRFD", a case or combination)
+    combinations_reversible : load cases acting both ways: every
+        combination holding one also appears with its factor negated
     deflection_limit : span / limit, default 240
     deflection_layers : {upper-case layer: limit}
     compare_threshold : relative change flagged by the revision comparison
     source : the settings file read, or None for defaults
     history_record : record every solve in the folder's revision history
     history_label_property : custom header property holding the revision label
+    drift_limit : storey drift limit as h / limit, default 400 (common
+        practice for service wind drift, usual range 600 to 400)
+    drift_measure : "mean" (default) or "max" over a storey's column lines
+    drift_levels : storey top elevations in drawing units, or None (found
+        where beams meet columns)
     """
 
     force_unit: str = "kN"
@@ -196,6 +223,23 @@ class Settings:
     # -- revision history (issue 19) --
     history_record: bool = False
     history_label_property: str = "REVISION"
+    # storeys and drift (issue 18): h / limit, "mean" or "max" over the
+    # column lines, storey tops in drawing units (None: found from the frame)
+    drift_limit: float = 400.0
+    drift_measure: str = "mean"
+    drift_levels: tuple[float, ...] | None = None
+    # sections from shapes and self-weight (issue 18): density [kg/m**3] per
+    # section key, the shape text and outline name per section key, the case
+    # the members' own weight joins (None: no self-weight)
+    section_density: Mapping[str, float] = field(default_factory=lambda: _ro({}))
+    section_shapes: Mapping[str, str] = field(default_factory=lambda: _ro({}))
+    section_outlines: Mapping[str, str] = field(default_factory=lambda: _ro({}))
+    self_weight_case: str | None = None
+    # reversible cases (issue 18): combinations holding them appear with both signs
+    combinations_reversible: tuple[str, ...] = ("W", "E")
+    # pattern live load (issue 18): cases arranged span by span, and how
+    pattern_cases: tuple[str, ...] = ()
+    pattern_by: str = "span"
 
     # derived lookups (built once)
     def __post_init__(self) -> None:
@@ -271,6 +315,16 @@ class Settings:
     def deflection_limit_for(self, layer: str) -> float:
         """Span / limit ratio for members on ``layer``."""
         return self.deflection_layers.get(layer.upper(), self.deflection_limit)
+
+    def density_for(self, layer: str) -> float | None:
+        """Density [kg/m**3] of the section of ``layer`` (its own, else the
+        default's), or None."""
+        return self.section_density.get(layer.upper(), self.section_density.get("DEFAULT"))
+
+    def drift_options(self) -> dict[str, Any]:
+        """``{"limit": 400.0, "measure": "mean", "levels": None}`` (levels in drawing units)."""
+        return {"limit": self.drift_limit, "measure": self.drift_measure,
+                "levels": None if self.drift_levels is None else list(self.drift_levels)}
 
     def deflection_limits(self) -> dict[str, Any]:
         """``{"limit": 240.0, "layers": {"FRAME-BEAMS": 360.0}}`` (layer names upper case)."""
@@ -373,6 +427,10 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
     kw.update(_read_deflection(data, path))
     kw.update(_read_compare(data, path))
     _history_settings(data, path, kw)
+    _drift_settings(data, path, kw)
+    _self_weight_settings(data, path, kw)
+    _reversible_settings(data, path, kw)
+    _pattern_settings(data, path, kw)
     return Settings(**kw)
 
 
@@ -490,7 +548,7 @@ def _read_sections(data: Mapping[str, Any], path: str) -> dict[str, Any]:
         key = f"sections.{name}"
         if not isinstance(tab, Mapping):
             raise SettingsError("must be a table with E, A, I (and optionally name)", path=path, key=key)
-        _check_keys(tab, {"E", "A", "I", "name"}, key, path)
+        _check_keys(tab, {"E", "A", "I", "name"} | SECTION_SHAPE_KEYS, key, path)
         raw[str(name).upper()] = {
             ("name" if str(k).lower() == "name" else str(k).upper()): v for k, v in tab.items()
         }
@@ -499,12 +557,14 @@ def _read_sections(data: Mapping[str, Any], path: str) -> dict[str, Any]:
         for q, kind in (("E", "stress"), ("A", "area"), ("I", "inertia")):
             if q in raw["DEFAULT"]:
                 default_vals[q] = _quantity(raw["DEFAULT"][q], kind, f"sections.default.{q}", path)
+        default_vals.update(_shape_values("DEFAULT", raw["DEFAULT"], path))
     sections: dict[str, Section] = {}
     for name, tab in raw.items():
         vals = dict(default_vals)
         for q, kind in (("E", "stress"), ("A", "area"), ("I", "inertia")):
             if q in tab:
                 vals[q] = _quantity(tab[q], kind, f"sections.{name}.{q}", path)
+        vals.update(_shape_values(name, tab, path))
         missing = [q for q in ("E", "A", "I") if q not in vals]
         if missing:
             raise SettingsError(
@@ -556,7 +616,7 @@ def _read_combinations(data: Mapping[str, Any], path: str) -> dict[str, Any]:
     """[combinations]: built-in sets, own formulas, what is drawn."""
     kw: dict[str, Any] = {}
     co = _table(data, "combinations", path)
-    _check_keys(co, {"builtin", "extra", "draw"}, "combinations", path)
+    _check_keys(co, {"builtin", "extra", "draw", "reversible"}, "combinations", path)
     if "builtin" in co:
         b = co["builtin"]
         if not isinstance(b, list) or not all(isinstance(x, str) for x in b):
@@ -612,6 +672,153 @@ def _history_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) ->
         kw["history_record"] = hi["record"]
     if "label_property" in hi:
         kw["history_label_property"] = _str(hi["label_property"], "history.label_property", path)
+
+
+# -- sections from shapes, materials and self-weight (issue 18) ------------------
+
+#: keys of a section table besides E, A, I, name
+SECTION_SHAPE_KEYS = frozenset({"shape", "shape_unit", "outline", "material", "density"})
+
+#: Young's modulus [Pa] of the materials whose E is one value: structural
+#: steel 200 GPa (AISC 360 E = 29,000 ksi; from memory), aluminium alloys
+#: 70 GPa (EN 1999-1-1 3.2.5, from memory).  Concrete and timber vary with
+#: grade: give E.
+MATERIAL_E: dict[str, float] = {"steel": 200e9, "aluminium": 70e9}
+
+_SHAPE_UNITS = {"mm": 1e-3, "cm": 1e-2, "m": 1.0, "in": 0.0254, "inch": 0.0254, "ft": 0.3048}
+
+
+def _shape_values(name: str, tab: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """E, A, I given by a section's ``shape`` (with ``shape_unit``) and
+    ``material``; ``{}`` when the table has neither.  Raises SettingsError
+    for a bad shape, unit or material, or a shape given with A or I."""
+    from .solver import DENSITY, ShapeError, shape_properties
+
+    key = f"sections.{'default' if name == 'DEFAULT' else name}"
+    tab = {str(k).lower(): v for k, v in tab.items()}
+    out: dict[str, Any] = {}
+    if "material" in tab:
+        mat = _str(tab["material"], f"{key}.material", path)
+        if mat not in DENSITY:
+            raise SettingsError(f"unknown material {mat!r}; expected one of {', '.join(DENSITY)}",
+                                path=path, key=f"{key}.material")
+        if mat in MATERIAL_E and "e" not in tab:
+            out["E"] = MATERIAL_E[mat]
+    unit_text = tab.get("shape_unit", "mm")
+    if "shape_unit" in tab and "shape" not in tab:
+        raise SettingsError("shape_unit without shape", path=path, key=f"{key}.shape_unit")
+    if "outline" in tab:
+        if any(q in tab for q in ("a", "i", "shape")):
+            raise SettingsError("give the section by outline or by shape / A and I, not both", path=path,
+                                key=f"{key}.outline")
+        # stand-ins, replaced by the outline drawn on layer SECTION-<name> when the drawing is
+        # read (read.section_outlines; a missing outline is an error there, never these values)
+        out["A"], out["I"] = 1.0, 1.0
+    if "shape" in tab:
+        both = [q.upper() for q in ("a", "i") if q in tab]
+        if both or "outline" in tab:
+            raise SettingsError(f"give the section by shape or by {' and '.join(both) or 'outline'}, not both",
+                                path=path, key=f"{key}.shape")
+        if not isinstance(unit_text, str) or unit_text.strip().lower() not in _SHAPE_UNITS:
+            raise SettingsError(f"must be one of {', '.join(_SHAPE_UNITS)}, got {unit_text!r}", path=path,
+                                key=f"{key}.shape_unit")
+        text = _str(tab["shape"], f"{key}.shape", path)
+        try:
+            p = shape_properties(text, _SHAPE_UNITS[unit_text.strip().lower()])
+        except ShapeError as exc:
+            raise SettingsError(str(exc), path=path, key=f"{key}.shape") from None
+        out["A"], out["I"] = p.area, p.Ix
+    return out
+
+
+def _section_extras(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """Per section (upper-case layer or DEFAULT): density [kg/m**3] from
+    ``density`` or ``material``, the shape text, the outline name."""
+    from .solver import DENSITY
+
+    dens, shapes, outlines = {}, {}, {}
+    for name, tab in _table(data, "sections", path).items():
+        if not isinstance(tab, Mapping):
+            continue
+        up = str(name).upper()
+        key = f"sections.{name}"
+        t = {str(k).lower(): v for k, v in tab.items()}
+        if "density" in t:
+            dens[up] = _quantity(t["density"], "density", f"{key}.density", path)
+        elif "material" in t and t["material"] in DENSITY:
+            dens[up] = DENSITY[t["material"]]
+        if "shape" in t:
+            shapes[up] = f"{str(t['shape']).strip()} ({str(t.get('shape_unit', 'mm')).strip()})"
+        if "outline" in t:
+            outlines[up] = _str(t["outline"], f"{key}.outline", path).upper()
+    default = outlines.get("DEFAULT")
+    if default is not None:              # a layer section taking A and I from a drawn default outline
+        for name, tab in _table(data, "sections", path).items():
+            t = {str(k).lower() for k in tab} if isinstance(tab, Mapping) else set()
+            if str(name).upper() != "DEFAULT" and not t & {"a", "i", "shape", "outline"}:
+                outlines[str(name).upper()] = default
+    return {"section_density": _ro(dens), "section_shapes": _ro(shapes), "section_outlines": _ro(outlines)}
+
+
+def _pattern_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:
+    """``[patterns]``: ``cases`` (load cases arranged part by part, ASCE/SEI
+    7-16 4.3.3 partial loading), ``by`` ("span" or "member")."""
+    pt = _table(data, "patterns", path)
+    _check_keys(pt, {"cases", "by"}, "patterns", path)
+    if "cases" in pt:
+        c = pt["cases"]
+        if not isinstance(c, list) or not all(isinstance(x, str) and x.strip() for x in c):
+            raise SettingsError("must be a list of load case names, e.g. [\"L\"]", path=path, key="patterns.cases")
+        kw["pattern_cases"] = tuple(dict.fromkeys(x.strip() for x in c))
+    if "by" in pt:
+        b = _str(pt["by"], "patterns.by", path).lower()
+        if b not in ("span", "member"):
+            raise SettingsError(f"must be span or member, got {pt['by']!r}", path=path, key="patterns.by")
+        kw["pattern_by"] = b
+
+
+def _reversible_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:
+    """``[combinations] reversible``: load cases that act both ways (default
+    ``["W", "E"]``; ``[]`` for none)."""
+    co = _table(data, "combinations", path)
+    if "reversible" in co:
+        r = co["reversible"]
+        if not isinstance(r, list) or not all(isinstance(x, str) and x.strip() for x in r):
+            raise SettingsError("must be a list of load case names, e.g. [\"W\", \"E\"] (or [] for none)",
+                                path=path, key="combinations.reversible")
+        kw["combinations_reversible"] = tuple(dict.fromkeys(x.strip() for x in r))
+
+
+def _self_weight_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:
+    """``[self_weight] case``: the load case the members' own weight joins;
+    densities come from the sections (``density`` or ``material``)."""
+    kw.update(_section_extras(data, path))
+    sw = _table(data, "self_weight", path)
+    _check_keys(sw, {"case"}, "self_weight", path)
+    if "case" in sw:
+        kw["self_weight_case"] = _str(sw["case"], "self_weight.case", path)
+
+
+def _drift_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:
+    """``[drift]``: ``limit`` (h / limit), ``measure`` ("mean" or "max"),
+    ``levels`` (storey tops in drawing units, ascending)."""
+    dr = _table(data, "drift", path)
+    _check_keys(dr, {"limit", "measure", "levels"}, "drift", path)
+    if "limit" in dr:
+        kw["drift_limit"] = _number(dr["limit"], "drift.limit", path)
+    if "measure" in dr:
+        m = _str(dr["measure"], "drift.measure", path).lower()
+        if m not in DRIFT_MEASURES:
+            raise SettingsError(f"must be one of {', '.join(DRIFT_MEASURES)}, got {dr['measure']!r}",
+                                path=path, key="drift.measure")
+        kw["drift_measure"] = m
+    if "levels" in dr:
+        lv = dr["levels"]
+        if (not isinstance(lv, list) or not lv
+                or not all(isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) for v in lv)):
+            raise SettingsError("must be a non-empty list of elevations in drawing units, e.g. [3000, 6000]",
+                                path=path, key="drift.levels")
+        kw["drift_levels"] = tuple(sorted(float(v) for v in lv))
 
 
 def load_settings(path: Path | str | None = None, drawing: Path | str | None = None) -> Settings:

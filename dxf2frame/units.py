@@ -69,6 +69,7 @@ KINDS: dict[str, tuple[str, str, str]] = {
     "spring_linear": ("N/m", "a spring stiffness (force per length)", "500 kN/m"),
     "spring_rotational": ("N*m/rad", "a rotational stiffness (force*length per radian)", "2000 kN*m/rad"),
     "angle": ("rad", "an angle", "30 deg"),
+    "density": ("kg/m**3", "a density (mass per volume)", "7850 kg/m**3"),   # self-weight (issue 18)
 }
 
 #: $INSUNITS codes the reader understands -> short pint name of the unit

@@ -157,7 +157,11 @@ def test_a_new_solve_replaces_the_whole_set(solved_once, capsys):
     assert rc == 0, err
     after = snapshot(out, rep)
     assert set(after) == set(before)
-    assert all(after[p] != before[p] for p in after if p.suffix in (".json", ".csv", ".dxf"))
+    # the node and drift CSVs hold positions and displacements only: a frame solved
+    # without sections (this beam) has none, so twice the load leaves them alike
+    same_without_sections = ("-drift.csv", "-nodes.csv")
+    assert all(after[p] != before[p] for p in after
+               if p.suffix in (".json", ".csv", ".dxf") and not p.name.endswith(same_without_sections))
     report = json.loads((rep / "frame.json").read_text(encoding="utf-8"))
     m = max(r["m_max"] for r in report["results"][0]["members"])
     # M max = wL^2/8 = 20 * 36 / 8 = 90 kN*m (AISC Manual, Table 3-23 case 1; from memory)

@@ -76,7 +76,7 @@ def notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list
     paras.append(f"Determinacy: {det.status}{deg}{mech}. {det.count_check}")
     if det.detail:
         paras.append(det.detail)
-    paras += extra
+    paras += extra + list(model.notes)
     warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
     if warnings:
         paras.append(f"Warnings ({len(warnings)}):")

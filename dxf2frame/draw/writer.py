@@ -334,13 +334,15 @@ def annotate_results(
     layers: Mapping[str, str] | None = None,
     force_unit: str,
     length_unit: str,
+    drift: Mapping | None = None,
 ) -> DrawingSummary:
     """Draw the result layers into an open document (see the module docstring).
 
     Removes the previous content of the result layers first.  Values are
     converted from SI to ``force_unit`` / ``length_unit`` for the text.
     ``layers``: result layer key -> name (the settings' ``[output_layers]``;
-    None: the defaults).
+    None: the defaults).  ``drift``: storey drift options (``{"limit",
+    "measure", "levels"}``, levels in drawing units; None: the defaults).
     """
     # Long by intent: the numbered steps below are the recipe of a result drawing; each is a call,
     # and the working arrays of one diagram are released before the next.
@@ -391,6 +393,7 @@ def annotate_results(
     # 4. deflected shape
     bent = _draw_deflected(pen, model, geom, sel, names["deflected"], h, summary, legend, chains=chains)
     boxes += _draw_near_misses(pen, model, names["notes"], h)
+    boxes += _draw_storey_drift(pen, model, geom, results, names["deflected"], h, drift, legend)
 
     # 5. labels, layer by layer (each result layer reads on its own), most important first
     members = shapely.linestrings(np.stack([geom.start, geom.end], axis=1)) if n_el else np.zeros(0, dtype=object)
@@ -629,6 +632,41 @@ def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
     return pts
 
 
+def _draw_storey_drift(pen: Pen, model, geom: FrameGeom, results: Sequence, layer: str, h: float,
+                       drift: Mapping | None, legend: list[tuple[str, str]]) -> list[Box]:
+    """Each storey's worst service-level drift ratio (the ASD combinations,
+    else the load cases) as a short text ``h/812`` (`` !`` when worse than
+    the limit) right of the frame at the storey's top level, on the
+    deflected-shape layer.  Returns the boxes of the texts."""
+    from ..report.storeys import ratio_text, service_results
+    from ..solver import drift_envelope, find_storeys
+
+    drift = dict(drift or {})
+    service = [r for r in service_results(results) if r.displacements is not None]
+    if not service or not model.frame.members:
+        return []
+    levels = drift.get("levels")
+    us = model.unit_scale
+    try:
+        storeys = find_storeys(model.frame, None if levels is None else [v * us for v in levels])
+    except ValueError:
+        return []                                       # the report says so (bad input)
+    worst = drift_envelope(model.frame, service, storeys, limit=float(drift.get("limit") or 400.0),
+                           measure=str(drift.get("measure") or "mean"))
+    if not worst:
+        return []
+    x = geom.bounds[2] + 2.0 * h
+    boxes: list[Box] = []
+    for d in worst:
+        text = ratio_text(d.ratio) + ("" if d.ok else " !")
+        y = d.top / us
+        pen.text(text, (x, y), 0.8 * h, layer, align=TextEntityAlignment.MIDDLE_LEFT)
+        boxes.append((x, y - 0.5 * h, x + 0.8 * h * len(text), y + 0.5 * h))
+    legend.append(("deflected", f"storey drift: worst service-level ratio at each level (h = storey height; "
+                                f"limit h/{worst[0].limit:g}; ! = worse than the limit)"))
+    return boxes
+
+
 def write_result_drawing(
     source: Path,
     out: Path,
@@ -641,6 +679,7 @@ def write_result_drawing(
     force_unit: str,
     length_unit: str,
     document: "Drawing | None" = None,
+    drift: Mapping | None = None,
 ) -> None:
     """Write a copy of ``source`` with the result layers to ``out`` (atomic).
 
@@ -653,6 +692,7 @@ def write_result_drawing(
         ``"envelope:all"`` / ``"envelope"``; None = ``"envelope:LRFD"``
     layers : result layer key -> name (the settings' ``[output_layers]``; None: the defaults)
     force_unit, length_unit : units of the values written as text
+    drift : storey drift options (see :func:`annotate_results`)
     document : optional: ``source`` already loaded with ``ezdxf.readfile``
         and not modified since (the reader's document), to save reading the
         file a second time; it is annotated in place
@@ -666,7 +706,7 @@ def write_result_drawing(
     _check_target(source, out)
     doc = document if document is not None else _load_source(source)
     annotate_results(doc, model, det, results, show=show, layers=layers,
-                     force_unit=force_unit, length_unit=length_unit)
+                     force_unit=force_unit, length_unit=length_unit, drift=drift)
     with atomic_path(out) as tmp:
         doc.saveas(tmp)
 

@@ -113,6 +113,7 @@ import math
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from .section_outlines import sections_with_outlines
 from ..block_expansion import check_expansion
 from .cleanup import build_frame, default_tolerance
 from ..drawing_file import describe_entity, open_document
@@ -288,7 +289,7 @@ def read_document(
         ctx.connections,
         ctx.loads,
         tol=tol,
-        section_for=settings.section_for,
+        section_for=sections_with_outlines(doc, settings, scale),
         unit=(unit, scale),
         unjoined_layers=settings.unjoined_layers,
     )

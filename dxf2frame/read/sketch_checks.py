@@ -91,18 +91,42 @@ def check_section_keys(frame: Frame, settings: Settings) -> None:
 
 
 def section_lines(frame: Frame, settings: Settings) -> list[str]:
-    """``LAYER: <where its section comes from>`` for each member layer."""
+    """``LAYER: <where its section comes from>`` for each member layer,
+    with the A and I it got (and the shape they come from)."""
     out = []
-    for layer in sorted({m.layer.upper() for m in frame.members}):
+    got = {}
+    for m in frame.members:
+        got.setdefault(m.layer.upper(), m.section)
+    for layer in sorted(got):
         if layer in settings.sections:
-            sec = settings.sections[layer]
-            out.append(f"{layer}: own section [sections.\"{layer}\"]" + (f" {sec.name}" if sec.name else ""))
+            sec = got[layer] or settings.sections[layer]
+            out.append(f"{layer}: own section [sections.\"{layer}\"]" + (f" {sec.name}" if sec.name else "")
+                       + _section_values(settings, layer, sec))
         elif "DEFAULT" in settings.sections:
-            sec = settings.sections["DEFAULT"]
-            out.append(f"{layer}: default section [sections.default]" + (f" {sec.name}" if sec.name else ""))
+            sec = got[layer] or settings.sections["DEFAULT"]
+            out.append(f"{layer}: default section [sections.default]" + (f" {sec.name}" if sec.name else "")
+                       + _section_values(settings, "DEFAULT", sec))
         else:
             out.append(f"{layer}: none")
     return out
+
+
+def _section_values(settings: Settings, key: str, sec) -> str:
+    """``": A = 5040 mm**2, I = 8.647e+07 mm**4 (shape I 310x165x6x10 (mm))"``
+    of the section ``sec`` the members got; in in**2 and in**4 for a shape
+    given in inches or feet."""
+    shape = settings.section_shapes.get(key)
+    inch = shape is not None and shape.endswith(("(in)", "(inch)", "(ft)"))
+    u, f = ("in", 0.0254) if inch else ("mm", 1e-3)
+    text = f": A = {sec.A / f**2:.5g} {u}**2, I = {sec.I / f**4:.5g} {u}**4, E = {sec.E / 1e9:.4g} GPa"
+    if key in settings.section_shapes:
+        text += f" (shape {settings.section_shapes[key]})"
+    elif key in settings.section_outlines:
+        text += f" (outline drawn on layer SECTION-{settings.section_outlines[key]})"
+    density = settings.section_density.get(key, settings.section_density.get("DEFAULT"))
+    if density is not None:
+        text += f", density {density:.5g} kg/m**3"
+    return text
 
 
 def combination_problems(settings: Settings, present: Sequence[str], specs) -> list[str]:

@@ -16,7 +16,11 @@ module adds keys but never renames or drops one.  Added keys:
   settings, null when none), ``deflection_ok``;
 * per reaction: ``node``, ``support`` (the support kind);
 * per probe: ``element``, ``at`` (distance from the member start),
-  ``deflection``.
+  ``deflection``;
+* storeys and drift: top level ``storeys``, ``drift_check``, ``checks``
+  (the failing span/deflection and drift checks); per result ``drift``
+  and ``nodes`` (see :mod:`.storeys`); ``notes``: one line per load the
+  tool generated (self-weight).
 
 Units and signs
 ---------------
@@ -565,6 +569,7 @@ def assemble_report(
     probes: Iterable[tuple[float, float]] = (),
     deflection_limits: Mapping | None = None,
     probe_tolerance: float | None = None,
+    drift: Mapping | None = None,
 ) -> dict:
     """Build the JSON report (schema 1), its long lists kept as columns.
 
@@ -585,6 +590,9 @@ def assemble_report(
     deflection_limits : span/deflection limits, ``{"limit": 240, "layers":
         {"FRAME-BEAMS": 360}}`` (or flat ``{"default": 240, layer: n}``)
     probe_tolerance : largest probe distance from a member [drawing units]
+    drift : storey drift options ``{"limit": 400, "measure": "mean",
+        "levels": None}`` (levels in drawing units; see
+        :mod:`.storeys`); None: the defaults
 
     Raises
     ------
@@ -648,7 +656,7 @@ def assemble_report(
         for name, fam, ks in groups_to_envelope
     ]
 
-    return {
+    report = {
         "schema": 1,
         "source": Path(model.source).name,
         "units": {
@@ -671,6 +679,18 @@ def assemble_report(
         "results": out_results,
         "envelopes": envelopes,
     }
+    _add_storeys_and_checks(report, model, results, uf, drift)
+    return report
+
+
+def _add_storeys_and_checks(report: dict, model: "DrawingModel", results: Sequence, uf: UnitFactors,
+                            drift: Mapping | None) -> None:
+    """Storeys, drift, node tables and failing checks (see :mod:`.storeys`)."""
+    from . import storeys
+
+    storeys.add_storeys(report, model, results, uf.length, drift)
+    storeys.finish_checks(report)
+    report["notes"] = list(model.notes)           # loads the tool generated (self-weight)
 
 
 def build_report(model: "DrawingModel", det, results: Sequence, **kw: Any) -> dict:
