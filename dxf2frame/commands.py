@@ -188,7 +188,7 @@ def _report_of_drawing(path: Path, args, units: tuple[str, str] | None):
 
     settings = load_settings(args.settings, path)
     an = analyse(path, settings, length_unit=args.length_unit)
-    fu, lu = units if units else (settings.force_unit, an.model.length_unit)
+    fu, lu = units if units else settings.output_units(an.model.length_unit)
     rep = build_report(an.model, an.determinacy, an.results, force_unit=fu, length_unit=lu,
                        deflection_limits=settings.deflection_limits())
     return rep, settings
@@ -226,7 +226,7 @@ def run_explain(args) -> int:
     if not analysis.stable:
         _say(f"dxf2frame: the frame is unstable, no sheets written: {analysis.determinacy.detail}", CAUTION)
         return EXIT_UNSTABLE
-    force_u, length_u = args.units or (settings.force_unit, analysis.model.length_unit)
+    force_u, length_u = args.units or settings.output_units(analysis.model.length_unit)
     out = Path(args.out) if args.out else drawing.parent / "sheets"
     # staged and swapped in as one set: a failure leaves the previous sheets complete
     written = write_sheets_staged(analysis, out, points=list(args.at or []), result_name=args.result,

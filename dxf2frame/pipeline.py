@@ -468,7 +468,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
         outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
         if req.strict and outcome.warnings:
             raise Dxf2FrameError(strict_message(outcome.warnings))
-        force_u, length_u = req.units or (settings.force_unit, model.length_unit)
+        force_u, length_u = req.units or settings.output_units(model.length_unit)
         outcome.units = (force_u, length_u)
         outcome.determinacy, outcome.degree = det.status, det.degree
 

@@ -8,7 +8,10 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
 ``[units]``
     ``force`` (unit of bare numbers in force attributes, default ``"kN"``),
     ``length`` (drawing unit when ``$INSUNITS`` is missing, unitless or not
-    one of inch/ft/mm/cm/m; no default).
+    one of inch/ft/mm/cm/m; no default), ``output_force`` and
+    ``output_length`` (units of the report, the drawing's text and the
+    comparison; default kN and m for a drawing in mm, cm or m, kip and ft
+    for one in inch or ft; ``--units`` overrides both).
 ``[geometry]``
     ``snap`` (snap tolerance: a quantity string such as ``"5 mm"`` or a bare
     number in drawing units; default: the larger of 0.5 mm and 1e-6 of the
@@ -118,6 +121,9 @@ OUTPUT_LAYER_KEYS: tuple[str, ...] = tuple(DEFAULT_OUTPUT_LAYERS)
 #: any layer starting with this is treated as written by this tool
 RESULT_LAYER_PREFIX = "RESULT-"
 
+#: drawing units of the US customary system: their results default to kip and ft
+_US_LENGTHS = frozenset({"inch", "ft"})
+
 _DEFAULT_LAYERS = {"frame": "FRAME", "supports": "SUPPORTS", "connections": "CONNECTIONS", "loads": "LOADS"}
 _BUILTIN_COMBOS = ("LRFD", "ASD")
 _TOP_KEYS = {
@@ -161,6 +167,8 @@ class Settings:
     deflection_layers : {upper-case layer: limit}
     compare_threshold : relative change flagged by the revision comparison
     source : the settings file read, or None for defaults
+    output_force, output_length : units of the results (None: chosen from
+        the drawing's unit system, see :meth:`output_units`)
     """
 
     force_unit: str = "kN"
@@ -185,6 +193,9 @@ class Settings:
     deflection_layers: Mapping[str, float] = field(default_factory=lambda: _ro({}))
     compare_threshold: float = 0.05
     source: Path | None = None
+    # -- output units and drawing (issue 17) --
+    output_force: str | None = None
+    output_length: str | None = None
 
     # derived lookups (built once)
     def __post_init__(self) -> None:
@@ -256,6 +267,18 @@ class Settings:
         starting with ``RESULT-``); the reader ignores them."""
         n = name.upper()
         return n in self._result_layers or n.startswith(RESULT_LAYER_PREFIX)  # type: ignore[attr-defined]
+
+    def output_units(self, drawing_unit: str) -> tuple[str, str]:
+        """(force, length) units the results are written in for a drawing in
+        ``drawing_unit``: the ``[units] output_*`` keys, else kN and m for a
+        metric drawing and kip and ft for one in inch or feet.
+
+        >>> Settings().output_units("mm"), Settings().output_units("inch")
+        (('kN', 'm'), ('kip', 'ft'))
+        """
+        us = normalise_length_unit(drawing_unit) in _US_LENGTHS
+        return (self.output_force or ("kip" if us else "kN"),
+                self.output_length or ("ft" if us else "m"))
 
     def deflection_limit_for(self, layer: str) -> float:
         """Span / limit ratio for members on ``layer``."""
@@ -350,7 +373,8 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
 
     # [units]
     u = _table(data, "units", path)
-    _check_keys(u, {"force", "length"}, "units", path)
+    _check_keys(u, {"force", "length", "output_force", "output_length"}, "units", path)
+    kw.update(_output_units(u, path))
     if "force" in u:
         f = _str(u["force"], "units.force", path)
         try:
@@ -531,6 +555,22 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
         kw["compare_threshold"] = _number(cp["threshold"], "compare.threshold", path, allow_zero=True)
 
     return Settings(**kw)
+
+
+def _output_units(u: Mapping[str, Any], path: str) -> dict[str, str]:
+    """``[units] output_force`` and ``output_length``, each checked to be a
+    unit of its kind."""
+    kw = {}
+    for key, kind in (("output_force", "force"), ("output_length", "length")):
+        if key in u:
+            text = _str(u[key], f"units.{key}", path)
+            try:
+                text = normalise_length_unit(text) if kind == "length" else text
+                unit_factor(text, kind)
+            except UnitError as exc:
+                raise SettingsError(exc.message, path=path, key=f"units.{key}") from None
+            kw[key] = text
+    return kw
 
 
 def load_settings(path: Path | str | None = None, drawing: Path | str | None = None) -> Settings:

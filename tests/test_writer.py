@@ -214,7 +214,7 @@ def test_moment_diagram_on_tension_side_with_stated_scale(tmp_path):
     doc = ezdxf.readfile(write(tmp_path, src, model, det, results, show="D"))
     legend = [e.dxf.text for e in texts(doc, "RESULT-MOMENT") if e.dxf.text.startswith("moment:")]
     assert len(legend) == 1
-    per_unit = float(re.search(r"1 drawing unit = " + NUM + r" kN\*m", legend[0]).group(1))
+    per_unit = float(re.search(r"1 m on the drawing = " + NUM + r" kN\*m", legend[0]).group(1))
     # the diagram's outline starts at the member's start; the legend swatch is a small box elsewhere
     outlines = [list(e.get_points("xy")) for e in doc.modelspace().query('LWPOLYLINE[layer=="RESULT-MOMENT"]')]
     diag = [pt for pts in outlines if pts[0] == pytest.approx((0.0, 0.0), abs=1e-12) for pt in pts]

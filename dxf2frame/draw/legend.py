@@ -37,8 +37,17 @@ _MAX_WARNINGS = 8          # listed in the notes block
 
 
 def _wrap(text: str, width: int = 0) -> list[str]:
-    """A legend line wrapped to about ``_LEGEND_CHARS`` characters."""
-    return textwrap.wrap(text, width or _LEGEND_CHARS, break_on_hyphens=False) or [""]
+    """A legend line wrapped to about ``_LEGEND_CHARS`` characters; a last
+    row of one short word takes the word before it along (no lone "it").
+
+    >>> _wrap("combination Ck of the envelope governs it", 38)
+    ['combination Ck of the envelope', 'governs it']
+    """
+    rows = textwrap.wrap(text, width or _LEGEND_CHARS, break_on_hyphens=False) or [""]
+    if len(rows) > 1 and " " not in rows[-1] and len(rows[-1]) <= 4 and " " in rows[-2]:
+        head, word = rows[-2].rsplit(" ", 1)
+        rows[-2:] = [head, f"{word} {rows[-1]}"]
+    return rows
 
 
 def _wrap_items(head: str, items: list[str], width: int = 0) -> list[str]:

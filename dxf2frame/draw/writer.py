@@ -25,7 +25,8 @@ model.
 
 Scales: one per diagram type, a round number chosen so that the largest
 ordinate is about 8-12 % of the larger side of the frame's extents, stated
-in the legend as "moment: 1 drawing unit = X kN*m".  Text height is 1/60 of
+in the legend as "moment: 1 mm on the drawing = X kN*m" (naming the
+drawing's own unit).  Text height is 1/60 of
 that side.  The deflected shape is exaggerated so that the largest
 displacement is about 4-5 % of it.
 
@@ -119,6 +120,15 @@ def _nice_down(v: float) -> float:
     return 10.0**e
 
 
+def drawing_unit_text(unit: str) -> str:
+    """The drawing unit as a legend names it: ``"inch"`` -> ``"in"``, others unchanged.
+
+    >>> drawing_unit_text("inch"), drawing_unit_text("mm")
+    ('in', 'mm')
+    """
+    return "in" if unit == "inch" else unit
+
+
 def _load_source(source: Path) -> "Drawing":
     """Read the drawing afresh the way the reader does (damaged files
     recovered, :func:`dxf2frame.drawing_file.open_document`), so whatever the
@@ -183,6 +193,7 @@ class _Ctx:
     keyed: bool
     nodes: np.ndarray
     uf: UnitFactors
+    drawing_unit: str = "drawing unit"
 
 
 def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[FlatCurve], labels: list[Label],
@@ -205,7 +216,7 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[FlatCurve], labe
     per_unit = _nice_up(gmax * factor / (_ORDINATE_TARGET * size))   # report units per drawing unit
     k_si = factor / per_unit                                         # drawing units per SI unit
     where = "tension side" if key == "moment" else "+ toward local +y"
-    legend.append((key, f"{key}: 1 drawing unit = {per_unit:g} {unit} ({where})"))
+    legend.append((key, f"{key}: 1 {ctx.drawing_unit} on the drawing = {per_unit:g} {unit} ({where})"))
     transparency = RESULT_LAYER_STYLES[key].fill_transparency
     sym = _SYMBOL[key]
     # every point of every curve in drawing coordinates, at once
@@ -370,7 +381,8 @@ def annotate_results(
     small = geom.length_m / us < 3 * h
     nodes = np.array([(m.start, m.end) for m in frame.members], dtype=int).reshape(-1, 2)
     chains = straight_chains(nodes[:, 0], nodes[:, 1], geom.t)
-    ctx = _Ctx(pen=pen, geom=geom, h=h, us=us, small=small, chains=chains, keyed=sel.envelope, nodes=nodes, uf=uf)
+    ctx = _Ctx(pen=pen, geom=geom, h=h, us=us, small=small, chains=chains, keyed=sel.envelope, nodes=nodes, uf=uf,
+               drawing_unit=drawing_unit_text(model.length_unit))
     legend: list[tuple[str, str]] = []
     boxes: list[Box] = [geom.bounds]                   # of everything drawn, for the legend's place
     labels: dict[str, list[Label]] = {key: [] for key in (*DIAGRAMS, "reactions")}
