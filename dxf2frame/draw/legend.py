@@ -99,7 +99,7 @@ def notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list
 def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str, str],
                            legend: list[tuple[str, str]], h: float, uf: UnitFactors | None, shown: str,
                            envelope: bool, *, content: Box, keys: dict[str, list[tuple[int, str]]],
-                           font) -> None:
+                           font) -> list[list]:
     """The legend: per result layer a swatch, its scale line and the keys of
     the combinations that govern a value written on it (all on that layer);
     then the title and the notes block (notes layer).
@@ -109,7 +109,13 @@ def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str
     its right; a taller one gets one column to the right (legend, then
     notes).  Either way the result layers' own content stays close to the
     frame, so a picture of one layer wastes little room.
+
+    Returns the entities drawn as two groups, the legend blocks and the
+    title with the notes, so the caller can move each clear of the
+    drawing's own content.
     """
+    msp = pen.msp
+    n0 = len(msp)
     blocks = []
     rank = {"moment": 0, "shear": 1, "axial": 2, "reactions": 3, "deflected": 4}
     for key, line in sorted(legend, key=lambda kl: rank.get(kl[0], 9)):
@@ -153,6 +159,7 @@ def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str
             block(side_x, y, key, rows)
             y -= len(rows) * pitch + 0.4 * h
         y += 2.6 * h - 0.8 * h
+    n1 = len(msp)
     x0 = side_x
     pen.text("dxf2frame results", (x0, y), 1.4 * h, names["notes"], style="D2F-NOTES",
              align=TextEntityAlignment.TOP_LEFT)
@@ -164,3 +171,5 @@ def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str
         y -= 0.4 * h
     paras = notes_paragraphs(model, det, uf, shown, [])
     pen.notes(paras, (x0, y - 0.8 * h), h, max(0.6 * size, 45 * h), names["notes"])
+    added = list(msp)[n0:]
+    return [added[:n1 - n0], added[n1 - n0:]]

@@ -59,6 +59,7 @@ from ..drawing_file import open_document
 from .curves import (DIAGRAMS, FrameGeom, frame_geom, chord_tolerance, sample_curves, drawn_curves, FlatCurve, has_batch, sample_batch,
                              sample_member_by_member, segment_max, straight_chains, thin, zero_crossings)
 from ..errors import SettingsError
+from .obstacles import DrawingObstacles, drawing_obstacles, free_spot
 from .labels import (OTHER_SIGN, PRIORITY, SAME_AT_JOINT, Box, LabelPlacer, as_lines, drawing_texts,
                      label_requests, label_font, Label, merge_at_joints, geometries_near, place_labels, Spot, text_width)
 from .legend import draw_legend_and_notes, notes_paragraphs
@@ -360,7 +361,7 @@ def annotate_results(
     prepare_layers(doc, names)
     sel = select_results(results, show)
     uf = unit_factors(force_unit, length_unit)
-    texts = drawing_texts(doc, names.values())        # the drawing's own, before we add ours
+    obst = _drawing_content(doc, names.values())       # the drawing's own, before we add ours
     geom = frame_geom(model)
     size = geom.size
     h = float(f"{size * _TEXT_RATIO:.2g}")
@@ -408,6 +409,7 @@ def annotate_results(
     members = shapely.linestrings(np.stack([geom.start, geom.end], axis=1)) if n_el else np.zeros(0, dtype=object)
     font = label_font(h)
     used: dict[str, set[int]] = {}
+    taken: dict = {}                                   # every layer's label boxes: no two result texts overlap
     if arrows:
         boxes.append(tuple(float(v) for v in shapely.total_bounds(arrows)))
     for key, todo in labels.items():
@@ -416,7 +418,8 @@ def annotate_results(
         # obstacles: member lines, this layer's outlines and ticks (reactions: the arrows), the drawing's texts
         reach = 7.0 * h + 2.5 * max(text_width(font, sp.text, h) for lb in todo for sp in lb.spots)
         own = list(arrows) if key == "reactions" else geometries_near(as_lines(lines[key]), todo, reach)
-        placer = LabelPlacer(geometries_near(members, todo, reach) + own + texts, cell=4 * h)
+        placer = LabelPlacer(geometries_near(members, todo, reach) + own + geometries_near(obst.geoms, todo, reach),
+                             cell=4 * h, taken=taken)
         dropped, used[key] = place_labels(pen, placer, todo, font, h)
         summary.labels += placer.placed
         summary.forced += placer.forced
@@ -434,10 +437,48 @@ def annotate_results(
     if sel.envelope:
         head, _sep, _names = sel.label.partition(": ")
         shown = head + ": " + ", ".join(f"C{k + 1} = {r.name}" for k, r in enumerate(sel.results))
-    draw_legend_and_notes(pen, model, det, geom, names, legend, h, uf, shown, sel.envelope,
-                           content=content, keys=keys, font=font)
+    groups = draw_legend_and_notes(pen, model, det, geom, names, legend, h, uf, shown, sel.envelope,
+                                   content=content, keys=keys, font=font)
+    placed = [shapely.box(*b) for cell in taken.values() for b in cell]
+    _keep_clear(groups, obst, list(members) + [shapely.box(*b) for b in boxes] + placed,
+                content, 0.8 * h)
     summary.entities = pen.count
     return summary
+
+
+def _drawing_content(doc, result_layers) -> DrawingObstacles:
+    """The drawing's own entities (not on ``result_layers`` nor on any
+    ``RESULT-`` layer) as obstacles, computed once."""
+    skip = {n.upper() for n in result_layers}
+    return drawing_obstacles(doc, lambda layer: layer.upper() in skip or layer.upper().startswith("RESULT-"))
+
+
+def _keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content: Box, gap: float) -> None:
+    """Move each group of entities (the legend, the notes) as a whole to the
+    nearest place clear of the drawing's own content, of ``ours`` (what the
+    tool drew: member lines, diagram extents, labels) and of the groups
+    placed before it; outside the drawing's extents when nothing inside is
+    free."""
+    from ezdxf import bbox
+
+    ext = content if obst.extents is None else (
+        min(content[0], obst.extents[0]), min(content[1], obst.extents[1]),
+        max(content[2], obst.extents[2]), max(content[3], obst.extents[3]))
+    blocked = list(obst.geoms) + ours
+    for ents in groups:
+        if not ents:
+            continue
+        b = bbox.extents(ents, fast=False)
+        if not b.has_data:
+            continue
+        box = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y)
+        dx, dy = free_spot(box, blocked, ext, gap)
+        if dx or dy:
+            for e in ents:
+                e.translate(dx, dy, 0.0)
+        moved = (box[0] + dx, box[1] + dy, box[2] + dx, box[3] + dy)
+        blocked.append(shapely.box(*moved))
+        ext = (min(ext[0], moved[0]), min(ext[1], moved[1]), max(ext[2], moved[2]), max(ext[3], moved[3]))
 
 
 def _draw_near_misses(pen: Pen, model, layer: str, h: float) -> list[Box]:
