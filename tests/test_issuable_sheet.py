@@ -75,3 +75,89 @@ def test_units_option_still_overrides(tmp_path):
     assert main(["solve", str(src), "--out", str(out), "--units", "kN,mm"]) == 0
     rep = json.loads(out.with_suffix(".json").read_text())
     assert rep["units"]["length"] == "mm"
+
+
+# -- an office sheet: the tool's texts keep clear of the drafter's content ------------------------
+
+
+def office_sheet(path: Path, *, beam_y: float = 4000.0, hoist: str = "20 kN") -> Path:
+    """A portal frame in mm (columns 4 m, beam 6 m) with what an office puts
+    around it, tight: grid bubbles over the columns, a dimension under the
+    frame, level texts at the left, general notes at the right and a title
+    block under the right column."""
+    doc = ezdxf.new("R2018")
+    doc.header["$INSUNITS"] = 4
+    define_layers(doc)
+    define_blocks(doc)
+    for name in ("GRID", "DIMS", "ANNO", "TITLE"):
+        doc.layers.add(name)
+    msp = doc.modelspace()
+    msp.add_line((0, 0), (0, beam_y), dxfattribs={"layer": "FRAME"})
+    msp.add_line((0, beam_y), (6000, beam_y), dxfattribs={"layer": "FRAME"})
+    msp.add_line((6000, beam_y), (6000, 0), dxfattribs={"layer": "FRAME"})
+    insert_symbol(msp, "FIXED", (0, 0), layer="SUPPORTS", scale=200)
+    insert_symbol(msp, "PIN", (6000, 0), layer="SUPPORTS", scale=200)
+    insert_symbol(msp, "UDL", (3000, beam_y), layer="LOADS", scale=200, W="12 kN/m", CASE="D")
+    insert_symbol(msp, "FORCE", (0, beam_y), layer="LOADS", scale=200, P=hoist, DIR="+X", CASE="W")
+    for x, name in ((0, "A"), (6000, "B")):                         # grid bubbles
+        msp.add_circle((x, beam_y + 1500), 300, dxfattribs={"layer": "GRID"})
+        msp.add_text(name, height=250, dxfattribs={"layer": "GRID"}).set_placement(
+            (x, beam_y + 1500), align=ezdxf.enums.TextEntityAlignment.MIDDLE_CENTER)
+    dim = msp.add_linear_dim(base=(0, -900), p1=(0, 0), p2=(6000, 0), dxfattribs={"layer": "DIMS"})
+    dim.render()
+    for y, text in ((0, "GROUND +0.000"), (beam_y, f"ROOF +{beam_y / 1000:.3f}")):
+        msp.add_text(text, height=200, dxfattribs={"layer": "ANNO"}).set_placement(
+            (-2600, y + 100))
+    msp.add_mtext("GENERAL NOTES\\P1. STEEL GRADE 350.\\P2. DO NOT SCALE.",
+                  dxfattribs={"layer": "ANNO", "char_height": 180, "width": 2400}).set_location((6900, beam_y))
+    msp.add_lwpolyline([(6600, -2400), (10600, -2400), (10600, -1200), (6600, -1200)], close=True,
+                       dxfattribs={"layer": "TITLE"})
+    msp.add_text("PACKING SHED PORTAL", height=250, dxfattribs={"layer": "TITLE"}).set_placement((6800, -1700))
+    msp.add_text("DWG S-101 REV A", height=180, dxfattribs={"layer": "TITLE"}).set_placement((6800, -2200))
+    doc.saveas(path)
+    return path
+
+
+def _boxes(entities):
+    from ezdxf import bbox
+
+    out = []
+    for e in entities:
+        b = bbox.extents([e])
+        if b.has_data:
+            out.append((e, (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y)))
+    return out
+
+
+def _overlap(a, b) -> bool:
+    return a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]
+
+
+def _check_clear(result: Path) -> None:
+    doc = ezdxf.readfile(result)
+    msp = doc.modelspace()
+    ours = [e for e in msp if e.dxf.layer.upper().startswith("RESULT-")]
+    original = _boxes([e for e in msp if not e.dxf.layer.upper().startswith("RESULT-")])
+    texts = _boxes([e for e in ours if e.dxftype() in ("TEXT", "MTEXT")])
+    assert texts
+    for e, b in texts:
+        hits = [(o.dxftype(), o.dxf.layer) for o, ob in original if _overlap(b, ob)]
+        assert not hits, f"{e.dxftype()} {e.plain_text() if e.dxftype() == 'MTEXT' else e.dxf.text!r} on {hits}"
+    for i, (e, b) in enumerate(texts):
+        for f, c in texts[i + 1:]:
+            assert not _overlap(b, c), (e.dxf.layer, f.dxf.layer)
+
+
+def test_result_texts_keep_clear_of_the_office_sheet(tmp_path):
+    (tmp_path / "dxf2frame.toml").write_text("[combinations]\nbuiltin = [\"LRFD\"]\n")
+    a = office_sheet(tmp_path / "portal-A.dxf")
+    b = office_sheet(tmp_path / "portal-B.dxf", beam_y=4300.0, hoist="30 kN")
+    out = tmp_path / "solved"
+    assert main(["solve", str(a), "--out", str(out / "portal-A.dxf"), "--no-png"]) == 0
+    _check_clear(out / "portal-A.dxf")
+    cmp_dir = tmp_path / "cmp"
+    assert main(["compare", str(a), str(b), "--out", str(cmp_dir)]) == 0
+    marked = [p for p in cmp_dir.glob("*.dxf")]
+    assert marked
+    for p in marked:
+        _check_clear(p)
