@@ -266,7 +266,10 @@ class SolveRequest:
     folder; for many inputs, a folder.  Default: a folder ``solved`` beside
     each input.  ``report``: JSON path (one input only); default beside the
     output drawing.  ``units``: (force, length) of the report, e.g. ``("kN", "m")``
-    (default: the settings' force unit and the drawing's length unit).
+    (default: the settings' ``[units] output_*``, else kN and m for a metric
+    drawing, kip and ft for a US one).  ``scales``: diagram scales shared
+    by the drawings of a batch {"moment"|"shear"|"axial": SI units per
+    metre on the drawing}; the settings' ``[drawing.scales]`` win.
     """
 
     out: Path | None = None
@@ -281,6 +284,7 @@ class SolveRequest:
     length_unit: str | None = None
     single: bool = True
     strict: bool = False
+    scales: dict[str, float] | None = None
 
 
 @dataclass
@@ -424,6 +428,14 @@ def _try_preview(drawing: Path, png: Path, analysis: Analysis, show: str, force_
     return png.exists()
 
 
+def drawing_scale_options(settings: Settings, model, req: "SolveRequest") -> dict:
+    """The writer's text height and fixed diagram scales: the settings'
+    ``[drawing]``, then the scales a batch shares (``req.scales``) for the
+    diagrams the settings leave free."""
+    scales = {**(req.scales or {}), **settings.diagram_scales}
+    return {"text_height": settings.text_height_for(model.unit_scale), "scales": scales}
+
+
 def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     """Run the whole ``solve`` command on one drawing; never raises for bad input.
 
@@ -488,7 +500,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 writer.write_result_drawing(
                     source, staged["drawing"], model, det, analysis.results, show=show,
                     layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
-                    document=analysis.document,
+                    document=analysis.document, **drawing_scale_options(settings, model, req),
                 )
             else:
                 writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,

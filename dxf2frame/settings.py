@@ -56,6 +56,13 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
 ``[compare]``
     ``threshold`` (relative change reported by the revision comparison,
     default 0.05).
+``[drawing]``
+    ``text_height`` (plotted height of the result texts, e.g. ``"2.5 mm"``),
+    ``plot_scale`` (N of a 1:N plot, default 1); both unset: texts are 1/60
+    of the frame's size.  ``[drawing.scales]``: a fixed scale per diagram
+    (``moment``, ``shear``, ``axial``) as ``"<value> per <length on the
+    drawing>"``, e.g. ``moment = "50 kN*m per m"``; unset: each diagram is
+    scaled to the drawing (one scale for all the drawings of a batch).
 
 Layer names are matched case-insensitively, as CAD programs do.  Quantity
 strings are parsed by :mod:`dxf2frame.units`; this module itself does not
@@ -129,6 +136,7 @@ _BUILTIN_COMBOS = ("LRFD", "ASD")
 _TOP_KEYS = {
     "units", "geometry", "limits", "layers", "blocks", "attributes",
     "output_layers", "sections", "combinations", "deflection", "compare", "cases", "analysis",
+    "drawing",
 }
 
 
@@ -169,6 +177,10 @@ class Settings:
     source : the settings file read, or None for defaults
     output_force, output_length : units of the results (None: chosen from
         the drawing's unit system, see :meth:`output_units`)
+    text_height_plotted, plot_scale : plotted text height [m] and N of the
+        1:N plot (None: automatic), see :meth:`text_height_for`
+    diagram_scales : {"moment"|"shear"|"axial": fixed scale in SI units
+        (N*m or N) per metre on the drawing}
     """
 
     force_unit: str = "kN"
@@ -196,6 +208,9 @@ class Settings:
     # -- output units and drawing (issue 17) --
     output_force: str | None = None
     output_length: str | None = None
+    text_height_plotted: float | None = None          # m on the plotted sheet
+    plot_scale: float | None = None                   # N of 1:N
+    diagram_scales: Mapping[str, float] = field(default_factory=lambda: _ro({}))   # SI per metre of drawing
 
     # derived lookups (built once)
     def __post_init__(self) -> None:
@@ -279,6 +294,19 @@ class Settings:
         us = normalise_length_unit(drawing_unit) in _US_LENGTHS
         return (self.output_force or ("kip" if us else "kN"),
                 self.output_length or ("ft" if us else "m"))
+
+    def text_height_for(self, unit_scale: float) -> float | None:
+        """Result text height in drawing units (``unit_scale``: metres per
+        drawing unit), or None when neither ``text_height`` nor
+        ``plot_scale`` is set (the writer then sizes texts to the frame).
+
+        >>> Settings(text_height_plotted=0.0025, plot_scale=100.0).text_height_for(0.001)
+        250.0
+        """
+        if self.text_height_plotted is None and self.plot_scale is None:
+            return None
+        plotted = self.text_height_plotted if self.text_height_plotted is not None else 0.0025
+        return plotted * (self.plot_scale or 1.0) / unit_scale
 
     def deflection_limit_for(self, layer: str) -> float:
         """Span / limit ratio for members on ``layer``."""
@@ -554,6 +582,8 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
     if "threshold" in cp:
         kw["compare_threshold"] = _number(cp["threshold"], "compare.threshold", path, allow_zero=True)
 
+    kw.update(_drawing_options(_table(data, "drawing", path), path))
+
     return Settings(**kw)
 
 
@@ -570,6 +600,40 @@ def _output_units(u: Mapping[str, Any], path: str) -> dict[str, str]:
             except UnitError as exc:
                 raise SettingsError(exc.message, path=path, key=f"units.{key}") from None
             kw[key] = text
+    return kw
+
+
+#: diagrams whose scale can be fixed, and the kind of their values
+DIAGRAM_SCALE_KINDS: dict[str, str] = {"moment": "moment", "shear": "force", "axial": "force"}
+
+
+def _drawing_options(d: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """``[drawing]``: text height, plot scale and fixed diagram scales."""
+    _check_keys(d, {"text_height", "plot_scale", "scales"}, "drawing", path)
+    kw: dict[str, Any] = {}
+    if "text_height" in d:
+        kw["text_height_plotted"] = _quantity(d["text_height"], "length", "drawing.text_height", path)
+    if "plot_scale" in d:
+        kw["plot_scale"] = _number(d["plot_scale"], "drawing.plot_scale", path)
+    sc = d.get("scales", {})
+    if not isinstance(sc, Mapping):
+        raise SettingsError("must be a table, e.g. moment = \"50 kN*m per m\"", path=path, key="drawing.scales")
+    _check_keys(sc, set(DIAGRAM_SCALE_KINDS), "drawing.scales", path)
+    scales = {}
+    for k, v in sc.items():
+        key = f"drawing.scales.{k}"
+        text = _str(v, key, path)
+        value, sep, length = text.partition(" per ")
+        if not sep:
+            raise SettingsError(f"write it as \"<value> per <length on the drawing>\", e.g. \"50 kN*m per m\", "
+                                f"got {text!r}", path=path, key=key)
+        length = length.strip()
+        if length and not any(c.isdigit() for c in length.split()[0]):
+            length = "1 " + length
+        per = _quantity(value.strip(), DIAGRAM_SCALE_KINDS[k.lower()], key, path)
+        along = _quantity(length, "length", key, path)
+        scales[k.lower()] = per / along
+    kw["diagram_scales"] = _ro(scales)
     return kw
 
 

@@ -161,3 +161,67 @@ def test_result_texts_keep_clear_of_the_office_sheet(tmp_path):
     assert marked
     for p in marked:
         _check_clear(p)
+
+
+def test_text_height_and_fixed_moment_scale_from_settings(tmp_path):
+    (tmp_path / "dxf2frame.toml").write_text(SETTINGS + """
+[drawing]
+text_height = "2.5 mm"
+plot_scale = 50
+[drawing.scales]
+moment = "20 kN*m per m"
+""")
+    src = beam(tmp_path / "beam-mm.dxf", span=6000.0, insunits=4, scale=200.0)
+    out = tmp_path / "o" / "beam.dxf"
+    assert main(["solve", str(src), "--out", str(out), "--no-png"]) == 0
+    doc = ezdxf.readfile(out)
+    texts = [e for e in doc.modelspace().query('TEXT[layer=="RESULT-MOMENT"]')]
+    # 2.5 mm plotted at 1:50 is 125 mm on an mm drawing (definition of a plot scale)
+    assert {round(e.dxf.height, 6) for e in texts if e.dxf.text.startswith("M=")} == {125.0}
+    legend = [e.dxf.text for e in texts if e.dxf.text.startswith("moment:")]
+    # 20 kN*m per m is 0.02 kN*m per mm on the drawing
+    assert "1 mm on the drawing = 0.02 kN*m" in legend[0], legend
+    outline = [e for e in doc.modelspace().query('LWPOLYLINE[layer=="RESULT-MOMENT"]')
+               if any(abs(p[0]) < 1e-6 and abs(p[1]) < 1e-6 for p in e.get_points("xy"))]
+    low = min(p[1] for e in outline for p in e.get_points("xy"))
+    # AISC Manual Table 3-23 Case 1 (from memory): 45 kN*m at midspan -> 45 / 0.02 = 2250 mm below the beam
+    assert low == pytest.approx(-2250.0, rel=1e-6)
+
+
+@pytest.mark.parametrize("bad", ['moment = "50 kN*m"', 'moment = "50 kN per m"', 'deflected = "1 m per m"'])
+def test_bad_fixed_scales_are_refused(bad):
+    import tomllib
+
+    from dxf2frame.errors import SettingsError
+
+    with pytest.raises(SettingsError, match="drawing.scales"):
+        Settings.from_dict(tomllib.loads("[drawing.scales]\n" + bad))
+
+
+def _moment_legend(path: Path) -> str:
+    doc = ezdxf.readfile(path)
+    return [e.dxf.text for e in doc.modelspace().query('TEXT[layer=="RESULT-MOMENT"]')
+            if e.dxf.text.startswith("moment:")][0]
+
+
+def test_revisions_solved_in_one_batch_share_every_scale(tmp_path):
+    folder = tmp_path / "revs"
+    folder.mkdir()
+    (folder / "dxf2frame.toml").write_text(SETTINGS)
+    a = beam(folder / "rev-A.dxf", span=6.0, insunits=6, scale=0.2, w="10 kN/m")
+    b = beam(folder / "rev-B.dxf", span=6.0, insunits=6, scale=0.2, w="20 kN/m")
+    alone = tmp_path / "alone"
+    for f in (a, b):
+        assert main(["solve", str(f), "--out", str(alone / f.name), "--no-png"]) == 0
+    # on their own, twice the load (AISC Table 3-23 Case 1: M = wl^2/8) gets another scale
+    assert _moment_legend(alone / "rev-A.dxf") != _moment_legend(alone / "rev-B.dxf")
+    out = tmp_path / "batch"
+    assert main(["solve", str(a), str(b), "--out", str(out), "--no-png", "--workers", "1"]) == 0
+    legends = {}
+    for f in sorted(out.glob("*.dxf")):
+        doc = ezdxf.readfile(f)
+        legends[f.name] = sorted(e.dxf.text for e in doc.modelspace().query("TEXT")
+                                 if re.match(r"(moment|shear|axial):", e.dxf.text))
+    assert len(legends) == 2
+    first, second = legends.values()
+    assert first == second and first, legends

@@ -195,6 +195,32 @@ class _Ctx:
     nodes: np.ndarray
     uf: UnitFactors
     drawing_unit: str = "drawing unit"
+    fixed: Mapping[str, float] = field(default_factory=dict)   # diagram -> SI units per metre on the drawing
+
+
+nice_up = _nice_up  # public: a batch rounds its shared scales the same way
+
+
+def natural_scales(model: "DrawingModel", results: Sequence, show: str | None) -> dict[str, float]:
+    """The scale each diagram would get on its own (SI units per metre on
+    the drawing, before rounding): a batch takes the largest of its
+    drawings' so that one scale fits all.  Diagrams zero everywhere are
+    left out."""
+    sel = select_results(results, show)
+    geom = frame_geom(model)
+    frame = model.frame
+    n_el = len(frame.members)
+    if not n_el:
+        return {}
+    stations = (sample_batch(sel.results, frame, geom.length_m) if has_batch(sel.results)
+                else sample_member_by_member(sel.results, frame, geom.length_m))
+    out = {}
+    for key in DIAGRAMS:
+        curves = sample_curves(stations, key, sel.envelope, n_el)
+        gmax = max((float(np.max(np.abs(c.y))) for c in curves if len(c.y)), default=0.0)
+        if gmax > 0:
+            out[key] = gmax / (_ORDINATE_TARGET * geom.size * model.unit_scale)
+    return out
 
 
 def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[FlatCurve], labels: list[Label],
@@ -214,7 +240,10 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[FlatCurve], labe
     if not gmax > 0:
         legend.append((key, f"{key}: zero everywhere"))
         return None
-    per_unit = _nice_up(gmax * factor / (_ORDINATE_TARGET * size))   # report units per drawing unit
+    if key in ctx.fixed:                                             # the settings' [drawing.scales]
+        per_unit = float(f"{ctx.fixed[key] * us * factor:.6g}")
+    else:
+        per_unit = _nice_up(gmax * factor / (_ORDINATE_TARGET * size))   # report units per drawing unit
     k_si = factor / per_unit                                         # drawing units per SI unit
     where = "tension side" if key == "moment" else "+ toward local +y"
     legend.append((key, f"{key}: 1 {ctx.drawing_unit} on the drawing = {per_unit:g} {unit} ({where})"))
@@ -346,13 +375,17 @@ def annotate_results(
     layers: Mapping[str, str] | None = None,
     force_unit: str,
     length_unit: str,
+    text_height: float | None = None,
+    scales: Mapping[str, float] | None = None,
 ) -> DrawingSummary:
     """Draw the result layers into an open document (see the module docstring).
 
     Removes the previous content of the result layers first.  Values are
     converted from SI to ``force_unit`` / ``length_unit`` for the text.
     ``layers``: result layer key -> name (the settings' ``[output_layers]``;
-    None: the defaults).
+    None: the defaults).  ``text_height``: text height [drawing units]
+    (None: 1/60 of the frame's size); ``scales``: fixed diagram scales
+    {"moment"|"shear"|"axial": SI units per metre on the drawing}.
     """
     # Long by intent: the numbered steps below are the recipe of a result drawing; each is a call,
     # and the working arrays of one diagram are released before the next.
@@ -364,7 +397,7 @@ def annotate_results(
     obst = _drawing_content(doc, names.values())       # the drawing's own, before we add ours
     geom = frame_geom(model)
     size = geom.size
-    h = float(f"{size * _TEXT_RATIO:.2g}")
+    h = text_height if text_height and text_height > 0 else float(f"{size * _TEXT_RATIO:.2g}")
     pen = Pen(doc, size)
     summary = DrawingSummary(layers=names, text_height=h, shown=sel.label)
     frame = model.frame
@@ -383,7 +416,7 @@ def annotate_results(
     nodes = np.array([(m.start, m.end) for m in frame.members], dtype=int).reshape(-1, 2)
     chains = straight_chains(nodes[:, 0], nodes[:, 1], geom.t)
     ctx = _Ctx(pen=pen, geom=geom, h=h, us=us, small=small, chains=chains, keyed=sel.envelope, nodes=nodes, uf=uf,
-               drawing_unit=drawing_unit_text(model.length_unit))
+               drawing_unit=drawing_unit_text(model.length_unit), fixed=dict(scales or {}))
     legend: list[tuple[str, str]] = []
     boxes: list[Box] = [geom.bounds]                   # of everything drawn, for the legend's place
     labels: dict[str, list[Label]] = {key: [] for key in (*DIAGRAMS, "reactions")}
@@ -694,6 +727,8 @@ def write_result_drawing(
     force_unit: str,
     length_unit: str,
     document: "Drawing | None" = None,
+    text_height: float | None = None,
+    scales: Mapping[str, float] | None = None,
 ) -> None:
     """Write a copy of ``source`` with the result layers to ``out`` (atomic).
 
@@ -709,6 +744,7 @@ def write_result_drawing(
     document : optional: ``source`` already loaded with ``ezdxf.readfile``
         and not modified since (the reader's document), to save reading the
         file a second time; it is annotated in place
+    text_height, scales : see :func:`annotate_results`
 
     Raises
     ------
@@ -719,7 +755,7 @@ def write_result_drawing(
     _check_target(source, out)
     doc = document if document is not None else _load_source(source)
     annotate_results(doc, model, det, results, show=show, layers=layers,
-                     force_unit=force_unit, length_unit=length_unit)
+                     force_unit=force_unit, length_unit=length_unit, text_height=text_height, scales=scales)
     with atomic_path(out) as tmp:
         doc.saveas(tmp)
 
