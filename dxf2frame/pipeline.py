@@ -320,6 +320,7 @@ def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
         "drawing": drawing,
         "report": req.report if (req.report is not None and req.single) else drawing.with_suffix(".json"),
         "csv": drawing.with_suffix(".csv"),
+        "reactions": drawing.with_name(f"{drawing.stem}-reactions.csv"),
         "png": drawing.with_suffix(".png"),
     }
     return paths
@@ -517,6 +518,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
             analysis.timings["report"] = time.perf_counter() - t0
             written = ["drawing", "report"] + (["csv"] if with_csv else [])
+            written += ["reactions"] if with_csv and report_mod.write_reaction_schedule(rep, staged["reactions"]) else []
             if req.png:
                 t0 = time.perf_counter()
                 drawn = _try_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u,

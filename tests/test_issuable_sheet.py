@@ -225,3 +225,38 @@ def test_revisions_solved_in_one_batch_share_every_scale(tmp_path):
     assert len(legends) == 2
     first, second = legends.values()
     assert first == second and first, legends
+
+
+def test_envelope_reactions_max_and_min_together_with_uplift(tmp_path):
+    (tmp_path / "dxf2frame.toml").write_text('[combinations]\nbuiltin = ["LRFD"]\n')
+    doc = ezdxf.new("R2018")
+    doc.header["$INSUNITS"] = 6
+    define_layers(doc)
+    define_blocks(doc)
+    msp = doc.modelspace()
+    msp.add_line((0, 0), (6, 0), dxfattribs={"layer": "FRAME"})
+    insert_symbol(msp, "PIN", (0, 0), layer="SUPPORTS", scale=0.2)
+    insert_symbol(msp, "ROLLER", (6, 0), layer="SUPPORTS", scale=0.2)
+    insert_symbol(msp, "UDL", (2, 0), layer="LOADS", scale=0.2, W="10 kN/m", CASE="D")
+    insert_symbol(msp, "UDL", (4, 0), layer="LOADS", scale=0.2, W="30 kN/m", DIR="Y", CASE="W")
+    src = tmp_path / "roof.dxf"
+    doc.saveas(src)
+    out = tmp_path / "o" / "roof.dxf"
+    assert main(["solve", str(src), "--out", str(out), "--no-png"]) == 0
+    import csv
+
+    rows = list(csv.DictReader((out.parent / "roof-reactions.csv").open()))
+    ry = [r for r in rows if r["component"] == "Ry"]
+    assert len(ry) == 2
+    for r in ry:
+        # ASCE/SEI 7 LRFD basic combinations: 1.4D governs the largest Ry, 0.9D + 1.0W the smallest;
+        # statics of a simple span: each support takes half, 1.4 * 10 * 6 / 2 = 42 kN and
+        # (0.9 * 10 - 30) * 6 / 2 = -63 kN (uplift)
+        assert float(r["max"]) == pytest.approx(42.0, rel=1e-6)
+        assert float(r["min"]) == pytest.approx(-63.0, rel=1e-6)
+        assert r["uplift"] == "yes"
+    texts = [e.dxf.text for e in ezdxf.readfile(out).modelspace().query('TEXT[layer=="RESULT-REACTIONS"]')]
+    both = [t for t in texts if t.startswith("Ry max 42")]
+    assert len(both) == 2 and all("min -63" in t and "UPLIFT" in t for t in both), texts
+    notes = " ".join(e.plain_text() for e in ezdxf.readfile(out).modelspace().query('MTEXT[layer=="RESULT-NOTES"]'))
+    assert "Reaction schedule" in notes and "UPLIFT" in notes

@@ -99,7 +99,7 @@ def notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list
 def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str, str],
                            legend: list[tuple[str, str]], h: float, uf: UnitFactors | None, shown: str,
                            envelope: bool, *, content: Box, keys: dict[str, list[tuple[int, str]]],
-                           font) -> list[list]:
+                           font, extra: list[str] | None = None) -> list[list]:
     """The legend: per result layer a swatch, its scale line and the keys of
     the combinations that govern a value written on it (all on that layer);
     then the title and the notes block (notes layer).
@@ -110,6 +110,7 @@ def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str
     notes).  Either way the result layers' own content stays close to the
     frame, so a picture of one layer wastes little room.
 
+    ``extra``: more notes paragraphs (the reaction schedule).
     Returns the entities drawn as two groups, the legend blocks and the
     title with the notes, so the caller can move each clear of the
     drawing's own content.
@@ -169,7 +170,7 @@ def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str
             pen.text(row, (x0, y), h, names["notes"], style="D2F-NOTES", align=TextEntityAlignment.TOP_LEFT)
             y -= pitch
         y -= 0.4 * h
-    paras = notes_paragraphs(model, det, uf, shown, [])
+    paras = notes_paragraphs(model, det, uf, shown, list(extra or []))
     pen.notes(paras, (x0, y - 0.8 * h), h, max(0.6 * size, 45 * h), names["notes"])
     added = list(msp)[n0:]
     return [added[:n1 - n0], added[n1 - n0:]]

@@ -8,8 +8,8 @@ everything is a line, not a box covering the whole sheet); every other
 entity by its extents (``ezdxf.bbox``, blocks expanded).  A block
 reference that spans most of the drawing (a title block drawn as one
 block with the sheet border) is expanded one level so that its parts,
-not its overall box, are the obstacles.  Member lines of the frame layer
-are left out: the writer has them already as exact segments.
+not its overall box, are the obstacles.  Linework reaching beyond 1e12
+drawing units is no drawing's content and is left out (as in the preview).
 
 Computed once per drawing and indexed in one STRtree; :func:`free_spot`
 finds the nearest free place for a box (a legend, a notes block, a change
@@ -32,6 +32,7 @@ Box = tuple[float, float, float, float]
 
 _BIG_INSERT = 0.4          # a block reference wider and taller than this fraction of the extents is expanded
 _MAX_CANDIDATES = 40_000   # positions tried inside the extents for one box
+_FAR = 1e12                # coordinates beyond this [drawing units] are no drawing's content (as in the preview)
 
 
 @dataclass
@@ -94,9 +95,12 @@ def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
             continue
         others.append(e)
     _boxes_of(others, boxes, cache)
+    polys = [p for p in polys if np.all(np.abs(p) < _FAR)]
+    boxes = [b for b in boxes if np.all(np.abs(b) < _FAR)]         # NaN (unmeasured) fails too
     ext = _extents(polys, boxes)
     if ext is not None:
         boxes = _expand_big_inserts(others, boxes, ext, polys, cache)
+        polys = [p for p in polys if np.all(np.abs(p) < _FAR)]
     geoms = list(shapely.box(*np.array(boxes, dtype=float).T)) if boxes else []
     if polys:
         idx = np.repeat(np.arange(len(polys)), [len(p) for p in polys])
@@ -141,7 +145,7 @@ def _expand_big_inserts(entities: Sequence, boxes: list[Box], ext: Box, polys: l
             else:
                 rest.append(p)
         _boxes_of(rest, out, cache)
-    return [b for b in out if np.all(np.isfinite(b))]
+    return [b for b in out if np.all(np.abs(b) < _FAR)]
 
 
 def _extents(polys: list[np.ndarray], boxes: Iterable[Box]) -> Box | None:

@@ -430,7 +430,10 @@ def annotate_results(
     stations = None
 
     # 3. reactions
-    arrows = _draw_reactions(pen, model, geom, sel, names["reactions"], uf, h, labels["reactions"])
+    schedule: list[str] = []
+    schedule_keys: set[int] = set()
+    arrows = _draw_reactions(pen, model, geom, sel, names["reactions"], uf, h, labels["reactions"],
+                             schedule, schedule_keys)
     legend.append(("reactions", f"reactions: {uf.force_unit}, {uf.moment_unit}; arrows show each component's "
                                 f"direction, values signed (+X, +Y, moment counter-clockwise)"))
 
@@ -465,13 +468,16 @@ def annotate_results(
     content = (float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max()))
 
     # 6. legend and notes beside the frame
+    if schedule_keys:
+        used["reactions"] = used.get("reactions", set()) | schedule_keys
     keys = {key: [(k, sel.results[k].name) for k in sorted(ks)] for key, ks in used.items() if ks}
     shown = sel.label
     if sel.envelope:
         head, _sep, _names = sel.label.partition(": ")
         shown = head + ": " + ", ".join(f"C{k + 1} = {r.name}" for k, r in enumerate(sel.results))
     groups = draw_legend_and_notes(pen, model, det, geom, names, legend, h, uf, shown, sel.envelope,
-                                   content=content, keys=keys, font=font)
+                                   content=content, keys=keys, font=font,
+                                   extra=_schedule_notes(schedule, uf))
     placed = [shapely.box(*b) for cell in taken.values() for b in cell]
     _keep_clear(groups, obst, list(members) + [shapely.box(*b) for b in boxes] + placed,
                 content, 0.8 * h)
@@ -514,6 +520,14 @@ def _keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content:
         ext = (min(ext[0], moved[0]), min(ext[1], moved[1]), max(ext[2], moved[2]), max(ext[3], moved[3]))
 
 
+def _schedule_notes(schedule: list[str], uf: UnitFactors) -> list[str]:
+    """The reaction schedule of an envelope as notes paragraphs."""
+    if not schedule:
+        return []
+    return [f"Reaction schedule ({uf.force_unit}, {uf.moment_unit}; max and min over the envelope, "
+            "UPLIFT: Ry has a negative minimum):"] + [f"- {row}" for row in schedule]
+
+
 def _draw_near_misses(pen: Pen, model, layer: str, h: float) -> list[Box]:
     """A circle and the words "near miss?" at each free member end that
     stops just short of another member or a support (the warning in the
@@ -543,15 +557,21 @@ def _reaction_table(sel: Selection) -> tuple[list[int], np.ndarray]:
 
 
 def _draw_reactions(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str, uf: UnitFactors,
-                    h: float, labels: list[Label]) -> list:
+                    h: float, labels: list[Label], schedule: list[str] | None = None,
+                    used_keys: set[int] | None = None) -> list:
     """Arrows at the supports and their label requests; returns the arrow
     shafts as shapely lines (obstacles for the reaction labels).
 
-    For an envelope each component gets the bound of larger magnitude with
-    its key, plus the other bound when it has the other sign and is at
-    least ``OTHER_SIGN`` of the larger; ``[all]`` when every result gives
-    the same value.  Reactions are written however small.
+    For an envelope each component gets one arrow (in the direction of the
+    bound of larger magnitude) and one label with both bounds side by
+    side, "Ry max 685.2 [C2] min -12.3 [C5] UPLIFT" (a negative minimum of
+    Ry: the support is pulled up); ``[all]`` when every result gives the
+    same value.  The same lines go to ``schedule`` (the notes' reaction
+    schedule) and the keys used to ``used_keys``.  Reactions are written
+    however small.
     """
+    schedule = [] if schedule is None else schedule
+    used_keys = set() if used_keys is None else used_keys
     nodes, table = _reaction_table(sel)
     if not nodes:
         return []
@@ -578,9 +598,14 @@ def _draw_reactions(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
             elif abs(v_big - v_oth) <= 1e-9 * ref:
                 texts = [(f"{sym}={label_value(v_big * factor)} [all]", None, v_big)]
             else:
-                texts = [(f"{sym}={label_value(v_big * factor)} [C{kb + 1}]", kb, v_big)]
-                if v_oth * v_big < 0 and abs(v_oth) >= OTHER_SIGN * abs(v_big):
-                    texts.append((f"{sym}={label_value(v_oth * factor)} [C{ko + 1}]", ko, v_oth))
+                # max and min side by side in one label, so both stay at the support
+                hi, lo = float(vals[kmax]), float(vals[kmin])
+                flag = " UPLIFT" if comp == 1 and lo < 0 else ""
+                texts = [(f"{sym} max {label_value(hi * factor)} [C{kmax + 1}] min {label_value(lo * factor)} "
+                          f"[C{kmin + 1}]{flag}", kb, v_big)]
+                schedule.append(f"node {nid} {sym}: max {label_value(hi * factor)} [C{kmax + 1}], "
+                                f"min {label_value(lo * factor)} [C{kmin + 1}]{flag}")
+                used_keys.update((kmax, kmin))
             if comp == 0:
                 a, b = p + (-gap - La, 0.0), p + (-gap, 0.0)
                 tail, tip = (a, b) if v_big > 0 else (b, a)

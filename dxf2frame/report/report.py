@@ -759,6 +759,48 @@ def dumps_report(report: Mapping) -> str:
     return "".join(_json_chunks(report))
 
 
+#: columns of the reaction schedule CSV (one row per envelope, support and component)
+REACTION_SCHEDULE_COLUMNS = ("envelope", "node", "support", "x", "y", "component", "max", "max_by",
+                             "min", "min_by", "governing", "uplift")
+
+
+def reaction_schedule(report: Mapping) -> list[dict]:
+    """Per envelope, support and component (Rx, Ry, M): max and min with
+    the result governing each, ``governing`` (the one of larger magnitude)
+    and ``uplift`` (Ry with a negative minimum: the support is pulled up
+    under some combination).  Values in the report's units; empty when the
+    report has no envelope."""
+    rows = []
+    for env in report.get("envelopes", []):
+        for r in env.get("reactions", []):
+            support = next((rc.get("support", "") for res in report.get("results", [])
+                            for rc in res.get("reactions", []) if rc.get("node") == r["node"]), "")
+            for comp, name in (("fx", "Rx"), ("fy", "Ry"), ("m", "M")):
+                hi, lo = r.get(f"{comp}_max"), r.get(f"{comp}_min")
+                if hi is None or lo is None:
+                    continue
+                gov = r[f"{comp}_max_by"] if abs(hi) >= abs(lo) else r[f"{comp}_min_by"]
+                rows.append({"envelope": env["name"], "node": r["node"], "support": support, "x": r["x"], "y": r["y"],
+                             "component": name, "max": hi, "max_by": r[f"{comp}_max_by"], "min": lo,
+                             "min_by": r[f"{comp}_min_by"], "governing": gov,
+                             "uplift": "yes" if comp == "fy" and lo < 0 else ""})
+    return rows
+
+
+def write_reaction_schedule(report: Mapping, path: Path | str) -> bool:
+    """Write :func:`reaction_schedule` as CSV (atomically); False (nothing
+    written) when the report has no envelope."""
+    rows = reaction_schedule(report)
+    if not rows:
+        return False
+    with atomic_open(path, "w", encoding="utf-8", newline="") as fh:
+        w = csv.DictWriter(fh, REACTION_SCHEDULE_COLUMNS)
+        w.writeheader()
+        for row in rows:
+            w.writerow({k: (f"{v:.6g}" if isinstance(v, float) else v) for k, v in row.items()})
+    return True
+
+
 def write_json(report: Mapping, path: Path | str, csv_path: Path | str | None = None) -> None:
     """Write the report as UTF-8 JSON (see :func:`dumps_report`), atomically;
     with ``csv_path`` also the CSV (:func:`write_csv`) in the same pass.
