@@ -260,3 +260,26 @@ def test_envelope_reactions_max_and_min_together_with_uplift(tmp_path):
     assert len(both) == 2 and all("min -63" in t and "UPLIFT" in t for t in both), texts
     notes = " ".join(e.plain_text() for e in ezdxf.readfile(out).modelspace().query('MTEXT[layer=="RESULT-NOTES"]'))
     assert "Reaction schedule" in notes and "UPLIFT" in notes
+
+
+def test_result_drawing_renders_with_the_ezdxf_drawing_addon(tmp_path):
+    """Smoke: the office sheet's result drawing renders (ezdxf's own renderer, low resolution)."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    from ezdxf.addons.drawing import Frontend, RenderContext
+    from ezdxf.addons.drawing.matplotlib import MatplotlibBackend
+
+    (tmp_path / "dxf2frame.toml").write_text("[combinations]\nbuiltin = [\"LRFD\"]\n")
+    src = office_sheet(tmp_path / "portal.dxf")
+    out = tmp_path / "o" / "portal.dxf"
+    assert main(["solve", str(src), "--out", str(out), "--no-png"]) == 0
+    doc = ezdxf.readfile(out)
+    fig = plt.figure(figsize=(4, 3))
+    ax = fig.add_axes([0, 0, 1, 1])
+    Frontend(RenderContext(doc), MatplotlibBackend(ax)).draw_layout(doc.modelspace(), finalize=True)
+    png = tmp_path / "render.png"
+    fig.savefig(png, dpi=50)
+    plt.close(fig)
+    assert png.stat().st_size > 1000
