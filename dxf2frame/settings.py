@@ -33,7 +33,7 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     attribute tags by their convention name, e.g. ``P = "FORCE_VALUE"``.
 ``[output_layers]``
     result layer names ``axial shear moment reactions deflected notes
-    mechanism changes``.
+    mechanism changes tags``.
 ``[sections.default]``, ``[sections."<LAYER>"]``
     ``E``, ``A``, ``I`` as quantity strings with units (``"200 GPa"``,
     ``"5000 mm**2"``, ``"8e7 mm**4"``) and an optional ``name``.  A layer
@@ -122,6 +122,7 @@ DEFAULT_OUTPUT_LAYERS: dict[str, str] = {
     "notes": "RESULT-NOTES",
     "mechanism": "RESULT-MECHANISM",
     "changes": "RESULT-CHANGES",
+    "tags": "RESULT-TAGS",
 }
 OUTPUT_LAYER_KEYS: tuple[str, ...] = tuple(DEFAULT_OUTPUT_LAYERS)
 

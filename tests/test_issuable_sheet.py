@@ -283,3 +283,16 @@ def test_result_drawing_renders_with_the_ezdxf_drawing_addon(tmp_path):
     fig.savefig(png, dpi=50)
     plt.close(fig)
     assert png.stat().st_size > 1000
+
+
+def test_member_tags_match_the_report_ids_and_no_empty_mechanism_layer(tmp_path):
+    (tmp_path / "dxf2frame.toml").write_text("[combinations]\nbuiltin = [\"LRFD\"]\n")
+    src = office_sheet(tmp_path / "portal.dxf")
+    out = tmp_path / "o" / "portal.dxf"
+    assert main(["solve", str(src), "--out", str(out), "--no-png"]) == 0
+    rep = json.loads(out.with_suffix(".json").read_text())
+    ids = {m["id"] for m in rep["results"][0]["members"]}
+    doc = ezdxf.readfile(out)
+    tags = {e.dxf.text for e in doc.modelspace().query('TEXT[layer=="RESULT-TAGS"]')}
+    assert tags == ids and len(ids) == 3
+    assert "RESULT-MECHANISM" not in doc.layers

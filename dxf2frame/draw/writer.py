@@ -391,7 +391,8 @@ def annotate_results(
     # and the working arrays of one diagram are released before the next.
     names = result_layer_names(layers)
     clear_result_layers(doc, names.values())
-    prepare_layers(doc, names)
+    _drop_layer(doc, names["mechanism"])               # a stable frame has no mechanism: no empty layer
+    prepare_layers(doc, {k: v for k, v in names.items() if k != "mechanism"})
     sel = select_results(results, show)
     uf = unit_factors(force_unit, length_unit)
     obst = _drawing_content(doc, names.values())       # the drawing's own, before we add ours
@@ -462,6 +463,7 @@ def annotate_results(
         summary.dropped += dropped
         if placer.extent is not None:
             boxes.append(placer.extent)
+    summary.dropped += _draw_tags(pen, model, geom, names["tags"], h, font, members, obst, taken)
     if bent is not None and len(bent):
         boxes.append((*bent.min(0), *bent.max(0)))
     b = np.array(boxes, dtype=float)
@@ -518,6 +520,48 @@ def _keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content:
         moved = (box[0] + dx, box[1] + dy, box[2] + dx, box[3] + dy)
         blocked.append(shapely.box(*moved))
         ext = (min(ext[0], moved[0]), min(ext[1], moved[1]), max(ext[2], moved[2]), max(ext[3], moved[3]))
+
+
+def _drop_layer(doc, name: str) -> None:
+    """Remove layer ``name`` when it exists (its entities were cleared)."""
+    if name in doc.layers:
+        try:
+            doc.layers.remove(name)
+        except Exception:  # noqa: BLE001 - a layer ezdxf keeps (current layer): leave it, empty
+            pass
+
+
+def _draw_tags(pen: Pen, model, geom: FrameGeom, layer: str, h: float, font, members, obst: DrawingObstacles,
+               taken: dict) -> int:
+    """The member tags: each reported member's id (a drawn span, its pieces
+    grouped) beside its middle, clear of everything placed; returns the
+    tags left out for want of room."""
+    frame = model.frame
+    spans: dict[str, list[int]] = {}
+    for i, m in enumerate(frame.members):
+        spans.setdefault(m.group, []).append(i)
+    if not spans:
+        return 0
+    th = 0.8 * h
+    near = list(obst.near((geom.bounds[0] - 10 * h, geom.bounds[1] - 10 * h,
+                           geom.bounds[2] + 10 * h, geom.bounds[3] + 10 * h)))
+    placer = LabelPlacer(list(members) + near, cell=4 * h, taken=taken)
+    dropped = 0
+    for gid, idx in spans.items():
+        pts = np.vstack([geom.start[idx], geom.end[idx]])
+        t, n = geom.t[idx[0]], geom.n[idx[0]]
+        proj = pts @ t
+        a, b = pts[int(np.argmin(proj))], pts[int(np.argmax(proj))]
+        hw, hh = 0.5 * text_width(font, gid, h) * (th / h) + 0.15 * th, 0.7 * th    # the font is sized for h
+        cands = [a + (b - a) * f + n * side * d for f in (0.5, 0.35, 0.65, 0.2, 0.8)
+                 for d in (hh + 0.3 * h, hw + 0.3 * h, 2.5 * h) for side in (1.0, -1.0)]
+        for c in cands:
+            if placer.try_place(float(c[0]), float(c[1]), hw, hh):
+                pen.text(gid, (float(c[0]), float(c[1])), th, layer)
+                break
+        else:
+            dropped += 1
+    return dropped
 
 
 def _schedule_notes(schedule: list[str], uf: UnitFactors) -> list[str]:
