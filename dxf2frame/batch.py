@@ -383,6 +383,8 @@ def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = Non
         # every file's warnings reach the console (in a batch prefixed with the file)
         for w in o.warnings:
             print(f"dxf2frame: warning: {one_line(w) if single else _with_source_text(o, w)}", file=err)
+        for line in o.probe_lines:                    # --probe values reach the console too
+            print(line if single else f"{Path(o.source).name}: {line}", file=stream)
     if single:
         o = outcomes[0]
         if o.outputs:

@@ -18,6 +18,19 @@ def _say(*lines: str) -> None:
     print("\n".join(lines))
 
 
+def _warn_model(analysis, source: Path | None = None) -> None:
+    """The model's warnings on stderr, as ``solve`` prints them (with the
+    drawing's name when several drawings are read)."""
+    import sys
+
+    from .errors import one_line
+
+    model, det = analysis.model, analysis.determinacy
+    for w in list(model.warnings) + [w for w in det.warnings if w not in model.warnings]:
+        where = f"{source.name}: " if source is not None else ""
+        print(f"dxf2frame: warning: {where}{one_line(w)}", file=sys.stderr)
+
+
 def run_check(args) -> int:
     from .solver import check
 
@@ -188,6 +201,7 @@ def _report_of_drawing(path: Path, args, units: tuple[str, str] | None):
 
     settings = load_settings(args.settings, path)
     an = analyse(path, settings, length_unit=args.length_unit)
+    _warn_model(an, path)
     fu, lu = units if units else settings.output_units(an.model.length_unit)
     rep = build_report(an.model, an.determinacy, an.results, force_unit=fu, length_unit=lu,
                        deflection_limits=settings.deflection_limits())
@@ -223,6 +237,7 @@ def run_explain(args) -> int:
     drawing = Path(args.drawing)
     settings = load_settings(args.settings, drawing)
     analysis = analyse(drawing, settings, length_unit=args.length_unit)
+    _warn_model(analysis)
     if not analysis.stable:
         _say(f"dxf2frame: the frame is unstable, no sheets written: {analysis.determinacy.detail}", CAUTION)
         return EXIT_UNSTABLE

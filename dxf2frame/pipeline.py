@@ -307,6 +307,7 @@ class FileOutcome:
     timings: dict[str, float] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
     traceback: str = ""  # of an internal error, for --debug
+    probe_lines: list[str] = field(default_factory=list)   # N, V, M at each --probe, for the console
 
 
 def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
@@ -515,6 +516,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 probes=req.probes, deflection_limits=settings.deflection_limits(),
             )
             with_csv = req.csv and analysis.stable
+            outcome.probe_lines = report_mod.probe_lines(rep)
             report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
             analysis.timings["report"] = time.perf_counter() - t0
             written = ["drawing", "report"] + (["csv"] if with_csv else [])

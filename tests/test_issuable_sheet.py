@@ -296,3 +296,20 @@ def test_member_tags_match_the_report_ids_and_no_empty_mechanism_layer(tmp_path)
     tags = {e.dxf.text for e in doc.modelspace().query('TEXT[layer=="RESULT-TAGS"]')}
     assert tags == ids and len(ids) == 3
     assert "RESULT-MECHANISM" not in doc.layers
+
+
+def test_probe_values_reach_the_console(tmp_path, capsys):
+    (tmp_path / "dxf2frame.toml").write_text(SETTINGS)
+    src = beam(tmp_path / "beam.dxf", span=6.0, insunits=6, scale=0.2)
+    assert main(["solve", str(src), "--out", str(tmp_path / "o" / "b.dxf"), "--no-png", "--probe", "3,0"]) == 0
+    out = capsys.readouterr().out
+    line = [ln for ln in out.splitlines() if ln.startswith("probe (3, 0)")]
+    # AISC Manual Table 3-23 Case 1 (from memory): at midspan V = 0 and M = w l^2 / 8 = 45 kN*m
+    assert line and "M=45" in line[0] and "kN*m" in line[0], out
+
+
+def test_probe_off_member_names_the_distance_unit(tmp_path, capsys):
+    (tmp_path / "dxf2frame.toml").write_text(SETTINGS)
+    src = beam(tmp_path / "beam.dxf", span=6000.0, insunits=4, scale=200.0)
+    assert main(["solve", str(src), "--out", str(tmp_path / "o" / "b.dxf"), "--no-png", "--probe", "3000,500"]) == 2
+    assert "at 500 mm" in capsys.readouterr().err

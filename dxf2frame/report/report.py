@@ -67,6 +67,7 @@ import numpy as np
 from .. import CAUTION, __version__
 from ..atomic import atomic_open
 from ..errors import DrawingError
+from ..numbers import label_value
 from .table import DictColumn, Table, as_written
 from ..units import length_unit_scale, unit_factor
 
@@ -467,7 +468,8 @@ def locate_points(
         m = frame.members[i]
         if dist[i] > tolerance:
             raise DrawingError(
-                f"probe ({x:g}, {y:g}) is not on any member; nearest is {m.group} at {dist[i]:.4g}",
+                f"probe ({x:g}, {y:g}) is not on any member; nearest is {m.group} at {dist[i]:.4g} "
+                f"{model.length_unit}",
                 hint=f"give a point within {tolerance:.3g} drawing units of a member centreline",
             )
         out.append((m.id, float(t[i] * math.sqrt(ll[i]) * model.unit_scale)))
@@ -757,6 +759,19 @@ def dumps_report(report: Mapping) -> str:
     written column-wise (:meth:`Table.json_lines`), other rows with the C
     encoder; NaN and infinity are refused."""
     return "".join(_json_chunks(report))
+
+
+def probe_lines(report: Mapping) -> list[str]:
+    """One console line per probe and result: where it lies and N, V, M
+    there, in the report's units."""
+    u = report.get("units", {})
+    out = []
+    for res in report.get("results", []):
+        for p in res.get("probes", []) or []:
+            out.append(f"probe ({p['x']:g}, {p['y']:g}) on {p['member']}, {res['name']}: "
+                       f"N={label_value(p['n'])} {u.get('force', '')}, V={label_value(p['v'])} {u.get('force', '')}, "
+                       f"M={label_value(p['m'])} {u.get('moment', '')}")
+    return out
 
 
 #: columns of the reaction schedule CSV (one row per envelope, support and component)
