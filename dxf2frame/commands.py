@@ -257,8 +257,8 @@ def run_template(args) -> int:
     from .atomic import atomic_path
     from .errors import InputFileError
     from .staging import writing
-    from .symbols import define_blocks, define_layers
-    from .units import insunits_code
+    from .symbols import SYMBOL_SIZE, define_blocks, define_layers
+    from .units import insunits_code, normalise_length_unit
 
     code = insunits_code(args.length_unit)
     if code is None:
@@ -271,7 +271,7 @@ def run_template(args) -> int:
     doc = ezdxf.new("R2018", setup=True)
     doc.header["$INSUNITS"] = code
     define_layers(doc)
-    define_blocks(doc)
+    define_blocks(doc, size=SYMBOL_SIZE.get(normalise_length_unit(args.length_unit), 1.0))
     with writing(args.path.name, folder), atomic_path(args.path) as tmp:
         doc.saveas(tmp)
     _say(f"wrote {args.path}: layers FRAME, FRAME-BRACES (crossings there stay separate), SUPPORTS, "

@@ -313,3 +313,35 @@ def test_probe_off_member_names_the_distance_unit(tmp_path, capsys):
     src = beam(tmp_path / "beam.dxf", span=6000.0, insunits=4, scale=200.0)
     assert main(["solve", str(src), "--out", str(tmp_path / "o" / "b.dxf"), "--no-png", "--probe", "3000,500"]) == 2
     assert "at 500 mm" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("unit, least", [("mm", 500.0), ("m", 0.5), ("ft", 1.5)])
+def test_template_symbols_are_sized_to_the_drawing_unit(tmp_path, unit, least):
+    from ezdxf import bbox
+
+    out = tmp_path / f"new-{unit}.dxf"
+    assert main(["template", str(out), "--length-unit", unit]) == 0
+    doc = ezdxf.readfile(out)
+    pin = [e for e in doc.blocks["PIN"] if e.dxftype() != "ATTDEF"]
+    # a support symbol should read at about half a metre or more of model space (common practice)
+    assert bbox.extents(pin).size.x >= least
+
+
+def test_a_column_sheet_names_the_tension_face_as_drawn(tmp_path):
+    (tmp_path / "dxf2frame.toml").write_text(SETTINGS)
+    doc = ezdxf.new("R2018")
+    doc.header["$INSUNITS"] = 6
+    define_layers(doc)
+    define_blocks(doc)
+    msp = doc.modelspace()
+    msp.add_line((0, 0), (0, 3), dxfattribs={"layer": "FRAME"})
+    insert_symbol(msp, "FIXED", (0, 0), layer="SUPPORTS", scale=0.2)
+    insert_symbol(msp, "FORCE", (0, 3), layer="LOADS", scale=0.2, P="10 kN", ANGLE="0", CASE="D")
+    src = tmp_path / "post.dxf"
+    doc.saveas(src)
+    out = tmp_path / "sheets"
+    assert main(["explain", str(src), "--at", "0,1", "--result", "D", "--out", str(out)]) == 0
+    text = " ".join(p.read_text() for p in out.rglob("*.md"))
+    # statics of a cantilever post pushed to the right at its top: it bends to the right, so the
+    # tension is on its left face (M = -P (3 - 1) = -20 kN*m, hogging in our sign convention)
+    assert "left face" in text and "bottom of a left-to-right beam" not in text
