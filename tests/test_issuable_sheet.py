@@ -345,3 +345,36 @@ def test_a_column_sheet_names_the_tension_face_as_drawn(tmp_path):
     # statics of a cantilever post pushed to the right at its top: it bends to the right, so the
     # tension is on its left face (M = -P (3 - 1) = -20 kN*m, hogging in our sign convention)
     assert "left face" in text and "bottom of a left-to-right beam" not in text
+
+
+def test_deflected_shape_is_drawn_at_service_level_with_its_largest_value(tmp_path):
+    (tmp_path / "dxf2frame.toml").write_text("""
+[combinations]
+builtin = ["LRFD", "ASD"]
+[sections.default]
+E = "200 GPa"
+A = "5000 mm**2"
+I = "8e7 mm**4"
+""")
+    doc = ezdxf.new("R2018")
+    doc.header["$INSUNITS"] = 6
+    define_layers(doc)
+    define_blocks(doc)
+    msp = doc.modelspace()
+    msp.add_line((0, 0), (6, 0), dxfattribs={"layer": "FRAME"})
+    insert_symbol(msp, "PIN", (0, 0), layer="SUPPORTS", scale=0.2)
+    insert_symbol(msp, "ROLLER", (6, 0), layer="SUPPORTS", scale=0.2)
+    insert_symbol(msp, "UDL", (2, 0), layer="LOADS", scale=0.2, W="10 kN/m", CASE="D")
+    insert_symbol(msp, "UDL", (4, 0), layer="LOADS", scale=0.2, W="5 kN/m", CASE="L")
+    src = tmp_path / "beam.dxf"
+    doc.saveas(src)
+    out = tmp_path / "o" / "beam.dxf"
+    assert main(["solve", str(src), "--out", str(out), "--no-png"]) == 0
+    texts = [e.dxf.text for e in ezdxf.readfile(out).modelspace().query('TEXT[layer=="RESULT-DEFLECTED"]')]
+    got = [re.match(r"max displacement " + NUM + r" mm \((.+)\)", t) for t in texts]
+    got = [m for m in got if m]
+    assert len(got) == 1, texts
+    # AISC Manual Table 3-23 Case 1 (from memory): 5 w l^4 / (384 E I) under the service load D + L
+    # (ASCE/SEI 7 ASD combination 2): 5 * 15e3 * 6^4 / (384 * 200e9 * 8e-5) = 15.82 mm
+    assert float(got[0].group(1)) == pytest.approx(15.82, rel=5e-3)
+    assert got[0].group(2).replace(" ", "") in ("D+L", "1.0D+1.0L", "D+1.0L", "1D+1L")

@@ -420,7 +420,7 @@ def annotate_results(
                drawing_unit=drawing_unit_text(model.length_unit), fixed=dict(scales or {}))
     legend: list[tuple[str, str]] = []
     boxes: list[Box] = [geom.bounds]                   # of everything drawn, for the legend's place
-    labels: dict[str, list[Label]] = {key: [] for key in (*DIAGRAMS, "reactions")}
+    labels: dict[str, list[Label]] = {key: [] for key in (*DIAGRAMS, "reactions", "deflected")}
     lines: dict[str, list[np.ndarray]] = {key: [] for key in DIAGRAMS}
 
     # 2. draw the diagrams
@@ -439,7 +439,8 @@ def annotate_results(
                                 f"direction, values signed (+X, +Y, moment counter-clockwise)"))
 
     # 4. deflected shape
-    bent = _draw_deflected(pen, model, geom, sel, names["deflected"], h, summary, legend, chains=chains)
+    bent = _draw_deflected(pen, model, geom, sel, names["deflected"], h, summary, legend, chains=chains,
+                           service=service_results(results), uf=uf, labels=labels["deflected"])
     boxes += _draw_near_misses(pen, model, names["notes"], h)
 
     # 5. labels, layer by layer (each result layer reads on its own), most important first
@@ -454,7 +455,7 @@ def annotate_results(
             continue
         # obstacles: member lines, this layer's outlines and ticks (reactions: the arrows), the drawing's texts
         reach = 7.0 * h + 2.5 * max(text_width(font, sp.text, h) for lb in todo for sp in lb.spots)
-        own = list(arrows) if key == "reactions" else geometries_near(as_lines(lines[key]), todo, reach)
+        own = list(arrows) if key == "reactions" else geometries_near(as_lines(lines.get(key, [])), todo, reach)
         placer = LabelPlacer(geometries_near(members, todo, reach) + own + geometries_near(obst.geoms, todo, reach),
                              cell=4 * h, taken=taken)
         dropped, used[key] = place_labels(pen, placer, todo, font, h)
@@ -520,6 +521,29 @@ def _keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content:
         moved = (box[0] + dx, box[1] + dy, box[2] + dx, box[3] + dy)
         blocked.append(shapely.box(*moved))
         ext = (min(ext[0], moved[0]), min(ext[1], moved[1]), max(ext[2], moved[2]), max(ext[3], moved[3]))
+
+
+def _largest_displacement(res) -> float:
+    """Largest displacement of a result [m]: at the nodes, and inside the
+    members when the result has the exact member table (a simple beam's
+    nodes do not move)."""
+    d = np.asarray(res.displacements, dtype=float)
+    big = float(np.max(np.hypot(d[:, 0], d[:, 1]))) if len(d) else 0.0
+    table = getattr(res, "member_table", None)
+    if table is not None:
+        inner = np.asarray(table().get("deflection_max", []), dtype=float)
+        if inner.size and np.isfinite(inner).any():
+            big = max(big, float(np.nanmax(inner)))
+    return big
+
+
+def service_results(results: Sequence) -> list:
+    """The results a deflected shape is drawn for: the ASD combinations
+    (service level), else the load cases, else all of them."""
+    asd = [r for r in results if r.kind == "combination" and (r.family or "").upper() == "ASD"]
+    if asd:
+        return asd
+    return [r for r in results if r.kind == "case"] or list(results)
 
 
 def _drop_layer(doc, name: str) -> None:
@@ -683,9 +707,13 @@ def _draw_reactions(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
 
 def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str, h: float,
                     summary: DrawingSummary, legend: list[tuple[str, str]],
-                    chains: list[list[int]] | None = None) -> np.ndarray | None:
-    """Exaggerated deflected shape of the result (or, for an envelope, of the
-    result with the largest nodal displacement).
+                    chains: list[list[int]] | None = None, service: Sequence | None = None,
+                    uf: UnitFactors | None = None, labels: list[Label] | None = None) -> np.ndarray | None:
+    """Exaggerated deflected shape at service level: of the result among
+    ``service`` (:func:`service_results`; None: the drawn results) with the
+    largest nodal displacement.  The largest displacement gets a label
+    request (appended to ``labels``) with its value in mm (inch for a US
+    output unit) and the result's name.
 
     Elements long enough to carry labels are drawn exactly (the member
     results' deflection); shorter ones as the chord between their displaced
@@ -696,12 +724,12 @@ def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
     """
     # Long by intent: the exaggeration factor, the chords of short elements and the run polylines
     # share the sampled displacements.
-    cands = [r for r in sel.results if getattr(r, "displacements", None) is not None]
+    pool = list(service) if service else list(sel.results)
+    cands = [r for r in pool if getattr(r, "displacements", None) is not None]
     if not cands:
         legend.append(("deflected", "deflected shape: not available (member sections are needed)"))
         return
-    mags = [float(np.max(np.hypot(r.displacements[:, 0], r.displacements[:, 1]))) if len(r.displacements) else 0.0
-            for r in cands]
+    mags = [_largest_displacement(r) for r in cands]
     res = cands[int(np.argmax(mags))]
     frame = model.frame
     us = model.unit_scale
@@ -778,7 +806,15 @@ def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
         pen.polyline(pts[a:b][keep[a:b]], layer, dashed=True)
     summary.deflection_factor = factor
     summary.deflection_result = res.name
-    which = f" of {res.name}" if sel.envelope or len(sel.results) > 1 else ""
+    if labels is not None and uf is not None:
+        k = int(np.argmax(mag))
+        small_unit, per_m = ("in", 1 / 0.0254) if uf.length_unit in ("ft", "inch", "in") else ("mm", 1000.0)
+        value = float(mag[k]) * us * per_m
+        text = f"max displacement {label_value(value)} {small_unit} ({res.name})"
+        spot = Spot(text, moved[k], base[k], np.array([0.0, 1.0]), np.array([1.0, 0.0]), 0.0, None)
+        lb = Label(PRIORITY["extreme"], "extreme", value, layer, [spot], must=True, force=True)
+        labels.append(lb)
+    which = f" of {res.name} (service level)"
     note = "; short elements drawn as chords" if chords else ""
     legend.append(("deflected", f"deflected shape{which}: displacements exaggerated x {factor:g}{note}"))
     return pts
