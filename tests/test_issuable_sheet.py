@@ -378,3 +378,33 @@ I = "8e7 mm**4"
     # (ASCE/SEI 7 ASD combination 2): 5 * 15e3 * 6^4 / (384 * 200e9 * 8e-5) = 15.82 mm
     assert float(got[0].group(1)) == pytest.approx(15.82, rel=5e-3)
     assert got[0].group(2).replace(" ", "") in ("D+L", "1.0D+1.0L", "D+1.0L", "1D+1L")
+
+
+def portal(path: Path, right: float) -> Path:
+    """A portal in metres: columns at x = 0 and ``right``, 4 m tall, both pinned at the base."""
+    doc = ezdxf.new("R2018")
+    doc.header["$INSUNITS"] = 6
+    define_layers(doc)
+    define_blocks(doc)
+    msp = doc.modelspace()
+    for a, b in (((0, 0), (0, 4)), ((0, 4), (right, 4)), ((right, 4), (right, 0))):
+        msp.add_line(a, b, dxfattribs={"layer": "FRAME"})
+    insert_symbol(msp, "PIN", (0, 0), layer="SUPPORTS", scale=0.2)
+    insert_symbol(msp, "PIN", (right, 0), layer="SUPPORTS", scale=0.2)
+    insert_symbol(msp, "UDL", (right / 2, 4), layer="LOADS", scale=0.2, W="10 kN/m", CASE="D")
+    doc.saveas(path)
+    return path
+
+
+def test_a_support_moved_with_its_matched_column_is_the_same_support(tmp_path):
+    (tmp_path / "dxf2frame.toml").write_text(SETTINGS)
+    a = portal(tmp_path / "portal-A.dxf", 6.0)
+    b = portal(tmp_path / "portal-B.dxf", 6.3)
+    out = tmp_path / "cmp"
+    assert main(["compare", str(a), str(b), "--out", str(out)]) == 0
+    data = json.loads(next(out.glob("*.json")).read_text())
+    pair = data["pairs"][-1] if "pairs" in data else data
+    assert not pair.get("new_supports")
+    moved = [r for r in pair["reactions"] if r["old_at"] != r["new_at"]]
+    assert len(moved) == 1 and moved[0]["old_at"] == [6.0, 0.0] and moved[0]["new_at"] == [6.3, 0.0]
+    assert not pair.get("removed_supports")

@@ -219,7 +219,9 @@ def _mark_pair(pen: _Marker, pair, u: Mapping[str, str]) -> list[tuple[str, list
         x, y = r.new_at[0] * s, r.new_at[1] * s
         pen.cloud((x, y, x, y))
         pen.tag(f"{_CHANGED_TAG}{k}", pen.off_point(x, y))
-        entries.append((f"{_CHANGED_TAG}{k}", [f"reaction at {format_point(r.new_at)}"]
+        entries.append((f"{_CHANGED_TAG}{k}", [f"reaction at {format_point(r.new_at)}"
+                                                 + (f" (moved from {format_point(r.old_at)})"
+                                                    if r.old_at != r.new_at else "")]
                         + [_value_line(v, u[v.quantity]) for v in r.values if v.flagged], None))
     for k, m in enumerate(pair.new_members, start=1):
         a, b = pen.ends(m)
