@@ -431,11 +431,12 @@ def _try_preview(drawing: Path, png: Path, analysis: Analysis, show: str, force_
 
 
 def drawing_scale_options(settings: Settings, model, req: "SolveRequest") -> dict:
-    """The writer's text height and fixed diagram scales: the settings'
-    ``[drawing]``, then the scales a batch shares (``req.scales``) for the
-    diagrams the settings leave free."""
+    """The writer's text height and fixed diagram scales (the settings'
+    ``[drawing]``, then the scales a batch shares, ``req.scales``, for the
+    diagrams the settings leave free) and the probe points to mark."""
     scales = {**(req.scales or {}), **settings.diagram_scales}
-    return {"text_height": settings.text_height_for(model.unit_scale), "scales": scales}
+    return {"text_height": settings.text_height_for(model.unit_scale), "scales": scales,
+            "probes": list(req.probes)}
 
 
 def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:

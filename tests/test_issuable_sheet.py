@@ -408,3 +408,14 @@ def test_a_support_moved_with_its_matched_column_is_the_same_support(tmp_path):
     moved = [r for r in pair["reactions"] if r["old_at"] != r["new_at"]]
     assert len(moved) == 1 and moved[0]["old_at"] == [6.0, 0.0] and moved[0]["new_at"] == [6.3, 0.0]
     assert not pair.get("removed_supports")
+
+
+def test_probe_marked_on_the_tags_layer(tmp_path):
+    (tmp_path / "dxf2frame.toml").write_text(SETTINGS)
+    src = beam(tmp_path / "beam.dxf", span=6.0, insunits=6, scale=0.2)
+    out = tmp_path / "o" / "b.dxf"
+    assert main(["solve", str(src), "--out", str(out), "--no-png", "--probe", "3,0"]) == 0
+    texts = [e.dxf.text for e in ezdxf.readfile(out).modelspace().query('TEXT[layer=="RESULT-TAGS"]')]
+    probe = [t for t in texts if t.startswith("P1 ")]
+    # AISC Manual Table 3-23 Case 1 (from memory): at midspan V = 0, M = w l^2 / 8 = 45 kN*m
+    assert probe and "M=45" in probe[0], texts

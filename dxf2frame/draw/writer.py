@@ -377,6 +377,7 @@ def annotate_results(
     length_unit: str,
     text_height: float | None = None,
     scales: Mapping[str, float] | None = None,
+    probes: Sequence[tuple[float, float]] = (),
 ) -> DrawingSummary:
     """Draw the result layers into an open document (see the module docstring).
 
@@ -385,7 +386,10 @@ def annotate_results(
     ``layers``: result layer key -> name (the settings' ``[output_layers]``;
     None: the defaults).  ``text_height``: text height [drawing units]
     (None: 1/60 of the frame's size); ``scales``: fixed diagram scales
-    {"moment"|"shear"|"axial": SI units per metre on the drawing}.
+    {"moment"|"shear"|"axial": SI units per metre on the drawing};
+    ``probes``: drawing points marked on the tags layer with N, V, M (of
+    the drawn result; for an envelope, of the result with the largest
+    |M| there, keyed).
     """
     # Long by intent: the numbered steps below are the recipe of a result drawing; each is a call,
     # and the working arrays of one diagram are released before the next.
@@ -465,6 +469,8 @@ def annotate_results(
         if placer.extent is not None:
             boxes.append(placer.extent)
     summary.dropped += _draw_tags(pen, model, geom, names["tags"], h, font, members, obst, taken)
+    if probes:
+        _draw_probes(pen, model, sel, probes, names["tags"], h, font, uf, members, obst, taken)
     if bent is not None and len(bent):
         boxes.append((*bent.min(0), *bent.max(0)))
     b = np.array(boxes, dtype=float)
@@ -586,6 +592,29 @@ def _draw_tags(pen: Pen, model, geom: FrameGeom, layer: str, h: float, font, mem
         else:
             dropped += 1
     return dropped
+
+
+def _draw_probes(pen: Pen, model, sel: Selection, probes, layer: str, h: float, font, uf: UnitFactors,
+                 members, obst: DrawingObstacles, taken: dict) -> None:
+    """A marker at each probe point and its N, V, M beside it (tags layer)."""
+    from ..report.report import locate_points
+
+    placer = LabelPlacer(list(members) + list(obst.geoms), cell=4 * h, taken=taken)
+    for k, ((px, py), (mid, xl)) in enumerate(zip(probes, locate_points(model, probes)), start=1):
+        x = np.array([xl])
+        vals = [(float(np.asarray(r.members[mid].axial(x))[0]), float(np.asarray(r.members[mid].shear(x))[0]),
+                 float(np.asarray(r.members[mid].moment(x))[0])) for r in sel.results]
+        j = int(np.argmax([abs(v[2]) for v in vals]))
+        n, v, m = vals[j]
+        key = f" [C{j + 1}]" if sel.envelope else ""
+        text = (f"P{k} N={label_value(n * uf.force)} V={label_value(v * uf.force)} "
+                f"M={label_value(m * uf.moment)}{key}")
+        pen.circle((px, py), 0.4 * h, layer)
+        hw, hh = 0.5 * text_width(font, text, h) + 0.15 * h, 0.7 * h
+        ring = [(px + dx * (hw + 0.6 * h * s), py + dy * (hh + 0.6 * h * s))
+                for s in (1, 3, 6) for dx, dy in ((1, 1), (-1, 1), (1, -1), (-1, -1), (0, 1), (0, -1))]
+        cx, cy, _fitted = placer.place(ring, hw, hh)
+        pen.text(text, (cx, cy), h, layer)
 
 
 def _schedule_notes(schedule: list[str], uf: UnitFactors) -> list[str]:
@@ -834,6 +863,7 @@ def write_result_drawing(
     document: "Drawing | None" = None,
     text_height: float | None = None,
     scales: Mapping[str, float] | None = None,
+    probes: Sequence[tuple[float, float]] = (),
 ) -> None:
     """Write a copy of ``source`` with the result layers to ``out`` (atomic).
 
@@ -849,7 +879,7 @@ def write_result_drawing(
     document : optional: ``source`` already loaded with ``ezdxf.readfile``
         and not modified since (the reader's document), to save reading the
         file a second time; it is annotated in place
-    text_height, scales : see :func:`annotate_results`
+    text_height, scales, probes : see :func:`annotate_results`
 
     Raises
     ------
@@ -860,7 +890,8 @@ def write_result_drawing(
     _check_target(source, out)
     doc = document if document is not None else _load_source(source)
     annotate_results(doc, model, det, results, show=show, layers=layers,
-                     force_unit=force_unit, length_unit=length_unit, text_height=text_height, scales=scales)
+                     force_unit=force_unit, length_unit=length_unit, text_height=text_height, scales=scales,
+                     probes=probes)
     with atomic_path(out) as tmp:
         doc.saveas(tmp)
 
