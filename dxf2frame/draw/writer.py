@@ -911,7 +911,11 @@ def annotate_mechanism(doc: "Drawing", model: "DrawingModel", det,
     """
     names = result_layer_names(layers)
     clear_result_layers(doc, names.values())
-    prepare_layers(doc, names)
+    drawn_here = ("mechanism", "notes")               # no empty result layers in an unstable result
+    for key, name in names.items():
+        if key not in drawn_here:
+            _drop_layer(doc, name)
+    prepare_layers(doc, {k: names[k] for k in drawn_here})
     geom = frame_geom(model)
     size = geom.size
     h = float(f"{size * _TEXT_RATIO:.2g}")
