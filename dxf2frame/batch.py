@@ -87,6 +87,8 @@ def solve_many(
     process).  ``scheduler``: address of a Dask distributed scheduler, or
     ``"local"`` for an in-process Dask cluster (needs the ``dask`` extra).
     ``on_done(outcome, done_count, total)`` is called as each file finishes.
+    Every diagram gets one scale for all the drawings
+    (:func:`with_shared_scales`) unless the settings fix it.
 
     A pool worker killed from outside does not stop the batch (see
     :func:`_solve_in_pools`).  Ctrl-C or SIGTERM cancels the work not yet
@@ -96,6 +98,10 @@ def solve_many(
     """
     n = len(files)
     _check_output_clash(files, req)
+    try:
+        req = with_shared_scales(files, req)
+    except KeyboardInterrupt as exc:  # Ctrl-C or SIGTERM during the first pass: nothing solved yet
+        raise BatchInterrupted([], n, getattr(exc, "exit_code", 130)) from None
     results: dict[int, FileOutcome] = {}
     if scheduler:
         from .distributed import solve_on_dask
@@ -124,6 +130,36 @@ def solve_many(
         raise BatchInterrupted([results[i] for i in sorted(results)], n,
                                getattr(exc, "exit_code", 130)) from None
     return [results[i] for i in range(n)]
+
+
+def with_shared_scales(files: list[Path], req: SolveRequest) -> SolveRequest:
+    """``req`` with one scale per diagram for all ``files`` (the largest of
+    the drawings' own, rounded up to a round number in SI units per
+    metre), so revisions drawn in one batch compare by eye.  A first pass
+    reads and solves each drawing (nothing written); drawings that fail
+    here are left to the solve to report.  One file, or scales already
+    given: ``req`` unchanged."""
+    from dataclasses import replace
+
+    from .draw.writer import nice_up, natural_scales
+    from .pipeline import analyse
+    from .settings import load_settings
+
+    if len(files) < 2 or req.scales is not None:
+        return req
+    shared: dict[str, float] = {}
+    for f in files:
+        try:
+            settings = load_settings(req.settings_path, f)
+            an = analyse(Path(f), settings, length_unit=req.length_unit)
+            if not an.stable:
+                continue
+            got = natural_scales(an.model, an.results, req.show or settings.combinations_draw)
+        except Exception:  # noqa: BLE001 - the solve itself reports what is wrong with a drawing
+            continue
+        for key, v in got.items():
+            shared[key] = max(shared.get(key, 0.0), v)
+    return replace(req, scales={k: nice_up(v) for k, v in shared.items()})
 
 
 class BatchInterrupted(KeyboardInterrupt):
@@ -368,6 +404,8 @@ def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = Non
         # every file's warnings reach the console (in a batch prefixed with the file)
         for w in o.warnings:
             print(f"dxf2frame: warning: {one_line(w) if single else _with_source_text(o, w)}", file=err)
+        for line in o.probe_lines:                    # --probe values reach the console too
+            print(line if single else f"{Path(o.source).name}: {line}", file=stream)
     if single:
         o = outcomes[0]
         if o.outputs:

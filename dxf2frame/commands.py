@@ -18,6 +18,19 @@ def _say(*lines: str) -> None:
     print("\n".join(lines))
 
 
+def _warn_model(analysis, source: Path | None = None) -> None:
+    """The model's warnings on stderr, as ``solve`` prints them (with the
+    drawing's name when several drawings are read)."""
+    import sys
+
+    from .errors import one_line
+
+    model, det = analysis.model, analysis.determinacy
+    for w in list(model.warnings) + [w for w in det.warnings if w not in model.warnings]:
+        where = f"{source.name}: " if source is not None else ""
+        print(f"dxf2frame: warning: {where}{one_line(w)}", file=sys.stderr)
+
+
 def run_check(args) -> int:
     from .solver import check
 
@@ -232,7 +245,8 @@ def _report_of_drawing(path: Path, args, units: tuple[str, str] | None):
 
     settings = load_settings(args.settings, path)
     an = analyse(path, settings, length_unit=args.length_unit)
-    fu, lu = units if units else (settings.force_unit, an.model.length_unit)
+    _warn_model(an, path)
+    fu, lu = units if units else settings.output_units(an.model.length_unit)
     rep = build_report(an.model, an.determinacy, an.results, force_unit=fu, length_unit=lu,
                        deflection_limits=settings.deflection_limits(), drift=settings.drift_options())
     return rep, settings
@@ -267,10 +281,11 @@ def run_explain(args) -> int:
     drawing = Path(args.drawing)
     settings = load_settings(args.settings, drawing)
     analysis = analyse(drawing, settings, length_unit=args.length_unit)
+    _warn_model(analysis)
     if not analysis.stable:
         _say(f"dxf2frame: the frame is unstable, no sheets written: {analysis.determinacy.detail}", CAUTION)
         return EXIT_UNSTABLE
-    force_u, length_u = args.units or (settings.force_unit, analysis.model.length_unit)
+    force_u, length_u = args.units or settings.output_units(analysis.model.length_unit)
     out = Path(args.out) if args.out else drawing.parent / "sheets"
     # staged and swapped in as one set: a failure leaves the previous sheets complete
     written = write_sheets_staged(analysis, out, points=list(args.at or []), result_name=args.result,
@@ -286,8 +301,8 @@ def run_template(args) -> int:
     from .atomic import atomic_path
     from .errors import InputFileError
     from .staging import writing
-    from .symbols import define_blocks, define_layers
-    from .units import insunits_code
+    from .symbols import SYMBOL_SIZE, define_blocks, define_layers
+    from .units import insunits_code, normalise_length_unit
 
     code = insunits_code(args.length_unit)
     if code is None:
@@ -300,7 +315,7 @@ def run_template(args) -> int:
     doc = ezdxf.new("R2018", setup=True)
     doc.header["$INSUNITS"] = code
     define_layers(doc)
-    define_blocks(doc)
+    define_blocks(doc, size=SYMBOL_SIZE.get(normalise_length_unit(args.length_unit), 1.0))
     with writing(args.path.name, folder), atomic_path(args.path) as tmp:
         doc.saveas(tmp)
     _say(f"wrote {args.path}: layers FRAME, FRAME-BRACES (crossings there stay separate), SUPPORTS, "

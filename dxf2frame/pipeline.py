@@ -365,7 +365,10 @@ class SolveRequest:
     folder; for many inputs, a folder.  Default: a folder ``solved`` beside
     each input.  ``report``: JSON path (one input only); default beside the
     output drawing.  ``units``: (force, length) of the report, e.g. ``("kN", "m")``
-    (default: the settings' force unit and the drawing's length unit).
+    (default: the settings' ``[units] output_*``, else kN and m for a metric
+    drawing, kip and ft for a US one).  ``scales``: diagram scales shared
+    by the drawings of a batch {"moment"|"shear"|"axial": SI units per
+    metre on the drawing}; the settings' ``[drawing.scales]`` win.
     """
 
     out: Path | None = None
@@ -384,6 +387,7 @@ class SolveRequest:
     #: record the solve in the folder's revision history: True, False, or
     #: None for the settings' ``[history] record``
     history: bool | None = None
+    scales: dict[str, float] | None = None
 
 
 @dataclass
@@ -411,6 +415,7 @@ class FileOutcome:
     timings: dict[str, float] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
     traceback: str = ""  # of an internal error, for --debug
+    probe_lines: list[str] = field(default_factory=list)   # N, V, M at each --probe, for the console
 
 
 def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
@@ -424,6 +429,7 @@ def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
         "drawing": drawing,
         "report": req.report if (req.report is not None and req.single) else drawing.with_suffix(".json"),
         "csv": drawing.with_suffix(".csv"),
+        "reactions": drawing.with_name(f"{drawing.stem}-reactions.csv"),
         "png": drawing.with_suffix(".png"),
     }
     paths.update(_storey_paths(drawing))
@@ -655,6 +661,15 @@ def _record_history(source: Path, req: SolveRequest, settings: Settings, analysi
         warnings.append(f"history: not recorded in {source.parent}: {one_line(f'{type(exc).__name__}: {exc}')}")
 
 
+def drawing_scale_options(settings: Settings, model, req: "SolveRequest") -> dict:
+    """The writer's text height and fixed diagram scales (the settings'
+    ``[drawing]``, then the scales a batch shares, ``req.scales``, for the
+    diagrams the settings leave free) and the probe points to mark."""
+    scales = {**(req.scales or {}), **settings.diagram_scales}
+    return {"text_height": settings.text_height_for(model.unit_scale), "scales": scales,
+            "probes": list(req.probes)}
+
+
 def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
     """Run the whole ``solve`` command on one drawing; never raises for bad input.
 
@@ -745,7 +760,7 @@ def _prepare(source: Path, req: SolveRequest, outcome: FileOutcome) -> _Run:
     outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
     if req.strict and outcome.warnings:
         raise Dxf2FrameError(strict_message(outcome.warnings))
-    force_u, length_u = req.units or (settings.force_unit, model.length_unit)
+    force_u, length_u = req.units or settings.output_units(model.length_unit)
     outcome.units = (force_u, length_u)
     outcome.determinacy, outcome.degree = det.status, det.degree
     if req.probes and analysis.results:
@@ -778,6 +793,7 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
                 source, staged["drawing"], model, det, drawn_results, show=drawn_show,
                 layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
                 document=analysis.document, drift=settings.drift_options(),
+                **drawing_scale_options(settings, model, req),
             )
         else:
             writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,
@@ -794,9 +810,11 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         _add_pattern_report(rep, analysis, force_u, length_u)
         outcome.warnings += [w for w in rep["warnings"] if w not in outcome.warnings]
         with_csv = req.csv and analysis.stable
+        outcome.probe_lines = report_mod.probe_lines(rep)
         report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
         analysis.timings["report"] = time.perf_counter() - t0
         written = ["drawing", "report"] + (["csv"] if with_csv else [])
+        written += ["reactions"] if with_csv and report_mod.write_reaction_schedule(rep, staged["reactions"]) else []
         written += _write_storey_csvs(rep, staged) if with_csv else []
         if req.png:
             t0 = time.perf_counter()

@@ -8,7 +8,10 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
 ``[units]``
     ``force`` (unit of bare numbers in force attributes, default ``"kN"``),
     ``length`` (drawing unit when ``$INSUNITS`` is missing, unitless or not
-    one of inch/ft/mm/cm/m; no default).
+    one of inch/ft/mm/cm/m; no default), ``output_force`` and
+    ``output_length`` (units of the report, the drawing's text and the
+    comparison; default kN and m for a drawing in mm, cm or m, kip and ft
+    for one in inch or ft; ``--units`` overrides both).
 ``[geometry]``
     ``snap`` (snap tolerance: a quantity string such as ``"5 mm"`` or a bare
     number in drawing units; default: the larger of 0.5 mm and 1e-6 of the
@@ -30,7 +33,7 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     attribute tags by their convention name, e.g. ``P = "FORCE_VALUE"``.
 ``[output_layers]``
     result layer names ``axial shear moment reactions deflected notes
-    mechanism changes``.
+    mechanism changes tags``.
 ``[sections.default]``, ``[sections."<LAYER>"]``
     ``E``, ``A``, ``I`` as quantity strings with units (``"200 GPa"``,
     ``"5000 mm**2"``, ``"8e7 mm**4"``) and an optional ``name``.  A layer
@@ -74,6 +77,13 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     ``limit`` (storey drift as h / limit, default 400), ``measure``
     (``"mean"`` or ``"max"`` over a storey's column lines), ``levels``
     (storey tops in drawing units; default: where beams meet columns).
+``[drawing]``
+    ``text_height`` (plotted height of the result texts, e.g. ``"2.5 mm"``),
+    ``plot_scale`` (N of a 1:N plot, default 1); both unset: texts are 1/60
+    of the frame's size.  ``[drawing.scales]``: a fixed scale per diagram
+    (``moment``, ``shear``, ``axial``) as ``"<value> per <length on the
+    drawing>"``, e.g. ``moment = "50 kN*m per m"``; unset: each diagram is
+    scaled to the drawing (one scale for all the drawings of a batch).
 
 Layer names are matched case-insensitively, as CAD programs do.  Quantity
 strings are parsed by :mod:`dxf2frame.units`; this module itself does not
@@ -133,11 +143,15 @@ DEFAULT_OUTPUT_LAYERS: dict[str, str] = {
     "notes": "RESULT-NOTES",
     "mechanism": "RESULT-MECHANISM",
     "changes": "RESULT-CHANGES",
+    "tags": "RESULT-TAGS",
 }
 OUTPUT_LAYER_KEYS: tuple[str, ...] = tuple(DEFAULT_OUTPUT_LAYERS)
 
 #: any layer starting with this is treated as written by this tool
 RESULT_LAYER_PREFIX = "RESULT-"
+
+#: drawing units of the US customary system: their results default to kip and ft
+_US_LENGTHS = frozenset({"inch", "ft"})
 
 _DEFAULT_LAYERS = {"frame": "FRAME", "supports": "SUPPORTS", "connections": "CONNECTIONS", "loads": "LOADS"}
 _BUILTIN_COMBOS = ("LRFD", "ASD")
@@ -145,6 +159,7 @@ _TOP_KEYS = {
     "units", "geometry", "limits", "layers", "blocks", "attributes",
     "output_layers", "sections", "combinations", "deflection", "compare", "cases", "analysis",
     "history",
+    "drawing",
 }
 # storeys and drift (issue 18)
 _TOP_KEYS = _TOP_KEYS | {"drift", "self_weight", "patterns"}
@@ -196,6 +211,12 @@ class Settings:
     drift_measure : "mean" (default) or "max" over a storey's column lines
     drift_levels : storey top elevations in drawing units, or None (found
         where beams meet columns)
+    output_force, output_length : units of the results (None: chosen from
+        the drawing's unit system, see :meth:`output_units`)
+    text_height_plotted, plot_scale : plotted text height [m] and N of the
+        1:N plot (None: automatic), see :meth:`text_height_for`
+    diagram_scales : {"moment"|"shear"|"axial": fixed scale in SI units
+        (N*m or N) per metre on the drawing}
     """
 
     force_unit: str = "kN"
@@ -240,6 +261,12 @@ class Settings:
     # pattern live load (issue 18): cases arranged span by span, and how
     pattern_cases: tuple[str, ...] = ()
     pattern_by: str = "span"
+    # -- output units and drawing (issue 17) --
+    output_force: str | None = None
+    output_length: str | None = None
+    text_height_plotted: float | None = None          # m on the plotted sheet
+    plot_scale: float | None = None                   # N of 1:N
+    diagram_scales: Mapping[str, float] = field(default_factory=lambda: _ro({}))   # SI per metre of drawing
 
     # derived lookups (built once)
     def __post_init__(self) -> None:
@@ -311,6 +338,31 @@ class Settings:
         starting with ``RESULT-``); the reader ignores them."""
         n = name.upper()
         return n in self._result_layers or n.startswith(RESULT_LAYER_PREFIX)  # type: ignore[attr-defined]
+
+    def output_units(self, drawing_unit: str) -> tuple[str, str]:
+        """(force, length) units the results are written in for a drawing in
+        ``drawing_unit``: the ``[units] output_*`` keys, else kN and m for a
+        metric drawing and kip and ft for one in inch or feet.
+
+        >>> Settings().output_units("mm"), Settings().output_units("inch")
+        (('kN', 'm'), ('kip', 'ft'))
+        """
+        us = normalise_length_unit(drawing_unit) in _US_LENGTHS
+        return (self.output_force or ("kip" if us else "kN"),
+                self.output_length or ("ft" if us else "m"))
+
+    def text_height_for(self, unit_scale: float) -> float | None:
+        """Result text height in drawing units (``unit_scale``: metres per
+        drawing unit), or None when neither ``text_height`` nor
+        ``plot_scale`` is set (the writer then sizes texts to the frame).
+
+        >>> Settings(text_height_plotted=0.0025, plot_scale=100.0).text_height_for(0.001)
+        250.0
+        """
+        if self.text_height_plotted is None and self.plot_scale is None:
+            return None
+        plotted = self.text_height_plotted if self.text_height_plotted is not None else 0.0025
+        return plotted * (self.plot_scale or 1.0) / unit_scale
 
     def deflection_limit_for(self, layer: str) -> float:
         """Span / limit ratio for members on ``layer``."""
@@ -431,6 +483,7 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
     _self_weight_settings(data, path, kw)
     _reversible_settings(data, path, kw)
     _pattern_settings(data, path, kw)
+    kw.update(_drawing_options(_table(data, "drawing", path), path))
     return Settings(**kw)
 
 
@@ -438,7 +491,8 @@ def _read_units(data: Mapping[str, Any], path: str) -> dict[str, Any]:
     """[units]: the force unit of bare numbers and the drawing unit when the header has none."""
     kw: dict[str, Any] = {}
     u = _table(data, "units", path)
-    _check_keys(u, {"force", "length"}, "units", path)
+    _check_keys(u, {"force", "length", "output_force", "output_length"}, "units", path)
+    kw.update(_output_units(u, path))
     if "force" in u:
         f = _str(u["force"], "units.force", path)
         try:
@@ -819,6 +873,56 @@ def _drift_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> N
             raise SettingsError("must be a non-empty list of elevations in drawing units, e.g. [3000, 6000]",
                                 path=path, key="drift.levels")
         kw["drift_levels"] = tuple(sorted(float(v) for v in lv))
+
+
+def _output_units(u: Mapping[str, Any], path: str) -> dict[str, str]:
+    """``[units] output_force`` and ``output_length``, each checked to be a
+    unit of its kind."""
+    kw = {}
+    for key, kind in (("output_force", "force"), ("output_length", "length")):
+        if key in u:
+            text = _str(u[key], f"units.{key}", path)
+            try:
+                text = normalise_length_unit(text) if kind == "length" else text
+                unit_factor(text, kind)
+            except UnitError as exc:
+                raise SettingsError(exc.message, path=path, key=f"units.{key}") from None
+            kw[key] = text
+    return kw
+
+
+#: diagrams whose scale can be fixed, and the kind of their values
+DIAGRAM_SCALE_KINDS: dict[str, str] = {"moment": "moment", "shear": "force", "axial": "force"}
+
+
+def _drawing_options(d: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """``[drawing]``: text height, plot scale and fixed diagram scales."""
+    _check_keys(d, {"text_height", "plot_scale", "scales"}, "drawing", path)
+    kw: dict[str, Any] = {}
+    if "text_height" in d:
+        kw["text_height_plotted"] = _quantity(d["text_height"], "length", "drawing.text_height", path)
+    if "plot_scale" in d:
+        kw["plot_scale"] = _number(d["plot_scale"], "drawing.plot_scale", path)
+    sc = d.get("scales", {})
+    if not isinstance(sc, Mapping):
+        raise SettingsError("must be a table, e.g. moment = \"50 kN*m per m\"", path=path, key="drawing.scales")
+    _check_keys(sc, set(DIAGRAM_SCALE_KINDS), "drawing.scales", path)
+    scales = {}
+    for k, v in sc.items():
+        key = f"drawing.scales.{k}"
+        text = _str(v, key, path)
+        value, sep, length = text.partition(" per ")
+        if not sep:
+            raise SettingsError(f"write it as \"<value> per <length on the drawing>\", e.g. \"50 kN*m per m\", "
+                                f"got {text!r}", path=path, key=key)
+        length = length.strip()
+        if length and not any(c.isdigit() for c in length.split()[0]):
+            length = "1 " + length
+        per = _quantity(value.strip(), DIAGRAM_SCALE_KINDS[k.lower()], key, path)
+        along = _quantity(length, "length", key, path)
+        scales[k.lower()] = per / along
+    kw["diagram_scales"] = _ro(scales)
+    return kw
 
 
 def load_settings(path: Path | str | None = None, drawing: Path | str | None = None) -> Settings:

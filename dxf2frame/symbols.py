@@ -105,9 +105,15 @@ def _draw(name: str, blk) -> None:
             _arrow_head(blk, (x, 0.0), -math.pi / 2, 0.2)
 
 
-def define_blocks(doc, names: list[str] | None = None) -> None:
+#: symbol width in drawing units: about a metre of model space, a round number in each unit
+SYMBOL_SIZE: dict[str, float] = {"m": 1.0, "cm": 100.0, "mm": 1000.0, "ft": 3.0, "inch": 36.0}
+
+
+def define_blocks(doc, names: list[str] | None = None, size: float = 1.0) -> None:
     """Add the convention's blocks (with ATTDEFs) to ``doc``; existing blocks
-    of the same name are left alone."""
+    of the same name are left alone.  ``size``: the symbols' width in
+    drawing units (:data:`SYMBOL_SIZE` of the drawing's unit), so a pin
+    reads as a pin in a drawing in mm as in one in metres."""
     style = "D2F-ATTR"
     if style not in doc.styles:
         doc.styles.add(style, font="DejaVuSans.ttf")
@@ -119,6 +125,9 @@ def define_blocks(doc, names: list[str] | None = None) -> None:
         for k, (tag, default) in enumerate(BLOCK_ATTRIBUTES[name].items()):
             blk.add_attdef(tag, insert=(0.7, -0.35 * k), text=default, height=0.25,
                            dxfattribs={"style": style})
+        if size != 1.0:
+            for e in blk:
+                e.scale_uniform(size)
 
 
 def define_layers(doc) -> None:

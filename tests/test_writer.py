@@ -214,7 +214,7 @@ def test_moment_diagram_on_tension_side_with_stated_scale(tmp_path):
     doc = ezdxf.readfile(write(tmp_path, src, model, det, results, show="D"))
     legend = [e.dxf.text for e in texts(doc, "RESULT-MOMENT") if e.dxf.text.startswith("moment:")]
     assert len(legend) == 1
-    per_unit = float(re.search(r"1 drawing unit = " + NUM + r" kN\*m", legend[0]).group(1))
+    per_unit = float(re.search(r"1 m on the drawing = " + NUM + r" kN\*m", legend[0]).group(1))
     # the diagram's outline starts at the member's start; the legend swatch is a small box elsewhere
     outlines = [list(e.get_points("xy")) for e in doc.modelspace().query('LWPOLYLINE[layer=="RESULT-MOMENT"]')]
     diag = [pt for pts in outlines if pts[0] == pytest.approx((0.0, 0.0), abs=1e-12) for pt in pts]
@@ -447,10 +447,12 @@ def test_envelope_end_writes_the_other_sign_only_when_it_matters(tmp_path, uplif
     sag = (uplift - 0.9 * wD) * L**2 / 2 / 1e3
     expected = [hog, sag] if both else [hog]     # the other sign only when >= 25 % of the larger (our rule)
     assert sorted(_diagram_values(doc, "moment")) == pytest.approx(sorted(expected), rel=1e-3)
-    # the support's reaction moment is the same couple, counter-clockwise positive (statics)
-    mr = sorted(float(m.group(1)) for e in texts(doc, "RESULT-REACTIONS")
-                if (m := re.fullmatch(r"Mr=" + NUM + r" \[C\d\]", e.dxf.text)))
-    assert mr == pytest.approx(sorted([-v for v in expected]), rel=1e-3)
+    # the support's reaction moment is the same couple, counter-clockwise positive (statics); an
+    # envelope's reaction label carries both bounds side by side
+    mr = [(float(m.group(1)), float(m.group(2))) for e in texts(doc, "RESULT-REACTIONS")
+          if (m := re.fullmatch(r"Mr max " + NUM + r" \[C\d\] min " + NUM + r" \[C\d\]", e.dxf.text))]
+    assert len(mr) == 1
+    assert sorted(mr[0]) == pytest.approx(sorted([-hog, -sag]), rel=1e-3)
 
 
 def test_rigid_knee_value_is_written_once(tmp_path):

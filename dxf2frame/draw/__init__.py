@@ -1,7 +1,8 @@
 """Drawing results: the result layers in a copy of the drawing (:mod:`.writer`:
 diagrams, reactions, deflected shape, mechanism), what a drawing shows
 (:mod:`.selection`), the diagrams' curves (:mod:`.curves`), labels
-(:mod:`.labels`), legend and notes (:mod:`.legend`), the layers' style
+(:mod:`.labels`), the drawing's own content as obstacles
+(:mod:`.obstacles`), legend and notes (:mod:`.legend`), the layers' style
 (:mod:`.style`) and the PNG preview (:mod:`.preview`, imported on its own:
 it loads matplotlib).
 """
@@ -17,6 +18,7 @@ from .style import (
 )
 from .selection import Selection, select_results
 from .labels import LabelPlacer
+from .obstacles import DrawingObstacles, drawing_obstacles, free_spot
 from .writer import (
     DrawingSummary,
     annotate_results,
@@ -37,6 +39,9 @@ __all__ = [
     "Selection",
     "select_results",
     "LabelPlacer",
+    "DrawingObstacles",
+    "drawing_obstacles",
+    "free_spot",
     "DrawingSummary",
     "annotate_results",
     "annotate_mechanism",

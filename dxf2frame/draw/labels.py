@@ -60,7 +60,8 @@ point.  When nothing near is free:
 * interior extremes and constant values try rings farther out (1.5, 3 and
   5 text heights, with a leader) and are dropped only if those are full
   too (a dense frame seen whole);
-* the diagram's overall extreme and the reactions are always written, on
+* the diagram's overall extreme and the reactions are always written (reactions
+  try rings out to 12 text heights), on
   top of other labels if need be (``DrawingSummary.forced``).
 """
 from __future__ import annotations
@@ -109,6 +110,8 @@ class LabelPlacer:
         shafts, the drawing's own texts) that labels should not touch;
         indexed once in an STRtree
     cell : grid cell size for the placed boxes (about 4 text heights)
+    taken : the grid of boxes placed before (shared by the placers of all
+        result layers, so no two result texts overlap); None: a new one
 
     Placed boxes live in a uniform grid (dict of cells), so each test looks
     at a handful of neighbours; obstacle tests are STRtree queries, one per
@@ -118,11 +121,12 @@ class LabelPlacer:
     before the first).
     """
 
-    def __init__(self, obstacles: Sequence, cell: float) -> None:
+    def __init__(self, obstacles: Sequence, cell: float,
+                 taken: dict[tuple[int, int], list[Box]] | None = None) -> None:
         geoms = [g for g in obstacles if g is not None and not g.is_empty]
         self._tree = shapely.STRtree(geoms) if geoms else None
         self._cell = cell if cell > 0 else 1.0
-        self._grid: dict[tuple[int, int], list[Box]] = {}
+        self._grid: dict[tuple[int, int], list[Box]] = {} if taken is None else taken
         self.placed = 0
         self.forced = 0
         self.extent: Box | None = None
@@ -424,7 +428,8 @@ def _candidates(sp: Spot, kind: str, half_w: float, half_h: float, h: float, far
         half = t * (s + 0.5 * gap)
         first, pref = [tip, tip + half, tip - half, back, back + half, back - half, tip + u * (2 * e + gap)], u
     if far:
-        return _ring(sp.anchor, half_w, half_h, (1.5 * h, 3.0 * h, 5.0 * h), pref)
+        gaps = (1.5 * h, 3.0 * h, 5.0 * h) + ((8.0 * h, 12.0 * h) if kind == "reaction" else ())
+        return _ring(sp.anchor, half_w, half_h, gaps, pref)
     return np.vstack([np.array(first), _ring(sp.anchor, half_w, half_h, (gap, 1.2 * h), pref)])
 
 

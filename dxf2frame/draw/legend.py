@@ -37,8 +37,17 @@ _MAX_WARNINGS = 8          # listed in the notes block
 
 
 def _wrap(text: str, width: int = 0) -> list[str]:
-    """A legend line wrapped to about ``_LEGEND_CHARS`` characters."""
-    return textwrap.wrap(text, width or _LEGEND_CHARS, break_on_hyphens=False) or [""]
+    """A legend line wrapped to about ``_LEGEND_CHARS`` characters; a last
+    row of one short word takes the word before it along (no lone "it").
+
+    >>> _wrap("combination Ck of the envelope governs it", 38)
+    ['combination Ck of the envelope', 'governs it']
+    """
+    rows = textwrap.wrap(text, width or _LEGEND_CHARS, break_on_hyphens=False) or [""]
+    if len(rows) > 1 and " " not in rows[-1] and len(rows[-1]) <= 4 and " " in rows[-2]:
+        head, word = rows[-2].rsplit(" ", 1)
+        rows[-2:] = [head, f"{word} {rows[-1]}"]
+    return rows
 
 
 def _wrap_items(head: str, items: list[str], width: int = 0) -> list[str]:
@@ -90,7 +99,7 @@ def notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list
 def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str, str],
                            legend: list[tuple[str, str]], h: float, uf: UnitFactors | None, shown: str,
                            envelope: bool, *, content: Box, keys: dict[str, list[tuple[int, str]]],
-                           font) -> None:
+                           font, extra: list[str] | None = None) -> list[list]:
     """The legend: per result layer a swatch, its scale line and the keys of
     the combinations that govern a value written on it (all on that layer);
     then the title and the notes block (notes layer).
@@ -100,7 +109,14 @@ def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str
     its right; a taller one gets one column to the right (legend, then
     notes).  Either way the result layers' own content stays close to the
     frame, so a picture of one layer wastes little room.
+
+    ``extra``: more notes paragraphs (the reaction schedule).
+    Returns the entities drawn as two groups, the legend blocks and the
+    title with the notes, so the caller can move each clear of the
+    drawing's own content.
     """
+    msp = pen.msp
+    n0 = len(msp)
     blocks = []
     rank = {"moment": 0, "shear": 1, "axial": 2, "reactions": 3, "deflected": 4}
     for key, line in sorted(legend, key=lambda kl: rank.get(kl[0], 9)):
@@ -144,6 +160,7 @@ def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str
             block(side_x, y, key, rows)
             y -= len(rows) * pitch + 0.4 * h
         y += 2.6 * h - 0.8 * h
+    n1 = len(msp)
     x0 = side_x
     pen.text("dxf2frame results", (x0, y), 1.4 * h, names["notes"], style="D2F-NOTES",
              align=TextEntityAlignment.TOP_LEFT)
@@ -153,5 +170,7 @@ def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str
             pen.text(row, (x0, y), h, names["notes"], style="D2F-NOTES", align=TextEntityAlignment.TOP_LEFT)
             y -= pitch
         y -= 0.4 * h
-    paras = notes_paragraphs(model, det, uf, shown, [])
+    paras = notes_paragraphs(model, det, uf, shown, list(extra or []))
     pen.notes(paras, (x0, y - 0.8 * h), h, max(0.6 * size, 45 * h), names["notes"])
+    added = list(msp)[n0:]
+    return [added[:n1 - n0], added[n1 - n0:]]

@@ -77,6 +77,8 @@ RESULT_LAYER_STYLES: dict[str, LayerStyle] = {
     "notes": LayerStyle((62, 72, 84), "CONTINUOUS", 18, 0.0, "dxf2frame: legend and notes"),
     # burnt orange, dash-dot: mechanism modes of an unstable frame
     "mechanism": LayerStyle((214, 96, 10), "D2F-DASHDOT", 35, 0.0, "dxf2frame: mechanism modes"),
+    # dark slate blue: member tags (the report's member ids)
+    "tags": LayerStyle((72, 84, 120), "CONTINUOUS", 18, 0.0, "dxf2frame: member tags (report ids)"),
 }
 
 

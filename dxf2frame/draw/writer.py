@@ -25,7 +25,8 @@ model.
 
 Scales: one per diagram type, a round number chosen so that the largest
 ordinate is about 8-12 % of the larger side of the frame's extents, stated
-in the legend as "moment: 1 drawing unit = X kN*m".  Text height is 1/60 of
+in the legend as "moment: 1 mm on the drawing = X kN*m" (naming the
+drawing's own unit).  Text height is 1/60 of
 that side.  The deflected shape is exaggerated so that the largest
 displacement is about 4-5 % of it.
 
@@ -58,6 +59,7 @@ from ..drawing_file import open_document
 from .curves import (DIAGRAMS, FrameGeom, frame_geom, chord_tolerance, sample_curves, drawn_curves, FlatCurve, has_batch, sample_batch,
                              sample_member_by_member, segment_max, straight_chains, thin, zero_crossings)
 from ..errors import SettingsError
+from .obstacles import DrawingObstacles, drawing_obstacles, free_spot
 from .labels import (OTHER_SIGN, PRIORITY, SAME_AT_JOINT, Box, LabelPlacer, as_lines, drawing_texts,
                      label_requests, label_font, Label, merge_at_joints, geometries_near, place_labels, Spot, text_width)
 from .legend import draw_legend_and_notes, notes_paragraphs
@@ -117,6 +119,15 @@ def _nice_down(v: float) -> float:
         if n <= m * (1 + 1e-12):
             return n * 10.0**e
     return 10.0**e
+
+
+def drawing_unit_text(unit: str) -> str:
+    """The drawing unit as a legend names it: ``"inch"`` -> ``"in"``, others unchanged.
+
+    >>> drawing_unit_text("inch"), drawing_unit_text("mm")
+    ('in', 'mm')
+    """
+    return "in" if unit == "inch" else unit
 
 
 def _load_source(source: Path) -> "Drawing":
@@ -183,6 +194,33 @@ class _Ctx:
     keyed: bool
     nodes: np.ndarray
     uf: UnitFactors
+    drawing_unit: str = "drawing unit"
+    fixed: Mapping[str, float] = field(default_factory=dict)   # diagram -> SI units per metre on the drawing
+
+
+nice_up = _nice_up  # public: a batch rounds its shared scales the same way
+
+
+def natural_scales(model: "DrawingModel", results: Sequence, show: str | None) -> dict[str, float]:
+    """The scale each diagram would get on its own (SI units per metre on
+    the drawing, before rounding): a batch takes the largest of its
+    drawings' so that one scale fits all.  Diagrams zero everywhere are
+    left out."""
+    sel = select_results(results, show)
+    geom = frame_geom(model)
+    frame = model.frame
+    n_el = len(frame.members)
+    if not n_el:
+        return {}
+    stations = (sample_batch(sel.results, frame, geom.length_m) if has_batch(sel.results)
+                else sample_member_by_member(sel.results, frame, geom.length_m))
+    out = {}
+    for key in DIAGRAMS:
+        curves = sample_curves(stations, key, sel.envelope, n_el)
+        gmax = max((float(np.max(np.abs(c.y))) for c in curves if len(c.y)), default=0.0)
+        if gmax > 0:
+            out[key] = gmax / (_ORDINATE_TARGET * geom.size * model.unit_scale)
+    return out
 
 
 def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[FlatCurve], labels: list[Label],
@@ -202,10 +240,13 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[FlatCurve], labe
     if not gmax > 0:
         legend.append((key, f"{key}: zero everywhere"))
         return None
-    per_unit = _nice_up(gmax * factor / (_ORDINATE_TARGET * size))   # report units per drawing unit
+    if key in ctx.fixed:                                             # the settings' [drawing.scales]
+        per_unit = float(f"{ctx.fixed[key] * us * factor:.6g}")
+    else:
+        per_unit = _nice_up(gmax * factor / (_ORDINATE_TARGET * size))   # report units per drawing unit
     k_si = factor / per_unit                                         # drawing units per SI unit
     where = "tension side" if key == "moment" else "+ toward local +y"
-    legend.append((key, f"{key}: 1 drawing unit = {per_unit:g} {unit} ({where})"))
+    legend.append((key, f"{key}: 1 {ctx.drawing_unit} on the drawing = {per_unit:g} {unit} ({where})"))
     transparency = RESULT_LAYER_STYLES[key].fill_transparency
     sym = _SYMBOL[key]
     # every point of every curve in drawing coordinates, at once
@@ -335,6 +376,9 @@ def annotate_results(
     force_unit: str,
     length_unit: str,
     drift: Mapping | None = None,
+    text_height: float | None = None,
+    scales: Mapping[str, float] | None = None,
+    probes: Sequence[tuple[float, float]] = (),
 ) -> DrawingSummary:
     """Draw the result layers into an open document (see the module docstring).
 
@@ -343,18 +387,25 @@ def annotate_results(
     ``layers``: result layer key -> name (the settings' ``[output_layers]``;
     None: the defaults).  ``drift``: storey drift options (``{"limit",
     "measure", "levels"}``, levels in drawing units; None: the defaults).
+    ``text_height``: text height [drawing units]
+    (None: 1/60 of the frame's size); ``scales``: fixed diagram scales
+    {"moment"|"shear"|"axial": SI units per metre on the drawing};
+    ``probes``: drawing points marked on the tags layer with N, V, M (of
+    the drawn result; for an envelope, of the result with the largest
+    |M| there, keyed).
     """
     # Long by intent: the numbered steps below are the recipe of a result drawing; each is a call,
     # and the working arrays of one diagram are released before the next.
     names = result_layer_names(layers)
     clear_result_layers(doc, names.values())
-    prepare_layers(doc, names)
+    _drop_layer(doc, names["mechanism"])               # a stable frame has no mechanism: no empty layer
+    prepare_layers(doc, {k: v for k, v in names.items() if k != "mechanism"})
     sel = select_results(results, show)
     uf = unit_factors(force_unit, length_unit)
-    texts = drawing_texts(doc, names.values())        # the drawing's own, before we add ours
+    obst = _drawing_content(doc, names.values())       # the drawing's own, before we add ours
     geom = frame_geom(model)
     size = geom.size
-    h = float(f"{size * _TEXT_RATIO:.2g}")
+    h = text_height if text_height and text_height > 0 else float(f"{size * _TEXT_RATIO:.2g}")
     pen = Pen(doc, size)
     summary = DrawingSummary(layers=names, text_height=h, shown=sel.label)
     frame = model.frame
@@ -372,10 +423,11 @@ def annotate_results(
     small = geom.length_m / us < 3 * h
     nodes = np.array([(m.start, m.end) for m in frame.members], dtype=int).reshape(-1, 2)
     chains = straight_chains(nodes[:, 0], nodes[:, 1], geom.t)
-    ctx = _Ctx(pen=pen, geom=geom, h=h, us=us, small=small, chains=chains, keyed=sel.envelope, nodes=nodes, uf=uf)
+    ctx = _Ctx(pen=pen, geom=geom, h=h, us=us, small=small, chains=chains, keyed=sel.envelope, nodes=nodes, uf=uf,
+               drawing_unit=drawing_unit_text(model.length_unit), fixed=dict(scales or {}))
     legend: list[tuple[str, str]] = []
     boxes: list[Box] = [geom.bounds]                   # of everything drawn, for the legend's place
-    labels: dict[str, list[Label]] = {key: [] for key in (*DIAGRAMS, "reactions")}
+    labels: dict[str, list[Label]] = {key: [] for key in (*DIAGRAMS, "reactions", "deflected")}
     lines: dict[str, list[np.ndarray]] = {key: [] for key in DIAGRAMS}
 
     # 2. draw the diagrams
@@ -386,12 +438,16 @@ def annotate_results(
     stations = None
 
     # 3. reactions
-    arrows = _draw_reactions(pen, model, geom, sel, names["reactions"], uf, h, labels["reactions"])
+    schedule: list[str] = []
+    schedule_keys: set[int] = set()
+    arrows = _draw_reactions(pen, model, geom, sel, names["reactions"], uf, h, labels["reactions"],
+                             schedule, schedule_keys)
     legend.append(("reactions", f"reactions: {uf.force_unit}, {uf.moment_unit}; arrows show each component's "
                                 f"direction, values signed (+X, +Y, moment counter-clockwise)"))
 
     # 4. deflected shape
-    bent = _draw_deflected(pen, model, geom, sel, names["deflected"], h, summary, legend, chains=chains)
+    bent = _draw_deflected(pen, model, geom, sel, names["deflected"], h, summary, legend, chains=chains,
+                           service=service_results(results), uf=uf, labels=labels["deflected"])
     boxes += _draw_near_misses(pen, model, names["notes"], h)
     boxes += _draw_storey_drift(pen, model, geom, results, names["deflected"], h, drift, legend)
 
@@ -399,6 +455,7 @@ def annotate_results(
     members = shapely.linestrings(np.stack([geom.start, geom.end], axis=1)) if n_el else np.zeros(0, dtype=object)
     font = label_font(h)
     used: dict[str, set[int]] = {}
+    taken: dict = {}                                   # every layer's label boxes: no two result texts overlap
     if arrows:
         boxes.append(tuple(float(v) for v in shapely.total_bounds(arrows)))
     for key, todo in labels.items():
@@ -406,29 +463,170 @@ def annotate_results(
             continue
         # obstacles: member lines, this layer's outlines and ticks (reactions: the arrows), the drawing's texts
         reach = 7.0 * h + 2.5 * max(text_width(font, sp.text, h) for lb in todo for sp in lb.spots)
-        own = list(arrows) if key == "reactions" else geometries_near(as_lines(lines[key]), todo, reach)
-        placer = LabelPlacer(geometries_near(members, todo, reach) + own + texts, cell=4 * h)
+        own = list(arrows) if key == "reactions" else geometries_near(as_lines(lines.get(key, [])), todo, reach)
+        placer = LabelPlacer(geometries_near(members, todo, reach) + own + geometries_near(obst.geoms, todo, reach),
+                             cell=4 * h, taken=taken)
         dropped, used[key] = place_labels(pen, placer, todo, font, h)
         summary.labels += placer.placed
         summary.forced += placer.forced
         summary.dropped += dropped
         if placer.extent is not None:
             boxes.append(placer.extent)
+    summary.dropped += _draw_tags(pen, model, geom, names["tags"], h, font, members, obst, taken)
+    if probes:
+        _draw_probes(pen, model, sel, probes, names["tags"], h, font, uf, members, obst, taken)
     if bent is not None and len(bent):
         boxes.append((*bent.min(0), *bent.max(0)))
     b = np.array(boxes, dtype=float)
     content = (float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max()))
 
     # 6. legend and notes beside the frame
+    if schedule_keys:
+        used["reactions"] = used.get("reactions", set()) | schedule_keys
     keys = {key: [(k, sel.results[k].name) for k in sorted(ks)] for key, ks in used.items() if ks}
     shown = sel.label
     if sel.envelope:
         head, _sep, _names = sel.label.partition(": ")
         shown = head + ": " + ", ".join(f"C{k + 1} = {r.name}" for k, r in enumerate(sel.results))
-    draw_legend_and_notes(pen, model, det, geom, names, legend, h, uf, shown, sel.envelope,
-                           content=content, keys=keys, font=font)
+    groups = draw_legend_and_notes(pen, model, det, geom, names, legend, h, uf, shown, sel.envelope,
+                                   content=content, keys=keys, font=font,
+                                   extra=_schedule_notes(schedule, uf))
+    placed = [shapely.box(*b) for cell in taken.values() for b in cell]
+    _keep_clear(groups, obst, list(members) + [shapely.box(*b) for b in boxes] + placed,
+                content, 0.8 * h)
     summary.entities = pen.count
     return summary
+
+
+def _drawing_content(doc, result_layers) -> DrawingObstacles:
+    """The drawing's own entities (not on ``result_layers`` nor on any
+    ``RESULT-`` layer) as obstacles, computed once."""
+    skip = {n.upper() for n in result_layers}
+    return drawing_obstacles(doc, lambda layer: layer.upper() in skip or layer.upper().startswith("RESULT-"))
+
+
+def _keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content: Box, gap: float) -> None:
+    """Move each group of entities (the legend, the notes) as a whole to the
+    nearest place clear of the drawing's own content, of ``ours`` (what the
+    tool drew: member lines, diagram extents, labels) and of the groups
+    placed before it; outside the drawing's extents when nothing inside is
+    free."""
+    from ezdxf import bbox
+
+    ext = content if obst.extents is None else (
+        min(content[0], obst.extents[0]), min(content[1], obst.extents[1]),
+        max(content[2], obst.extents[2]), max(content[3], obst.extents[3]))
+    blocked = list(obst.geoms) + ours
+    for ents in groups:
+        if not ents:
+            continue
+        b = bbox.extents(ents, fast=False)
+        if not b.has_data:
+            continue
+        box = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y)
+        dx, dy = free_spot(box, blocked, ext, gap)
+        if dx or dy:
+            for e in ents:
+                e.translate(dx, dy, 0.0)
+        moved = (box[0] + dx, box[1] + dy, box[2] + dx, box[3] + dy)
+        blocked.append(shapely.box(*moved))
+        ext = (min(ext[0], moved[0]), min(ext[1], moved[1]), max(ext[2], moved[2]), max(ext[3], moved[3]))
+
+
+def _largest_displacement(res) -> float:
+    """Largest displacement of a result [m]: at the nodes, and inside the
+    members when the result has the exact member table (a simple beam's
+    nodes do not move)."""
+    d = np.asarray(res.displacements, dtype=float)
+    big = float(np.max(np.hypot(d[:, 0], d[:, 1]))) if len(d) else 0.0
+    table = getattr(res, "member_table", None)
+    if table is not None:
+        inner = np.asarray(table().get("deflection_max", []), dtype=float)
+        if inner.size and np.isfinite(inner).any():
+            big = max(big, float(np.nanmax(inner)))
+    return big
+
+
+def service_results(results: Sequence) -> list:
+    """The results a deflected shape is drawn for: the ASD combinations
+    (service level), else the load cases, else all of them."""
+    asd = [r for r in results if r.kind == "combination" and (r.family or "").upper() == "ASD"]
+    if asd:
+        return asd
+    return [r for r in results if r.kind == "case"] or list(results)
+
+
+def _drop_layer(doc, name: str) -> None:
+    """Remove layer ``name`` when it exists (its entities were cleared)."""
+    if name in doc.layers:
+        try:
+            doc.layers.remove(name)
+        except Exception:  # noqa: BLE001 - a layer ezdxf keeps (current layer): leave it, empty
+            pass
+
+
+def _draw_tags(pen: Pen, model, geom: FrameGeom, layer: str, h: float, font, members, obst: DrawingObstacles,
+               taken: dict) -> int:
+    """The member tags: each reported member's id (a drawn span, its pieces
+    grouped) beside its middle, clear of everything placed; returns the
+    tags left out for want of room."""
+    frame = model.frame
+    spans: dict[str, list[int]] = {}
+    for i, m in enumerate(frame.members):
+        spans.setdefault(m.group, []).append(i)
+    if not spans:
+        return 0
+    th = 0.8 * h
+    near = list(obst.near((geom.bounds[0] - 10 * h, geom.bounds[1] - 10 * h,
+                           geom.bounds[2] + 10 * h, geom.bounds[3] + 10 * h)))
+    placer = LabelPlacer(list(members) + near, cell=4 * h, taken=taken)
+    dropped = 0
+    for gid, idx in spans.items():
+        pts = np.vstack([geom.start[idx], geom.end[idx]])
+        t, n = geom.t[idx[0]], geom.n[idx[0]]
+        proj = pts @ t
+        a, b = pts[int(np.argmin(proj))], pts[int(np.argmax(proj))]
+        hw, hh = 0.5 * text_width(font, gid, h) * (th / h) + 0.15 * th, 0.7 * th    # the font is sized for h
+        cands = [a + (b - a) * f + n * side * d for f in (0.5, 0.35, 0.65, 0.2, 0.8)
+                 for d in (hh + 0.3 * h, hw + 0.3 * h, 2.5 * h) for side in (1.0, -1.0)]
+        for c in cands:
+            if placer.try_place(float(c[0]), float(c[1]), hw, hh):
+                pen.text(gid, (float(c[0]), float(c[1])), th, layer)
+                break
+        else:
+            dropped += 1
+    return dropped
+
+
+def _draw_probes(pen: Pen, model, sel: Selection, probes, layer: str, h: float, font, uf: UnitFactors,
+                 members, obst: DrawingObstacles, taken: dict) -> None:
+    """A marker at each probe point and its N, V, M beside it (tags layer)."""
+    from ..report.report import locate_points
+
+    placer = LabelPlacer(list(members) + list(obst.geoms), cell=4 * h, taken=taken)
+    for k, ((px, py), (mid, xl)) in enumerate(zip(probes, locate_points(model, probes)), start=1):
+        x = np.array([xl])
+        vals = [(float(np.asarray(r.members[mid].axial(x))[0]), float(np.asarray(r.members[mid].shear(x))[0]),
+                 float(np.asarray(r.members[mid].moment(x))[0])) for r in sel.results]
+        j = int(np.argmax([abs(v[2]) for v in vals]))
+        n, v, m = vals[j]
+        key = f" [C{j + 1}]" if sel.envelope else ""
+        text = (f"P{k} N={label_value(n * uf.force)} V={label_value(v * uf.force)} "
+                f"M={label_value(m * uf.moment)}{key}")
+        pen.circle((px, py), 0.4 * h, layer)
+        hw, hh = 0.5 * text_width(font, text, h) + 0.15 * h, 0.7 * h
+        ring = [(px + dx * (hw + 0.6 * h * s), py + dy * (hh + 0.6 * h * s))
+                for s in (1, 3, 6) for dx, dy in ((1, 1), (-1, 1), (1, -1), (-1, -1), (0, 1), (0, -1))]
+        cx, cy, _fitted = placer.place(ring, hw, hh)
+        pen.text(text, (cx, cy), h, layer)
+
+
+def _schedule_notes(schedule: list[str], uf: UnitFactors) -> list[str]:
+    """The reaction schedule of an envelope as notes paragraphs."""
+    if not schedule:
+        return []
+    return [f"Reaction schedule ({uf.force_unit}, {uf.moment_unit}; max and min over the envelope, "
+            "UPLIFT: Ry has a negative minimum):"] + [f"- {row}" for row in schedule]
 
 
 def _draw_near_misses(pen: Pen, model, layer: str, h: float) -> list[Box]:
@@ -460,15 +658,21 @@ def _reaction_table(sel: Selection) -> tuple[list[int], np.ndarray]:
 
 
 def _draw_reactions(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str, uf: UnitFactors,
-                    h: float, labels: list[Label]) -> list:
+                    h: float, labels: list[Label], schedule: list[str] | None = None,
+                    used_keys: set[int] | None = None) -> list:
     """Arrows at the supports and their label requests; returns the arrow
     shafts as shapely lines (obstacles for the reaction labels).
 
-    For an envelope each component gets the bound of larger magnitude with
-    its key, plus the other bound when it has the other sign and is at
-    least ``OTHER_SIGN`` of the larger; ``[all]`` when every result gives
-    the same value.  Reactions are written however small.
+    For an envelope each component gets one arrow (in the direction of the
+    bound of larger magnitude) and one label with both bounds side by
+    side, "Ry max 685.2 [C2] min -12.3 [C5] UPLIFT" (a negative minimum of
+    Ry: the support is pulled up); ``[all]`` when every result gives the
+    same value.  The same lines go to ``schedule`` (the notes' reaction
+    schedule) and the keys used to ``used_keys``.  Reactions are written
+    however small.
     """
+    schedule = [] if schedule is None else schedule
+    used_keys = set() if used_keys is None else used_keys
     nodes, table = _reaction_table(sel)
     if not nodes:
         return []
@@ -495,9 +699,14 @@ def _draw_reactions(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
             elif abs(v_big - v_oth) <= 1e-9 * ref:
                 texts = [(f"{sym}={label_value(v_big * factor)} [all]", None, v_big)]
             else:
-                texts = [(f"{sym}={label_value(v_big * factor)} [C{kb + 1}]", kb, v_big)]
-                if v_oth * v_big < 0 and abs(v_oth) >= OTHER_SIGN * abs(v_big):
-                    texts.append((f"{sym}={label_value(v_oth * factor)} [C{ko + 1}]", ko, v_oth))
+                # max and min side by side in one label, so both stay at the support
+                hi, lo = float(vals[kmax]), float(vals[kmin])
+                flag = " UPLIFT" if comp == 1 and lo < 0 else ""
+                texts = [(f"{sym} max {label_value(hi * factor)} [C{kmax + 1}] min {label_value(lo * factor)} "
+                          f"[C{kmin + 1}]{flag}", kb, v_big)]
+                schedule.append(f"node {nid} {sym}: max {label_value(hi * factor)} [C{kmax + 1}], "
+                                f"min {label_value(lo * factor)} [C{kmin + 1}]{flag}")
+                used_keys.update((kmax, kmin))
             if comp == 0:
                 a, b = p + (-gap - La, 0.0), p + (-gap, 0.0)
                 tail, tip = (a, b) if v_big > 0 else (b, a)
@@ -531,9 +740,13 @@ def _draw_reactions(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
 
 def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str, h: float,
                     summary: DrawingSummary, legend: list[tuple[str, str]],
-                    chains: list[list[int]] | None = None) -> np.ndarray | None:
-    """Exaggerated deflected shape of the result (or, for an envelope, of the
-    result with the largest nodal displacement).
+                    chains: list[list[int]] | None = None, service: Sequence | None = None,
+                    uf: UnitFactors | None = None, labels: list[Label] | None = None) -> np.ndarray | None:
+    """Exaggerated deflected shape at service level: of the result among
+    ``service`` (:func:`service_results`; None: the drawn results) with the
+    largest nodal displacement.  The largest displacement gets a label
+    request (appended to ``labels``) with its value in mm (inch for a US
+    output unit) and the result's name.
 
     Elements long enough to carry labels are drawn exactly (the member
     results' deflection); shorter ones as the chord between their displaced
@@ -544,12 +757,12 @@ def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
     """
     # Long by intent: the exaggeration factor, the chords of short elements and the run polylines
     # share the sampled displacements.
-    cands = [r for r in sel.results if getattr(r, "displacements", None) is not None]
+    pool = list(service) if service else list(sel.results)
+    cands = [r for r in pool if getattr(r, "displacements", None) is not None]
     if not cands:
         legend.append(("deflected", "deflected shape: not available (member sections are needed)"))
         return
-    mags = [float(np.max(np.hypot(r.displacements[:, 0], r.displacements[:, 1]))) if len(r.displacements) else 0.0
-            for r in cands]
+    mags = [_largest_displacement(r) for r in cands]
     res = cands[int(np.argmax(mags))]
     frame = model.frame
     us = model.unit_scale
@@ -626,7 +839,15 @@ def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
         pen.polyline(pts[a:b][keep[a:b]], layer, dashed=True)
     summary.deflection_factor = factor
     summary.deflection_result = res.name
-    which = f" of {res.name}" if sel.envelope or len(sel.results) > 1 else ""
+    if labels is not None and uf is not None:
+        k = int(np.argmax(mag))
+        small_unit, per_m = ("in", 1 / 0.0254) if uf.length_unit in ("ft", "inch", "in") else ("mm", 1000.0)
+        value = float(mag[k]) * us * per_m
+        text = f"max displacement {label_value(value)} {small_unit} ({res.name})"
+        spot = Spot(text, moved[k], base[k], np.array([0.0, 1.0]), np.array([1.0, 0.0]), 0.0, None)
+        lb = Label(PRIORITY["extreme"], "extreme", value, layer, [spot], must=True, force=True)
+        labels.append(lb)
+    which = f" of {res.name} (service level)"
     note = "; short elements drawn as chords" if chords else ""
     legend.append(("deflected", f"deflected shape{which}: displacements exaggerated x {factor:g}{note}"))
     return pts
@@ -680,6 +901,9 @@ def write_result_drawing(
     length_unit: str,
     document: "Drawing | None" = None,
     drift: Mapping | None = None,
+    text_height: float | None = None,
+    scales: Mapping[str, float] | None = None,
+    probes: Sequence[tuple[float, float]] = (),
 ) -> None:
     """Write a copy of ``source`` with the result layers to ``out`` (atomic).
 
@@ -696,6 +920,7 @@ def write_result_drawing(
     document : optional: ``source`` already loaded with ``ezdxf.readfile``
         and not modified since (the reader's document), to save reading the
         file a second time; it is annotated in place
+    text_height, scales, probes : see :func:`annotate_results`
 
     Raises
     ------
@@ -706,7 +931,8 @@ def write_result_drawing(
     _check_target(source, out)
     doc = document if document is not None else _load_source(source)
     annotate_results(doc, model, det, results, show=show, layers=layers,
-                     force_unit=force_unit, length_unit=length_unit, drift=drift)
+                     force_unit=force_unit, length_unit=length_unit, drift=drift, text_height=text_height,
+                     scales=scales, probes=probes)
     with atomic_path(out) as tmp:
         doc.saveas(tmp)
 
@@ -726,7 +952,11 @@ def annotate_mechanism(doc: "Drawing", model: "DrawingModel", det,
     """
     names = result_layer_names(layers)
     clear_result_layers(doc, names.values())
-    prepare_layers(doc, names)
+    drawn_here = ("mechanism", "notes")               # no empty result layers in an unstable result
+    for key, name in names.items():
+        if key not in drawn_here:
+            _drop_layer(doc, name)
+    prepare_layers(doc, {k: names[k] for k in drawn_here})
     geom = frame_geom(model)
     size = geom.size
     h = float(f"{size * _TEXT_RATIO:.2g}")

@@ -98,8 +98,11 @@ class FreeBody:
             return ("positive: turns the element clockwise (up on its left face, down on its right face)"
                     if val > 0 else
                     "negative: turns the element counter-clockwise (down on its left face, up on its right face)")
-        return ("sagging (tension on the local -y face, bottom of a left-to-right beam)" if val > 0 else
-                "hogging (tension on the local +y face, top of a left-to-right beam)")
+        ax, ay = self.axis
+        below = _face(ay, -ax)                     # the side local -y points to, as seen on the drawing
+        above = _face(-ay, ax)
+        return (f"sagging (tension on the local -y face, here the {below} face of the member)" if val > 0 else
+                f"hogging (tension on the local +y face, here the {above} face of the member)")
 
     def equations(self, units: UnitFactors | None = None) -> list[str]:
         """The three equilibrium equations with the numbers substituted.
@@ -388,3 +391,14 @@ def _side_body(frame: "Frame", result, cut: _Cut, loads: _Loads, chosen: _Candid
     return FreeBody(member_id, cut.x, cut.L, sd, method, cut.point, cut.ex, chosen.builder.terms, tuple(sorted(comp)),
                     tuple(chosen.segs), joints, sup_idx, result.name, result.kind, cut.factors,
                     cut.solver_vals["n"], cut.solver_vals["v"], cut.solver_vals["m"], desc, notes, cut.limit)
+
+
+def _face(dx: float, dy: float) -> str:
+    """The face a direction (dx, dy) points to on the drawing: right, left, top or bottom.
+
+    >>> _face(0.0, -1.0), _face(1.0, 0.2)
+    ('bottom', 'right')
+    """
+    if abs(dx) > abs(dy):
+        return "right" if dx > 0 else "left"
+    return "top" if dy > 0 else "bottom"

@@ -13,6 +13,8 @@ from .report import (
     to_plain,
     dumps_report,
     write_json,
+    reaction_schedule,
+    write_reaction_schedule,
     write_csv,
     CSV_COLUMNS,
 )
@@ -30,6 +32,8 @@ __all__ = [
     "to_plain",
     "dumps_report",
     "write_json",
+    "reaction_schedule",
+    "write_reaction_schedule",
     "write_csv",
     "CSV_COLUMNS",
     "Table",

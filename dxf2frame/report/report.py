@@ -71,6 +71,7 @@ import numpy as np
 from .. import CAUTION, __version__
 from ..atomic import atomic_open
 from ..errors import DrawingError
+from ..numbers import label_value
 from .table import DictColumn, Table, as_written
 from ..units import length_unit_scale, unit_factor
 
@@ -471,7 +472,8 @@ def locate_points(
         m = frame.members[i]
         if dist[i] > tolerance:
             raise DrawingError(
-                f"probe ({x:g}, {y:g}) is not on any member; nearest is {m.group} at {dist[i]:.4g}",
+                f"probe ({x:g}, {y:g}) is not on any member; nearest is {m.group} at {dist[i]:.4g} "
+                f"{model.length_unit}",
                 hint=f"give a point within {tolerance:.3g} drawing units of a member centreline",
             )
         out.append((m.id, float(t[i] * math.sqrt(ll[i]) * model.unit_scale)))
@@ -777,6 +779,61 @@ def dumps_report(report: Mapping) -> str:
     written column-wise (:meth:`Table.json_lines`), other rows with the C
     encoder; NaN and infinity are refused."""
     return "".join(_json_chunks(report))
+
+
+def probe_lines(report: Mapping) -> list[str]:
+    """One console line per probe and result: where it lies and N, V, M
+    there, in the report's units."""
+    u = report.get("units", {})
+    out = []
+    for res in report.get("results", []):
+        for p in res.get("probes", []) or []:
+            out.append(f"probe ({p['x']:g}, {p['y']:g}) on {p['member']}, {res['name']}: "
+                       f"N={label_value(p['n'])} {u.get('force', '')}, V={label_value(p['v'])} {u.get('force', '')}, "
+                       f"M={label_value(p['m'])} {u.get('moment', '')}")
+    return out
+
+
+#: columns of the reaction schedule CSV (one row per envelope, support and component)
+REACTION_SCHEDULE_COLUMNS = ("envelope", "node", "support", "x", "y", "component", "max", "max_by",
+                             "min", "min_by", "governing", "uplift")
+
+
+def reaction_schedule(report: Mapping) -> list[dict]:
+    """Per envelope, support and component (Rx, Ry, M): max and min with
+    the result governing each, ``governing`` (the one of larger magnitude)
+    and ``uplift`` (Ry with a negative minimum: the support is pulled up
+    under some combination).  Values in the report's units; empty when the
+    report has no envelope."""
+    rows = []
+    for env in report.get("envelopes", []):
+        for r in env.get("reactions", []):
+            support = next((rc.get("support", "") for res in report.get("results", [])
+                            for rc in res.get("reactions", []) if rc.get("node") == r["node"]), "")
+            for comp, name in (("fx", "Rx"), ("fy", "Ry"), ("m", "M")):
+                hi, lo = r.get(f"{comp}_max"), r.get(f"{comp}_min")
+                if hi is None or lo is None:
+                    continue
+                gov = r[f"{comp}_max_by"] if abs(hi) >= abs(lo) else r[f"{comp}_min_by"]
+                rows.append({"envelope": env["name"], "node": r["node"], "support": support, "x": r["x"], "y": r["y"],
+                             "component": name, "max": hi, "max_by": r[f"{comp}_max_by"], "min": lo,
+                             "min_by": r[f"{comp}_min_by"], "governing": gov,
+                             "uplift": "yes" if comp == "fy" and lo < 0 else ""})
+    return rows
+
+
+def write_reaction_schedule(report: Mapping, path: Path | str) -> bool:
+    """Write :func:`reaction_schedule` as CSV (atomically); False (nothing
+    written) when the report has no envelope."""
+    rows = reaction_schedule(report)
+    if not rows:
+        return False
+    with atomic_open(path, "w", encoding="utf-8", newline="") as fh:
+        w = csv.DictWriter(fh, REACTION_SCHEDULE_COLUMNS)
+        w.writeheader()
+        for row in rows:
+            w.writerow({k: (f"{v:.6g}" if isinstance(v, float) else v) for k, v in row.items()})
+    return True
 
 
 def write_json(report: Mapping, path: Path | str, csv_path: Path | str | None = None) -> None:

@@ -161,6 +161,7 @@ def _diff(old_rep: Mapping, new_rep: Mapping, k: int, threshold: float, tol: flo
 
     # reactions: nearest support location within the tolerance, one to one
     used_old: set[int] = set()
+    unplaced: list[int] = []
     for j, p in enumerate(at_new):
         best = None
         for i, q in enumerate(at_old):
@@ -170,15 +171,44 @@ def _diff(old_rep: Mapping, new_rep: Mapping, k: int, threshold: float, tol: flo
             if d <= tol and (best is None or d < best[0]):
                 best = (d, i)
         if best is None:
-            diff.new_supports.append(p)
+            unplaced.append(j)
             continue
         i = best[1]
         used_old.add(i)
         values = tuple(_change(q, s_old[i][q], s_new[j][q], floors[dim], threshold)
                        for q, dim in REACTION_QUANTITIES.items())
         diff.reactions.append(ReactionChange(at_old[i], p, values))
+    # a support that moved with its member: the same end of a matched member in both revisions
+    for j in unplaced:
+        i = _moved_support(at_new[j], at_old, used_old, diff.matched, tol)
+        if i is None:
+            diff.new_supports.append(at_new[j])
+            continue
+        used_old.add(i)
+        values = tuple(_change(q, s_old[i][q], s_new[j][q], floors[dim], threshold)
+                       for q, dim in REACTION_QUANTITIES.items())
+        diff.reactions.append(ReactionChange(at_old[i], at_new[j], values))
     diff.removed_supports = [q for i, q in enumerate(at_old) if i not in used_old]
     return diff
+
+
+def _moved_support(p, at_old, used_old: set[int], matched, tol: float) -> int | None:
+    """Index of the old support at the end of a matched member whose new end
+    is at ``p`` (the support moved with the member: the same support), or
+    None.  The member's ends correspond start to start unless the match
+    reversed it (then the nearer pairing is taken)."""
+    for mc in matched:
+        a, b = mc.old, mc.new
+        same = math.dist(a.start, b.start) + math.dist(a.end, b.end)
+        swapped = math.dist(a.start, b.end) + math.dist(a.end, b.start)
+        ends = ((b.start, a.start), (b.end, a.end)) if same <= swapped else ((b.start, a.end), (b.end, a.start))
+        for new_end, old_end in ends:
+            if math.dist(p, new_end) > tol:
+                continue
+            for i, q in enumerate(at_old):
+                if i not in used_old and math.dist(q, old_end) <= tol:
+                    return i
+    return None
 
 
 def compare_reports(

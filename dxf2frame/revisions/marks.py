@@ -9,11 +9,13 @@ from __future__ import annotations
 
 import math
 from pathlib import Path
-from typing import Mapping
+from typing import Mapping, Sequence
 
 import numpy as np
+import shapely
 
 from ..atomic import atomic_path
+from ..draw import LabelPlacer, DrawingObstacles, drawing_obstacles, free_spot
 from ..errors import InputFileError
 from .data import Comparison, MemberRef, ValueChange
 from ..numbers import cell_value
@@ -26,7 +28,10 @@ __all__ = ["cloud_points", "mark_changes"]
 
 # -- the marked drawing ----------------------------------------------------------------------
 
-_CHANGES_COLOR = 30  # ACI orange
+_CHANGES_COLOR = 30  # ACI orange, the nearest index colour of the true colour below
+_CHANGES_RGB = (222, 110, 24)  # our own scheme: warm orange, apart from the result layers' hues
+#: tag of a changed member or support: a notation of its own (C1... are combination keys)
+_CHANGED_TAG = "Δ"
 _NEW_COLOR = 3  # ACI green
 _REMOVED_COLOR = 8  # ACI grey
 _CLOUD_BULGE = 0.55  # tan(included angle / 4): scallops of about 115 degrees
@@ -81,11 +86,13 @@ def mark_changes(
 
     * a revision cloud (closed LWPOLYLINE of outward arcs) around each
       flagged member and each flagged support, with a numbered tag
-      (``C1``, ``C2``, ...) in a circle beside it;
+      (``Δ1``, ``Δ2``, ...: not ``C1``, which names combinations) in a
+      circle beside it;
     * a green cloud and tag ``N1``, ... around each new member and support;
     * a dashed grey line and tag ``R1``, ... where a removed member was;
-    * a change schedule to the right of the frame: per tag the member or
-      support and one line per flagged quantity, e.g.
+    * a change schedule to the right of the frame (moved to the nearest
+      place clear of the drawing's own content and of the marks): per tag
+      the member or support and one line per flagged quantity, e.g.
       ``M 33.1 -> 41.2 kN*m (+24%)``.
 
     Every original entity is kept.  The copy passes ezdxf's audit and is
@@ -103,12 +110,16 @@ def mark_changes(
                                          or settings.length_unit)
     s = length_unit_scale(cmp.units["length"]) / length_unit_scale(unit)  # comparison length -> drawing units
     layer = settings.output_layer("changes")
+    obst = drawing_obstacles(doc, lambda name: name.upper() == layer.upper() or name.upper().startswith("RESULT-"))
     _prepare_layer(doc, layer)
     pair = cmp.pairs[-1] if cmp.pairs else None
     pen = _Marker.around(doc.modelspace(), layer, pair, s)
     if pair is not None:
+        pen.keep_clear_of(list(obst.geoms) + _member_lines(pair, s))
         entries = _mark_pair(pen, pair, unit_labels(cmp.units))
+        n0 = len(pen.msp)
         _write_schedule(pen, pair, cmp, entries)
+        _keep_schedule_clear(pen, list(pen.msp)[n0:], obst)
     return _save_audited(doc, Path(out_path))
 
 
@@ -117,7 +128,9 @@ def mark_changes(
 
 def _prepare_layer(doc, layer: str) -> None:
     if layer not in doc.layers:
-        doc.layers.add(layer, color=_CHANGES_COLOR)
+        lay = doc.layers.add(layer, color=_CHANGES_COLOR)
+        if doc.dxfversion > "AC1009":                  # R12 has no true colour
+            lay.rgb = _CHANGES_RGB
     if "D2F-CLOUD" not in doc.linetypes:
         doc.linetypes.add("D2F-CLOUD", pattern=[0.6, 0.5, -0.1], description="dxf2frame change cloud")
 
@@ -149,8 +162,22 @@ class _Marker:
         self.msp.add_lwpolyline(cloud_points(xmin - m, ymin - m, xmax + m, ymax + m, self.arc),
                                 format="xyb", close=True, dxfattribs=self.attribs(color))
 
+    def keep_clear_of(self, obstacles: Sequence) -> None:
+        """Tags placed from now on avoid ``obstacles`` (the drawing's own content) and each other."""
+        self.placer = LabelPlacer(list(obstacles), cell=4 * self.height)
+
     def tag(self, label: str, at: tuple[float, float], color: int | None = None) -> None:
         r = 1.3 * self.height * max(1.0, 0.45 * len(label))
+        placer = getattr(self, "placer", None)
+        if placer is not None:
+            # the preferred place, else rings around it (8 directions, farther each time)
+            d = np.array([(math.cos(a), math.sin(a)) for a in np.linspace(0, 2 * math.pi, 8, endpoint=False)])
+            cands = [np.array(at)] + [np.array(at) + d * (k * 1.5 * r) for k in range(1, 7)]
+            cands = np.vstack(cands)
+            ok = placer.free_of_obstacles(cands, r, r)
+            free = [c for c, good in zip(cands, ok) if good and placer.free_of_boxes((c[0] - r, c[1] - r, c[0] + r, c[1] + r))]
+            at = tuple(map(float, free[0])) if free else at
+            placer.add((at[0] - r, at[1] - r, at[0] + r, at[1] + r))
         self.msp.add_circle(at, r, dxfattribs=self.attribs(color))
         self.msp.add_mtext(label, dxfattribs={**self.attribs(color), "char_height": self.height, "insert": at,
                                               "attachment_point": 5})  # middle centre
@@ -184,15 +211,17 @@ def _mark_pair(pen: _Marker, pair, u: Mapping[str, str]) -> list[tuple[str, list
     for k, m in enumerate(pair.flagged_members, start=1):
         a, b = pen.ends(m.new)
         pen.cloud(_box_of(a, b))
-        pen.tag(f"C{k}", pen.beside(a, b))
+        pen.tag(f"{_CHANGED_TAG}{k}", pen.beside(a, b))
         head = f"member {m.new.id} on {m.new.layer}" + (f", {m.how} from {m.old.id}" if m.how != "same ends" else "")
-        entries.append((f"C{k}", [head] + [_value_line(v, u[v.quantity]) for v in m.values if v.flagged], None))
+        entries.append((f"{_CHANGED_TAG}{k}", [head] + [_value_line(v, u[v.quantity]) for v in m.values if v.flagged], None))
     base = len(pair.flagged_members)
     for k, r in enumerate(pair.flagged_reactions, start=base + 1):
         x, y = r.new_at[0] * s, r.new_at[1] * s
         pen.cloud((x, y, x, y))
-        pen.tag(f"C{k}", pen.off_point(x, y))
-        entries.append((f"C{k}", [f"reaction at {format_point(r.new_at)}"]
+        pen.tag(f"{_CHANGED_TAG}{k}", pen.off_point(x, y))
+        entries.append((f"{_CHANGED_TAG}{k}", [f"reaction at {format_point(r.new_at)}"
+                                                 + (f" (moved from {format_point(r.old_at)})"
+                                                    if r.old_at != r.new_at else "")]
                         + [_value_line(v, u[v.quantity]) for v in r.values if v.flagged], None))
     for k, m in enumerate(pair.new_members, start=1):
         a, b = pen.ends(m)
@@ -224,14 +253,48 @@ def _write_schedule(pen: _Marker, pair, cmp: Comparison, entries: list[tuple[str
     title += pair.notes
     if not (entries or pair.notes):
         title.append("no change above the threshold")
+    # a width wide enough for the longest line: each line stays one line (ezdxf measures it so too)
+    width = 0.75 * h * max([len(t) for t in title] + [len(label) + 2 + len(t) for label, lines, _c in entries
+                                                     for t in lines])
     pen.msp.add_mtext("\\P".join(title), dxfattribs={**pen.attribs(None), "char_height": h, "insert": (x0, y),
-                                                       "attachment_point": 1})
+                                                       "attachment_point": 1, "width": width})
     y -= (len(title) + 1) * 1.7 * h
     for label, lines, color in entries:
         pen.msp.add_mtext(f"{label}  " + "\\P      ".join(lines),
                           dxfattribs={**pen.attribs(color), "char_height": h, "insert": (x0, y),
-                                      "attachment_point": 1})  # top left
+                                      "attachment_point": 1, "width": width})  # top left
         y -= (len(lines) + 0.6) * 1.7 * h
+
+
+def _member_lines(pair, s: float) -> list:
+    """The newest revision's members as lines in drawing units (tags keep off them)."""
+    refs = [m.new for m in pair.matched] + list(pair.new_members)
+    return [shapely.LineString([(r.start[0] * s, r.start[1] * s), (r.end[0] * s, r.end[1] * s)]) for r in refs]
+
+
+def _keep_schedule_clear(pen: _Marker, schedule: list, obst: DrawingObstacles) -> None:
+    """Move the schedule's texts as one group to the nearest place clear of
+    the drawing's own content and of the clouds and tags."""
+    from ezdxf import bbox
+
+    b = bbox.extents(schedule, fast=False)
+    if not b.has_data:
+        return
+    box = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y)
+    marks = [e for e in pen.msp.query(f'*[layer=="{pen.layer}"]') if e not in set(schedule)]
+    ours = []
+    for e in marks:
+        m = bbox.extents([e], fast=True)
+        if m.has_data:
+            ours.append(shapely.box(m.extmin.x, m.extmin.y, m.extmax.x, m.extmax.y))
+    ext = obst.extents or box
+    for g in ours:
+        x0, y0, x1, y1 = g.bounds
+        ext = (min(ext[0], x0), min(ext[1], y0), max(ext[2], x1), max(ext[3], y1))
+    dx, dy = free_spot(box, list(obst.geoms) + ours, ext, pen.height)
+    if dx or dy:
+        for e in schedule:
+            e.translate(dx, dy, 0.0)
 
 
 def _save_audited(doc, out_path: Path) -> Path:

@@ -1,0 +1,214 @@
+"""The drafter's own content as obstacles for what the tool writes
+(positions in drawing units).
+
+Every modelspace entity off the result layers counts: titles, title
+blocks, dimensions, grid lines and bubbles, hatches, notes.  Lines and
+light polylines are obstacles as their linework (a sheet border around
+everything is a line, not a box covering the whole sheet); every other
+entity by its extents (``ezdxf.bbox``, blocks expanded).  A block
+reference that spans most of the drawing (a title block drawn as one
+block with the sheet border) is expanded one level so that its parts,
+not its overall box, are the obstacles.  Linework reaching beyond 1e12
+drawing units is no drawing's content and is left out (as in the preview).
+
+Computed once per drawing and indexed in one STRtree; :func:`free_spot`
+finds the nearest free place for a box (a legend, a notes block, a change
+list), outside the drawing's extents when nothing inside is free.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Callable, Iterable, Sequence
+
+import numpy as np
+import shapely
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ezdxf.document import Drawing
+
+__all__ = ["DrawingObstacles", "drawing_obstacles", "free_spot"]
+
+Box = tuple[float, float, float, float]
+
+_BIG_INSERT = 0.4          # a block reference wider and taller than this fraction of the extents is expanded
+_MAX_CANDIDATES = 40_000   # positions tried inside the extents for one box
+_FAR = 1e12                # coordinates beyond this [drawing units] are no drawing's content (as in the preview)
+
+
+@dataclass
+class DrawingObstacles:
+    """The drawing's own content.
+
+    geoms : object array of shapely geometries (boxes and linework)
+    extents : (xmin, ymin, xmax, ymax) of all of it, or None for an empty drawing
+    """
+
+    geoms: np.ndarray
+    extents: Box | None
+
+    def near(self, box: Box) -> list:
+        """The geometries whose extents touch ``box`` (for small searches)."""
+        if not len(self.geoms):
+            return []
+        b = shapely.bounds(self.geoms)
+        keep = (b[:, 0] <= box[2]) & (b[:, 2] >= box[0]) & (b[:, 1] <= box[3]) & (b[:, 3] >= box[1])
+        return list(self.geoms[keep])
+
+
+def _linework(e) -> np.ndarray | None:
+    """(k, 2) vertices of a LINE or an unfilled LWPOLYLINE without bulges; None otherwise."""
+    t = e.dxftype()
+    if t == "LINE":
+        s, t = e.dxf.start, e.dxf.end
+        return np.array([(s.x, s.y), (t.x, t.y)], dtype=float)
+    if t == "LWPOLYLINE":
+        pts = np.array([p[:3] for p in e.get_points("xyb")], dtype=float)
+        if len(pts) < 2 or np.any(pts[:, 2]) or e.dxf.get("const_width", 0):
+            return None
+        xy = pts[:, :2]
+        return np.vstack([xy, xy[:1]]) if e.closed else xy
+    return None
+
+
+def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
+                      member_layer: Callable[[str], bool] = lambda _l: False) -> DrawingObstacles:
+    """The obstacles of ``doc``'s modelspace (see the module docstring).
+
+    ``skip_layer(name)``: True for the layers the tool writes (result
+    layers); ``member_layer(name)``: True for the frame's member layers,
+    whose lines and polylines are left out (the writer has them).
+    """
+    from ezdxf import bbox
+
+    cache = bbox.Cache()
+    polys: list[np.ndarray] = []
+    boxes: list[Box] = []
+    others = []
+    for e in doc.modelspace():
+        layer = e.dxf.get("layer", "0")
+        if skip_layer(layer):
+            continue
+        pts = _linework(e)
+        if pts is not None:
+            if not member_layer(layer):
+                polys.append(pts)
+            continue
+        others.append(e)
+    _boxes_of(others, boxes, cache)
+    polys = [p for p in polys if np.all(np.abs(p) < _FAR)]
+    boxes = [b for b in boxes if np.all(np.abs(b) < _FAR)]         # NaN (unmeasured) fails too
+    ext = _extents(polys, boxes)
+    if ext is not None:
+        boxes = _expand_big_inserts(others, boxes, ext, polys, cache)
+        polys = [p for p in polys if np.all(np.abs(p) < _FAR)]
+    geoms = list(shapely.box(*np.array(boxes, dtype=float).T)) if boxes else []
+    if polys:
+        idx = np.repeat(np.arange(len(polys)), [len(p) for p in polys])
+        geoms += list(shapely.linestrings(np.vstack(polys), indices=idx))
+    return DrawingObstacles(geoms=np.array(geoms, dtype=object), extents=_extents(polys, boxes))
+
+
+def _boxes_of(entities: Sequence, boxes: list[Box], cache) -> None:
+    from ezdxf import bbox
+
+    for e in entities:
+        try:
+            b = bbox.extents([e], fast=True, cache=cache)
+        except Exception:  # noqa: BLE001 - an entity ezdxf cannot measure is no obstacle
+            b = None
+        if b is not None and b.has_data:
+            boxes.append((b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y))
+        else:
+            boxes.append((np.nan,) * 4)
+
+
+def _expand_big_inserts(entities: Sequence, boxes: list[Box], ext: Box, polys: list, cache) -> list[Box]:
+    """Replace the box of each block reference spanning most of the drawing
+    by the obstacles of its parts (lines as linework, the rest as boxes)."""
+    w, h = ext[2] - ext[0], ext[3] - ext[1]
+    out: list[Box] = []
+    for e, b in zip(entities, boxes):
+        big = (e.dxftype() == "INSERT" and b[2] - b[0] > _BIG_INSERT * w and b[3] - b[1] > _BIG_INSERT * h)
+        if not big:
+            out.append(b)
+            continue
+        try:
+            parts = list(e.virtual_entities())
+        except Exception:  # noqa: BLE001 - keep the box when the block cannot be expanded
+            out.append(b)
+            continue
+        rest = []
+        for p in parts:
+            pts = _linework(p)
+            if pts is not None:
+                polys.append(pts)
+            else:
+                rest.append(p)
+        _boxes_of(rest, out, cache)
+    return [b for b in out if np.all(np.abs(b) < _FAR)]
+
+
+def _extents(polys: list[np.ndarray], boxes: Iterable[Box]) -> Box | None:
+    lo, hi = [], []
+    for p in polys:
+        lo.append(p.min(0))
+        hi.append(p.max(0))
+    for b in boxes:
+        if np.all(np.isfinite(b)):
+            lo.append(np.array(b[:2]))
+            hi.append(np.array(b[2:]))
+    if not lo:
+        return None
+    a, z = np.min(lo, axis=0), np.max(hi, axis=0)
+    return (float(a[0]), float(a[1]), float(z[0]), float(z[1]))
+
+
+def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float) -> tuple[float, float]:
+    """Shift (dx, dy) that moves ``box`` to the nearest place touching none
+    of ``obstacles`` (shapely geometries) with ``gap`` around it.
+
+    Places inside ``extents`` come first (nearest to where the box is);
+    when none is free, the nearest place just outside the extents (right,
+    below, left or above).  (0, 0) when the box is free where it is.
+    """
+    geoms = [g for g in obstacles if g is not None and not g.is_empty]
+    tree = shapely.STRtree(geoms) if geoms else None
+    w, h = box[2] - box[0], box[3] - box[1]
+
+    def free(x0: np.ndarray, y0: np.ndarray) -> np.ndarray:
+        ok = np.ones(len(x0), dtype=bool)
+        if tree is not None and len(x0):
+            cand = shapely.box(x0 - gap, y0 - gap, x0 + w + gap, y0 + h + gap)
+            ok[tree.query(cand, predicate="intersects")[0]] = False
+        return ok
+
+    if free(np.array([box[0]]), np.array([box[1]]))[0]:
+        return 0.0, 0.0
+    if extents is None:
+        return 0.0, 0.0
+    ex0, ey0, ex1, ey1 = extents
+    if ex1 - ex0 > w and ey1 - ey0 > h:
+        step = max(min(w, h) / 2, gap, 1e-9)
+        nx, ny = (ex1 - ex0 - w) / step + 1, (ey1 - ey0 - h) / step + 1
+        if nx * ny > _MAX_CANDIDATES:
+            step *= float(np.sqrt(nx * ny / _MAX_CANDIDATES))
+        xs = np.arange(ex0, ex1 - w + 1e-12, step)
+        ys = np.arange(ey0, ey1 - h + 1e-12, step)
+        gx, gy = (a.ravel() for a in np.meshgrid(xs, ys))
+        ok = free(gx, gy)
+        if ok.any():
+            d = np.hypot(gx[ok] - box[0], gy[ok] - box[1])
+            k = int(np.argmin(d))
+            return float(gx[ok][k] - box[0]), float(gy[ok][k] - box[1])
+    # outside the extents: right, below, left, above, each at the nearest
+    # position along that side
+    top = min(max(box[1], ey0), ey1 - h) if ey1 - ey0 > h else ey1 - h
+    left = min(max(box[0], ex0), ex1 - w) if ex1 - ex0 > w else ex0
+    outside = [
+        (ex1 + 2 * gap, top),
+        (left, ey0 - 2 * gap - h),
+        (ex0 - 2 * gap - w, top),
+        (left, ey1 + 2 * gap),
+    ]
+    best = min(outside, key=lambda p: np.hypot(p[0] - box[0], p[1] - box[1]))
+    return float(best[0] - box[0]), float(best[1] - box[1])
