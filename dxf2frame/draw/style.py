@@ -24,7 +24,7 @@ import numpy as np
 from ezdxf import colors as ezcolors
 from ezdxf.enums import TextEntityAlignment
 
-from ..settings import DEFAULT_OUTPUT_LAYERS as _SETTINGS_OUTPUT_LAYERS
+from ..settings import DEFAULT_OUTPUT_LAYERS as _SETTINGS_OUTPUT_LAYERS, FURTHER_OUTPUT_LAYER_KEYS
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
@@ -36,8 +36,10 @@ __all__ = ["DEFAULT_OUTPUT_LAYERS", "LayerStyle", "RESULT_LAYER_STYLES", "LINETY
 # -- the scheme ----------------------------------------------------------------
 
 #: result layer key -> default layer name (the settings' defaults, less the
-#: comparison layer, which the compare command draws)
-DEFAULT_OUTPUT_LAYERS: dict[str, str] = {k: v for k, v in _SETTINGS_OUTPUT_LAYERS.items() if k != "changes"}
+#: comparison layer, which the compare command draws, and the buckling,
+#: moving-load and influence layers, which :mod:`dxf2frame.further` draws)
+DEFAULT_OUTPUT_LAYERS: dict[str, str] = {k: v for k, v in _SETTINGS_OUTPUT_LAYERS.items()
+                                         if k != "changes" and k not in FURTHER_OUTPUT_LAYER_KEYS}
 
 
 @dataclass(frozen=True)
