@@ -31,6 +31,8 @@ from .staging import OutputSet, writing
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
 
+    from .further import Further
+
 __all__ = [
     "Analysis",
     "SolveRequest",
@@ -70,6 +72,14 @@ class Analysis:
     combinations: list[CaseResult] = field(default_factory=list)
     timings: dict[str, float] = field(default_factory=dict)
     document: "Drawing | None" = field(default=None, repr=False)
+    # second order and moving loads (dxf2frame.further.Further), set by solve
+    further: "Further | None" = field(default=None, repr=False)
+
+    @property
+    def buckled(self):
+        """The BucklingResult of a strength combination whose load reaches
+        its elastic critical load (reported as unstable), or None."""
+        return self.further.buckled if self.further is not None else None
 
     @property
     def results(self) -> list[CaseResult]:
@@ -281,6 +291,8 @@ class SolveRequest:
     length_unit: str | None = None
     single: bool = True
     strict: bool = False
+    # influence lines (--influence X,Y), drawing units
+    influence: list[tuple[float, float]] = field(default_factory=list)
 
 
 @dataclass
@@ -318,6 +330,8 @@ def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
         "csv": drawing.with_suffix(".csv"),
         "png": drawing.with_suffix(".png"),
     }
+    if req.influence:
+        paths["influence"] = drawing.with_name(f"{drawing.stem}-influence.csv")
     return paths
 
 
@@ -389,7 +403,7 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
     from .draw import preview
     from .draw.style import result_layer_names
 
-    if not analysis.stable:
+    if not analysis.stable or analysis.buckled is not None:
         return preview.render_png(drawing, png)
     names = result_layer_names(analysis.settings.output_layers)
     loads = analysis.settings.layer("loads")
@@ -422,6 +436,63 @@ def _try_preview(drawing: Path, png: Path, analysis: Analysis, show: str, force_
         return False
     warnings.extend(notes or [])
     return png.exists()
+
+
+# -- second order and moving loads (dxf2frame.further) ------------------------------
+
+
+def _run_further(analysis: Analysis, req: SolveRequest) -> None:
+    """The second-order step and the moving loads into ``analysis.further``;
+    their warnings join the model's."""
+    from .further import run_further
+
+    analysis.further = run_further(analysis, req.influence, analysis.model.warnings)
+
+
+def _reported(analysis: Analysis) -> list[CaseResult]:
+    """Results for the report and drawing: none when a combination buckles
+    (never solved into nonsense), else the cases, combinations and the
+    second-order results."""
+    if analysis.buckled is not None:
+        return []
+    return analysis.results + (analysis.further.results if analysis.further is not None else [])
+
+
+def _buckling_message(b) -> str:
+    return (f"combination {b.name} buckles: its load reaches the elastic critical load (alpha_cr = "
+            f"{b.alpha_cr:.3g} <= 1); no results, the buckled shape is drawn")
+
+
+def _write_buckled(source: Path, out: Path, analysis: Analysis) -> None:
+    from .draw import write_buckling_drawing
+
+    write_buckling_drawing(source, out, analysis.model, analysis.determinacy, analysis.further.stability,
+                           layers=analysis.settings.output_layers, document=analysis.document)
+
+
+def _further_layers(analysis: Analysis, force_u: str):
+    """The writer's ``extra``: buckled shape, vehicle axles, influence lines."""
+    fu = analysis.further
+    if fu is None or (fu.stability is None and fu.moving is None):
+        return None
+    from .draw import annotate_further
+
+    return lambda doc: annotate_further(doc, analysis.model, fu.stability, fu.moving,
+                                        layers=analysis.settings.output_layers, force_unit=force_u)
+
+
+def _add_further(rep: dict, analysis: Analysis, force_u: str, length_u: str, influence_csv: Path | None) -> None:
+    """The report's "second_order" and "moving" sections; the influence CSV."""
+    fu = analysis.further
+    if fu is None:
+        return
+    from .further import write_influence_csv
+    from .report import unit_factors
+
+    uf = unit_factors(force_u, length_u)
+    fu.add_to_report(rep, analysis.model.frame, uf)
+    if influence_csv is not None and fu.moving is not None and fu.moving.influence:
+        write_influence_csv(fu.moving, influence_csv, uf)
 
 
 def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
@@ -465,6 +536,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
         check_outputs(source, paths)
         analysis = analyse(source, settings, length_unit=req.length_unit)
         model, det = analysis.model, analysis.determinacy
+        _run_further(analysis, req)
         outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
         if req.strict and outcome.warnings:
             raise Dxf2FrameError(strict_message(outcome.warnings))
@@ -484,11 +556,13 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             staged = {k: out_set.staged(p.name) for k, p in paths.items()}
             t0 = time.perf_counter()
             show = req.show or settings.combinations_draw
-            if analysis.stable:
+            if analysis.buckled is not None:
+                _write_buckled(source, staged["drawing"], analysis)
+            elif analysis.stable:
                 writer.write_result_drawing(
-                    source, staged["drawing"], model, det, analysis.results, show=show,
+                    source, staged["drawing"], model, det, _reported(analysis), show=show,
                     layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
-                    document=analysis.document,
+                    document=analysis.document, extra=_further_layers(analysis, force_u),
                 )
             else:
                 writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,
@@ -498,13 +572,15 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
             # gone by then, so the two never hold memory at the same time
             t0 = time.perf_counter()
             rep = report_mod.assemble_report(
-                model, det, analysis.results, force_unit=force_u, length_unit=length_u,
+                model, det, _reported(analysis), force_unit=force_u, length_unit=length_u,
                 probes=req.probes, deflection_limits=settings.deflection_limits(),
             )
-            with_csv = req.csv and analysis.stable
+            _add_further(rep, analysis, force_u, length_u, staged.get("influence"))
+            with_csv = req.csv and analysis.stable and analysis.buckled is None
             report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
             analysis.timings["report"] = time.perf_counter() - t0
             written = ["drawing", "report"] + (["csv"] if with_csv else [])
+            written += ["influence"] if "influence" in staged and staged["influence"].exists() else []
             if req.png:
                 t0 = time.perf_counter()
                 drawn = _try_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u,
@@ -512,7 +588,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 analysis.timings["png"] = time.perf_counter() - t0
                 if drawn:
                     written.append("png")
-            if req.sheets and analysis.stable:
+            if req.sheets and analysis.stable and analysis.buckled is None:
                 from .handcheck import sheets as handcheck
 
                 sheet_dir = out_set.staged(f"{paths['drawing'].stem}-sheets")
@@ -521,7 +597,7 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
                 written.append("sheets")
                 paths["sheets"] = final / sheet_dir.name
                 staged["sheets"] = sheet_dir
-            governing = _governing(rep) if analysis.stable else {}
+            governing = _governing(rep) if analysis.stable and analysis.buckled is None else {}
             committed = out_set.commit({staged[k]: paths[k] for k in written})
         outcome.outputs = [str(t) for t in committed]
 
@@ -529,6 +605,9 @@ def _solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
         if not analysis.stable:
             outcome.status, outcome.exit_code = "unstable", EXIT_UNSTABLE
             outcome.message = one_line(det.detail)
+        elif analysis.buckled is not None:
+            outcome.status, outcome.exit_code = "unstable", EXIT_UNSTABLE
+            outcome.message = _buckling_message(analysis.buckled)
         else:
             for k, v in governing.items():
                 setattr(outcome, k, v)

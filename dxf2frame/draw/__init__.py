@@ -17,6 +17,7 @@ from .style import (
 )
 from .selection import Selection, select_results
 from .labels import LabelPlacer
+from .further import further_layer_names, annotate_further, write_buckling_drawing
 from .writer import (
     DrawingSummary,
     annotate_results,
@@ -26,6 +27,9 @@ from .writer import (
 )
 
 __all__ = [
+    "further_layer_names",
+    "annotate_further",
+    "write_buckling_drawing",
     "DEFAULT_OUTPUT_LAYERS",
     "LayerStyle",
     "RESULT_LAYER_STYLES",

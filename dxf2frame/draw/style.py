@@ -79,6 +79,12 @@ RESULT_LAYER_STYLES: dict[str, LayerStyle] = {
     "notes": LayerStyle((62, 72, 84), "CONTINUOUS", 18, 0.0, "dxf2frame: legend and notes"),
     # burnt orange, dash-dot: mechanism modes of an unstable frame
     "mechanism": LayerStyle((214, 96, 10), "D2F-DASHDOT", 35, 0.0, "dxf2frame: mechanism modes"),
+    # indigo, dash-dot: buckled shape of the lowest mode (second order)
+    "buckling": LayerStyle((72, 61, 160), "D2F-DASHDOT", 30, 0.0, "dxf2frame: buckled shape (lowest mode)"),
+    # dark olive: vehicle axles at the critical position (moving loads)
+    "moving": LayerStyle((107, 112, 20), "CONTINUOUS", 35, 0.0, "dxf2frame: moving load, critical position"),
+    # steel blue, dashed: influence lines
+    "influence": LayerStyle((40, 96, 160), "D2F-DASH", 25, 0.0, "dxf2frame: influence lines (per unit load)"),
 }
 
 

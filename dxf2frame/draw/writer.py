@@ -47,7 +47,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING, Mapping, Sequence
+from typing import TYPE_CHECKING, Callable, Mapping, Sequence
 
 import numpy as np
 import shapely
@@ -641,6 +641,7 @@ def write_result_drawing(
     force_unit: str,
     length_unit: str,
     document: "Drawing | None" = None,
+    extra: "Callable[[Drawing], object] | None" = None,
 ) -> None:
     """Write a copy of ``source`` with the result layers to ``out`` (atomic).
 
@@ -656,6 +657,8 @@ def write_result_drawing(
     document : optional: ``source`` already loaded with ``ezdxf.readfile``
         and not modified since (the reader's document), to save reading the
         file a second time; it is annotated in place
+    extra : optional: draws more result layers into the annotated document
+        before it is saved (the second-order and moving-load layers)
 
     Raises
     ------
@@ -667,6 +670,8 @@ def write_result_drawing(
     doc = document if document is not None else _load_source(source)
     annotate_results(doc, model, det, results, show=show, layers=layers,
                      force_unit=force_unit, length_unit=length_unit)
+    if extra is not None:
+        extra(doc)
     with atomic_path(out) as tmp:
         doc.saveas(tmp)
 
