@@ -92,7 +92,7 @@ def _chain(frame, layer: str) -> list[str]:
         raise DrawingError(f"the members on the path layer {layer!r} do not form one chain (it {why})",
                            handle=first.handle, layer=first.layer)
     start = min(ends, key=lambda n: (frame.nodes[n].x, frame.nodes[n].y))
-    return [d["id"] for _, _, d in nx.eulerian_path(g, source=start, keys=False)] if len(on) > 1 else [on[0].id]
+    return [g.edges[u, v, k]["id"] for u, v, k in nx.eulerian_path(g, source=start, keys=True)]
 
 
 def _polyline(model, document, layer: str) -> tuple[list[tuple[float, float]], str]:
