@@ -478,7 +478,7 @@ def _further_layers(analysis: Analysis, force_u: str):
     from .draw import annotate_further
 
     return lambda doc: annotate_further(doc, analysis.model, fu.stability, fu.moving,
-                                        layers=analysis.settings.output_layers, force_unit=force_u)
+                                        layers=analysis.settings.output_layers)
 
 
 def _add_further(rep: dict, analysis: Analysis, force_u: str, length_u: str, influence_csv: Path | None) -> None:

@@ -57,7 +57,6 @@ def _buckled_shape(pen: Pen, model, b, layer: str, size: float, h: float, label:
     for j, m in enumerate(frame.members):
         a = np.array([frame.nodes[m.start].x, frame.nodes[m.start].y]) / us
         e = np.array([frame.nodes[m.end].x, frame.nodes[m.end].y]) / us
-        L = float(np.hypot(*(e - a))) or 1.0
         t = b.member_points[j] / (b.member_points[j][-1] or 1.0)
         base = a[None, :] + t[:, None] * (e - a)[None, :]
         moved = base + k * b.member_shape[j]
@@ -65,14 +64,12 @@ def _buckled_shape(pen: Pen, model, b, layer: str, size: float, h: float, label:
         i = int(np.argmax(np.hypot(*b.member_shape[j].T)))
         if top is None or np.hypot(*b.member_shape[j][i]) > top[0]:
             top = (float(np.hypot(*b.member_shape[j][i])), moved[i])
-        del L
     if top is not None:
         pen.text(label, top[1] + np.array([0.0, 1.5 * h]), h, layer)
 
 
 def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
-                     layers: Mapping[str, str] | None = None, force_unit: str = "kN",
-                     force_factor: float = 1e-3) -> list[str]:
+                     layers: Mapping[str, str] | None = None) -> list[str]:
     """Draw the second-order and moving-load results into ``doc`` (already
     annotated with the first-order results).  Returns legend lines."""
     names = further_layer_names(layers)
@@ -91,7 +88,7 @@ def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
         legend.append(f"{names['buckling']}: buckled shape of the lowest mode ({low.name}, alpha_cr = "
                       f"{low.alpha_cr:.3g}), largest movement {int(_SHAPE_TARGET * 100)} % of the frame size")
     if moving is not None:
-        for v in moving.vehicles:
+        for kv, v in enumerate(moving.vehicles):
             c = v.critical
             if not c or not len(v.axles):
                 continue
@@ -99,11 +96,11 @@ def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
             for p in pts:
                 pen.arrow(p + np.array([0.0, 3.0 * h]), p, 0.8 * h, names["moving"])
                 pen.circle(p, 0.4 * h, names["moving"])
-            pen.text(f"{v.name}: critical position for M in {c['member']}", pts[0] + np.array([0.0, 4.2 * h]), h,
-                     names["moving"])
+            pen.text(f"{v.name}: critical position for M in {c['member']}",
+                     (float(np.mean(pts[:, 0])), pts[0][1] + (4.2 + 1.6 * kv) * h), h, names["moving"])
         if moving.vehicles:
             legend.append(f"{names['moving']}: axles of each vehicle at the position giving its largest |M|")
-        for pi in moving.influence:
+        for kp, pi in enumerate(moving.influence):
             line = pi.lines["M"]
             xy = line.xy / us
             big = float(np.max(np.abs(line.values))) if len(line.values) else 0.0
@@ -112,13 +109,15 @@ def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
             pen.polyline(xy + np.column_stack([np.zeros(len(xy)), k * line.values]), names["influence"], dashed=True)
             pen.circle(pi.point, 0.5 * h, names["influence"])
             pen.text(f"influence line of M at ({pi.point[0]:g}, {pi.point[1]:g}), largest {big / us:.4g} "
-                     f"{model.length_unit} per unit load", (xy[0][0], xy[0][1] - 2.5 * h), h, names["influence"],
+                     f"{model.length_unit} per unit load", (xy[0][0], xy[0][1] - (2.5 + 1.6 * kp) * h), h,
+                     names["influence"],
                      align=TextEntityAlignment.TOP_LEFT)
         if moving.influence:
             legend.append(f"{names['influence']}: influence lines of M, + drawn upward (sagging), per unit load")
     if legend:
         pen.notes(["Second order and moving loads:"] + legend + [f"CAUTION: {CAUTION}"],
-                  (geom.bounds[0], geom.bounds[1] - 6.0 * h), h, max(0.6 * size, 45 * h), names["buckling"])
+                  (geom.bounds[0], geom.bounds[1] - 6.0 * h), h, max(0.6 * size, 45 * h),
+                  result_layer_names(layers)["notes"])
     return legend
 
 

@@ -29,6 +29,31 @@ def _num(v) -> float | None:
     return v if math.isfinite(v) else None
 
 
+def _negligible(so) -> tuple[float, float]:
+    """(drift, moment) below which a storey's first-order value is rounding
+    noise (a symmetric frame under symmetric load does not sway): 1e-9 of
+    the combination's largest displacement and end moment."""
+    import numpy as np
+
+    fo = so.first_order
+    ef = np.asarray(fo.members.end_forces, dtype=float)
+    m = float(np.max(np.abs(ef[:, [2, 5]]))) if ef.size else 0.0
+    d = float(np.max(np.abs(fo.displacements[:, :2]))) if fo.displacements is not None and fo.displacements.size else 0.0
+    return 1e-9 * d, 1e-9 * m
+
+
+def _storey(s, tiny_d: float, tiny_m: float, uf) -> dict:
+    """One storey's sway amplification; a ratio of noise is null."""
+    return {
+        "level": _num(s.level * uf.length), "below": _num(s.below * uf.length),
+        "drift_first": _num(s.drift_first * uf.length), "drift_second": _num(s.drift_second * uf.length),
+        "drift_amplification": _num(s.drift_ratio) if abs(s.drift_first) > tiny_d else None,
+        "column_moment_first": _num(s.moment_first * uf.moment),
+        "column_moment_second": _num(s.moment_second * uf.moment),
+        "moment_amplification": _num(s.moment_ratio) if abs(s.moment_first) > tiny_m else None,
+        "columns": list(s.members)}
+
+
 def second_order_section(st, uf) -> dict:
     """The ``"second_order"`` report section of a StabilityOutcome."""
     out: dict = {"analysis": st.analysis, "criterion": _CRITERION, "caution":
@@ -43,14 +68,8 @@ def second_order_section(st, uf) -> dict:
         if so is not None:
             row["second_order_result"] = f"{name} (second order)"
             row["iterations"] = int(so.iterations)
-            row["storeys"] = [{
-                "level": _num(s.level * uf.length), "below": _num(s.below * uf.length),
-                "drift_first": _num(s.drift_first * uf.length), "drift_second": _num(s.drift_second * uf.length),
-                "drift_amplification": _num(s.drift_ratio),
-                "column_moment_first": _num(s.moment_first * uf.moment),
-                "column_moment_second": _num(s.moment_second * uf.moment),
-                "moment_amplification": _num(s.moment_ratio), "columns": list(s.members)}
-                for s in so.storeys]
+            tiny_d, tiny_m = _negligible(so)
+            row["storeys"] = [_storey(s, tiny_d, tiny_m, uf) for s in so.storeys]
         combos.append(row)
     out["combinations"] = combos
     if st.buckled is not None:
