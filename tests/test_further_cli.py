@@ -87,8 +87,9 @@ def test_cantilever_column_p_delta_tip_moment_amplification(tmp_path, capsys):
     exact = math.tan(kL) / kL
     storey = rep["second_order"]["combinations"][0]["storeys"][0]
     assert storey["moment_amplification"] == pytest.approx(exact, rel=0.01)
-    second = [r for r in rep["results"] if r["kind"] == "second-order"]
-    assert len(second) == 1
+    second = rep["second_order"]["results"]
+    assert [r["kind"] for r in second] == ["second-order"]
+    assert {r["kind"] for r in rep["results"]} == {"case", "combination"}   # the schema's kinds only
     base = second[0]["reactions"][0]
     assert abs(base["m"]) == pytest.approx(H * L * exact / 1e3, rel=0.01)   # kN*m
 
@@ -255,3 +256,28 @@ def test_path_layer_that_is_not_a_chain_names_the_member(tmp_path, capsys):
     rc, _, err = run(capsys, tmp_path, doc, SECTIONS + vehicles("FRAME-DECK", 'axles = ["1 kN"]'))
     assert rc == 2 and "one chain" in err and "FRAME-DECK" in err
     assert not (tmp_path / "solved").exists()
+
+
+def test_footbridge_demo_solves_as_the_readme_says(tmp_path, capsys):
+    # the README's demo command on a fresh copy of the demo (drawings/make_demo.py)
+    import shutil
+    import sys
+
+    root = Path(__file__).resolve().parents[1]
+    sys.path.insert(0, str(root / "drawings"))
+    try:
+        import make_demo
+    finally:
+        sys.path.remove(str(root / "drawings"))
+    make_demo.build_footbridge().saveas(tmp_path / "kestrel-lane-footbridge.dxf")
+    shutil.copy(root / "drawings" / "footbridge" / "dxf2frame.toml", tmp_path / "dxf2frame.toml")
+    capsys.readouterr()
+    rc = main(["solve", str(tmp_path / "kestrel-lane-footbridge.dxf"), "--no-png",
+               "--influence", "14,4", "--influence", "7,4"])
+    err = capsys.readouterr().err
+    assert rc == 0, err
+    rep = json.loads((tmp_path / "solved" / "kestrel-lane-footbridge-results.json").read_text(encoding="utf-8"))
+    assert rep["second_order"]["analysis"] == "p-delta" and rep["second_order"]["results"]
+    assert [v["name"] for v in rep["moving"]["vehicles"]] == ["maintenance buggy", "bin trolley"]
+    assert (tmp_path / "solved" / "kestrel-lane-footbridge-results-influence.csv").is_file()
+    assert "qualified engineer" in rep["moving"]["caution"] and "qualified engineer" in rep["caution"]

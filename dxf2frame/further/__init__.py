@@ -50,9 +50,15 @@ class Further:
         return self.stability.results if self.stability is not None else []
 
     def add_to_report(self, report: dict, frame, uf) -> None:
-        """Add the ``"second_order"`` and ``"moving"`` sections."""
+        """Add the ``"second_order"`` (with the second-order results,
+        moved out of ``"results"``) and ``"moving"`` sections."""
         if self.stability is not None:
             report["second_order"] = second_order_section(self.stability, uf)
+            # second-order results live in their own section: the schema's
+            # "results" holds load cases and combinations only
+            results = report.get("results", [])
+            report["second_order"]["results"] = [r for r in results if r.get("kind") == SECOND_ORDER_KIND]
+            report["results"] = [r for r in results if r.get("kind") != SECOND_ORDER_KIND]
         if self.moving is not None:
             report["moving"] = moving_section(self.moving, frame, uf)
 
