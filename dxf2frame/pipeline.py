@@ -415,7 +415,7 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
     ]
     if len(analysis.model.frame.members) > PREVIEW_PANEL_LIMIT:
         panels = panels[:1]
-    hide = list(names.values()) + [loads]
+    hide = list(names.values()) + [loads] + _further_layer_names(analysis)
     footer = f"{analysis.model.source.name}: showing {show}. {CAUTION}"
     return preview.render_panels_png(drawing, png, panels, hide=hide, footer=footer)
 
@@ -456,6 +456,14 @@ def _reported(analysis: Analysis) -> list[CaseResult]:
     if analysis.buckled is not None:
         return []
     return analysis.results + (analysis.further.results if analysis.further is not None else [])
+
+
+def _further_layer_names(analysis: Analysis) -> list[str]:
+    """The buckling, moving and influence layers (kept out of the preview's
+    diagram panels)."""
+    from .draw import further_layer_names
+
+    return list(further_layer_names(analysis.settings.output_layers).values())
 
 
 def _buckling_message(b) -> str:

@@ -281,3 +281,22 @@ def test_footbridge_demo_solves_as_the_readme_says(tmp_path, capsys):
     assert [v["name"] for v in rep["moving"]["vehicles"]] == ["maintenance buggy", "bin trolley"]
     assert (tmp_path / "solved" / "kestrel-lane-footbridge-results-influence.csv").is_file()
     assert "qualified engineer" in rep["moving"]["caution"] and "qualified engineer" in rep["caution"]
+
+
+def test_path_polyline_off_the_members_names_its_handle(tmp_path, capsys):
+    doc = deck(12.0, "PATH-RUNWAY")
+    line = add_polyline(doc.modelspace(), [(0, 0), (14, 0)], layer="PATH-RUNWAY")
+    for e in list(doc.modelspace().query('LWPOLYLINE[layer=="PATH-RUNWAY"]')):
+        if e is not line:
+            doc.modelspace().delete_entity(e)
+    rc, _, err = run(capsys, tmp_path, doc, SECTIONS + vehicles("PATH-RUNWAY", 'axles = ["1 kN"]'))
+    assert rc == 2 and f"#{line.dxf.handle}" in err and "PATH-RUNWAY" in err and "leaves the members" in err
+    assert not (tmp_path / "solved").exists()
+
+
+def test_settings_defaults_for_second_order_and_moving():
+    from dxf2frame.settings import Settings
+
+    s = Settings()
+    assert s.second_order == "check" and s.moving_path_layer is None and s.moving_vehicles == ()
+    assert s.output_layer("buckling") == "RESULT-BUCKLING"

@@ -131,14 +131,7 @@ def _path(model, document, layer: str, settings) -> tuple[LoadPath, str]:
     try:
         return path_through_points(frame, pts, tol=tol), "polyline"
     except LoadError as exc:
-        where = exc.message.replace(")", "").split("(")[-1] if "(" in exc.message else ""
-        if where:
-            try:
-                x, y = (float(v) / model.unit_scale for v in where.split(","))
-                exc.message = exc.message.replace(f"({where})", f"({x:.6g}, {y:.6g}) {model.length_unit}")
-            except ValueError:
-                pass
-        raise DrawingError(f"path polyline: {exc.message}", handle=handle, layer=layer,
+        raise DrawingError(f"path polyline: {exc.message} (coordinates in m)", handle=handle, layer=layer,
                            hint="draw the path along member centrelines") from None
 
 
