@@ -87,6 +87,10 @@ def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
                        f"buckled shape, {low.name}: alpha_cr = {low.alpha_cr:.3g}")
         legend.append(f"{names['buckling']}: buckled shape of the lowest mode ({low.name}, alpha_cr = "
                       f"{low.alpha_cr:.3g}), largest movement {int(_SHAPE_TARGET * 100)} % of the frame size")
+    if stability is not None and stability.second_order:
+        first = next(iter(stability.second_order))
+        legend.append("P-Delta results of the strength combinations are in the report (second_order.results); "
+                      f"the diagrams above are first order unless drawn with --show \"{first} (second order)\"")
     if moving is not None:
         for kv, v in enumerate(moving.vehicles):
             c = v.critical
