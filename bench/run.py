@@ -28,6 +28,7 @@ Usage::
     python bench/run.py                      # 500, 5000, 20000 members, batch of 20
     python bench/run.py --sizes 500,5000 --repeat 3
     python bench/run.py --quick              # a tiny run (seconds)
+    python bench/run.py --moving             # moving loads vs one solve (bench/moving.py), in process
 """
 from __future__ import annotations
 
@@ -502,6 +503,22 @@ def format_table(res: dict) -> str:
     return "\n".join(lines)
 
 
+def _moving_only(out: Path | None) -> int:
+    """``--moving``: print the moving-load figure; write it to ``out`` if given."""
+    from bench.moving import measure_moving
+
+    res = measure_moving()
+    print(f"moving loads, in process: {res['stations']} stations on {res['members']} members "
+          f"{res['moving_s']:.3f} s; one solve with {res['results']} results {res['solve_s']:.4f} s; "
+          f"ratio {res['ratio']:.1f} (target < 2); alpha_cr of {res.get('alpha_cr_combinations', 0)} "
+          f"combinations {res.get('alpha_cr_s', float('nan')):.3f} s; load average "
+          f"{', '.join(f'{v:.2f}' for v in res['load_average'])} on {res['cpus']} cores")
+    if out is not None:
+        out.parent.mkdir(parents=True, exist_ok=True)
+        out.write_text(json.dumps({"moving": res}, indent=2) + "\n")
+    return 0
+
+
 def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
     if argv[:1] == ["--child"]:
@@ -518,7 +535,12 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--workdir", type=Path, default=None, help="keep drawings and outputs here (reused)")
     ap.add_argument("--out", type=Path, default=None,
                     help="results file (default bench/results.json; --quick writes none unless given)")
+    ap.add_argument("--moving", action="store_true",
+                    help="only the moving-load figure: a 2,000-station path on a 500-member frame against "
+                         "one solve with 15 results, in process (bench/moving.py)")
     a = ap.parse_args(argv)
+    if a.moving:
+        return _moving_only(a.out)
     if a.quick:
         sizes, batch, bm, rep = [15], 2, 15, 1
     else:

@@ -10,13 +10,20 @@ left column rigidly.
 * ``packing-shed-rev-B.dxf``: the loft raised from 2.8 m to 3.0 m, and the
   fruit-bin hoist on the loft upgraded from 6 kN to 9 kN.
 
-Run ``python drawings/make_demo.py`` to write both next to this script.
-
 The settings beside them (``dxf2frame.toml``) take the rafters from a
 shape text, add the steel's self-weight to the dead load, let the wind act
 both ways and check the storey drift of the loft and the eaves against
 h/400; the solved demo shows the drift ratios at each level and flags the
 loft beam's span/deflection against its L/360 limit.
+
+A second invented scenario, for second order and moving loads:
+``footbridge/kestrel-lane-footbridge.dxf``, a steel footbridge of two
+14 m spans carrying a cycle path over a drainage channel at "Kestrel
+Lane", its deck continuous over a fixed-base steel pier 4 m high.  A
+maintenance buggy and a bin trolley cross the deck (``footbridge/
+dxf2frame.toml``: ``[moving]``, and ``[second_order]`` with P-Delta).
+
+Run ``python drawings/make_demo.py`` to write all three next to this script.
 """
 from __future__ import annotations
 
@@ -79,6 +86,35 @@ def build(loft_y: float, hoist: str, revision: str) -> ezdxf.document.Drawing:
     return doc
 
 
+def build_footbridge() -> ezdxf.document.Drawing:
+    """The Kestrel Lane footbridge: deck on FRAME-DECK (the moving-load
+    path), pier on FRAME-PIER, dead and pedestrian load on the deck, wind
+    on the pier."""
+    doc = ezdxf.new("R2018", setup=True)
+    doc.header["$INSUNITS"] = 6  # metres
+    define_layers(doc)
+    define_blocks(doc)
+    for name in ("FRAME-DECK", "FRAME-PIER", "ANNOTATION"):
+        doc.layers.add(name, color=8 if name == "ANNOTATION" else 7)
+    msp = doc.modelspace()
+    msp.add_line((0.0, 4.0), (28.0, 4.0), dxfattribs={"layer": "FRAME-DECK"})
+    msp.add_line((14.0, 0.0), (14.0, 4.0), dxfattribs={"layer": "FRAME-PIER"})
+
+    def put(name: str, at, layer: str, rotation: float = 0.0, **attribs):
+        insert_symbol(msp, name, at, layer=layer, rotation=rotation, scale=SYMBOL, **attribs)
+
+    put("PIN", (0.0, 4.0), "SUPPORTS")
+    put("ROLLER", (28.0, 4.0), "SUPPORTS")
+    put("FIXED", (14.0, 0.0), "SUPPORTS")
+    for x in (7.0, 21.0):   # deck, parapets and surfacing; pedestrians and cycles
+        put("UDL", (x, 4.0), "LOADS", W="4.5 kN/m", CASE="D")
+        put("UDL", (x + 1.5, 4.0), "LOADS", W="5 kN/m", CASE="L")
+    put("UDL", (14.0, 2.0), "LOADS", rotation=90, W="1.2 kN/m", DIR="X", CASE="W")
+    msp.add_text("KESTREL LANE FOOTBRIDGE - ELEVATION ON CENTRELINE", height=0.4,
+                 dxfattribs={"layer": "ANNOTATION"}).set_placement((0.0, -1.6))
+    return doc
+
+
 def main(out_dir: Path = HERE) -> list[Path]:
     out_dir.mkdir(parents=True, exist_ok=True)
     paths = []
@@ -86,6 +122,10 @@ def main(out_dir: Path = HERE) -> list[Path]:
         p = out_dir / f"packing-shed-rev-{rev}.dxf"
         build(loft_y, hoist, rev).saveas(p)
         paths.append(p)
+    (out_dir / "footbridge").mkdir(exist_ok=True)
+    p = out_dir / "footbridge" / "kestrel-lane-footbridge.dxf"
+    build_footbridge().saveas(p)
+    paths.append(p)
     return paths
 
 

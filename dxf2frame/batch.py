@@ -399,7 +399,8 @@ def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = Non
             if debug and o.traceback:
                 print(o.traceback.rstrip("\n"), file=err)
         elif o.status == "unstable":
-            print(f"dxf2frame: {o.source}: the frame is unstable (a mechanism); no results. {one_line(o.message)}",
+            why = "a mechanism" if o.determinacy in ("unstable", "") else "it buckles"
+            print(f"dxf2frame: {o.source}: the frame is unstable ({why}); no results. {one_line(o.message)}",
                   file=err)
         # every file's warnings reach the console (in a batch prefixed with the file)
         for w in o.warnings:

@@ -162,6 +162,9 @@ def build_parser() -> argparse.ArgumentParser:
                    help="units of the report, e.g. kN,m or kip,ft (default: settings force unit, drawing unit)")
     p.add_argument("--probe", type=_probe, action="append", default=[], metavar="X,Y",
                    help="report N, V, M at this drawing point (repeatable)")
+    p.add_argument("--influence", type=_probe, action="append", default=[], metavar="X,Y",
+                   help="influence lines of N, V, M at this drawing point for a unit load moving along "
+                        "the settings' [moving] path_layer (repeatable; drawn, and written as CSV)")
     p.add_argument("--show", metavar="NAME",
                    help="what to draw: a load case, a combination ('1.2D+1.6L+0.5S'), "
                         "or 'envelope:LRFD' / 'envelope:ASD' / 'envelope:all', or 'patterns:RESULT' for the pattern "

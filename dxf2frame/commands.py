@@ -124,6 +124,7 @@ def run_solve(args) -> int:
         out=args.out, report=args.report, units=args.units, probes=list(args.probe), show=args.show,
         png=not args.no_png, sheets=args.sheets, settings_path=args.settings,
         length_unit=args.length_unit, single=single, strict=args.strict, history=args.history,
+        influence=list(args.influence),
     )
     return run_batch(files, req, workers=args.workers, scheduler=args.scheduler,
                      debug=args.debug)

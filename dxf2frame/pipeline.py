@@ -31,6 +31,8 @@ from .staging import OutputSet, writing
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
 
+    from .further import Further
+
 __all__ = [
     "Analysis",
     "SolveRequest",
@@ -74,6 +76,14 @@ class Analysis:
     document: "Drawing | None" = field(default=None, repr=False)
     # pattern live load (issue 18): report.patterns.PatternedCase per patterned case
     patterns: list = field(default_factory=list)
+    # second order and moving loads (dxf2frame.further.Further), set by solve
+    further: "Further | None" = field(default=None, repr=False)
+
+    @property
+    def buckled(self):
+        """The BucklingResult of a strength combination whose load reaches
+        its elastic critical load (reported as unstable), or None."""
+        return self.further.buckled if self.further is not None else None
 
     @property
     def results(self) -> list[CaseResult]:
@@ -388,6 +398,8 @@ class SolveRequest:
     #: None for the settings' ``[history] record``
     history: bool | None = None
     scales: dict[str, float] | None = None
+    # influence lines (--influence X,Y), drawing units
+    influence: list[tuple[float, float]] = field(default_factory=list)
 
 
 @dataclass
@@ -433,6 +445,8 @@ def output_paths(source: Path, req: SolveRequest) -> dict[str, Path]:
         "png": drawing.with_suffix(".png"),
     }
     paths.update(_storey_paths(drawing))
+    if req.influence:
+        paths["influence"] = drawing.with_name(f"{drawing.stem}-influence.csv")
     return paths
 
 
@@ -486,7 +500,7 @@ def _pattern_drawing(analysis: Analysis, show: str) -> tuple[list[CaseResult], s
     arrangements that govern M somewhere (each built as a result of family
     ``patterns:<result>``); anything else the results as they are."""
     if not show.lower().startswith("patterns:"):
-        return analysis.results, show
+        return _reported(analysis), show
     want = show.partition(":")[2].strip()
     squash = lambda s: "".join(s.split()).lower()  # noqa: E731
     for pc in analysis.patterns:
@@ -500,7 +514,7 @@ def _pattern_drawing(analysis: Analysis, show: str) -> tuple[list[CaseResult], s
             for parts in chosen:
                 r = pc.envelope.pattern_result(parts, factor=factor, base=base)
                 extra.append(replace(r, family=family))
-            return analysis.results + extra, f"envelope:{family}"
+            return _reported(analysis) + extra, f"envelope:{family}"
     names = [n for pc in analysis.patterns for n, _, _ in pc.results]
     raise SettingsError(f"no patterned result named {want!r} to draw; patterned: "
                         + (", ".join(names) or "none (set [patterns] cases)"), key="combinations.draw")
@@ -585,7 +599,7 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
     from .draw import preview
     from .draw.style import result_layer_names
 
-    if not analysis.stable:
+    if not analysis.stable or analysis.buckled is not None:
         return preview.render_png(drawing, png)
     names = result_layer_names(analysis.settings.output_layers)
     loads = analysis.settings.layer("loads")
@@ -597,7 +611,7 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
     ]
     if len(analysis.model.frame.members) > PREVIEW_PANEL_LIMIT:
         panels = panels[:1]
-    hide = list(names.values()) + [loads]
+    hide = list(names.values()) + [loads] + _further_layer_names(analysis)
     footer = f"{analysis.model.source.name}: showing {show}. {CAUTION}"
     return preview.render_panels_png(drawing, png, panels, hide=hide, footer=footer)
 
@@ -668,6 +682,71 @@ def drawing_scale_options(settings: Settings, model, req: "SolveRequest") -> dic
     scales = {**(req.scales or {}), **settings.diagram_scales}
     return {"text_height": settings.text_height_for(model.unit_scale), "scales": scales,
             "probes": list(req.probes)}
+
+
+# -- second order and moving loads (dxf2frame.further) ------------------------------
+
+
+def _run_further(analysis: Analysis, req: SolveRequest) -> None:
+    """The second-order step and the moving loads into ``analysis.further``;
+    their warnings join the model's."""
+    from .further import run_further
+
+    analysis.further = run_further(analysis, req.influence, analysis.model.warnings)
+
+
+def _reported(analysis: Analysis) -> list[CaseResult]:
+    """Results for the report and drawing: none when a combination buckles
+    (never solved into nonsense), else the cases, combinations and the
+    second-order results."""
+    if analysis.buckled is not None:
+        return []
+    return analysis.results + (analysis.further.results if analysis.further is not None else [])
+
+
+def _further_layer_names(analysis: Analysis) -> list[str]:
+    """The buckling, moving and influence layers (kept out of the preview's
+    diagram panels)."""
+    from .draw import further_layer_names
+
+    return list(further_layer_names(analysis.settings.output_layers).values())
+
+
+def _buckling_message(b) -> str:
+    return (f"combination {b.name} buckles: its load reaches the elastic critical load (alpha_cr = "
+            f"{b.alpha_cr:.3g} <= 1); no results, the buckled shape is drawn")
+
+
+def _write_buckled(source: Path, out: Path, analysis: Analysis) -> None:
+    from .draw import write_buckling_drawing
+
+    write_buckling_drawing(source, out, analysis.model, analysis.determinacy, analysis.further.stability,
+                           layers=analysis.settings.output_layers, document=analysis.document)
+
+
+def _further_layers(analysis: Analysis, force_u: str):
+    """The writer's ``extra``: buckled shape, vehicle axles, influence lines."""
+    fu = analysis.further
+    if fu is None or (fu.stability is None and fu.moving is None):
+        return None
+    from .draw import annotate_further
+
+    return lambda doc: annotate_further(doc, analysis.model, fu.stability, fu.moving,
+                                        layers=analysis.settings.output_layers)
+
+
+def _add_further(rep: dict, analysis: Analysis, force_u: str, length_u: str, influence_csv: Path | None) -> None:
+    """The report's "second_order" and "moving" sections; the influence CSV."""
+    fu = analysis.further
+    if fu is None:
+        return
+    from .further import write_influence_csv
+    from .report import unit_factors
+
+    uf = unit_factors(force_u, length_u)
+    fu.add_to_report(rep, analysis.model.frame, uf)
+    if influence_csv is not None and fu.moving is not None and fu.moving.influence:
+        write_influence_csv(fu.moving, influence_csv, uf)
 
 
 def solve_file(source: Path | str, req: SolveRequest) -> FileOutcome:
@@ -757,6 +836,7 @@ def _prepare(source: Path, req: SolveRequest, outcome: FileOutcome) -> _Run:
     digest = _history_digest(source, req, settings)
     analysis = analyse(source, settings, length_unit=req.length_unit)
     model, det = analysis.model, analysis.determinacy
+    _run_further(analysis, req)
     outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
     if req.strict and outcome.warnings:
         raise Dxf2FrameError(strict_message(outcome.warnings))
@@ -787,13 +867,15 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         staged = {k: out_set.staged(p.name) for k, p in paths.items()}
         t0 = time.perf_counter()
         show = req.show or settings.combinations_draw
-        drawn_results, drawn_show = _pattern_drawing(analysis, show)
-        if analysis.stable:
+        if analysis.buckled is not None:
+            _write_buckled(source, staged["drawing"], analysis)
+        elif analysis.stable:
+            drawn_results, drawn_show = _pattern_drawing(analysis, show)
             writer.write_result_drawing(
                 source, staged["drawing"], model, det, drawn_results, show=drawn_show,
                 layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
                 document=analysis.document, drift=settings.drift_options(),
-                **drawing_scale_options(settings, model, req),
+                extra=_further_layers(analysis, force_u), **drawing_scale_options(settings, model, req),
             )
         else:
             writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,
@@ -803,19 +885,21 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         # gone by then, so the two never hold memory at the same time
         t0 = time.perf_counter()
         rep = report_mod.assemble_report(
-            model, det, analysis.results, force_unit=force_u, length_unit=length_u,
+            model, det, _reported(analysis), force_unit=force_u, length_unit=length_u,
             probes=req.probes, deflection_limits=settings.deflection_limits(),
             drift=settings.drift_options(),
         )
         _add_pattern_report(rep, analysis, force_u, length_u)
+        _add_further(rep, analysis, force_u, length_u, staged.get("influence"))
         outcome.warnings += [w for w in rep["warnings"] if w not in outcome.warnings]
-        with_csv = req.csv and analysis.stable
+        with_csv = req.csv and analysis.stable and analysis.buckled is None
         outcome.probe_lines = report_mod.probe_lines(rep)
         report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
         analysis.timings["report"] = time.perf_counter() - t0
         written = ["drawing", "report"] + (["csv"] if with_csv else [])
         written += ["reactions"] if with_csv and report_mod.write_reaction_schedule(rep, staged["reactions"]) else []
         written += _write_storey_csvs(rep, staged) if with_csv else []
+        written += ["influence"] if "influence" in staged and staged["influence"].exists() else []
         if req.png:
             t0 = time.perf_counter()
             drawn = _try_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u,
@@ -823,7 +907,7 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
             analysis.timings["png"] = time.perf_counter() - t0
             if drawn:
                 written.append("png")
-        if req.sheets and analysis.stable:
+        if req.sheets and analysis.stable and analysis.buckled is None:
             from .handcheck import sheets as handcheck
 
             sheet_dir = out_set.staged(f"{paths['drawing'].stem}-sheets")
@@ -832,7 +916,8 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
             written.append("sheets")
             paths["sheets"] = final / sheet_dir.name
             staged["sheets"] = sheet_dir
-        governing = {**_governing(rep), **_storey_checks(rep)} if analysis.stable else {}
+        governing = ({**_governing(rep), **_storey_checks(rep)}
+                     if analysis.stable and analysis.buckled is None else {})
         _pattern_governing(rep, governing)
         committed = out_set.commit({staged[k]: paths[k] for k in written})
     return committed, governing, rep
@@ -845,6 +930,9 @@ def _record(outcome: FileOutcome, analysis: Analysis, governing: dict) -> None:
     if not analysis.stable:
         outcome.status, outcome.exit_code = "unstable", EXIT_UNSTABLE
         outcome.message = one_line(det.detail)
+    elif analysis.buckled is not None:
+        outcome.status, outcome.exit_code = "unstable", EXIT_UNSTABLE
+        outcome.message = _buckling_message(analysis.buckled)
     else:
         for k, v in governing.items():
             setattr(outcome, k, v)

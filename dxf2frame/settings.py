@@ -84,6 +84,16 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     (``moment``, ``shear``, ``axial``) as ``"<value> per <length on the
     drawing>"``, e.g. ``moment = "50 kN*m per m"``; unset: each diagram is
     scaled to the drawing (one scale for all the drawings of a batch).
+``[second_order]``
+    ``analysis``: ``"off"``, ``"check"`` (default: alpha_cr of every
+    strength combination) or ``"p-delta"`` (also a P-Delta analysis of
+    each); ``tolerance`` (1e-8), ``max_iterations`` (50), ``subdivisions``
+    (elements per member, 4).
+``[moving]``
+    ``path_layer`` (a frame layer whose members form one chain, or a layer
+    holding one polyline along members), ``step`` (``"0.25 m"``),
+    ``[[moving.vehicles]]`` with ``name``, ``axles`` (``["40 kN", "25 kN"]``,
+    front first) and ``spacings`` (``["1.6 m"]``).
 
 Layer names are matched case-insensitively, as CAD programs do.  Quantity
 strings are parsed by :mod:`dxf2frame.units`; this module itself does not
@@ -112,6 +122,9 @@ __all__ = [
     "OUTPUT_LAYER_KEYS",
     "STANDARD_CASES",
     "MISSING_SECTIONS_CHOICES",
+    "SECOND_ORDER_CHOICES",
+    "VehicleSpec",
+    "FURTHER_OUTPUT_LAYER_KEYS",
 ]
 
 #: standard load case letters (ASCE/SEI 7): the built-in combinations use them
@@ -121,7 +134,21 @@ STANDARD_CASES: tuple[str, ...] = ("D", "L", "Lr", "S", "R", "W", "E")
 #: relative stiffness (with a warning) or refuse (exit 2)
 MISSING_SECTIONS_CHOICES: tuple[str, ...] = ("equal", "refuse")
 
+#: what the second-order step does: nothing, alpha_cr of every strength
+#: combination (the default), or alpha_cr and a P-Delta analysis of each
+SECOND_ORDER_CHOICES: tuple[str, ...] = ("off", "check", "p-delta")
+
 SETTINGS_FILENAME = "dxf2frame.toml"
+
+
+@dataclass(frozen=True)
+class VehicleSpec:
+    """A vehicle of ``[[moving.vehicles]]`` in SI: ``loads`` [N] front axle
+    first, ``spacings`` [m] between consecutive axles."""
+
+    name: str
+    loads: tuple[float, ...]
+    spacings: tuple[float, ...]
 
 #: convention block names (the kinds), upper case
 BLOCK_KINDS: tuple[str, ...] = (
@@ -144,7 +171,14 @@ DEFAULT_OUTPUT_LAYERS: dict[str, str] = {
     "mechanism": "RESULT-MECHANISM",
     "changes": "RESULT-CHANGES",
     "tags": "RESULT-TAGS",
+    # second order and moving loads
+    "buckling": "RESULT-BUCKLING",
+    "moving": "RESULT-MOVING",
+    "influence": "RESULT-INFLUENCE",
 }
+#: result layers drawn by the second-order and moving-load plumbing
+#: (:mod:`dxf2frame.further`), not by the main result writer
+FURTHER_OUTPUT_LAYER_KEYS: tuple[str, ...] = ("buckling", "moving", "influence")
 OUTPUT_LAYER_KEYS: tuple[str, ...] = tuple(DEFAULT_OUTPUT_LAYERS)
 
 #: any layer starting with this is treated as written by this tool
@@ -160,6 +194,7 @@ _TOP_KEYS = {
     "output_layers", "sections", "combinations", "deflection", "compare", "cases", "analysis",
     "history",
     "drawing",
+    "second_order", "moving",
 }
 # storeys and drift (issue 18)
 _TOP_KEYS = _TOP_KEYS | {"drift", "self_weight", "patterns"}
@@ -217,6 +252,17 @@ class Settings:
         1:N plot (None: automatic), see :meth:`text_height_for`
     diagram_scales : {"moment"|"shear"|"axial": fixed scale in SI units
         (N*m or N) per metre on the drawing}
+    second_order : "off", "check" (alpha_cr of every strength combination,
+        the default) or "p-delta" (also a P-Delta analysis of each)
+    second_order_tolerance, second_order_max_iterations : P-Delta
+        convergence (relative change, dimensionless) and iteration limit
+    second_order_subdivisions : elements per member in the second-order
+        analyses
+    moving_path_layer : layer of the moving-load path (a chain of members
+        on a frame layer, or one polyline on a layer of its own); None: no
+        moving loads
+    moving_step : distance between vehicle positions [m]
+    moving_vehicles : the vehicles (:class:`VehicleSpec`, SI)
     """
 
     force_unit: str = "kN"
@@ -267,6 +313,14 @@ class Settings:
     text_height_plotted: float | None = None          # m on the plotted sheet
     plot_scale: float | None = None                   # N of 1:N
     diagram_scales: Mapping[str, float] = field(default_factory=lambda: _ro({}))   # SI per metre of drawing
+    # second order and moving loads ([second_order], [moving])
+    second_order: str = "check"
+    second_order_tolerance: float = 1e-8
+    second_order_max_iterations: int = 50
+    second_order_subdivisions: int = 4
+    moving_path_layer: str | None = None
+    moving_step: float = 0.25
+    moving_vehicles: tuple[VehicleSpec, ...] = ()
 
     # derived lookups (built once)
     def __post_init__(self) -> None:
@@ -484,6 +538,7 @@ def _build(data: Mapping[str, Any], path: str, source: Path | None) -> Settings:
     _reversible_settings(data, path, kw)
     _pattern_settings(data, path, kw)
     kw.update(_drawing_options(_table(data, "drawing", path), path))
+    kw.update(_second_order_and_moving(data, path))
     return Settings(**kw)
 
 
@@ -922,6 +977,74 @@ def _drawing_options(d: Mapping[str, Any], path: str) -> dict[str, Any]:
         along = _quantity(length, "length", key, path)
         scales[k.lower()] = per / along
     kw["diagram_scales"] = _ro(scales)
+    return kw
+
+
+def _int_in(v: Any, lo: int, hi: int, key: str, path: str) -> int:
+    if isinstance(v, bool) or not isinstance(v, int) or not lo <= v <= hi:
+        raise SettingsError(f"must be an integer {lo}..{hi}, got {v!r}", path=path, key=key)
+    return v
+
+
+def _quantity_list(v: Any, kind: str, key: str, path: str) -> tuple[float, ...]:
+    if not isinstance(v, list):
+        raise SettingsError(f"must be a list of quantities with units (e.g. [\"40 kN\"]), got {v!r}",
+                            path=path, key=key)
+    return tuple(_quantity(x, kind, f"{key}[{i}]", path) for i, x in enumerate(v))
+
+
+def _second_order_and_moving(data: Mapping[str, Any], path: str) -> dict[str, Any]:
+    """Settings fields of ``[second_order]`` and ``[moving]``."""
+    kw: dict[str, Any] = {}
+    so = _table(data, "second_order", path)
+    _check_keys(so, {"analysis", "tolerance", "max_iterations", "subdivisions"}, "second_order", path)
+    if "analysis" in so:
+        a = _str(so["analysis"], "second_order.analysis", path).lower()
+        if a not in SECOND_ORDER_CHOICES:
+            raise SettingsError(f"must be one of {', '.join(SECOND_ORDER_CHOICES)}, got {so['analysis']!r}",
+                                path=path, key="second_order.analysis")
+        kw["second_order"] = a
+    if "tolerance" in so:
+        t = _number(so["tolerance"], "second_order.tolerance", path)
+        if t >= 0.1:
+            raise SettingsError(f"must be below 0.1 (a relative change), got {t!r}", path=path,
+                                key="second_order.tolerance")
+        kw["second_order_tolerance"] = t
+    if "max_iterations" in so:
+        kw["second_order_max_iterations"] = _int_in(so["max_iterations"], 1, 1000, "second_order.max_iterations",
+                                                    path)
+    if "subdivisions" in so:
+        kw["second_order_subdivisions"] = _int_in(so["subdivisions"], 1, 64, "second_order.subdivisions", path)
+
+    mv = _table(data, "moving", path)
+    _check_keys(mv, {"path_layer", "step", "vehicles"}, "moving", path)
+    if "path_layer" in mv:
+        kw["moving_path_layer"] = _str(mv["path_layer"], "moving.path_layer", path)
+    if "step" in mv:
+        kw["moving_step"] = _quantity(mv["step"], "length", "moving.step", path)
+    vehicles = mv.get("vehicles", [])
+    if not isinstance(vehicles, list) or not all(isinstance(v, Mapping) for v in vehicles):
+        raise SettingsError("must be an array of tables ([[moving.vehicles]])", path=path, key="moving.vehicles")
+    specs, names = [], set()
+    for i, v in enumerate(vehicles):
+        key = f"moving.vehicles[{i}]"
+        _check_keys(v, {"name", "axles", "spacings"}, key, path)
+        name = _str(v.get("name", f"vehicle {i + 1}"), f"{key}.name", path)
+        if name.upper() in names:
+            raise SettingsError(f"vehicle name {name!r} used twice", path=path, key=f"{key}.name")
+        names.add(name.upper())
+        loads = _quantity_list(v.get("axles"), "force", f"{key}.axles", path)
+        spacings = _quantity_list(v.get("spacings", []), "length", f"{key}.spacings", path)
+        if not loads or len(spacings) != len(loads) - 1:
+            raise SettingsError(f"{len(loads)} axle(s) need {max(len(loads) - 1, 0)} spacing(s), got "
+                                f"{len(spacings)}", path=path, key=f"{key}.spacings")
+        specs.append(VehicleSpec(name, loads, spacings))
+    kw["moving_vehicles"] = tuple(specs)
+    if specs and "moving_path_layer" not in kw:
+        raise SettingsError("vehicles are given but no path: add path_layer", path=path, key="moving.path_layer")
+    if "moving_path_layer" in kw and not specs:
+        raise SettingsError("a path is given but no vehicle: add [[moving.vehicles]]", path=path,
+                            key="moving.vehicles")
     return kw
 
 

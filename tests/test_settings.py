@@ -90,6 +90,7 @@ def test_defaults():
     assert s.output_layer("moment") == "RESULT-MOMENT"
     assert set(OUTPUT_LAYER_KEYS) == {
         "axial", "shear", "moment", "reactions", "deflected", "notes", "mechanism", "changes", "tags",
+        "buckling", "moving", "influence",
     }
     assert s.combinations_builtin == ("LRFD", "ASD")
     assert s.deflection_limit == 240  # span/240, common practice

@@ -19,6 +19,7 @@ from .style import (
 from .selection import Selection, select_results
 from .labels import LabelPlacer
 from .obstacles import DrawingObstacles, drawing_obstacles, free_spot
+from .further import further_layer_names, annotate_further, write_buckling_drawing
 from .writer import (
     DrawingSummary,
     annotate_results,
@@ -28,6 +29,9 @@ from .writer import (
 )
 
 __all__ = [
+    "further_layer_names",
+    "annotate_further",
+    "write_buckling_drawing",
     "DEFAULT_OUTPUT_LAYERS",
     "LayerStyle",
     "RESULT_LAYER_STYLES",

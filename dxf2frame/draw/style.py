@@ -24,7 +24,7 @@ import numpy as np
 from ezdxf import colors as ezcolors
 from ezdxf.enums import TextEntityAlignment
 
-from ..settings import DEFAULT_OUTPUT_LAYERS as _SETTINGS_OUTPUT_LAYERS
+from ..settings import DEFAULT_OUTPUT_LAYERS as _SETTINGS_OUTPUT_LAYERS, FURTHER_OUTPUT_LAYER_KEYS
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
@@ -36,8 +36,10 @@ __all__ = ["DEFAULT_OUTPUT_LAYERS", "LayerStyle", "RESULT_LAYER_STYLES", "LINETY
 # -- the scheme ----------------------------------------------------------------
 
 #: result layer key -> default layer name (the settings' defaults, less the
-#: comparison layer, which the compare command draws)
-DEFAULT_OUTPUT_LAYERS: dict[str, str] = {k: v for k, v in _SETTINGS_OUTPUT_LAYERS.items() if k != "changes"}
+#: comparison layer, which the compare command draws, and the buckling,
+#: moving-load and influence layers, which :mod:`dxf2frame.further` draws)
+DEFAULT_OUTPUT_LAYERS: dict[str, str] = {k: v for k, v in _SETTINGS_OUTPUT_LAYERS.items()
+                                         if k != "changes" and k not in FURTHER_OUTPUT_LAYER_KEYS}
 
 
 @dataclass(frozen=True)
@@ -79,6 +81,12 @@ RESULT_LAYER_STYLES: dict[str, LayerStyle] = {
     "mechanism": LayerStyle((214, 96, 10), "D2F-DASHDOT", 35, 0.0, "dxf2frame: mechanism modes"),
     # dark slate blue: member tags (the report's member ids)
     "tags": LayerStyle((72, 84, 120), "CONTINUOUS", 18, 0.0, "dxf2frame: member tags (report ids)"),
+    # indigo, dash-dot: buckled shape of the lowest mode (second order)
+    "buckling": LayerStyle((72, 61, 160), "D2F-DASHDOT", 30, 0.0, "dxf2frame: buckled shape (lowest mode)"),
+    # dark olive: vehicle axles at the critical position (moving loads)
+    "moving": LayerStyle((107, 112, 20), "CONTINUOUS", 35, 0.0, "dxf2frame: moving load, critical position"),
+    # steel blue, dashed: influence lines
+    "influence": LayerStyle((40, 96, 160), "D2F-DASH", 25, 0.0, "dxf2frame: influence lines (per unit load)"),
 }
 
 

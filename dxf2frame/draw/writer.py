@@ -48,7 +48,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING, Mapping, Sequence
+from typing import TYPE_CHECKING, Callable, Mapping, Sequence
 
 import numpy as np
 import shapely
@@ -904,6 +904,7 @@ def write_result_drawing(
     text_height: float | None = None,
     scales: Mapping[str, float] | None = None,
     probes: Sequence[tuple[float, float]] = (),
+    extra: "Callable[[Drawing], object] | None" = None,
 ) -> None:
     """Write a copy of ``source`` with the result layers to ``out`` (atomic).
 
@@ -921,6 +922,8 @@ def write_result_drawing(
         and not modified since (the reader's document), to save reading the
         file a second time; it is annotated in place
     text_height, scales, probes : see :func:`annotate_results`
+    extra : optional: draws more result layers into the annotated document
+        before it is saved (the second-order and moving-load layers)
 
     Raises
     ------
@@ -933,6 +936,8 @@ def write_result_drawing(
     annotate_results(doc, model, det, results, show=show, layers=layers,
                      force_unit=force_unit, length_unit=length_unit, drift=drift, text_height=text_height,
                      scales=scales, probes=probes)
+    if extra is not None:
+        extra(doc)
     with atomic_path(out) as tmp:
         doc.saveas(tmp)
 
