@@ -229,3 +229,32 @@ def test_a_save_in_several_steps_is_solved_once(folder):
         assert run.solves_of("shed.dxf") == 1
         # the results in solved/ did not trigger solves of their own
         assert w.solves == 2
+
+
+@pytest.mark.parametrize("signame, code", [("SIGINT", 130), ("SIGTERM", 143)])
+def test_the_command_stops_cleanly_on_a_signal(folder, signame, code):
+    import signal
+    import subprocess
+    import sys
+
+    (folder / "shed.dxf").write_bytes(beam_bytes(10))
+    env = dict(os.environ, MPLBACKEND="Agg")
+    proc = subprocess.Popen([sys.executable, "-m", "dxf2frame", "watch", str(folder), "--no-png"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env)
+    try:
+        out = []
+        end = time.monotonic() + TIMEOUT
+        while time.monotonic() < end:          # the line of the first solve: the loop is running
+            line = proc.stdout.readline()
+            out.append(line)
+            if "shed.dxf  ok" in line or not line:
+                break
+        assert any("shed.dxf  ok" in x for x in out), out
+        proc.send_signal(getattr(signal, signame))
+        assert proc.wait(TIMEOUT) == code
+        assert "watch" in proc.stderr.read()
+        assert not [p for p in (folder / "solved").iterdir() if p.name.startswith(".")]
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait()
