@@ -614,15 +614,61 @@ def _draw_panel(ax, shapes: _Shapes, show, min_text: float, pt_per_unit: float) 
         ax.add_collection(LineCollection(lst, colors=color, linewidths=width,
                                          linestyles="--" if dashed else "solid"), autolim=False)
     fills(False)
+    glyphs: dict[str, list] = {}
     drawn = 0
     for (layer, x, y, h, rot, text, color, ha, va) in shapes.texts:
         if drawn >= _MAX_TEXTS:
             break
         if not show(layer) or h < min_text:
             continue
-        ax.text(x, y, text, fontsize=h * pt_per_unit, rotation=rot, color=color, ha=ha, va=va,
-                rotation_mode="anchor", clip_on=True)
-        drawn += 1
+        path = _text_path(text, h, rot, ha, va, x, y)
+        if path is not None:
+            glyphs.setdefault(color, []).append(path)
+            drawn += 1
+    for color, paths in glyphs.items():
+        ax.add_collection(PathCollection(paths, facecolors=color, edgecolors="none", linewidths=0), autolim=False)
+
+
+#: font size per cap height: DXF text height is the height of a capital letter
+_EM_PER_CAP = 1.0 / 0.72
+_LINE_SPACING = 1.6  # cap heights from one line of MTEXT to the next (common practice for drawing text)
+
+
+def _text_path(text: str, h: float, rot: float, ha: str, va: str, x: float, y: float):
+    """The outline of ``text`` in drawing units: cap height ``h``, turned by
+    ``rot`` degrees about its alignment point ``(x, y)``.  Glyph outlines
+    are cached by matplotlib, so many labels cost little and all of one
+    colour become one collection (no text artist per label)."""
+    from matplotlib.textpath import TextPath
+    from matplotlib.transforms import Affine2D
+
+    lines = [ln for ln in text.splitlines() if ln.strip()] or []
+    if not lines:
+        return None
+    parts = []
+    for k, line in enumerate(lines):
+        try:
+            p = TextPath((0.0, -k * _LINE_SPACING * h), line, size=h * _EM_PER_CAP, prop=_FONT)
+        except Exception:  # noqa: BLE001 - a character the font cannot outline: the label is left out
+            return None
+        if len(p.vertices):
+            parts.append(p)
+    if not parts:
+        return None
+    path = MplPath.make_compound_path(*parts)
+    (x0, y0), (x1, y1) = path.vertices.min(axis=0), path.vertices.max(axis=0)  # control points: close enough
+    dx = {"left": 0.0, "center": -(x0 + x1) / 2, "right": -x1}[ha]
+    dy = {"baseline": 0.0, "bottom": -y0, "center": -(y0 + y1) / 2, "top": -y1}[va]
+    return Affine2D().translate(dx, dy).rotate_deg(rot).translate(x, y).transform_path(path)
+
+
+def _font():
+    from matplotlib.font_manager import FontProperties
+
+    return FontProperties(family="DejaVu Sans")
+
+
+_FONT = _font()
 
 
 def render_panels_png(
@@ -691,6 +737,7 @@ def render_panels_png(
     if footer:
         fig.text(0.01, 0.12 / fig_h, footer, fontsize=9, va="bottom", ha="left", color="#444444")
     buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=dpi, facecolor="white")
+    # light compression: a preview is rewritten on every save in watch
+    fig.savefig(buf, format="png", dpi=dpi, facecolor="white", pil_kwargs={"compress_level": 1})
     write_bytes(png_path, buf.getvalue())
     return scene.notes
