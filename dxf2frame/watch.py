@@ -215,14 +215,10 @@ class Watch:
             return False
         if path in self._files:
             return True
-        if path.parent not in self._folders:
-            return False
-        return not self._is_output_of_any(path)
-
-    def _is_output_of_any(self, path: Path) -> bool:
-        """An output folder (``solved/`` or ``--out``) of the watched drawings."""
-        out = self.request.out
-        return out is not None and Path(out).absolute() == path.parent
+        # the default output folder solved/ is below the watched folder (not
+        # watched); in an --out folder that is watched too, the result
+        # drawings are recognised by name (is_own_output)
+        return path.parent in self._folders
 
     def drawings(self) -> list[Path]:
         """The drawings there now, sorted."""

@@ -258,3 +258,15 @@ def test_the_command_stops_cleanly_on_a_signal(folder, signame, code):
         if proc.poll() is None:
             proc.kill()
             proc.wait()
+
+
+def test_results_written_into_the_watched_folder_do_not_trigger_solves(folder):
+    shed = folder / "shed.dxf"
+    w = Watch([folder], SolveRequest(out=folder, png=False, single=False), stream=io.StringIO(), settle=0.2)
+    with Running(w) as run:
+        save_in_steps(shed, beam_bytes(10))
+        wait_for(lambda: run.solves_of("shed.dxf") == 1 and (folder / "shed-results.json").exists(), "the solve")
+        # a sentinel save: solved after anything the results could have triggered
+        save_in_steps(folder / "other.dxf", beam_bytes(5))
+        wait_for(lambda: run.solves_of("other.dxf") == 1, "the sentinel")
+        assert w.solves == 2 and run.solves_of("shed-results.dxf") == 0
