@@ -51,10 +51,8 @@ def batch_progress(total: int, stream: TextIO) -> Iterator[Callable[[str, str], 
 
     A live bar when ``stream`` is a terminal, else one plain line per file.
     """
-    from rich.console import Console
-
-    console = Console(file=stream, highlight=False, markup=False, emoji=False)
-    if not console.is_terminal:
+    isatty = getattr(stream, "isatty", None)
+    if not (isatty is not None and isatty()):  # a log or a pipe: plain lines, rich not even imported
         done = [0]
 
         def plain(source: str, status: str) -> None:
@@ -65,7 +63,10 @@ def batch_progress(total: int, stream: TextIO) -> Iterator[Callable[[str, str], 
         yield plain
         return
 
+    from rich.console import Console
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+    console = Console(file=stream, highlight=False, markup=False, emoji=False)
 
     with Progress(TextColumn("solving"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
                   TextColumn("{task.fields[last]}"), console=console, transient=False) as bar:
