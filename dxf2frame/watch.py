@@ -252,7 +252,8 @@ class Watch:
     def run(self, stop: threading.Event | None = None, *, ready: threading.Event | None = None) -> int:
         """Watch until ``stop`` is set (or Ctrl-C / SIGTERM, which propagate
         as ``KeyboardInterrupt`` after the observer is stopped).  ``ready``
-        is set once the observer is running.  Returns the number of solves."""
+        is set once the observer is running and the drawings found at start
+        are solved.  Returns the number of solves."""
         from watchdog.events import FileSystemEventHandler
         from watchdog.observers import Observer
 
@@ -274,12 +275,12 @@ class Watch:
             observer.schedule(handler, str(folder), recursive=False)
         observer.start()
         try:
-            if ready is not None:
-                ready.set()
             debounce = Debouncer(self.settle)
             if self.initial:
                 for p in self.drawings():
                     self.solve(p)
+            if ready is not None:
+                ready.set()
             stop = stop or threading.Event()
             while not stop.is_set():
                 try:

@@ -49,7 +49,6 @@ def save_in_steps(path: Path, data: bytes, steps: int = 3) -> None:
         for i in range(steps):
             f.write(data[i * k: len(data) if i == steps - 1 else (i + 1) * k])
             f.flush()
-            os.fsync(f.fileno())
     os.utime(path)
 
 

@@ -22,19 +22,15 @@ from __future__ import annotations
 
 import io
 import math
+from functools import lru_cache
 from pathlib import Path
 from typing import Iterable
 
 import ezdxf
 import numpy as np
 from ezdxf import bbox
-from ezdxf.addons.drawing import Frontend, RenderContext
-from ezdxf.addons.drawing.config import BackgroundPolicy, Configuration
-from ezdxf.addons.drawing.matplotlib import MatplotlibBackend
-from ezdxf.npshapes import to_matplotlib_path
 from matplotlib.collections import PathCollection
 from matplotlib.path import Path as MplPath
-from ezdxf.addons.drawing.properties import LayoutProperties
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
@@ -77,6 +73,12 @@ def render_doc_png(
     layers : when given, only entities on these layers are drawn (names
         compared case-insensitively); otherwise every visible layer.
     """
+    # ezdxf's drawing add-on imports pyplot: loaded only for this whole-drawing render
+    from ezdxf.addons.drawing import Frontend, RenderContext
+    from ezdxf.addons.drawing.config import BackgroundPolicy, Configuration
+    from ezdxf.addons.drawing.matplotlib import MatplotlibBackend
+    from ezdxf.addons.drawing.properties import LayoutProperties
+
     msp = doc.modelspace()
     keep = {name.upper() for name in layers} if layers is not None else None
 
@@ -93,7 +95,7 @@ def render_doc_png(
     config = Configuration(background_policy=BackgroundPolicy.WHITE)
     layout_properties = LayoutProperties.from_layout(msp)
     layout_properties.set_colors("#ffffff")
-    backend = _QuickBackend(ax) if box is not None else MatplotlibBackend(ax)
+    backend = _quick_backend_class()(ax) if box is not None else MatplotlibBackend(ax)
     frontend = Frontend(ctx, backend, config)
     if box is not None:
         span = max(box[2] - box[0], box[3] - box[1])
@@ -121,62 +123,71 @@ def render_doc_png(
     return bounded.notes
 
 
-class _QuickBackend(MatplotlibBackend):
-    """Matplotlib backend that collects what the frontend draws and adds it
-    as a few collections at the end instead of one artist per primitive
-    (one artist each is most of the time of a big drawing).
+@lru_cache(maxsize=1)
+def _quick_backend_class():
+    """The collecting backend (defined on first use: its base class comes
+    from ezdxf's drawing add-on, which imports pyplot)."""
+    from ezdxf.addons.drawing.matplotlib import MatplotlibBackend
+    from ezdxf.npshapes import to_matplotlib_path
 
-    Drawing order: translucent fills (the diagram hatches), then lines and
-    outlines, then opaque fills (text glyphs, arrow heads, solids), then
-    points.  The caller sets the axes limits from the drawing's extents.
-    """
+    class _QuickBackend(MatplotlibBackend):
+        """Matplotlib backend that collects what the frontend draws and adds it
+        as a few collections at the end instead of one artist per primitive
+        (one artist each is most of the time of a big drawing).
 
-    def __init__(self, ax, **kwargs) -> None:
-        super().__init__(ax, **kwargs)
-        self._lines: dict[tuple, list] = {}
-        self._fills: dict[str, list] = {}
-        self._points: dict[str, list] = {}
+        Drawing order: translucent fills (the diagram hatches), then lines and
+        outlines, then opaque fills (text glyphs, arrow heads, solids), then
+        points.  The caller sets the axes limits from the drawing's extents.
+        """
 
-    def draw_point(self, pos, properties) -> None:
-        self._points.setdefault(properties.color, []).append((pos.x, pos.y))
+        def __init__(self, ax, **kwargs) -> None:
+            super().__init__(ax, **kwargs)
+            self._lines: dict[tuple, list] = {}
+            self._fills: dict[str, list] = {}
+            self._points: dict[str, list] = {}
 
-    def draw_line(self, start, end, properties) -> None:
-        key = (properties.color, self.get_lineweight(properties))
-        self._lines.setdefault(key, []).append(MplPath([(start.x, start.y), (end.x, end.y)]))
+        def draw_point(self, pos, properties) -> None:
+            self._points.setdefault(properties.color, []).append((pos.x, pos.y))
 
-    def draw_solid_lines(self, lines, properties) -> None:
-        key = (properties.color, self.get_lineweight(properties))
-        bucket = self._lines.setdefault(key, [])
-        for s, e in lines:
-            bucket.append(MplPath([(s.x, s.y), (e.x, e.y)]))
+        def draw_line(self, start, end, properties) -> None:
+            key = (properties.color, self.get_lineweight(properties))
+            self._lines.setdefault(key, []).append(MplPath([(start.x, start.y), (end.x, end.y)]))
 
-    def draw_path(self, path, properties) -> None:
-        key = (properties.color, self.get_lineweight(properties))
-        self._lines.setdefault(key, []).append(to_matplotlib_path([path]))
+        def draw_solid_lines(self, lines, properties) -> None:
+            key = (properties.color, self.get_lineweight(properties))
+            bucket = self._lines.setdefault(key, [])
+            for s, e in lines:
+                bucket.append(MplPath([(s.x, s.y), (e.x, e.y)]))
 
-    def draw_filled_paths(self, paths, properties) -> None:
-        self._fills.setdefault(properties.color, []).append(to_matplotlib_path(paths, detect_holes=True))
+        def draw_path(self, path, properties) -> None:
+            key = (properties.color, self.get_lineweight(properties))
+            self._lines.setdefault(key, []).append(to_matplotlib_path([path]))
 
-    def draw_filled_polygon(self, points, properties) -> None:
-        xy = [(p.x, p.y) for p in points.vertices()]
-        if len(xy) >= 3:
-            self._fills.setdefault(properties.color, []).append(MplPath(xy + [xy[0]], closed=True))
+        def draw_filled_paths(self, paths, properties) -> None:
+            self._fills.setdefault(properties.color, []).append(to_matplotlib_path(paths, detect_holes=True))
 
-    def finalize(self) -> None:
-        def fills(translucent: bool) -> None:
-            for color, paths in self._fills.items():
-                if (len(color) == 9 and color[7:].lower() != "ff") == translucent:
-                    self.ax.add_collection(PathCollection(paths, facecolors=color, edgecolors="none",
-                                                          linewidths=0), autolim=False)
+        def draw_filled_polygon(self, points, properties) -> None:
+            xy = [(p.x, p.y) for p in points.vertices()]
+            if len(xy) >= 3:
+                self._fills.setdefault(properties.color, []).append(MplPath(xy + [xy[0]], closed=True))
 
-        fills(True)
-        for (color, lw), paths in self._lines.items():
-            self.ax.add_collection(PathCollection(paths, facecolors="none", edgecolors=color,
-                                                  linewidths=lw), autolim=False)
-        fills(False)
-        for color, pts in self._points.items():
-            self.ax.scatter(*zip(*pts), s=0.1, c=color)
-        super().finalize()
+        def finalize(self) -> None:
+            def fills(translucent: bool) -> None:
+                for color, paths in self._fills.items():
+                    if (len(color) == 9 and color[7:].lower() != "ff") == translucent:
+                        self.ax.add_collection(PathCollection(paths, facecolors=color, edgecolors="none",
+                                                              linewidths=0), autolim=False)
+
+            fills(True)
+            for (color, lw), paths in self._lines.items():
+                self.ax.add_collection(PathCollection(paths, facecolors="none", edgecolors=color,
+                                                      linewidths=lw), autolim=False)
+            fills(False)
+            for color, pts in self._points.items():
+                self.ax.scatter(*zip(*pts), s=0.1, c=color)
+            super().finalize()
+
+    return _QuickBackend
 
 
 #: coordinates beyond this [drawing units] are no drawing's content (the
