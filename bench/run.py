@@ -65,6 +65,14 @@ TARGETS: tuple[tuple[str, str, float, str], ...] = (
     ("growth_5000_20000", "time growth 5k -> 20k members", 4.5, "<="),
     ("batch_speedup", "batch speed-up, 2 workers vs 1", 1.7, ">="),
     ("peak_mib_20000", "peak memory at 20,000 members [MiB]", 1024.0, "<"),
+    # the live loop and the whole job (issue 19): medians
+    ("ratio_nopng_5000", "solve --no-png / ezdxf floor at 5,000 members (median)", 1.5, "<="),
+    ("ratio_png_5000", "solve with preview / ezdxf floor at 5,000 members (median)", 2.0, "<="),
+    ("preview_s_5000", "preview of the 5,000-member frame [s] (median)", 1.0, "<"),
+    ("warm_s", "warm re-solve of the demo in watch, no preview [s] (median)", 0.5, "<"),
+    ("warm_png_s", "warm re-solve of the demo in watch, with preview [s] (median)", 1.0, "<"),
+    ("cold_png_s", "cold solve of the demo with preview, whole command [s] (median)", 2.0, "<"),
+    ("demo_batch_speedup", "batch of 12 demo drawings, 2 workers vs 1 (medians)", 1.6, ">="),
 )
 
 PYTHON = sys.executable
@@ -208,6 +216,48 @@ def _child_floor(path: Path, out: Path) -> dict:
             "peak_mib": _maxrss_mib()}
 
 
+def _child_solve_png(path: Path, out: Path) -> dict:
+    """One default ``solve`` (preview included), imports before the clock."""
+    from dxf2frame import pipeline
+    from dxf2frame.draw import preview, writer  # noqa: F401
+    from dxf2frame.pipeline import SolveRequest
+    from dxf2frame.report import report  # noqa: F401
+
+    req = SolveRequest(out=out, png=True, csv=True, sheets=False)
+    t0 = time.perf_counter()
+    outcome = pipeline.solve_file(path, req)
+    total = time.perf_counter() - t0
+    return {"seconds": total, "status": outcome.status, "message": outcome.message[:300],
+            "png_s": outcome.timings.get("png"), "pipeline_timings": dict(outcome.timings),
+            "png_written": any(p.endswith(".png") for p in outcome.outputs), "peak_mib": _maxrss_mib()}
+
+
+def _child_warm(path: Path, out: Path, repeat: int) -> dict:
+    """Re-solves of one drawing in one warm process, as ``watch`` does them
+    (:meth:`dxf2frame.watch.Watch.solve`): a first solve warms the process
+    (not timed, as watch's start-up solve), then ``repeat`` timed solves
+    without and with the preview, alternating."""
+    import io
+
+    from dxf2frame.pipeline import SolveRequest
+    from dxf2frame.watch import Watch
+
+    loops = {png: Watch([path], SolveRequest(out=out / ("png" if png else "nopng"), png=png, single=False),
+                        stream=io.StringIO()) for png in (False, True)}
+    for w in loops.values():
+        w.solve(path.absolute())
+    runs: dict[bool, list[float]] = {False: [], True: []}
+    statuses = set()
+    for _ in range(repeat):
+        for png, w in loops.items():
+            t0 = time.perf_counter()
+            o = w.solve(path.absolute())
+            runs[png].append(time.perf_counter() - t0)
+            statuses.add(o.status)
+    return {"seconds": sum(runs[False]) + sum(runs[True]), "runs_s": runs[False], "runs_png_s": runs[True],
+            "statuses": sorted(statuses)}
+
+
 def _child_solve(path: Path, out: Path, timed: bool = False) -> dict:
     """One ``solve``; with ``timed`` the stage timers are installed (they
     cost time of their own, so the solve time of record comes from untimed runs)."""
@@ -286,6 +336,10 @@ def _child(argv: list[str]) -> None:
         res = _child_floor(Path(argv[1]), Path(argv[2]))
     elif kind in ("solve", "split"):
         res = _child_solve(Path(argv[1]), Path(argv[2]), timed=kind == "split")
+    elif kind == "solve-png":
+        res = _child_solve_png(Path(argv[1]), Path(argv[2]))
+    elif kind == "warm":
+        res = _child_warm(Path(argv[1]), Path(argv[2]), int(argv[3]))
     elif kind == "batch":
         res = _child_batch(Path(argv[1]), int(argv[2]), Path(argv[3]))
     elif kind == "ceiling":
@@ -322,7 +376,7 @@ def _measure_size(spec: FrameSpec, work: Path, repeat: int, log: Callable[[str],
         t0 = time.perf_counter()
         write_frame(spec, drawing)
         log(f"  generated in {time.perf_counter() - t0:.1f} s")
-    floors, solves = [], []
+    floors, solves, pngs = [], [], []
     for k in range(repeat):
         floors.append(_spawn(["floor", str(drawing), str(folder / "floor-copy.dxf")]))
         log(f"  floor  run {k + 1}/{repeat}: {floors[-1]['seconds']:.2f} s")
@@ -331,6 +385,9 @@ def _measure_size(spec: FrameSpec, work: Path, repeat: int, log: Callable[[str],
         log(f"  solve  run {k + 1}/{repeat}: {s['seconds']:.2f} s ({s['status']}), peak {s['peak_mib']:.0f} MiB")
         if s["status"] != "ok":
             raise RuntimeError(f"solve of {drawing} ended {s['status']}: {s['message']}")
+        pngs.append(_spawn(["solve-png", str(drawing), str(folder / "solved-png")]))
+        log(f"  solve with preview run {k + 1}/{repeat}: {pngs[-1]['seconds']:.2f} s "
+            f"(preview {pngs[-1]['png_s'] or 0:.2f} s)")
     # the split by stage comes from one more run with timers around the
     # stages; the timers cost time of their own, so it is not the time of record
     split = _spawn(["split", str(drawing), str(folder / "solved")])
@@ -351,7 +408,75 @@ def _measure_size(spec: FrameSpec, work: Path, repeat: int, log: Callable[[str],
         "floor_peak_mib": max(f["peak_mib"] for f in floors),
         "repeats": repeat, "floor_runs_s": [f["seconds"] for f in floors],
         "solve_runs_s": [s["seconds"] for s in solves],
+        **_medians(floors, solves, pngs),
     }
+
+
+def _median(values: list[float]) -> float:
+    v = sorted(values)
+    n = len(v)
+    return v[n // 2] if n % 2 else 0.5 * (v[n // 2 - 1] + v[n // 2])
+
+
+def _medians(floors: list[dict], solves: list[dict], pngs: list[dict]) -> dict:
+    """Median figures of the runs (on a shared machine the median says more than the best run)."""
+    floor = _median([f["seconds"] for f in floors])
+    nopng = _median([s["seconds"] for s in solves])
+    png = _median([p["seconds"] for p in pngs])
+    return {"floor_median_s": floor, "solve_median_s": nopng, "ratio_median": nopng / floor,
+            "solve_png_median_s": png, "ratio_png_median": png / floor,
+            "preview_median_s": _median([p["png_s"] or 0.0 for p in pngs]),
+            "solve_png_runs_s": [p["seconds"] for p in pngs], "preview_runs_s": [p["png_s"] for p in pngs]}
+
+
+DEMO = ROOT / "drawings" / "packing-shed-rev-A.dxf"
+
+
+def _measure_loop(work: Path, repeat: int, demo_batch: int, log: Callable[[str], None]) -> dict:
+    """The live loop and the small-drawing figures on the demo drawing:
+    warm re-solves (as in watch), the cold command with its preview, and a
+    batch of ``demo_batch`` demo drawings with 1 and 2 workers."""
+    import shutil
+
+    folder = work / "loop"
+    folder.mkdir(parents=True, exist_ok=True)
+    shutil.copy(DEMO.parent / "dxf2frame.toml", folder / "dxf2frame.toml")
+    demo = folder / DEMO.name
+    shutil.copy(DEMO, demo)
+    warm = _spawn(["warm", str(demo), str(folder / "warm-out"), str(max(3, repeat))])
+    log(f"loop: warm re-solve median {_median(warm['runs_s']):.3f} s, with preview "
+        f"{_median(warm['runs_png_s']):.3f} s")
+    cold = []
+    for k in range(max(3, repeat)):
+        t0 = time.perf_counter()
+        proc = subprocess.run([PYTHON, "-m", "dxf2frame", "solve", str(demo), "--out", str(folder / "cold-out")],
+                              capture_output=True, text=True, cwd=str(ROOT),
+                              env=dict(os.environ, MPLBACKEND="Agg"))
+        cold.append(time.perf_counter() - t0)
+        if proc.returncode != 0:
+            raise RuntimeError(f"cold solve of the demo failed: {proc.stderr[-2000:]}")
+        log(f"loop: cold solve with preview run {k + 1}: {cold[-1]:.2f} s")
+    res = {"warm_s": _median(warm["runs_s"]), "warm_png_s": _median(warm["runs_png_s"]),
+           "warm_runs_s": warm["runs_s"], "warm_png_runs_s": warm["runs_png_s"], "warm_statuses": warm["statuses"],
+           "cold_png_s": _median(cold), "cold_runs_s": cold}
+    if demo_batch > 0:
+        bfolder = folder / f"batch-{demo_batch}"
+        bfolder.mkdir(exist_ok=True)
+        shutil.copy(DEMO.parent / "dxf2frame.toml", bfolder / "dxf2frame.toml")
+        revs = sorted(DEMO.parent.glob("packing-shed-rev-*.dxf"))
+        for i in range(demo_batch):
+            shutil.copy(revs[i % len(revs)], bfolder / f"shed-{i + 1:02d}.dxf")
+        runs: dict[int, list[float]] = {1: [], 2: []}
+        for k in range(max(3, repeat)):
+            for w in (1, 2):
+                r = _spawn(["batch", str(bfolder), str(w), str(folder / f"batch-out-{w}")])
+                runs[w].append(r["seconds"])
+                log(f"loop: batch of {demo_batch} demo drawings, {w} worker(s), run {k + 1}: {r['seconds']:.2f} s "
+                    f"({r['ok']} ok)")
+        res["demo_batch"] = {"files": demo_batch, "workers_1_s": _median(runs[1]), "workers_2_s": _median(runs[2]),
+                             "speedup": _median(runs[1]) / _median(runs[2]), "runs_1_s": runs[1],
+                             "runs_2_s": runs[2], "machine_ceiling": _spawn(["ceiling"])["speedup"]}
+    return res
 
 
 def _growth(sizes: list[dict], a: int, b: int) -> dict | None:
@@ -372,7 +497,14 @@ def _targets(res: dict) -> list[dict]:
         "growth_5000_20000": res["growth"]["time_ratio"] if res.get("growth") else None,
         "batch_speedup": res["batch"]["speedup"] if res.get("batch") else None,
         "peak_mib_20000": sizes[20000]["peak_mib"] if 20000 in sizes else None,
+        "ratio_nopng_5000": sizes[5000]["ratio_median"] if 5000 in sizes else None,
+        "ratio_png_5000": sizes[5000]["ratio_png_median"] if 5000 in sizes else None,
+        "preview_s_5000": sizes[5000]["preview_median_s"] if 5000 in sizes else None,
     }
+    loop = res.get("loop") or {}
+    for key in ("warm_s", "warm_png_s", "cold_png_s"):
+        values[key] = loop.get(key)
+    values["demo_batch_speedup"] = (loop.get("demo_batch") or {}).get("speedup")
     out = []
     for key, text, limit, sense in TARGETS:
         v = values[key]
@@ -404,6 +536,8 @@ def run(
     repeat_large: int = 1,
     batch_repeat: int = 1,
     workdir: Path | None = None,
+    loop: bool = True,
+    demo_batch: int = 12,
     log: Callable[[str], None] = lambda s: None,
 ) -> dict:
     """Run the benchmark and return the results dict (see ``bench/README.md``).
@@ -416,6 +550,8 @@ def run(
     batch_repeat : runs of each batch figure (1 and 2 workers alternate; best kept)
     workdir : where drawings and outputs go (default: a temporary folder,
         removed afterwards); an existing drawing there is reused
+    loop : measure the live loop on the demo drawing (warm re-solves as in
+        watch, the cold command, a batch of ``demo_batch`` demo drawings)
     """
     started = time.strftime("%Y-%m-%dT%H:%M:%S")
     tmp = None
@@ -456,6 +592,7 @@ def run(
                             "machine_ceiling": ceiling["speedup"]}
         else:
             res["batch"] = None
+        res["loop"] = _measure_loop(workdir, repeat, demo_batch, log) if loop else None
         res["targets"] = _targets(res)
         res["seconds"] = time.perf_counter() - t_all
         return res
@@ -495,6 +632,22 @@ def format_table(res: dict) -> str:
         lines += [f"batch of {b['files']} x {b['members']} members: 1 worker {b['workers_1_s']:.2f} s, "
                   f"2 workers {b['workers_2_s']:.2f} s, speed-up x{b['speedup']:.2f} "
                   f"(this machine's ceiling on a trivial CPU-bound task: x{b['machine_ceiling']:.2f})"]
+    rows = [s for s in res["sizes"] if "ratio_png_median" in s]
+    if rows:
+        lines += ["", "medians: members  floor s  --no-png s (ratio)  with preview s (ratio)  preview s"]
+        for s in rows:
+            lines.append(f"  {s['members']:>7}  {s['floor_median_s']:7.2f}  {s['solve_median_s']:7.2f} "
+                         f"({s['ratio_median']:.2f})      {s['solve_png_median_s']:7.2f} ({s['ratio_png_median']:.2f})"
+                         f"        {s['preview_median_s']:.2f}")
+    lp = res.get("loop")
+    if lp:
+        lines += [f"live loop (demo, medians): warm re-solve {lp['warm_s']:.3f} s, with preview "
+                  f"{lp['warm_png_s']:.3f} s; cold solve with preview {lp['cold_png_s']:.2f} s"]
+        db = lp.get("demo_batch")
+        if db:
+            lines += [f"batch of {db['files']} demo drawings: 1 worker {db['workers_1_s']:.2f} s, 2 workers "
+                      f"{db['workers_2_s']:.2f} s, speed-up x{db['speedup']:.2f} (machine ceiling "
+                      f"x{db['machine_ceiling']:.2f})"]
     lines += ["", "targets:"]
     for t in res["targets"]:
         v = "n/a" if t["value"] is None else f"{t['value']:.2f}"
@@ -533,6 +686,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--repeat-large", type=int, default=1, help="runs per size of 10,000 members or more")
     ap.add_argument("--quick", action="store_true", help="tiny run: 2 bays x 3 storeys, batch of 2, one run")
     ap.add_argument("--workdir", type=Path, default=None, help="keep drawings and outputs here (reused)")
+    ap.add_argument("--no-loop", action="store_true", help="skip the live-loop figures on the demo drawing")
+    ap.add_argument("--demo-batch", type=int, default=12, help="demo drawings in the small batch figure (0: skip)")
     ap.add_argument("--out", type=Path, default=None,
                     help="results file (default bench/results.json; --quick writes none unless given)")
     ap.add_argument("--moving", action="store_true",
@@ -548,7 +703,8 @@ def main(argv: list[str] | None = None) -> int:
         batch, bm, rep = a.batch, a.batch_members, a.repeat
     res = run(sizes, batch=batch, batch_members=bm, repeat=rep, repeat_large=a.repeat_large,
               batch_repeat=1 if a.quick else a.batch_repeat,
-              workdir=a.workdir, log=lambda s: print(s, file=sys.stderr, flush=True))
+              workdir=a.workdir, loop=not a.no_loop, demo_batch=0 if a.quick else a.demo_batch,
+              log=lambda s: print(s, file=sys.stderr, flush=True))
     print(format_table(res))
     out = a.out if a.out is not None else (None if a.quick else HERE / "results.json")
     if out is not None:

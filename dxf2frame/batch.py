@@ -15,6 +15,7 @@ from concurrent.futures.process import BrokenProcessPool
 from pathlib import Path
 from typing import Callable, Iterable
 
+from .console import batch_progress, render_table
 from .errors import InputFileError, one_line
 from .numbers import summary_value
 from .pipeline import (EXIT_BAD_INPUT, EXIT_CANNOT_WRITE, EXIT_INTERNAL, EXIT_OK, EXIT_UNSTABLE, FileOutcome,
@@ -346,10 +347,7 @@ def summary_table(outcomes: list[FileOutcome]) -> str:
             str(len(o.warnings)),
             f"{o.seconds:.2f}",
         ])
-    widths = [max(len(r[i]) for r in [head] + rows) for i in range(len(head))]
-    line = lambda r: "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip()  # noqa: E731
-    table = "\n".join([line(head), line(["-" * w for w in widths])] + [line(r) for r in rows])
-    return table + _checks_note(outcomes)
+    return render_table(head, rows) + _checks_note(outcomes)
 
 
 def _drift_cell(o: FileOutcome) -> str:
@@ -378,14 +376,13 @@ def run_batch(files: list[Path], req: SolveRequest, *, workers: int | None = Non
     single = len(files) == 1
     t0 = time.perf_counter()
 
-    def progress(out: FileOutcome, k: int, n: int) -> None:
-        if single:
-            return
-        bar = "#" * int(20 * k / n)
-        print(f"[{bar:<20}] {k}/{n}  {Path(out.source).name}: {out.status}", file=err, flush=True)
-
     try:
-        outcomes = solve_many(files, req, workers=workers, scheduler=scheduler, on_done=progress)
+        with batch_progress(len(files), err) as advance:
+            def progress(out: FileOutcome, k: int, n: int) -> None:
+                if not single:
+                    advance(out.source, out.status)
+
+            outcomes = solve_many(files, req, workers=workers, scheduler=scheduler, on_done=progress)
     except BatchInterrupted as stop:
         return _report_interrupted(stop, stream, err, time.perf_counter() - t0)
     for o in outcomes:

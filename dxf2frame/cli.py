@@ -43,6 +43,16 @@ def _probe(text: str) -> tuple[float, float]:
     return x, y
 
 
+def _seconds(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"takes seconds, got {text!r}") from None
+    if not (math.isfinite(v) and 0 <= v <= 60):
+        raise argparse.ArgumentTypeError(f"takes 0 to 60 seconds, got {text!r}")
+    return v
+
+
 def _units(text: str) -> tuple[str, str]:
     """``--units FORCE,LENGTH`` of every command: two known units of the right kind."""
     from .units import force_length_units
@@ -177,6 +187,36 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--scheduler", metavar="ADDRESS",
                    help="run the batch on a Dask distributed scheduler (needs the 'dask' extra)")
     _history_flag(p)
+    _strict(p)
+    _common(p)
+
+    p = sub.add_parser(
+        "watch", formatter_class=fmt, epilog=EPILOG,
+        help="re-solve drawings each time they are saved (the live loop beside CAD)",
+        description=textwrap.dedent("""\
+            Watch folders (every .dxf directly in them) or single drawings and solve
+            a drawing each time it is saved: result drawing, report and preview are
+            replaced as one set, so CAD reloading the result never sees half a file.
+            One line per solve: file, status, warnings, governing values and the
+            change since the last solve. A broken save prints its error and keeps
+            the previous results. Runs until Ctrl-C.
+
+            examples:
+              dxf2frame watch drawings
+              dxf2frame watch shed.dxf --no-png --settle 0.5"""),
+    )
+    p.add_argument("targets", nargs="+", metavar="FOLDER_OR_FILE", help="folders and/or DXF files to watch")
+    p.add_argument("--out", type=Path, metavar="FOLDER",
+                   help="folder for the results (default: 'solved' beside each drawing)")
+    p.add_argument("--units", type=_units, metavar="FORCE,LENGTH",
+                   help="units of the report, e.g. kN,m or kip,ft (default: settings force unit, drawing unit)")
+    p.add_argument("--show", metavar="NAME", help="what to draw (as for solve; default from settings)")
+    p.add_argument("--no-png", action="store_true", help="skip the PNG preview (faster)")
+    p.add_argument("--settle", type=_seconds, default=0.3, metavar="SECONDS",
+                   help="a drawing is solved once it has been quiet (no change of size or time) this long "
+                        "(default 0.3)")
+    p.add_argument("--changes-only", action="store_true",
+                   help="do not solve the drawings found at start, only those saved afterwards")
     _strict(p)
     _common(p)
 

@@ -11,7 +11,7 @@ from pathlib import Path
 from . import CAUTION
 from .errors import one_line
 
-__all__ = ["run_check", "run_solve", "run_compare", "run_explain", "run_template", "run_history"]
+__all__ = ["run_check", "run_solve", "run_compare", "run_explain", "run_template", "run_history", "run_watch"]
 
 
 def _say(*lines: str) -> None:
@@ -373,4 +373,25 @@ def run_history(args, *, stream=None) -> int:
     if args.png is not None:
         out = write_trend_png(view, args.trend, quantity, values, unit, Path(args.png))
         print(f"wrote {out}", file=stream)
+    return 0
+
+
+def run_watch(args) -> int:
+    """The ``watch`` command: solve each drawing when it is saved, until
+    Ctrl-C (exit 130) or SIGTERM (exit 143)."""
+    import sys
+
+    from .watch import Watch, describe_targets, watch_request
+
+    req = watch_request(args)
+    w = Watch([Path(t) for t in args.targets], req, settle=args.settle, initial=not args.changes_only)
+    _say(describe_targets(w.targets, req), CAUTION)
+    try:
+        w.run()
+    except KeyboardInterrupt as exc:  # Ctrl-C, or SIGTERM as staging.Terminated
+        code = getattr(exc, "exit_code", 130)
+        why = "terminated" if code == 143 else "stopped"
+        print(f"dxf2frame: watch {why} after {w.solves} solve(s); the results written are complete",
+              file=sys.stderr)
+        return code
     return 0

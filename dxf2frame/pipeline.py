@@ -599,8 +599,9 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
     from .draw import preview
     from .draw.style import result_layer_names
 
+    source = analysis.document if analysis.document is not None else drawing  # drawn in memory, not re-read
     if not analysis.stable or analysis.buckled is not None:
-        return preview.render_png(drawing, png)
+        return preview.render_panels_png(source, png, [("", [])])
     names = result_layer_names(analysis.settings.output_layers)
     loads = analysis.settings.layer("loads")
     panels = [
@@ -613,7 +614,7 @@ def _render_preview(drawing: Path, png: Path, analysis: Analysis, show: str,
         panels = panels[:1]
     hide = list(names.values()) + [loads] + _further_layer_names(analysis)
     footer = f"{analysis.model.source.name}: showing {show}. {CAUTION}"
-    return preview.render_panels_png(drawing, png, panels, hide=hide, footer=footer)
+    return preview.render_panels_png(source, png, panels, hide=hide, footer=footer)
 
 
 def _try_preview(drawing: Path, png: Path, analysis: Analysis, show: str, force_u: str, length_u: str,
