@@ -128,6 +128,13 @@ class _Setup:
     model: FrameModel
     loads: LoadVectors
     C: np.ndarray  # (m_ref, 6, 6) condensation map of the refined elements
+    fact: object = None  # the refined frame's K factorised, shared by the combinations
+
+    def factorised(self):
+        """The refined frame's elastic stiffness, factorised once."""
+        if self.fact is None:
+            self.fact = factorise(self.model)
+        return self.fact
 
 
 @dataclass(eq=False)
@@ -142,6 +149,7 @@ class _Prepared:
     model: FrameModel
     cases: LoadVectors
     C: np.ndarray
+    fact: object = None  # K of the refined frame factorised (first use), the same for every combination
 
 
 def _prepare(frame: Frame, subdivisions: int) -> _Prepared:
@@ -159,8 +167,10 @@ def _setup(frame: Frame, factors, name: str | None, subdivisions: int,
     prep = prep if prep is not None else _prepare(frame, subdivisions)
     fac = _factors(frame, factors)
     label = name if name is not None else (format_combination(fac) or "0")
+    if prep.fact is None:
+        prep.fact = factorise(prep.model)  # K does not depend on the combination: one factorisation
     return _Setup(label, fac, prep.model0, prep.cases0.combined(fac, label), prep.refined, prep.model,
-                  prep.cases.combined(fac, label), prep.C)
+                  prep.cases.combined(fac, label), prep.C, prep.fact)
 
 
 def _combos(combinations) -> list[tuple[str, dict]]:
@@ -187,7 +197,7 @@ def _kg_local(st: _Setup, N: np.ndarray) -> np.ndarray:
 
 def _first_order(st: _Setup) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(U, dl, fe) of the refined frame under the combination, linear."""
-    fact = factorise(st.model)
+    fact = st.factorised()
     U = displacements(st.model, fact, st.loads)
     dl, fe = member_end_forces(st.model, U, st.loads.f0)
     return U, dl, fe
@@ -274,7 +284,7 @@ def _critical(st: _Setup, N: np.ndarray, modes: int) -> tuple[np.ndarray, np.nda
     model = st.model
     Kg = assemble(model, _kg_local(st, N))
     idx = model.free_idx
-    fact = factorise(model)
+    fact = st.factorised()
     A = (-Kg)[idx][:, idx].tocsc()
     if not len(idx) or abs(A).max() == 0.0:
         return np.array([math.inf]), None
