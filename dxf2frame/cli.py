@@ -215,6 +215,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--settle", type=_seconds, default=0.3, metavar="SECONDS",
                    help="a drawing is solved once it has been quiet (no change of size or time) this long "
                         "(default 0.3)")
+    p.add_argument("--history", action=argparse.BooleanOptionalAction, default=True,
+                   help="record each solve in the revision history of the drawing's folder "
+                        "(on by default in watch; --no-history turns it off)")
     p.add_argument("--changes-only", action="store_true",
                    help="do not solve the drawings found at start, only those saved afterwards")
     _strict(p)

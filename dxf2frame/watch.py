@@ -119,10 +119,13 @@ def is_own_output(path: Path) -> bool:
 def watch_request(args) -> SolveRequest:
     """The :class:`SolveRequest` of ``watch`` from parsed arguments (one
     place, so that switches of the solve, e.g. recording a history, are added
-    here).  ``--out`` is always a folder in watch."""
+    here).  ``--out`` is always a folder in watch.  The revision history is
+    recorded by default (``--no-history`` turns it off): a drafter saving
+    revision after revision gets their trend for free."""
     return SolveRequest(
         out=args.out, units=args.units, show=args.show, png=not args.no_png,
         settings_path=args.settings, length_unit=args.length_unit, single=False, strict=args.strict,
+        history=getattr(args, "history", True),
     )
 
 

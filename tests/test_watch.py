@@ -133,6 +133,9 @@ def test_watch_request_is_built_from_the_command_line():
     req = watch_request(args)
     assert req.png is False and req.units == ("kN", "m") and req.single is False
     assert args.settle == 0.5
+    assert req.history is True  # watch records the revision history by default
+    off = watch_request(build_parser().parse_args(["watch", "drawings", "--no-history"]))
+    assert off.history is False
 
 
 # -- end to end, with the real observer ---------------------------------------------
