@@ -23,6 +23,7 @@ from ..atomic import atomic_path
 from ..settings import DEFAULT_OUTPUT_LAYERS as _SETTINGS_OUTPUT_LAYERS, FURTHER_OUTPUT_LAYER_KEYS
 from .curves import frame_geom
 from .legend import notes_paragraphs
+from .obstacles import drawing_obstacles, keep_clear
 from .style import Pen, clear_result_layers, prepare_layers, result_layer_names
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -78,6 +79,11 @@ def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
     geom = frame_geom(model)
     size = geom.size
     h = float(f"{size * _TEXT_RATIO:.2g}")
+    ours = {n.upper() for n in names.values()}
+    # the drafter's content and the first-order result layers, before these layers are drawn
+    obst = drawing_obstacles(doc, lambda layer: layer.upper() in ours)
+    msp = doc.modelspace()
+    before = len(msp)
     pen = Pen(doc, size)
     us = model.unit_scale
     legend = []
@@ -122,6 +128,11 @@ def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
         pen.notes(["Second order and moving loads:"] + legend + [f"CAUTION: {CAUTION}"],
                   (geom.bounds[0], geom.bounds[1] - 6.0 * h), h, max(0.6 * size, 45 * h),
                   result_layer_names(layers)["notes"])
+    # every text written here moves, as a whole, to the nearest place clear of
+    # the drafter's content, the first-order results and each other
+    texts = [e for e in list(msp)[before:] if e.dxftype() in ("TEXT", "MTEXT")]
+    if texts:
+        keep_clear([[e] for e in texts], obst, [], obst.extents or geom.bounds, 0.5 * h)
     return legend
 
 

@@ -26,7 +26,7 @@ import shapely
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
 
-__all__ = ["DrawingObstacles", "drawing_obstacles", "free_spot"]
+__all__ = ["DrawingObstacles", "drawing_obstacles", "free_spot", "keep_clear"]
 
 Box = tuple[float, float, float, float]
 
@@ -212,3 +212,31 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float) ->
     ]
     best = min(outside, key=lambda p: np.hypot(p[0] - box[0], p[1] - box[1]))
     return float(best[0] - box[0]), float(best[1] - box[1])
+
+
+def keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content: Box, gap: float) -> None:
+    """Move each group of entities (the legend, the notes) as a whole to the
+    nearest place clear of the drawing's own content, of ``ours`` (what the
+    tool drew: member lines, diagram extents, labels) and of the groups
+    placed before it; outside the drawing's extents when nothing inside is
+    free."""
+    from ezdxf import bbox
+
+    ext = content if obst.extents is None else (
+        min(content[0], obst.extents[0]), min(content[1], obst.extents[1]),
+        max(content[2], obst.extents[2]), max(content[3], obst.extents[3]))
+    blocked = list(obst.geoms) + ours
+    for ents in groups:
+        if not ents:
+            continue
+        b = bbox.extents(ents, fast=False)
+        if not b.has_data:
+            continue
+        box = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y)
+        dx, dy = free_spot(box, blocked, ext, gap)
+        if dx or dy:
+            for e in ents:
+                e.translate(dx, dy, 0.0)
+        moved = (box[0] + dx, box[1] + dy, box[2] + dx, box[3] + dy)
+        blocked.append(shapely.box(*moved))
+        ext = (min(ext[0], moved[0]), min(ext[1], moved[1]), max(ext[2], moved[2]), max(ext[3], moved[3]))

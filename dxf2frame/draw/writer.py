@@ -59,7 +59,7 @@ from ..drawing_file import open_document
 from .curves import (DIAGRAMS, FrameGeom, frame_geom, chord_tolerance, sample_curves, drawn_curves, FlatCurve, has_batch, sample_batch,
                              sample_member_by_member, segment_max, straight_chains, thin, zero_crossings)
 from ..errors import SettingsError
-from .obstacles import DrawingObstacles, drawing_obstacles, free_spot
+from .obstacles import DrawingObstacles, drawing_obstacles, keep_clear
 from .labels import (OTHER_SIGN, PRIORITY, SAME_AT_JOINT, Box, LabelPlacer, as_lines, drawing_texts,
                      label_requests, label_font, Label, merge_at_joints, geometries_near, place_labels, Spot, text_width)
 from .legend import draw_legend_and_notes, notes_paragraphs
@@ -449,7 +449,7 @@ def annotate_results(
     bent = _draw_deflected(pen, model, geom, sel, names["deflected"], h, summary, legend, chains=chains,
                            service=service_results(results), uf=uf, labels=labels["deflected"])
     boxes += _draw_near_misses(pen, model, names["notes"], h)
-    boxes += _draw_storey_drift(pen, model, geom, results, names["deflected"], h, drift, legend)
+    _storey_drift_labels(model, geom, results, names["deflected"], drift, legend, labels["deflected"])
 
     # 5. labels, layer by layer (each result layer reads on its own), most important first
     members = shapely.linestrings(np.stack([geom.start, geom.end], axis=1)) if n_el else np.zeros(0, dtype=object)
@@ -492,7 +492,7 @@ def annotate_results(
                                    content=content, keys=keys, font=font,
                                    extra=_schedule_notes(schedule, uf))
     placed = [shapely.box(*b) for cell in taken.values() for b in cell]
-    _keep_clear(groups, obst, list(members) + [shapely.box(*b) for b in boxes] + placed,
+    keep_clear(groups, obst, list(members) + [shapely.box(*b) for b in boxes] + placed,
                 content, 0.8 * h)
     summary.entities = pen.count
     return summary
@@ -503,34 +503,6 @@ def _drawing_content(doc, result_layers) -> DrawingObstacles:
     ``RESULT-`` layer) as obstacles, computed once."""
     skip = {n.upper() for n in result_layers}
     return drawing_obstacles(doc, lambda layer: layer.upper() in skip or layer.upper().startswith("RESULT-"))
-
-
-def _keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content: Box, gap: float) -> None:
-    """Move each group of entities (the legend, the notes) as a whole to the
-    nearest place clear of the drawing's own content, of ``ours`` (what the
-    tool drew: member lines, diagram extents, labels) and of the groups
-    placed before it; outside the drawing's extents when nothing inside is
-    free."""
-    from ezdxf import bbox
-
-    ext = content if obst.extents is None else (
-        min(content[0], obst.extents[0]), min(content[1], obst.extents[1]),
-        max(content[2], obst.extents[2]), max(content[3], obst.extents[3]))
-    blocked = list(obst.geoms) + ours
-    for ents in groups:
-        if not ents:
-            continue
-        b = bbox.extents(ents, fast=False)
-        if not b.has_data:
-            continue
-        box = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y)
-        dx, dy = free_spot(box, blocked, ext, gap)
-        if dx or dy:
-            for e in ents:
-                e.translate(dx, dy, 0.0)
-        moved = (box[0] + dx, box[1] + dy, box[2] + dx, box[3] + dy)
-        blocked.append(shapely.box(*moved))
-        ext = (min(ext[0], moved[0]), min(ext[1], moved[1]), max(ext[2], moved[2]), max(ext[3], moved[3]))
 
 
 def _largest_displacement(res) -> float:
@@ -845,47 +817,53 @@ def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
         value = float(mag[k]) * us * per_m
         text = f"max displacement {label_value(value)} {small_unit} ({res.name})"
         spot = Spot(text, moved[k], base[k], np.array([0.0, 1.0]), np.array([1.0, 0.0]), 0.0, None)
-        lb = Label(PRIORITY["extreme"], "extreme", value, layer, [spot], must=True, force=True)
+        lb = Label(PRIORITY["extreme"], "extreme", value, layer, [spot], must=True)
         labels.append(lb)
+        # the legend carries the value too: the label is written only where it has room
+        note_value = f"; largest displacement {label_value(value)} {small_unit}"
+    else:
+        note_value = ""
     which = f" of {res.name} (service level)"
     note = "; short elements drawn as chords" if chords else ""
-    legend.append(("deflected", f"deflected shape{which}: displacements exaggerated x {factor:g}{note}"))
+    legend.append(("deflected", f"deflected shape{which}: displacements exaggerated x {factor:g}{note_value}{note}"))
     return pts
 
 
-def _draw_storey_drift(pen: Pen, model, geom: FrameGeom, results: Sequence, layer: str, h: float,
-                       drift: Mapping | None, legend: list[tuple[str, str]]) -> list[Box]:
+def _storey_drift_labels(model, geom: FrameGeom, results: Sequence, layer: str, drift: Mapping | None,
+                         legend: list[tuple[str, str]], labels: list[Label]) -> None:
     """Each storey's worst service-level drift ratio (the ASD combinations,
-    else the load cases) as a short text ``h/812`` (`` !`` when worse than
-    the limit) right of the frame at the storey's top level, on the
-    deflected-shape layer.  Returns the boxes of the texts."""
+    else the load cases) as a short label ``h/812`` (`` !`` when worse than
+    the limit) at the right of the frame at the storey's top level, on the
+    deflected-shape layer; the labels join the shared placement, so they
+    keep clear of the drafter's content and of every other result text."""
     from ..report.storeys import ratio_text, service_results
     from ..solver import drift_envelope, find_storeys
 
     drift = dict(drift or {})
     service = [r for r in service_results(results) if r.displacements is not None]
     if not service or not model.frame.members:
-        return []
+        return
     levels = drift.get("levels")
     us = model.unit_scale
     try:
         storeys = find_storeys(model.frame, None if levels is None else [v * us for v in levels])
     except ValueError:
-        return []                                       # the report says so (bad input)
+        return                                          # the report says so (bad input)
     worst = drift_envelope(model.frame, service, storeys, limit=float(drift.get("limit") or 400.0),
                            measure=str(drift.get("measure") or "mean"))
     if not worst:
-        return []
-    x = geom.bounds[2] + 2.0 * h
-    boxes: list[Box] = []
+        return
+    x = geom.bounds[2]
     for d in worst:
         text = ratio_text(d.ratio) + ("" if d.ok else " !")
-        y = d.top / us
-        pen.text(text, (x, y), 0.8 * h, layer, align=TextEntityAlignment.MIDDLE_LEFT)
-        boxes.append((x, y - 0.5 * h, x + 0.8 * h * len(text), y + 0.5 * h))
+        at = np.array([x, d.top / us])
+        spot = Spot(text, at, at, np.array([1.0, 0.0]), np.array([0.0, 1.0]), 0.0, None)
+        labels.append(Label(PRIORITY["extreme"], "extreme", float(d.ratio), layer, [spot], must=True))
+    # the legend carries every ratio too: a label is written only where it has room
+    listed = ", ".join(ratio_text(d.ratio) + ("" if d.ok else " !") for d in worst)
     legend.append(("deflected", f"storey drift: worst service-level ratio at each level (h = storey height; "
-                                f"limit h/{worst[0].limit:g}; ! = worse than the limit)"))
-    return boxes
+                                f"limit h/{worst[0].limit:g}; ! = worse than the limit), from the lowest "
+                                f"storey up: {listed}"))
 
 
 def write_result_drawing(
