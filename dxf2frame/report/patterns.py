@@ -25,9 +25,10 @@ are loaded.
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from typing import Any, Mapping, Sequence
+
+from .table import json_number
 
 __all__ = ["PatternedCase", "pattern_cases", "pattern_entries"]
 
@@ -68,11 +69,6 @@ def pattern_cases(frame, cases: Mapping[str, Any], combinations: Sequence, wante
     return out, notes
 
 
-def _num(v: float) -> float | None:
-    f = float(v)
-    return None if not math.isfinite(f) else (0.0 if f == 0.0 else float(f"{f:.12g}"))
-
-
 def pattern_entries(frame, patterned: Sequence[PatternedCase], force: float, length: float) -> list[dict]:
     """The report's ``patterns`` entries (``force``, ``length``: report
     units per N and per m)."""
@@ -90,11 +86,11 @@ def pattern_entries(frame, patterned: Sequence[PatternedCase], force: float, len
                     e = ext[q][m.id]
                     k = q.lower()
                     for side in ("max", "min"):
-                        row[f"{k}_{side}"] = _num(e[side] * scale[q])
-                        row[f"{k}_{side}_at"] = _num(e[f"{side}_at"] * length)
+                        row[f"{k}_{side}"] = json_number(e[side] * scale[q])
+                        row[f"{k}_{side}_at"] = json_number(e[f"{side}_at"] * length)
                         row[f"{k}_{side}_by"] = e[f"{side}_by"]
                 rows.append(row)
-            results.append({"name": name, "factor": _num(factor), "members": rows})
+            results.append({"name": name, "factor": json_number(factor), "members": rows})
         out.append({"case": pc.case, "by": pc.by, "parts": [p.name for p in pc.envelope.parts],
                     "results": results})
     return out

@@ -72,7 +72,7 @@ from .. import CAUTION, __version__
 from ..atomic import atomic_open
 from ..errors import DrawingError
 from ..numbers import label_value
-from .table import DictColumn, Table, as_written
+from .table import DictColumn, Table, as_written, json_number
 from ..units import length_unit_scale, unit_factor
 
 if TYPE_CHECKING:  # pragma: no cover - typing only
@@ -195,18 +195,6 @@ def member_groups(frame: "Frame") -> dict[str, MemberGroup]:
 
 
 # -- numbers -------------------------------------------------------------------
-
-
-def _num(v: Any) -> float | None:
-    """A JSON-safe float (12 significant digits) or None for NaN/inf/None."""
-    if v is None:
-        return None
-    f = float(v)
-    if not math.isfinite(f):
-        return None
-    if f == 0.0:
-        return 0.0
-    return float(f"{f:.12g}")
 
 
 _TABLE_KEYS = ("n_min", "n_max", "v_min", "v_max", "m_min", "m_max", "m_min_at", "m_max_at", "deflection_max")
@@ -356,9 +344,9 @@ def _static_rows(gx: _GroupIndex, uf: UnitFactors, limits: Mapping | None) -> _S
         m0 = grp.members[0]
         head = {
             "id": grp.id, "layer": m0.layer, "handle": m0.handle,
-            "start": [_num(grp.start[0] * L), _num(grp.start[1] * L)],
-            "end": [_num(grp.end[0] * L), _num(grp.end[1] * L)],
-            "length": _num(grp.length * L),
+            "start": [json_number(grp.start[0] * L), json_number(grp.start[1] * L)],
+            "end": [json_number(grp.end[0] * L), json_number(grp.end[1] * L)],
+            "length": json_number(grp.length * L),
         }
         if len(grp.members) > 1:
             head["elements"] = [m.id for m in grp.members]
@@ -419,8 +407,8 @@ def _reaction_rows(res, frame: "Frame", uf: UnitFactors) -> list[dict]:
     for node, (fx, fy, m) in acc.items():
         nd = frame.nodes[node]
         rows.append({
-            "x": _num(nd.x * uf.length), "y": _num(nd.y * uf.length),
-            "fx": _num(fx * uf.force), "fy": _num(fy * uf.force), "m": _num(m * uf.moment),
+            "x": json_number(nd.x * uf.length), "y": json_number(nd.y * uf.length),
+            "fx": json_number(fx * uf.force), "fy": json_number(fy * uf.force), "m": json_number(m * uf.moment),
             "node": node, "support": kinds.get(node, ""),
         })
     return rows
@@ -487,17 +475,17 @@ def _probe_rows(res, located, probes, groups_of, uf: UnitFactors) -> list[dict]:
         x = np.array([xl])
         gid, off = groups_of[mid]
         row = {
-            "x": _num(px), "y": _num(py), "member": gid,
-            "n": _num(float(np.asarray(mr.axial(x))[0]) * uf.force),
-            "v": _num(float(np.asarray(mr.shear(x))[0]) * uf.force),
-            "m": _num(float(np.asarray(mr.moment(x))[0]) * uf.moment),
-            "element": mid, "at": _num((off + xl) * uf.length),
+            "x": json_number(px), "y": json_number(py), "member": gid,
+            "n": json_number(float(np.asarray(mr.axial(x))[0]) * uf.force),
+            "v": json_number(float(np.asarray(mr.shear(x))[0]) * uf.force),
+            "m": json_number(float(np.asarray(mr.moment(x))[0]) * uf.moment),
+            "element": mid, "at": json_number((off + xl) * uf.length),
         }
         try:
             d = mr.deflection(x)
         except Exception:  # noqa: BLE001
             d = None
-        row["deflection"] = _num(float(np.asarray(d[1])[0]) * uf.length) if d is not None else None
+        row["deflection"] = json_number(float(np.asarray(d[1])[0]) * uf.length) if d is not None else None
         rows.append(row)
     return rows
 
@@ -623,7 +611,7 @@ def assemble_report(
     involved = det.nodes_involved
     if involved:
         determinacy["nodes_involved"] = [
-            [{"node": int(n), "x": _num(frame.nodes[n].x * uf.length), "y": _num(frame.nodes[n].y * uf.length)}
+            [{"node": int(n), "x": json_number(frame.nodes[n].x * uf.length), "y": json_number(frame.nodes[n].y * uf.length)}
              for n in mode]
             for mode in involved
         ]
@@ -722,7 +710,7 @@ def _default(obj: Any) -> Any:
     if isinstance(obj, np.integer):
         return int(obj)
     if isinstance(obj, np.floating):
-        return _num(obj)
+        return json_number(obj)
     if isinstance(obj, np.ndarray):
         return obj.tolist()
     if isinstance(obj, Path):

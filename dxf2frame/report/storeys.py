@@ -38,7 +38,7 @@ import numpy as np
 
 from ..atomic import atomic_open
 from ..solver import DEFAULT_DRIFT_LIMIT, Storeys, find_storeys, node_table, storey_drifts
-from .table import Table
+from .table import Table, json_number
 
 if TYPE_CHECKING:  # pragma: no cover
     from ..solver import Frame
@@ -62,15 +62,6 @@ __all__ = [
 
 DRIFT_CSV_COLUMNS = ("result", "kind", "storey", "bottom", "top", "height", "drift", "ratio", "limit", "ok")
 NODE_CSV_COLUMNS = ("result", "kind", "node", "x", "y", "ux", "uy", "rotation")
-
-
-def _num(v: Any) -> float | None:
-    if v is None:
-        return None
-    f = float(v)
-    if not math.isfinite(f):
-        return None
-    return 0.0 if f == 0.0 else float(f"{f:.12g}")
 
 
 def ratio_text(ratio: float | None, letter: str = "h") -> str:
@@ -120,12 +111,12 @@ def storey_summary(storeys: Storeys, per_result: Mapping[str, list], service: Se
                     best = d
         out.append({
             "storey": st.index,
-            "bottom": _num(st.bottom * length), "top": _num(st.top * length),
-            "height": _num(st.height * length),
-            "drift": _num(best.drift * length) if best else None,
-            "ratio": _num(best.ratio) if best else None,
+            "bottom": json_number(st.bottom * length), "top": json_number(st.top * length),
+            "height": json_number(st.height * length),
+            "drift": json_number(best.drift * length) if best else None,
+            "ratio": json_number(best.ratio) if best else None,
             "ratio_text": ratio_text(best.ratio) if best else "-",
-            "limit": _num(limit),
+            "limit": json_number(limit),
             "ok": bool(best.ok) if best else None,
             "governing": best.result if best else None,
         })
@@ -134,7 +125,7 @@ def storey_summary(storeys: Storeys, per_result: Mapping[str, list], service: Se
 
 def drift_rows(drifts: list, length: float) -> list[dict]:
     """The per-result ``drift`` entries."""
-    return [{"storey": d.storey, "drift": _num(d.drift * length), "ratio": _num(d.ratio),
+    return [{"storey": d.storey, "drift": json_number(d.drift * length), "ratio": json_number(d.ratio),
              "ok": bool(d.ok)} for d in drifts]
 
 
@@ -176,7 +167,7 @@ def failing_checks(report: Mapping) -> list[dict]:
     for s in report.get("storeys", []):
         if s.get("ok") is False:
             out.append({"check": "drift", "storey": s["storey"], "result": s["governing"],
-                        "ratio": _num(1.0 / abs(s["ratio"])), "limit": s["limit"]})
+                        "ratio": json_number(1.0 / abs(s["ratio"])), "limit": s["limit"]})
     return out
 
 

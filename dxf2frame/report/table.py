@@ -28,9 +28,19 @@ from typing import Any, Iterator
 
 import numpy as np
 
-__all__ = ["DictColumn", "Table", "as_written", "number_texts"]
+__all__ = ["DictColumn", "Table", "as_written", "json_number", "number_texts"]
 
 _ENC = json.JSONEncoder(ensure_ascii=False, allow_nan=False).encode
+
+
+def json_number(v) -> float | None:
+    """A JSON-safe float (12 significant digits) or None for NaN/inf/None."""
+    if v is None:
+        return None
+    f = float(v)
+    if not math.isfinite(f):
+        return None
+    return 0.0 if f == 0.0 else float(f"{f:.12g}")
 _CONST = {None: "null", True: "true", False: "false"}
 
 
