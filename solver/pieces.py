@@ -356,6 +356,21 @@ def _member_ref(pc: _Pieces, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return ref[pc.mem]
 
 
+def _piece_ends(pc: _Pieces) -> np.ndarray:
+    """Per piece: the position of its end, taken as the next piece's start
+    (the break point itself) or the member's length for the last piece, so
+    a value at a jump is reported at the jump and not an ulp beyond it
+    (``x0 + h`` can round past the break point, where the left-side value
+    no longer holds)."""
+    end = pc.x0 + pc.h
+    same = pc.mem[1:] == pc.mem[:-1]
+    if np.all(pc.x0[1:][same] >= pc.x0[:-1][same]):        # pieces run along each member
+        end[:-1][same] = pc.x0[1:][same]
+        last = np.append(~same, True)
+        end[last] = pc.length[pc.mem[last]]
+    return end
+
+
 def _force_candidates(pc: _Pieces) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """(member, x, N, V, M) at every point where an extreme of N, V or M can
     sit: both sides of every break point, roots of V, vertices of N and V."""
@@ -364,7 +379,7 @@ def _force_candidates(pc: _Pieces) -> tuple[np.ndarray, np.ndarray, np.ndarray, 
     npc = len(pc.mem)
     allp = np.arange(npc)
     mems = [ar, ar, pc.mem, pc.mem]
-    xs = [np.zeros(m), pc.length, pc.x0, pc.x0 + pc.h]
+    xs = [np.zeros(m), pc.length, pc.x0, _piece_ends(pc)]
     Ne, Ve, Me = pc.values("N", pc.h), pc.values("V", pc.h), pc.values("M", pc.h)
     N = [pc.left0[:, 0], pc.rightL[:, 0], pc.N0, Ne]
     V = [pc.left0[:, 1], pc.rightL[:, 1], pc.V0, Ve]
@@ -417,7 +432,7 @@ def _max_abs_batch(pc: _Pieces, parts: list[np.ndarray]) -> tuple[np.ndarray, np
     f0 = f[:, 0]
     f1 = f.sum(axis=1)
     mem = np.concatenate([pc.mem, pc.mem])
-    xs = np.concatenate([pc.x0, pc.x0 + pc.h])
+    xs = np.concatenate([pc.x0, _piece_ends(pc)])
     ends = np.concatenate([f0, f1])
     fv = ends * ends if single else np.maximum(ends, 0.0)        # squared magnitude at the piece ends
     best_end = np.zeros(m)
