@@ -333,15 +333,19 @@ builtin = []
 """
 
 
-def two_span_drawing(path: Path, w_left: float, w_right: float, *, stub: bool = False) -> Path:
+def two_span_drawing(path: Path, w_left: float, w_right: float, *, stub: bool = False,
+                     revision: str | None = None) -> Path:
     """Two 6 m spans on a pin (x=0) and rollers (x=6, 12); the left span's
     end is hinged at x=6 (HINGE releasing FRAME-LEFT only), so each span is a
     simple beam: a load on one span does not reach the other.  ``stub``
-    adds an unloaded 2 m post standing on the right end."""
+    adds an unloaded 2 m post standing on the right end; ``revision`` a
+    custom header property REVISION."""
     from dxf2frame.symbols import define_blocks, define_layers, insert_symbol
 
     doc = ezdxf.new("R2018")
     doc.header["$INSUNITS"] = 6
+    if revision is not None:
+        doc.header.custom_vars.append("Revision", revision)
     define_layers(doc)
     define_blocks(doc)
     for name in ("FRAME-LEFT", "FRAME-RIGHT", "FRAME-POSTS"):

@@ -8,7 +8,6 @@ import multiprocessing
 import sqlite3
 from pathlib import Path
 
-import ezdxf
 import pytest
 
 from dxf2frame.cli import main
@@ -22,6 +21,7 @@ from dxf2frame.revisions import (
     trend,
 )
 from dxf2frame.revisions.reports import load_json_report
+from test_compare import two_span_drawing
 
 CASES_ONLY = """\
 [units]
@@ -31,36 +31,6 @@ builtin = []
 """
 
 
-def two_span_drawing(path: Path, w_left: float, w_right: float, *, stub: bool = False,
-                     revision: str | None = None) -> Path:
-    """Two 6 m spans on a pin (x=0) and rollers (x=6, 12); the left span is
-    hinged at x=6, so each span is a simple beam.  ``stub`` adds an
-    unloaded 2 m post on the right end; ``revision`` a custom header
-    property REVISION."""
-    from dxf2frame.symbols import define_blocks, define_layers, insert_symbol
-
-    doc = ezdxf.new("R2018")
-    doc.header["$INSUNITS"] = 6
-    if revision is not None:
-        doc.header.custom_vars.append("Revision", revision)
-    define_layers(doc)
-    define_blocks(doc)
-    for name in ("FRAME-LEFT", "FRAME-RIGHT", "FRAME-POSTS"):
-        doc.layers.add(name)
-    msp = doc.modelspace()
-    msp.add_line((0, 0), (6, 0), dxfattribs={"layer": "FRAME-LEFT"})
-    msp.add_line((6, 0), (12, 0), dxfattribs={"layer": "FRAME-RIGHT"})
-    if stub:
-        msp.add_line((12, 0), (12, 2), dxfattribs={"layer": "FRAME-POSTS"})
-    put = lambda name, at, layer, **kw: insert_symbol(msp, name, at, layer=layer, scale=0.2, **kw)  # noqa: E731
-    put("PIN", (0, 0), "SUPPORTS")
-    put("ROLLER", (6, 0), "SUPPORTS")
-    put("ROLLER", (12, 0), "SUPPORTS")
-    put("HINGE", (6, 0), "CONNECTIONS", MEMBERS="FRAME-LEFT")
-    put("UDL", (2, 0), "LOADS", W=f"{w_left} kN/m", CASE="D")
-    put("UDL", (9, 0), "LOADS", W=f"{w_right} kN/m", CASE="D")
-    doc.saveas(path)
-    return path
 
 
 #: five revisions: (label, w_left, w_right, stub)

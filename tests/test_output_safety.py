@@ -25,20 +25,10 @@ import pytest
 
 from dxf_builders import add_load, add_member, add_support, new_drawing
 from dxf2frame.cli import main
+from test_hardening import FAST_SETTINGS
 
 ROOT = Path(__file__).resolve().parents[1]
 
-FAST_SETTINGS = """\
-[units]
-force = "kN"
-[sections.default]
-E = "200 GPa"
-A = "5000 mm**2"
-I = "8e7 mm**4"
-[combinations]
-builtin = []
-draw = "D"
-"""
 
 
 def beam(folder: Path, w: float = 10.0, name: str = "frame.dxf") -> Path:
