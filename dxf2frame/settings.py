@@ -466,6 +466,14 @@ def _str(v: Any, key: str, path: str) -> str:
     return v.strip()
 
 
+def _choice(v: Any, choices, key: str, path: str) -> str:
+    """A word from ``choices`` (any case), returned in lower case."""
+    word = _str(v, key, path).lower()
+    if word not in choices:
+        raise SettingsError(f"must be one of {', '.join(choices)}, got {v!r}", path=path, key=key)
+    return word
+
+
 def _number(v: Any, key: str, path: str, *, positive: bool = True, allow_zero: bool = False) -> float:
     if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
         raise SettingsError(f"must be a number, got {v!r}", path=path, key=key)
@@ -713,11 +721,8 @@ def _read_analysis(data: Mapping[str, Any], path: str) -> dict[str, Any]:
     an = _table(data, "analysis", path)
     _check_keys(an, {"missing_sections"}, "analysis", path)
     if "missing_sections" in an:
-        ms = _str(an["missing_sections"], "analysis.missing_sections", path).lower()
-        if ms not in MISSING_SECTIONS_CHOICES:
-            raise SettingsError(f"must be one of {', '.join(MISSING_SECTIONS_CHOICES)}, got {an['missing_sections']!r}",
-                                path=path, key="analysis.missing_sections")
-        kw["missing_sections"] = ms
+        kw["missing_sections"] = _choice(an["missing_sections"], MISSING_SECTIONS_CHOICES,
+                                         "analysis.missing_sections", path)
     return kw
 
 
@@ -880,10 +885,7 @@ def _pattern_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) ->
             raise SettingsError("must be a list of load case names, e.g. [\"L\"]", path=path, key="patterns.cases")
         kw["pattern_cases"] = tuple(dict.fromkeys(x.strip() for x in c))
     if "by" in pt:
-        b = _str(pt["by"], "patterns.by", path).lower()
-        if b not in ("span", "member"):
-            raise SettingsError(f"must be span or member, got {pt['by']!r}", path=path, key="patterns.by")
-        kw["pattern_by"] = b
+        kw["pattern_by"] = _choice(pt["by"], ("span", "member"), "patterns.by", path)
 
 
 def _reversible_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> None:
@@ -916,11 +918,7 @@ def _drift_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> N
     if "limit" in dr:
         kw["drift_limit"] = _number(dr["limit"], "drift.limit", path)
     if "measure" in dr:
-        m = _str(dr["measure"], "drift.measure", path).lower()
-        if m not in DRIFT_MEASURES:
-            raise SettingsError(f"must be one of {', '.join(DRIFT_MEASURES)}, got {dr['measure']!r}",
-                                path=path, key="drift.measure")
-        kw["drift_measure"] = m
+        kw["drift_measure"] = _choice(dr["measure"], DRIFT_MEASURES, "drift.measure", path)
     if "levels" in dr:
         lv = dr["levels"]
         if (not isinstance(lv, list) or not lv
@@ -999,11 +997,7 @@ def _second_order_and_moving(data: Mapping[str, Any], path: str) -> dict[str, An
     so = _table(data, "second_order", path)
     _check_keys(so, {"analysis", "tolerance", "max_iterations", "subdivisions"}, "second_order", path)
     if "analysis" in so:
-        a = _str(so["analysis"], "second_order.analysis", path).lower()
-        if a not in SECOND_ORDER_CHOICES:
-            raise SettingsError(f"must be one of {', '.join(SECOND_ORDER_CHOICES)}, got {so['analysis']!r}",
-                                path=path, key="second_order.analysis")
-        kw["second_order"] = a
+        kw["second_order"] = _choice(so["analysis"], SECOND_ORDER_CHOICES, "second_order.analysis", path)
     if "tolerance" in so:
         t = _number(so["tolerance"], "second_order.tolerance", path)
         if t >= 0.1:
