@@ -17,6 +17,7 @@ from dxf2frame.units import (
     length_unit_scale,
     normalise_length_unit,
     parse_quantity,
+    build_registry,
     registry,
     unit_factor,
 )
@@ -99,6 +100,24 @@ def test_rejects_bad_text(text):
 
 def test_one_registry_per_process():
     assert registry() is registry()
+
+
+def test_registry_without_a_usable_cache(monkeypatch):
+    """A definitions cache that cannot be read (damaged file, read-only home)
+    only costs time: the registry is built without it, with the same units."""
+    import pint
+
+    real = pint.UnitRegistry
+
+    def refuse_cache(*args, **kwargs):
+        if kwargs.get("cache_folder"):
+            raise EOFError("damaged cache file")
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(pint, "UnitRegistry", refuse_cache)
+    ureg = build_registry()
+    assert isinstance(ureg, real)
+    assert ureg("1 kip").to("N").magnitude == pytest.approx(KIP, rel=1e-12)  # NIST SP 811, exact
 
 
 def test_length_scales_are_exact():
