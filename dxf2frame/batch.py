@@ -99,8 +99,11 @@ def solve_many(
     """
     n = len(files)
     _check_output_clash(files, req)
+    workers = max(1, workers if workers is not None else _default_workers())
+    if workers > 1 and n > 1 and not scheduler:
+        _warm_up(req.png)
     try:
-        req = with_shared_scales(files, req)
+        req = with_shared_scales(files, req, 1 if scheduler else workers)
     except KeyboardInterrupt as exc:  # Ctrl-C or SIGTERM during the first pass: nothing solved yet
         raise BatchInterrupted([], n, getattr(exc, "exit_code", 130)) from None
     results: dict[int, FileOutcome] = {}
@@ -113,8 +116,6 @@ def solve_many(
                 on_done(out, k, n)
         return [results[i] for i in range(n)]
 
-    workers = max(1, workers if workers is not None else _default_workers())
-
     def report(i: int, out: FileOutcome) -> None:
         results[i] = out
         if on_done:
@@ -125,7 +126,6 @@ def solve_many(
             for i, f in enumerate(files):
                 report(i, solve_file(f, req))
         else:
-            _warm_up(req.png)
             _solve_in_pools(files, req, min(workers, n), report)
     except KeyboardInterrupt as exc:  # Ctrl-C, or SIGTERM as staging.Terminated
         raise BatchInterrupted([results[i] for i in sorted(results)], n,
@@ -133,34 +133,67 @@ def solve_many(
     return [results[i] for i in range(n)]
 
 
-def with_shared_scales(files: list[Path], req: SolveRequest) -> SolveRequest:
+def with_shared_scales(files: list[Path], req: SolveRequest, workers: int = 1) -> SolveRequest:
     """``req`` with one scale per diagram for all ``files`` (the largest of
     the drawings' own, rounded up to a round number in SI units per
     metre), so revisions drawn in one batch compare by eye.  A first pass
-    reads and solves each drawing (nothing written); drawings that fail
-    here are left to the solve to report.  One file, or scales already
-    given: ``req`` unchanged."""
+    reads and solves each drawing (nothing written), in a pool of
+    ``workers`` processes when more than one; drawings that fail here are
+    left to the solve to report.  One file, or scales already given:
+    ``req`` unchanged."""
     from dataclasses import replace
 
-    from .draw.writer import nice_up, natural_scales
-    from .pipeline import analyse
-    from .settings import load_settings
+    from .draw.writer import nice_up
 
     if len(files) < 2 or req.scales is not None:
         return req
     shared: dict[str, float] = {}
-    for f in files:
-        try:
-            settings = load_settings(req.settings_path, f)
-            an = analyse(Path(f), settings, length_unit=req.length_unit)
-            if not an.stable:
-                continue
-            got = natural_scales(an.model, an.results, req.show or settings.combinations_draw)
-        except Exception:  # noqa: BLE001 - the solve itself reports what is wrong with a drawing
-            continue
+    for got in _first_pass(files, req, workers):
         for key, v in got.items():
             shared[key] = max(shared.get(key, 0.0), v)
     return replace(req, scales={k: nice_up(v) for k, v in shared.items()})
+
+
+def _first_pass(files: list[Path], req: SolveRequest, workers: int) -> list[dict[str, float]]:
+    """The natural diagram scales of each drawing (``{}`` for one that does
+    not solve), in a process pool when ``workers`` > 1.  A pool that breaks
+    (a worker killed from outside) leaves its drawings to a pass in this
+    process; Ctrl-C stops the pool and propagates."""
+    workers = min(workers, len(files))
+    if workers <= 1:
+        return [_natural_scales(f, req) for f in files]
+    pool = ProcessPoolExecutor(max_workers=workers, initializer=_worker_init)
+    try:
+        futures = [pool.submit(_natural_scales, f, req) for f in files]
+        got: list[dict[str, float]] = []
+        for f, fut in zip(files, futures):
+            try:
+                got.append(fut.result())
+            except Exception:  # noqa: BLE001 - a broken pool: this drawing here, the solve reports it
+                got.append(_natural_scales(f, req))
+        return got
+    except BaseException:
+        _stop_pool(pool)
+        raise
+    finally:
+        pool.shutdown(wait=True)
+
+
+def _natural_scales(source: Path, req: SolveRequest) -> dict[str, float]:
+    """The diagram scales ``source`` would get on its own (``{}`` when it
+    does not read or solve: the solve itself reports what is wrong)."""
+    from .draw.writer import natural_scales
+    from .pipeline import analyse
+    from .settings import load_settings
+
+    try:
+        settings = load_settings(req.settings_path, source)
+        an = analyse(Path(source), settings, length_unit=req.length_unit)
+        if not an.stable:
+            return {}
+        return natural_scales(an.model, an.results, req.show or settings.combinations_draw)
+    except Exception:  # noqa: BLE001 - the solve itself reports what is wrong with a drawing
+        return {}
 
 
 class BatchInterrupted(KeyboardInterrupt):

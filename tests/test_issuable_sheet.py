@@ -204,7 +204,8 @@ def _moment_legend(path: Path) -> str:
             if e.dxf.text.startswith("moment:")][0]
 
 
-def test_revisions_solved_in_one_batch_share_every_scale(tmp_path):
+@pytest.mark.parametrize("workers", ["1", "2"])  # the first pass in this process, and in a pool
+def test_revisions_solved_in_one_batch_share_every_scale(tmp_path, workers):
     folder = tmp_path / "revs"
     folder.mkdir()
     (folder / "dxf2frame.toml").write_text(SETTINGS)
@@ -216,7 +217,7 @@ def test_revisions_solved_in_one_batch_share_every_scale(tmp_path):
     # on their own, twice the load (AISC Table 3-23 Case 1: M = wl^2/8) gets another scale
     assert _moment_legend(alone / "rev-A.dxf") != _moment_legend(alone / "rev-B.dxf")
     out = tmp_path / "batch"
-    assert main(["solve", str(a), str(b), "--out", str(out), "--no-png", "--workers", "1"]) == 0
+    assert main(["solve", str(a), str(b), "--out", str(out), "--no-png", "--workers", workers]) == 0
     legends = {}
     for f in sorted(out.glob("*.dxf")):
         doc = ezdxf.readfile(f)
