@@ -401,6 +401,13 @@ class SolveRequest:
     # influence lines (--influence X,Y), drawing units
     influence: list[tuple[float, float]] = field(default_factory=list)
 
+    def __post_init__(self) -> None:
+        # paths given as strings, as a script would write them
+        for name in ("out", "report", "settings_path"):
+            value = getattr(self, name)
+            if value is not None and not isinstance(value, Path):
+                setattr(self, name, Path(value))
+
 
 @dataclass
 class FileOutcome:

@@ -193,3 +193,12 @@ def test_same_names_in_one_out_folder_are_refused(revisions, tmp_path):
     # without --out each result goes beside its own drawing: no clash
     outs = solve_many([revisions[0], twin], SolveRequest(png=False, single=False), workers=1)
     assert [o.status for o in outs] == ["ok", "ok"]
+
+
+def test_request_paths_may_be_strings(revisions, tmp_path):
+    """A script may give the output folder as a string."""
+    req = SolveRequest(out=str(tmp_path / "as-text"), png=False, single=False)
+    assert isinstance(req.out, Path)
+    outcomes = solve_many(revisions[:1], req, workers=1)
+    assert [o.exit_code for o in outcomes] == [EXIT_OK]
+    assert list((tmp_path / "as-text").glob("*.dxf"))
