@@ -251,14 +251,9 @@ def storeys_of(model: DrawingModel, settings: Settings):
 
     Raises :class:`SettingsError` (key ``drift.levels``) for a level with no
     column top on it."""
-    from .solver import find_storeys
+    from .report.storeys import model_storeys
 
-    levels = settings.drift_levels
-    try:
-        st = find_storeys(model.frame, None if levels is None else [v * model.unit_scale for v in levels])
-    except ValueError as exc:
-        raise SettingsError(f"{exc} (elevations are in drawing units, {model.length_unit})",
-                            key="drift.levels") from None
+    st = model_storeys(model, settings.drift_levels)
     model.warnings.extend(w for w in st.warnings if w not in model.warnings)
     return st
 

@@ -56,7 +56,7 @@ A fixed-base portal, 4 m high, pushed by 10 kN at the eaves:
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -194,6 +194,7 @@ def find_storeys(
     column_angle: float = 5.0,
     beam_angle: float = 30.0,
     tol: float | None = None,
+    length_text: Callable[[float], str] | None = None,
 ) -> Storeys:
     """Storeys of a frame, from where beams meet columns or from a list.
 
@@ -206,6 +207,8 @@ def find_storeys(
     beam_angle : largest angle [degrees] from horizontal of a beam
     tol : elevations closer than this [length] are one level (default
         1e-6 times the frame's largest extent)
+    length_text : how a length [length] is written in the warnings and the
+        error (default ``f"{v:g}"``), e.g. in the drawing's own unit
 
     Returns
     -------
@@ -222,6 +225,7 @@ def find_storeys(
         return Storeys(0.0, ())
     extent = float(np.ptp(xy, axis=0).max()) if len(xy) else 0.0
     tol = 1e-6 * max(extent, 1e-300) if tol is None else float(tol)
+    fmt = length_text or (lambda v: f"{v:g}")
     y = xy[:, 1]
     base = float(y[low[is_col]].min())
     warnings: list[str] = []
@@ -243,7 +247,7 @@ def find_storeys(
         tops_here = sorted(n for n in below if abs(y[n] - top) <= tol)
         if not tops_here:
             if levels is not None:
-                raise ValueError(f"level at elevation {top:g} has no column top on it")
+                raise ValueError(f"level at elevation {fmt(top)} has no column top on it")
             continue  # pragma: no cover - a found level always has one
         cols: list[tuple[int, int]] = []
         for t in tops_here:
@@ -257,10 +261,10 @@ def find_storeys(
                     cols.append((t, n))
                 else:
                     warnings.append(
-                        f"storey {k}: the column under node {t} does not reach the level at {bot:g}; "
+                        f"storey {k}: the column under node {t} does not reach the level at {fmt(bot)}; "
                         "it is left out of the drift")
         if not cols:
-            warnings.append(f"storey {k} (levels {bot:g} to {top:g}) has no column line from level to level")
+            warnings.append(f"storey {k} (levels {fmt(bot)} to {fmt(top)}) has no column line from level to level")
         storeys.append(Storey(k, bot, top, tuple(dict.fromkeys(cols))))
     if len(storeys) > 1:
         hs = np.array([st.height for st in storeys])
@@ -268,7 +272,7 @@ def find_storeys(
         for i in small:
             st = storeys[i]
             warnings.append(
-                f"storey {st.index} is only {st.height:g} high (levels {st.bottom:g} and {st.top:g}); "
+                f"storey {st.index} is only {fmt(st.height)} high (levels {fmt(st.bottom)} and {fmt(st.top)}); "
                 "two levels drawn a little apart may have been meant as one")
     return Storeys(base, tuple(storeys), tuple(warnings))
 

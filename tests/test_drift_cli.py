@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import csv
 import json
+import re
 
 import ezdxf
 import pytest
@@ -239,3 +240,28 @@ def test_drawing_in_millimetres_levels_in_drawing_units(tmp_path, capsys):
     assert st["top"] == 4000 and st["height"] == 4000
     # slope-deflection method (sympy, above), in millimetres
     assert st["drift"] == pytest.approx(_slope_deflection_sway(h, L, H, IC, ib) * 1e3, rel=1e-4)
+
+
+def test_storey_warnings_give_levels_in_the_drawing_unit(tmp_path, capsys):
+    """A column that stops short of the level below is left out of the drift;
+    the warning names the level as the drafter drew it (mm here), not in
+    the solver's metres."""
+    _settings(tmp_path, _sections(1.2e-4))
+    doc = new_drawing(units="mm")
+    msp = doc.modelspace()
+    doc.layers.add("FRAME-BEAMS")
+    add_member(msp, (0, 0), (0, 3000))
+    add_member(msp, (6000, 0), (6000, 3000))
+    add_member(msp, (0, 3000), (6000, 3000), layer="FRAME-BEAMS")
+    add_member(msp, (0, 3000), (0, 6000))
+    add_member(msp, (3000, 4500), (3000, 6000))          # a post standing on nothing at the lower level
+    add_member(msp, (6000, 3000), (6000, 6000))
+    add_member(msp, (0, 6000), (6000, 6000), layer="FRAME-BEAMS")
+    add_member(msp, (3000, 4500), (6000, 4500), layer="FRAME-BEAMS")
+    add_support(msp, "fixed", (0, 0))
+    add_support(msp, "fixed", (6000, 0))
+    add_load(msp, "force", (0, 6000), P="10 kN", ANGLE="0", CASE="W")
+    code, rep, text, *_ = _solve(tmp_path, save(doc, tmp_path / "mm.dxf"), capsys)
+    assert code == 0, text.err
+    warned = [w for w in text.err.splitlines() if "does not reach the level" in w]
+    assert warned and all(re.search(r"the level at \d+ mm;", w) for w in warned), text.err

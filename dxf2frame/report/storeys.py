@@ -47,7 +47,7 @@ __all__ = [
     "DRIFT_CSV_COLUMNS",
     "NODE_CSV_COLUMNS",
     "service_results",
-    "frame_storeys",
+    "model_storeys",
     "drift_entries",
     "storey_summary",
     "node_rows",
@@ -85,9 +85,26 @@ def service_results(results: Sequence) -> list:
     return asd or [r for r in results if r.kind == "case"]
 
 
-def frame_storeys(frame: "Frame", levels_m: Sequence[float] | None = None) -> Storeys:
-    """The frame's storeys (``levels_m``: storey tops [m], None to find them)."""
-    return find_storeys(frame, levels_m)
+def model_storeys(model, levels: Sequence[float] | None) -> Storeys:
+    """The storeys of a drawing's model; ``levels``: ``[drift] levels`` in
+    drawing units, or None to find them.  Elevations in the warnings are
+    written in the drawing's own unit (``3000 mm``), as the drafter drew them.
+
+    Raises :class:`~dxf2frame.errors.SettingsError` (key ``drift.levels``)
+    for a level with no column top on it."""
+    from ..errors import SettingsError
+
+    us = model.unit_scale
+
+    def in_drawing_units(v: float) -> str:
+        return f"{v / us:.6g} {model.length_unit}"
+
+    try:
+        return find_storeys(model.frame, None if levels is None else [v * us for v in levels],
+                            length_text=in_drawing_units)
+    except ValueError as exc:
+        raise SettingsError(f"{exc} ([drift] levels are elevations in drawing units, {model.length_unit})",
+                            key="drift.levels") from None
 
 
 def drift_entries(frame: "Frame", res, storeys: Storeys, limit: float, measure: str) -> list:
@@ -190,18 +207,11 @@ def add_storeys(report: dict, model, results: Sequence, length: float,
     Raises :class:`~dxf2frame.errors.SettingsError` when a level of
     ``[drift] levels`` has no column top on it.
     """
-    from ..errors import SettingsError
-
     drift = dict(drift or {})
     limit = float(drift.get("limit") or DEFAULT_DRIFT_LIMIT)
     measure = str(drift.get("measure") or "mean")
-    levels = drift.get("levels")
     frame = model.frame
-    try:
-        storeys = frame_storeys(frame, None if levels is None else [v * model.unit_scale for v in levels])
-    except ValueError as exc:
-        raise SettingsError(f"{exc} (elevations are in drawing units, {model.length_unit})",
-                            key="drift.levels") from None
+    storeys = model_storeys(model, drift.get("levels"))
     heads = node_heads(frame)
     texts = Table(heads, []).head_texts() if heads else None
     per_result: dict[str, list] = {}
