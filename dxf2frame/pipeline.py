@@ -884,6 +884,14 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
             writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,
                                            document=analysis.document)
         analysis.timings["write"] = time.perf_counter() - t0
+        # the preview before the report, so that a preview that fails is a
+        # warning of the report as well as of the console
+        drawn = False
+        if req.png:
+            t0 = time.perf_counter()
+            drawn = _try_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u,
+                                 outcome.warnings)
+            analysis.timings["png"] = time.perf_counter() - t0
         # the report after the drawing: the writer's working arrays are
         # gone by then, so the two never hold memory at the same time
         t0 = time.perf_counter()
@@ -894,6 +902,7 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         )
         _add_pattern_report(rep, analysis, force_u, length_u)
         _add_further(rep, analysis, force_u, length_u, staged.get("influence"))
+        rep["warnings"] += [w for w in outcome.warnings if w not in rep["warnings"]]
         outcome.warnings += [w for w in rep["warnings"] if w not in outcome.warnings]
         with_csv = req.csv and analysis.stable and analysis.buckled is None
         outcome.probe_lines = report_mod.probe_lines(rep)
@@ -903,13 +912,7 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         written += ["reactions"] if with_csv and report_mod.write_reaction_schedule(rep, staged["reactions"]) else []
         written += _write_storey_csvs(rep, staged) if with_csv else []
         written += ["influence"] if "influence" in staged and staged["influence"].exists() else []
-        if req.png:
-            t0 = time.perf_counter()
-            drawn = _try_preview(staged["drawing"], staged["png"], analysis, show, force_u, length_u,
-                                 outcome.warnings)
-            analysis.timings["png"] = time.perf_counter() - t0
-            if drawn:
-                written.append("png")
+        written += ["png"] if drawn else []
         if req.sheets and analysis.stable and analysis.buckled is None:
             from .handcheck import sheets as handcheck
 

@@ -9,8 +9,8 @@ AISC Manual, Table 3-23 (via ``check_simple_beam``).
 from __future__ import annotations
 
 import json
-from pathlib import Path
 import math
+from pathlib import Path
 
 import pytest
 from hypothesis import HealthCheck, assume, given, settings as hsettings, strategies as st
@@ -519,6 +519,8 @@ def test_a_preview_that_fails_is_a_warning(tmp_path, capsys, monkeypatch):
     assert "preview: not drawn" in err and "figure size" in err
     assert not (tmp_path / "out" / "frame-results.png").exists()
     assert (tmp_path / "out" / "frame-results.json").exists() and (tmp_path / "out" / "frame-results.dxf").exists()
+    report = json.loads((tmp_path / "out" / "frame-results.json").read_text())
+    assert any("preview: not drawn" in w for w in report["warnings"])   # the report says so too
 
 
 # ---------------------------------------------------------------------------
