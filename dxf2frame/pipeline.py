@@ -342,6 +342,11 @@ def analyse(path: Path, settings: Settings | None = None, *, length_unit: str | 
     model.warnings.extend(combination_problems(settings, present, specs))
     if det.status == "unstable":
         return analysis
+    if not present:
+        raise AnalysisError(
+            "the drawing has no loads, so there is nothing to solve",
+            hint=f"put load blocks on layer '{settings.layers['loads']}' (or set [self_weight] case); "
+                 "'dxf2frame check' reports the frame without loads")
     basis = stiffness_basis(model.frame, det.status, settings)
     if basis == "equal":
         model.warnings.append(EQUAL_STIFFNESS_WARNING)

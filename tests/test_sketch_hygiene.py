@@ -241,3 +241,15 @@ def test_new_settings_keys_are_validated():
         with pytest.raises(SettingsError) as ei:
             Settings.from_dict(bad)
         assert key in str(ei.value)
+
+
+def test_a_drawing_without_loads_is_bad_input_and_check_still_reports_it(tmp_path, capsys):
+    """No load blocks at all (a forgotten layer, a frozen load layer): solve
+    says so instead of writing empty diagrams with an "ok"; check still
+    reports the frame (a simple beam: statically determinate)."""
+    path = _beam(tmp_path, None)
+    rc, _, err = _run(capsys, "solve", path, "--out", tmp_path / "out", "--no-png")
+    assert rc == 2 and "no loads" in err and "'LOADS'" in err, err
+    assert not (tmp_path / "out").exists() or not any((tmp_path / "out").iterdir())
+    rc, out, err = _run(capsys, "check", path)
+    assert rc == 0, err
