@@ -14,6 +14,8 @@ pass only (the reader refuses such nesting where it matters).
 """
 from __future__ import annotations
 
+from collections.abc import Callable
+
 from .errors import GeometryError
 
 __all__ = ["expanded_count", "nesting_depth", "check_expansion"]
@@ -44,14 +46,51 @@ def expanded_count(insert, blocks, memo: dict[str, int] | None = None) -> int:
 
 
 def _block_count(root: str, blocks, memo: dict[str, int]) -> int:
-    """Expanded count of the content of block ``root`` (memoised in ``memo``).
+    """Expanded count of the content of block ``root`` (memoised in ``memo``);
+    a reference back into a block still being counted (a block containing
+    itself) counts its cells only."""
 
-    Iterative (a hostile file may nest thousands of blocks, deeper than
-    Python's recursion limit); a reference back into a block still being
-    counted (a block containing itself) counts its cells only."""
+    def open_block(blk) -> tuple[list[tuple[str, int]], int]:
+        refs, direct = [], 0
+        for e in blk:
+            if e.dxftype() == "INSERT":
+                refs.append((e.dxf.get("name", ""), _cells(e)))
+            else:
+                direct += 1
+        return refs, direct
+
+    return _fold_blocks(root, blocks, memo, open_block,
+                        add=lambda total, cells, child: total + cells * (1 + child),
+                        finish=lambda total: total)
+
+
+def nesting_depth(insert, blocks, memo: dict[str, int] | None = None) -> int:
+    """Levels of block references a block reference opens (1 for a block
+    without nested references); a block containing itself counts one pass."""
+    memo = {} if memo is None else memo
+
+    def open_block(blk) -> tuple[list[tuple[str, int]], int]:
+        return [(e.dxf.get("name", ""), 1) for e in blk if e.dxftype() == "INSERT"], 0
+
+    return _fold_blocks(insert.dxf.get("name", ""), blocks, memo, open_block,
+                        add=lambda deepest, _cells, child: max(deepest, child),
+                        finish=lambda deepest: 1 + deepest)
+
+
+def _fold_blocks(root: str, blocks, memo: dict[str, int], open_block: Callable,
+                 add: Callable[[int, int, int], int], finish: Callable[[int], int]) -> int:
+    """A value of block ``root`` folded up from the blocks it references,
+    children first (memoised in ``memo``; a missing block is 0).
+
+    ``open_block(block) -> ([(child name, cells)], start value)``;
+    ``add(value, cells, child value) -> value`` takes in one reference;
+    ``finish(value)`` is the block's value once all are in.  A reference
+    back into a block still open (a block containing itself) adds a child
+    value of 0.  Iterative: a hostile file may nest thousands of blocks,
+    deeper than Python's recursion limit."""
     if root in memo:
         return memo[root]
-    stack: list[list] = []  # [name, [(child, cells)], next index, total]
+    stack: list[list] = []  # [name, [(child, cells)], next index, value]
     on_path: set[str] = set()
 
     def enter(name: str) -> None:
@@ -59,13 +98,8 @@ def _block_count(root: str, blocks, memo: dict[str, int]) -> int:
         if blk is None:
             memo[name] = 0
             return
-        refs, direct = [], 0
-        for e in blk:
-            if e.dxftype() == "INSERT":
-                refs.append((e.dxf.get("name", ""), _cells(e)))
-            else:
-                direct += 1
-        stack.append([name, refs, 0, direct])
+        refs, value = open_block(blk)
+        stack.append([name, refs, 0, value])
         on_path.add(name)
 
     enter(root)
@@ -74,53 +108,15 @@ def _block_count(root: str, blocks, memo: dict[str, int]) -> int:
         name, refs, k = frame[0], frame[1], frame[2]
         if k < len(refs):
             child, cells = refs[k]
-            if child in memo:
-                frame[3] += cells * (1 + memo[child])
-                frame[2] += 1
-            elif child in on_path:
-                frame[3] += cells
+            if child in memo or child in on_path:
+                frame[3] = add(frame[3], cells, memo.get(child, 0))
                 frame[2] += 1
             else:
-                enter(child)  # counted when its frame is done (or memo set to 0)
+                enter(child)  # taken in when its frame is done (or its memo set to 0)
             continue
         stack.pop()
         on_path.discard(name)
-        memo[name] = frame[3]
-    return memo[root]
-
-
-def nesting_depth(insert, blocks, memo: dict[str, int] | None = None) -> int:
-    """Levels of block references a block reference opens (1 for a block
-    without nested references); a block containing itself counts one pass.
-    Iterative, like :func:`expanded_count`."""
-    memo = {} if memo is None else memo
-    root = insert.dxf.get("name", "")
-    if root not in memo:
-        stack: list[list] = []  # [name, [children], next index, deepest child]
-        on_path: set[str] = set()
-
-        def enter(name: str) -> None:
-            blk = blocks.get(name)
-            if blk is None:
-                memo[name] = 0
-                return
-            stack.append([name, [e.dxf.get("name", "") for e in blk if e.dxftype() == "INSERT"], 0, 0])
-            on_path.add(name)
-
-        enter(root)
-        while stack:
-            frame = stack[-1]
-            if frame[2] < len(frame[1]):
-                child = frame[1][frame[2]]
-                if child in memo or child in on_path:
-                    frame[3] = max(frame[3], memo.get(child, 0))
-                    frame[2] += 1
-                else:
-                    enter(child)
-                continue
-            stack.pop()
-            on_path.discard(frame[0])
-            memo[frame[0]] = 1 + frame[3]
+        memo[name] = finish(frame[3])
     return memo[root]
 
 
