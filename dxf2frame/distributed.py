@@ -22,7 +22,7 @@ from typing import Iterator, Sequence
 from .errors import Dxf2FrameError
 from .pipeline import EXIT_INTERNAL, FileOutcome, SolveRequest, solve_file
 
-__all__ = ["DaskMissingError", "INSTALL_HINT", "solve_on_dask"]
+__all__ = ["DaskMissingError", "INSTALL_HINT", "solve_on_dask", "failed_outcome"]
 
 INSTALL_HINT = "install the dask extra: pip install 'dxf2frame[dask]'"
 
@@ -71,9 +71,23 @@ def solve_on_dask(files: Sequence[Path | str], req: SolveRequest, scheduler: str
             try:
                 out = fut.result()
             except Exception as exc:  # noqa: BLE001 - a worker died or the task failed
-                out = FileOutcome(str(files[i]), "internal error", EXIT_INTERNAL, f"{type(exc).__name__}: {exc}")
+                out = failed_outcome(files[i], exc)
             yield i, out
     finally:
         client.close()
         if cluster is not None:
             cluster.close()
+
+
+def failed_outcome(source: Path | str, exc: BaseException) -> FileOutcome:
+    """The outcome of a drawing whose task failed on the cluster.  Dask
+    itself runs a task again when its worker dies (the scheduler's
+    ``allowed-failures``, 3 by default); ``KilledWorker`` means it killed
+    every worker it was given, which is reported as the local pool reports
+    a killed worker."""
+    if type(exc).__name__ == "KilledWorker":
+        return FileOutcome(
+            str(source), "worker killed", EXIT_INTERNAL,
+            "the Dask workers solving this drawing were killed (perhaps for lack of memory) each time it was "
+            "tried; nothing was written for it, the other drawings were solved")
+    return FileOutcome(str(source), "internal error", EXIT_INTERNAL, f"{type(exc).__name__}: {exc}")

@@ -202,3 +202,18 @@ def test_request_paths_may_be_strings(revisions, tmp_path):
     outcomes = solve_many(revisions[:1], req, workers=1)
     assert [o.exit_code for o in outcomes] == [EXIT_OK]
     assert list((tmp_path / "as-text").glob("*.dxf"))
+
+
+def test_dask_killed_worker_reads_as_the_local_pool_says_it():
+    """After Dask has run a task on as many workers as it allows and each
+    was killed, the drawing is 'worker killed' (status 1), as in the local
+    pool; any other failure is an internal error."""
+    from dxf2frame.distributed import failed_outcome
+
+    class KilledWorker(Exception):  # the name distributed gives it
+        pass
+
+    out = failed_outcome("big.dxf", KilledWorker("task dxf2frame-solve-1 marked as failed"))
+    assert out.status == "worker killed" and out.exit_code == 1 and "killed" in out.message
+    other = failed_outcome("big.dxf", RuntimeError("boom"))
+    assert other.status == "internal error" and "RuntimeError: boom" in other.message
