@@ -111,15 +111,55 @@ def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
 def _boxes_of(entities: Sequence, boxes: list[Box], cache) -> None:
     from ezdxf import bbox
 
+    blocks: dict[str, Box | None] = {}
     for e in entities:
-        try:
-            b = bbox.extents([e], fast=True, cache=cache)
-        except Exception:  # noqa: BLE001 - an entity ezdxf cannot measure is no obstacle
-            b = None
-        if b is not None and b.has_data:
-            boxes.append((b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y))
-        else:
-            boxes.append((np.nan,) * 4)
+        got = _insert_box(e, blocks) if e.dxftype() == "INSERT" else None
+        if got is None:
+            try:
+                b = bbox.extents([e], fast=True, cache=cache)
+            except Exception:  # noqa: BLE001 - an entity ezdxf cannot measure is no obstacle
+                b = None
+            got = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y) if b is not None and b.has_data else None
+        boxes.append(got if got is not None else (np.nan,) * 4)
+
+
+def _insert_box(e, blocks: dict[str, Box | None]) -> Box | None:
+    """The box of a plain block reference (one cell, in the drawing's plane):
+    the box of its block's content, measured once per block name
+    (``blocks``), with its four corners placed by the reference's transform,
+    joined with the boxes of its visible non-empty attributes.  A rotated
+    reference gets the box of the turned box, a little larger than its
+    content's own (conservative for placement).  None where this does not
+    apply (a MINSERT grid, a reference out of the plane, a block that
+    cannot be measured): the caller measures the whole reference."""
+    from ezdxf import bbox
+
+    try:
+        if e.mcount > 1 or tuple(e.dxf.get("extrusion", (0.0, 0.0, 1.0))) != (0.0, 0.0, 1.0):
+            return None
+        name = e.dxf.get("name", "")
+        if name not in blocks:
+            blk = e.doc.blocks.get(name) if e.doc is not None else None
+            if blk is None:
+                return None
+            b = bbox.extents((x for x in blk if x.dxftype() != "ATTDEF"), fast=True)
+            blocks[name] = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y) if b.has_data else None
+        local = blocks[name]
+        pts = []
+        if local is not None:
+            x0, y0, x1, y1 = local
+            pts = list(e.matrix44().transform_vertices([(x0, y0), (x1, y0), (x1, y1), (x0, y1)]))
+        texts = [a for a in e.attribs if not a.is_invisible and a.dxf.get("text", "").strip()]
+        if texts:
+            tb = bbox.extents(texts, fast=True)
+            if tb.has_data:
+                pts += [tb.extmin, tb.extmax]
+    except Exception:  # noqa: BLE001 - anything unusual: measure the whole reference instead
+        return None
+    if not pts:
+        return None
+    xs, ys = [p.x for p in pts], [p.y for p in pts]
+    return (min(xs), min(ys), max(xs), max(ys))
 
 
 def _expand_big_inserts(entities: Sequence, boxes: list[Box], ext: Box, polys: list, cache) -> list[Box]:
