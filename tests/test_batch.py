@@ -217,3 +217,20 @@ def test_dask_killed_worker_reads_as_the_local_pool_says_it():
     assert out.status == "worker killed" and out.exit_code == 1 and "killed" in out.message
     other = failed_outcome("big.dxf", RuntimeError("boom"))
     assert other.status == "internal error" and "RuntimeError: boom" in other.message
+
+
+@pytest.mark.parametrize("given, expected", [(None, "1"), ("3", "3")])
+def test_command_line_runs_numerics_on_one_thread_unless_told(given, expected):
+    """The command sets one BLAS/OpenMP thread before numpy loads (batches run
+    a process per core); a count the user set is kept."""
+    import os
+    import subprocess
+
+    env = {k: v for k, v in os.environ.items() if k not in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS",
+                                                             "MKL_NUM_THREADS")}
+    if given is not None:
+        env["OPENBLAS_NUM_THREADS"] = given
+    code = ("import os, sys; from dxf2frame.cli import single_threaded_numerics; single_threaded_numerics(); "
+            "import numpy; print(os.environ['OPENBLAS_NUM_THREADS'], os.environ['OMP_NUM_THREADS'])")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env, check=True)
+    assert out.stdout.split() == [expected, "1"]
