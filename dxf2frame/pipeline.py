@@ -739,8 +739,8 @@ def _further_layers(analysis: Analysis, force_u: str):
         return None
     from .draw import annotate_further
 
-    return lambda doc: annotate_further(doc, analysis.model, fu.stability, fu.moving,
-                                        layers=analysis.settings.output_layers)
+    return lambda doc, content: annotate_further(doc, analysis.model, fu.stability, fu.moving,
+                                                 layers=analysis.settings.output_layers, content=content)
 
 
 def _add_further(rep: dict, analysis: Analysis, force_u: str, length_u: str, influence_csv: Path | None) -> None:

@@ -23,7 +23,7 @@ from ..atomic import atomic_path
 from ..settings import DEFAULT_OUTPUT_LAYERS as _SETTINGS_OUTPUT_LAYERS, FURTHER_OUTPUT_LAYER_KEYS
 from .curves import frame_geom
 from .legend import notes_paragraphs
-from .obstacles import drawing_obstacles, keep_clear
+from .obstacles import DrawingObstacles, drawing_obstacles, keep_clear
 from .style import Pen, clear_result_layers, prepare_layers, result_layer_names
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -70,9 +70,14 @@ def _buckled_shape(pen: Pen, model, b, layer: str, size: float, h: float, label:
 
 
 def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
-                     layers: Mapping[str, str] | None = None) -> list[str]:
+                     layers: Mapping[str, str] | None = None,
+                     content: DrawingObstacles | None = None) -> list[str]:
     """Draw the second-order and moving-load results into ``doc`` (already
-    annotated with the first-order results).  Returns legend lines."""
+    annotated with the first-order results).  Returns legend lines.
+
+    ``content``: the drawing's own entities as obstacles when the caller
+    has them (the first-order writer measures them); only the result
+    layers are measured here then."""
     names = further_layer_names(layers)
     clear_result_layers(doc, names.values())
     prepare_layers(doc, names)
@@ -81,7 +86,16 @@ def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
     h = float(f"{size * _TEXT_RATIO:.2g}")
     ours = {n.upper() for n in names.values()}
     # the drafter's content and the first-order result layers, before these layers are drawn
-    obst = drawing_obstacles(doc, lambda layer: layer.upper() in ours)
+    if content is None:
+        obst = drawing_obstacles(doc, lambda layer: layer.upper() in ours)
+    else:
+        first = {n.upper() for n in result_layer_names(layers).values()}
+
+        def not_first_order(layer: str) -> bool:
+            u = layer.upper()
+            return u in ours or not (u in first or u.startswith("RESULT-"))
+
+        obst = content.joined(drawing_obstacles(doc, not_first_order))
     msp = doc.modelspace()
     before = len(msp)
     pen = Pen(doc, size)

@@ -46,6 +46,13 @@ class DrawingObstacles:
     geoms: np.ndarray
     extents: Box | None
 
+    def joined(self, other: "DrawingObstacles") -> "DrawingObstacles":
+        """The obstacles of both."""
+        ext = [e for e in (self.extents, other.extents) if e is not None]
+        extents = (min(e[0] for e in ext), min(e[1] for e in ext), max(e[2] for e in ext),
+                   max(e[3] for e in ext)) if ext else None
+        return DrawingObstacles(np.concatenate([self.geoms, other.geoms]), extents)
+
     def near(self, box: Box) -> list:
         """The geometries whose extents touch ``box`` (for small searches)."""
         if not len(self.geoms):

@@ -158,6 +158,8 @@ class DrawingSummary:
     dropped : values left out for want of room (see the module docstring)
     entities : entities added
     shown : the notes' description of what is drawn
+    content : the drawing's own entities as obstacles (measured once, for
+        whatever is drawn after the results)
     """
 
     layers: dict[str, str]
@@ -168,6 +170,7 @@ class DrawingSummary:
     labels: int = 0
     forced: int = 0
     dropped: int = 0
+    content: "DrawingObstacles | None" = field(default=None, repr=False)
     entities: int = 0
     shown: str = ""
 
@@ -407,7 +410,7 @@ def annotate_results(
     size = geom.size
     h = text_height if text_height and text_height > 0 else float(f"{size * _TEXT_RATIO:.2g}")
     pen = Pen(doc, size)
-    summary = DrawingSummary(layers=names, text_height=h, shown=sel.label)
+    summary = DrawingSummary(layers=names, text_height=h, shown=sel.label, content=obst)
     frame = model.frame
 
     # 1. sample every element once
@@ -882,7 +885,7 @@ def write_result_drawing(
     text_height: float | None = None,
     scales: Mapping[str, float] | None = None,
     probes: Sequence[tuple[float, float]] = (),
-    extra: "Callable[[Drawing], object] | None" = None,
+    extra: "Callable[[Drawing, DrawingObstacles | None], object] | None" = None,
 ) -> None:
     """Write a copy of ``source`` with the result layers to ``out`` (atomic).
 
@@ -901,7 +904,9 @@ def write_result_drawing(
         file a second time; it is annotated in place
     text_height, scales, probes : see :func:`annotate_results`
     extra : optional: draws more result layers into the annotated document
-        before it is saved (the second-order and moving-load layers)
+        before it is saved (the second-order and moving-load layers);
+        called as ``extra(doc, content)`` with the drawing's own entities
+        as obstacles (measured once, by the results' placement)
 
     Raises
     ------
@@ -911,11 +916,11 @@ def write_result_drawing(
     source, out = Path(source), Path(out)
     _check_target(source, out)
     doc = document if document is not None else _load_source(source)
-    annotate_results(doc, model, det, results, show=show, layers=layers,
-                     force_unit=force_unit, length_unit=length_unit, drift=drift, text_height=text_height,
-                     scales=scales, probes=probes)
+    summary = annotate_results(doc, model, det, results, show=show, layers=layers,
+                               force_unit=force_unit, length_unit=length_unit, drift=drift,
+                               text_height=text_height, scales=scales, probes=probes)
     if extra is not None:
-        extra(doc)
+        extra(doc, summary.content)
     with atomic_path(out) as tmp:
         doc.saveas(tmp)
 
