@@ -153,9 +153,10 @@ class LabelPlacer:
                     return False
         return True
 
-    def free_of_obstacles(self, centres: np.ndarray, half_w: float, half_h: float) -> np.ndarray:
+    def free_of_obstacles(self, centres: np.ndarray, half_w: "float | np.ndarray", half_h: float) -> np.ndarray:
         """Mask of the boxes centred at ``centres`` (k, 2) that touch no
-        obstacle, in one STRtree query (placed boxes not tested)."""
+        obstacle, in one STRtree query (placed boxes not tested);
+        ``half_w`` one for all or one per box."""
         c = np.asarray(centres, dtype=float).reshape(-1, 2)
         ok = np.ones(len(c), dtype=bool)
         if self._tree is not None and len(c):

@@ -555,18 +555,30 @@ def _draw_tags(pen: Pen, model, geom: FrameGeom, layer: str, h: float, font, mem
     near = list(obst.near((geom.bounds[0] - 10 * h, geom.bounds[1] - 10 * h,
                            geom.bounds[2] + 10 * h, geom.bounds[3] + 10 * h)))
     placer = LabelPlacer(list(members) + near, cell=4 * h, taken=taken)
-    dropped = 0
-    for gid, idx in spans.items():
+    hh = 0.7 * th
+    ids = list(spans)
+    cands = np.empty((len(ids), 30, 2))
+    hws = np.empty(len(ids))
+    for k, gid in enumerate(ids):
+        idx = spans[gid]
         pts = np.vstack([geom.start[idx], geom.end[idx]])
         t, n = geom.t[idx[0]], geom.n[idx[0]]
         proj = pts @ t
         a, b = pts[int(np.argmin(proj))], pts[int(np.argmax(proj))]
-        hw, hh = 0.5 * text_width(font, gid, h) * (th / h) + 0.15 * th, 0.7 * th    # the font is sized for h
-        cands = [a + (b - a) * f + n * side * d for f in (0.5, 0.35, 0.65, 0.2, 0.8)
-                 for d in (hh + 0.3 * h, hw + 0.3 * h, 2.5 * h) for side in (1.0, -1.0)]
-        for c in cands:
-            if placer.try_place(float(c[0]), float(c[1]), hw, hh):
-                pen.text(gid, (float(c[0]), float(c[1])), th, layer)
+        hw = 0.5 * text_width(font, gid, h) * (th / h) + 0.15 * th     # the font is sized for h
+        hws[k] = hw
+        cands[k] = [a + (b - a) * f + n * side * d for f in (0.5, 0.35, 0.65, 0.2, 0.8)
+                    for d in (hh + 0.3 * h, hw + 0.3 * h, 2.5 * h) for side in (1.0, -1.0)]
+    # the obstacles do not change while tags are placed: one query for every candidate of every tag
+    clear = placer.free_of_obstacles(cands.reshape(-1, 2), np.repeat(hws, 30), hh).reshape(len(ids), 30)
+    dropped = 0
+    for k, gid in enumerate(ids):
+        hw = hws[k]
+        for cx, cy in cands[k][clear[k]]:
+            box = (cx - hw, cy - hh, cx + hw, cy + hh)
+            if placer.free_of_boxes(box):
+                placer.take(box)
+                pen.text(gid, (float(cx), float(cy)), th, layer)
                 break
         else:
             dropped += 1
