@@ -101,6 +101,30 @@ _MAX_TEXT_OBSTACLES = 1000  # the drawing's own texts labels keep off (none when
 Box = tuple[float, float, float, float]
 
 
+_PIECE = 16  # segments per piece of a long line in the placer's index
+
+
+def _short_pieces(geoms: list) -> np.ndarray:
+    """``geoms`` with every line of more than ``_PIECE`` segments cut into
+    pieces of at most that many (the same linework).  A label box near a
+    long diagram outline is then tested against a few short pieces the
+    index finds, not against the whole outline."""
+    if not geoms:
+        return np.array([], dtype=object)
+    arr = np.array(geoms, dtype=object)
+    lines = shapely.get_type_id(arr) == 1                      # LineString
+    counts = shapely.get_num_coordinates(arr)
+    long = lines & (counts > _PIECE + 1)
+    if not long.any():
+        return arr
+    pieces = []
+    for g in arr[long]:
+        xy = shapely.get_coordinates(g)
+        starts = np.arange(0, len(xy) - 1, _PIECE)
+        pieces.extend(shapely.linestrings(xy[a:a + _PIECE + 1]) for a in starts)
+    return np.concatenate([arr[~long], np.array(pieces, dtype=object)])
+
+
 class LabelPlacer:
     """Place axis-aligned text boxes so they avoid each other and given lines.
 
@@ -123,8 +147,8 @@ class LabelPlacer:
 
     def __init__(self, obstacles: Sequence, cell: float,
                  taken: dict[tuple[int, int], list[Box]] | None = None) -> None:
-        geoms = [g for g in obstacles if g is not None and not g.is_empty]
-        self._tree = shapely.STRtree(geoms) if geoms else None
+        geoms = _short_pieces([g for g in obstacles if g is not None and not g.is_empty])
+        self._tree = shapely.STRtree(geoms) if len(geoms) else None
         self._cell = cell if cell > 0 else 1.0
         self._grid: dict[tuple[int, int], list[Box]] = {} if taken is None else taken
         self.placed = 0

@@ -557,18 +557,23 @@ def _draw_tags(pen: Pen, model, geom: FrameGeom, layer: str, h: float, font, mem
     placer = LabelPlacer(list(members) + near, cell=4 * h, taken=taken)
     hh = 0.7 * th
     ids = list(spans)
-    cands = np.empty((len(ids), 30, 2))
-    hws = np.empty(len(ids))
-    for k, gid in enumerate(ids):
+    a, b = np.empty((len(ids), 2)), np.empty((len(ids), 2))
+    for k, gid in enumerate(ids):          # the span's two far ends along its first member
         idx = spans[gid]
+        if len(idx) == 1:
+            a[k], b[k] = geom.start[idx[0]], geom.end[idx[0]]
+            continue
         pts = np.vstack([geom.start[idx], geom.end[idx]])
-        t, n = geom.t[idx[0]], geom.n[idx[0]]
-        proj = pts @ t
-        a, b = pts[int(np.argmin(proj))], pts[int(np.argmax(proj))]
-        hw = 0.5 * text_width(font, gid, h) * (th / h) + 0.15 * th     # the font is sized for h
-        hws[k] = hw
-        cands[k] = [a + (b - a) * f + n * side * d for f in (0.5, 0.35, 0.65, 0.2, 0.8)
-                    for d in (hh + 0.3 * h, hw + 0.3 * h, 2.5 * h) for side in (1.0, -1.0)]
+        proj = pts @ geom.t[idx[0]]
+        a[k], b[k] = pts[int(np.argmin(proj))], pts[int(np.argmax(proj))]
+    n = geom.n[[spans[gid][0] for gid in ids]]
+    hws = np.array([0.5 * text_width(font, gid, h) * (th / h) + 0.15 * th for gid in ids])  # the font is sized for h
+    # candidates in order of preference: along the span (f), off it (d), above then below (side)
+    f = np.array([0.5, 0.35, 0.65, 0.2, 0.8])[None, :, None, None, None]
+    d = np.stack([np.full(len(ids), hh + 0.3 * h), hws + 0.3 * h, np.full(len(ids), 2.5 * h)], axis=1)
+    side = np.array([1.0, -1.0])[None, None, None, :, None]
+    cands = (a[:, None, None, None, :] + (b - a)[:, None, None, None, :] * f
+             + n[:, None, None, None, :] * side * d[:, None, :, None, None]).reshape(len(ids), 30, 2)
     # the obstacles do not change while tags are placed: one query for every candidate of every tag
     clear = placer.free_of_obstacles(cands.reshape(-1, 2), np.repeat(hws, 30), hh).reshape(len(ids), 30)
     dropped = 0
