@@ -577,16 +577,21 @@ def geometries_near(geoms: np.ndarray, labels: list[Label], reach: float) -> lis
         return []
     at = np.array([p for lb in labels for sp in lb.spots for p in (sp.anchor, sp.base)], dtype=float)
     origin = at.min(0)
-    cells = np.floor((at - origin) / reach).astype(int)
+    # cells of at least 1/4096 of the points' spread: a reach tiny against
+    # the drawing (a symbol scaled almost to nothing) keeps the grid small
+    cell = max(reach, float(np.ptp(at, axis=0).max()) / 4096.0)
+    cells = np.floor((at - origin) / cell).astype(int)
     shape = cells.max(0) + 1
     grid = np.zeros(shape + 1, dtype=int)                       # summed-area table, zero first row/column
     np.add.at(grid, (cells[:, 0] + 1, cells[:, 1] + 1), 1)
     grid = grid.cumsum(0).cumsum(1)
     box = shapely.bounds(geoms)
-    lo = np.floor((box[:, :2] - reach - origin) / reach).astype(int)
-    hi = np.floor((box[:, 2:] + reach - origin) / reach).astype(int)
-    inside = np.all((hi >= 0) & (lo < shape), axis=1)
-    lo, hi = np.clip(lo, 0, shape - 1), np.clip(hi, 0, shape - 1) + 1
+    with np.errstate(over="ignore", invalid="ignore"):
+        lo = np.floor((box[:, :2] - reach - origin) / cell)
+        hi = np.floor((box[:, 2:] + reach - origin) / cell)
+    inside = np.all((hi >= 0) & (lo < shape), axis=1)               # NaN (an empty geometry) is not
+    lo = np.clip(np.nan_to_num(lo), 0, shape - 1).astype(int)
+    hi = np.clip(np.nan_to_num(hi), 0, shape - 1).astype(int) + 1
     count = grid[hi[:, 0], hi[:, 1]] - grid[lo[:, 0], hi[:, 1]] - grid[hi[:, 0], lo[:, 1]] + grid[lo[:, 0], lo[:, 1]]
     return list(geoms[inside & (count > 0)])
 

@@ -90,6 +90,10 @@ _SYMBOL = {"axial": "N", "shear": "V", "moment": "M"}
 _SIDE = {"axial": 1.0, "shear": 1.0, "moment": -1.0}
 _DEFL_SAMPLES = 9          # stations per element for the deflected shape (a cubic-like curve)
 _ORDINATE_TARGET = 0.115   # largest ordinate / frame size, before rounding the scale
+#: diagram ordinates at or below this (SI units) are floating-point dust, not
+#: forces: such a diagram is zero everywhere (a scale fitted to it would
+#: overflow the drawing's coordinates)
+_DUST = 1e-150
 _DEFLECTION_TARGET = 0.05  # largest drawn displacement / frame size
 _MECHANISM_TARGET = 0.10   # largest drawn mechanism movement / frame size
 _TEXT_RATIO = 1.0 / 60.0   # text height / frame size
@@ -221,7 +225,7 @@ def natural_scales(model: "DrawingModel", results: Sequence, show: str | None) -
     for key in DIAGRAMS:
         curves = sample_curves(stations, key, sel.envelope, n_el)
         gmax = max((float(np.max(np.abs(c.y))) for c in curves if len(c.y)), default=0.0)
-        if gmax > 0:
+        if gmax > _DUST:
             out[key] = gmax / (_ORDINATE_TARGET * geom.size * model.unit_scale)
     return out
 
@@ -240,7 +244,7 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[FlatCurve], labe
     size = geom.size
     factor, unit = (uf.moment, uf.moment_unit) if key == "moment" else (uf.force, uf.force_unit)
     gmax = max((float(np.max(np.abs(c.y))) for c in curves if len(c.y)), default=0.0)
-    if not gmax > 0:
+    if not gmax > _DUST:
         legend.append((key, f"{key}: zero everywhere"))
         return None
     if key in ctx.fixed:                                             # the settings' [drawing.scales]
