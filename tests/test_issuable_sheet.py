@@ -227,6 +227,28 @@ def test_revisions_solved_in_one_batch_share_every_scale(tmp_path):
     assert first == second and first, legends
 
 
+def test_compare_draws_no_diagrams_so_it_has_no_scale_to_share(tmp_path):
+    """``compare`` of two drawings writes the comparison and one change drawing
+    whose only result layer is the change marks: no diagram, no legend scale
+    (so no scale to share between the revisions; README, compare section)."""
+    from dxf2frame.draw.style import DEFAULT_OUTPUT_LAYERS
+
+    (tmp_path / "dxf2frame.toml").write_text(SETTINGS)
+    a = beam(tmp_path / "rev-A.dxf", span=6.0, insunits=6, scale=0.2, w="10 kN/m")
+    b = beam(tmp_path / "rev-B.dxf", span=6.0, insunits=6, scale=0.2, w="20 kN/m")
+    out = tmp_path / "cmp"
+    assert main(["compare", str(a), str(b), "--out", str(out)]) == 0
+    drawings = sorted(out.glob("*.dxf"))
+    assert [p.name for p in drawings] == ["rev-B-changes.dxf"]
+    assert not list(out.glob("*.png"))
+    doc = ezdxf.readfile(drawings[0])
+    layers = {e.dxf.layer for e in doc.modelspace()}
+    diagram_layers = {DEFAULT_OUTPUT_LAYERS[k] for k in ("axial", "shear", "moment", "deflected", "reactions")}
+    assert "RESULT-CHANGES" in layers and not layers & diagram_layers, layers
+    assert not [e for e in doc.modelspace().query("TEXT MTEXT")
+                if re.search(r"on the drawing = ", e.plain_text() if e.dxftype() == "MTEXT" else e.dxf.text)]
+
+
 def test_envelope_reactions_max_and_min_together_with_uplift(tmp_path):
     (tmp_path / "dxf2frame.toml").write_text('[combinations]\nbuiltin = ["LRFD"]\n')
     doc = ezdxf.new("R2018")
