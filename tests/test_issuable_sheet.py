@@ -153,7 +153,7 @@ def test_result_texts_keep_clear_of_the_office_sheet(tmp_path):
     a = office_sheet(tmp_path / "portal-A.dxf")
     b = office_sheet(tmp_path / "portal-B.dxf", beam_y=4300.0, hoist="30 kN")
     out = tmp_path / "solved"
-    assert main(["solve", str(a), "--out", str(out / "portal-A.dxf"), "--no-png"]) == 0
+    assert main(["solve", str(a), "--out", str(out / "portal-A.dxf"), "--no-png", "--probe", "3000,4000"]) == 0
     _check_clear(out / "portal-A.dxf")
     cmp_dir = tmp_path / "cmp"
     assert main(["compare", str(a), str(b), "--out", str(cmp_dir)]) == 0
@@ -161,6 +161,69 @@ def test_result_texts_keep_clear_of_the_office_sheet(tmp_path):
     assert marked
     for p in marked:
         _check_clear(p)
+
+
+def crowded_office_sheet(path: Path) -> Path:
+    """The office sheet with a room schedule written all over the bay, tight
+    (texts every 450 mm across, every 300 mm up; the beam's own row kept
+    free): no label finds room right beside its point there."""
+    office_sheet(path)
+    doc = ezdxf.readfile(path)
+    msp = doc.modelspace()
+    for i in range(13):
+        for j in range(-9, 6):
+            if j:
+                msp.add_text("RM", height=200, dxfattribs={"layer": "ANNO"}).set_placement(
+                    (250 + i * 450, 4050 + j * 300))
+    doc.saveas(path)
+    return path
+
+
+def _notes(path: Path) -> str:
+    return " ".join(e.plain_text() for e in ezdxf.readfile(path).modelspace().query('MTEXT[layer=="RESULT-NOTES"]'))
+
+
+def test_labels_with_no_room_near_go_farther_out_and_drops_are_reported(tmp_path, capsys):
+    """A label that must be written (the diagram's extreme, a reaction, a
+    probe) and has no room near goes to a free place farther out with a
+    leader, never onto the drafter's content; values left out are named in a
+    warning on the console, in the report and on the notes layer."""
+    (tmp_path / "dxf2frame.toml").write_text("[combinations]\nbuiltin = [\"LRFD\"]\n")
+    src = crowded_office_sheet(tmp_path / "crowded.dxf")
+    out = tmp_path / "o" / "crowded.dxf"
+    assert main(["solve", str(src), "--out", str(out), "--no-png", "--probe", "3000,4000"]) == 0
+    _check_clear(out)
+    texts = [e.dxf.text for e in ezdxf.readfile(out).modelspace().query("TEXT")]
+    assert [t for t in texts if t.startswith("P1 ")], "the probe is drawn (farther out)"
+    assert [t for t in texts if t.startswith("M=")], "the moment's extreme is drawn"
+    warned = [w for w in json.loads(out.with_suffix(".json").read_text())["warnings"] if "want of room" in w]
+    assert len(warned) == 1 and re.search(r"\d+ value label\(s\) \([NVM]=", warned[0]), warned
+    assert "left out for want of room" in capsys.readouterr().err
+    assert "left out for want of room" in _notes(out)
+
+
+def test_a_probe_with_no_free_place_keeps_its_values_in_the_notes(tmp_path, capsys, monkeypatch):
+    """When no free place is found for a probe's values (simulated: the
+    search for a place farther out finds none), the marker is drawn without
+    them, never on the drafter's content; the values go to the notes and the
+    console, and a warning says so."""
+    from dxf2frame.draw import writer
+
+    monkeypatch.setattr(writer, "_far_spots", lambda *_a, **_k: (lambda _box: None))
+    (tmp_path / "dxf2frame.toml").write_text("[combinations]\nbuiltin = [\"LRFD\"]\n")
+    src = crowded_office_sheet(tmp_path / "crowded.dxf")
+    out = tmp_path / "o" / "crowded.dxf"
+    assert main(["solve", str(src), "--out", str(out), "--no-png", "--probe", "3000,4000"]) == 0
+    _check_clear(out)
+    msp = ezdxf.readfile(out).modelspace()
+    assert not [e for e in msp.query('TEXT[layer=="RESULT-TAGS"]') if e.dxf.text.startswith("P1 ")]
+    assert msp.query('CIRCLE[layer=="RESULT-TAGS"]'), "the marker itself is drawn"
+    notes = _notes(out)
+    assert "Probe values (not drawn" in notes and "P1 N=" in notes
+    warned = [w for w in json.loads(out.with_suffix(".json").read_text())["warnings"] if "probe marker" in w]
+    assert len(warned) == 1 and "P1 N=" in warned[0]
+    console = capsys.readouterr().out
+    assert [ln for ln in console.splitlines() if ln.startswith("probe (3000, 4000)")], console
 
 
 def test_text_height_and_fixed_moment_scale_from_settings(tmp_path):

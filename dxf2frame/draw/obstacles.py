@@ -33,6 +33,7 @@ Box = tuple[float, float, float, float]
 _BIG_INSERT = 0.4          # a block reference wider and taller than this fraction of the extents is expanded
 _MAX_CANDIDATES = 40_000   # positions tried inside the extents for one box
 _FAR = 1e12                # coordinates beyond this [drawing units] are no drawing's content (as in the preview)
+_OUTSIDE_STEPS = 64        # positions tried outward from each side of the extents
 
 
 @dataclass
@@ -169,7 +170,8 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float) ->
 
     Places inside ``extents`` come first (nearest to where the box is);
     when none is free, the nearest place just outside the extents (right,
-    below, left or above).  (0, 0) when the box is free where it is.
+    below, left or above; farther out past obstacles beyond the extents).
+    (0, 0) when the box is free where it is.
     """
     geoms = [g for g in obstacles if g is not None and not g.is_empty]
     tree = shapely.STRtree(geoms) if geoms else None
@@ -201,15 +203,22 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float) ->
             k = int(np.argmin(d))
             return float(gx[ok][k] - box[0]), float(gy[ok][k] - box[1])
     # outside the extents: right, below, left, above, each at the nearest
-    # position along that side
+    # position along that side, stepping farther out past anything already
+    # placed there (the obstacles may reach beyond the extents)
     top = min(max(box[1], ey0), ey1 - h) if ey1 - ey0 > h else ey1 - h
     left = min(max(box[0], ex0), ex1 - w) if ex1 - ex0 > w else ex0
-    outside = [
-        (ex1 + 2 * gap, top),
-        (left, ey0 - 2 * gap - h),
-        (ex0 - 2 * gap - w, top),
-        (left, ey1 + 2 * gap),
+    k = np.arange(_OUTSIDE_STEPS, dtype=float)
+    sides = [
+        (ex1 + 2 * gap + k * (w + gap), np.full_like(k, top)),
+        (np.full_like(k, left), ey0 - 2 * gap - h - k * (h + gap)),
+        (ex0 - 2 * gap - w - k * (w + gap), np.full_like(k, top)),
+        (np.full_like(k, left), ey1 + 2 * gap + k * (h + gap)),
     ]
+    outside = []
+    for xs, ys in sides:
+        ok = np.flatnonzero(free(xs, ys))
+        j = int(ok[0]) if len(ok) else len(k) - 1
+        outside.append((float(xs[j]), float(ys[j])))
     best = min(outside, key=lambda p: np.hypot(p[0] - box[0], p[1] - box[1]))
     return float(best[0] - box[0]), float(best[1] - box[1])
 
