@@ -371,6 +371,31 @@ def test_result_drawing_renders_with_the_ezdxf_drawing_addon(tmp_path):
     assert png.stat().st_size > 1000
 
 
+def test_the_preview_window_holds_every_text_whole(tmp_path):
+    """The PNG preview's window holds every text as drawn (its glyph
+    outlines, measured by matplotlib), not only its insertion point: a
+    reaction label at the frame's edge is not cut off."""
+    from dxf2frame.draw import preview
+
+    (tmp_path / "dxf2frame.toml").write_text("[combinations]\nbuiltin = [\"LRFD\"]\n")
+    src = office_sheet(tmp_path / "portal.dxf")
+    out = tmp_path / "o" / "portal.dxf"
+    assert main(["solve", str(src), "--out", str(out)]) == 0
+    assert out.with_suffix(".png").stat().st_size > 1000
+    scene = preview._Scene(ezdxf.readfile(out), lambda _layer: True)
+    x0, y0, x1, y1 = scene.box
+    tol = 1e-6 * max(x1 - x0, y1 - y0)
+    checked = 0
+    for (_layer, x, y, h, rot, text, _c, ha, va) in scene.shapes.texts:
+        path = preview._text_path(text, h, rot, ha, va, x, y)
+        if path is None:
+            continue
+        e = path.get_extents()
+        assert x0 - tol <= e.x0 and e.x1 <= x1 + tol and y0 - tol <= e.y0 and e.y1 <= y1 + tol, text
+        checked += 1
+    assert checked > 20
+
+
 def test_member_tags_match_the_report_ids_and_no_empty_mechanism_layer(tmp_path):
     (tmp_path / "dxf2frame.toml").write_text("[combinations]\nbuiltin = [\"LRFD\"]\n")
     src = office_sheet(tmp_path / "portal.dxf")
