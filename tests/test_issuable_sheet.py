@@ -10,6 +10,7 @@ import re
 from pathlib import Path
 
 import ezdxf
+import numpy as np
 import pytest
 
 from dxf2frame.cli import main
@@ -530,3 +531,81 @@ def test_probe_marked_on_the_tags_layer(tmp_path):
     probe = [t for t in texts if t.startswith("P1 ")]
     # AISC Manual Table 3-23 Case 1 (from memory): at midspan V = 0, M = w l^2 / 8 = 45 kN*m
     assert probe and "M=45" in probe[0], texts
+
+
+# -- hand-check sheets: symbols sized from the sheet's scale, texts clear of each other -------------
+
+
+def _gable_free_body(x: float):
+    """A gable frame like the demo's (columns 5 m, rafters rising 1.5 m over
+    4.5 m, fixed feet), three distributed loads stacked on each rafter (dead,
+    snow on plan, wind along the rafter's normal) and a sway load; cut in the
+    left rafter at ``x`` [m] from its start."""
+    from dxf2frame.solver import DistributedLoad, Frame, NodalLoad, Section, solve
+
+    sec = Section(E=200e9, A=5e-3, I=8e-5)
+    f = Frame()
+    n = [f.add_node(*p) for p in ((0, 0), (0, 5), (4.5, 6.5), (9, 5), (9, 0))]
+    f.add_member(n[0], n[1], sec, id="C1")
+    r1 = f.add_member(n[1], n[2], sec, id="R1")
+    r2 = f.add_member(n[2], n[3], sec, id="R2")
+    f.add_member(n[4], n[3], sec, id="C2")
+    f.add_support(n[0], "fixed")
+    f.add_support(n[4], "fixed")
+    for r in (r1, r2):
+        f.add_load(DistributedLoad(r.id, q1=(0.0, -1.8e3)))
+        f.add_load(DistributedLoad(r.id, q1=(0.0, -1.2e3), projected=True))
+        f.add_load(DistributedLoad(r.id, q1=(0.0, -0.7e3), q2=(0.0, -0.2e3)))
+    f.add_load(NodalLoad(n[1], fx=4e3))
+    res = solve(f)["D"]
+    from dxf2frame.handcheck import cut_free_body
+
+    return cut_free_body(f, res, r1.id, x, side="end")
+
+
+def _texts_and_arrows(fig):
+    """(text, box in display pixels) of every non-empty text of the figure's
+    axes (titles included), and (gid, arrow style, length [inch]) of every
+    arrow, measured by matplotlib's own renderer after drawing."""
+    from matplotlib.text import Annotation
+
+    fig.canvas.draw()
+    renderer = fig.canvas.get_renderer()
+    texts, arrows = [], []
+    for ax in fig.axes:
+        for t in [*ax.texts, ax.title]:
+            if isinstance(t, Annotation):
+                tail = ax.transData.transform(t.xyann)
+                head = ax.transData.transform(t.xy)
+                arrows.append((t.get_gid(), t.arrowprops["arrowstyle"], float(np.hypot(*(head - tail))) / fig.dpi))
+            if t.get_text().strip() and t.get_visible():
+                b = t.get_window_extent(renderer)
+                texts.append((t.get_text(), (b.x0, b.y0, b.x1, b.y1)))
+    return texts, arrows
+
+
+@pytest.mark.parametrize("x", [0.2, 2.5, 4.74])
+def test_hand_check_sheet_texts_clear_and_arrows_readable(x):
+    """On the figure of a hand-check sheet (PNG) and its PDF page no two
+    texts' boxes intersect (matplotlib's renderer measures them: the sheet
+    is a matplotlib figure, not a DXF), and every force arrow keeps a
+    readable length on the paper whatever the free body's size."""
+    from dxf2frame.handcheck.figures import sheet_figure, sheet_page
+    from dxf2frame.report import unit_factors
+
+    fb = _gable_free_body(x)
+    uf = unit_factors("kN", "m")
+    for fig in (sheet_figure(fb, uf), sheet_page(fb, uf, ["sheet text"])):
+        texts, arrows = _texts_and_arrows(fig)
+        assert len(texts) > 8
+        for i, (a, ba) in enumerate(texts):
+            for b, bb in texts[i + 1:]:
+                assert not _overlap(ba, bb), (a, b)
+        forces = [length for gid, _style, length in arrows if gid == "force"]
+        rows = [length for gid, style, length in arrows if gid == "row" and style == "-|>"]
+        assert len(forces) >= 6 and rows
+        # an arrow shorter than about 0.4 inch on paper reads as a tick (common practice)
+        assert min(forces) >= 0.4, sorted(forces)[:3]
+        # a row arrow keeps at least about three head lengths (common practice)
+        assert min(rows) >= 0.12, sorted(rows)[:3]
+
