@@ -217,26 +217,29 @@ def draw_free_body(ax: "Axes", fb: "FreeBody", uf: "UnitFactors") -> None:
         m = _MARGIN_IN * s
         return x0 - m, y0 - m, x1 + m, y1 + m
 
-    for attempt in range(10):
+    changed = False                                    # the symbols' size is changed once at most
+    for _attempt in range(10):
         x0, y0, x1, y1 = layout(s, grow)
         need = max((x1 - x0) / W, (y1 - y0) / H)
         if need <= s * 1.0001:
             used = need / s
-            if attempt < 9 and grow == 1.0 and used < 0.75:
-                # a short free body leaves the sheet mostly empty: larger symbols (not text), once
-                grow = min(_MAX_GROW, 0.9 / used)
+            if not changed and used < 0.75:
+                # a short free body leaves the sheet mostly empty: larger symbols (not text)
+                grow, changed = min(_MAX_GROW, 0.9 / used), True
                 continue
             break
-        # symbols take (extent - body) / s inches along each axis: the body gets the
-        # rest, at least _BODY_SHARE of the axes (smaller symbols, down to _MIN_GROW, when crowded)
+        # symbols take (extent - body) / s inches along each axis: the body gets the rest;
+        # when that is less than _BODY_SHARE of the axes, the symbols are drawn smaller first
         size = np.array([W, H])
         room = size - (np.array([x1 - x0, y1 - y0]) - span) / s
-        share = float(np.min(room / size))
-        if share < _BODY_SHARE and grow > _MIN_GROW:
-            grow = max(_MIN_GROW, grow * (1.0 - (_BODY_SHARE - share)))
+        if not changed and float(np.min(room / size)) < _BODY_SHARE:
+            grow, changed = _MIN_GROW, True
             continue
         s = float(np.max(span / np.maximum(room, 0.15 * size))) * 1.01
-    s = max(s, need)                                   # not settled: everything fits, a little smaller
+    else:
+        # not settled: everything a little smaller, the labels placed again at that scale
+        s = need * 1.01
+        x0, y0, x1, y1 = layout(s, grow)
     cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
     ax.set_xlim(cx - s * W / 2, cx + s * W / 2)
     ax.set_ylim(cy - s * H / 2, cy + s * H / 2)
