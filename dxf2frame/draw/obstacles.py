@@ -164,24 +164,29 @@ def _extents(polys: list[np.ndarray], boxes: Iterable[Box]) -> Box | None:
     return (float(a[0]), float(a[1]), float(z[0]), float(z[1]))
 
 
-def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float) -> tuple[float, float]:
+def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float, *,
+              tree: "shapely.STRtree | None" = None, inside: bool = True) -> tuple[float, float]:
     """Shift (dx, dy) that moves ``box`` to the nearest place touching none
     of ``obstacles`` (shapely geometries) with ``gap`` around it.
 
     Places inside ``extents`` come first (nearest to where the box is);
     when none is free, the nearest place just outside the extents (right,
     below, left or above; farther out past obstacles beyond the extents).
-    (0, 0) when the box is free where it is.
+    (0, 0) when the box is free where it is.  ``tree``: more obstacles,
+    indexed once by the caller (many boxes placed against one drawing);
+    ``inside`` False: no search inside the extents (the caller searched
+    near the box already), only the places outside them.
     """
     geoms = [g for g in obstacles if g is not None and not g.is_empty]
-    tree = shapely.STRtree(geoms) if geoms else None
+    trees = [t for t in (shapely.STRtree(geoms) if geoms else None, tree) if t is not None]
     w, h = box[2] - box[0], box[3] - box[1]
 
     def free(x0: np.ndarray, y0: np.ndarray) -> np.ndarray:
         ok = np.ones(len(x0), dtype=bool)
-        if tree is not None and len(x0):
+        if len(x0):
             cand = shapely.box(x0 - gap, y0 - gap, x0 + w + gap, y0 + h + gap)
-            ok[tree.query(cand, predicate="intersects")[0]] = False
+            for t in trees:
+                ok[t.query(cand, predicate="intersects")[0]] = False
         return ok
 
     if free(np.array([box[0]]), np.array([box[1]]))[0]:
@@ -189,7 +194,7 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float) ->
     if extents is None:
         return 0.0, 0.0
     ex0, ey0, ex1, ey1 = extents
-    if ex1 - ex0 > w and ey1 - ey0 > h:
+    if inside and ex1 - ex0 > w and ey1 - ey0 > h:
         step = max(min(w, h) / 2, gap, 1e-9)
         nx, ny = (ex1 - ex0 - w) / step + 1, (ey1 - ey0 - h) / step + 1
         if nx * ny > _MAX_CANDIDATES:

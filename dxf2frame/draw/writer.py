@@ -465,7 +465,7 @@ def annotate_results(
     if arrows:
         boxes.append(tuple(float(v) for v in shapely.total_bounds(arrows)))
     all_lines = list(arrows) + [g for key in lines for g in as_lines(lines[key])]
-    far = _far_spots(obst, list(members) + all_lines, taken, geom.bounds, 0.3 * h)
+    far = _far_spots(obst, list(members) + all_lines, taken, geom.bounds, 0.3 * h, 10.0 * h)
     for key, todo in labels.items():
         if not todo:
             continue
@@ -534,20 +534,30 @@ def _dropped_warning(texts: list[str], tags: list[str]) -> str:
     return f"drawing: left out for want of room: {'; '.join(parts)}"
 
 
-def _far_spots(obst: DrawingObstacles, ours: list, taken: dict, frame_box: Box, gap: float):
+def _far_spots(obst: DrawingObstacles, ours: list, taken: dict, frame_box: Box, gap: float, near: float):
     """A function giving, for a label box with nothing free near it, the
     shift to the nearest place clear of the drawing's own content, of
     ``ours`` (member lines, outlines, arrows) and of every label placed so
-    far (:func:`dxf2frame.draw.obstacles.free_spot`; outside the drawing's
-    extents when nothing inside is free)."""
+    far (:func:`dxf2frame.draw.obstacles.free_spot`): within widening
+    windows around the box up to ``near``, else just outside the drawing's
+    extents.  The drawing's content is indexed once."""
     ext = frame_box if obst.extents is None else (
         min(frame_box[0], obst.extents[0]), min(frame_box[1], obst.extents[1]),
         max(frame_box[2], obst.extents[2]), max(frame_box[3], obst.extents[3]))
-    fixed = list(obst.geoms) + list(ours)
+    fixed = [g for g in list(obst.geoms) + list(ours) if g is not None and not g.is_empty]
+    tree = shapely.STRtree(fixed) if fixed else None
 
     def far(box: Box) -> tuple[float, float] | None:
+        for r in (0.3 * near, near):                   # widening windows around the box (past the extents too)
+            window = (box[0] - r, box[1] - r, box[2] + r, box[3] + r)
+            placed = [shapely.box(*b) for cell in taken.values() for b in cell
+                      if b[0] < window[2] and b[2] > window[0] and b[1] < window[3] and b[3] > window[1]]
+            dx, dy = free_spot(box, placed, window, gap, tree=tree)
+            if (window[0] <= box[0] + dx and box[2] + dx <= window[2]
+                    and window[1] <= box[1] + dy and box[3] + dy <= window[3]):
+                return dx, dy                         # a free place near
         placed = [shapely.box(*b) for cell in taken.values() for b in cell]
-        return free_spot(box, fixed + placed, ext, gap)
+        return free_spot(box, placed, ext, gap, tree=tree, inside=False)   # outside the drawing's extents
 
     return far
 
