@@ -154,7 +154,8 @@ class DrawingSummary:
     deflection_factor : exaggeration of the deflected shape (None: not drawn)
     text_height : label height [drawing units]
     labels, forced : labels written, and how many of them overlap something
-        (a diagram's overall extreme or a reaction with no free spot)
+        (none: a label with no free spot near goes farther out, or is
+        dropped; see :mod:`dxf2frame.draw.labels`)
     dropped : values left out for want of room (see the module docstring)
     dropped_values : their texts (member tags: the member id)
     warnings : what the drawing could not show as asked (values left out,
