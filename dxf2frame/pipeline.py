@@ -875,11 +875,12 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         staged = {k: out_set.staged(p.name) for k, p in paths.items()}
         t0 = time.perf_counter()
         show = req.show or settings.combinations_draw
+        sheet = None                                   # what the result drawing shows (its warnings)
         if analysis.buckled is not None:
             _write_buckled(source, staged["drawing"], analysis)
         elif analysis.stable:
             drawn_results, drawn_show = _pattern_drawing(analysis, show)
-            writer.write_result_drawing(
+            sheet = writer.write_result_drawing(
                 source, staged["drawing"], model, det, drawn_results, show=drawn_show,
                 layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
                 document=analysis.document, drift=settings.drift_options(),
@@ -907,6 +908,8 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         )
         _add_pattern_report(rep, analysis, force_u, length_u)
         _add_further(rep, analysis, force_u, length_u, staged.get("influence"))
+        if sheet is not None:                          # what the drawing could not show (values left out)
+            rep["warnings"] += [w for w in sheet.warnings if w not in rep["warnings"]]
         rep["warnings"] += [w for w in outcome.warnings if w not in rep["warnings"]]
         outcome.warnings += [w for w in rep["warnings"] if w not in outcome.warnings]
         with_csv = req.csv and analysis.stable and analysis.buckled is None

@@ -10,6 +10,7 @@ import re
 from pathlib import Path
 
 import ezdxf
+import numpy as np
 import pytest
 
 from dxf2frame.cli import main
@@ -153,7 +154,7 @@ def test_result_texts_keep_clear_of_the_office_sheet(tmp_path):
     a = office_sheet(tmp_path / "portal-A.dxf")
     b = office_sheet(tmp_path / "portal-B.dxf", beam_y=4300.0, hoist="30 kN")
     out = tmp_path / "solved"
-    assert main(["solve", str(a), "--out", str(out / "portal-A.dxf"), "--no-png"]) == 0
+    assert main(["solve", str(a), "--out", str(out / "portal-A.dxf"), "--no-png", "--probe", "3000,4000"]) == 0
     _check_clear(out / "portal-A.dxf")
     cmp_dir = tmp_path / "cmp"
     assert main(["compare", str(a), str(b), "--out", str(cmp_dir)]) == 0
@@ -161,6 +162,69 @@ def test_result_texts_keep_clear_of_the_office_sheet(tmp_path):
     assert marked
     for p in marked:
         _check_clear(p)
+
+
+def crowded_office_sheet(path: Path) -> Path:
+    """The office sheet with a room schedule written all over the bay, tight
+    (texts every 450 mm across, every 300 mm up; the beam's own row kept
+    free): no label finds room right beside its point there."""
+    office_sheet(path)
+    doc = ezdxf.readfile(path)
+    msp = doc.modelspace()
+    for i in range(13):
+        for j in range(-9, 6):
+            if j:
+                msp.add_text("RM", height=200, dxfattribs={"layer": "ANNO"}).set_placement(
+                    (250 + i * 450, 4050 + j * 300))
+    doc.saveas(path)
+    return path
+
+
+def _notes(path: Path) -> str:
+    return " ".join(e.plain_text() for e in ezdxf.readfile(path).modelspace().query('MTEXT[layer=="RESULT-NOTES"]'))
+
+
+def test_labels_with_no_room_near_go_farther_out_and_drops_are_reported(tmp_path, capsys):
+    """A label that must be written (the diagram's extreme, a reaction, a
+    probe) and has no room near goes to a free place farther out with a
+    leader, never onto the drafter's content; values left out are named in a
+    warning on the console, in the report and on the notes layer."""
+    (tmp_path / "dxf2frame.toml").write_text("[combinations]\nbuiltin = [\"LRFD\"]\n")
+    src = crowded_office_sheet(tmp_path / "crowded.dxf")
+    out = tmp_path / "o" / "crowded.dxf"
+    assert main(["solve", str(src), "--out", str(out), "--no-png", "--probe", "3000,4000"]) == 0
+    _check_clear(out)
+    texts = [e.dxf.text for e in ezdxf.readfile(out).modelspace().query("TEXT")]
+    assert [t for t in texts if t.startswith("P1 ")], "the probe is drawn (farther out)"
+    assert [t for t in texts if t.startswith("M=")], "the moment's extreme is drawn"
+    warned = [w for w in json.loads(out.with_suffix(".json").read_text())["warnings"] if "want of room" in w]
+    assert len(warned) == 1 and re.search(r"\d+ value label\(s\) \([NVM]=", warned[0]), warned
+    assert "left out for want of room" in capsys.readouterr().err
+    assert "left out for want of room" in _notes(out)
+
+
+def test_a_probe_with_no_free_place_keeps_its_values_in_the_notes(tmp_path, capsys, monkeypatch):
+    """When no free place is found for a probe's values (simulated: the
+    search for a place farther out finds none), the marker is drawn without
+    them, never on the drafter's content; the values go to the notes and the
+    console, and a warning says so."""
+    from dxf2frame.draw import writer
+
+    monkeypatch.setattr(writer, "_far_spots", lambda *_a, **_k: (lambda _box: None))
+    (tmp_path / "dxf2frame.toml").write_text("[combinations]\nbuiltin = [\"LRFD\"]\n")
+    src = crowded_office_sheet(tmp_path / "crowded.dxf")
+    out = tmp_path / "o" / "crowded.dxf"
+    assert main(["solve", str(src), "--out", str(out), "--no-png", "--probe", "3000,4000"]) == 0
+    _check_clear(out)
+    msp = ezdxf.readfile(out).modelspace()
+    assert not [e for e in msp.query('TEXT[layer=="RESULT-TAGS"]') if e.dxf.text.startswith("P1 ")]
+    assert msp.query('CIRCLE[layer=="RESULT-TAGS"]'), "the marker itself is drawn"
+    notes = _notes(out)
+    assert "Probe values (not drawn" in notes and "P1 N=" in notes
+    warned = [w for w in json.loads(out.with_suffix(".json").read_text())["warnings"] if "probe marker" in w]
+    assert len(warned) == 1 and "P1 N=" in warned[0]
+    console = capsys.readouterr().out
+    assert [ln for ln in console.splitlines() if ln.startswith("probe (3000, 4000)")], console
 
 
 def test_text_height_and_fixed_moment_scale_from_settings(tmp_path):
@@ -228,6 +292,28 @@ def test_revisions_solved_in_one_batch_share_every_scale(tmp_path, workers):
     assert first == second and first, legends
 
 
+def test_compare_draws_no_diagrams_so_it_has_no_scale_to_share(tmp_path):
+    """``compare`` of two drawings writes the comparison and one change drawing
+    whose only result layer is the change marks: no diagram, no legend scale
+    (so no scale to share between the revisions; README, compare section)."""
+    from dxf2frame.draw.style import DEFAULT_OUTPUT_LAYERS
+
+    (tmp_path / "dxf2frame.toml").write_text(SETTINGS)
+    a = beam(tmp_path / "rev-A.dxf", span=6.0, insunits=6, scale=0.2, w="10 kN/m")
+    b = beam(tmp_path / "rev-B.dxf", span=6.0, insunits=6, scale=0.2, w="20 kN/m")
+    out = tmp_path / "cmp"
+    assert main(["compare", str(a), str(b), "--out", str(out)]) == 0
+    drawings = sorted(out.glob("*.dxf"))
+    assert [p.name for p in drawings] == ["rev-B-changes.dxf"]
+    assert not list(out.glob("*.png"))
+    doc = ezdxf.readfile(drawings[0])
+    layers = {e.dxf.layer for e in doc.modelspace()}
+    diagram_layers = {DEFAULT_OUTPUT_LAYERS[k] for k in ("axial", "shear", "moment", "deflected", "reactions")}
+    assert "RESULT-CHANGES" in layers and not layers & diagram_layers, layers
+    assert not [e for e in doc.modelspace().query("TEXT MTEXT")
+                if re.search(r"on the drawing = ", e.plain_text() if e.dxftype() == "MTEXT" else e.dxf.text)]
+
+
 def test_envelope_reactions_max_and_min_together_with_uplift(tmp_path):
     (tmp_path / "dxf2frame.toml").write_text('[combinations]\nbuiltin = ["LRFD"]\n')
     doc = ezdxf.new("R2018")
@@ -285,6 +371,31 @@ def test_result_drawing_renders_with_the_ezdxf_drawing_addon(tmp_path):
     fig.savefig(png, dpi=50)
     plt.close(fig)
     assert png.stat().st_size > 1000
+
+
+def test_the_preview_window_holds_every_text_whole(tmp_path):
+    """The PNG preview's window holds every text as drawn (its glyph
+    outlines, measured by matplotlib), not only its insertion point: a
+    reaction label at the frame's edge is not cut off."""
+    from dxf2frame.draw import preview
+
+    (tmp_path / "dxf2frame.toml").write_text("[combinations]\nbuiltin = [\"LRFD\"]\n")
+    src = office_sheet(tmp_path / "portal.dxf")
+    out = tmp_path / "o" / "portal.dxf"
+    assert main(["solve", str(src), "--out", str(out)]) == 0
+    assert out.with_suffix(".png").stat().st_size > 1000
+    scene = preview._Scene(ezdxf.readfile(out), lambda _layer: True)
+    x0, y0, x1, y1 = scene.box
+    tol = 1e-6 * max(x1 - x0, y1 - y0)
+    checked = 0
+    for (_layer, x, y, h, rot, text, _c, ha, va) in scene.shapes.texts:
+        path = preview._text_path(text, h, rot, ha, va, x, y)
+        if path is None:
+            continue
+        e = path.get_extents()
+        assert x0 - tol <= e.x0 and e.x1 <= x1 + tol and y0 - tol <= e.y0 and e.y1 <= y1 + tol, text
+        checked += 1
+    assert checked > 20
 
 
 def test_member_tags_match_the_report_ids_and_no_empty_mechanism_layer(tmp_path):
@@ -421,3 +532,81 @@ def test_probe_marked_on_the_tags_layer(tmp_path):
     probe = [t for t in texts if t.startswith("P1 ")]
     # AISC Manual Table 3-23 Case 1 (from memory): at midspan V = 0, M = w l^2 / 8 = 45 kN*m
     assert probe and "M=45" in probe[0], texts
+
+
+# -- hand-check sheets: symbols sized from the sheet's scale, texts clear of each other -------------
+
+
+def _gable_free_body(x: float):
+    """A gable frame like the demo's (columns 5 m, rafters rising 1.5 m over
+    4.5 m, fixed feet), three distributed loads stacked on each rafter (dead,
+    snow on plan, wind along the rafter's normal) and a sway load; cut in the
+    left rafter at ``x`` [m] from its start."""
+    from dxf2frame.solver import DistributedLoad, Frame, NodalLoad, Section, solve
+
+    sec = Section(E=200e9, A=5e-3, I=8e-5)
+    f = Frame()
+    n = [f.add_node(*p) for p in ((0, 0), (0, 5), (4.5, 6.5), (9, 5), (9, 0))]
+    f.add_member(n[0], n[1], sec, id="C1")
+    r1 = f.add_member(n[1], n[2], sec, id="R1")
+    r2 = f.add_member(n[2], n[3], sec, id="R2")
+    f.add_member(n[4], n[3], sec, id="C2")
+    f.add_support(n[0], "fixed")
+    f.add_support(n[4], "fixed")
+    for r in (r1, r2):
+        f.add_load(DistributedLoad(r.id, q1=(0.0, -1.8e3)))
+        f.add_load(DistributedLoad(r.id, q1=(0.0, -1.2e3), projected=True))
+        f.add_load(DistributedLoad(r.id, q1=(0.0, -0.7e3), q2=(0.0, -0.2e3)))
+    f.add_load(NodalLoad(n[1], fx=4e3))
+    res = solve(f)["D"]
+    from dxf2frame.handcheck import cut_free_body
+
+    return cut_free_body(f, res, r1.id, x, side="end")
+
+
+def _texts_and_arrows(fig):
+    """(text, box in display pixels) of every non-empty text of the figure's
+    axes (titles included), and (gid, arrow style, length [inch]) of every
+    arrow, measured by matplotlib's own renderer after drawing."""
+    from matplotlib.text import Annotation
+
+    fig.canvas.draw()
+    renderer = fig.canvas.get_renderer()
+    texts, arrows = [], []
+    for ax in fig.axes:
+        for t in [*ax.texts, ax.title]:
+            if isinstance(t, Annotation):
+                tail = ax.transData.transform(t.xyann)
+                head = ax.transData.transform(t.xy)
+                arrows.append((t.get_gid(), t.arrowprops["arrowstyle"], float(np.hypot(*(head - tail))) / fig.dpi))
+            if t.get_text().strip() and t.get_visible():
+                b = t.get_window_extent(renderer)
+                texts.append((t.get_text(), (b.x0, b.y0, b.x1, b.y1)))
+    return texts, arrows
+
+
+@pytest.mark.parametrize("x", [0.2, 2.5, 4.74])
+def test_hand_check_sheet_texts_clear_and_arrows_readable(x):
+    """On the figure of a hand-check sheet (PNG) and its PDF page no two
+    texts' boxes intersect (matplotlib's renderer measures them: the sheet
+    is a matplotlib figure, not a DXF), and every force arrow keeps a
+    readable length on the paper whatever the free body's size."""
+    from dxf2frame.handcheck.figures import sheet_figure, sheet_page
+    from dxf2frame.report import unit_factors
+
+    fb = _gable_free_body(x)
+    uf = unit_factors("kN", "m")
+    for fig in (sheet_figure(fb, uf), sheet_page(fb, uf, ["sheet text"])):
+        texts, arrows = _texts_and_arrows(fig)
+        assert len(texts) > 8
+        for i, (a, ba) in enumerate(texts):
+            for b, bb in texts[i + 1:]:
+                assert not _overlap(ba, bb), (a, b)
+        forces = [length for gid, _style, length in arrows if gid == "force"]
+        rows = [length for gid, style, length in arrows if gid == "row" and style == "-|>"]
+        assert len(forces) >= 6 and rows
+        # an arrow shorter than about 0.4 inch on paper reads as a tick (common practice)
+        assert min(forces) >= 0.4, sorted(forces)[:3]
+        # a row arrow keeps at least about three head lengths (common practice)
+        assert min(rows) >= 0.12, sorted(rows)[:3]
+

@@ -60,15 +60,20 @@ point.  When nothing near is free:
 * interior extremes and constant values try rings farther out (1.5, 3 and
   5 text heights, with a leader) and are dropped only if those are full
   too (a dense frame seen whole);
-* the diagram's overall extreme and the reactions are always written (reactions
-  try rings out to 12 text heights), on
-  top of other labels if need be (``DrawingSummary.forced``).
+* the diagram's overall extreme and the reactions try rings out to 12
+  text heights (reactions) and then the nearest free place on the whole
+  drawing (:func:`dxf2frame.draw.obstacles.free_spot`, outside the
+  drawing's extents when nothing inside is free), with a leader; they are
+  never written on the drafter's content nor on another result text.
+
+Every value dropped is named in a warning (console, report, notes layer;
+``DrawingSummary.dropped`` counts them, ``dropped_values`` lists them).
 """
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Iterable, Sequence
+from typing import TYPE_CHECKING, Callable, Iterable, Sequence
 
 import numpy as np
 import shapely
@@ -99,6 +104,8 @@ _MAX_TEXT_OBSTACLES = 1000  # the drawing's own texts labels keep off (none when
 # -- placing boxes -------------------------------------------------------------
 
 Box = tuple[float, float, float, float]
+#: finds a free place for a box anywhere on the drawing: the shift (dx, dy), or None
+FarSpot = Callable[[Box], "tuple[float, float] | None"]
 
 
 _PIECE = 16  # segments per piece of a long line in the placer's index
@@ -458,9 +465,12 @@ def _candidates(sp: Spot, kind: str, half_w: float, half_h: float, h: float, far
     return np.vstack([np.array(first), _ring(sp.anchor, half_w, half_h, (gap, 1.2 * h), pref)])
 
 
-def _place_one(placer: LabelPlacer, lb: Label, font, h: float):
+def _place_one(placer: LabelPlacer, lb: Label, font, h: float, far_spot: "FarSpot | None" = None):
     """(spot, x, y, half_w, half_h) where ``lb`` is written, or None when it
-    is dropped (no free spot, and not allowed to overlap)."""
+    is dropped (no free spot).  A label that must be written (``force``)
+    and finds nothing free near goes to the free spot ``far_spot`` finds
+    (farther out, written with a leader), or is dropped when that place
+    is taken too; with no ``far_spot`` it is written where it overlaps."""
     opts = []
     for sp in lb.spots:
         hw = 0.5 * text_width(font, sp.text, h) + 0.15 * h
@@ -484,6 +494,16 @@ def _place_one(placer: LabelPlacer, lb: Label, font, h: float):
         return None
     sp, hw, hh = opts[0]
     c = _candidates(sp, lb.kind, hw, hh, h)[0]
+    if far_spot is not None:                                    # a free place farther out, or none
+        got = far_spot((float(c[0]) - hw, float(c[1]) - hh, float(c[0]) + hw, float(c[1]) + hh))
+        if got is None:
+            return None
+        x, y = float(c[0]) + got[0], float(c[1]) + got[1]
+        b = (x - hw, y - hh, x + hw, y + hh)
+        if not placer.free_of_boxes(b):
+            return None
+        placer.take(b)
+        return sp, x, y, hw, hh
     x, y, _ok = placer.place([(float(c[0]), float(c[1]))], hw, hh)      # nothing free: overlap
     return sp, x, y, hw, hh
 
@@ -503,10 +523,13 @@ def _apart(sp: Spot, x: float, y: float, half_w: float, half_h: float) -> float:
     return min(gaps)
 
 
-def place_labels(pen: Pen, placer: LabelPlacer, labels: list[Label], font, h: float) -> tuple[int, set[int]]:
+def place_labels(pen: Pen, placer: LabelPlacer, labels: list[Label], font, h: float,
+                 far_spot: "FarSpot | None" = None) -> tuple[list[str], set[int]]:
     """Write the labels of one layer, most important (then largest) first;
-    returns (labels dropped, envelope keys written)."""
-    dropped, used = 0, set()
+    returns (the texts of the labels dropped, envelope keys written).
+    ``far_spot``: see :func:`_place_one`."""
+    dropped: list[str] = []
+    used: set[int] = set()
     lost: set[int] = set()          # id() of the labels dropped
     order = sorted(range(len(labels)),
                    key=lambda k: (labels[k].priority, -float(f"{abs(labels[k].value):.9g}"), k))
@@ -516,17 +539,17 @@ def place_labels(pen: Pen, placer: LabelPlacer, labels: list[Label], font, h: fl
         while partner is not None and partner.merged_into is not None:
             partner = partner.merged_into
         # the other bound at an end is not written without the larger one
-        got = None if partner is not None and id(partner) in lost else _place_one(placer, lb, font, h)
+        got = None if partner is not None and id(partner) in lost else _place_one(placer, lb, font, h, far_spot)
         if got is None:
             lost.add(id(lb))
-            dropped += 1
+            dropped.append(lb.spots[0].text)
             continue
         sp, x, y, hw, hh = got
         if _apart(sp, x, y, hw, hh) > 1.0 * h:
             # a leader from the point to the label when the label does not sit right beside it
             q = np.array([min(max(sp.anchor[0], x - hw), x + hw), min(max(sp.anchor[1], y - hh), y + hh)])
             pen.line(sp.anchor, q, lb.layer)
-        pen.text(sp.text, (x, y), h, lb.layer)
+        pen.text(sp.text, (x, y + centre_lift(font, h)), h, lb.layer)
         if sp.key is not None:
             used.add(sp.key)
     return dropped, used
@@ -603,6 +626,20 @@ def label_font(h: float):
         return fonts.make_font(TEXT_STYLES["D2F-LABELS"], cap_height=h)
     except Exception:  # noqa: BLE001 - no font machinery: estimate widths
         return None
+
+
+def centre_lift(font, h: float) -> float:
+    """How far above a box's centre a middle-centred TEXT of cap height
+    ``h`` is inserted so that its extents (cap height above the baseline,
+    the font's descender below, as ``ezdxf.bbox`` measures them) are
+    centred in the box: half the descender."""
+    d = None
+    if font is not None:
+        try:
+            d = float(font.measurements.descender_height) * h / float(font.measurements.cap_height)
+        except Exception:  # noqa: BLE001 - no metrics: a typical sans-serif descender
+            d = None
+    return 0.5 * (d if d is not None and d >= 0 else 0.3 * h)
 
 
 def text_width(font, text: str, h: float) -> float:

@@ -64,7 +64,10 @@ def _wrap_items(head: str, items: list[str], width: int = 0) -> list[str]:
     return rows + [row]
 
 
-def notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list[str]) -> list[str]:
+def notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list[str],
+                     more_warnings: list[str] | tuple = ()) -> list[str]:
+    """The notes block's paragraphs; ``more_warnings``: the drawing's own
+    (values left out for want of room), listed with the model's."""
     paras = [
         f"dxf2frame {__version__}",
         f"Source: {Path(model.source).name}",
@@ -87,6 +90,7 @@ def notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list
         paras.append(det.detail)
     paras += extra + list(model.notes)
     warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
+    warnings += [w for w in more_warnings if w not in warnings]
     if warnings:
         paras.append(f"Warnings ({len(warnings)}):")
         paras += [f"- {w}" for w in warnings[:_MAX_WARNINGS]]
@@ -99,7 +103,7 @@ def notes_paragraphs(model, det, uf: UnitFactors | None, shown: str, extra: list
 def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str, str],
                            legend: list[tuple[str, str]], h: float, uf: UnitFactors | None, shown: str,
                            envelope: bool, *, content: Box, keys: dict[str, list[tuple[int, str]]],
-                           font, extra: list[str] | None = None) -> list[list]:
+                           font, extra: list[str] | None = None, warnings: list[str] | tuple = ()) -> list[list]:
     """The legend: per result layer a swatch, its scale line and the keys of
     the combinations that govern a value written on it (all on that layer);
     then the title and the notes block (notes layer).
@@ -110,7 +114,8 @@ def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str
     notes).  Either way the result layers' own content stays close to the
     frame, so a picture of one layer wastes little room.
 
-    ``extra``: more notes paragraphs (the reaction schedule).
+    ``extra``: more notes paragraphs (the reaction schedule); ``warnings``:
+    the drawing's own warnings, listed with the model's.
     Returns the entities drawn as two groups, the legend blocks and the
     title with the notes, so the caller can move each clear of the
     drawing's own content.
@@ -170,7 +175,7 @@ def draw_legend_and_notes(pen: Pen, model, det, geom: FrameGeom, names: dict[str
             pen.text(row, (x0, y), h, names["notes"], style="D2F-NOTES", align=TextEntityAlignment.TOP_LEFT)
             y -= pitch
         y -= 0.4 * h
-    paras = notes_paragraphs(model, det, uf, shown, list(extra or []))
+    paras = notes_paragraphs(model, det, uf, shown, list(extra or []), warnings)
     pen.notes(paras, (x0, y - 0.8 * h), h, max(0.6 * size, 45 * h), names["notes"])
     added = list(msp)[n0:]
     return [added[:n1 - n0], added[n1 - n0:]]

@@ -33,6 +33,7 @@ Box = tuple[float, float, float, float]
 _BIG_INSERT = 0.4          # a block reference wider and taller than this fraction of the extents is expanded
 _MAX_CANDIDATES = 40_000   # positions tried inside the extents for one box
 _FAR = 1e12                # coordinates beyond this [drawing units] are no drawing's content (as in the preview)
+_OUTSIDE_STEPS = 64        # positions tried outward from each side of the extents
 
 
 @dataclass
@@ -210,23 +211,29 @@ def _extents(polys: list[np.ndarray], boxes: Iterable[Box]) -> Box | None:
     return (float(a[0]), float(a[1]), float(z[0]), float(z[1]))
 
 
-def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float) -> tuple[float, float]:
+def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float, *,
+              tree: "shapely.STRtree | None" = None, inside: bool = True) -> tuple[float, float]:
     """Shift (dx, dy) that moves ``box`` to the nearest place touching none
     of ``obstacles`` (shapely geometries) with ``gap`` around it.
 
     Places inside ``extents`` come first (nearest to where the box is);
     when none is free, the nearest place just outside the extents (right,
-    below, left or above).  (0, 0) when the box is free where it is.
+    below, left or above; farther out past obstacles beyond the extents).
+    (0, 0) when the box is free where it is.  ``tree``: more obstacles,
+    indexed once by the caller (many boxes placed against one drawing);
+    ``inside`` False: no search inside the extents (the caller searched
+    near the box already), only the places outside them.
     """
     geoms = [g for g in obstacles if g is not None and not g.is_empty]
-    tree = shapely.STRtree(geoms) if geoms else None
+    trees = [t for t in (shapely.STRtree(geoms) if geoms else None, tree) if t is not None]
     w, h = box[2] - box[0], box[3] - box[1]
 
     def free(x0: np.ndarray, y0: np.ndarray) -> np.ndarray:
         ok = np.ones(len(x0), dtype=bool)
-        if tree is not None and len(x0):
+        if len(x0):
             cand = shapely.box(x0 - gap, y0 - gap, x0 + w + gap, y0 + h + gap)
-            ok[tree.query(cand, predicate="intersects")[0]] = False
+            for t in trees:
+                ok[t.query(cand, predicate="intersects")[0]] = False
         return ok
 
     if free(np.array([box[0]]), np.array([box[1]]))[0]:
@@ -234,7 +241,7 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float) ->
     if extents is None:
         return 0.0, 0.0
     ex0, ey0, ex1, ey1 = extents
-    if ex1 - ex0 > w and ey1 - ey0 > h:
+    if inside and ex1 - ex0 > w and ey1 - ey0 > h:
         step = max(min(w, h) / 2, gap, 1e-9)
         nx, ny = (ex1 - ex0 - w) / step + 1, (ey1 - ey0 - h) / step + 1
         if nx * ny > _MAX_CANDIDATES:
@@ -248,15 +255,22 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float) ->
             k = int(np.argmin(d))
             return float(gx[ok][k] - box[0]), float(gy[ok][k] - box[1])
     # outside the extents: right, below, left, above, each at the nearest
-    # position along that side
+    # position along that side, stepping farther out past anything already
+    # placed there (the obstacles may reach beyond the extents)
     top = min(max(box[1], ey0), ey1 - h) if ey1 - ey0 > h else ey1 - h
     left = min(max(box[0], ex0), ex1 - w) if ex1 - ex0 > w else ex0
-    outside = [
-        (ex1 + 2 * gap, top),
-        (left, ey0 - 2 * gap - h),
-        (ex0 - 2 * gap - w, top),
-        (left, ey1 + 2 * gap),
+    k = np.arange(_OUTSIDE_STEPS, dtype=float)
+    sides = [
+        (ex1 + 2 * gap + k * (w + gap), np.full_like(k, top)),
+        (np.full_like(k, left), ey0 - 2 * gap - h - k * (h + gap)),
+        (ex0 - 2 * gap - w - k * (w + gap), np.full_like(k, top)),
+        (np.full_like(k, left), ey1 + 2 * gap + k * (h + gap)),
     ]
+    outside = []
+    for xs, ys in sides:
+        ok = np.flatnonzero(free(xs, ys))
+        j = int(ok[0]) if len(ok) else len(k) - 1
+        outside.append((float(xs[j]), float(ys[j])))
     best = min(outside, key=lambda p: np.hypot(p[0] - box[0], p[1] - box[1]))
     return float(best[0] - box[0]), float(best[1] - box[1])
 

@@ -473,6 +473,12 @@ class _Scene:
             for k, v in one.fills.items():
                 self.shapes.fills.setdefault(k, []).extend(v)
             self.shapes.texts.extend(one.texts)
+        if self.shapes.texts:                         # every text whole, not only its insertion point
+            corners = _text_corners(self.shapes.texts)
+            corners = corners[np.all(np.isfinite(corners), axis=1) & (np.abs(corners).max(axis=1) <= _MAX_COORDINATE)]
+            if len(corners):
+                lo = np.minimum(lo, corners.min(axis=0))
+                hi = np.maximum(hi, corners.max(axis=0))
         self.box = None
         if np.isfinite(lo).all() and (hi - lo).max() > 0:
             self.box = (float(lo[0]), float(lo[1]), float(hi[0]), float(hi[1]))
@@ -526,8 +532,9 @@ class _Scene:
         elif kind == "MTEXT":
             ins = e.dxf.insert
             ha, va = _MTEXT_ALIGN.get(e.dxf.get("attachment_point", 1), ("left", "top"))
-            out.texts.append((layer, ins.x, ins.y, e.dxf.get("char_height", 1.0), e.get_rotation(),
-                              e.plain_text(), style[0], ha, va))
+            h = e.dxf.get("char_height", 1.0)
+            out.texts.append((layer, ins.x, ins.y, h, e.get_rotation(),
+                              _wrapped(e.plain_text(), e.dxf.get("width", 0.0), h), style[0], ha, va))
         elif kind == "INSERT":
             self._insert(e, layer, out, style, depth)
         elif kind in ("POLYLINE", "ELLIPSE", "SPLINE"):
@@ -671,6 +678,45 @@ def _text_path(text: str, h: float, rot: float, ha: str, va: str, x: float, y: f
     dx = {"left": 0.0, "center": -(x0 + x1) / 2, "right": -x1}[ha]
     dy = {"baseline": 0.0, "bottom": -y0, "center": -(y0 + y1) / 2, "top": -y1}[va]
     return Affine2D().translate(dx, dy).rotate_deg(rot).translate(x, y).transform_path(path)
+
+
+#: em per character of a line of text, an upper estimate of DejaVu Sans' average advance
+#: (digits 0.64 em, lower case about 0.6 em; common practice for sizing text boxes)
+_EM_PER_CHAR = 0.68
+
+
+def _wrapped(text: str, width: float, h: float) -> str:
+    """An MTEXT's lines wrapped to its column ``width`` (drawing units; 0:
+    no column), at about as many characters as fit, as CAD shows it."""
+    import textwrap
+
+    if not width or width <= 0 or not h > 0:
+        return text
+    chars = max(8, int(width / (_EM_PER_CHAR * h * _EM_PER_CAP)))
+    return "\n".join(row for line in text.splitlines()
+                     for row in (textwrap.wrap(line, chars, break_on_hyphens=False) or [""]))
+
+
+def _text_corners(texts: list[tuple]) -> np.ndarray:
+    """Corners (4k, 2) of the boxes the texts take as :func:`_text_path`
+    draws them (estimated from the character count, without outlining the
+    glyphs; all texts at once): so the picture's window holds every text
+    whole, not only its insertion point."""
+    rows = [[ln for ln in str(t[5]).splitlines() if ln.strip()] or [""] for t in texts]
+    x, y, h, rot = (np.array([t[j] for t in texts], dtype=float) for j in (1, 2, 3, 4))
+    n_lines = np.array([len(r) for r in rows], dtype=float)
+    w = np.array([max(len(ln) for ln in r) for r in rows], dtype=float) * _EM_PER_CHAR * h * _EM_PER_CAP
+    lo, hi = -(n_lines - 1) * _LINE_SPACING * h - 0.3 * h, h             # descender below, cap height above
+    dx = np.select([np.array([t[7] == "center" for t in texts]), np.array([t[7] == "right" for t in texts])],
+                   [-w / 2, -w], 0.0)
+    va = np.array([t[8] for t in texts])
+    dy = np.select([va == "bottom", va == "center", va == "top"], [-lo, -(lo + hi) / 2, -hi], 0.0)
+    cx = np.stack([dx, dx + w, dx + w, dx], axis=1)                     # (k, 4)
+    cy = np.stack([lo + dy, lo + dy, hi + dy, hi + dy], axis=1)
+    a = np.radians(rot)[:, None]
+    px = x[:, None] + cx * np.cos(a) - cy * np.sin(a)
+    py = y[:, None] + cx * np.sin(a) + cy * np.cos(a)
+    return np.stack([px.ravel(), py.ravel()], axis=1)
 
 
 def _font():

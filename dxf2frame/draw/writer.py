@@ -59,9 +59,9 @@ from ..drawing_file import open_document
 from .curves import (DIAGRAMS, FrameGeom, frame_geom, chord_tolerance, sample_curves, drawn_curves, FlatCurve, has_batch, sample_batch,
                              sample_member_by_member, segment_max, straight_chains, thin, zero_crossings)
 from ..errors import SettingsError
-from .obstacles import DrawingObstacles, drawing_obstacles, keep_clear
+from .obstacles import DrawingObstacles, drawing_obstacles, free_spot, keep_clear
 from .labels import (OTHER_SIGN, PRIORITY, SAME_AT_JOINT, Box, LabelPlacer, as_lines, drawing_texts,
-                     label_requests, label_font, Label, merge_at_joints, geometries_near, place_labels, Spot, text_width)
+                     label_requests, label_font, Label, centre_lift, merge_at_joints, geometries_near, place_labels, Spot, text_width)
 from .legend import draw_legend_and_notes, notes_paragraphs
 from ..numbers import label_value
 from ..report.report import UnitFactors, unit_factors
@@ -158,8 +158,13 @@ class DrawingSummary:
     deflection_factor : exaggeration of the deflected shape (None: not drawn)
     text_height : label height [drawing units]
     labels, forced : labels written, and how many of them overlap something
-        (a diagram's overall extreme or a reaction with no free spot)
+        (none: a label with no free spot near goes farther out, or is
+        dropped; see :mod:`dxf2frame.draw.labels`)
     dropped : values left out for want of room (see the module docstring)
+    dropped_values : their texts (member tags: the member id)
+    warnings : what the drawing could not show as asked (values left out,
+        a probe with no free place); also in the notes, and the pipeline
+        adds them to the report's warnings and the console
     entities : entities added
     shown : the notes' description of what is drawn
     content : the drawing's own entities as obstacles (measured once, for
@@ -174,6 +179,8 @@ class DrawingSummary:
     labels: int = 0
     forced: int = 0
     dropped: int = 0
+    dropped_values: list[str] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
     content: "DrawingObstacles | None" = field(default=None, repr=False)
     entities: int = 0
     shown: str = ""
@@ -465,6 +472,8 @@ def annotate_results(
     taken: dict = {}                                   # every layer's label boxes: no two result texts overlap
     if arrows:
         boxes.append(tuple(float(v) for v in shapely.total_bounds(arrows)))
+    all_lines = list(arrows) + [g for key in lines for g in as_lines(lines[key])]
+    far = _far_spots(obst, list(members) + all_lines, taken, geom.bounds, 0.3 * h, 10.0 * h)
     for key, todo in labels.items():
         if not todo:
             continue
@@ -473,15 +482,25 @@ def annotate_results(
         own = list(arrows) if key == "reactions" else geometries_near(as_lines(lines.get(key, [])), todo, reach)
         placer = LabelPlacer(geometries_near(members, todo, reach) + own + geometries_near(obst.geoms, todo, reach),
                              cell=4 * h, taken=taken)
-        dropped, used[key] = place_labels(pen, placer, todo, font, h)
+        dropped, used[key] = place_labels(pen, placer, todo, font, h, far)
         summary.labels += placer.placed
         summary.forced += placer.forced
-        summary.dropped += dropped
+        summary.dropped_values += dropped
         if placer.extent is not None:
             boxes.append(placer.extent)
-    summary.dropped += _draw_tags(pen, model, geom, names["tags"], h, font, members, obst, taken)
+    tags_left_out = _draw_tags(pen, model, geom, names["tags"], h, font, members, obst, taken)
+    summary.dropped_values += tags_left_out
+    summary.dropped = len(summary.dropped_values)
+    if summary.dropped:
+        summary.warnings.append(_dropped_warning(summary.dropped_values, tags_left_out))
+    probe_notes: list[str] = []
     if probes:
-        _draw_probes(pen, model, sel, probes, names["tags"], h, font, uf, members, obst, taken)
+        unplaced = _draw_probes(pen, model, sel, probes, names["tags"], h, font, uf, members, obst, taken, far)
+        if unplaced:
+            probe_notes = [f"Probe values (not drawn, no free place on the drawing): {'; '.join(unplaced)}"]
+            summary.warnings.append(
+                f"drawing: {len(unplaced)} probe marker(s) found no free place on the drawing and are not "
+                f"drawn; their values are in the notes, the report and the console: {'; '.join(unplaced)}")
     if bent is not None and len(bent):
         boxes.append((*bent.min(0), *bent.max(0)))
     b = np.array(boxes, dtype=float)
@@ -497,12 +516,58 @@ def annotate_results(
         shown = head + ": " + ", ".join(f"C{k + 1} = {r.name}" for k, r in enumerate(sel.results))
     groups = draw_legend_and_notes(pen, model, det, geom, names, legend, h, uf, shown, sel.envelope,
                                    content=content, keys=keys, font=font,
-                                   extra=_schedule_notes(schedule, uf))
+                                   extra=_schedule_notes(schedule, uf) + probe_notes,
+                                   warnings=summary.warnings)
     placed = [shapely.box(*b) for cell in taken.values() for b in cell]
     keep_clear(groups, obst, list(members) + [shapely.box(*b) for b in boxes] + placed,
                 content, 0.8 * h)
     summary.entities = pen.count
     return summary
+
+
+_LISTED_DROPS = 12          # dropped values named in the warning (the rest counted)
+
+
+def _dropped_warning(texts: list[str], tags: list[str]) -> str:
+    """The warning naming the values left out of the drawing for want of room."""
+    values = texts[:len(texts) - len(tags)]                  # the member tags come last
+    named = [("zero-crossing mark" if t == "0" else t) for t in values[:_LISTED_DROPS]]
+    more = f" and {len(values) - _LISTED_DROPS} more" if len(values) > _LISTED_DROPS else ""
+    parts = []
+    if values:
+        parts.append(f"{len(values)} value label(s) ({', '.join(named)}{more}); every value is in the report")
+    if tags:
+        parts.append(f"{len(tags)} member tag(s) ({', '.join(tags[:_LISTED_DROPS])}"
+                     f"{' ...' if len(tags) > _LISTED_DROPS else ''}); the ids are in the report")
+    return f"drawing: left out for want of room: {'; '.join(parts)}"
+
+
+def _far_spots(obst: DrawingObstacles, ours: list, taken: dict, frame_box: Box, gap: float, near: float):
+    """A function giving, for a label box with nothing free near it, the
+    shift to the nearest place clear of the drawing's own content, of
+    ``ours`` (member lines, outlines, arrows) and of every label placed so
+    far (:func:`dxf2frame.draw.obstacles.free_spot`): within widening
+    windows around the box up to ``near``, else just outside the drawing's
+    extents.  The drawing's content is indexed once."""
+    ext = frame_box if obst.extents is None else (
+        min(frame_box[0], obst.extents[0]), min(frame_box[1], obst.extents[1]),
+        max(frame_box[2], obst.extents[2]), max(frame_box[3], obst.extents[3]))
+    fixed = [g for g in list(obst.geoms) + list(ours) if g is not None and not g.is_empty]
+    tree = shapely.STRtree(fixed) if fixed else None
+
+    def far(box: Box) -> tuple[float, float] | None:
+        for r in (0.3 * near, near):                   # widening windows around the box (past the extents too)
+            window = (box[0] - r, box[1] - r, box[2] + r, box[3] + r)
+            placed = [shapely.box(*b) for cell in taken.values() for b in cell
+                      if b[0] < window[2] and b[2] > window[0] and b[1] < window[3] and b[3] > window[1]]
+            dx, dy = free_spot(box, placed, window, gap, tree=tree)
+            if (window[0] <= box[0] + dx and box[2] + dx <= window[2]
+                    and window[1] <= box[1] + dy and box[3] + dy <= window[3]):
+                return dx, dy                         # a free place near
+        placed = [shapely.box(*b) for cell in taken.values() for b in cell]
+        return free_spot(box, placed, ext, gap, tree=tree, inside=False)   # outside the drawing's extents
+
+    return far
 
 
 def _drawing_content(doc, result_layers) -> DrawingObstacles:
@@ -545,16 +610,16 @@ def _drop_layer(doc, name: str) -> None:
 
 
 def _draw_tags(pen: Pen, model, geom: FrameGeom, layer: str, h: float, font, members, obst: DrawingObstacles,
-               taken: dict) -> int:
+               taken: dict) -> list[str]:
     """The member tags: each reported member's id (a drawn span, its pieces
     grouped) beside its middle, clear of everything placed; returns the
-    tags left out for want of room."""
+    ids of the tags left out for want of room."""
     frame = model.frame
     spans: dict[str, list[int]] = {}
     for i, m in enumerate(frame.members):
         spans.setdefault(m.group, []).append(i)
     if not spans:
-        return 0
+        return []
     th = 0.8 * h
     near = list(obst.near((geom.bounds[0] - 10 * h, geom.bounds[1] - 10 * h,
                            geom.bounds[2] + 10 * h, geom.bounds[3] + 10 * h)))
@@ -580,26 +645,32 @@ def _draw_tags(pen: Pen, model, geom: FrameGeom, layer: str, h: float, font, mem
              + n[:, None, None, None, :] * side * d[:, None, :, None, None]).reshape(len(ids), 30, 2)
     # the obstacles do not change while tags are placed: one query for every candidate of every tag
     clear = placer.free_of_obstacles(cands.reshape(-1, 2), np.repeat(hws, 30), hh).reshape(len(ids), 30)
-    dropped = 0
+    dropped: list[str] = []
     for k, gid in enumerate(ids):
         hw = hws[k]
         for cx, cy in cands[k][clear[k]]:
             box = (cx - hw, cy - hh, cx + hw, cy + hh)
             if placer.free_of_boxes(box):
                 placer.take(box)
-                pen.text(gid, (float(cx), float(cy)), th, layer)
+                pen.text(gid, (float(cx), float(cy) + centre_lift(font, th)), th, layer)
                 break
         else:
-            dropped += 1
+            dropped.append(gid)
     return dropped
 
 
 def _draw_probes(pen: Pen, model, sel: Selection, probes, layer: str, h: float, font, uf: UnitFactors,
-                 members, obst: DrawingObstacles, taken: dict) -> None:
-    """A marker at each probe point and its N, V, M beside it (tags layer)."""
+                 members, obst: DrawingObstacles, taken: dict, far_spot=None) -> list[str]:
+    """A marker at each probe point and its N, V, M beside it (tags layer),
+    clear of the drawing's content and of every result text: beside the
+    point when there is room, else at the free place ``far_spot`` finds
+    (with a leader).  A probe whose values find no free place gets the
+    marker only; returns the texts of those probes (for the notes and a
+    warning)."""
     from ..report.report import locate_points
 
     placer = LabelPlacer(list(members) + list(obst.geoms), cell=4 * h, taken=taken)
+    unplaced: list[str] = []
     for k, ((px, py), (mid, xl)) in enumerate(zip(probes, locate_points(model, probes)), start=1):
         x = np.array([xl])
         vals = [(float(np.asarray(r.members[mid].axial(x))[0]), float(np.asarray(r.members[mid].shear(x))[0]),
@@ -613,8 +684,20 @@ def _draw_probes(pen: Pen, model, sel: Selection, probes, layer: str, h: float, 
         hw, hh = 0.5 * text_width(font, text, h) + 0.15 * h, 0.7 * h
         ring = [(px + dx * (hw + 0.6 * h * s), py + dy * (hh + 0.6 * h * s))
                 for s in (1, 3, 6) for dx, dy in ((1, 1), (-1, 1), (1, -1), (-1, -1), (0, 1), (0, -1))]
-        cx, cy, _fitted = placer.place(ring, hw, hh)
-        pen.text(text, (cx, cy), h, layer)
+        at = next(((cx, cy) for cx, cy in ring if placer.try_place(cx, cy, hw, hh)), None)
+        if at is None and far_spot is not None:
+            cx, cy = ring[0]
+            got = far_spot((cx - hw, cy - hh, cx + hw, cy + hh))
+            if got is not None and placer.try_place(cx + got[0], cy + got[1], hw, hh):
+                at = (cx + got[0], cy + got[1])
+                # a leader from the marker to the nearest point of the text's box
+                q = (min(max(px, at[0] - hw), at[0] + hw), min(max(py, at[1] - hh), at[1] + hh))
+                pen.line((px, py), q, layer)
+        if at is None:
+            unplaced.append(f"{text} at ({px:g}, {py:g})")
+            continue
+        pen.text(text, (at[0], at[1] + centre_lift(font, h)), h, layer)
+    return unplaced
 
 
 def _schedule_notes(schedule: list[str], uf: UnitFactors) -> list[str]:
@@ -907,8 +990,9 @@ def write_result_drawing(
     scales: Mapping[str, float] | None = None,
     probes: Sequence[tuple[float, float]] = (),
     extra: "Callable[[Drawing, DrawingObstacles | None], object] | None" = None,
-) -> None:
-    """Write a copy of ``source`` with the result layers to ``out`` (atomic).
+) -> DrawingSummary:
+    """Write a copy of ``source`` with the result layers to ``out`` (atomic);
+    returns what was drawn (:class:`DrawingSummary`, with its warnings).
 
     Parameters
     ----------
@@ -944,6 +1028,7 @@ def write_result_drawing(
         extra(doc, summary.content)
     with atomic_path(out) as tmp:
         doc.saveas(tmp)
+    return summary
 
 
 # -- unstable frames -----------------------------------------------------------
