@@ -7,6 +7,7 @@ import ezdxf
 import numpy as np
 import pytest
 from ezdxf import bbox
+from ezdxf.enums import TextEntityAlignment
 
 from dxf2frame.draw.obstacles import drawing_obstacles
 from dxf2frame.symbols import define_blocks, define_layers, insert_symbol
@@ -29,7 +30,13 @@ def _sheet():
     blk.add_attdef("NO", (0, 0), dxfattribs={"height": 0.3})
     bubble = msp.add_blockref("GRID-BUBBLE", (0.0, 8.0), dxfattribs={"xscale": 2.0, "yscale": 2.0})
     bubble.add_attrib("NO", "A", (0.0, 8.0), dxfattribs={"height": 0.6})
-    return doc, refs + [bubble], turned
+    bubbles = [bubble]
+    for x in (7.0, 14.0):   # the same text twice, centred on its bubble (measured once, placed twice)
+        other = msp.add_blockref("GRID-BUBBLE", (x, 8.0), dxfattribs={"xscale": 2.0, "yscale": 2.0})
+        att = other.add_attrib("NO", "B", (x, 8.0), dxfattribs={"height": 0.6})
+        att.set_placement((x, 8.0), align=TextEntityAlignment.MIDDLE_CENTER)
+        bubbles.append(other)
+    return doc, refs + bubbles, turned
 
 
 def _ezdxf_box(e):

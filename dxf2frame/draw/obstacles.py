@@ -120,8 +120,9 @@ def _boxes_of(entities: Sequence, boxes: list[Box], cache) -> None:
     from ezdxf import bbox
 
     blocks: dict[str, Box | None] = {}
+    texts: dict[tuple, Box | None] = {}
     for e in entities:
-        got = _insert_box(e, blocks) if e.dxftype() == "INSERT" else None
+        got = _insert_box(e, blocks, texts) if e.dxftype() == "INSERT" else None
         if got is None:
             try:
                 b = bbox.extents([e], fast=True, cache=cache)
@@ -131,11 +132,12 @@ def _boxes_of(entities: Sequence, boxes: list[Box], cache) -> None:
         boxes.append(got if got is not None else (np.nan,) * 4)
 
 
-def _insert_box(e, blocks: dict[str, Box | None]) -> Box | None:
+def _insert_box(e, blocks: dict[str, Box | None], texts: dict[tuple, Box | None]) -> Box | None:
     """The box of a plain block reference (one cell, in the drawing's plane):
     the box of its block's content, measured once per block name
     (``blocks``), with its four corners placed by the reference's transform,
-    joined with the boxes of its visible non-empty attributes.  A rotated
+    joined with the boxes of its visible non-empty attributes (each
+    measured once per text and look, ``texts``: :func:`_attrib_box`).  A rotated
     reference gets the box of the turned box, a little larger than its
     content's own (conservative for placement).  None where this does not
     apply (a MINSERT grid, a reference out of the plane, a block that
@@ -157,17 +159,45 @@ def _insert_box(e, blocks: dict[str, Box | None]) -> Box | None:
         if local is not None:
             x0, y0, x1, y1 = local
             pts = list(e.matrix44().transform_vertices([(x0, y0), (x1, y0), (x1, y1), (x0, y1)]))
-        texts = [a for a in e.attribs if not a.is_invisible and a.dxf.get("text", "").strip()]
-        if texts:
-            tb = bbox.extents(texts, fast=True)
-            if tb.has_data:
-                pts += [tb.extmin, tb.extmax]
+        xs, ys = [p.x for p in pts], [p.y for p in pts]
+        for a in e.attribs:
+            if not a.is_invisible and a.dxf.get("text", "").strip():
+                ab = _attrib_box(a, texts)
+                if ab is not None:
+                    xs += [ab[0], ab[2]]
+                    ys += [ab[1], ab[3]]
     except Exception:  # noqa: BLE001 - anything unusual: measure the whole reference instead
         return None
-    if not pts:
+    if not xs:
         return None
-    xs, ys = [p.x for p in pts], [p.y for p in pts]
     return (min(xs), min(ys), max(xs), max(ys))
+
+
+def _attrib_box(a, texts: dict[tuple, Box | None]) -> Box | None:
+    """The box of one attribute text.  ezdxf measures each distinct look
+    (text, style, height, width, rotation, alignment) once; the box moves
+    with the point the text hangs from (the alignment point for aligned
+    text, else the insertion point).  A text stretched between two points
+    (aligned, fit), out of the plane or carrying MTEXT is measured alone."""
+    from ezdxf import bbox
+
+    dxf = a.dxf
+    halign, valign = dxf.get("halign", 0), dxf.get("valign", 0)
+    plain = (halign not in (3, 5) and tuple(dxf.get("extrusion", (0.0, 0.0, 1.0))) == (0.0, 0.0, 1.0)
+             and not a.has_embedded_mtext_entity)
+    if not plain:
+        b = bbox.extents([a], fast=True)
+        return (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y) if b.has_data else None
+    hangs = (halign, valign) != (0, 0) and dxf.hasattr("align_point")
+    at = dxf.align_point if hangs else dxf.insert
+    key = (dxf.text, dxf.get("style", ""), dxf.get("height", 0.0), dxf.get("width", 1.0), dxf.get("rotation", 0.0),
+           dxf.get("oblique", 0.0), halign, valign, dxf.get("text_generation_flag", 0), hangs)
+    if key not in texts:
+        b = bbox.extents([a], fast=True)
+        texts[key] = (b.extmin.x - at.x, b.extmin.y - at.y, b.extmax.x - at.x, b.extmax.y - at.y) \
+            if b.has_data else None
+    rel = texts[key]
+    return None if rel is None else (rel[0] + at.x, rel[1] + at.y, rel[2] + at.x, rel[3] + at.y)
 
 
 def _expand_big_inserts(entities: Sequence, boxes: list[Box], ext: Box, polys: list, cache) -> list[Box]:
