@@ -348,6 +348,62 @@ def _unit_fixed_end_forces(model: FrameModel, j: np.ndarray, a: np.ndarray, p: n
     return f0
 
 
+@dataclass(eq=False)
+class _NodalBasis:
+    """A unit load on each active dof of the path's nodes, solved.
+
+    ``col`` (3n,) the basis column of each global dof (-1 for a dof that is
+    not in the basis); ``start_forces`` (m, 3, nb) every member's
+    start-end forces ``Ni, Vi, Mi`` under each unit nodal load (local);
+    ``reactions`` (n_supports, 3, nb) global fx, fy, m of each support.
+    """
+
+    col: np.ndarray
+    start_forces: np.ndarray
+    reactions: np.ndarray
+
+
+@dataclass(eq=False)
+class _Stations:
+    """Unit point loads at path coordinates ``s`` (ns,) as loads on the
+    frame: ``member``, ``a`` where each lies, ``p`` (ns, 2) its local
+    (axial, transverse) components, ``f0`` (ns, 6) its fixed-end forces
+    on that member (releases condensed) and ``W`` (nb, ns) the sparse
+    equivalent nodal loads in the basis dofs (node axes)."""
+
+    s: np.ndarray
+    member: np.ndarray
+    a: np.ndarray
+    p: np.ndarray
+    f0: np.ndarray
+    W: sp.csr_matrix
+
+
+@dataclass(eq=False)
+class _Placements:
+    """Every vehicle placement as axle loads at distinct path stations.
+
+    ``fronts``, ``dirs`` (n_place,) front axle position and travel
+    direction; ``st`` the stations; ``u``, ``place``, ``load`` (ne,) one
+    entry per axle on the path (station index, placement index, axle load
+    [force]; axles of one placement at one station summed), sorted by
+    the station's member, then placement; ``WP`` (nb, n_place) dense
+    equivalent nodal loads of each placement.
+    """
+
+    fronts: np.ndarray
+    dirs: np.ndarray
+    st: _Stations
+    u: np.ndarray
+    place: np.ndarray
+    load: np.ndarray
+    WP: np.ndarray
+
+    @property
+    def n(self) -> int:
+        return len(self.fronts)
+
+
 class MovingLoads:
     """Unit-load solutions of a frame along a load path, from one
     factorisation (see the module docstring).
@@ -370,6 +426,7 @@ class MovingLoads:
         self.direction = d / np.hypot(*d)
         self.model = prepare(frame, determinate=determinate)
         self._fact = factorise(self.model)
+        self._basis_cache: _NodalBasis | None = None
 
     # -- unit loads ----------------------------------------------------------
 
@@ -382,32 +439,68 @@ class MovingLoads:
         s = np.arange(n + 1) * float(step)
         return s if abs(s[-1] - self.path.length) <= 1e-9 * self.path.length else np.append(s, self.path.length)
 
-    def unit_solutions(self, s) -> UnitLoadSolutions:
-        """Solve a unit load at each path coordinate of ``s``: all stations
-        as the columns of one right-hand side, with the factorisation made
-        once in the constructor."""
+    def _basis(self) -> _NodalBasis:
+        """Unit nodal loads on every active dof (free or restrained) of the
+        nodes at the ends of the path's members, solved as the columns of
+        one right-hand side (computed once, then kept)."""
+        if self._basis_cache is not None:
+            return self._basis_cache
         model = self.model
-        s = np.asarray(s, dtype=float).ravel()
+        N = model.n_dofs
+        on = np.unique(self.path.member)
+        nodes = np.unique(np.concatenate([model.si[on], model.ei[on]]))
+        dofs = (3 * nodes[:, None] + np.arange(3)[None, :]).ravel()
+        dofs = dofs[model.act[dofs]]
+        nb = len(dofs)
+        col = np.full(N, -1, dtype=np.intp)
+        col[dofs] = np.arange(nb)
+        F = np.zeros((N, nb))
+        F[dofs, np.arange(nb)] = 1.0
+        U = displacements(model, self._fact, _Rhs(F))
+        fe = np.matmul(np.matmul(model.k_loc[:, :3, :], model.T), U[model.dof])  # (m, 3, nb)
+        Rs = support_reactions(model, U, F)
+        nd = np.array([sp_.node for sp_ in self.frame.supports], dtype=np.intp)
+        cn, sn = model.sup.cos[nd][:, None], model.sup.sin[nd][:, None]
+        R = np.stack([cn * Rs[:, 0] - sn * Rs[:, 1], sn * Rs[:, 0] + cn * Rs[:, 1], Rs[:, 2]], axis=1)
+        self._basis_cache = _NodalBasis(col, fe, R)
+        return self._basis_cache
+
+    def _stations(self, s: np.ndarray) -> _Stations:
+        """The unit loads at path coordinates ``s`` as fixed-end forces on
+        their members and equivalent nodal loads in the basis dofs."""
+        model, basis = self.model, self._basis()
         j, a = self.path.locate(s)
         c, sn = model.c[j], model.s[j]
         gx, gy = self.direction
         p = np.column_stack([c * gx + sn * gy, -sn * gx + c * gy])
         f0 = _unit_fixed_end_forces(model, j, a, p)
-        ns, N = len(s), model.n_dofs
-        eq = -np.einsum("sji,sj->si", model.T[j], f0)
-        F = np.zeros((N, ns))
-        np.add.at(F, (model.dof[j], np.arange(ns)[:, None]), eq)
-        if np.any(F[~model.act] != 0.0):
+        eq = -np.einsum("sji,sj->si", model.T[j], f0)  # (ns, 6) node axes
+        col = basis.col[model.dof[j]]
+        if np.any((col < 0) & (eq != 0.0)):
             raise SolverError("a path station puts a couple on a joint where every member end is pinned")
-        U = displacements(model, self._fact, _Rhs(F))
-        # start-end forces only, k[:3] T u + f0 (one batched product)
-        fe = np.matmul(np.matmul(model.k_loc[:, :3, :], model.T), U[model.dof])
-        fe[j, :, np.arange(ns)] += f0[:, :3]
-        Rs = support_reactions(model, U, F)
-        nodes = np.array([sp_.node for sp_ in self.frame.supports], dtype=np.intp)
-        cn, sn_ = model.sup.cos[nodes][:, None], model.sup.sin[nodes][:, None]
-        R = np.stack([cn * Rs[:, 0] - sn_ * Rs[:, 1], sn_ * Rs[:, 0] + cn * Rs[:, 1], Rs[:, 2]], axis=1)
-        return UnitLoadSolutions(s, j, a, p, fe, R)
+        keep = col >= 0
+        ns = len(s)
+        W = sp.csr_matrix((eq[keep], (col[keep], np.broadcast_to(np.arange(ns)[:, None], col.shape)[keep])),
+                          shape=(basis.start_forces.shape[2], ns))
+        return _Stations(s, j, a, p, f0, W)
+
+    def unit_solutions(self, s) -> UnitLoadSolutions:
+        """Solve a unit load at each path coordinate of ``s``.
+
+        A point load on a member is its fixed-end forces on that member
+        plus their reversal applied at the member's two end nodes, so every
+        station's solution is a combination of the unit nodal loads at the
+        path's nodes (:meth:`_basis`, solved once) plus the fixed-end
+        forces on the loaded member itself."""
+        st = self._stations(np.asarray(s, dtype=float).ravel())
+        basis = self._basis()
+        m, _, nb = basis.start_forces.shape
+        ns = len(st.s)
+        fe = np.asarray(st.W.T @ basis.start_forces.reshape(3 * m, nb).T).T.reshape(m, 3, ns)
+        fe[st.member, :, np.arange(ns)] += st.f0[:, :3]
+        n_sup = basis.reactions.shape[0]
+        R = np.asarray(st.W.T @ basis.reactions.reshape(3 * n_sup, nb).T).T.reshape(n_sup, 3, ns)
+        return UnitLoadSolutions(st.s, st.member, st.a, st.p, fe, R)
 
     def points(self, s) -> np.ndarray:
         """(ns, 2) global coordinates of path coordinates ``s``."""
@@ -443,7 +536,7 @@ class MovingLoads:
 
     # -- vehicles ------------------------------------------------------------
 
-    def _placements(self, vehicle: Vehicle, step: float, directions: Sequence[int]):
+    def _fronts(self, vehicle: Vehicle, step: float, directions: Sequence[int]):
         """(fronts, dirs, positions (n_place, k)) of every placement: the
         front axle on the station grid from the vehicle's first touch of
         the path to its last."""
@@ -458,6 +551,43 @@ class MovingLoads:
         pos = fronts[:, None] - dirs[:, None] * vehicle.offsets[None, :]
         return fronts, dirs, pos
 
+    def _placements(self, vehicle: Vehicle, step: float, directions: Sequence[int]) -> _Placements:
+        """Every placement of ``vehicle`` as loads at the distinct axle
+        positions on the path (see :class:`_Placements`)."""
+        fronts, dirs, pos = self._fronts(vehicle, float(step), [int(d) for d in directions])
+        Lp = self.path.length
+        tol = 1e-9 * max(Lp, 1.0)
+        on = (pos >= -tol) & (pos <= Lp + tol)
+        s_on = np.clip(pos[on], 0.0, Lp)
+        uniq, inv = np.unique(np.round(s_on / tol).astype(np.int64), return_inverse=True)
+        s_u = np.empty(len(uniq))
+        s_u[inv.ravel()] = s_on  # one representative of each distinct position
+        st = self._stations(s_u)
+        loads = np.broadcast_to(np.asarray(vehicle.loads, dtype=float), pos.shape)[on]
+        A = sp.csr_matrix((loads, (inv.ravel(), np.nonzero(on)[0])), shape=(len(s_u), pos.shape[0]))
+        A.sum_duplicates()
+        WP = np.asarray((st.W @ A).toarray())
+        Ac = A.tocoo()
+        order = np.lexsort((Ac.col, st.member[Ac.row]))
+        return _Placements(fronts, dirs, st, Ac.row[order].astype(np.intp), Ac.col[order].astype(np.intp),
+                           Ac.data[order], WP)
+
+    def _member_forces(self, pl: _Placements, rows: np.ndarray) -> np.ndarray:
+        """(len(rows), 3, n_place) start-end forces Ni, Vi, Mi of members
+        ``rows`` (ascending) under every placement: the unit nodal loads
+        superposed, plus the fixed-end forces of the axles standing on
+        each member."""
+        basis = self._basis()
+        nb = pl.WP.shape[0]
+        F = (basis.start_forces[rows].reshape(-1, nb) @ pl.WP).reshape(len(rows), 3, pl.n)
+        j = pl.st.member[pl.u]
+        k = np.searchsorted(rows, j)
+        mine = (k < len(rows)) & (rows[np.minimum(k, len(rows) - 1)] == j)
+        if mine.any():
+            np.add.at(F, (k[mine], slice(None), pl.place[mine]),
+                      pl.load[mine, None] * pl.st.f0[pl.u[mine], :3])
+        return F
+
     def envelope(self, vehicle: Vehicle, *, step: float, points_per_member: int = 11,
                  directions: Sequence[int] = (1, -1), chunk: int = 1024) -> dict[str, MemberEnvelope]:
         """Envelope of N, V, M along every member as ``vehicle`` crosses the
@@ -466,34 +596,52 @@ class MovingLoads:
         Every member is sampled at ``points_per_member`` equally spaced
         points plus every axle position on it (an extreme under moving
         point loads lies under an axle).  N and V are taken on both sides
-        of each point.  The unit loads are solved once, at every distinct
-        axle position, and combined by a sparse product.
+        of each point; at each point the value of the first placement (in
+        placement order) reaching the extreme governs, the right side
+        before the left.  ``chunk`` members are treated at a time.
+
+        How: the unit loads are solved once, at the path's nodes
+        (:meth:`unit_solutions`), and every member's end forces under every
+        placement follow by one dense product.  A member with no axle on
+        it carries end forces only: N and V are constant along it and M is
+        linear, so its extreme over the placements at any point is on the
+        upper (lower) envelope of straight lines, found from the extremes
+        at its two ends and one more point; only the placements that can
+        reach that envelope are evaluated at every sample.  The placements
+        with an axle on a member add the axles' own steps and ramps there.
         """
-        fronts, dirs, pos = self._placements(vehicle, float(step), [int(d) for d in directions])
-        sol, A = self._placement_matrix(vehicle, pos)
-        rows, xs = self._samples(sol, points_per_member)
-        # start-end forces Ni, Vi, Mi of every member for every placement:
-        # superposition, (m, n_placements) each
-        Ni, Vi, Mi = (np.asarray((A.T @ sol.start_forces[:, c, :].T).T) for c in range(3))
+        pl = self._placements(vehicle, float(step), directions)
+        st = pl.st
+        L = self.model.L
+        m = len(L)
+        rows, xs = self._samples(st, points_per_member)
+        bounds = np.searchsorted(rows, np.arange(m + 1))
+        ns = len(rows)
+        # best (sign * value, placement) per sample, for q in N V M, sign +1
+        # (max) and -1 (min), side right and left
+        best = {key: (np.full(ns, -np.inf), np.zeros(ns, np.intp))
+                for key in [(q, sg, sd) for q in "NVM" for sg in (1, -1) for sd in ("right", "left")]}
+        on = np.unique(st.member[pl.u])  # members an axle stands on
+        free = np.setdiff1d(np.arange(m), on)
+        t = np.linspace(0.0, 1.0, max(int(points_per_member), 2))
+        for lo in range(0, len(free), max(1, int(chunk))):
+            r = free[lo:lo + max(1, int(chunk))]
+            _free_extremes(self._member_forces(pl, r), L[r], t, bounds[r], best)
+        if len(on):
+            _loaded_extremes(pl, self._member_forces(pl, on), on, rows, xs, bounds, L, best)
         vals: dict[str, np.ndarray] = {}
         at: dict[str, np.ndarray] = {}
-        for q in ("N", "V", "M"):
-            best = _Extremes(len(rows))
-            for side in (("right", "left") if q != "M" else ("right",)):
-                HA = (self._load_term(sol, rows, xs, q, side) @ A).tocsr()
-                for lo in range(0, len(rows), chunk):
-                    sl = slice(lo, lo + chunk)
-                    r = rows[sl]
-                    if q == "N":
-                        E = -Ni[r]
-                    elif q == "V":
-                        E = Vi[r]
-                    else:
-                        E = xs[sl, None] * Vi[r] - Mi[r]
-                    best.update(sl, E + HA[sl].toarray())
-            vals[f"{q}_max"], at[f"{q}_max"] = best.vmax, best.amax
-            vals[f"{q}_min"], at[f"{q}_min"] = best.vmin, best.amin
-        return self._by_member(rows, xs, vals, at, fronts, dirs)
+        for q in "NVM":
+            for sg, ext in ((1, "max"), (-1, "min")):
+                vr, ar = best[(q, sg, "right")]
+                if q == "M":
+                    v, a = vr, ar
+                else:  # the left side governs only when strictly beyond the right
+                    vl, al = best[(q, sg, "left")]
+                    left = vl > vr
+                    v, a = np.where(left, vl, vr), np.where(left, al, ar)
+                vals[f"{q}_{ext}"], at[f"{q}_{ext}"] = sg * v, a
+        return self._by_member(rows, xs, vals, at, pl.fronts, pl.dirs)
 
     def reaction_envelope(self, vehicle: Vehicle, *, step: float,
                           directions: Sequence[int] = (1, -1)) -> list[dict]:
@@ -501,10 +649,10 @@ class MovingLoads:
         moment CCW) ``c_max``, ``c_min`` and the governing ``c_max_front``,
         ``c_max_direction`` (likewise for min) as ``vehicle`` crosses the
         path."""
-        fronts, dirs, pos = self._placements(vehicle, float(step), [int(d) for d in directions])
-        sol, A = self._placement_matrix(vehicle, pos)
-        ns = sol.reactions.shape[0]
-        R = np.asarray((A.T @ sol.reactions.reshape(ns * 3, -1).T).T).reshape(ns, 3, -1)
+        pl = self._placements(vehicle, float(step), directions)
+        Rb = self._basis().reactions
+        n_sup, _, nb = Rb.shape
+        R = (Rb.reshape(3 * n_sup, nb) @ pl.WP).reshape(n_sup, 3, -1)
         out = []
         for k, sup in enumerate(self.frame.supports):
             row: dict = {"node": sup.node, "support_index": k}
@@ -512,8 +660,8 @@ class MovingLoads:
                 col = R[k, ci]
                 for ext, i in (("max", int(np.argmax(col))), ("min", int(np.argmin(col)))):
                     row[f"{comp}_{ext}"] = float(col[i])
-                    row[f"{comp}_{ext}_front"] = float(fronts[i])
-                    row[f"{comp}_{ext}_direction"] = int(dirs[i])
+                    row[f"{comp}_{ext}_front"] = float(pl.fronts[i])
+                    row[f"{comp}_{ext}_direction"] = int(pl.dirs[i])
             out.append(row)
         return out
 
@@ -527,52 +675,13 @@ class MovingLoads:
         s = s[(s >= -tol) & (s <= self.path.length + tol)]
         return self.points(s)
 
-    def _placement_matrix(self, vehicle: Vehicle, pos: np.ndarray):
-        """Unit-load solutions at every distinct axle position on the path,
-        and the sparse (n_positions, n_placements) matrix of axle loads
-        that superposes them into each placement."""
-        Lp = self.path.length
-        tol = 1e-9 * max(Lp, 1.0)
-        on = (pos >= -tol) & (pos <= Lp + tol)
-        s_on = np.clip(pos[on], 0.0, Lp)
-        uniq, inv = np.unique(np.round(s_on / tol).astype(np.int64), return_inverse=True)
-        s_u = np.empty(len(uniq))
-        s_u[inv.ravel()] = s_on  # one representative of each distinct position
-        sol = self.unit_solutions(s_u)
-        place = np.nonzero(on)
-        loads = np.broadcast_to(np.asarray(vehicle.loads, dtype=float), pos.shape)[on]
-        A = sp.csr_matrix((loads, (inv.ravel(), place[0])), shape=(len(s_u), pos.shape[0]))
-        return sol, A
-
-    def _load_term(self, sol: UnitLoadSolutions, rows: np.ndarray, xs: np.ndarray, q: str,
-                   side: str) -> sp.csr_matrix:
-        """Sparse (n_samples, n_stations): the unit load's own contribution
-        to N, V or M at a sample of the member it stands on, before the
-        sample (see :meth:`UnitLoadSolutions.member_values`)."""
-        L = self.model.L
-        offset = np.concatenate([[0.0], np.cumsum(L + 1.0)])
-        keys = xs + offset[rows]  # ascending: samples are sorted by member, then x
-        bounds = np.searchsorted(rows, np.arange(len(L) + 1))
-        first = np.searchsorted(keys, sol.a + offset[sol.member], side="left" if side == "right" else "right")
-        stop = bounds[sol.member + 1]
-        cnt = np.maximum(stop - first, 0)
-        u = np.repeat(np.arange(len(sol.s)), cnt)
-        i = np.repeat(first - np.concatenate([[0], np.cumsum(cnt)[:-1]]), cnt) + np.arange(int(cnt.sum()))
-        if q == "N":
-            v = -sol.p[u, 0]
-        elif q == "V":
-            v = sol.p[u, 1]
-        else:
-            v = sol.p[u, 1] * (xs[i] - sol.a[u])
-        return sp.csr_matrix((v, (i, u)), shape=(len(rows), len(sol.s)))
-
-    def _samples(self, sol: UnitLoadSolutions, per_member: int) -> tuple[np.ndarray, np.ndarray]:
+    def _samples(self, st: _Stations, per_member: int) -> tuple[np.ndarray, np.ndarray]:
         """(rows, x) sample points of every member, sorted by member then x."""
         L = self.model.L
         m = len(L)
         t = np.linspace(0.0, 1.0, max(int(per_member), 2))
-        rows = np.concatenate([np.repeat(np.arange(m), len(t)), sol.member])
-        xs = np.concatenate([(L[:, None] * t[None, :]).ravel(), sol.a])
+        rows = np.concatenate([np.repeat(np.arange(m), len(t)), st.member])
+        xs = np.concatenate([(L[:, None] * t[None, :]).ravel(), st.a])
         order = np.lexsort((xs, rows))
         rows, xs = rows[order], xs[order]
         keep = np.ones(len(rows), bool)
@@ -593,23 +702,128 @@ class MovingLoads:
         return out
 
 
-class _Extremes:
-    """Running largest and smallest value of each sample over placements,
-    with the placement that gives it."""
+_BLOCK = 32  # members whose values at one sample are reduced together
 
-    def __init__(self, k: int) -> None:
-        self.vmax, self.vmin = np.full(k, -np.inf), np.full(k, np.inf)
-        self.amax, self.amin = np.zeros(k, np.intp), np.zeros(k, np.intp)
 
-    def update(self, sl: slice, E: np.ndarray) -> None:
-        r = np.arange(E.shape[0])
-        i1, i2 = np.argmax(E, axis=1), np.argmin(E, axis=1)
-        e1, e2 = E[r, i1], E[r, i2]
-        b1, b2 = e1 > self.vmax[sl], e2 < self.vmin[sl]
-        self.vmax[sl] = np.where(b1, e1, self.vmax[sl])
-        self.amax[sl] = np.where(b1, i1, self.amax[sl])
-        self.vmin[sl] = np.where(b2, e2, self.vmin[sl])
-        self.amin[sl] = np.where(b2, i2, self.amin[sl])
+def _merge(best: tuple[np.ndarray, np.ndarray], idx, v: np.ndarray, a: np.ndarray) -> None:
+    """Fold values ``v`` of placements ``a`` at samples ``idx`` into the
+    running best (value, placement): larger wins, equal keeps the earlier
+    placement."""
+    bv, ba = best
+    cv, ca = bv[idx], ba[idx]
+    better = v > cv
+    tie = v == cv
+    bv[idx] = np.where(better, v, cv)
+    ba[idx] = np.where(better, a, np.where(tie, np.minimum(a, ca), ca))
+
+
+def _extreme(arr: np.ndarray, axis: int):
+    """(first argmax, max, first argmin, min) of ``arr`` along ``axis``."""
+    i1, i2 = np.argmax(arr, axis=axis), np.argmin(arr, axis=axis)
+    return (i1, np.take_along_axis(arr, np.expand_dims(i1, axis), axis).squeeze(axis),
+            i2, np.take_along_axis(arr, np.expand_dims(i2, axis), axis).squeeze(axis))
+
+
+def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarray, best: dict) -> None:
+    """Extremes over every placement at the samples of members with no
+    axle on them: N and V are constant along such a member and M = Vi x -
+    Mi linear, at its samples x = L t (indices ``first + k``).
+
+    ``F`` (r, 3, n_place) the members' start-end forces, ``L`` (r,)."""
+    for q, arr in (("N", -F[:, 0, :]), ("V", F[:, 1, :])):
+        i1, v1, i2, v2 = _extreme(arr, 1)
+        for k in range(len(t)):
+            for side in ("right", "left"):
+                best[(q, 1, side)][0][first + k], best[(q, 1, side)][1][first + k] = v1, i1
+                best[(q, -1, side)][0][first + k], best[(q, -1, side)][1][first + k] = -v2, i2
+    E = np.empty((_BLOCK, F.shape[2]))
+    for lo in range(0, len(L), _BLOCK):  # blocks of members small enough to stay in cache
+        sl = slice(lo, lo + _BLOCK)
+        Vi, Mi = F[sl, 1, :], F[sl, 2, :]
+        Eb = E[:len(Vi)]
+        for k, tk in enumerate(t):
+            np.multiply((L[sl] * tk)[:, None], Vi, out=Eb)  # x Vi - Mi at the samples x = L t
+            Eb -= Mi
+            i1, v1, i2, v2 = _extreme(Eb, 1)
+            at = first[sl] + k
+            best[("M", 1, "right")][0][at], best[("M", 1, "right")][1][at] = v1, i1
+            best[("M", -1, "right")][0][at], best[("M", -1, "right")][1][at] = -v2, i2
+
+
+def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np.ndarray, xs: np.ndarray,
+                     bounds: np.ndarray, L: np.ndarray, best: dict) -> None:
+    """Extremes over every placement at the samples of the members ``on``
+    that axles stand on, from their start-end forces ``Fp`` (len(on), 3,
+    n_place).  A placement with no axle on the member gives constant N
+    and V there; one with axles adds each axle's own step (N, V) and ramp
+    (M) from its position on.  A sample at an axle takes the axle for the
+    right side and not for the left (exact comparisons, as
+    :meth:`UnitLoadSolutions.member_values`)."""
+    st = pl.st
+    offset = np.concatenate([[0.0], np.cumsum(L + 1.0)])
+    keys = xs + offset[rows]  # ascending: samples are sorted by member, then x
+    ent_j = st.member[pl.u]
+    eb = np.searchsorted(ent_j, np.concatenate([on, [on[-1] + 1]]))
+    for k, j in enumerate(on):
+        e = slice(eb[k], eb[k + 1])
+        Q, re_ = np.unique(pl.place[e], return_inverse=True)
+        u, P = pl.u[e], pl.load[e]
+        i0, i1 = bounds[j], bounds[j + 1]
+        n = i1 - i0
+        x = xs[i0:i1]
+        idx = np.arange(i0, i1)
+        cols = np.arange(n)
+        akey = st.a[u] + offset[j]
+        fR = np.clip(np.searchsorted(keys, akey, side="left") - i0, 0, n)
+        fL = np.clip(np.searchsorted(keys, akey, side="right") - i0, 0, n)
+
+        # the axles of each loaded placement in slots (kmax, len(Q)); a slot
+        # without an axle sits past the last sample
+        g0 = np.searchsorted(re_, np.arange(len(Q)))
+        slot = np.arange(len(re_)) - g0[re_]
+        kmax = int(slot.max()) + 1
+        ii = np.arange(n)[:, None]
+
+        def steps(pos, val):
+            """(n, len(Q)) the sum of val over the axles at or before each
+            sample (pos: first sample that counts the axle)."""
+            P_ = np.full((kmax, len(Q)), n)
+            V_ = np.zeros((kmax, len(Q)))
+            P_[slot, re_], V_[slot, re_] = pos, val
+            out = np.where(ii >= P_[0], V_[0], 0.0)
+            for r_ in range(1, kmax):
+                out += np.where(ii >= P_[r_], V_[r_], 0.0)
+            return out
+
+        Ni, Vi, Mi = Fp[k]
+        px, py = P * st.p[u, 0], P * st.p[u, 1]
+        C1 = steps(fR, py)
+        # N and V of the placements without an axle here: constant along x
+        for q, base in (("N", -Ni), ("V", Vi)):
+            w = base.copy()
+            for sg in (1, -1):
+                w[Q] = -np.inf
+                i = int(np.argmax(w))
+                for side in ("right", "left"):
+                    _merge(best[(q, sg, side)], idx, np.full(n, w[i]), np.full(n, i))
+                w = -base
+        loaded = {
+            ("N", "right"): -Ni[Q] + steps(fR, -px),
+            ("N", "left"): -Ni[Q] + steps(fL, -px),
+            ("V", "right"): Vi[Q] + C1,
+            ("V", "left"): Vi[Q] + steps(fL, py),
+        }
+        for (q, side), arr in loaded.items():
+            i1_, v1, i2_, v2 = _extreme(arr, 1)
+            _merge(best[(q, 1, side)], idx, v1, Q[i1_])
+            _merge(best[(q, -1, side)], idx, -v2, Q[i2_])
+        # M of every placement (x Vi - Mi, plus the axles' ramps), dense
+        E = np.multiply.outer(x, Vi)
+        E -= Mi
+        E[:, Q] += x[:, None] * C1 - steps(fR, py * st.a[u])
+        i1_, v1, i2_, v2 = _extreme(E, 1)
+        _merge(best[("M", 1, "right")], idx, v1, i1_)
+        _merge(best[("M", -1, "right")], idx, -v2, i2_)
 
 
 @dataclass(eq=False)
