@@ -624,11 +624,17 @@ class MovingLoads:
         on = np.unique(st.member[pl.u])  # members an axle stands on
         free = np.setdiff1d(np.arange(m), on)
         t = np.linspace(0.0, 1.0, max(int(points_per_member), 2))
-        for lo in range(0, len(free), max(1, int(chunk))):
-            r = free[lo:lo + max(1, int(chunk))]
-            _free_extremes(self._member_forces(pl, r), L[r], t, bounds[r], best)
+        # members without axles in blocks of about a megabyte of end forces,
+        # computed into the same buffers
+        blk = max(1, min(int(chunk), (1 << 17) // max(pl.n, 1)))
+        fe, nb = self._basis().start_forces, pl.WP.shape[0]
+        buf, E = np.empty((3 * blk, pl.n)), np.empty((blk, pl.n))
+        for lo in range(0, len(free), blk):
+            r = free[lo:lo + blk]
+            F = np.matmul(fe[r].reshape(-1, nb), pl.WP, out=buf[:3 * len(r)]).reshape(len(r), 3, pl.n)
+            _free_extremes(F, L[r], t, bounds[r], best, E[:len(r)])
         if len(on):
-            _loaded_extremes(pl, self._member_forces(pl, on), on, rows, xs, bounds, L, best)
+            _loaded_extremes(pl, self._member_forces(pl, on), on, rows, xs, bounds, L, t, best)
         vals: dict[str, np.ndarray] = {}
         at: dict[str, np.ndarray] = {}
         for q in "NVM":
@@ -702,9 +708,6 @@ class MovingLoads:
         return out
 
 
-_BLOCK = 32  # members whose values at one sample are reduced together
-
-
 def _merge(best: tuple[np.ndarray, np.ndarray], idx, v: np.ndarray, a: np.ndarray) -> None:
     """Fold values ``v`` of placements ``a`` at samples ``idx`` into the
     running best (value, placement): larger wins, equal keeps the earlier
@@ -717,48 +720,50 @@ def _merge(best: tuple[np.ndarray, np.ndarray], idx, v: np.ndarray, a: np.ndarra
     ba[idx] = np.where(better, a, np.where(tie, np.minimum(a, ca), ca))
 
 
-def _extreme(arr: np.ndarray, axis: int):
-    """(first argmax, max, first argmin, min) of ``arr`` along ``axis``."""
-    i1, i2 = np.argmax(arr, axis=axis), np.argmin(arr, axis=axis)
-    return (i1, np.take_along_axis(arr, np.expand_dims(i1, axis), axis).squeeze(axis),
-            i2, np.take_along_axis(arr, np.expand_dims(i2, axis), axis).squeeze(axis))
+def _extreme(arr: np.ndarray):
+    """(first argmax, max, first argmin, min) of each row of ``arr``."""
+    r = np.arange(arr.shape[0])
+    i1, i2 = np.argmax(arr, axis=1), np.argmin(arr, axis=1)
+    return i1, arr[r, i1], i2, arr[r, i2]
 
 
-def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarray, best: dict) -> None:
+def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarray, best: dict,
+                   E: np.ndarray) -> None:
     """Extremes over every placement at the samples of members with no
     axle on them: N and V are constant along such a member and M = Vi x -
     Mi linear, at its samples x = L t (indices ``first + k``).
 
-    ``F`` (r, 3, n_place) the members' start-end forces, ``L`` (r,)."""
-    for q, arr in (("N", -F[:, 0, :]), ("V", F[:, 1, :])):
-        i1, v1, i2, v2 = _extreme(arr, 1)
+    ``F`` (r, 3, n_place) the members' start-end forces, ``L`` (r,), ``E``
+    (r, n_place) work space."""
+    for q, arr, sg in (("N", F[:, 0, :], -1), ("V", F[:, 1, :], 1)):
+        i1, v1, i2, v2 = _extreme(arr)
+        if sg < 0:  # N = -Ni: its largest value is the smallest Ni
+            i1, v1, i2, v2 = i2, -v2, i1, -v1
         for k in range(len(t)):
             for side in ("right", "left"):
                 best[(q, 1, side)][0][first + k], best[(q, 1, side)][1][first + k] = v1, i1
                 best[(q, -1, side)][0][first + k], best[(q, -1, side)][1][first + k] = -v2, i2
-    E = np.empty((_BLOCK, F.shape[2]))
-    for lo in range(0, len(L), _BLOCK):  # blocks of members small enough to stay in cache
-        sl = slice(lo, lo + _BLOCK)
-        Vi, Mi = F[sl, 1, :], F[sl, 2, :]
-        Eb = E[:len(Vi)]
-        for k, tk in enumerate(t):
-            np.multiply((L[sl] * tk)[:, None], Vi, out=Eb)  # x Vi - Mi at the samples x = L t
-            Eb -= Mi
-            i1, v1, i2, v2 = _extreme(Eb, 1)
-            at = first[sl] + k
-            best[("M", 1, "right")][0][at], best[("M", 1, "right")][1][at] = v1, i1
-            best[("M", -1, "right")][0][at], best[("M", -1, "right")][1][at] = -v2, i2
+    Vi, Mi = F[:, 1, :], F[:, 2, :]
+    for k, tk in enumerate(t):
+        np.multiply((L * tk)[:, None], Vi, out=E)  # x Vi - Mi at the samples x = L t
+        E -= Mi
+        i1, v1, i2, v2 = _extreme(E)
+        at = first + k
+        best[("M", 1, "right")][0][at], best[("M", 1, "right")][1][at] = v1, i1
+        best[("M", -1, "right")][0][at], best[("M", -1, "right")][1][at] = -v2, i2
 
 
 def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np.ndarray, xs: np.ndarray,
-                     bounds: np.ndarray, L: np.ndarray, best: dict) -> None:
+                     bounds: np.ndarray, L: np.ndarray, t: np.ndarray, best: dict) -> None:
     """Extremes over every placement at the samples of the members ``on``
     that axles stand on, from their start-end forces ``Fp`` (len(on), 3,
-    n_place).  A placement with no axle on the member gives constant N
-    and V there; one with axles adds each axle's own step (N, V) and ramp
-    (M) from its position on.  A sample at an axle takes the axle for the
-    right side and not for the left (exact comparisons, as
-    :meth:`UnitLoadSolutions.member_values`)."""
+    n_place).
+
+    A placement with no axle on the member gives constant N and V there
+    and M linear in x (:func:`_line_extremes`); one with axles adds each
+    axle's own step (N, V) and ramp (M) from its position on.  A sample at
+    an axle takes the axle for the right side and not for the left (exact
+    comparisons, as :meth:`UnitLoadSolutions.member_values`)."""
     st = pl.st
     offset = np.concatenate([[0.0], np.cumsum(L + 1.0)])
     keys = xs + offset[rows]  # ascending: samples are sorted by member, then x
@@ -772,58 +777,131 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
         n = i1 - i0
         x = xs[i0:i1]
         idx = np.arange(i0, i1)
-        cols = np.arange(n)
         akey = st.a[u] + offset[j]
         fR = np.clip(np.searchsorted(keys, akey, side="left") - i0, 0, n)
         fL = np.clip(np.searchsorted(keys, akey, side="right") - i0, 0, n)
-
-        # the axles of each loaded placement in slots (kmax, len(Q)); a slot
-        # without an axle sits past the last sample
-        g0 = np.searchsorted(re_, np.arange(len(Q)))
-        slot = np.arange(len(re_)) - g0[re_]
+        # the axles of each loaded placement in slots (len(Q), kmax) by
+        # position; a slot without an axle sits past the last sample
+        o = np.lexsort((fR, re_))
+        g0 = np.searchsorted(re_[o], np.arange(len(Q)))
+        slot = np.arange(len(o)) - g0[re_[o]]
         kmax = int(slot.max()) + 1
-        ii = np.arange(n)[:, None]
+        first = np.full((len(Q), kmax + 1), n)
+        first[:, 0] = 0
+        first[re_[o], slot + 1] = fR[o]
+        runs = np.diff(first, axis=1, append=n).ravel()  # samples at each level
 
-        def steps(pos, val):
+        def steps(val):
             """(n, len(Q)) the sum of val over the axles at or before each
-            sample (pos: first sample that counts the axle)."""
-            P_ = np.full((kmax, len(Q)), n)
-            V_ = np.zeros((kmax, len(Q)))
-            P_[slot, re_], V_[slot, re_] = pos, val
-            out = np.where(ii >= P_[0], V_[0], 0.0)
-            for r_ in range(1, kmax):
-                out += np.where(ii >= P_[r_], V_[r_], 0.0)
-            return out
+            sample (right side): per placement, its levels 0, v1, v1 + v2,
+            ... repeated over the samples where they hold."""
+            lev = np.zeros((len(Q), kmax + 1))
+            lev[re_[o], slot + 1] = val[o]
+            np.cumsum(lev, axis=1, out=lev)
+            return np.repeat(lev.ravel(), runs).reshape(len(Q), n).T
 
         Ni, Vi, Mi = Fp[k]
         px, py = P * st.p[u, 0], P * st.p[u, 1]
-        C1 = steps(fR, py)
         # N and V of the placements without an axle here: constant along x
         for q, base in (("N", -Ni), ("V", Vi)):
-            w = base.copy()
             for sg in (1, -1):
+                w = sg * base
                 w[Q] = -np.inf
                 i = int(np.argmax(w))
                 for side in ("right", "left"):
                     _merge(best[(q, sg, side)], idx, np.full(n, w[i]), np.full(n, i))
-                w = -base
-        loaded = {
-            ("N", "right"): -Ni[Q] + steps(fR, -px),
-            ("N", "left"): -Ni[Q] + steps(fL, -px),
-            ("V", "right"): Vi[Q] + C1,
-            ("V", "left"): Vi[Q] + steps(fL, py),
-        }
-        for (q, side), arr in loaded.items():
-            i1_, v1, i2_, v2 = _extreme(arr, 1)
-            _merge(best[(q, 1, side)], idx, v1, Q[i1_])
-            _merge(best[(q, -1, side)], idx, -v2, Q[i2_])
-        # M of every placement (x Vi - Mi, plus the axles' ramps), dense
-        E = np.multiply.outer(x, Vi)
-        E -= Mi
-        E[:, Q] += x[:, None] * C1 - steps(fR, py * st.a[u])
-        i1_, v1, i2_, v2 = _extreme(E, 1)
-        _merge(best[("M", 1, "right")], idx, v1, i1_)
-        _merge(best[("M", -1, "right")], idx, -v2, i2_)
+        # the left side differs from the right only at samples an axle
+        # stands on: those rows again, without the axle
+        at = fL > fR
+        redo = np.unique(fR[at])
+        for q, right, val in (("N", -Ni[Q] + steps(-px), -px) if np.any(px) else ("N", None, None),
+                              ("V", steps(py), py)):
+            if right is None:  # no axial component: N is the end forces' alone, the same at every sample
+                i1_, v1, i2_, v2 = (np.full(n, v) for v in _extreme((-Ni[Q])[None, :]))
+            else:
+                if q == "V":
+                    right += Vi[Q]
+                    VR = right
+                i1_, v1, i2_, v2 = _extreme(right)
+            for side in ("right", "left"):
+                if side == "left" and right is not None and len(redo):
+                    rows_ = right[redo]
+                    np.subtract.at(rows_, (np.searchsorted(redo, fR[at]), re_[at]), val[at])
+                    j1, w1, j2, w2 = _extreme(rows_)
+                    i1_, v1, i2_, v2 = i1_.copy(), v1.copy(), i2_.copy(), v2.copy()
+                    i1_[redo], v1[redo], i2_[redo], v2[redo] = j1, w1, j2, w2
+                _merge(best[(q, 1, side)], idx, v1, Q[i1_])
+                _merge(best[(q, -1, side)], idx, -v2, Q[i2_])
+        # M of the loaded placements: x Vi - Mi plus the axles' ramps
+        # py (x - a), i.e. x (Vi + sum py) - (Mi + sum py a)
+        C2 = steps(py * st.a[u])
+        C2 += Mi[Q]
+        E = x[:, None] * VR
+        E -= C2
+        i1_, v1, i2_, v2 = _extreme(E)
+        _merge(best[("M", 1, "right")], idx, v1, Q[i1_])
+        _merge(best[("M", -1, "right")], idx, -v2, Q[i2_])
+        # M of the others: lines in x
+        line = np.ones(pl.n, bool)
+        line[Q] = False
+        _line_extremes(x, Vi, Mi, line, idx, best)
+
+
+def _line_extremes(x: np.ndarray, Vi: np.ndarray, Mi: np.ndarray, use: np.ndarray, idx: np.ndarray,
+                   best: dict) -> None:
+    """Extremes of M = x Vi - Mi at the samples ``x`` (ascending, indices
+    ``idx``) of one member over the placements ``use`` (bool, n_place),
+    whose effect on the member is end forces only, so M is a straight
+    line in x for each of them.
+
+    The extremes are found exactly at about a dozen tangent samples (all
+    placements evaluated).  Between two tangent samples the upper
+    envelope of the lines lies above LB, the larger of the two lines
+    found there, a convex broken line with one kink x*; any line minus LB
+    is concave, and not positive at the two tangent samples, so a line
+    can reach the envelope between them only if it is above LB at x*.
+    Only those lines are evaluated at the samples in between (likewise
+    for the lower envelope).
+    """
+    n = len(x)
+    if not use.any():
+        return
+    K = np.unique(np.round(np.linspace(0, n - 1, min(n, 11))).astype(np.intp))
+    cand_p = np.flatnonzero(use)
+    V, M = Vi[cand_p], Mi[cand_p]
+    Et = np.multiply.outer(x[K], V) - M  # (|K|, n_use)
+    inner = np.setdiff1d(np.arange(n), K)
+    gap = np.searchsorted(K, inner) - 1  # interval of each inner sample
+    for sg in (1, -1):
+        w = sg * Et
+        qk = np.argmax(w, axis=1)
+        _merge(best[("M", sg, "right")], idx[K], w[np.arange(len(K)), qk], cand_p[qk])
+        if not len(inner):
+            continue
+        # lines a + b x, a = -sg Mi, b = sg Vi; the two tangents of each gap
+        a0, b0 = -sg * M[qk[:-1]], sg * V[qk[:-1]]
+        a1, b1 = -sg * M[qk[1:]], sg * V[qk[1:]]
+        xl, xr = x[K[:-1]], x[K[1:]]
+        den = b1 - b0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            xk = np.where(den > 0, (a0 - a1) / np.where(den > 0, den, 1.0), xl)
+        xk = np.clip(xk, xl, xr)
+        lb = np.maximum(a0 + b0 * xk, a1 + b1 * xk)
+        above = sg * (np.multiply.outer(xk, V) - M) > lb[:, None]  # (gaps, n_use)
+        above[np.arange(len(xl)), qk[:-1]] = True
+        above[np.arange(len(xl)), qk[1:]] = True
+        gr, gc = np.nonzero(above)  # by gap, then placement (ascending)
+        cnt = np.bincount(gr, minlength=len(xl))
+        cstart = np.concatenate([[0], np.cumsum(cnt)[:-1]])
+        c = cnt[gap]
+        tot = int(c.sum())
+        gstart = np.concatenate([[0], np.cumsum(c)[:-1]])
+        ps = np.repeat(np.arange(len(inner)), c)
+        pc = gc[np.repeat(cstart[gap] - gstart, c) + np.arange(tot)]
+        val = sg * (x[inner][ps] * V[pc] - M[pc])
+        gmax = np.maximum.reduceat(val, gstart)
+        first = np.minimum.reduceat(np.where(val == np.repeat(gmax, c), pc, len(cand_p)), gstart)
+        _merge(best[("M", sg, "right")], idx[inner], gmax, cand_p[first])
 
 
 @dataclass(eq=False)
