@@ -695,16 +695,16 @@ class MovingLoads:
         return rows[keep], xs[keep]
 
     def _by_member(self, rows, xs, vals, at, fronts, dirs) -> dict[str, MemberEnvelope]:
+        """One MemberEnvelope per member; its arrays are slices of one array
+        per key (read-only use)."""
         out: dict[str, MemberEnvelope] = {}
         bounds = np.searchsorted(rows, np.arange(len(self.model.ids) + 1))
+        fr = {key: fronts[at[key]] for key in vals}
+        dr = {key: dirs[at[key]] for key in vals}
         for j, mid in enumerate(self.model.ids):
             sl = slice(bounds[j], bounds[j + 1])
-            env = MemberEnvelope(mid, xs[sl].copy())
-            for key in vals:
-                env.values[key] = vals[key][sl].copy()
-                env.front[key] = fronts[at[key][sl]]
-                env.direction[key] = dirs[at[key][sl]]
-            out[mid] = env
+            out[mid] = MemberEnvelope(mid, xs[sl], {key: v[sl] for key, v in vals.items()},
+                                      {key: v[sl] for key, v in fr.items()}, {key: v[sl] for key, v in dr.items()})
         return out
 
 
@@ -798,7 +798,7 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
             lev = np.zeros((len(Q), kmax + 1))
             lev[re_[o], slot + 1] = val[o]
             np.cumsum(lev, axis=1, out=lev)
-            return np.repeat(lev.ravel(), runs).reshape(len(Q), n).T
+            return np.ascontiguousarray(np.repeat(lev.ravel(), runs).reshape(len(Q), n).T)
 
         Ni, Vi, Mi = Fp[k]
         px, py = P * st.p[u, 0], P * st.p[u, 1]
