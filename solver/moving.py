@@ -403,6 +403,29 @@ class _Placements:
     def n(self) -> int:
         return len(self.fronts)
 
+    def product(self, G: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
+        """``G @ WP`` (G: (r, nb) per unit nodal load) for every placement,
+        in blocks of _COLS placements, each with only the basis rows its
+        axles load: consecutive placements load a few neighbouring path
+        nodes.  The blocks are small products, which the BLAS runs on the
+        calling thread: woken worker threads keep spinning after a large
+        product and, on a shared machine, slowed the rest of the envelope
+        several times over."""
+        out = np.empty((G.shape[0], self.n)) if out is None else out
+        WP = self.WP
+        nz = WP != 0.0
+        has = nz.any(axis=0)
+        first = np.where(has, nz.argmax(axis=0), WP.shape[0])
+        last = np.where(has, WP.shape[0] - nz[::-1].argmax(axis=0), 0)
+        for c0 in range(0, self.n, _COLS):
+            c1 = min(self.n, c0 + _COLS)
+            r0, r1 = int(first[c0:c1].min()), int(last[c0:c1].max())
+            if r1 > r0:
+                np.matmul(G[:, r0:r1], WP[r0:r1, c0:c1], out=out[:, c0:c1])
+            else:
+                out[:, c0:c1] = 0.0
+        return out
+
 
 class MovingLoads:
     """Unit-load solutions of a frame along a load path, from one
@@ -447,8 +470,13 @@ class MovingLoads:
             return self._basis_cache
         model = self.model
         N = model.n_dofs
-        on = np.unique(self.path.member)
-        nodes = np.unique(np.concatenate([model.si[on], model.ei[on]]))
+        # the path's nodes in travel order, so that the loads of nearby
+        # placements fall on neighbouring basis columns
+        pth = self.path
+        fwd = pth.a1 >= pth.a0
+        seq = np.column_stack([np.where(fwd, model.si[pth.member], model.ei[pth.member]),
+                               np.where(fwd, model.ei[pth.member], model.si[pth.member])]).ravel()
+        nodes = seq[np.sort(np.unique(seq, return_index=True)[1])]
         dofs = (3 * nodes[:, None] + np.arange(3)[None, :]).ravel()
         dofs = dofs[model.act[dofs]]
         nb = len(dofs)
@@ -457,7 +485,9 @@ class MovingLoads:
         F = np.zeros((N, nb))
         F[dofs, np.arange(nb)] = 1.0
         U = displacements(model, self._fact, _Rhs(F))
-        fe = np.matmul(np.matmul(model.k_loc[:, :3, :], model.T), U[model.dof])  # (m, 3, nb)
+        # (m, 3, nb) start-end forces k[:3] T u; einsum keeps these many tiny
+        # products off the BLAS (see _Placements.product)
+        fe = np.einsum("mij,mjc->mic", np.einsum("mij,mjk->mik", model.k_loc[:, :3, :], model.T), U[model.dof])
         Rs = support_reactions(model, U, F)
         nd = np.array([sp_.node for sp_ in self.frame.supports], dtype=np.intp)
         cn, sn = model.sup.cos[nd][:, None], model.sup.sin[nd][:, None]
@@ -579,7 +609,7 @@ class MovingLoads:
         each member."""
         basis = self._basis()
         nb = pl.WP.shape[0]
-        F = (basis.start_forces[rows].reshape(-1, nb) @ pl.WP).reshape(len(rows), 3, pl.n)
+        F = pl.product(basis.start_forces[rows].reshape(-1, nb)).reshape(len(rows), 3, pl.n)
         j = pl.st.member[pl.u]
         k = np.searchsorted(rows, j)
         mine = (k < len(rows)) & (rows[np.minimum(k, len(rows) - 1)] == j)
@@ -631,7 +661,7 @@ class MovingLoads:
         buf, E = np.empty((3 * blk, pl.n)), np.empty((blk, pl.n))
         for lo in range(0, len(free), blk):
             r = free[lo:lo + blk]
-            F = np.matmul(fe[r].reshape(-1, nb), pl.WP, out=buf[:3 * len(r)]).reshape(len(r), 3, pl.n)
+            F = pl.product(fe[r].reshape(-1, nb), out=buf[:3 * len(r)]).reshape(len(r), 3, pl.n)
             _free_extremes(F, L[r], t, bounds[r], best, E[:len(r)])
         if len(on):
             _loaded_extremes(pl, self._member_forces(pl, on), on, rows, xs, bounds, L, t, best)
@@ -658,7 +688,7 @@ class MovingLoads:
         pl = self._placements(vehicle, float(step), directions)
         Rb = self._basis().reactions
         n_sup, _, nb = Rb.shape
-        R = (Rb.reshape(3 * n_sup, nb) @ pl.WP).reshape(n_sup, 3, -1)
+        R = pl.product(Rb.reshape(3 * n_sup, nb)).reshape(n_sup, 3, -1)
         out = []
         for k, sup in enumerate(self.frame.supports):
             row: dict = {"node": sup.node, "support_index": k}
@@ -706,6 +736,9 @@ class MovingLoads:
             out[mid] = MemberEnvelope(mid, xs[sl], {key: v[sl] for key, v in vals.items()},
                                       {key: v[sl] for key, v in fr.items()}, {key: v[sl] for key, v in dr.items()})
         return out
+
+
+_COLS = 128  # placements per block of the end-force products
 
 
 def _merge(best: tuple[np.ndarray, np.ndarray], idx, v: np.ndarray, a: np.ndarray) -> None:
