@@ -656,7 +656,7 @@ class MovingLoads:
         t = np.linspace(0.0, 1.0, max(int(points_per_member), 2))
         # members without axles in blocks of about a megabyte of end forces,
         # computed into the same buffers
-        blk = max(1, min(int(chunk), (1 << 17) // max(pl.n, 1)))
+        blk = max(1, min(int(chunk), _CELLS // max(pl.n, 1)))
         fe, nb = self._basis().start_forces, pl.WP.shape[0]
         buf, E = np.empty((3 * blk, pl.n)), np.empty((blk, pl.n))
         for lo in range(0, len(free), blk):
@@ -664,7 +664,7 @@ class MovingLoads:
             F = pl.product(fe[r].reshape(-1, nb), out=buf[:3 * len(r)]).reshape(len(r), 3, pl.n)
             _free_extremes(F, L[r], t, bounds[r], best, E[:len(r)])
         if len(on):
-            _loaded_extremes(pl, self._member_forces(pl, on), on, rows, xs, bounds, L, t, best)
+            _loaded_extremes(pl, self._member_forces(pl, on), on, rows, xs, bounds, L, best)
         vals: dict[str, np.ndarray] = {}
         at: dict[str, np.ndarray] = {}
         for q in "NVM":
@@ -739,6 +739,7 @@ class MovingLoads:
 
 
 _COLS = 128  # placements per block of the end-force products
+_CELLS = 1 << 17  # values per work array (a megabyte) when members or samples go in blocks
 
 
 def _merge(best: tuple[np.ndarray, np.ndarray], idx, v: np.ndarray, a: np.ndarray) -> None:
@@ -787,7 +788,7 @@ def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarra
 
 
 def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np.ndarray, xs: np.ndarray,
-                     bounds: np.ndarray, L: np.ndarray, t: np.ndarray, best: dict) -> None:
+                     bounds: np.ndarray, L: np.ndarray, best: dict) -> None:
     """Extremes over every placement at the samples of the members ``on``
     that axles stand on, from their start-end forces ``Fp`` (len(on), 3,
     n_place).
@@ -822,17 +823,6 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
         first = np.full((len(Q), kmax + 1), n)
         first[:, 0] = 0
         first[re_[o], slot + 1] = fR[o]
-        runs = np.diff(first, axis=1, append=n).ravel()  # samples at each level
-
-        def steps(val):
-            """(n, len(Q)) the sum of val over the axles at or before each
-            sample (right side): per placement, its levels 0, v1, v1 + v2,
-            ... repeated over the samples where they hold."""
-            lev = np.zeros((len(Q), kmax + 1))
-            lev[re_[o], slot + 1] = val[o]
-            np.cumsum(lev, axis=1, out=lev)
-            return np.ascontiguousarray(np.repeat(lev.ravel(), runs).reshape(len(Q), n).T)
-
         Ni, Vi, Mi = Fp[k]
         px, py = P * st.p[u, 0], P * st.p[u, 1]
         # N and V of the placements without an axle here: constant along x
@@ -843,41 +833,70 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
                 i = int(np.argmax(w))
                 for side in ("right", "left"):
                     _merge(best[(q, sg, side)], idx, np.full(n, w[i]), np.full(n, i))
-        # the left side differs from the right only at samples an axle
-        # stands on: those rows again, without the axle
-        at = fL > fR
-        redo = np.unique(fR[at])
-        for q, right, val in (("N", -Ni[Q] + steps(-px), -px) if np.any(px) else ("N", None, None),
-                              ("V", steps(py), py)):
-            if right is None:  # no axial component: N is the end forces' alone, the same at every sample
-                i1_, v1, i2_, v2 = (np.full(n, v) for v in _extreme((-Ni[Q])[None, :]))
-            else:
-                if q == "V":
-                    right += Vi[Q]
-                    VR = right
-                i1_, v1, i2_, v2 = _extreme(right)
-            for side in ("right", "left"):
-                if side == "left" and right is not None and len(redo):
-                    rows_ = right[redo]
-                    np.subtract.at(rows_, (np.searchsorted(redo, fR[at]), re_[at]), val[at])
-                    j1, w1, j2, w2 = _extreme(rows_)
-                    i1_, v1, i2_, v2 = i1_.copy(), v1.copy(), i2_.copy(), v2.copy()
-                    i1_[redo], v1[redo], i2_[redo], v2[redo] = j1, w1, j2, w2
-                _merge(best[(q, 1, side)], idx, v1, Q[i1_])
-                _merge(best[(q, -1, side)], idx, -v2, Q[i2_])
-        # M of the loaded placements: x Vi - Mi plus the axles' ramps
-        # py (x - a), i.e. x (Vi + sum py) - (Mi + sum py a)
-        C2 = steps(py * st.a[u])
-        C2 += Mi[Q]
-        E = x[:, None] * VR
-        E -= C2
-        i1_, v1, i2_, v2 = _extreme(E)
-        _merge(best[("M", 1, "right")], idx, v1, Q[i1_])
-        _merge(best[("M", -1, "right")], idx, -v2, Q[i2_])
+        # the loaded placements, in blocks of samples (about a megabyte per array)
+        rows_blk = max(16, _CELLS // max(len(Q), 1))
+        for s0 in range(0, n, rows_blk):
+            s1 = min(n, s0 + rows_blk)
+            _loaded_block(s0, s1, x[s0:s1], idx[s0:s1], Q, re_, o, slot, np.clip(first, s0, s1) - s0,
+                          fR, fL, Ni[Q], Vi[Q], Mi[Q], px, py, st.a[u], best)
         # M of the others: lines in x
         line = np.ones(pl.n, bool)
         line[Q] = False
         _line_extremes(x, Vi, Mi, line, idx, best)
+
+
+def _loaded_block(s0, s1, x, idx, Q, re_, o, slot, first, fR, fL, NiQ, ViQ, MiQ, px, py, a, best) -> None:
+    """Samples s0:s1 of a member (``x``, indices ``idx``) under its loaded
+    placements ``Q``: the axles (entries; ``re_`` their placement in Q,
+    ``o`` their order by placement then position, ``slot`` their rank in
+    that order within the placement) with first samples ``fR`` (right
+    side) and ``fL`` (left), ``first`` (len(Q), kmax + 1) the first sample
+    of each level clipped to the block, and the placements' end forces."""
+    n, nq = s1 - s0, len(Q)
+    kmax = first.shape[1] - 1
+    runs = np.diff(first, axis=1, append=n).ravel()  # samples at each level
+
+    def steps(val):
+        """(n, nq) the sum of val over the axles at or before each sample
+        (right side): per placement, its levels 0, v1, v1 + v2, ...
+        repeated over the samples where they hold."""
+        lev = np.zeros((nq, kmax + 1))
+        lev[re_[o], slot + 1] = val[o]
+        np.cumsum(lev, axis=1, out=lev)
+        return np.ascontiguousarray(np.repeat(lev.ravel(), runs).reshape(nq, n).T)
+
+    # the left side differs from the right only at samples an axle stands
+    # on: those rows again, without the axle
+    at = (fL > fR) & (fR >= s0) & (fR < s1)
+    redo = np.unique(fR[at] - s0)
+    VR = None
+    for q, right, val in (("N", -NiQ + steps(-px), -px) if np.any(px) else ("N", None, None),
+                          ("V", steps(py), py)):
+        if right is None:  # no axial component: N is the end forces' alone, the same at every sample
+            i1_, v1, i2_, v2 = (np.full(n, v) for v in _extreme(-NiQ[None, :]))
+        else:
+            if q == "V":
+                right += ViQ
+                VR = right
+            i1_, v1, i2_, v2 = _extreme(right)
+        for side in ("right", "left"):
+            if side == "left" and right is not None and len(redo):
+                rows_ = right[redo]
+                np.subtract.at(rows_, (np.searchsorted(redo, fR[at] - s0), re_[at]), val[at])
+                j1, w1, j2, w2 = _extreme(rows_)
+                i1_, v1, i2_, v2 = i1_.copy(), v1.copy(), i2_.copy(), v2.copy()
+                i1_[redo], v1[redo], i2_[redo], v2[redo] = j1, w1, j2, w2
+            _merge(best[(q, 1, side)], idx, v1, Q[i1_])
+            _merge(best[(q, -1, side)], idx, -v2, Q[i2_])
+    # M: x Vi - Mi plus the axles' ramps py (x - a), i.e.
+    # x (Vi + sum py) - (Mi + sum py a)
+    C2 = steps(py * a)
+    C2 += MiQ
+    E = x[:, None] * VR
+    E -= C2
+    i1_, v1, i2_, v2 = _extreme(E)
+    _merge(best[("M", 1, "right")], idx, v1, Q[i1_])
+    _merge(best[("M", -1, "right")], idx, -v2, Q[i2_])
 
 
 def _line_extremes(x: np.ndarray, Vi: np.ndarray, Mi: np.ndarray, use: np.ndarray, idx: np.ndarray,

@@ -288,12 +288,14 @@ def _short_middle_span() -> tuple[Frame, list[tuple[str, float, float]]]:
     return f, [("A", 0.0, 6.0), ("B", 0.0, 1.5), ("C", 0.0, 6.0)]
 
 
-@pytest.mark.parametrize("frame, direction, step, vehicle", [
-    (_ramp_frame, (0.0, -1.0), 0.25, Vehicle((60e3, 40e3), (2.5,))),
-    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,))),
-    (_short_middle_span, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3, 30e3), (3.0, 1.25))),
+@pytest.mark.parametrize("frame, direction, step, vehicle, cells", [
+    (_ramp_frame, (0.0, -1.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None),
+    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None),
+    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), 40),  # work in the smallest blocks
+    (_short_middle_span, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3, 30e3), (3.0, 1.25)), None),
 ])
-def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame, direction, step, vehicle):
+def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame, direction, step, vehicle, cells,
+                                                                          monkeypatch):
     # The envelope must be the largest and smallest N, V, M over the
     # vehicle's placements.  Cross-check by an independent route: every
     # placement (front axle at k * step, both ways) is put on the frame as
@@ -303,7 +305,9 @@ def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame,
     # against the path, an inclined roller and a column off the path; the
     # inclined load direction gives the axles an axial component on every
     # member.
-    from dxf2frame.solver import PointLoad, solve
+    from dxf2frame.solver import PointLoad, moving, solve
+    if cells:
+        monkeypatch.setattr(moving, "_CELLS", cells)
     f, chain = frame()
     g = np.asarray(direction) / np.hypot(*direction)
     ml = MovingLoads(f, path_along_members(f, [c[0] for c in chain]), direction=tuple(direction))
