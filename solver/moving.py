@@ -3,9 +3,14 @@
 A load path runs along members (:func:`path_along_members`, an ordered
 chain of member ids, or :func:`path_through_points`, a polyline whose
 segments lie on members).  :class:`MovingLoads` factorises the frame's
-stiffness once and solves a unit point load at any set of path stations as
-the columns of one right-hand side (superposition: the frame is linear).
-From those unit-load solutions it gives
+stiffness once and solves a unit load on each active dof of the path's
+nodes as the columns of one right-hand side (two or three per node, not
+one per station).  A point load on a member equals its fixed-end forces on
+that member plus their reversal applied at the member's end nodes, so the
+solution for a unit load at any path station is a combination of those
+nodal solutions plus the clamped-member forces of the member it stands on
+(superposition: the frame is linear).  From those unit-load solutions it
+gives
 
 * influence lines (:meth:`MovingLoads.influence_line`): a reaction
   component, or N, V, M at a point of a member, as the load moves along
@@ -13,6 +18,10 @@ From those unit-load solutions it gives
 * the envelope of N, V, M along every member under a :class:`Vehicle`
   (axle loads and spacings) crossing the path in both directions
   (:meth:`MovingLoads.envelope`), with the governing vehicle position.
+  Every placement's end forces on every member come from one product
+  with the nodal solutions; a member no axle stands on carries end forces
+  only (N, V constant, M linear along it), and only the members the path
+  runs on see the axles' own steps and ramps.
 
 Units: the frame's (N, m in the DXF pipeline); the unit load is 1 [force].
 The load acts along ``direction`` (global, default (0, -1): downward); an
@@ -628,17 +637,20 @@ class MovingLoads:
         point loads lies under an axle).  N and V are taken on both sides
         of each point; at each point the value of the first placement (in
         placement order) reaching the extreme governs, the right side
-        before the left.  ``chunk`` members are treated at a time.
+        before the left.  At most ``chunk`` members are treated at a time
+        (fewer where a megabyte of work space holds fewer).
 
         How: the unit loads are solved once, at the path's nodes
         (:meth:`unit_solutions`), and every member's end forces under every
-        placement follow by one dense product.  A member with no axle on
-        it carries end forces only: N and V are constant along it and M is
-        linear, so its extreme over the placements at any point is on the
-        upper (lower) envelope of straight lines, found from the extremes
-        at its two ends and one more point; only the placements that can
-        reach that envelope are evaluated at every sample.  The placements
-        with an axle on a member add the axles' own steps and ramps there.
+        placement follow by dense products.  A member with no axle on it
+        anywhere carries end forces only: N and V are constant along it and
+        M = Vi x - Mi, evaluated for every placement at its regular points.
+        On a member axles stand on, the placements that put an axle there
+        add the axles' own steps (N, V) and ramps (M) from each axle's
+        position on; the others give straight lines of M, whose extremes
+        are found exactly from a few tangent samples and the lines above
+        the tangents' kinks (:func:`_line_extremes`).  Every value is the
+        sum the former one-column-per-station route gave, to rounding.
         """
         pl = self._placements(vehicle, float(step), directions)
         st = pl.st
