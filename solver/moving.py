@@ -781,14 +781,14 @@ def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarra
 
     ``F`` (r, 3, n_place) the members' start-end forces, ``L`` (r,), ``E``
     (r, n_place) work space."""
+    at = (first[:, None] + np.arange(len(t))).ravel()  # every sample of these members
     for q, arr, sg in (("N", F[:, 0, :], -1), ("V", F[:, 1, :], 1)):
-        i1, v1, i2, v2 = _extreme(arr)
+        i1, v1, i2, v2 = (np.repeat(v, len(t)) for v in _extreme(arr))
         if sg < 0:  # N = -Ni: its largest value is the smallest Ni
             i1, v1, i2, v2 = i2, -v2, i1, -v1
-        for k in range(len(t)):
-            for side in ("right", "left"):
-                best[(q, 1, side)][0][first + k], best[(q, 1, side)][1][first + k] = v1, i1
-                best[(q, -1, side)][0][first + k], best[(q, -1, side)][1][first + k] = -v2, i2
+        for side in ("right", "left"):
+            best[(q, 1, side)][0][at], best[(q, 1, side)][1][at] = v1, i1
+            best[(q, -1, side)][0][at], best[(q, -1, side)][1][at] = -v2, i2
     Vi, Mi = F[:, 1, :], F[:, 2, :]
     for k, tk in enumerate(t):
         np.multiply((L * tk)[:, None], Vi, out=E)  # x Vi - Mi at the samples x = L t
