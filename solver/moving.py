@@ -407,10 +407,23 @@ class _Placements:
     place: np.ndarray
     load: np.ndarray
     WP: np.ndarray
+    _windows: list | None = None
 
     @property
     def n(self) -> int:
         return len(self.fronts)
+
+    def windows(self) -> list[tuple[int, int, int, int]]:
+        """(c0, c1, r0, r1): blocks of _COLS placements and the basis rows
+        r0:r1 their axles load (r1 <= r0: none)."""
+        if self._windows is None:
+            nz = self.WP != 0.0
+            has = nz.any(axis=0)
+            first = np.where(has, nz.argmax(axis=0), nz.shape[0])
+            last = np.where(has, nz.shape[0] - nz[::-1].argmax(axis=0), 0)
+            self._windows = [(c0, min(self.n, c0 + _COLS), int(first[c0:c0 + _COLS].min()),
+                              int(last[c0:c0 + _COLS].max())) for c0 in range(0, self.n, _COLS)]
+        return self._windows
 
     def product(self, G: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
         """``G @ WP`` (G: (r, nb) per unit nodal load) for every placement,
@@ -421,16 +434,9 @@ class _Placements:
         product and, on a shared machine, slowed the rest of the envelope
         several times over."""
         out = np.empty((G.shape[0], self.n)) if out is None else out
-        WP = self.WP
-        nz = WP != 0.0
-        has = nz.any(axis=0)
-        first = np.where(has, nz.argmax(axis=0), WP.shape[0])
-        last = np.where(has, WP.shape[0] - nz[::-1].argmax(axis=0), 0)
-        for c0 in range(0, self.n, _COLS):
-            c1 = min(self.n, c0 + _COLS)
-            r0, r1 = int(first[c0:c1].min()), int(last[c0:c1].max())
+        for c0, c1, r0, r1 in self.windows():
             if r1 > r0:
-                np.matmul(G[:, r0:r1], WP[r0:r1, c0:c1], out=out[:, c0:c1])
+                np.matmul(G[:, r0:r1], self.WP[r0:r1, c0:c1], out=out[:, c0:c1])
             else:
                 out[:, c0:c1] = 0.0
         return out
