@@ -666,9 +666,10 @@ class MovingLoads:
         bounds = np.searchsorted(rows, np.arange(m + 1))
         ns = len(rows)
         # best (sign * value, placement) per sample, for q in N V M, sign +1
-        # (max) and -1 (min), side right and left
+        # (max) and -1 (min), side right and left (M has no jumps: right only)
         best = {key: (np.full(ns, -np.inf), np.zeros(ns, np.intp))
-                for key in [(q, sg, sd) for q in "NVM" for sg in (1, -1) for sd in ("right", "left")]}
+                for key in [(q, sg, sd) for q in "NVM" for sg in (1, -1) for sd in ("right", "left")
+                            if q != "M" or sd == "right"]}
         on = np.unique(st.member[pl.u])  # members an axle stands on
         free = np.setdiff1d(np.arange(m), on)
         t = np.linspace(0.0, 1.0, max(int(points_per_member), 2))
@@ -787,14 +788,14 @@ def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarra
 
     ``F`` (r, 3, n_place) the members' start-end forces, ``L`` (r,), ``E``
     (r, n_place) work space."""
-    at = (first[:, None] + np.arange(len(t))).ravel()  # every sample of these members
+    every = (first[:, None] + np.arange(len(t))).ravel()  # every sample of these members
     for q, arr, sg in (("N", F[:, 0, :], -1), ("V", F[:, 1, :], 1)):
         i1, v1, i2, v2 = (np.repeat(v, len(t)) for v in _extreme(arr))
         if sg < 0:  # N = -Ni: its largest value is the smallest Ni
             i1, v1, i2, v2 = i2, -v2, i1, -v1
         for side in ("right", "left"):
-            best[(q, 1, side)][0][at], best[(q, 1, side)][1][at] = v1, i1
-            best[(q, -1, side)][0][at], best[(q, -1, side)][1][at] = -v2, i2
+            best[(q, 1, side)][0][every], best[(q, 1, side)][1][every] = v1, i1
+            best[(q, -1, side)][0][every], best[(q, -1, side)][1][every] = -v2, i2
     Vi, Mi = F[:, 1, :], F[:, 2, :]
     for k, tk in enumerate(t):
         np.multiply((L * tk)[:, None], Vi, out=E)  # x Vi - Mi at the samples x = L t
