@@ -288,11 +288,22 @@ def _short_middle_span() -> tuple[Frame, list[tuple[str, float, float]]]:
     return f, [("A", 0.0, 6.0), ("B", 0.0, 1.5), ("C", 0.0, 6.0)]
 
 
+def _spans_on_a_spring() -> tuple[Frame, list[tuple[str, float, float]]]:
+    """The three spans with the third support a vertical spring (5 MN/m)
+    and a rotational spring at the far end: the unit loads' reactions
+    include spring forces."""
+    f, chain = _short_middle_span()
+    f.supports[2] = type(f.supports[2]).of_kind(2, "spring", ky=5e6)
+    f.supports[3] = type(f.supports[3]).of_kind(3, "roller", kr=2e7)
+    return f, chain
+
+
 @pytest.mark.parametrize("frame, direction, step, vehicle, cells", [
     (_ramp_frame, (0.0, -1.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None),
     (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None),
     (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), 40),  # work in the smallest blocks
     (_short_middle_span, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3, 30e3), (3.0, 1.25)), None),
+    (_spans_on_a_spring, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (3.0,)), None),
 ])
 def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame, direction, step, vehicle, cells,
                                                                           monkeypatch):
@@ -337,6 +348,13 @@ def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame,
                 i = [fronts.index((fr, int(dr))) for fr, dr in zip(e.front[key], e.direction[key])]
                 got = red(vals[i, np.arange(len(e.x))], axis=1)
                 assert np.allclose(got, e.values[key], rtol=0, atol=1e-9 * scale)
+    # support reactions: the extremes over the same direct solves
+    R = np.array([direct[f"P{i}"].reaction_array() for i in range(len(fronts))])  # (placement, support, 3)
+    scale = max(np.abs(R).max(), 1.0)
+    for k, row in enumerate(ml.reaction_envelope(vehicle, step=step)):
+        for ci, comp in enumerate(("fx", "fy", "m")):
+            assert row[f"{comp}_max"] == pytest.approx(R[:, k, ci].max(), abs=1e-9 * scale)
+            assert row[f"{comp}_min"] == pytest.approx(R[:, k, ci].min(), abs=1e-9 * scale)
 
 
 def test_envelope_of_a_span_off_the_path_by_the_three_moment_equation():
