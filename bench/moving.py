@@ -7,12 +7,13 @@ drawings as the main benchmark, :mod:`bench.generate`) read once through
 
 * *one solve*: :func:`dxf2frame.solver.solve` of every load case and the
   combinations of the settings (:func:`dxf2frame.solver.combine`): the
-  results counted in ``results`` (15 on the generated frames: D, L, W and
-  twelve LRFD/ASD combinations);
+  results counted in ``results`` (21 on the generated frames: D, L, W and
+  the built-in sets' nine LRFD and nine ASD combinations);
 * *moving*: :class:`dxf2frame.solver.MovingLoads` on a path along the
   roof beam line (the top floor's beams, one chain) with ``stations``
   stations, a two-axle vehicle crossing both ways, the envelope of N, V,
-  M along every member (one factorisation, unit loads superposed);
+  M along every member (one factorisation, unit loads at the path's nodes
+  superposed);
 * *alpha_cr*: the elastic critical load factors of the LRFD combinations
   (the default ``[second_order] analysis = "check"`` of every solve).
 

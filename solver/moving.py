@@ -3,9 +3,14 @@
 A load path runs along members (:func:`path_along_members`, an ordered
 chain of member ids, or :func:`path_through_points`, a polyline whose
 segments lie on members).  :class:`MovingLoads` factorises the frame's
-stiffness once and solves a unit point load at any set of path stations as
-the columns of one right-hand side (superposition: the frame is linear).
-From those unit-load solutions it gives
+stiffness once and solves a unit load on each active dof of the path's
+nodes as the columns of one right-hand side (two or three per node, not
+one per station).  A point load on a member equals its fixed-end forces on
+that member plus their reversal applied at the member's end nodes, so the
+solution for a unit load at any path station is a combination of those
+nodal solutions plus the clamped-member forces of the member it stands on
+(superposition: the frame is linear).  From those unit-load solutions it
+gives
 
 * influence lines (:meth:`MovingLoads.influence_line`): a reaction
   component, or N, V, M at a point of a member, as the load moves along
@@ -13,6 +18,10 @@ From those unit-load solutions it gives
 * the envelope of N, V, M along every member under a :class:`Vehicle`
   (axle loads and spacings) crossing the path in both directions
   (:meth:`MovingLoads.envelope`), with the governing vehicle position.
+  Every placement's end forces on every member come from one product
+  with the nodal solutions; a member no axle stands on carries end forces
+  only (N, V constant, M linear along it), and only the members the path
+  runs on see the axles' own steps and ramps.
 
 Units: the frame's (N, m in the DXF pipeline); the unit load is 1 [force].
 The load acts along ``direction`` (global, default (0, -1): downward); an
@@ -348,6 +357,91 @@ def _unit_fixed_end_forces(model: FrameModel, j: np.ndarray, a: np.ndarray, p: n
     return f0
 
 
+@dataclass(eq=False)
+class _NodalBasis:
+    """A unit load on each active dof of the path's nodes, solved.
+
+    ``col`` (3n,) the basis column of each global dof (-1 for a dof that is
+    not in the basis); ``start_forces`` (m, 3, nb) every member's
+    start-end forces ``Ni, Vi, Mi`` under each unit nodal load (local);
+    ``reactions`` (n_supports, 3, nb) global fx, fy, m of each support.
+    """
+
+    col: np.ndarray
+    start_forces: np.ndarray
+    reactions: np.ndarray
+
+
+@dataclass(eq=False)
+class _Stations:
+    """Unit point loads at path coordinates ``s`` (ns,) as loads on the
+    frame: ``member``, ``a`` where each lies, ``p`` (ns, 2) its local
+    (axial, transverse) components, ``f0`` (ns, 6) its fixed-end forces
+    on that member (releases condensed) and ``W`` (nb, ns) the sparse
+    equivalent nodal loads in the basis dofs (node axes)."""
+
+    s: np.ndarray
+    member: np.ndarray
+    a: np.ndarray
+    p: np.ndarray
+    f0: np.ndarray
+    W: sp.csr_matrix
+
+
+@dataclass(eq=False)
+class _Placements:
+    """Every vehicle placement as axle loads at distinct path stations.
+
+    ``fronts``, ``dirs`` (n_place,) front axle position and travel
+    direction; ``st`` the stations; ``u``, ``place``, ``load`` (ne,) one
+    entry per axle on the path (station index, placement index, axle load
+    [force]; axles of one placement at one station summed), sorted by
+    the station's member, then placement; ``WP`` (nb, n_place) dense
+    equivalent nodal loads of each placement.
+    """
+
+    fronts: np.ndarray
+    dirs: np.ndarray
+    st: _Stations
+    u: np.ndarray
+    place: np.ndarray
+    load: np.ndarray
+    WP: np.ndarray
+    _windows: list | None = None
+
+    @property
+    def n(self) -> int:
+        return len(self.fronts)
+
+    def windows(self) -> list[tuple[int, int, int, int]]:
+        """(c0, c1, r0, r1): blocks of _COLS placements and the basis rows
+        r0:r1 their axles load (r1 <= r0: none)."""
+        if self._windows is None:
+            nz = self.WP != 0.0
+            has = nz.any(axis=0)
+            first = np.where(has, nz.argmax(axis=0), nz.shape[0])
+            last = np.where(has, nz.shape[0] - nz[::-1].argmax(axis=0), 0)
+            self._windows = [(c0, min(self.n, c0 + _COLS), int(first[c0:c0 + _COLS].min()),
+                              int(last[c0:c0 + _COLS].max())) for c0 in range(0, self.n, _COLS)]
+        return self._windows
+
+    def product(self, G: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
+        """``G @ WP`` (G: (r, nb) per unit nodal load) for every placement,
+        in blocks of _COLS placements, each with only the basis rows its
+        axles load: consecutive placements load a few neighbouring path
+        nodes.  The blocks are small products, which the BLAS runs on the
+        calling thread: woken worker threads keep spinning after a large
+        product and, on a shared machine, slowed the rest of the envelope
+        several times over."""
+        out = np.empty((G.shape[0], self.n)) if out is None else out
+        for c0, c1, r0, r1 in self.windows():
+            if r1 > r0:
+                np.matmul(G[:, r0:r1], self.WP[r0:r1, c0:c1], out=out[:, c0:c1])
+            else:
+                out[:, c0:c1] = 0.0
+        return out
+
+
 class MovingLoads:
     """Unit-load solutions of a frame along a load path, from one
     factorisation (see the module docstring).
@@ -370,6 +464,7 @@ class MovingLoads:
         self.direction = d / np.hypot(*d)
         self.model = prepare(frame, determinate=determinate)
         self._fact = factorise(self.model)
+        self._basis_cache: _NodalBasis | None = None
 
     # -- unit loads ----------------------------------------------------------
 
@@ -382,32 +477,75 @@ class MovingLoads:
         s = np.arange(n + 1) * float(step)
         return s if abs(s[-1] - self.path.length) <= 1e-9 * self.path.length else np.append(s, self.path.length)
 
-    def unit_solutions(self, s) -> UnitLoadSolutions:
-        """Solve a unit load at each path coordinate of ``s``: all stations
-        as the columns of one right-hand side, with the factorisation made
-        once in the constructor."""
+    def _basis(self) -> _NodalBasis:
+        """Unit nodal loads on every active dof (free or restrained) of the
+        nodes at the ends of the path's members, solved as the columns of
+        one right-hand side (computed once, then kept)."""
+        if self._basis_cache is not None:
+            return self._basis_cache
         model = self.model
-        s = np.asarray(s, dtype=float).ravel()
+        N = model.n_dofs
+        # the path's nodes in travel order, so that the loads of nearby
+        # placements fall on neighbouring basis columns
+        pth = self.path
+        fwd = pth.a1 >= pth.a0
+        seq = np.column_stack([np.where(fwd, model.si[pth.member], model.ei[pth.member]),
+                               np.where(fwd, model.ei[pth.member], model.si[pth.member])]).ravel()
+        nodes = seq[np.sort(np.unique(seq, return_index=True)[1])]
+        dofs = (3 * nodes[:, None] + np.arange(3)[None, :]).ravel()
+        dofs = dofs[model.act[dofs]]
+        nb = len(dofs)
+        col = np.full(N, -1, dtype=np.intp)
+        col[dofs] = np.arange(nb)
+        F = np.zeros((N, nb))
+        F[dofs, np.arange(nb)] = 1.0
+        U = displacements(model, self._fact, _Rhs(F))
+        # (m, 3, nb) start-end forces k[:3] T u; einsum keeps these many tiny
+        # products off the BLAS (see _Placements.product)
+        fe = np.einsum("mij,mjc->mic", np.einsum("mij,mjk->mik", model.k_loc[:, :3, :], model.T), U[model.dof])
+        Rs = support_reactions(model, U, F)
+        nd = np.array([sp_.node for sp_ in self.frame.supports], dtype=np.intp)
+        cn, sn = model.sup.cos[nd][:, None], model.sup.sin[nd][:, None]
+        R = np.stack([cn * Rs[:, 0] - sn * Rs[:, 1], sn * Rs[:, 0] + cn * Rs[:, 1], Rs[:, 2]], axis=1)
+        self._basis_cache = _NodalBasis(col, fe, R)
+        return self._basis_cache
+
+    def _stations(self, s: np.ndarray) -> _Stations:
+        """The unit loads at path coordinates ``s`` as fixed-end forces on
+        their members and equivalent nodal loads in the basis dofs."""
+        model, basis = self.model, self._basis()
         j, a = self.path.locate(s)
         c, sn = model.c[j], model.s[j]
         gx, gy = self.direction
         p = np.column_stack([c * gx + sn * gy, -sn * gx + c * gy])
         f0 = _unit_fixed_end_forces(model, j, a, p)
-        ns, N = len(s), model.n_dofs
-        eq = -np.einsum("sji,sj->si", model.T[j], f0)
-        F = np.zeros((N, ns))
-        np.add.at(F, (model.dof[j], np.arange(ns)[:, None]), eq)
-        if np.any(F[~model.act] != 0.0):
+        eq = -np.einsum("sji,sj->si", model.T[j], f0)  # (ns, 6) node axes
+        col = basis.col[model.dof[j]]
+        if np.any((col < 0) & (eq != 0.0)):
             raise SolverError("a path station puts a couple on a joint where every member end is pinned")
-        U = displacements(model, self._fact, _Rhs(F))
-        # start-end forces only, k[:3] T u + f0 (one batched product)
-        fe = np.matmul(np.matmul(model.k_loc[:, :3, :], model.T), U[model.dof])
-        fe[j, :, np.arange(ns)] += f0[:, :3]
-        Rs = support_reactions(model, U, F)
-        nodes = np.array([sp_.node for sp_ in self.frame.supports], dtype=np.intp)
-        cn, sn_ = model.sup.cos[nodes][:, None], model.sup.sin[nodes][:, None]
-        R = np.stack([cn * Rs[:, 0] - sn_ * Rs[:, 1], sn_ * Rs[:, 0] + cn * Rs[:, 1], Rs[:, 2]], axis=1)
-        return UnitLoadSolutions(s, j, a, p, fe, R)
+        keep = col >= 0
+        ns = len(s)
+        W = sp.csr_matrix((eq[keep], (col[keep], np.broadcast_to(np.arange(ns)[:, None], col.shape)[keep])),
+                          shape=(basis.start_forces.shape[2], ns))
+        return _Stations(s, j, a, p, f0, W)
+
+    def unit_solutions(self, s) -> UnitLoadSolutions:
+        """Solve a unit load at each path coordinate of ``s``.
+
+        A point load on a member is its fixed-end forces on that member
+        plus their reversal applied at the member's two end nodes, so every
+        station's solution is a combination of the unit nodal loads at the
+        path's nodes (:meth:`_basis`, solved once) plus the fixed-end
+        forces on the loaded member itself."""
+        st = self._stations(np.asarray(s, dtype=float).ravel())
+        basis = self._basis()
+        m, _, nb = basis.start_forces.shape
+        ns = len(st.s)
+        fe = np.asarray(st.W.T @ basis.start_forces.reshape(3 * m, nb).T).T.reshape(m, 3, ns)
+        fe[st.member, :, np.arange(ns)] += st.f0[:, :3]
+        n_sup = basis.reactions.shape[0]
+        R = np.asarray(st.W.T @ basis.reactions.reshape(3 * n_sup, nb).T).T.reshape(n_sup, 3, ns)
+        return UnitLoadSolutions(st.s, st.member, st.a, st.p, fe, R)
 
     def points(self, s) -> np.ndarray:
         """(ns, 2) global coordinates of path coordinates ``s``."""
@@ -443,7 +581,7 @@ class MovingLoads:
 
     # -- vehicles ------------------------------------------------------------
 
-    def _placements(self, vehicle: Vehicle, step: float, directions: Sequence[int]):
+    def _fronts(self, vehicle: Vehicle, step: float, directions: Sequence[int]):
         """(fronts, dirs, positions (n_place, k)) of every placement: the
         front axle on the station grid from the vehicle's first touch of
         the path to its last."""
@@ -458,6 +596,43 @@ class MovingLoads:
         pos = fronts[:, None] - dirs[:, None] * vehicle.offsets[None, :]
         return fronts, dirs, pos
 
+    def _placements(self, vehicle: Vehicle, step: float, directions: Sequence[int]) -> _Placements:
+        """Every placement of ``vehicle`` as loads at the distinct axle
+        positions on the path (see :class:`_Placements`)."""
+        fronts, dirs, pos = self._fronts(vehicle, float(step), [int(d) for d in directions])
+        Lp = self.path.length
+        tol = 1e-9 * max(Lp, 1.0)
+        on = (pos >= -tol) & (pos <= Lp + tol)
+        s_on = np.clip(pos[on], 0.0, Lp)
+        uniq, inv = np.unique(np.round(s_on / tol).astype(np.int64), return_inverse=True)
+        s_u = np.empty(len(uniq))
+        s_u[inv.ravel()] = s_on  # one representative of each distinct position
+        st = self._stations(s_u)
+        loads = np.broadcast_to(np.asarray(vehicle.loads, dtype=float), pos.shape)[on]
+        A = sp.csr_matrix((loads, (inv.ravel(), np.nonzero(on)[0])), shape=(len(s_u), pos.shape[0]))
+        A.sum_duplicates()
+        WP = np.asarray((st.W @ A).toarray())
+        Ac = A.tocoo()
+        order = np.lexsort((Ac.col, st.member[Ac.row]))
+        return _Placements(fronts, dirs, st, Ac.row[order].astype(np.intp), Ac.col[order].astype(np.intp),
+                           Ac.data[order], WP)
+
+    def _member_forces(self, pl: _Placements, rows: np.ndarray) -> np.ndarray:
+        """(len(rows), 3, n_place) start-end forces Ni, Vi, Mi of members
+        ``rows`` (ascending) under every placement: the unit nodal loads
+        superposed, plus the fixed-end forces of the axles standing on
+        each member."""
+        basis = self._basis()
+        nb = pl.WP.shape[0]
+        F = pl.product(basis.start_forces[rows].reshape(-1, nb)).reshape(len(rows), 3, pl.n)
+        j = pl.st.member[pl.u]
+        k = np.searchsorted(rows, j)
+        mine = (k < len(rows)) & (rows[np.minimum(k, len(rows) - 1)] == j)
+        if mine.any():
+            np.add.at(F, (k[mine], slice(None), pl.place[mine]),
+                      pl.load[mine, None] * pl.st.f0[pl.u[mine], :3])
+        return F
+
     def envelope(self, vehicle: Vehicle, *, step: float, points_per_member: int = 11,
                  directions: Sequence[int] = (1, -1), chunk: int = 1024) -> dict[str, MemberEnvelope]:
         """Envelope of N, V, M along every member as ``vehicle`` crosses the
@@ -466,34 +641,62 @@ class MovingLoads:
         Every member is sampled at ``points_per_member`` equally spaced
         points plus every axle position on it (an extreme under moving
         point loads lies under an axle).  N and V are taken on both sides
-        of each point.  The unit loads are solved once, at every distinct
-        axle position, and combined by a sparse product.
+        of each point; at each point the value of the first placement (in
+        placement order) reaching the extreme governs, the right side
+        before the left.  At most ``chunk`` members are treated at a time
+        (fewer where a megabyte of work space holds fewer).
+
+        How: the unit loads are solved once, at the path's nodes
+        (:meth:`unit_solutions`), and every member's end forces under every
+        placement follow by dense products.  A member with no axle on it
+        anywhere carries end forces only: N and V are constant along it and
+        M = Vi x - Mi, evaluated for every placement at its regular points.
+        On a member axles stand on, the placements that put an axle there
+        add the axles' own steps (N, V) and ramps (M) from each axle's
+        position on; the others give straight lines of M, whose extremes
+        are found exactly from a few tangent samples and the lines above
+        the tangents' kinks (:func:`_line_extremes`).  Every value is the
+        sum the former one-column-per-station route gave, to rounding.
         """
-        fronts, dirs, pos = self._placements(vehicle, float(step), [int(d) for d in directions])
-        sol, A = self._placement_matrix(vehicle, pos)
-        rows, xs = self._samples(sol, points_per_member)
-        # start-end forces Ni, Vi, Mi of every member for every placement:
-        # superposition, (m, n_placements) each
-        Ni, Vi, Mi = (np.asarray((A.T @ sol.start_forces[:, c, :].T).T) for c in range(3))
+        pl = self._placements(vehicle, float(step), directions)
+        st = pl.st
+        L = self.model.L
+        m = len(L)
+        rows, xs = self._samples(st, points_per_member)
+        bounds = np.searchsorted(rows, np.arange(m + 1))
+        ns = len(rows)
+        # best (sign * value, placement) per sample, for q in N V M, sign +1
+        # (max) and -1 (min), side right and left (M has no jumps: right only)
+        best = {key: (np.full(ns, -np.inf), np.zeros(ns, np.intp))
+                for key in [(q, sg, sd) for q in "NVM" for sg in (1, -1) for sd in ("right", "left")
+                            if q != "M" or sd == "right"]}
+        on = np.unique(st.member[pl.u])  # members an axle stands on
+        free = np.setdiff1d(np.arange(m), on)
+        t = np.linspace(0.0, 1.0, max(int(points_per_member), 2))
+        # members without axles in blocks of about a megabyte of end forces,
+        # computed into the same buffers
+        blk = max(1, min(int(chunk), _CELLS // max(pl.n, 1)))
+        fe, nb = self._basis().start_forces, pl.WP.shape[0]
+        buf, E = np.empty((3 * blk, pl.n)), np.empty((blk, pl.n))
+        for lo in range(0, len(free), blk):
+            r = free[lo:lo + blk]
+            F = pl.product(fe[r].reshape(-1, nb), out=buf[:3 * len(r)]).reshape(len(r), 3, pl.n)
+            _free_extremes(F, L[r], t, bounds[r], best, E[:len(r)])
+        if len(on):
+            _loaded_extremes(pl, self._member_forces(pl, on), on, rows, xs, bounds, L, best)
         vals: dict[str, np.ndarray] = {}
         at: dict[str, np.ndarray] = {}
-        for q in ("N", "V", "M"):
-            best = _Extremes(len(rows))
-            for side in (("right", "left") if q != "M" else ("right",)):
-                HA = (self._load_term(sol, rows, xs, q, side) @ A).tocsr()
-                for lo in range(0, len(rows), chunk):
-                    sl = slice(lo, lo + chunk)
-                    r = rows[sl]
-                    if q == "N":
-                        E = -Ni[r]
-                    elif q == "V":
-                        E = Vi[r]
-                    else:
-                        E = xs[sl, None] * Vi[r] - Mi[r]
-                    best.update(sl, E + HA[sl].toarray())
-            vals[f"{q}_max"], at[f"{q}_max"] = best.vmax, best.amax
-            vals[f"{q}_min"], at[f"{q}_min"] = best.vmin, best.amin
-        return self._by_member(rows, xs, vals, at, fronts, dirs)
+        for q in "NVM":
+            for sg, ext in ((1, "max"), (-1, "min")):
+                vr, ar = best[(q, sg, "right")]
+                if q == "M":
+                    v, a = vr, ar
+                else:  # the left side governs only when strictly beyond the right
+                    vl, al = best[(q, sg, "left")]
+                    left = vl > vr
+                    v, a = np.where(left, vl, vr), np.where(left, al, ar)
+                vals[f"{q}_{ext}"], at[f"{q}_{ext}"] = sg * v, a
+        return self._by_member(rows, xs, vals, at, pl.fronts, pl.dirs)
 
     def reaction_envelope(self, vehicle: Vehicle, *, step: float,
                           directions: Sequence[int] = (1, -1)) -> list[dict]:
@@ -501,10 +704,10 @@ class MovingLoads:
         moment CCW) ``c_max``, ``c_min`` and the governing ``c_max_front``,
         ``c_max_direction`` (likewise for min) as ``vehicle`` crosses the
         path."""
-        fronts, dirs, pos = self._placements(vehicle, float(step), [int(d) for d in directions])
-        sol, A = self._placement_matrix(vehicle, pos)
-        ns = sol.reactions.shape[0]
-        R = np.asarray((A.T @ sol.reactions.reshape(ns * 3, -1).T).T).reshape(ns, 3, -1)
+        pl = self._placements(vehicle, float(step), directions)
+        Rb = self._basis().reactions
+        n_sup, _, nb = Rb.shape
+        R = pl.product(Rb.reshape(3 * n_sup, nb)).reshape(n_sup, 3, -1)
         out = []
         for k, sup in enumerate(self.frame.supports):
             row: dict = {"node": sup.node, "support_index": k}
@@ -512,8 +715,8 @@ class MovingLoads:
                 col = R[k, ci]
                 for ext, i in (("max", int(np.argmax(col))), ("min", int(np.argmin(col)))):
                     row[f"{comp}_{ext}"] = float(col[i])
-                    row[f"{comp}_{ext}_front"] = float(fronts[i])
-                    row[f"{comp}_{ext}_direction"] = int(dirs[i])
+                    row[f"{comp}_{ext}_front"] = float(pl.fronts[i])
+                    row[f"{comp}_{ext}_direction"] = int(pl.dirs[i])
             out.append(row)
         return out
 
@@ -527,52 +730,13 @@ class MovingLoads:
         s = s[(s >= -tol) & (s <= self.path.length + tol)]
         return self.points(s)
 
-    def _placement_matrix(self, vehicle: Vehicle, pos: np.ndarray):
-        """Unit-load solutions at every distinct axle position on the path,
-        and the sparse (n_positions, n_placements) matrix of axle loads
-        that superposes them into each placement."""
-        Lp = self.path.length
-        tol = 1e-9 * max(Lp, 1.0)
-        on = (pos >= -tol) & (pos <= Lp + tol)
-        s_on = np.clip(pos[on], 0.0, Lp)
-        uniq, inv = np.unique(np.round(s_on / tol).astype(np.int64), return_inverse=True)
-        s_u = np.empty(len(uniq))
-        s_u[inv.ravel()] = s_on  # one representative of each distinct position
-        sol = self.unit_solutions(s_u)
-        place = np.nonzero(on)
-        loads = np.broadcast_to(np.asarray(vehicle.loads, dtype=float), pos.shape)[on]
-        A = sp.csr_matrix((loads, (inv.ravel(), place[0])), shape=(len(s_u), pos.shape[0]))
-        return sol, A
-
-    def _load_term(self, sol: UnitLoadSolutions, rows: np.ndarray, xs: np.ndarray, q: str,
-                   side: str) -> sp.csr_matrix:
-        """Sparse (n_samples, n_stations): the unit load's own contribution
-        to N, V or M at a sample of the member it stands on, before the
-        sample (see :meth:`UnitLoadSolutions.member_values`)."""
-        L = self.model.L
-        offset = np.concatenate([[0.0], np.cumsum(L + 1.0)])
-        keys = xs + offset[rows]  # ascending: samples are sorted by member, then x
-        bounds = np.searchsorted(rows, np.arange(len(L) + 1))
-        first = np.searchsorted(keys, sol.a + offset[sol.member], side="left" if side == "right" else "right")
-        stop = bounds[sol.member + 1]
-        cnt = np.maximum(stop - first, 0)
-        u = np.repeat(np.arange(len(sol.s)), cnt)
-        i = np.repeat(first - np.concatenate([[0], np.cumsum(cnt)[:-1]]), cnt) + np.arange(int(cnt.sum()))
-        if q == "N":
-            v = -sol.p[u, 0]
-        elif q == "V":
-            v = sol.p[u, 1]
-        else:
-            v = sol.p[u, 1] * (xs[i] - sol.a[u])
-        return sp.csr_matrix((v, (i, u)), shape=(len(rows), len(sol.s)))
-
-    def _samples(self, sol: UnitLoadSolutions, per_member: int) -> tuple[np.ndarray, np.ndarray]:
+    def _samples(self, st: _Stations, per_member: int) -> tuple[np.ndarray, np.ndarray]:
         """(rows, x) sample points of every member, sorted by member then x."""
         L = self.model.L
         m = len(L)
         t = np.linspace(0.0, 1.0, max(int(per_member), 2))
-        rows = np.concatenate([np.repeat(np.arange(m), len(t)), sol.member])
-        xs = np.concatenate([(L[:, None] * t[None, :]).ravel(), sol.a])
+        rows = np.concatenate([np.repeat(np.arange(m), len(t)), st.member])
+        xs = np.concatenate([(L[:, None] * t[None, :]).ravel(), st.a])
         order = np.lexsort((xs, rows))
         rows, xs = rows[order], xs[order]
         keep = np.ones(len(rows), bool)
@@ -580,36 +744,235 @@ class MovingLoads:
         return rows[keep], xs[keep]
 
     def _by_member(self, rows, xs, vals, at, fronts, dirs) -> dict[str, MemberEnvelope]:
+        """One MemberEnvelope per member; its arrays are slices of one array
+        per key (read-only use)."""
         out: dict[str, MemberEnvelope] = {}
         bounds = np.searchsorted(rows, np.arange(len(self.model.ids) + 1))
+        fr = {key: fronts[at[key]] for key in vals}
+        dr = {key: dirs[at[key]] for key in vals}
         for j, mid in enumerate(self.model.ids):
             sl = slice(bounds[j], bounds[j + 1])
-            env = MemberEnvelope(mid, xs[sl].copy())
-            for key in vals:
-                env.values[key] = vals[key][sl].copy()
-                env.front[key] = fronts[at[key][sl]]
-                env.direction[key] = dirs[at[key][sl]]
-            out[mid] = env
+            out[mid] = MemberEnvelope(mid, xs[sl], {key: v[sl] for key, v in vals.items()},
+                                      {key: v[sl] for key, v in fr.items()}, {key: v[sl] for key, v in dr.items()})
         return out
 
 
-class _Extremes:
-    """Running largest and smallest value of each sample over placements,
-    with the placement that gives it."""
+_COLS = 128  # placements per block of the end-force products
+_CELLS = 1 << 17  # values per work array (a megabyte) when members or samples go in blocks
 
-    def __init__(self, k: int) -> None:
-        self.vmax, self.vmin = np.full(k, -np.inf), np.full(k, np.inf)
-        self.amax, self.amin = np.zeros(k, np.intp), np.zeros(k, np.intp)
 
-    def update(self, sl: slice, E: np.ndarray) -> None:
-        r = np.arange(E.shape[0])
-        i1, i2 = np.argmax(E, axis=1), np.argmin(E, axis=1)
-        e1, e2 = E[r, i1], E[r, i2]
-        b1, b2 = e1 > self.vmax[sl], e2 < self.vmin[sl]
-        self.vmax[sl] = np.where(b1, e1, self.vmax[sl])
-        self.amax[sl] = np.where(b1, i1, self.amax[sl])
-        self.vmin[sl] = np.where(b2, e2, self.vmin[sl])
-        self.amin[sl] = np.where(b2, i2, self.amin[sl])
+def _merge(best: tuple[np.ndarray, np.ndarray], idx, v: np.ndarray, a: np.ndarray) -> None:
+    """Fold values ``v`` of placements ``a`` at samples ``idx`` into the
+    running best (value, placement): larger wins, equal keeps the earlier
+    placement."""
+    bv, ba = best
+    cv, ca = bv[idx], ba[idx]
+    better = v > cv
+    tie = v == cv
+    bv[idx] = np.where(better, v, cv)
+    ba[idx] = np.where(better, a, np.where(tie, np.minimum(a, ca), ca))
+
+
+def _extreme(arr: np.ndarray):
+    """(first argmax, max, first argmin, min) of each row of ``arr``."""
+    r = np.arange(arr.shape[0])
+    i1, i2 = np.argmax(arr, axis=1), np.argmin(arr, axis=1)
+    return i1, arr[r, i1], i2, arr[r, i2]
+
+
+def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarray, best: dict,
+                   E: np.ndarray) -> None:
+    """Extremes over every placement at the samples of members with no
+    axle on them: N and V are constant along such a member and M = Vi x -
+    Mi linear, at its samples x = L t (indices ``first + k``).
+
+    ``F`` (r, 3, n_place) the members' start-end forces, ``L`` (r,), ``E``
+    (r, n_place) work space."""
+    every = (first[:, None] + np.arange(len(t))).ravel()  # every sample of these members
+    for q, arr, sg in (("N", F[:, 0, :], -1), ("V", F[:, 1, :], 1)):
+        i1, v1, i2, v2 = (np.repeat(v, len(t)) for v in _extreme(arr))
+        if sg < 0:  # N = -Ni: its largest value is the smallest Ni
+            i1, v1, i2, v2 = i2, -v2, i1, -v1
+        for side in ("right", "left"):
+            best[(q, 1, side)][0][every], best[(q, 1, side)][1][every] = v1, i1
+            best[(q, -1, side)][0][every], best[(q, -1, side)][1][every] = -v2, i2
+    Vi, Mi = F[:, 1, :], F[:, 2, :]
+    for k, tk in enumerate(t):
+        np.multiply((L * tk)[:, None], Vi, out=E)  # x Vi - Mi at the samples x = L t
+        E -= Mi
+        i1, v1, i2, v2 = _extreme(E)
+        at = first + k
+        best[("M", 1, "right")][0][at], best[("M", 1, "right")][1][at] = v1, i1
+        best[("M", -1, "right")][0][at], best[("M", -1, "right")][1][at] = -v2, i2
+
+
+def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np.ndarray, xs: np.ndarray,
+                     bounds: np.ndarray, L: np.ndarray, best: dict) -> None:
+    """Extremes over every placement at the samples of the members ``on``
+    that axles stand on, from their start-end forces ``Fp`` (len(on), 3,
+    n_place).
+
+    A placement with no axle on the member gives constant N and V there
+    and M linear in x (:func:`_line_extremes`); one with axles adds each
+    axle's own step (N, V) and ramp (M) from its position on.  A sample at
+    an axle takes the axle for the right side and not for the left (exact
+    comparisons, as :meth:`UnitLoadSolutions.member_values`)."""
+    st = pl.st
+    offset = np.concatenate([[0.0], np.cumsum(L + 1.0)])
+    keys = xs + offset[rows]  # ascending: samples are sorted by member, then x
+    ent_j = st.member[pl.u]
+    eb = np.searchsorted(ent_j, np.concatenate([on, [on[-1] + 1]]))
+    for k, j in enumerate(on):
+        e = slice(eb[k], eb[k + 1])
+        Q, re_ = np.unique(pl.place[e], return_inverse=True)
+        u, P = pl.u[e], pl.load[e]
+        i0, i1 = bounds[j], bounds[j + 1]
+        n = i1 - i0
+        x = xs[i0:i1]
+        idx = np.arange(i0, i1)
+        akey = st.a[u] + offset[j]
+        fR = np.clip(np.searchsorted(keys, akey, side="left") - i0, 0, n)
+        fL = np.clip(np.searchsorted(keys, akey, side="right") - i0, 0, n)
+        # the axles of each loaded placement in slots (len(Q), kmax) by
+        # position; a slot without an axle sits past the last sample
+        o = np.lexsort((fR, re_))
+        g0 = np.searchsorted(re_[o], np.arange(len(Q)))
+        slot = np.arange(len(o)) - g0[re_[o]]
+        kmax = int(slot.max()) + 1
+        first = np.full((len(Q), kmax + 1), n)
+        first[:, 0] = 0
+        first[re_[o], slot + 1] = fR[o]
+        Ni, Vi, Mi = Fp[k]
+        px, py = P * st.p[u, 0], P * st.p[u, 1]
+        # N and V of the placements without an axle here: constant along x
+        for q, base in (("N", -Ni), ("V", Vi)):
+            for sg in (1, -1):
+                w = sg * base
+                w[Q] = -np.inf
+                i = int(np.argmax(w))
+                for side in ("right", "left"):
+                    _merge(best[(q, sg, side)], idx, np.full(n, w[i]), np.full(n, i))
+        # the loaded placements, in blocks of samples (about a megabyte per array)
+        rows_blk = max(16, _CELLS // max(len(Q), 1))
+        for s0 in range(0, n, rows_blk):
+            s1 = min(n, s0 + rows_blk)
+            _loaded_block(s0, s1, x[s0:s1], idx[s0:s1], Q, re_, o, slot, np.clip(first, s0, s1) - s0,
+                          fR, fL, Ni[Q], Vi[Q], Mi[Q], px, py, st.a[u], best)
+        # M of the others: lines in x
+        line = np.ones(pl.n, bool)
+        line[Q] = False
+        _line_extremes(x, Vi, Mi, line, idx, best)
+
+
+def _loaded_block(s0, s1, x, idx, Q, re_, o, slot, first, fR, fL, NiQ, ViQ, MiQ, px, py, a, best) -> None:
+    """Samples s0:s1 of a member (``x``, indices ``idx``) under its loaded
+    placements ``Q``: the axles (entries; ``re_`` their placement in Q,
+    ``o`` their order by placement then position, ``slot`` their rank in
+    that order within the placement) with first samples ``fR`` (right
+    side) and ``fL`` (left), ``first`` (len(Q), kmax + 1) the first sample
+    of each level clipped to the block, and the placements' end forces."""
+    n, nq = s1 - s0, len(Q)
+    kmax = first.shape[1] - 1
+    runs = np.diff(first, axis=1, append=n).ravel()  # samples at each level
+
+    def steps(val):
+        """(n, nq) the sum of val over the axles at or before each sample
+        (right side): per placement, its levels 0, v1, v1 + v2, ...
+        repeated over the samples where they hold."""
+        lev = np.zeros((nq, kmax + 1))
+        lev[re_[o], slot + 1] = val[o]
+        np.cumsum(lev, axis=1, out=lev)
+        return np.ascontiguousarray(np.repeat(lev.ravel(), runs).reshape(nq, n).T)
+
+    # the left side differs from the right only at samples an axle stands
+    # on: those rows again, without the axle
+    at = (fL > fR) & (fR >= s0) & (fR < s1)
+    redo = np.unique(fR[at] - s0)
+    VR = None
+    for q, right, val in (("N", -NiQ + steps(-px), -px) if np.any(px) else ("N", None, None),
+                          ("V", steps(py), py)):
+        if right is None:  # no axial component: N is the end forces' alone, the same at every sample
+            i1_, v1, i2_, v2 = (np.full(n, v) for v in _extreme(-NiQ[None, :]))
+        else:
+            if q == "V":
+                right += ViQ
+                VR = right
+            i1_, v1, i2_, v2 = _extreme(right)
+        for side in ("right", "left"):
+            if side == "left" and right is not None and len(redo):
+                rows_ = right[redo]
+                np.subtract.at(rows_, (np.searchsorted(redo, fR[at] - s0), re_[at]), val[at])
+                j1, w1, j2, w2 = _extreme(rows_)
+                i1_, v1, i2_, v2 = i1_.copy(), v1.copy(), i2_.copy(), v2.copy()
+                i1_[redo], v1[redo], i2_[redo], v2[redo] = j1, w1, j2, w2
+            _merge(best[(q, 1, side)], idx, v1, Q[i1_])
+            _merge(best[(q, -1, side)], idx, -v2, Q[i2_])
+    # M: x Vi - Mi plus the axles' ramps py (x - a), i.e.
+    # x (Vi + sum py) - (Mi + sum py a)
+    C2 = steps(py * a)
+    C2 += MiQ
+    E = x[:, None] * VR
+    E -= C2
+    i1_, v1, i2_, v2 = _extreme(E)
+    _merge(best[("M", 1, "right")], idx, v1, Q[i1_])
+    _merge(best[("M", -1, "right")], idx, -v2, Q[i2_])
+
+
+def _line_extremes(x: np.ndarray, Vi: np.ndarray, Mi: np.ndarray, use: np.ndarray, idx: np.ndarray,
+                   best: dict) -> None:
+    """Extremes of M = x Vi - Mi at the samples ``x`` (ascending, indices
+    ``idx``) of one member over the placements ``use`` (bool, n_place),
+    whose effect on the member is end forces only, so M is a straight
+    line in x for each of them.
+
+    The extremes are found exactly at about a dozen tangent samples (all
+    placements evaluated).  Between two tangent samples the upper
+    envelope of the lines lies above LB, the larger of the two lines
+    found there, a convex broken line with one kink x*; any line minus LB
+    is concave, and not positive at the two tangent samples, so a line
+    can reach the envelope between them only if it is above LB at x*.
+    Only those lines are evaluated at the samples in between (likewise
+    for the lower envelope).
+    """
+    n = len(x)
+    if not use.any():
+        return
+    K = np.unique(np.round(np.linspace(0, n - 1, min(n, 11))).astype(np.intp))
+    cand_p = np.flatnonzero(use)
+    V, M = Vi[cand_p], Mi[cand_p]
+    Et = np.multiply.outer(x[K], V) - M  # (|K|, n_use)
+    inner = np.setdiff1d(np.arange(n), K)
+    gap = np.searchsorted(K, inner) - 1  # interval of each inner sample
+    for sg in (1, -1):
+        w = sg * Et
+        qk = np.argmax(w, axis=1)
+        _merge(best[("M", sg, "right")], idx[K], w[np.arange(len(K)), qk], cand_p[qk])
+        if not len(inner):
+            continue
+        # lines a + b x, a = -sg Mi, b = sg Vi; the two tangents of each gap
+        a0, b0 = -sg * M[qk[:-1]], sg * V[qk[:-1]]
+        a1, b1 = -sg * M[qk[1:]], sg * V[qk[1:]]
+        xl, xr = x[K[:-1]], x[K[1:]]
+        den = b1 - b0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            xk = np.where(den > 0, (a0 - a1) / np.where(den > 0, den, 1.0), xl)
+        xk = np.clip(xk, xl, xr)
+        lb = np.maximum(a0 + b0 * xk, a1 + b1 * xk)
+        above = sg * (np.multiply.outer(xk, V) - M) > lb[:, None]  # (gaps, n_use)
+        above[np.arange(len(xl)), qk[:-1]] = True
+        above[np.arange(len(xl)), qk[1:]] = True
+        gr, gc = np.nonzero(above)  # by gap, then placement (ascending)
+        cnt = np.bincount(gr, minlength=len(xl))
+        cstart = np.concatenate([[0], np.cumsum(cnt)[:-1]])
+        c = cnt[gap]
+        tot = int(c.sum())
+        gstart = np.concatenate([[0], np.cumsum(c)[:-1]])
+        ps = np.repeat(np.arange(len(inner)), c)
+        pc = gc[np.repeat(cstart[gap] - gstart, c) + np.arange(tot)]
+        val = sg * (x[inner][ps] * V[pc] - M[pc])
+        gmax = np.maximum.reduceat(val, gstart)
+        first = np.minimum.reduceat(np.where(val == np.repeat(gmax, c), pc, len(cand_p)), gstart)
+        _merge(best[("M", sg, "right")], idx[inner], gmax, cand_p[first])
 
 
 @dataclass(eq=False)

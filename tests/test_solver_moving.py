@@ -250,3 +250,160 @@ def test_two_span_hogging_envelope_by_the_three_moment_equation():
     il = ml.influence_line("M", member="S1", x=L, step=0.5)
     x = il.s[il.s <= L]
     assert np.allclose(il.values[il.s <= L], -x * (L**2 - x**2) / (4 * L**2), atol=1e-9)
+
+
+def _ramp_frame() -> tuple[Frame, list[tuple[str, float, float]]]:
+    """An inclined ramp R1 (3-4-5, L = 5 m) hinged into a deck R2 (6 m) on a
+    fixed column, the deck continuing as R3 (3 m, drawn right to left)
+    onto a roller, and an inclined roller under the R2/R3 joint.  Returns
+    the frame and the path as (member, start x, end x) in travel order;
+    every length and path station is a multiple of 0.25 m, so the axle
+    positions and the report's samples are exact binary numbers."""
+    f = Frame()
+    n = [f.add_node(0.0, 0.0), f.add_node(3.0, 4.0), f.add_node(9.0, 4.0), f.add_node(3.0, 0.0),
+         f.add_node(12.0, 4.0)]
+    f.add_member(n[0], n[1], SEC, id="R1", release_end=True)
+    f.add_member(n[1], n[2], SEC, id="R2")
+    f.add_member(n[3], n[1], SEC, id="COL")
+    f.add_member(n[4], n[2], SEC, id="R3", release_start=True)
+    f.add_support(n[0], "pin")
+    f.add_support(n[2], "roller", angle=0.3)
+    f.add_support(n[3], "fixed")
+    f.add_support(n[4], "roller")
+    return f, [("R1", 0.0, 5.0), ("R2", 0.0, 6.0), ("R3", 3.0, 0.0)]
+
+
+def _short_middle_span() -> tuple[Frame, list[tuple[str, float, float]]]:
+    """Three continuous spans 6 + 1.5 + 6 m on pins and rollers: a vehicle
+    longer than the middle span can stand on both sides of it at once, so
+    the placements with no axle on it give it end moments in every
+    proportion (not one shape scaled)."""
+    f = Frame()
+    n = [f.add_node(x, 0.0) for x in (0.0, 6.0, 7.5, 13.5)]
+    for k, mid in enumerate(("A", "B", "C")):
+        f.add_member(n[k], n[k + 1], SEC, id=mid)
+    f.add_support(n[0], "pin")
+    for k in (1, 2, 3):
+        f.add_support(n[k], "roller")
+    return f, [("A", 0.0, 6.0), ("B", 0.0, 1.5), ("C", 0.0, 6.0)]
+
+
+def _spans_on_a_spring() -> tuple[Frame, list[tuple[str, float, float]]]:
+    """The three spans with the third support a vertical spring (5 MN/m)
+    and a rotational spring at the far end: the unit loads' reactions
+    include spring forces."""
+    f, chain = _short_middle_span()
+    f.supports[2] = type(f.supports[2]).of_kind(2, "spring", ky=5e6)
+    f.supports[3] = type(f.supports[3]).of_kind(3, "roller", kr=2e7)
+    return f, chain
+
+
+@pytest.mark.parametrize("frame, direction, step, vehicle, cells", [
+    (_ramp_frame, (0.0, -1.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None),
+    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None),
+    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), 40),  # work in the smallest blocks
+    (_short_middle_span, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3, 30e3), (3.0, 1.25)), None),
+    (_spans_on_a_spring, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (3.0,)), None),
+])
+def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame, direction, step, vehicle, cells,
+                                                                          monkeypatch):
+    # The envelope must be the largest and smallest N, V, M over the
+    # vehicle's placements.  Cross-check by an independent route: every
+    # placement (front axle at k * step, both ways) is put on the frame as
+    # ordinary point loads, one load case each, solved by solver.solve, and
+    # N, V, M (both sides of a jump) read at the envelope's samples.  The
+    # ramp frame has a hinge, an inclined path member, a member drawn
+    # against the path, an inclined roller and a column off the path; the
+    # inclined load direction gives the axles an axial component on every
+    # member.
+    from dxf2frame.solver import PointLoad, moving, solve
+    if cells:
+        monkeypatch.setattr(moving, "_CELLS", cells)
+    f, chain = frame()
+    g = np.asarray(direction) / np.hypot(*direction)
+    ml = MovingLoads(f, path_along_members(f, [c[0] for c in chain]), direction=tuple(direction))
+    env = ml.envelope(vehicle, step=step)
+    starts = np.cumsum([0.0] + [abs(b - a) for _, a, b in chain])
+    Lp, Lv = starts[-1], float(vehicle.offsets[-1])
+    fronts = [(k * step, 1) for k in range(int((Lp + Lv) / step) + 1)]
+    fronts += [(Lp - k * step, -1) for k in range(int((Lp + Lv) / step) + 1)]
+    for i, (front, d) in enumerate(fronts):
+        for s, P in zip(front - d * vehicle.offsets, vehicle.loads):
+            if not 0.0 <= s <= Lp:
+                continue
+            k = min(int(np.searchsorted(starts, s, side="right")) - 1, len(chain) - 1)
+            mid, a, b = chain[k]
+            x = a + np.sign(b - a) * (s - starts[k])
+            f.add_load(PointLoad(mid, float(x), px=P * g[0], py=P * g[1], case=f"P{i}"))
+    direct = solve(f, [f"P{i}" for i in range(len(fronts))])
+    for mid, e in env.items():
+        for q, name in (("N", "axial"), ("V", "shear"), ("M", "moment")):
+            vals = np.array([[[getattr(direct[f"P{i}"].members[mid], name)(x, side) for side in ("right", "left")]
+                              for x in e.x] for i in range(len(fronts))])  # (placement, sample, side)
+            scale = max(np.abs(vals).max(), 1.0)
+            assert np.allclose(e.values[f"{q}_max"], vals.max(axis=(0, 2)), rtol=0, atol=1e-9 * scale)
+            assert np.allclose(e.values[f"{q}_min"], vals.min(axis=(0, 2)), rtol=0, atol=1e-9 * scale)
+            # the governing placement reported gives that extreme itself
+            for key, red in ((f"{q}_max", np.max), (f"{q}_min", np.min)):
+                i = [fronts.index((fr, int(dr))) for fr, dr in zip(e.front[key], e.direction[key])]
+                got = red(vals[i, np.arange(len(e.x))], axis=1)
+                assert np.allclose(got, e.values[key], rtol=0, atol=1e-9 * scale)
+    # support reactions: the extremes over the same direct solves
+    R = np.array([direct[f"P{i}"].reaction_array() for i in range(len(fronts))])  # (placement, support, 3)
+    scale = max(np.abs(R).max(), 1.0)
+    for k, row in enumerate(ml.reaction_envelope(vehicle, step=step)):
+        for ci, comp in enumerate(("fx", "fy", "m")):
+            assert row[f"{comp}_max"] == pytest.approx(R[:, k, ci].max(), abs=1e-9 * scale)
+            assert row[f"{comp}_min"] == pytest.approx(R[:, k, ci].min(), abs=1e-9 * scale)
+
+
+def test_envelope_of_a_span_off_the_path_by_the_three_moment_equation():
+    # Two equal spans L, the vehicle (one load P) on span 1 only: span 2
+    # carries end forces alone.  Three-moment equation (from memory): a
+    # unit load at x in span 1 gives M_B = -x (L^2 - x^2) / (4 L^2), largest
+    # at x = L / sqrt(3): |M_B| = L / (6 sqrt(3)); span 2 has no load, so its
+    # moment falls linearly from M_B to zero at C: M(x2) = M_B (1 - x2 / L).
+    # Its hogging envelope is P L / (6 sqrt(3)) (1 - x2 / L) (stations within
+    # L/600 of the peak, where the curve is flat), and a downward load on
+    # span 1 never makes span 2 sag.
+    L, P = 6.0, 10e3
+    f = two_spans(L)
+    ml = MovingLoads(f, path_along_members(f, ["S1"]))
+    e = ml.envelope(Vehicle((P,)), step=L / 600)["S2"]
+    assert np.allclose(e.values["M_min"], -P * L / (6 * np.sqrt(3)) * (1 - e.x / L), rtol=1e-5, atol=1e-6)
+    assert np.all(e.values["M_max"] <= 1e-9 * P * L)
+    # shear in span 2 is constant along it, V = dM/dx = -M_B / L (statics),
+    # largest with the load at L / sqrt(3): P / (6 sqrt(3))
+    assert len(e.x) == 11
+    assert np.allclose(e.values["V_max"], P / (6 * np.sqrt(3)), rtol=1e-5)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_line_envelope_equals_brute_force(seed):
+    # The envelope of straight lines M = x V - M0 (a member's moment under
+    # placements that put no axle on it) found from a few tangent samples
+    # and the lines above their kinks, against evaluating every line at
+    # every sample (numpy brute force).  The lines tangent to the parabolas
+    # y = s ((x - 2.5)^2 + 40) (y = s (2 (c - 2.5) x + 2.5^2 - c^2 + 40) for
+    # s = +-1 at tangent points c) make the upper and lower envelopes curved,
+    # so each sample has its own extreme line (the hard case for the
+    # pruning); lines near zero are mixed in.
+    from dxf2frame.solver.moving import _line_extremes
+    rng = np.random.default_rng(seed)
+    n_lines, n_x = 300, 60
+    c = rng.uniform(0.0, 5.0, (2, n_lines))  # tangent points
+    s = np.array([[1.0], [-1.0]])
+    V = np.concatenate([(2 * s * (c - 2.5)).ravel(), 0.1 * rng.normal(size=50)])
+    M = np.concatenate([(-s * (2.5**2 - c**2 + 40.0)).ravel(), 0.1 * rng.normal(size=50)])
+    x = np.sort(rng.uniform(0.0, 5.0, n_x))
+    use = rng.random(len(V)) > 0.1
+    best = {("M", sg, "right"): (np.full(n_x, -np.inf), np.zeros(n_x, np.intp)) for sg in (1, -1)}
+    _line_extremes(x, V, M, use, np.arange(n_x), best)
+    E = np.multiply.outer(x, V) - M
+    E[:, ~use] = np.nan
+    for sg in (1, -1):
+        want = np.nanargmax(sg * E, axis=1)
+        assert len(set(want)) > 20  # a curved envelope: many different extreme lines
+        v, a = best[("M", sg, "right")]
+        assert np.array_equal(a, want)
+        assert np.array_equal(v, sg * E[np.arange(n_x), want])
