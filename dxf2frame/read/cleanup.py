@@ -9,7 +9,7 @@ What :func:`build_frame` does, in order:
 1. Segments not longer than the tolerance are dropped (warning naming the
    handle).
 2. Endpoints, support points and connection points closer than the
-   tolerance are merged (KD-tree pairs, clusters keep their first point).
+   tolerance are merged (pairs from an STRtree of the points, clusters keep their first point).
 3. A segment is split where another segment's end, a support, a JOINT or a
    HINGE lies on its interior (within tolerance; candidates come from a
    shapely STRtree, so no all-pairs loop).  Two segments that cross are
@@ -57,7 +57,6 @@ import numpy as np
 import shapely
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
-from scipy.spatial import cKDTree
 
 from ..solver import (
     DistributedLoad,
@@ -247,10 +246,13 @@ def _cluster(points: np.ndarray, tol: float) -> np.ndarray:
     n = len(points)
     if n == 0:
         return np.zeros(0, dtype=np.int64)
-    pairs = cKDTree(points).query_pairs(tol, output_type="ndarray")
-    if len(pairs) == 0:
+    geoms = shapely.points(points)
+    a, b = shapely.STRtree(geoms).query(geoms, predicate="dwithin", distance=tol)
+    keep = a < b
+    a, b = a[keep], b[keep]
+    if len(a) == 0:
         return np.arange(n)
-    g = coo_matrix((np.ones(len(pairs), dtype=np.int8), (pairs[:, 0], pairs[:, 1])), shape=(n, n))
+    g = coo_matrix((np.ones(len(a), dtype=np.int8), (a, b)), shape=(n, n))
     _, comp = connected_components(g, directed=False)
     first = np.full(comp.max() + 1, n, dtype=np.int64)
     np.minimum.at(first, comp, np.arange(n))
@@ -592,7 +594,7 @@ class _Locator:
     def __init__(self, frame: Frame, tol: float, units: _Units) -> None:
         self.frame, self.tol, self.units = frame, tol, units
         self.node_xy = np.array([[nd.x, nd.y] for nd in frame.nodes])
-        self.node_tree = cKDTree(self.node_xy)
+        self.node_tree = shapely.STRtree(shapely.points(self.node_xy))
         mA = self.node_xy[[m.start for m in frame.members]]
         mB = self.node_xy[[m.end for m in frame.members]]
         self.mtree = shapely.STRtree(shapely.linestrings(np.stack([mA, mB], axis=1)))
@@ -616,8 +618,12 @@ class _Locator:
         """For each point: the node within ``tol`` (or None) and the members within ``tol``."""
         if not len(points):
             return [], []
-        nd, ni = self.node_tree.query(points)
-        near_node = [int(i) if d <= self.tol else None for d, i in zip(nd.tolist(), ni.tolist())]
+        (qi, ni), nd = self.node_tree.query_nearest(shapely.points(points), return_distance=True,
+                                                    all_matches=False)
+        near_node: list[int | None] = [None] * len(points)
+        for q, i, d in zip(qi.tolist(), ni.tolist(), nd.tolist()):
+            if d <= self.tol:
+                near_node[q] = int(i)
         lp, lm = self.mtree.query(shapely.points(points), predicate="dwithin", distance=self.tol)
         order = np.argsort(lp, kind="stable")
         lp, lm = lp[order], lm[order]
@@ -801,11 +807,10 @@ def _joined_crossings(
     used = np.zeros(len(crossovers), dtype=bool)
     over = np.zeros(len(P), dtype=bool)
     if len(crossovers) and len(P):
-        ctree = cKDTree(np.array([c.at for c in crossovers], dtype=float))
-        for k, hits in enumerate(ctree.query_ball_point(P, tol)):
-            if hits:
-                over[k] = True
-                used[hits] = True
+        ctree = shapely.STRtree(shapely.points(np.array([c.at for c in crossovers], dtype=float)))
+        k, hits = ctree.query(shapely.points(P), predicate="dwithin", distance=tol)
+        over[k] = True
+        used[hits] = True
     for c, u in zip(crossovers, used):
         if not u:
             warnings.append(
@@ -814,8 +819,8 @@ def _joined_crossings(
             )
     by_symbol = np.zeros(len(P), dtype=bool)
     if connections and len(P):
-        jtree = cKDTree(np.array([c.at for c in connections], dtype=float))
-        by_symbol = np.array([bool(h) for h in jtree.query_ball_point(P, tol)], dtype=bool)
+        jtree = shapely.STRtree(shapely.points(np.array([c.at for c in connections], dtype=float)))
+        by_symbol[jtree.query(shapely.points(P), predicate="dwithin", distance=tol)[0]] = True
     both_unjoined = np.array(
         [segs[a].layer.upper() in unjoined and segs[b].layer.upper() in unjoined for a, b in zip(i, j)],
         dtype=bool,

@@ -26,7 +26,6 @@ from typing import Iterable, Sequence
 
 import numpy as np
 import shapely
-from scipy.spatial import cKDTree
 
 from dxf2frame.solver import Frame, Settlement
 
@@ -207,7 +206,7 @@ def near_misses(frame: Frame, tol: float, unit: tuple[str, float]) -> list[tuple
     lines = shapely.linestrings(np.stack([xy[si], xy[ei]], axis=1))
     tree = shapely.STRtree(lines)
     sup_nodes = np.array([s.node for s in frame.supports], dtype=np.intp)
-    sup_tree = cKDTree(xy[sup_nodes]) if len(sup_nodes) else None
+    sup_tree = shapely.STRtree(shapely.points(xy[sup_nodes])) if len(sup_nodes) else None
     seen: set[frozenset] = set()
     out = []
     free = np.flatnonzero((degree == 1) & ~supported)
@@ -227,7 +226,8 @@ def near_misses(frame: Frame, tol: float, unit: tuple[str, float]) -> list[tuple
             limit = reach if overshoot else near_miss_distance(tol, min(L[mi], L[k]))
             if gap <= limit and (best is None or gap < best[0]):
                 best = (gap, members[k].handle, members[k].layer, "member", overshoot)
-        near_sup = sup_tree.query_ball_point(xy[nid], reach) if sup_tree is not None else []
+        near_sup = (sup_tree.query(p, predicate="dwithin", distance=reach).tolist()
+                    if sup_tree is not None else [])
         for s_i in near_sup:
             sn = int(sup_nodes[s_i])
             gap = float(np.hypot(*(xy[sn] - xy[nid])))
