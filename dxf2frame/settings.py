@@ -1036,9 +1036,7 @@ def _second_order_and_moving(data: Mapping[str, Any], path: str) -> dict[str, An
     kw["moving_vehicles"] = tuple(specs)
     if specs and "moving_path_layer" not in kw:
         raise SettingsError("vehicles are given but no path: add path_layer", path=path, key="moving.path_layer")
-    if "moving_path_layer" in kw and not specs:
-        raise SettingsError("a path is given but no vehicle: add [[moving.vehicles]]", path=path,
-                            key="moving.vehicles")
+    # a path without vehicles serves influence lines (--influence) alone
     return kw
 
 

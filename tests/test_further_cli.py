@@ -249,6 +249,24 @@ def test_influence_line_of_midspan_moment_and_its_absence_without_path(tmp_path,
     assert not (tmp_path / "b" / "solved").exists()
 
 
+def test_a_path_without_vehicles_gives_influence_lines_alone(tmp_path, capsys):
+    # simple span, influence line of M at a: x (L - a) / L for x <= a (AISC
+    # beam diagrams, concentrated load at any point; Mueller-Breslau)
+    L, a = 12.0, 3.0
+    path_only = '[moving]\npath_layer = "FRAME-DECK"\nstep = "0.25 m"\n'
+    rc, _, err = run(capsys, tmp_path / "a", deck(L), path_only, "--influence", f"{a},0")
+    assert rc == 0, err
+    rows = list(csv.DictReader((tmp_path / "a" / "solved" / "frame-results-influence.csv").open()))
+    m = {round(float(r["s"]), 6): float(r["value"]) for r in rows if r["quantity"] == "M"}
+    assert m[a] == pytest.approx(a * (L - a) / L, rel=1e-9)
+    assert report(tmp_path / "a")["moving"]["vehicles"] == []
+    # the path and nothing to move along it: said, not silently ignored
+    rc, _, err = run(capsys, tmp_path / "b", deck(L), path_only)
+    assert rc == 0 and "no vehicle" in err and "FRAME-DECK" in err
+    rep = report(tmp_path / "b")
+    assert "moving" not in rep and any("no vehicle" in w for w in rep["warnings"])
+
+
 def test_path_layer_that_is_not_a_chain_names_the_member(tmp_path, capsys):
     doc = deck()
     add_member(doc.modelspace(), (6, 0), (6, 3), layer="FRAME-DECK")   # a branch

@@ -71,7 +71,14 @@ def run_further(analysis, influence=(), warnings: list[str] | None = None) -> Fu
     out = Further()
     if not analysis.stable:  # reported as unstable (exit 3): nothing more to compute
         return out
-    out.stability = run_stability(analysis, warnings if warnings is not None else [])
+    said = warnings if warnings is not None else []
+    out.stability = run_stability(analysis, said)
     if out.buckled is None:
-        out.moving = run_moving(analysis, list(influence))
+        s = analysis.settings
+        if s.moving_path_layer is not None and not s.moving_vehicles and not influence:
+            said.append(f"[moving] path_layer '{s.moving_path_layer}' is given but no vehicle, so nothing moves "
+                        "along it: add [[moving.vehicles]], or ask for influence lines along the path with "
+                        "--influence X,Y")
+        else:
+            out.moving = run_moving(analysis, list(influence))
     return out

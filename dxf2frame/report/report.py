@@ -462,7 +462,7 @@ def locate_points(
             raise DrawingError(
                 f"probe ({x:g}, {y:g}) is not on any member; nearest is {m.group} at {dist[i]:.4g} "
                 f"{model.length_unit}",
-                hint=f"give a point within {tolerance:.3g} drawing units of a member centreline",
+                hint=f"give a point within {tolerance:.3g} {model.length_unit} of a member centreline",
             )
         out.append((m.id, float(t[i] * math.sqrt(ll[i]) * model.unit_scale)))
     return out
