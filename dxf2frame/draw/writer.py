@@ -705,7 +705,7 @@ def _schedule_notes(schedule: list[str], uf: UnitFactors) -> list[str]:
     if not schedule:
         return []
     return [f"Reaction schedule ({uf.force_unit}, {uf.moment_unit}; max and min over the envelope, "
-            "UPLIFT: Ry has a negative minimum):"] + [f"- {row}" for row in schedule]
+            "a line ending in UPLIFT has a negative minimum Ry):"] + [f"- {row}" for row in schedule]
 
 
 def _draw_near_misses(pen: Pen, model, layer: str, h: float) -> list[Box]:
