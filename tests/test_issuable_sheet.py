@@ -24,9 +24,11 @@ builtin = []
 """
 
 
-def beam(path: Path, *, span: float, insunits: int, scale: float, w: str = "10 kN/m") -> Path:
+def beam(path: Path, *, span: float, insunits: int, scale: float, w: str = "10 kN/m",
+         udls: list[tuple[float, dict]] | None = None) -> Path:
     """A simply supported beam from (0, 0) to (span, 0) in drawing units,
-    pin and roller at its ends, a uniform load of case D over it."""
+    pin and roller at its ends, a uniform load of case D over it; or, with
+    ``udls``, a UDL symbol at each (x, attributes) instead."""
     doc = ezdxf.new("R2018")
     doc.header["$INSUNITS"] = insunits
     define_layers(doc)
@@ -35,7 +37,8 @@ def beam(path: Path, *, span: float, insunits: int, scale: float, w: str = "10 k
     msp.add_line((0, 0), (span, 0), dxfattribs={"layer": "FRAME"})
     insert_symbol(msp, "PIN", (0, 0), layer="SUPPORTS", scale=scale)
     insert_symbol(msp, "ROLLER", (span, 0), layer="SUPPORTS", scale=scale)
-    insert_symbol(msp, "UDL", (span / 3, 0), layer="LOADS", scale=scale, W=w, CASE="D")
+    for x, attrs in udls if udls is not None else [(span / 3, {"W": w, "CASE": "D"})]:
+        insert_symbol(msp, "UDL", (x, 0), layer="LOADS", scale=scale, **attrs)
     doc.saveas(path)
     return path
 
@@ -316,18 +319,8 @@ def test_compare_draws_no_diagrams_so_it_has_no_scale_to_share(tmp_path):
 
 def test_envelope_reactions_max_and_min_together_with_uplift(tmp_path):
     (tmp_path / "dxf2frame.toml").write_text('[combinations]\nbuiltin = ["LRFD"]\n')
-    doc = ezdxf.new("R2018")
-    doc.header["$INSUNITS"] = 6
-    define_layers(doc)
-    define_blocks(doc)
-    msp = doc.modelspace()
-    msp.add_line((0, 0), (6, 0), dxfattribs={"layer": "FRAME"})
-    insert_symbol(msp, "PIN", (0, 0), layer="SUPPORTS", scale=0.2)
-    insert_symbol(msp, "ROLLER", (6, 0), layer="SUPPORTS", scale=0.2)
-    insert_symbol(msp, "UDL", (2, 0), layer="LOADS", scale=0.2, W="10 kN/m", CASE="D")
-    insert_symbol(msp, "UDL", (4, 0), layer="LOADS", scale=0.2, W="30 kN/m", DIR="Y", CASE="W")
-    src = tmp_path / "roof.dxf"
-    doc.saveas(src)
+    src = beam(tmp_path / "roof.dxf", span=6.0, insunits=6, scale=0.2,
+               udls=[(2.0, {"W": "10 kN/m", "CASE": "D"}), (4.0, {"W": "30 kN/m", "DIR": "Y", "CASE": "W"})])
     out = tmp_path / "o" / "roof.dxf"
     assert main(["solve", str(src), "--out", str(out), "--no-png"]) == 0
     import csv
@@ -469,18 +462,8 @@ E = "200 GPa"
 A = "5000 mm**2"
 I = "8e7 mm**4"
 """)
-    doc = ezdxf.new("R2018")
-    doc.header["$INSUNITS"] = 6
-    define_layers(doc)
-    define_blocks(doc)
-    msp = doc.modelspace()
-    msp.add_line((0, 0), (6, 0), dxfattribs={"layer": "FRAME"})
-    insert_symbol(msp, "PIN", (0, 0), layer="SUPPORTS", scale=0.2)
-    insert_symbol(msp, "ROLLER", (6, 0), layer="SUPPORTS", scale=0.2)
-    insert_symbol(msp, "UDL", (2, 0), layer="LOADS", scale=0.2, W="10 kN/m", CASE="D")
-    insert_symbol(msp, "UDL", (4, 0), layer="LOADS", scale=0.2, W="5 kN/m", CASE="L")
-    src = tmp_path / "beam.dxf"
-    doc.saveas(src)
+    src = beam(tmp_path / "beam.dxf", span=6.0, insunits=6, scale=0.2,
+               udls=[(2.0, {"W": "10 kN/m", "CASE": "D"}), (4.0, {"W": "5 kN/m", "CASE": "L"})])
     out = tmp_path / "o" / "beam.dxf"
     assert main(["solve", str(src), "--out", str(out), "--no-png"]) == 0
     texts = [e.dxf.text for e in ezdxf.readfile(out).modelspace().query('TEXT[layer=="RESULT-DEFLECTED"]')]
