@@ -92,6 +92,8 @@ __all__ = [
     "to_plain",
     "dumps_report",
     "write_json",
+    "reaction_schedule",
+    "write_reaction_schedule",
     "write_csv",
     "CSV_COLUMNS",
 ]
