@@ -25,14 +25,14 @@ from .second_order import (ALPHA_CR_LIMIT, BucklingError, BucklingResult, Conver
                            SwayAmplification, critical_load_factor, critical_load_factors, second_order,
                            second_order_many, storey_levels,
                            sway_amplification)
-from .moving import (InfluenceLine, LoadPath, MemberEnvelope, MovingLoads, UnitLoadSolutions, Vehicle,
-                     locate_point, path_along_members, path_through_points)
-from .storeys import (DEFAULT_DRIFT_LIMIT, Storey, StoreyDrift, Storeys, drift_envelope, find_storeys,
-                      node_table, storey_drifts)
 from .shapes import (SectionProperties, ShapeError, parse_shape, polygon_properties, section_from_outline,
                      section_from_shape, shape_polygon, shape_properties)
-from .selfweight import DENSITY, STANDARD_GRAVITY, add_self_weight, self_weight_loads
-from .patterns import PatternEnvelope, PatternPart, pattern_envelope, pattern_parts, solve_pattern_parts
+# the public names of these modules are their __all__, exported as they are
+from . import moving, patterns, selfweight, storeys
+from .moving import *  # noqa: F401,F403
+from .storeys import *  # noqa: F401,F403
+from .selfweight import *  # noqa: F401,F403
+from .patterns import *  # noqa: F401,F403
 
 __all__ = list(_model_all) + [
     "solve",
@@ -71,24 +71,6 @@ __all__ = list(_model_all) + [
     "BucklingError",
     "ConvergenceError",
     "ALPHA_CR_LIMIT",
-    "MovingLoads",
-    "Vehicle",
-    "LoadPath",
-    "InfluenceLine",
-    "MemberEnvelope",
-    "UnitLoadSolutions",
-    "path_along_members",
-    "path_through_points",
-    "locate_point",
-    # storeys and drift
-    "DEFAULT_DRIFT_LIMIT",
-    "Storey",
-    "Storeys",
-    "StoreyDrift",
-    "find_storeys",
-    "storey_drifts",
-    "drift_envelope",
-    "node_table",
     # sections from shapes
     "ShapeError",
     "SectionProperties",
@@ -98,15 +80,4 @@ __all__ = list(_model_all) + [
     "polygon_properties",
     "section_from_shape",
     "section_from_outline",
-    # self-weight
-    "STANDARD_GRAVITY",
-    "DENSITY",
-    "self_weight_loads",
-    "add_self_weight",
-    # pattern live load
-    "PatternPart",
-    "PatternEnvelope",
-    "pattern_parts",
-    "solve_pattern_parts",
-    "pattern_envelope",
-]
+] + moving.__all__ + storeys.__all__ + selfweight.__all__ + patterns.__all__
