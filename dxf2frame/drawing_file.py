@@ -127,6 +127,11 @@ def _truncation(path: Path, chunk: int = 1 << 23) -> str | None:
     closed ends inside (or before) a section the analysis needs: reading it
     in recovery mode would silently give a drawing with members, loads or
     the length unit missing."""
+    with open(path, "rb") as fh:          # a file that ends with its EOF mark is whole: no scan
+        fh.seek(max(0, path.stat().st_size - 256))
+        tail = b"\n" + fh.read()
+    if any(m.group(1) == b"EOF" for m in _SECTION_MARK.finditer(tail)):
+        return None
     events: dict[int, tuple[bytes, bytes | None]] = {}
     offset, carry = 0, b"\n"
     with open(path, "rb") as fh:
