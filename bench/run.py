@@ -360,8 +360,10 @@ def _spawn(args: list[str], env: dict | None = None) -> dict:
     The child's numerical libraries run on one thread unless the caller's
     environment says otherwise, as the ``dxf2frame`` command sets them
     (``dxf2frame.cli.single_threaded_numerics``)."""
+    from dxf2frame.cli import THREAD_VARIABLES
+
     env = dict(os.environ if env is None else env)
-    for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    for var in THREAD_VARIABLES:
         env.setdefault(var, "1")
     proc = subprocess.run([PYTHON, str(Path(__file__).resolve()), "--child", *args],
                           capture_output=True, text=True, env=env, cwd=str(ROOT))

@@ -226,8 +226,9 @@ def test_command_line_runs_numerics_on_one_thread_unless_told(given, expected):
     import os
     import subprocess
 
-    env = {k: v for k, v in os.environ.items() if k not in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS",
-                                                             "MKL_NUM_THREADS")}
+    from dxf2frame.cli import THREAD_VARIABLES
+
+    env = {k: v for k, v in os.environ.items() if k not in THREAD_VARIABLES}
     if given is not None:
         env["OPENBLAS_NUM_THREADS"] = given
     code = ("import os, sys; from dxf2frame.cli import single_threaded_numerics; single_threaded_numerics(); "
