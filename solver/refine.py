@@ -1,5 +1,6 @@
 """Members cut into equal pieces, for analyses that need more than one
-element per member (elastic buckling, second order).
+element per member (elastic buckling, second order).  Every member gets
+the same number of pieces, or each its own.
 
 The cubic element is exact for a linear analysis, so :func:`solve` never
 subdivides; a geometric stiffness built on the same cubics is not (one
@@ -9,8 +10,9 @@ the results back to the drawn members: the refinement is invisible in
 their results.
 
 Node ``i`` of the frame stays node ``i`` of the copy; the interior nodes
-follow.  Piece ``k`` of member ``j`` is member ``j * n + k`` of the copy,
-with the member's section and direction; its first piece keeps the start
+follow.  Piece ``k`` of member ``j`` is member ``offsets[j] + k`` of the
+copy (``j * n + k`` when every member has ``n`` pieces), with the
+member's section and direction; its first piece keeps the start
 release, its last piece the end release.  Member loads are carried to the
 pieces they act on (a distributed load split with its intensity
 interpolated); nodal loads, settlements and supports are unchanged.
@@ -18,6 +20,7 @@ Units are the frame's.
 """
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -30,29 +33,48 @@ __all__ = ["RefinedFrame", "subdivide"]
 
 @dataclass(frozen=True, eq=False)
 class RefinedFrame:
-    """A frame with every member cut into ``pieces`` equal elements.
+    """A frame with its members cut into equal elements.
 
     Attributes
     ----------
     frame : the refined copy
-    pieces : elements per member
+    pieces : elements per member, the largest count when they differ
     n_nodes : node count of the original frame (its nodes come first)
-    chain : (m, pieces + 1) node ids of the copy along each original
-        member, start to end
+    counts : (m,) elements of each original member
+    offsets : (m + 1,) index in the copy of each member's first element
+        (the last entry is the copy's member count)
+    nodes : (sum of counts + m,) node ids of the copy along the members,
+        start to end; member ``j``'s are ``nodes[offsets[j] + j :
+        offsets[j + 1] + j + 1]``
     """
 
     frame: Frame
     pieces: int
     n_nodes: int
-    chain: np.ndarray
+    counts: np.ndarray
+    offsets: np.ndarray
+    nodes: np.ndarray
+
+    @property
+    def uniform(self) -> bool:
+        """Every member has the same number of pieces."""
+        return bool(np.all(self.counts == self.pieces))
+
+    @property
+    def chain(self) -> np.ndarray:
+        """(m, pieces + 1) node ids along each member, start to end (every
+        member cut into the same number of pieces only)."""
+        if not self.uniform:
+            raise ValueError("the members have different numbers of pieces")
+        return self.nodes.reshape(len(self.counts), self.pieces + 1)
 
     def first_piece(self, j: np.ndarray | int):
         """Index in the copy of the first element of original member ``j``."""
-        return np.asarray(j) * self.pieces
+        return self.offsets[np.asarray(j)]
 
     def last_piece(self, j: np.ndarray | int):
         """Index in the copy of the last element of original member ``j``."""
-        return np.asarray(j) * self.pieces + self.pieces - 1
+        return self.offsets[np.asarray(j) + 1] - 1
 
 
 def _split_member_load(ld, L: float, n: int, ids: list[str]) -> list:
@@ -85,28 +107,30 @@ def _split_member_load(ld, L: float, n: int, ids: list[str]) -> list:
     return out
 
 
-def subdivide(frame: Frame, pieces: int) -> RefinedFrame:
-    """The frame with every member cut into ``pieces`` equal elements (see
-    the module docstring).  Loads are expected to be valid (run
-    :func:`solver.stiffness.load_vectors` on the original first for the
-    checks and their messages)."""
-    if int(pieces) < 1:
+def subdivide(frame: Frame, pieces: int | Sequence[int]) -> RefinedFrame:
+    """The frame with every member cut into ``pieces`` equal elements, or
+    member ``j`` into ``pieces[j]`` (see the module docstring).  Loads are
+    expected to be valid (run :func:`solver.stiffness.load_vectors` on the
+    original first for the checks and their messages)."""
+    m = len(frame.members)
+    counts = np.broadcast_to(np.asarray(pieces, dtype=np.intp), (m,)).copy() if m else np.zeros(0, np.intp)
+    if np.ndim(pieces) == 0 and int(pieces) < 1 or m and counts.min() < 1:
         raise ValueError("pieces must be at least 1")
-    n = int(pieces)
     out = Frame()
     for nd in frame.nodes:
         out.add_node(nd.x, nd.y, nd.sources)
-    chain = np.zeros((len(frame.members), n + 1), dtype=np.intp)
+    chains: list[list[int]] = []
     piece_ids: dict[str, list[str]] = {}
     lengths: dict[str, float] = {}
     for j, mb in enumerate(frame.members):
+        n = int(counts[j])
         a, b = frame.nodes[mb.start], frame.nodes[mb.end]
         nodes = [mb.start]
         for k in range(1, n):
             t = k / n
             nodes.append(out.add_node(a.x + t * (b.x - a.x), a.y + t * (b.y - a.y)))
         nodes.append(mb.end)
-        chain[j] = nodes
+        chains.append(nodes)
         ids = [f"{mb.id}#{k}" if n > 1 else mb.id for k in range(n)]
         for k in range(n):
             out.add_member(nodes[k], nodes[k + 1], mb.section, release_start=mb.release_start and k == 0,
@@ -122,5 +146,10 @@ def subdivide(frame: Frame, pieces: int) -> RefinedFrame:
         ids = piece_ids.get(ld.member)
         if ids is None:
             raise LoadError(f"load on member {ld.member!r}, which does not exist", handle=ld.handle)
-        out.loads.extend(_split_member_load(ld, lengths[ld.member], n, ids))
-    return RefinedFrame(out, n, len(frame.nodes), chain)
+        if len(ids) == 1:
+            out.loads.append(ld)
+        else:
+            out.loads.extend(_split_member_load(ld, lengths[ld.member], len(ids), ids))
+    offsets = np.concatenate(([0], np.cumsum(counts))).astype(np.intp)
+    flat = np.array([i for c in chains for i in c], dtype=np.intp)
+    return RefinedFrame(out, int(counts.max()) if m else 1, len(frame.nodes), counts, offsets, flat)
