@@ -256,8 +256,9 @@ class Settings:
         the default) or "p-delta" (also a P-Delta analysis of each)
     second_order_tolerance, second_order_max_iterations : P-Delta
         convergence (relative change, dimensionless) and iteration limit
-    second_order_subdivisions : elements per member in the second-order
-        analyses
+    second_order_subdivisions : elements per member in the P-Delta
+        analysis; the most any member gets in the alpha_cr check, which
+        cuts each member only as finely as its compression needs
     moving_path_layer : layer of the moving-load path (a chain of members
         on a frame layer, or one polyline on a layer of its own); None: no
         moving loads

@@ -3,8 +3,9 @@ factor (alpha_cr) and P-Delta analysis of one combination.
 
 Both work on one combination at a time (second-order results do not
 superpose) and on a refined copy of the frame (:mod:`solver.refine`,
-``subdivisions`` elements per member, 4 by default), invisible in the
-results: forces, displacements and reactions are those of the drawn
+``subdivisions`` elements per member, 4 by default; alpha_cr cuts each
+member only as finely as its compression needs, see
+:func:`critical_load_factors`), invisible in the results: forces, displacements and reactions are those of the drawn
 members and nodes.  The geometric stiffness is the consistent
 beam-column matrix of :func:`solver.element.geometric_stiffness` (P-Delta
 and P-delta together); member end releases carry it over the statically
@@ -61,6 +62,7 @@ __all__ = [
     "SwayAmplification",
     "SecondOrderResult",
     "ALPHA_CR_LIMIT",
+    "ELEMENT_LOAD_RATIO",
     "critical_load_factor",
     "critical_load_factors",
     "second_order",
@@ -152,7 +154,7 @@ class _Prepared:
     fact: object = None  # K of the refined frame factorised (first use), the same for every combination
 
 
-def _prepare(frame: Frame, subdivisions: int) -> _Prepared:
+def _prepare(frame: Frame, subdivisions: int | np.ndarray) -> _Prepared:
     cases = list(frame.cases())
     model0 = prepare(frame)  # checks geometry, sections, supports
     cases0 = load_vectors(model0, cases)  # checks loads
@@ -244,44 +246,111 @@ class BucklingResult:
         return self.alpha_cr <= 1.0
 
 
-def _lowest_factors(A: sp.spmatrix, B: sp.spmatrix, fact, modes: int):
+#: the largest ``alpha_cr * |N| / P_E`` an element may carry under the
+#: adaptive refinement of :func:`critical_load_factors`, ``P_E = pi^2 EI /
+#: h^2`` of the element's own length ``h``.  1/16 is what each of the four
+#: elements of a pinned column at its own Euler load carries, the accuracy
+#: of the uniform refinement (``subdivisions=4``: the Euler load within
+#: about 0.1 %); the cubic element's error falls with the square of the
+#: ratio, so no element of the adaptive refinement is less accurate than
+#: those.
+ELEMENT_LOAD_RATIO = 1.0 / 16.0
+
+
+def _lowest_factors(A: sp.spmatrix, B: sp.spmatrix, fact, modes: int, v0: np.ndarray | None = None):
     """Eigenpairs of ``B phi = lambda A phi`` with the smallest positive
     lambda, as ``mu = 1 / lambda`` of ``A phi = mu B phi`` (``A = -Kg``
     indefinite, ``B = K`` positive definite and factorised in ``fact``):
     the spectral transformation of shift-invert about sigma = 0, with K
-    supplying the inner product the indefinite Kg cannot."""
+    supplying the inner product the indefinite Kg cannot.  ``v0`` a
+    starting vector near the wanted mode (optional)."""
     n = A.shape[0]
     if n <= 3 * modes + 12:  # too small for Lanczos: dense and exact
         mu, phi = sla.eigh(A.toarray(), B.toarray())
     else:
         Binv = LinearOperator((n, n), matvec=fact.solve, dtype=float)
         k = min(modes + 2, n - 2)
-        # tol 1e-8: load factors to about eight digits, far more than the
-        # three a report gives; machine precision (tol=0) costs a third
-        # more solves with K for no visible change
-        mu, phi = eigsh(A, k=k, M=B, Minv=Binv, which="LA", ncv=min(n, max(2 * k + 1, 24)), tol=1e-8)
+        if v0 is not None and not (np.all(np.isfinite(v0)) and np.any(v0)):
+            v0 = None
+        # tol 1e-6: load factors to about six digits, far more than the
+        # three a report gives (and finer than the discretisation's own
+        # error); machine precision (tol=0) costs half again as many
+        # solves with K for no visible change
+        mu, phi = eigsh(A, k=k, M=B, Minv=Binv, which="LA", ncv=min(n, max(2 * k + 1, 24)), tol=1e-6, v0=v0)
     order = np.argsort(-mu)
     return mu[order], phi[:, order]
 
 
-def _shape_at(st: _Setup, phi_full: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Node shape (n0, 3), member points (m, k) and member shape (m, k, 2)
-    of a refined-frame displacement vector, scaled to unit largest
-    translation."""
+def _global(st: _Setup, phi_full: np.ndarray) -> np.ndarray:
+    """(n, 3) global ux, uy, rz at the refined frame's nodes of a vector in
+    node axes."""
     sup = st.model.sup
     U = phi_full.reshape(-1, 3)
     ux = sup.cos * U[:, 0] - sup.sin * U[:, 1]
     uy = sup.sin * U[:, 0] + sup.cos * U[:, 1]
-    g = np.column_stack([ux, uy, U[:, 2]])
-    big = float(np.max(np.hypot(ux, uy))) if len(ux) else 0.0
+    return np.column_stack([ux, uy, U[:, 2]])
+
+
+def _along(st: _Setup, g: np.ndarray, j: np.ndarray, t: np.ndarray) -> np.ndarray:
+    """(len(j), 3) global ux, uy, rz at the fractions ``t`` of original
+    members ``j``, from the refined frame's node values ``g`` (global):
+    the element's own field, the axial displacement linear and the
+    transverse one cubic (Hermite), with a released end's rotation taken
+    from the statically condensed shape."""
+    r, model = st.refined, st.model
+    n = r.counts[j]
+    p = np.minimum((t * n).astype(np.intp), n - 1)
+    x = t * n - p
+    e = r.offsets[j] + p
+    c, sn, h = model.c[e], model.s[e], model.L[e]
+    gi, gj = g[model.si[e]], g[model.ei[e]]
+    d = np.column_stack([c * gi[:, 0] + sn * gi[:, 1], -sn * gi[:, 0] + c * gi[:, 1], gi[:, 2],
+                         c * gj[:, 0] + sn * gj[:, 1], -sn * gj[:, 0] + c * gj[:, 1], gj[:, 2]])
+    d = np.einsum("mij,mj->mi", st.C[e], d)
+    x2, x3 = x * x, x * x * x
+    u = (1.0 - x) * d[:, 0] + x * d[:, 3]
+    v = ((1 - 3 * x2 + 2 * x3) * d[:, 1] + h * (x - 2 * x2 + x3) * d[:, 2]
+         + (3 * x2 - 2 * x3) * d[:, 4] + h * (x3 - x2) * d[:, 5])
+    th = ((6 * x2 - 6 * x) * d[:, 1] + (6 * x - 6 * x2) * d[:, 4]) / h \
+        + (1 - 4 * x + 3 * x2) * d[:, 2] + (3 * x2 - 2 * x) * d[:, 5]
+    return np.column_stack([c * u - sn * v, sn * u + c * v, th])
+
+
+def _shape_at(st: _Setup, phi_full: np.ndarray, points: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Node shape (n0, 3), member points (m, k) and member shape (m, k, 2)
+    of a refined-frame displacement vector at ``points`` equally spaced
+    points of each member, scaled to unit largest translation."""
+    g = _global(st, phi_full)
+    m0, k = len(st.model0.ids), max(2, int(points))
+    t = np.linspace(0.0, 1.0, k)
+    j = np.repeat(np.arange(m0), k)
+    mshape = _along(st, g, j, np.tile(t, m0))[:, :2].reshape(m0, k, 2)
+    big = max(float(np.max(np.hypot(g[:, 0], g[:, 1]))) if len(g) else 0.0,
+              float(np.max(np.hypot(mshape[..., 0], mshape[..., 1]))) if mshape.size else 0.0)
     if big > 0:
-        g = g / big
-    chain = st.refined.chain
-    pts = np.linspace(0.0, 1.0, chain.shape[1])[None, :] * st.model0.L[:, None]
-    return g[: st.refined.n_nodes], pts, g[chain][:, :, :2]
+        g, mshape = g / big, mshape / big
+    return g[: st.refined.n_nodes], t[None, :] * st.model0.L[:, None], mshape
 
 
-def _critical(st: _Setup, N: np.ndarray, modes: int) -> tuple[np.ndarray, np.ndarray | None]:
+def _carried(coarse: _Setup, phi_full: np.ndarray, fine: _Setup) -> np.ndarray:
+    """A coarse refinement's mode carried onto a finer one's free dofs
+    (a starting vector for the fine eigenproblem): the original nodes'
+    values as they are, each interior node's from its element's field."""
+    r = fine.refined
+    full = np.zeros(fine.model.n_dofs)
+    n0 = r.n_nodes
+    full[: 3 * n0] = phi_full[: 3 * n0]
+    members = np.repeat(np.arange(len(r.counts)), r.counts + 1)
+    at = np.arange(len(r.nodes)) - (r.offsets[members] + members)
+    inner = (at > 0) & (at < r.counts[members])
+    j = members[inner]
+    vals = _along(coarse, _global(coarse, phi_full), j, at[inner] / r.counts[j])
+    full.reshape(-1, 3)[r.nodes[inner]] = vals  # interior nodes carry no supports: node axes are global
+    return full[fine.model.free_idx]
+
+
+def _critical(st: _Setup, N: np.ndarray, modes: int,
+              v0: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray | None]:
     """(lowest positive load factors, the first mode on all refined dofs)
     for element axial forces ``N``."""
     model = st.model
@@ -291,7 +360,7 @@ def _critical(st: _Setup, N: np.ndarray, modes: int) -> tuple[np.ndarray, np.nda
     A = (-Kg)[idx][:, idx].tocsc()
     if not len(idx) or abs(A).max() == 0.0:
         return np.array([math.inf]), None
-    mu, phi = _lowest_factors(A, fact.Kff, fact, modes)
+    mu, phi = _lowest_factors(A, fact.Kff, fact, modes, v0)
     scale = max(float(np.max(np.abs(mu))), 1e-300)
     pos = mu > 1e-9 * scale
     if not pos.any():
@@ -301,9 +370,36 @@ def _critical(st: _Setup, N: np.ndarray, modes: int) -> tuple[np.ndarray, np.nda
     return np.sort(1.0 / mu[pos])[:modes], full
 
 
+def _pieces_needed(st: _Setup, N: np.ndarray, alpha: float, most: int) -> np.ndarray:
+    """(m,) elements each member needs so that none carries more than
+    :data:`ELEMENT_LOAD_RATIO` of its own Euler load at the load factor
+    (at most ``most``), for element axial forces ``N`` [force] and the
+    factor ``alpha`` found with one element per member.
+
+    That factor can miss a member's own buckling between its ends (one
+    element with both ends pinned, or between two fixed ends, has no
+    bending shape of its own), so the factor used is the least of
+    ``alpha`` and each compressed member's own buckling factor with its
+    ends held: ``P_E / |N|`` with both ends pinned, else ``4 P_E / |N|``
+    (fixed-fixed, the most any end restraint gives).  Each is the Rayleigh
+    quotient of a shape the whole frame admits, so an upper bound of the
+    frame's factor like ``alpha``: the counts are on the safe side.
+    """
+    model = st.model
+    PE = math.pi ** 2 * model.EI / model.L ** 2
+    comp = N < 0.0
+    if comp.any():
+        own = np.where(model.rel_s & model.rel_e, 1.0, 4.0)[comp] * PE[comp] / -N[comp]
+        alpha = min(alpha, float(own.min()))
+    if not np.isfinite(alpha):
+        return np.ones(len(N), dtype=np.intp)
+    rho = alpha * np.maximum(-N, 0.0) / PE
+    return np.clip(np.ceil(np.sqrt(rho / ELEMENT_LOAD_RATIO) - 1e-9), 1, most).astype(np.intp)
+
+
 def critical_load_factor(frame: Frame, factors: Mapping[str, float] | str | None = None, *,
                          name: str | None = None, subdivisions: int = 4, modes: int = 1,
-                         raise_if_buckles: bool = True) -> BucklingResult:
+                         raise_if_buckles: bool = True, adaptive: bool = True) -> BucklingResult:
     """Elastic critical load factor alpha_cr of a combination.
 
     Solves the generalised eigenproblem ``K phi = lambda (-Kg) phi`` for
@@ -320,28 +416,34 @@ def critical_load_factor(frame: Frame, factors: Mapping[str, float] | str | None
         None for every case at 1.0
     name : the combination's name (default: the factors written out)
     subdivisions : elements per member (4 gives the Euler load of a pinned
-        column within about 0.1 %)
+        column within about 0.1 %); with ``adaptive``, the most any
+        member gets
     modes : how many of the lowest factors to report in ``factors_found``
     raise_if_buckles : raise :class:`BucklingError` when alpha_cr <= 1
+    adaptive : cut each member into only as many elements as its own
+        compression needs (see :func:`critical_load_factors`)
 
     Returns
     -------
     :class:`BucklingResult` (``alpha_cr`` is inf when nothing is in
     compression; ``shape`` is then zero)
     """
-    return _buckling(_setup(frame, factors, name, subdivisions), modes, raise_if_buckles)
+    fac = _factors(frame, factors)
+    label = name if name is not None else (format_combination(fac) or "0")
+    return critical_load_factors(frame, [(label, fac)], subdivisions=subdivisions, modes=modes,
+                                 raise_if_buckles=raise_if_buckles, adaptive=adaptive)[label]
 
 
-def _buckling(st: _Setup, modes: int, raise_if_buckles: bool) -> BucklingResult:
-    """:func:`critical_load_factor` of a set-up combination."""
-    _, _, fe = _first_order(st)
-    found, mode = _critical(st, axial_forces(fe[:, :, 0]), max(1, int(modes)))
+def _result(st: _Setup, found: np.ndarray, mode: np.ndarray | None, points: int,
+            raise_if_buckles: bool) -> BucklingResult:
+    """The :class:`BucklingResult` of a set-up combination's factors and
+    first mode."""
     alpha = float(found[0])
-    m0, k = len(st.model0.ids), st.refined.pieces + 1
+    m0, k = len(st.model0.ids), max(2, int(points))
     if mode is None:
         shape, pts, mshape = np.zeros((st.refined.n_nodes, 3)), np.zeros((m0, k)), np.zeros((m0, k, 2))
     else:
-        shape, pts, mshape = _shape_at(st, mode)
+        shape, pts, mshape = _shape_at(st, mode, k)
     res = BucklingResult(st.name, st.factors, alpha, found, shape, pts, mshape, alpha >= ALPHA_CR_LIMIT)
     if raise_if_buckles and res.buckles:
         raise BucklingError(
@@ -350,8 +452,17 @@ def _buckling(st: _Setup, modes: int, raise_if_buckles: bool) -> BucklingResult:
     return res
 
 
+def _factors_and_mode(st: _Setup, modes: int, v0: np.ndarray | None = None):
+    """(lowest factors, first mode, element axial forces) of a set-up
+    combination."""
+    _, _, fe = _first_order(st)
+    N = axial_forces(fe[:, :, 0])
+    found, mode = _critical(st, N, modes, v0)
+    return found, mode, N
+
+
 def critical_load_factors(frame: Frame, combinations, *, subdivisions: int = 4, modes: int = 1,
-                          raise_if_buckles: bool = True) -> dict[str, BucklingResult]:
+                          raise_if_buckles: bool = True, adaptive: bool = True) -> dict[str, BucklingResult]:
     """:func:`critical_load_factor` of several combinations of one frame,
     ``{name: BucklingResult}`` in the given order; the frame is refined,
     checked and its load cases turned into load vectors once.
@@ -360,10 +471,49 @@ def critical_load_factors(frame: Frame, combinations, *, subdivisions: int = 4, 
     combination text) or a sequence of ``(name, factors)`` pairs.  With
     ``raise_if_buckles`` the first combination with alpha_cr <= 1 raises
     :class:`BucklingError` naming it.
+
+    With ``adaptive`` (the default) the frame is first solved with one
+    element per member; each member is then cut into the fewest equal
+    elements (at most ``subdivisions``) that keep every element's
+    compression at the factors found within :data:`ELEMENT_LOAD_RATIO`
+    of the element's own Euler load, the largest count any combination
+    asks for, and the combinations are solved again on that one refined
+    frame, starting from the first modes.  A member in little compression
+    stays one element, where the cubic is already close to exact; one
+    near its own buckling load gets ``subdivisions`` elements, as without
+    ``adaptive``.  The first pass overestimates the factors (a coarser
+    Rayleigh-Ritz basis) and may miss a member's buckling between its
+    ends, which :func:`_pieces_needed` bounds separately, so the counts
+    are on the safe side.
+    Without ``adaptive`` every member is cut into ``subdivisions``.
+    Member shapes are reported at ``subdivisions + 1`` equally spaced
+    points either way.
     """
-    prep = _prepare(frame, subdivisions)
-    return {n: _buckling(_setup(frame, f, n, subdivisions, prep), modes, raise_if_buckles)
-            for n, f in _combos(combinations)}
+    combos = _combos(combinations)
+    most, modes = max(1, int(subdivisions)), max(1, int(modes))
+    first: list = []
+    if adaptive and most > 1:
+        rough = _prepare(frame, 1)
+        counts = np.ones(len(frame.members), dtype=np.intp)
+        for n, f in combos:
+            st = _setup(frame, f, n, 1, rough)
+            found, mode, N = _factors_and_mode(st, modes)
+            first.append((st, found, mode))
+            counts = np.maximum(counts, _pieces_needed(st, N, float(found[0]), most))
+        if counts.max() == 1:
+            return {st.name: _result(st, found, mode, most + 1, raise_if_buckles) for st, found, mode in first}
+        prep = _prepare(frame, counts)
+    else:
+        prep = _prepare(frame, most)
+    out = {}
+    for i, (n, f) in enumerate(combos):
+        st = _setup(frame, f, n, most, prep)
+        v0 = None
+        if first and first[i][2] is not None:
+            v0 = _carried(first[i][0], first[i][2], st)
+        found, mode, _ = _factors_and_mode(st, modes, v0)
+        out[n] = _result(st, found, mode, most + 1, raise_if_buckles)
+    return out
 
 
 # --------------------------------------------------------------------------

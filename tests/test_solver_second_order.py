@@ -20,6 +20,7 @@ from dxf2frame.solver import (
     PointLoad,
     Section,
     SecondOrderResult,
+    Settlement,
     critical_load_factor,
     second_order,
     solve,
@@ -65,6 +66,37 @@ def test_cantilever_column_euler_load():
     x = res.member_points[0]
     ux = res.member_shape[0, :, 0] / res.member_shape[0, -1, 0]
     assert np.allclose(ux, 1 - np.cos(np.pi * x / (2 * h)), atol=0.01)
+
+
+@pytest.mark.parametrize("adaptive", [True, False])
+def test_pinned_column_mode_is_a_half_sine(adaptive):
+    # Euler's pin-ended mode is sin(pi x / L) (any strength of materials
+    # text, from memory); the adaptive refinement draws it from the
+    # elements' own cubic field, the uniform one from its nodes
+    h, P = 6.0, 100e3
+    res = critical_load_factor(column(h, "pin", "roller", P), "D", adaptive=adaptive)
+    x = res.member_points[0]
+    ux = res.member_shape[0, :, 0] / res.member_shape[0, 2, 0]
+    assert np.allclose(ux, np.sin(np.pi * x / h), atol=0.01)
+    assert np.max(np.hypot(res.member_shape[..., 0], res.member_shape[..., 1])) == pytest.approx(1.0)
+
+
+def test_strut_between_two_fixed_supports_buckles_at_four_times_euler():
+    # a member whose ends are both fixed supports has no bending shape of
+    # its own with one element per member: the adaptive refinement must
+    # still find its buckling.  Squeezed by a settlement delta of its top
+    # support, N = EA delta / L; it buckles at Pcr = 4 pi^2 EI / L^2
+    # (fixed-fixed Euler load, effective length L/2; from memory)
+    h, delta = 5.0, 1e-4
+    f = Frame()
+    a, b = f.add_node(0.0, 0.0), f.add_node(0.0, h)
+    f.add_member(a, b, Section(E, A, I), id="C")
+    f.add_support(a, "fixed")
+    f.add_support(b, "fixed")
+    f.add_load(Settlement(b, dy=-delta, case="D"))
+    res = critical_load_factor(f, "D")
+    N = E * A * delta / h
+    assert res.alpha_cr * N == pytest.approx(4 * math.pi**2 * EI / h**2, rel=0.01)
 
 
 def test_pinned_truss_strut_buckles_between_its_pins():
