@@ -257,26 +257,33 @@ class BucklingResult:
 ELEMENT_LOAD_RATIO = 1.0 / 16.0
 
 
-def _lowest_factors(A: sp.spmatrix, B: sp.spmatrix, fact, modes: int, v0: np.ndarray | None = None):
+def _lowest_factors(A: sp.spmatrix, B: sp.spmatrix, fact, modes: int, v0: np.ndarray | None = None,
+                    near: bool = False):
     """Eigenpairs of ``B phi = lambda A phi`` with the smallest positive
     lambda, as ``mu = 1 / lambda`` of ``A phi = mu B phi`` (``A = -Kg``
     indefinite, ``B = K`` positive definite and factorised in ``fact``):
     the spectral transformation of shift-invert about sigma = 0, with K
     supplying the inner product the indefinite Kg cannot.  ``v0`` a
-    starting vector near the wanted mode (optional)."""
+    starting vector (optional); ``near``: it is close to the wanted mode
+    (the same combination on a coarser refinement)."""
     n = A.shape[0]
     if n <= 3 * modes + 12:  # too small for Lanczos: dense and exact
         mu, phi = sla.eigh(A.toarray(), B.toarray())
     else:
         Binv = LinearOperator((n, n), matvec=fact.solve, dtype=float)
-        k = min(modes + 2, n - 2)
         if v0 is not None and not (np.all(np.isfinite(v0)) and np.any(v0)):
             v0 = None
+        near = near and v0 is not None
+        # two more Ritz vectors than asked for keep Lanczos from settling on
+        # the wrong one of close factors; a start near the wanted mode
+        # needs one
+        k = min(modes + (1 if near else 2), n - 2)
         # tol 1e-6: load factors to about six digits, far more than the
         # three a report gives (and finer than the discretisation's own
         # error); machine precision (tol=0) costs half again as many
         # solves with K for no visible change
-        mu, phi = eigsh(A, k=k, M=B, Minv=Binv, which="LA", ncv=min(n, max(2 * k + 1, 24)), tol=1e-6, v0=v0)
+        ncv = min(n, max(2 * k + 6, 8) if near else max(2 * k + 1, 24))
+        mu, phi = eigsh(A, k=k, M=B, Minv=Binv, which="LA", ncv=ncv, tol=1e-6, v0=v0)
     order = np.argsort(-mu)
     return mu[order], phi[:, order]
 
@@ -349,10 +356,11 @@ def _carried(coarse: _Setup, phi_full: np.ndarray, fine: _Setup) -> np.ndarray:
     return full[fine.model.free_idx]
 
 
-def _critical(st: _Setup, N: np.ndarray, modes: int,
-              v0: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray | None]:
+def _critical(st: _Setup, N: np.ndarray, modes: int, v0: np.ndarray | None = None,
+              near: bool = False) -> tuple[np.ndarray, np.ndarray | None]:
     """(lowest positive load factors, the first mode on all refined dofs)
-    for element axial forces ``N``."""
+    for element axial forces ``N`` (``v0``, ``near`` as in
+    :func:`_lowest_factors`)."""
     model = st.model
     Kg = assemble(model, _kg_local(st, N))
     idx = model.free_idx
@@ -360,7 +368,7 @@ def _critical(st: _Setup, N: np.ndarray, modes: int,
     A = (-Kg)[idx][:, idx].tocsc()
     if not len(idx) or abs(A).max() == 0.0:
         return np.array([math.inf]), None
-    mu, phi = _lowest_factors(A, fact.Kff, fact, modes, v0)
+    mu, phi = _lowest_factors(A, fact.Kff, fact, modes, v0, near)
     scale = max(float(np.max(np.abs(mu))), 1e-300)
     pos = mu > 1e-9 * scale
     if not pos.any():
@@ -370,7 +378,7 @@ def _critical(st: _Setup, N: np.ndarray, modes: int,
     return np.sort(1.0 / mu[pos])[:modes], full
 
 
-def _pieces_needed(st: _Setup, N: np.ndarray, alpha: float, most: int) -> np.ndarray:
+def _pieces_needed(st: _Setup, N: np.ndarray, alpha: float, most: int) -> tuple[np.ndarray, float]:
     """(m,) elements each member needs so that none carries more than
     :data:`ELEMENT_LOAD_RATIO` of its own Euler load at the load factor
     (at most ``most``), for element axial forces ``N`` [force] and the
@@ -384,6 +392,11 @@ def _pieces_needed(st: _Setup, N: np.ndarray, alpha: float, most: int) -> np.nda
     (fixed-fixed, the most any end restraint gives).  Each is the Rayleigh
     quotient of a shape the whole frame admits, so an upper bound of the
     frame's factor like ``alpha``: the counts are on the safe side.
+
+    Also returns the largest ``alpha * |N| / P_E`` of a member (0 when
+    nothing is in compression): below 1 no member can buckle between its
+    held ends below ``alpha``, so the modes found with one element per
+    member are the frame's own modes and a good start for the finer run.
     """
     model = st.model
     PE = math.pi ** 2 * model.EI / model.L ** 2
@@ -392,9 +405,10 @@ def _pieces_needed(st: _Setup, N: np.ndarray, alpha: float, most: int) -> np.nda
         own = np.where(model.rel_s & model.rel_e, 1.0, 4.0)[comp] * PE[comp] / -N[comp]
         alpha = min(alpha, float(own.min()))
     if not np.isfinite(alpha):
-        return np.ones(len(N), dtype=np.intp)
+        return np.ones(len(N), dtype=np.intp), 0.0
     rho = alpha * np.maximum(-N, 0.0) / PE
-    return np.clip(np.ceil(np.sqrt(rho / ELEMENT_LOAD_RATIO) - 1e-9), 1, most).astype(np.intp)
+    counts = np.clip(np.ceil(np.sqrt(rho / ELEMENT_LOAD_RATIO) - 1e-9), 1, most).astype(np.intp)
+    return counts, float(rho.max()) if len(rho) else 0.0
 
 
 def critical_load_factor(frame: Frame, factors: Mapping[str, float] | str | None = None, *,
@@ -452,12 +466,12 @@ def _result(st: _Setup, found: np.ndarray, mode: np.ndarray | None, points: int,
     return res
 
 
-def _factors_and_mode(st: _Setup, modes: int, v0: np.ndarray | None = None):
+def _factors_and_mode(st: _Setup, modes: int, v0: np.ndarray | None = None, near: bool = False):
     """(lowest factors, first mode, element axial forces) of a set-up
-    combination."""
+    combination (``v0``, ``near`` as in :func:`_lowest_factors`)."""
     _, _, fe = _first_order(st)
     N = axial_forces(fe[:, :, 0])
-    found, mode = _critical(st, N, modes, v0)
+    found, mode = _critical(st, N, modes, v0, near)
     return found, mode, N
 
 
@@ -478,7 +492,9 @@ def critical_load_factors(frame: Frame, combinations, *, subdivisions: int = 4, 
     compression at the factors found within :data:`ELEMENT_LOAD_RATIO`
     of the element's own Euler load, the largest count any combination
     asks for, and the combinations are solved again on that one refined
-    frame, starting from the first modes.  A member in little compression
+    frame, starting from the first modes (unless some member reached its
+    own Euler load in the first run, where a mode the coarse frame could
+    not show may be lower).  A member in little compression
     stays one element, where the cubic is already close to exact; one
     near its own buckling load gets ``subdivisions`` elements, as without
     ``adaptive``.  The first pass overestimates the factors (a coarser
@@ -498,9 +514,10 @@ def critical_load_factors(frame: Frame, combinations, *, subdivisions: int = 4, 
         for n, f in combos:
             st = _setup(frame, f, n, 1, rough)
             found, mode, N = _factors_and_mode(st, modes)
-            first.append((st, found, mode))
-            counts = np.maximum(counts, _pieces_needed(st, N, float(found[0]), most))
-        if counts.max() == 1:
+            need, rho = _pieces_needed(st, N, float(found[0]), most)
+            counts = np.maximum(counts, need)
+            first.append((st, found, mode if rho < 1.0 else None))
+        if counts.max() == 1:   # (then every rho < 1: no mode was dropped above)
             return {st.name: _result(st, found, mode, most + 1, raise_if_buckles) for st, found, mode in first}
         prep = _prepare(frame, counts)
     else:
@@ -511,7 +528,12 @@ def critical_load_factors(frame: Frame, combinations, *, subdivisions: int = 4, 
         v0 = None
         if first and first[i][2] is not None:
             v0 = _carried(first[i][0], first[i][2], st)
-        found, mode, _ = _factors_and_mode(st, modes, v0)
+        found, mode, _ = _factors_and_mode(st, modes, v0, near=True)
+        if v0 is not None and not found[0] <= first[i][1][0] * (1.0 + 1e-6):
+            # the finer frame can only lower the factor (its elements hold
+            # the coarser ones' shapes): a higher one means the start led
+            # Lanczos astray, so solve again without it
+            found, mode, _ = _factors_and_mode(st, modes)
         out[n] = _result(st, found, mode, most + 1, raise_if_buckles)
     return out
 
