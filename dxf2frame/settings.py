@@ -88,7 +88,7 @@ a typo never passes silently.  The schema (see DEVELOPERS.md):
     ``analysis``: ``"off"``, ``"check"`` (default: alpha_cr of every
     strength combination) or ``"p-delta"`` (also a P-Delta analysis of
     each); ``tolerance`` (1e-8), ``max_iterations`` (50), ``subdivisions``
-    (elements per member, 4).
+    (elements per member in the P-Delta analysis, 4).
 ``[moving]``
     ``path_layer`` (a frame layer whose members form one chain, or a layer
     holding one polyline along members), ``step`` (``"0.25 m"``),
@@ -257,8 +257,8 @@ class Settings:
     second_order_tolerance, second_order_max_iterations : P-Delta
         convergence (relative change, dimensionless) and iteration limit
     second_order_subdivisions : elements per member in the P-Delta
-        analysis; the most any member gets in the alpha_cr check, which
-        cuts each member only as finely as its compression needs
+        analysis (the alpha_cr check cuts each member only as finely as
+        its axial force needs)
     moving_path_layer : layer of the moving-load path (a chain of members
         on a frame layer, or one polyline on a layer of its own); None: no
         moving loads

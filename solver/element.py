@@ -205,10 +205,13 @@ def condensation_map(k: np.ndarray, rel_s: np.ndarray, rel_e: np.ndarray) -> np.
     return C
 
 
-def geometric_stiffness(length, axial) -> np.ndarray:
+def geometric_stiffness(length, axial, axial_end=None) -> np.ndarray:
     """Local geometric stiffness matrices (m, 6, 6) of members carrying an
     axial force ``axial`` [force], tension positive, dofs ``u_i, v_i, th_i,
-    u_j, v_j, th_j``.
+    u_j, v_j, th_j``; with ``axial_end`` the force varies linearly from
+    ``axial`` at the start to ``axial_end`` at the end (a member under an
+    axial distributed load, such as a column's self-weight), integrated
+    exactly (three-point Gauss: the integrand is of degree five).
 
     This is the consistent beam-column geometric stiffness: the work of
     the axial force on the transverse displacement gradient,
@@ -232,8 +235,20 @@ def geometric_stiffness(length, axial) -> np.ndarray:
     L = np.atleast_1d(np.asarray(length, dtype=float))
     P = np.broadcast_to(np.asarray(axial, dtype=float), L.shape)
     g = np.zeros((len(L), 6, 6))
-    a = P / L
     v = [1, 2, 4, 5]
+    if axial_end is not None:
+        P2 = np.broadcast_to(np.asarray(axial_end, dtype=float), L.shape)
+        blk = np.zeros((len(L), 4, 4))
+        r = math.sqrt(15.0) / 10.0
+        for xi, w in ((0.5 - r, 5 / 18), (0.5, 8 / 18), (0.5 + r, 5 / 18)):
+            # slopes of the Hermite cubics d/dx = (1/L) d/dxi, rotations times L
+            d = np.column_stack([np.full_like(L, 6 * xi * xi - 6 * xi), L * (1 - 4 * xi + 3 * xi * xi),
+                                 np.full_like(L, 6 * xi - 6 * xi * xi), L * (3 * xi * xi - 2 * xi)])
+            blk += (w * (P + (P2 - P) * xi) / L)[:, None, None] * d[:, :, None] * d[:, None, :]
+        g[:, 1:3, 1:3], g[:, 1:3, 4:6] = blk[:, 0:2, 0:2], blk[:, 0:2, 2:4]
+        g[:, 4:6, 1:3], g[:, 4:6, 4:6] = blk[:, 2:4, 0:2], blk[:, 2:4, 2:4]
+        return g
+    a = P / L
     block = [[6 / 5, L / 10, -6 / 5, L / 10],
              [L / 10, 2 * L**2 / 15, -L / 10, -L**2 / 30],
              [-6 / 5, -L / 10, 6 / 5, -L / 10],

@@ -8,8 +8,10 @@ member only as finely as its compression needs, see
 :func:`critical_load_factors`), invisible in the results: forces, displacements and reactions are those of the drawn
 members and nodes.  The geometric stiffness is the consistent
 beam-column matrix of :func:`solver.element.geometric_stiffness` (P-Delta
-and P-delta together); member end releases carry it over the statically
-condensed shapes (:func:`solver.element.condensation_map`).
+and P-delta together), with each element's axial force varying linearly
+between its end values (a column's self-weight, a rafter's load along
+it); member end releases carry it over the statically condensed shapes
+(:func:`solver.element.condensation_map`).
 
 Units: the frame's (N, m, Pa in the DXF pipeline).  Axial force tension
 positive; a load factor is dimensionless.  Sign conventions as in
@@ -63,6 +65,7 @@ __all__ = [
     "SecondOrderResult",
     "ALPHA_CR_LIMIT",
     "ELEMENT_LOAD_RATIO",
+    "MOST_PIECES",
     "critical_load_factor",
     "critical_load_factors",
     "second_order",
@@ -70,6 +73,7 @@ __all__ = [
     "storey_levels",
     "sway_amplification",
     "axial_forces",
+    "axial_ends",
     "chord_shears",
 ]
 
@@ -188,10 +192,18 @@ def axial_forces(fe: np.ndarray) -> np.ndarray:
     return 0.5 * (fe[:, 3] - fe[:, 0])
 
 
+def axial_ends(fe: np.ndarray) -> np.ndarray:
+    """(m, 2) axial force at the start and the end of each element from
+    its end forces (m, 6) [force], tension positive: ``(-Ni, Nj)``."""
+    return np.column_stack([-fe[:, 0], fe[:, 3]])
+
+
 def _kg_local(st: _Setup, N: np.ndarray) -> np.ndarray:
-    """(m_ref, 6, 6) geometric stiffness of the refined elements, releases
-    carried over the condensed shapes."""
-    kg = geometric_stiffness(st.model.L, N)
+    """(m_ref, 6, 6) geometric stiffness of the refined elements for axial
+    forces ``N``, (m,) constant along each element or (m, 2) at its ends
+    (linear between), releases carried over the condensed shapes."""
+    N = np.asarray(N, dtype=float)
+    kg = geometric_stiffness(st.model.L, N[:, 0], N[:, 1]) if N.ndim == 2 else geometric_stiffness(st.model.L, N)
     if st.model.rel_s.any() or st.model.rel_e.any():
         kg = np.einsum("mji,mjk,mkl->mil", st.C, kg, st.C, optimize=True)
     return kg
@@ -255,6 +267,10 @@ class BucklingResult:
 #: ratio, so no element of the adaptive refinement is less accurate than
 #: those.
 ELEMENT_LOAD_RATIO = 1.0 / 16.0
+
+#: the most elements the adaptive refinement cuts one member into (a tie
+#: pulled to 64 times its own Euler load reaches it)
+MOST_PIECES = 32
 
 
 def _lowest_factors(A: sp.spmatrix, B: sp.spmatrix, fact, modes: int, v0: np.ndarray | None = None,
@@ -381,8 +397,12 @@ def _critical(st: _Setup, N: np.ndarray, modes: int, v0: np.ndarray | None = Non
 def _pieces_needed(st: _Setup, N: np.ndarray, alpha: float, most: int) -> tuple[np.ndarray, float]:
     """(m,) elements each member needs so that none carries more than
     :data:`ELEMENT_LOAD_RATIO` of its own Euler load at the load factor
-    (at most ``most``), for element axial forces ``N`` [force] and the
-    factor ``alpha`` found with one element per member.
+    (at most ``most``), for element axial forces ``N`` [force] (at the
+    ends, (m, 2)) and the factor ``alpha`` found with one element per
+    member.  Tension counts as compression does: a member in tension
+    stiffens the frame, and one element overstates that as much as it
+    understates the softening of a compressed one (the cubic misses the
+    hyperbolic shape as it misses the trigonometric one).
 
     That factor can miss a member's own buckling between its ends (one
     element with both ends pinned, or between two fixed ends, has no
@@ -394,11 +414,14 @@ def _pieces_needed(st: _Setup, N: np.ndarray, alpha: float, most: int) -> tuple[
     frame's factor like ``alpha``: the counts are on the safe side.
 
     Also returns the largest ``alpha * |N| / P_E`` of a member (0 when
-    nothing is in compression): below 1 no member can buckle between its
-    held ends below ``alpha``, so the modes found with one element per
+    nothing carries an axial force): below 1 no member can buckle between
+    its held ends below ``alpha``, so the modes found with one element per
     member are the frame's own modes and a good start for the finer run.
     """
     model = st.model
+    N = np.asarray(N, dtype=float)
+    big = np.abs(N).max(axis=1) if N.ndim == 2 else np.abs(N)
+    N = N.min(axis=1) if N.ndim == 2 else N
     PE = math.pi ** 2 * model.EI / model.L ** 2
     comp = N < 0.0
     if comp.any():
@@ -406,7 +429,7 @@ def _pieces_needed(st: _Setup, N: np.ndarray, alpha: float, most: int) -> tuple[
         alpha = min(alpha, float(own.min()))
     if not np.isfinite(alpha):
         return np.ones(len(N), dtype=np.intp), 0.0
-    rho = alpha * np.maximum(-N, 0.0) / PE
+    rho = alpha * big / PE
     counts = np.clip(np.ceil(np.sqrt(rho / ELEMENT_LOAD_RATIO) - 1e-9), 1, most).astype(np.intp)
     return counts, float(rho.max()) if len(rho) else 0.0
 
@@ -429,13 +452,13 @@ def critical_load_factor(frame: Frame, factors: Mapping[str, float] | str | None
     factors : {case: factor}, a combination text (``"1.2D + 1.6L"``), or
         None for every case at 1.0
     name : the combination's name (default: the factors written out)
-    subdivisions : elements per member (4 gives the Euler load of a pinned
-        column within about 0.1 %); with ``adaptive``, the most any
-        member gets
+    subdivisions : elements per member without ``adaptive`` (4 gives the
+        Euler load of a pinned column within about 0.1 %); member shapes
+        are given at ``subdivisions + 1`` points either way
     modes : how many of the lowest factors to report in ``factors_found``
     raise_if_buckles : raise :class:`BucklingError` when alpha_cr <= 1
-    adaptive : cut each member into only as many elements as its own
-        compression needs (see :func:`critical_load_factors`)
+    adaptive : cut each member into as many elements as its own axial
+        force needs (see :func:`critical_load_factors`)
 
     Returns
     -------
@@ -467,10 +490,11 @@ def _result(st: _Setup, found: np.ndarray, mode: np.ndarray | None, points: int,
 
 
 def _factors_and_mode(st: _Setup, modes: int, v0: np.ndarray | None = None, near: bool = False):
-    """(lowest factors, first mode, element axial forces) of a set-up
-    combination (``v0``, ``near`` as in :func:`_lowest_factors`)."""
+    """(lowest factors, first mode, element axial forces at the ends (m,
+    2)) of a set-up combination (``v0``, ``near`` as in
+    :func:`_lowest_factors`)."""
     _, _, fe = _first_order(st)
-    N = axial_forces(fe[:, :, 0])
+    N = axial_ends(fe[:, :, 0])
     found, mode = _critical(st, N, modes, v0, near)
     return found, mode, N
 
@@ -488,33 +512,33 @@ def critical_load_factors(frame: Frame, combinations, *, subdivisions: int = 4, 
 
     With ``adaptive`` (the default) the frame is first solved with one
     element per member; each member is then cut into the fewest equal
-    elements (at most ``subdivisions``) that keep every element's
-    compression at the factors found within :data:`ELEMENT_LOAD_RATIO`
+    elements (at most :data:`MOST_PIECES`) that keep every element's
+    axial force at the factors found within :data:`ELEMENT_LOAD_RATIO`
     of the element's own Euler load, the largest count any combination
     asks for, and the combinations are solved again on that one refined
     frame, starting from the first modes (unless some member reached its
     own Euler load in the first run, where a mode the coarse frame could
-    not show may be lower).  A member in little compression
-    stays one element, where the cubic is already close to exact; one
-    near its own buckling load gets ``subdivisions`` elements, as without
-    ``adaptive``.  The first pass overestimates the factors (a coarser
-    Rayleigh-Ritz basis) and may miss a member's buckling between its
-    ends, which :func:`_pieces_needed` bounds separately, so the counts
-    are on the safe side.
-    Without ``adaptive`` every member is cut into ``subdivisions``.
-    Member shapes are reported at ``subdivisions + 1`` equally spaced
-    points either way.
+    not show may be lower).  A member with a small axial force stays one
+    element, where the cubic is already close to exact; a pin-ended
+    column at its own Euler load gets 4, as the uniform default; a
+    member far beyond its Euler load (a heavily pulled tie) gets more.
+    The first pass overestimates the factors (a coarser Rayleigh-Ritz
+    basis) and may miss a member's buckling between its ends, which
+    :func:`_pieces_needed` bounds separately, so the counts are on the
+    safe side.  Without ``adaptive`` every member is cut into
+    ``subdivisions``.  Member shapes are reported at ``subdivisions + 1``
+    equally spaced points either way.
     """
     combos = _combos(combinations)
     most, modes = max(1, int(subdivisions)), max(1, int(modes))
     first: list = []
-    if adaptive and most > 1:
+    if adaptive:
         rough = _prepare(frame, 1)
         counts = np.ones(len(frame.members), dtype=np.intp)
         for n, f in combos:
             st = _setup(frame, f, n, 1, rough)
             found, mode, N = _factors_and_mode(st, modes)
-            need, rho = _pieces_needed(st, N, float(found[0]), most)
+            need, rho = _pieces_needed(st, N, float(found[0]), MOST_PIECES)
             counts = np.maximum(counts, need)
             first.append((st, found, mode if rho < 1.0 else None))
         if counts.max() == 1:   # (then every rho < 1: no mode was dropped above)
@@ -727,7 +751,7 @@ def _p_delta(frame: Frame, st: _Setup, family: str, tol: float, max_iterations: 
     """:func:`second_order` of a set-up combination."""
     U, dl, fe = _first_order(st)
     fe_lin = fe[:, :, 0].copy()
-    N = axial_forces(fe_lin)
+    N = axial_ends(fe_lin)
     found, _ = _critical(st, N, 1)
     alpha = float(found[0])
     if alpha <= 1.0:
@@ -762,7 +786,7 @@ def _iterate(st: _Setup, U: np.ndarray, N: np.ndarray, tol: float, max_iteration
         fact = factorise(model, Kg, on_singular=lambda d, w: _buckled(st, d, w))
         U_new = displacements(model, fact, st.loads, Kg)
         dl, fe = member_end_forces(model, U_new, st.loads.f0, model.k_loc + kg)
-        N_new = axial_forces(fe[:, :, 0])
+        N_new = axial_ends(fe[:, :, 0])
         du = np.max(np.abs(U_new - U)) <= tol * max(np.max(np.abs(U_new)), 1e-300)
         dn = np.max(np.abs(N_new - N)) <= tol * max(np.max(np.abs(N_new)), 1e-300) if len(N) else True
         U, N = U_new, N_new

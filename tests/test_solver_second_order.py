@@ -15,6 +15,7 @@ from dxf2frame.solver import (
     ALPHA_CR_LIMIT,
     BucklingError,
     BucklingResult,
+    DistributedLoad,
     Frame,
     NodalLoad,
     PointLoad,
@@ -66,6 +67,60 @@ def test_cantilever_column_euler_load():
     x = res.member_points[0]
     ux = res.member_shape[0, :, 0] / res.member_shape[0, -1, 0]
     assert np.allclose(ux, 1 - np.cos(np.pi * x / (2 * h)), atol=0.01)
+
+
+def test_geometric_stiffness_with_linear_axial_force_matches_its_integral():
+    # the work of an axial force varying linearly along the element on the
+    # Hermite cubics' slopes, integral(N(x) v'(x) w'(x) dx), integrated by
+    # sympy (independent of the Gauss rule used in the code)
+    import sympy
+    from dxf2frame.solver.element import geometric_stiffness
+    x, L, N1, N2 = sympy.symbols("x L N1 N2", positive=True)
+    xi = x / L
+    shapes = [1 - 3 * xi**2 + 2 * xi**3, x * (1 - xi) ** 2, 3 * xi**2 - 2 * xi**3, x * (xi**2 - xi)]
+    Nx = N1 + (N2 - N1) * xi
+    exact = [[sympy.integrate(Nx * sympy.diff(a, x) * sympy.diff(b, x), (x, 0, L)) for b in shapes] for a in shapes]
+    vals = {L: 3.7, N1: -25e3, N2: 11e3}
+    want = np.array([[float(e.subs(vals)) for e in row] for row in exact])
+    got = geometric_stiffness(np.array([3.7]), np.array([-25e3]), np.array([11e3]))[0]
+    v = [1, 2, 4, 5]
+    assert np.allclose(got[np.ix_(v, v)], want, rtol=1e-12, atol=1e-9)
+    assert np.allclose(got[[0, 3], :], 0.0) and np.allclose(got[:, [0, 3]], 0.0)
+
+
+def test_cantilever_buckles_under_its_own_weight_at_greenhill_load():
+    # a column fixed at the base and free at the top buckles under its own
+    # weight q when q L^3 = 7.837 EI (Greenhill; Timoshenko and Gere,
+    # Theory of Elastic Stability, from memory).  The axial force varies
+    # along each element, which the geometric stiffness must follow
+    h, q = 8.0, 2e3   # m, N/m downward along the column
+    f = Frame()
+    a, b = f.add_node(0.0, 0.0), f.add_node(0.0, h)
+    f.add_member(a, b, Section(E, A, I), id="C")
+    f.add_support(a, "fixed")
+    f.add_load(DistributedLoad("C", (0.0, -q), case="D"))
+    f.add_load(NodalLoad(b, fx=1.0, case="D"))   # a nudge: the sway is the mode, not the answer
+    res = critical_load_factor(f, "D")
+    assert res.alpha_cr * q * h**3 == pytest.approx(7.837 * EI, rel=0.01)
+
+
+def test_tie_in_tension_is_refined_like_a_strut():
+    # a portal whose beam is a tie pulled hard between its pinned ends: the
+    # tension stiffens the sway, and one element per member overstates that.
+    # The adaptive refinement must agree with a uniform fine one (a
+    # convergence check within the code's own discretisation, no external
+    # value: 16 elements per member is taken as converged)
+    f = Frame()
+    n0, n1, n2, n3 = (f.add_node(x, y) for x, y in ((0.0, 0.0), (0.0, 4.0), (6.0, 4.0), (6.0, 0.0)))
+    f.add_member(n0, n1, Section(E, A, I), id="L")
+    f.add_member(n1, n2, Section(E, A, I / 20), id="B")
+    f.add_member(n3, n2, Section(E, A, I), id="R")
+    f.add_support(n0, "fixed")
+    f.add_support(n3, "fixed")
+    f.add_load(NodalLoad(n1, fx=-400e3, fy=-300e3, case="D"))
+    f.add_load(NodalLoad(n2, fx=400e3, fy=-300e3, case="D"))
+    fine = critical_load_factor(f, "D", subdivisions=16, adaptive=False).alpha_cr
+    assert critical_load_factor(f, "D").alpha_cr == pytest.approx(fine, rel=2e-3)
 
 
 @pytest.mark.parametrize("adaptive", [True, False])
