@@ -21,6 +21,7 @@ from .solver.combinations import builtin_combinations, format_combination, parse
 from .solver.errors import MissingSectionError, SolverError, UnstableFrameError
 
 from .atomic import same_file
+from .background_save import BackgroundSave
 from .drawing_model import DrawingModel
 from .errors import AnalysisError, CannotWriteError, Dxf2FrameError, InputFileError, SettingsError, one_line
 from .read.reader import read_file
@@ -871,7 +872,7 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
     force_u, length_u = run.force_unit, run.length_unit
     final = paths["drawing"].parent
     what = f"the results of {source.name}"
-    with OutputSet(final, what=what) as out_set, writing(what, final):
+    with OutputSet(final, what=what) as out_set, writing(what, final), BackgroundSave() as saver:
         staged = {k: out_set.staged(p.name) for k, p in paths.items()}
         t0 = time.perf_counter()
         show = req.show or settings.combinations_draw
@@ -884,7 +885,8 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
                 source, staged["drawing"], model, det, drawn_results, show=drawn_show,
                 layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
                 document=analysis.document, drift=settings.drift_options(),
-                extra=_further_layers(analysis, force_u), **drawing_scale_options(settings, model, req),
+                extra=_further_layers(analysis, force_u), saver=saver,
+                **drawing_scale_options(settings, model, req),
             )
         else:
             writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,
@@ -899,7 +901,9 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
                                  outcome.warnings)
             analysis.timings["png"] = time.perf_counter() - t0
         # the report after the drawing: the writer's working arrays are
-        # gone by then, so the two never hold memory at the same time
+        # gone by then, so the two never hold memory at the same time (a
+        # large drawing is meanwhile saved by a child process, on another
+        # core: dxf2frame.background_save)
         t0 = time.perf_counter()
         rep = report_mod.assemble_report(
             model, det, _reported(analysis), force_unit=force_u, length_unit=length_u,
@@ -933,6 +937,7 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         governing = ({**_governing(rep), **_storey_checks(rep)}
                      if analysis.stable and analysis.buckled is None else {})
         _pattern_governing(rep, governing)
+        saver.wait()                                   # the result drawing, if a child process saved it
         committed = out_set.commit({staged[k]: paths[k] for k in written})
     return committed, governing, rep
 

@@ -436,3 +436,46 @@ def test_template_into_a_full_disk_is_exit_4(tmp_path, capsys, monkeypatch):
     assert rc == 4, err
     assert "cannot write new.dxf" in err and str(tmp_path) in err and "No space left" in err
     assert list(tmp_path.iterdir()) == []
+
+
+# -- the result drawing saved by a child process (dxf2frame.background_save) ------------
+
+def _fork_every_save(monkeypatch):
+    import dxf2frame.background_save as bg
+
+    if not bg.can_fork():
+        pytest.skip("needs fork, two CPUs and a single-threaded process")
+    monkeypatch.setattr(bg, "MIN_ENTITIES", 0)
+
+
+def test_a_drawing_saved_by_a_child_process_is_the_whole_set(solved_once, capsys, monkeypatch):
+    import ezdxf
+
+    _fork_every_save(monkeypatch)
+    path, out, rep, before = solved_once
+    rc, _, err = run_cli(capsys, "solve", path, "--out", out, "--report", rep / "frame.json", "--units", "kN,m")
+    assert rc == 0, err
+    after = snapshot(out, rep)
+    assert sorted(p.name for p in after) == sorted(p.name for p in before)
+    assert hidden(out, rep) == []
+    layers = {e.dxf.layer for e in ezdxf.readfile(out / "frame-results.dxf").modelspace()}
+    assert {"RESULT-MOMENT", "RESULT-NOTES"} <= layers
+    # twice the load of the first solve: the report changed with it
+    assert json.loads((rep / "frame.json").read_text())["results"] != json.loads(before[rep / "frame.json"])["results"]
+
+
+def test_a_child_that_cannot_save_is_exit_4_and_keeps_the_previous_set(solved_once, capsys, monkeypatch):
+    import ezdxf
+
+    _fork_every_save(monkeypatch)
+    path, out, rep, before = solved_once
+
+    def full(self, *a, **k):
+        raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
+
+    monkeypatch.setattr(ezdxf.document.Drawing, "saveas", full)
+    rc, _, err = run_cli(capsys, "solve", path, "--out", out, "--report", rep / "frame.json")
+    assert rc == 4, err
+    assert "cannot write the results of frame.dxf" in err and "No space left" in err
+    assert snapshot(out, rep) == before
+    assert hidden(out, rep) == []

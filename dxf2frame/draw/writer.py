@@ -990,6 +990,7 @@ def write_result_drawing(
     scales: Mapping[str, float] | None = None,
     probes: Sequence[tuple[float, float]] = (),
     extra: "Callable[[Drawing, DrawingObstacles | None], object] | None" = None,
+    saver: "Callable[[Drawing, Path], None] | None" = None,
 ) -> DrawingSummary:
     """Write a copy of ``source`` with the result layers to ``out`` (atomic);
     returns what was drawn (:class:`DrawingSummary`, with its warnings).
@@ -1012,6 +1013,9 @@ def write_result_drawing(
         before it is saved (the second-order and moving-load layers);
         called as ``extra(doc, content)`` with the drawing's own entities
         as obstacles (measured once, by the results' placement)
+    saver : optional: saves the annotated document to ``out`` instead of
+        an atomic save here (:class:`dxf2frame.background_save.BackgroundSave`
+        saves it on another core; the caller waits for it)
 
     Raises
     ------
@@ -1026,6 +1030,9 @@ def write_result_drawing(
                                text_height=text_height, scales=scales, probes=probes)
     if extra is not None:
         extra(doc, summary.content)
+    if saver is not None:
+        saver(doc, out)
+        return summary
     with atomic_path(out) as tmp:
         doc.saveas(tmp)
     return summary
