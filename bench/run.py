@@ -89,6 +89,14 @@ def _maxrss_mib() -> float:
     return r / 1024.0 if sys.platform != "darwin" else r / 2**20
 
 
+def _children_maxrss_mib() -> float:
+    """Peak resident set size of the largest finished child of this process
+    [MiB]: the process that saved the result drawing on the second core,
+    if one did (its pages shared with this process counted in both)."""
+    r = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+    return r / 1024.0 if sys.platform != "darwin" else r / 2**20
+
+
 class _StageClock:
     """Exclusive wall time per label of nested wrapped calls: the time of a
     call minus the time of the wrapped calls inside it."""
@@ -267,6 +275,13 @@ def _child_solve(path: Path, out: Path, timed: bool = False) -> dict:
     from dxf2frame.draw import writer  # noqa: F401
     from dxf2frame.pipeline import SolveRequest
 
+    if timed:
+        # the split run saves the result drawing in this process (no child
+        # on the second core: dxf2frame.background_save), so that its
+        # stages add up to its time
+        import dxf2frame.background_save as background_save
+
+        background_save.MIN_ENTITIES = 2**62
     clock = _install_timers() if timed else _StageClock()
     base = _maxrss_mib()
     req = SolveRequest(out=out, png=False, csv=True, sheets=False)
@@ -274,6 +289,7 @@ def _child_solve(path: Path, out: Path, timed: bool = False) -> dict:
     outcome = pipeline.solve_file(path, req)
     total = time.perf_counter() - t0
     peak = _maxrss_mib()             # before anything below reads the outputs back
+    saver_peak = _children_maxrss_mib()
     stages = {k: clock.total.get(k, 0.0) for k in STAGES if k != "other"}
     stages["other"] = max(0.0, total - sum(stages.values()))
     n_results = None
@@ -284,7 +300,7 @@ def _child_solve(path: Path, out: Path, timed: bool = False) -> dict:
     return {
         "seconds": total, "status": outcome.status, "message": outcome.message[:300],
         "stages": stages, "pipeline_timings": dict(outcome.timings), "calls": dict(clock.calls),
-        "results": n_results, "peak_mib": peak, "import_mib": base,
+        "results": n_results, "peak_mib": peak, "import_mib": base, "saver_peak_mib": saver_peak,
         "peak_after_mib": dict(clock.peak_after), "detail": dict(clock.detail), **clock.counts,
         "output_mb": sum(os.path.getsize(p) for p in outcome.outputs) / 2**20,
     }
@@ -413,6 +429,7 @@ def _measure_size(spec: FrameSpec, work: Path, repeat: int, log: Callable[[str],
         "stages": split["stages"], "split_s": split["seconds"], "pipeline_timings": sb["pipeline_timings"],
         "results": sb["results"], "output_mb": sb["output_mb"],
         "peak_mib": max(s["peak_mib"] for s in solves), "import_mib": sb["import_mib"],
+        "saver_peak_mib": max(s.get("saver_peak_mib", 0.0) for s in solves),
         "peak_after_mib": split["peak_after_mib"], "detail": split["detail"],
         "floor_peak_mib": max(f["peak_mib"] for f in floors),
         "repeats": repeat, "floor_runs_s": [f["seconds"] for f in floors],
