@@ -856,7 +856,7 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
         rows_blk = max(16, _CELLS // max(len(Q), 1))
         for s0 in range(0, n, rows_blk):
             s1 = min(n, s0 + rows_blk)
-            _loaded_block(s0, s1, x[s0:s1], idx[s0:s1], Q, re_, o, slot, np.clip(first, s0, s1) - s0,
+            _loaded_block(s0, s1, x[s0:s1], idx[s0:s1], Q, re_, o, slot, np.clip(first, s0 - 1, s1) - (s0 - 1),
                           fR, fL, Ni[Q], Vi[Q], Mi[Q], px, py, st.a[u], best)
         # M of the others: lines in x
         line = np.ones(pl.n, bool)
@@ -864,54 +864,76 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
         _line_extremes(x, Vi, Mi, line, idx, best)
 
 
+def _level_steps(val, re_, o, slot, first, n, nq):
+    """(n, nq) the sum of ``val`` over each placement's axles whose level
+    has begun at each row: per placement, its levels 0, v1, v1 + v2, ...
+    (axles in ``slot`` order) repeated over the rows ``first`` (nq, kmax +
+    1) gives for them."""
+    kmax = first.shape[1] - 1
+    lev = np.zeros((nq, kmax + 1))
+    lev[re_[o], slot + 1] = val[o]
+    np.cumsum(lev, axis=1, out=lev)
+    runs = np.diff(first, axis=1, append=n).ravel()
+    return np.ascontiguousarray(np.repeat(lev.ravel(), runs).reshape(nq, n).T)
+
+
 def _loaded_block(s0, s1, x, idx, Q, re_, o, slot, first, fR, fL, NiQ, ViQ, MiQ, px, py, a, best) -> None:
     """Samples s0:s1 of a member (``x``, indices ``idx``) under its loaded
     placements ``Q``: the axles (entries; ``re_`` their placement in Q,
     ``o`` their order by placement then position, ``slot`` their rank in
     that order within the placement) with first samples ``fR`` (right
-    side) and ``fL`` (left), ``first`` (len(Q), kmax + 1) the first sample
-    of each level clipped to the block, and the placements' end forces."""
+    side) and ``fL`` (left), and the placements' end forces.
+
+    Row r of the work arrays is sample s0 - 1 + r (row 0: the sample before
+    the block, or before the member's first: no axle there); ``first``
+    (len(Q), kmax + 1) is the first row of each level.  The right side at a
+    sample is its row.  The left side leaves out the axles standing at the
+    sample itself: that is the row before, as no axle stands between two
+    samples, except at the few samples just past an axle that was merged
+    with a sample a rounding away (the samples are at most one per 1e-9 of
+    the member's length), which are worked out as right side less the
+    axles there."""
     n, nq = s1 - s0, len(Q)
-    kmax = first.shape[1] - 1
-    runs = np.diff(first, axis=1, append=n).ravel()  # samples at each level
+    first[:, 0] = 0  # level 0 (no axle) from the first row
+    exact = (fL > fR) & (fR >= s0) & (fR < s1)  # axles standing at a sample of the block
+    off = (fL == fR) & (fR >= s0) & (fR < s1)  # axles between two samples, counted from the later
+    redo = np.unique(fR[off] - s0)
+    if len(redo):
+        hit = exact & np.isin(fR - s0, redo)
+        hit_row, hit_col = np.searchsorted(redo, fR[hit] - s0), re_[hit]
 
-    def steps(val):
-        """(n, nq) the sum of val over the axles at or before each sample
-        (right side): per placement, its levels 0, v1, v1 + v2, ...
-        repeated over the samples where they hold."""
-        lev = np.zeros((nq, kmax + 1))
-        lev[re_[o], slot + 1] = val[o]
-        np.cumsum(lev, axis=1, out=lev)
-        return np.ascontiguousarray(np.repeat(lev.ravel(), runs).reshape(nq, n).T)
+    def both(arr, q, val):
+        """Right and left extremes of ``arr`` (n + 1 rows) merged into best."""
+        i1_, v1, i2_, v2 = _extreme(arr)
+        out = {"right": (v1[1:], i1_[1:], v2[1:], i2_[1:]), "left": (v1[:-1], i1_[:-1], v2[:-1], i2_[:-1])}
+        if len(redo):
+            rows_ = arr[redo + 1]
+            np.subtract.at(rows_, (hit_row, hit_col), val[hit])
+            j1, w1, j2, w2 = _extreme(rows_)
+            l1, li1, l2, li2 = (c.copy() for c in out["left"])
+            l1[redo], li1[redo], l2[redo], li2[redo] = w1, j1, w2, j2
+            out["left"] = (l1, li1, l2, li2)
+        for side, (w1, j1, w2, j2) in out.items():
+            _merge(best[(q, 1, side)], idx, w1, Q[j1])
+            _merge(best[(q, -1, side)], idx, -w2, Q[j2])
 
-    # the left side differs from the right only at samples an axle stands
-    # on: those rows again, without the axle
-    at = (fL > fR) & (fR >= s0) & (fR < s1)
-    redo = np.unique(fR[at] - s0)
-    VR = None
-    for q, right, val in (("N", -NiQ + steps(-px), -px) if np.any(px) else ("N", None, None),
-                          ("V", steps(py), py)):
-        if right is None:  # no axial component: N is the end forces' alone, the same at every sample
-            i1_, v1, i2_, v2 = (np.full(n, v) for v in _extreme(-NiQ[None, :]))
-        else:
-            if q == "V":
-                right += ViQ
-                VR = right
-            i1_, v1, i2_, v2 = _extreme(right)
+    if np.any(px):
+        NR = _level_steps(-px, re_, o, slot, first, n + 1, nq)
+        NR -= NiQ
+        both(NR, "N", -px)
+    else:  # no axial component: N is the end forces' alone, the same at every sample
+        i1_, v1, i2_, v2 = _extreme(-NiQ[None, :])
         for side in ("right", "left"):
-            if side == "left" and right is not None and len(redo):
-                rows_ = right[redo]
-                np.subtract.at(rows_, (np.searchsorted(redo, fR[at] - s0), re_[at]), val[at])
-                j1, w1, j2, w2 = _extreme(rows_)
-                i1_, v1, i2_, v2 = i1_.copy(), v1.copy(), i2_.copy(), v2.copy()
-                i1_[redo], v1[redo], i2_[redo], v2[redo] = j1, w1, j2, w2
-            _merge(best[(q, 1, side)], idx, v1, Q[i1_])
-            _merge(best[(q, -1, side)], idx, -v2, Q[i2_])
+            _merge(best[("N", 1, side)], idx, np.full(n, v1[0]), np.full(n, Q[i1_[0]]))
+            _merge(best[("N", -1, side)], idx, np.full(n, -v2[0]), np.full(n, Q[i2_[0]]))
+    VR = _level_steps(py, re_, o, slot, first, n + 1, nq)
+    VR += ViQ
+    both(VR, "V", py)
     # M: x Vi - Mi plus the axles' ramps py (x - a), i.e.
-    # x (Vi + sum py) - (Mi + sum py a)
-    C2 = steps(py * a)
+    # x (Vi + sum py) - (Mi + sum py a), on the rows of the samples
+    C2 = _level_steps(py * a, re_, o, slot, first, n + 1, nq)[1:]
     C2 += MiQ
-    E = x[:, None] * VR
+    E = x[:, None] * VR[1:]
     E -= C2
     i1_, v1, i2_, v2 = _extreme(E)
     _merge(best[("M", 1, "right")], idx, v1, Q[i1_])

@@ -298,15 +298,24 @@ def _spans_on_a_spring() -> tuple[Frame, list[tuple[str, float, float]]]:
     return f, chain
 
 
-@pytest.mark.parametrize("frame, direction, step, vehicle, cells", [
-    (_ramp_frame, (0.0, -1.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None),
-    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None),
-    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), 40),  # work in the smallest blocks
-    (_short_middle_span, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3, 30e3), (3.0, 1.25)), None),
-    (_spans_on_a_spring, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (3.0,)), None),
+def _span_of_ten() -> tuple[Frame, list[tuple[str, float, float]]]:
+    """A simple span of 10 m (pin, roller)."""
+    return simple_span(10.0), [("B", 0.0, 10.0)]
+
+
+@pytest.mark.parametrize("frame, direction, step, vehicle, cells, ways", [
+    (_ramp_frame, (0.0, -1.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None, (1, -1)),
+    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None, (1, -1)),
+    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), 40, (1, -1)),  # work in the smallest blocks
+    (_short_middle_span, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3, 30e3), (3.0, 1.25)), None, (1, -1)),
+    (_spans_on_a_spring, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (3.0,)), None, (1, -1)),
+    # stations 3e-9 m (k = 1, 2, 3) past the span's regular samples at 1 m
+    # spacing: within 1e-9 of its length, so they are no samples of their
+    # own and an axle stands between two samples
+    (_span_of_ten, (1.0, -2.0), 1.0 + 3e-9, Vehicle((60e3,)), None, (1,)),
 ])
 def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame, direction, step, vehicle, cells,
-                                                                          monkeypatch):
+                                                                          ways, monkeypatch):
     # The envelope must be the largest and smallest N, V, M over the
     # vehicle's placements.  Cross-check by an independent route: every
     # placement (front axle at k * step, both ways) is put on the frame as
@@ -322,11 +331,13 @@ def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame,
     f, chain = frame()
     g = np.asarray(direction) / np.hypot(*direction)
     ml = MovingLoads(f, path_along_members(f, [c[0] for c in chain]), direction=tuple(direction))
-    env = ml.envelope(vehicle, step=step)
+    env = ml.envelope(vehicle, step=step, directions=ways)
     starts = np.cumsum([0.0] + [abs(b - a) for _, a, b in chain])
     Lp, Lv = starts[-1], float(vehicle.offsets[-1])
-    fronts = [(k * step, 1) for k in range(int((Lp + Lv) / step) + 1)]
-    fronts += [(Lp - k * step, -1) for k in range(int((Lp + Lv) / step) + 1)]
+    n_front = int(np.ceil((Lp + Lv) / step - 1e-9)) + 1
+    fronts = []
+    for d in ways:
+        fronts += [(k * step if d > 0 else Lp - k * step, d) for k in range(n_front)]
     for i, (front, d) in enumerate(fronts):
         for s, P in zip(front - d * vehicle.offsets, vehicle.loads):
             if not 0.0 <= s <= Lp:
@@ -351,7 +362,7 @@ def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame,
     # support reactions: the extremes over the same direct solves
     R = np.array([direct[f"P{i}"].reaction_array() for i in range(len(fronts))])  # (placement, support, 3)
     scale = max(np.abs(R).max(), 1.0)
-    for k, row in enumerate(ml.reaction_envelope(vehicle, step=step)):
+    for k, row in enumerate(ml.reaction_envelope(vehicle, step=step, directions=ways)):
         for ci, comp in enumerate(("fx", "fy", "m")):
             assert row[f"{comp}_max"] == pytest.approx(R[:, k, ci].max(), abs=1e-9 * scale)
             assert row[f"{comp}_min"] == pytest.approx(R[:, k, ci].min(), abs=1e-9 * scale)
