@@ -864,16 +864,15 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
         _line_extremes(x, Vi, Mi, line, idx, best)
 
 
-def _level_steps(val, re_, o, slot, first, n, nq):
-    """(n, nq) the sum of ``val`` over each placement's axles whose level
-    has begun at each row: per placement, its levels 0, v1, v1 + v2, ...
-    (axles in ``slot`` order) repeated over the rows ``first`` (nq, kmax +
-    1) gives for them."""
-    kmax = first.shape[1] - 1
-    lev = np.zeros((nq, kmax + 1))
+def _level_steps(val, base, re_, o, slot, runs, n, nq):
+    """(n, nq) per placement (column) ``base`` plus the sum of ``val`` over
+    its axles whose level has begun at each row: its levels base, base +
+    v1, base + (v1 + v2), ... (axles in ``slot`` order) repeated over
+    ``runs`` rows each (a row of ``runs`` per placement, kmax + 1 long)."""
+    lev = np.zeros((nq, runs.size // nq))
     lev[re_[o], slot + 1] = val[o]
     np.cumsum(lev, axis=1, out=lev)
-    runs = np.diff(first, axis=1, append=n).ravel()
+    lev += base[:, None]
     return np.ascontiguousarray(np.repeat(lev.ravel(), runs).reshape(nq, n).T)
 
 
@@ -917,22 +916,20 @@ def _loaded_block(s0, s1, x, idx, Q, re_, o, slot, first, fR, fL, NiQ, ViQ, MiQ,
             _merge(best[(q, 1, side)], idx, w1, Q[j1])
             _merge(best[(q, -1, side)], idx, -w2, Q[j2])
 
+    runs = np.diff(first, axis=1, append=n + 1).ravel()  # rows at each level
     if np.any(px):
-        NR = _level_steps(-px, re_, o, slot, first, n + 1, nq)
-        NR -= NiQ
+        NR = _level_steps(-px, -NiQ, re_, o, slot, runs, n + 1, nq)
         both(NR, "N", -px)
     else:  # no axial component: N is the end forces' alone, the same at every sample
         i1_, v1, i2_, v2 = _extreme(-NiQ[None, :])
         for side in ("right", "left"):
             _merge(best[("N", 1, side)], idx, np.full(n, v1[0]), np.full(n, Q[i1_[0]]))
             _merge(best[("N", -1, side)], idx, np.full(n, -v2[0]), np.full(n, Q[i2_[0]]))
-    VR = _level_steps(py, re_, o, slot, first, n + 1, nq)
-    VR += ViQ
+    VR = _level_steps(py, ViQ, re_, o, slot, runs, n + 1, nq)
     both(VR, "V", py)
     # M: x Vi - Mi plus the axles' ramps py (x - a), i.e.
     # x (Vi + sum py) - (Mi + sum py a), on the rows of the samples
-    C2 = _level_steps(py * a, re_, o, slot, first, n + 1, nq)[1:]
-    C2 += MiQ
+    C2 = _level_steps(py * a, MiQ, re_, o, slot, runs, n + 1, nq)[1:]
     E = x[:, None] * VR[1:]
     E -= C2
     i1_, v1, i2_, v2 = _extreme(E)
