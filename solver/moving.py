@@ -677,11 +677,11 @@ class MovingLoads:
         # computed into the same buffers
         blk = max(1, min(int(chunk), _CELLS // max(pl.n, 1)))
         fe, nb = self._basis().start_forces, pl.WP.shape[0]
-        buf, E = np.empty((3 * blk, pl.n)), np.empty((blk, pl.n))
+        buf, E = np.empty((3 * blk, pl.n)), np.empty((2, blk, pl.n))
         for lo in range(0, len(free), blk):
             r = free[lo:lo + blk]
             F = pl.product(fe[r].reshape(-1, nb), out=buf[:3 * len(r)]).reshape(len(r), 3, pl.n)
-            _free_extremes(F, L[r], t, bounds[r], best, E[:len(r)])
+            _free_extremes(F, L[r], t, bounds[r], best, E[:, :len(r)])
         if len(on):
             _loaded_extremes(pl, self._member_forces(pl, on), on, rows, xs, bounds, L, best)
         vals: dict[str, np.ndarray] = {}
@@ -786,8 +786,14 @@ def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarra
     axle on them: N and V are constant along such a member and M = Vi x -
     Mi linear, at its samples x = L t (indices ``first + k``).
 
-    ``F`` (r, 3, n_place) the members' start-end forces, ``L`` (r,), ``E``
-    (r, n_place) work space."""
+    ``F`` (r, 3, n_place) the members' start-end forces, ``L`` (r,), ``t``
+    (k,) equally spaced from 0, ``E`` (2, r, n_place) work space.
+
+    M at the samples is found as M(0) = -Mi plus k steps of (L dt) Vi, one
+    pass over the placements per sample; the value reported is the
+    governing placement's own x Vi - Mi, as :meth:`UnitLoadSolutions.member_values`
+    gives it (the steps' rounding, some 1e-16 of |Mi| + L |Vi|, decides
+    only between placements that tie to that rounding)."""
     every = (first[:, None] + np.arange(len(t))).ravel()  # every sample of these members
     for q, arr, sg in (("N", F[:, 0, :], -1), ("V", F[:, 1, :], 1)):
         i1, v1, i2, v2 = (np.repeat(v, len(t)) for v in _extreme(arr))
@@ -797,13 +803,21 @@ def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarra
             best[(q, 1, side)][0][every], best[(q, 1, side)][1][every] = v1, i1
             best[(q, -1, side)][0][every], best[(q, -1, side)][1][every] = -v2, i2
     Vi, Mi = F[:, 1, :], F[:, 2, :]
+    rows = np.arange(F.shape[0])
+    run, inc = E
+    np.negative(Mi, out=run)  # M at x = 0
+    if len(t) > 1:
+        np.multiply((L * (t[1] - t[0]))[:, None], Vi, out=inc)
     for k, tk in enumerate(t):
-        np.multiply((L * tk)[:, None], Vi, out=E)  # x Vi - Mi at the samples x = L t
-        E -= Mi
-        i1, v1, i2, v2 = _extreme(E)
+        if k:
+            run += inc
+        i1, i2 = np.argmax(run, axis=1), np.argmin(run, axis=1)
+        x = L * tk
         at = first + k
-        best[("M", 1, "right")][0][at], best[("M", 1, "right")][1][at] = v1, i1
-        best[("M", -1, "right")][0][at], best[("M", -1, "right")][1][at] = -v2, i2
+        best[("M", 1, "right")][0][at] = x * Vi[rows, i1] - Mi[rows, i1]
+        best[("M", 1, "right")][1][at] = i1
+        best[("M", -1, "right")][0][at] = -(x * Vi[rows, i2] - Mi[rows, i2])
+        best[("M", -1, "right")][1][at] = i2
 
 
 def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np.ndarray, xs: np.ndarray,
@@ -960,7 +974,9 @@ def _line_extremes(x: np.ndarray, Vi: np.ndarray, Mi: np.ndarray, use: np.ndarra
     cand_p = np.flatnonzero(use)
     V, M = Vi[cand_p], Mi[cand_p]
     Et = np.multiply.outer(x[K], V) - M  # (|K|, n_use)
-    inner = np.setdiff1d(np.arange(n), K)
+    not_k = np.ones(n, bool)
+    not_k[K] = False
+    inner = np.flatnonzero(not_k)
     gap = np.searchsorted(K, inner) - 1  # interval of each inner sample
     for sg in (1, -1):
         w = sg * Et
