@@ -303,12 +303,29 @@ def _span_of_ten() -> tuple[Frame, list[tuple[str, float, float]]]:
     return simple_span(10.0), [("B", 0.0, 10.0)]
 
 
+def _two_bay_portal() -> tuple[Frame, list[tuple[str, float, float]]]:
+    """Two bays of 6 m on three 4 m columns with fixed feet, the path on
+    the beams: the columns carry end forces only, and their end moments
+    take every proportion as the vehicle crosses (sway and bending of the
+    beams mixed)."""
+    f = Frame()
+    feet = [f.add_node(x, 0.0) for x in (0.0, 6.0, 12.0)]
+    tops = [f.add_node(x, 4.0) for x in (0.0, 6.0, 12.0)]
+    for k in range(3):
+        f.add_member(feet[k], tops[k], SEC, id=f"C{k}")
+        f.add_support(feet[k], "fixed")
+    f.add_member(tops[0], tops[1], SEC, id="B1")
+    f.add_member(tops[1], tops[2], SEC, id="B2")
+    return f, [("B1", 0.0, 6.0), ("B2", 0.0, 6.0)]
+
+
 @pytest.mark.parametrize("frame, direction, step, vehicle, cells, ways", [
     (_ramp_frame, (0.0, -1.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None, (1, -1)),
     (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None, (1, -1)),
     (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), 40, (1, -1)),  # work in the smallest blocks
     (_short_middle_span, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3, 30e3), (3.0, 1.25)), None, (1, -1)),
     (_spans_on_a_spring, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (3.0,)), None, (1, -1)),
+    (_two_bay_portal, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (2.5,)), None, (1, -1)),
     # stations 3e-9 m (k = 1, 2, 3) past the span's regular samples at 1 m
     # spacing: within 1e-9 of its length, so they are no samples of their
     # own and an axle stands between two samples
@@ -418,3 +435,37 @@ def test_line_envelope_equals_brute_force(seed):
         v, a = best[("M", sg, "right")]
         assert np.array_equal(a, want)
         assert np.array_equal(v, sg * E[np.arange(n_x), want])
+
+
+def test_column_envelope_inside_governed_by_placements_that_govern_neither_end():
+    # The columns of the two-bay portal carry end forces only, so M is a
+    # straight line along each under every placement; inside a column the
+    # extreme comes from placements that give the largest value at neither
+    # end (the envelope of the lines is curved).  Brute force: every
+    # placement solved by solver.solve as point loads, M read at the
+    # column's eleven points.
+    from dxf2frame.solver import PointLoad, solve
+    f, chain = _two_bay_portal()
+    vehicle, step = Vehicle((50e3, 80e3), (2.5,)), 0.125
+    env = MovingLoads(f, path_along_members(f, [c[0] for c in chain])).envelope(vehicle, step=step)
+    Lp = 12.0
+    n_front = int(np.ceil((Lp + 2.5) / step - 1e-9)) + 1
+    fronts = [(k * step, 1) for k in range(n_front)] + [(Lp - k * step, -1) for k in range(n_front)]
+    for i, (front, d) in enumerate(fronts):
+        for s, P in zip(front - d * vehicle.offsets, vehicle.loads):
+            if 0.0 <= s <= Lp:
+                mid, x = ("B1", s) if s < 6.0 else ("B2", s - 6.0)
+                f.add_load(PointLoad(mid, float(x), px=0.0, py=-P, case=f"P{i}"))
+    direct = solve(f, [f"P{i}" for i in range(len(fronts))])
+    inside_only = 0
+    for col in ("C0", "C1", "C2"):
+        e = env[col]
+        M = np.array([[direct[f"P{i}"].members[col].moment(x) for x in e.x] for i in range(len(fronts))])
+        scale = np.abs(M).max()
+        for key, sg in (("M_max", 1), ("M_min", -1)):
+            want = (sg * M).argmax(axis=0)  # the governing placement at each point
+            inside_only += len(set(want[1:-1]) - {want[0], want[-1]})
+            assert np.allclose(e.values[key], M[want, np.arange(len(e.x))], rtol=0, atol=1e-9 * scale)
+            got = [fronts.index((fr, int(dr))) for fr, dr in zip(e.front[key], e.direction[key])]
+            assert np.allclose(M[got, np.arange(len(e.x))], e.values[key], rtol=0, atol=1e-9 * scale)
+    assert inside_only >= 10  # the hard case: many points governed by placements governing no end
