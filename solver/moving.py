@@ -680,7 +680,8 @@ class MovingLoads:
         buf, E = np.empty((3 * blk, pl.n)), np.empty((2, blk, pl.n))
         for lo in range(0, len(free), blk):
             r = free[lo:lo + blk]
-            F = pl.product(fe[r].reshape(-1, nb), out=buf[:3 * len(r)]).reshape(len(r), 3, pl.n)
+            # rows by force, then member: each force's rows are one contiguous block
+            F = pl.product(fe[r].transpose(1, 0, 2).reshape(-1, nb), out=buf[:3 * len(r)]).reshape(3, len(r), pl.n)
             _free_extremes(F, L[r], t, bounds[r], best, E[:, :len(r)])
         if len(on):
             _loaded_extremes(pl, self._member_forces(pl, on), on, rows, xs, bounds, L, best)
@@ -786,7 +787,7 @@ def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarra
     axle on them: N and V are constant along such a member and M = Vi x -
     Mi linear, at its samples x = L t (indices ``first + k``).
 
-    ``F`` (r, 3, n_place) the members' start-end forces, ``L`` (r,), ``t``
+    ``F`` (3, r, n_place) the members' start-end forces, ``L`` (r,), ``t``
     (k,) equally spaced from 0, ``E`` (2, r, n_place) work space.
 
     M at the samples is found as M(0) = -Mi plus k steps of (L dt) Vi, one
@@ -795,15 +796,15 @@ def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarra
     gives it (the steps' rounding, some 1e-16 of |Mi| + L |Vi|, decides
     only between placements that tie to that rounding)."""
     every = (first[:, None] + np.arange(len(t))).ravel()  # every sample of these members
-    for q, arr, sg in (("N", F[:, 0, :], -1), ("V", F[:, 1, :], 1)):
+    for q, arr, sg in (("N", F[0], -1), ("V", F[1], 1)):
         i1, v1, i2, v2 = (np.repeat(v, len(t)) for v in _extreme(arr))
         if sg < 0:  # N = -Ni: its largest value is the smallest Ni
             i1, v1, i2, v2 = i2, -v2, i1, -v1
         for side in ("right", "left"):
             best[(q, 1, side)][0][every], best[(q, 1, side)][1][every] = v1, i1
             best[(q, -1, side)][0][every], best[(q, -1, side)][1][every] = -v2, i2
-    Vi, Mi = F[:, 1, :], F[:, 2, :]
-    rows = np.arange(F.shape[0])
+    Vi, Mi = F[1], F[2]
+    rows = np.arange(F.shape[1])
     run, inc = E
     np.negative(Mi, out=run)  # M at x = 0
     if len(t) > 1:
@@ -858,11 +859,15 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
         first[re_[o], slot + 1] = fR[o]
         Ni, Vi, Mi = Fp[k]
         px, py = P * st.p[u, 0], P * st.p[u, 1]
-        # N and V of the placements without an axle here: constant along x
+        # N and V of the placements without an axle here: constant along x;
+        # with no axial component of the axles, N is the end forces' alone
+        # for every placement, loaded or not
+        axial = bool(np.any(px))
         for q, base in (("N", -Ni), ("V", Vi)):
             for sg in (1, -1):
                 w = sg * base
-                w[Q] = -np.inf
+                if q == "V" or axial:
+                    w[Q] = -np.inf
                 i = int(np.argmax(w))
                 for side in ("right", "left"):
                     _merge(best[(q, sg, side)], idx, np.full(n, w[i]), np.full(n, i))
@@ -930,15 +935,13 @@ def _loaded_block(s0, s1, x, idx, Q, re_, o, slot, first, fR, fL, NiQ, ViQ, MiQ,
             _merge(best[(q, 1, side)], idx, w1, Q[j1])
             _merge(best[(q, -1, side)], idx, -w2, Q[j2])
 
-    runs = np.diff(first, axis=1, append=n + 1).ravel()  # rows at each level
-    if np.any(px):
+    runs = np.empty_like(first)  # rows at each level
+    runs[:, :-1] = first[:, 1:] - first[:, :-1]
+    runs[:, -1] = n + 1 - first[:, -1]
+    runs = runs.ravel()
+    if np.any(px):  # (without, N is the end forces' alone: see _loaded_extremes)
         NR = _level_steps(-px, -NiQ, re_, o, slot, runs, n + 1, nq)
         both(NR, "N", -px)
-    else:  # no axial component: N is the end forces' alone, the same at every sample
-        i1_, v1, i2_, v2 = _extreme(-NiQ[None, :])
-        for side in ("right", "left"):
-            _merge(best[("N", 1, side)], idx, np.full(n, v1[0]), np.full(n, Q[i1_[0]]))
-            _merge(best[("N", -1, side)], idx, np.full(n, -v2[0]), np.full(n, Q[i2_[0]]))
     VR = _level_steps(py, ViQ, re_, o, slot, runs, n + 1, nq)
     both(VR, "V", py)
     # M: x Vi - Mi plus the axles' ramps py (x - a), i.e.
