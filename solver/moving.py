@@ -762,8 +762,9 @@ _COLS = 128  # placements per block of the end-force products
 _CELLS = 1 << 17  # values per work array (a megabyte) when members or samples go in blocks
 
 
-def _merge(best: tuple[np.ndarray, np.ndarray], idx, v: np.ndarray, a: np.ndarray) -> None:
-    """Fold values ``v`` of placements ``a`` at samples ``idx`` into the
+def _merge(best: tuple[np.ndarray, np.ndarray], idx, v: np.ndarray | float, a: np.ndarray | int) -> None:
+    """Fold values ``v`` of placements ``a`` (arrays, or one value and
+    placement for all) at samples ``idx`` (indices or a slice) into the
     running best (value, placement): larger wins, equal keeps the earlier
     placement."""
     bv, ba = best
@@ -870,12 +871,13 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
                     w[Q] = -np.inf
                 i = int(np.argmax(w))
                 for side in ("right", "left"):
-                    _merge(best[(q, sg, side)], idx, np.full(n, w[i]), np.full(n, i))
+                    _merge(best[(q, sg, side)], slice(i0, i1), w[i], i)
         # the loaded placements, in blocks of samples (about a megabyte per array)
         rows_blk = max(16, _CELLS // max(len(Q), 1))
         for s0 in range(0, n, rows_blk):
             s1 = min(n, s0 + rows_blk)
-            _loaded_block(s0, s1, x[s0:s1], idx[s0:s1], Q, re_, o, slot, np.clip(first, s0 - 1, s1) - (s0 - 1),
+            _loaded_block(s0, s1, x[s0:s1], slice(i0 + s0, i0 + s1), Q, re_, o, slot,
+                          np.clip(first, s0 - 1, s1) - (s0 - 1),
                           fR, fL, Ni[Q], Vi[Q], Mi[Q], px, py, st.a[u], best)
         # M of the others: lines in x
         line = np.ones(pl.n, bool)
@@ -896,7 +898,7 @@ def _level_steps(val, base, re_, o, slot, runs, n, nq):
 
 
 def _loaded_block(s0, s1, x, idx, Q, re_, o, slot, first, fR, fL, NiQ, ViQ, MiQ, px, py, a, best) -> None:
-    """Samples s0:s1 of a member (``x``, indices ``idx``) under its loaded
+    """Samples s0:s1 of a member (``x``, indices ``idx``: a slice) under its loaded
     placements ``Q``: the axles (entries; ``re_`` their placement in Q,
     ``o`` their order by placement then position, ``slot`` their rank in
     that order within the placement) with first samples ``fR`` (right
@@ -999,7 +1001,7 @@ def _line_extremes(x: np.ndarray, Vi: np.ndarray, Mi: np.ndarray, use: np.ndarra
         above = sg * (np.multiply.outer(xk, V) - M) > lb[:, None]  # (gaps, n_use)
         above[np.arange(len(xl)), qk[:-1]] = True
         above[np.arange(len(xl)), qk[1:]] = True
-        gr, gc = np.nonzero(above)  # by gap, then placement (ascending)
+        gr, gc = np.divmod(np.flatnonzero(above), above.shape[1])  # by gap, then placement (ascending)
         cnt = np.bincount(gr, minlength=len(xl))
         cstart = np.concatenate([[0], np.cumsum(cnt)[:-1]])
         c = cnt[gap]
