@@ -499,7 +499,10 @@ class MovingLoads:
         col[dofs] = np.arange(nb)
         F = np.zeros((N, nb))
         F[dofs, np.arange(nb)] = 1.0
-        U = displacements(model, self._fact, _Rhs(F))
+        # in groups of _RHS columns: small triangular solves, which a threaded
+        # BLAS runs on the calling thread (see _Placements.product)
+        U = np.concatenate([displacements(model, self._fact, _Rhs(F[:, c:c + _RHS]))
+                            for c in range(0, max(nb, 1), _RHS)], axis=1)
         # (m, 3, nb) start-end forces k[:3] T u; einsum keeps these many tiny
         # products off the BLAS (see _Placements.product)
         fe = np.einsum("mij,mjc->mic", np.einsum("mij,mjk->mik", model.k_loc[:, :3, :], model.T), U[model.dof])
@@ -759,6 +762,7 @@ class MovingLoads:
 
 
 _COLS = 128  # placements per block of the end-force products
+_RHS = 16  # unit nodal loads per solve of the basis
 _CELLS = 1 << 17  # values per work array (a megabyte) when members or samples go in blocks
 
 
