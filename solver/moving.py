@@ -811,13 +811,16 @@ def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarra
     Vi, Mi = F[1], F[2]
     rows = np.arange(F.shape[1])
     run, inc = E
-    np.negative(Mi, out=run)  # M at x = 0
-    if len(t) > 1:
-        np.multiply((L * (t[1] - t[0]))[:, None], Vi, out=inc)
+    np.multiply((L * (t[1] - t[0]))[:, None], Vi, out=inc)
     for k, tk in enumerate(t):
-        if k:
-            run += inc
-        i1, i2 = np.argmax(run, axis=1), np.argmin(run, axis=1)
+        if k == 0:  # M at x = 0 is -Mi: its largest is the smallest Mi
+            i1, i2 = np.argmin(Mi, axis=1), np.argmax(Mi, axis=1)
+        else:
+            if k == 1:
+                np.subtract(inc, Mi, out=run)
+            else:
+                run += inc
+            i1, i2 = np.argmax(run, axis=1), np.argmin(run, axis=1)
         x = L * tk
         at = first + k
         best[("M", 1, "right")][0][at] = x * Vi[rows, i1] - Mi[rows, i1]
