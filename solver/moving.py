@@ -499,7 +499,10 @@ class MovingLoads:
         col[dofs] = np.arange(nb)
         F = np.zeros((N, nb))
         F[dofs, np.arange(nb)] = 1.0
-        U = displacements(model, self._fact, _Rhs(F))
+        # in groups of _RHS columns: small triangular solves, which a threaded
+        # BLAS runs on the calling thread (see _Placements.product)
+        U = np.concatenate([displacements(model, self._fact, _Rhs(F[:, c:c + _RHS]))
+                            for c in range(0, max(nb, 1), _RHS)], axis=1)
         # (m, 3, nb) start-end forces k[:3] T u; einsum keeps these many tiny
         # products off the BLAS (see _Placements.product)
         fe = np.einsum("mij,mjc->mic", np.einsum("mij,mjk->mik", model.k_loc[:, :3, :], model.T), U[model.dof])
@@ -677,11 +680,12 @@ class MovingLoads:
         # computed into the same buffers
         blk = max(1, min(int(chunk), _CELLS // max(pl.n, 1)))
         fe, nb = self._basis().start_forces, pl.WP.shape[0]
-        buf, E = np.empty((3 * blk, pl.n)), np.empty((blk, pl.n))
+        buf, E = np.empty((3 * blk, pl.n)), np.empty((2, blk, pl.n))
         for lo in range(0, len(free), blk):
             r = free[lo:lo + blk]
-            F = pl.product(fe[r].reshape(-1, nb), out=buf[:3 * len(r)]).reshape(len(r), 3, pl.n)
-            _free_extremes(F, L[r], t, bounds[r], best, E[:len(r)])
+            # rows by force, then member: each force's rows are one contiguous block
+            F = pl.product(fe[r].transpose(1, 0, 2).reshape(-1, nb), out=buf[:3 * len(r)]).reshape(3, len(r), pl.n)
+            _free_extremes(F, L[r], t, bounds[r], best, E[:, :len(r)])
         if len(on):
             _loaded_extremes(pl, self._member_forces(pl, on), on, rows, xs, bounds, L, best)
         vals: dict[str, np.ndarray] = {}
@@ -758,11 +762,13 @@ class MovingLoads:
 
 
 _COLS = 128  # placements per block of the end-force products
+_RHS = 16  # unit nodal loads per solve of the basis
 _CELLS = 1 << 17  # values per work array (a megabyte) when members or samples go in blocks
 
 
-def _merge(best: tuple[np.ndarray, np.ndarray], idx, v: np.ndarray, a: np.ndarray) -> None:
-    """Fold values ``v`` of placements ``a`` at samples ``idx`` into the
+def _merge(best: tuple[np.ndarray, np.ndarray], idx, v: np.ndarray | float, a: np.ndarray | int) -> None:
+    """Fold values ``v`` of placements ``a`` (arrays, or one value and
+    placement for all) at samples ``idx`` (indices or a slice) into the
     running best (value, placement): larger wins, equal keeps the earlier
     placement."""
     bv, ba = best
@@ -786,24 +792,41 @@ def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarra
     axle on them: N and V are constant along such a member and M = Vi x -
     Mi linear, at its samples x = L t (indices ``first + k``).
 
-    ``F`` (r, 3, n_place) the members' start-end forces, ``L`` (r,), ``E``
-    (r, n_place) work space."""
+    ``F`` (3, r, n_place) the members' start-end forces, ``L`` (r,), ``t``
+    (k,) equally spaced from 0, ``E`` (2, r, n_place) work space.
+
+    M at the samples is found as M(0) = -Mi plus k steps of (L dt) Vi, one
+    pass over the placements per sample; the value reported is the
+    governing placement's own x Vi - Mi, as :meth:`UnitLoadSolutions.member_values`
+    gives it (the steps' rounding, some 1e-16 of |Mi| + L |Vi|, decides
+    only between placements that tie to that rounding)."""
     every = (first[:, None] + np.arange(len(t))).ravel()  # every sample of these members
-    for q, arr, sg in (("N", F[:, 0, :], -1), ("V", F[:, 1, :], 1)):
+    for q, arr, sg in (("N", F[0], -1), ("V", F[1], 1)):
         i1, v1, i2, v2 = (np.repeat(v, len(t)) for v in _extreme(arr))
         if sg < 0:  # N = -Ni: its largest value is the smallest Ni
             i1, v1, i2, v2 = i2, -v2, i1, -v1
         for side in ("right", "left"):
             best[(q, 1, side)][0][every], best[(q, 1, side)][1][every] = v1, i1
             best[(q, -1, side)][0][every], best[(q, -1, side)][1][every] = -v2, i2
-    Vi, Mi = F[:, 1, :], F[:, 2, :]
+    Vi, Mi = F[1], F[2]
+    rows = np.arange(F.shape[1])
+    run, inc = E
+    np.multiply((L * (t[1] - t[0]))[:, None], Vi, out=inc)
     for k, tk in enumerate(t):
-        np.multiply((L * tk)[:, None], Vi, out=E)  # x Vi - Mi at the samples x = L t
-        E -= Mi
-        i1, v1, i2, v2 = _extreme(E)
+        if k == 0:  # M at x = 0 is -Mi: its largest is the smallest Mi
+            i1, i2 = np.argmin(Mi, axis=1), np.argmax(Mi, axis=1)
+        else:
+            if k == 1:
+                np.subtract(inc, Mi, out=run)
+            else:
+                run += inc
+            i1, i2 = np.argmax(run, axis=1), np.argmin(run, axis=1)
+        x = L * tk
         at = first + k
-        best[("M", 1, "right")][0][at], best[("M", 1, "right")][1][at] = v1, i1
-        best[("M", -1, "right")][0][at], best[("M", -1, "right")][1][at] = -v2, i2
+        best[("M", 1, "right")][0][at] = x * Vi[rows, i1] - Mi[rows, i1]
+        best[("M", 1, "right")][1][at] = i1
+        best[("M", -1, "right")][0][at] = -(x * Vi[rows, i2] - Mi[rows, i2])
+        best[("M", -1, "right")][1][at] = i2
 
 
 def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np.ndarray, xs: np.ndarray,
@@ -844,19 +867,24 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
         first[re_[o], slot + 1] = fR[o]
         Ni, Vi, Mi = Fp[k]
         px, py = P * st.p[u, 0], P * st.p[u, 1]
-        # N and V of the placements without an axle here: constant along x
+        # N and V of the placements without an axle here: constant along x;
+        # with no axial component of the axles, N is the end forces' alone
+        # for every placement, loaded or not
+        axial = bool(np.any(px))
         for q, base in (("N", -Ni), ("V", Vi)):
             for sg in (1, -1):
                 w = sg * base
-                w[Q] = -np.inf
+                if q == "V" or axial:
+                    w[Q] = -np.inf
                 i = int(np.argmax(w))
                 for side in ("right", "left"):
-                    _merge(best[(q, sg, side)], idx, np.full(n, w[i]), np.full(n, i))
+                    _merge(best[(q, sg, side)], slice(i0, i1), w[i], i)
         # the loaded placements, in blocks of samples (about a megabyte per array)
         rows_blk = max(16, _CELLS // max(len(Q), 1))
         for s0 in range(0, n, rows_blk):
             s1 = min(n, s0 + rows_blk)
-            _loaded_block(s0, s1, x[s0:s1], idx[s0:s1], Q, re_, o, slot, np.clip(first, s0, s1) - s0,
+            _loaded_block(s0, s1, x[s0:s1], slice(i0 + s0, i0 + s1), Q, re_, o, slot,
+                          np.clip(first, s0 - 1, s1) - (s0 - 1),
                           fR, fL, Ni[Q], Vi[Q], Mi[Q], px, py, st.a[u], best)
         # M of the others: lines in x
         line = np.ones(pl.n, bool)
@@ -864,54 +892,71 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
         _line_extremes(x, Vi, Mi, line, idx, best)
 
 
+def _level_steps(val, base, re_, o, slot, runs, n, nq):
+    """(n, nq) per placement (column) ``base`` plus the sum of ``val`` over
+    its axles whose level has begun at each row: its levels base, base +
+    v1, base + (v1 + v2), ... (axles in ``slot`` order) repeated over
+    ``runs`` rows each (a row of ``runs`` per placement, kmax + 1 long)."""
+    lev = np.zeros((nq, runs.size // nq))
+    lev[re_[o], slot + 1] = val[o]
+    np.cumsum(lev, axis=1, out=lev)
+    lev += base[:, None]
+    return np.ascontiguousarray(np.repeat(lev.ravel(), runs).reshape(nq, n).T)
+
+
 def _loaded_block(s0, s1, x, idx, Q, re_, o, slot, first, fR, fL, NiQ, ViQ, MiQ, px, py, a, best) -> None:
-    """Samples s0:s1 of a member (``x``, indices ``idx``) under its loaded
+    """Samples s0:s1 of a member (``x``, indices ``idx``: a slice) under its loaded
     placements ``Q``: the axles (entries; ``re_`` their placement in Q,
     ``o`` their order by placement then position, ``slot`` their rank in
     that order within the placement) with first samples ``fR`` (right
-    side) and ``fL`` (left), ``first`` (len(Q), kmax + 1) the first sample
-    of each level clipped to the block, and the placements' end forces."""
+    side) and ``fL`` (left), and the placements' end forces.
+
+    Row r of the work arrays is sample s0 - 1 + r (row 0: the sample before
+    the block, or before the member's first: no axle there); ``first``
+    (len(Q), kmax + 1) is the first row of each level.  The right side at a
+    sample is its row.  The left side leaves out the axles standing at the
+    sample itself: that is the row before, as no axle stands between two
+    samples, except at the few samples just past an axle that was merged
+    with a sample a rounding away (the samples are at most one per 1e-9 of
+    the member's length), which are worked out as right side less the
+    axles there."""
     n, nq = s1 - s0, len(Q)
-    kmax = first.shape[1] - 1
-    runs = np.diff(first, axis=1, append=n).ravel()  # samples at each level
+    first[:, 0] = 0  # level 0 (no axle) from the first row
+    exact = (fL > fR) & (fR >= s0) & (fR < s1)  # axles standing at a sample of the block
+    off = (fL == fR) & (fR >= s0) & (fR < s1)  # axles between two samples, counted from the later
+    redo = np.unique(fR[off] - s0)
+    if len(redo):
+        hit = exact & np.isin(fR - s0, redo)
+        hit_row, hit_col = np.searchsorted(redo, fR[hit] - s0), re_[hit]
 
-    def steps(val):
-        """(n, nq) the sum of val over the axles at or before each sample
-        (right side): per placement, its levels 0, v1, v1 + v2, ...
-        repeated over the samples where they hold."""
-        lev = np.zeros((nq, kmax + 1))
-        lev[re_[o], slot + 1] = val[o]
-        np.cumsum(lev, axis=1, out=lev)
-        return np.ascontiguousarray(np.repeat(lev.ravel(), runs).reshape(nq, n).T)
+    def both(arr, q, val):
+        """Right and left extremes of ``arr`` (n + 1 rows) merged into best."""
+        i1_, v1, i2_, v2 = _extreme(arr)
+        out = {"right": (v1[1:], i1_[1:], v2[1:], i2_[1:]), "left": (v1[:-1], i1_[:-1], v2[:-1], i2_[:-1])}
+        if len(redo):
+            rows_ = arr[redo + 1]
+            np.subtract.at(rows_, (hit_row, hit_col), val[hit])
+            j1, w1, j2, w2 = _extreme(rows_)
+            l1, li1, l2, li2 = (c.copy() for c in out["left"])
+            l1[redo], li1[redo], l2[redo], li2[redo] = w1, j1, w2, j2
+            out["left"] = (l1, li1, l2, li2)
+        for side, (w1, j1, w2, j2) in out.items():
+            _merge(best[(q, 1, side)], idx, w1, Q[j1])
+            _merge(best[(q, -1, side)], idx, -w2, Q[j2])
 
-    # the left side differs from the right only at samples an axle stands
-    # on: those rows again, without the axle
-    at = (fL > fR) & (fR >= s0) & (fR < s1)
-    redo = np.unique(fR[at] - s0)
-    VR = None
-    for q, right, val in (("N", -NiQ + steps(-px), -px) if np.any(px) else ("N", None, None),
-                          ("V", steps(py), py)):
-        if right is None:  # no axial component: N is the end forces' alone, the same at every sample
-            i1_, v1, i2_, v2 = (np.full(n, v) for v in _extreme(-NiQ[None, :]))
-        else:
-            if q == "V":
-                right += ViQ
-                VR = right
-            i1_, v1, i2_, v2 = _extreme(right)
-        for side in ("right", "left"):
-            if side == "left" and right is not None and len(redo):
-                rows_ = right[redo]
-                np.subtract.at(rows_, (np.searchsorted(redo, fR[at] - s0), re_[at]), val[at])
-                j1, w1, j2, w2 = _extreme(rows_)
-                i1_, v1, i2_, v2 = i1_.copy(), v1.copy(), i2_.copy(), v2.copy()
-                i1_[redo], v1[redo], i2_[redo], v2[redo] = j1, w1, j2, w2
-            _merge(best[(q, 1, side)], idx, v1, Q[i1_])
-            _merge(best[(q, -1, side)], idx, -v2, Q[i2_])
+    runs = np.empty_like(first)  # rows at each level
+    runs[:, :-1] = first[:, 1:] - first[:, :-1]
+    runs[:, -1] = n + 1 - first[:, -1]
+    runs = runs.ravel()
+    if np.any(px):  # (without, N is the end forces' alone: see _loaded_extremes)
+        NR = _level_steps(-px, -NiQ, re_, o, slot, runs, n + 1, nq)
+        both(NR, "N", -px)
+    VR = _level_steps(py, ViQ, re_, o, slot, runs, n + 1, nq)
+    both(VR, "V", py)
     # M: x Vi - Mi plus the axles' ramps py (x - a), i.e.
-    # x (Vi + sum py) - (Mi + sum py a)
-    C2 = steps(py * a)
-    C2 += MiQ
-    E = x[:, None] * VR
+    # x (Vi + sum py) - (Mi + sum py a), on the rows of the samples
+    C2 = _level_steps(py * a, MiQ, re_, o, slot, runs, n + 1, nq)[1:]
+    E = x[:, None] * VR[1:]
     E -= C2
     i1_, v1, i2_, v2 = _extreme(E)
     _merge(best[("M", 1, "right")], idx, v1, Q[i1_])
@@ -941,7 +986,9 @@ def _line_extremes(x: np.ndarray, Vi: np.ndarray, Mi: np.ndarray, use: np.ndarra
     cand_p = np.flatnonzero(use)
     V, M = Vi[cand_p], Mi[cand_p]
     Et = np.multiply.outer(x[K], V) - M  # (|K|, n_use)
-    inner = np.setdiff1d(np.arange(n), K)
+    not_k = np.ones(n, bool)
+    not_k[K] = False
+    inner = np.flatnonzero(not_k)
     gap = np.searchsorted(K, inner) - 1  # interval of each inner sample
     for sg in (1, -1):
         w = sg * Et
@@ -961,7 +1008,7 @@ def _line_extremes(x: np.ndarray, Vi: np.ndarray, Mi: np.ndarray, use: np.ndarra
         above = sg * (np.multiply.outer(xk, V) - M) > lb[:, None]  # (gaps, n_use)
         above[np.arange(len(xl)), qk[:-1]] = True
         above[np.arange(len(xl)), qk[1:]] = True
-        gr, gc = np.nonzero(above)  # by gap, then placement (ascending)
+        gr, gc = np.divmod(np.flatnonzero(above), above.shape[1])  # by gap, then placement (ascending)
         cnt = np.bincount(gr, minlength=len(xl))
         cstart = np.concatenate([[0], np.cumsum(cnt)[:-1]])
         c = cnt[gap]

@@ -298,15 +298,41 @@ def _spans_on_a_spring() -> tuple[Frame, list[tuple[str, float, float]]]:
     return f, chain
 
 
-@pytest.mark.parametrize("frame, direction, step, vehicle, cells", [
-    (_ramp_frame, (0.0, -1.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None),
-    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None),
-    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), 40),  # work in the smallest blocks
-    (_short_middle_span, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3, 30e3), (3.0, 1.25)), None),
-    (_spans_on_a_spring, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (3.0,)), None),
+def _span_of_ten() -> tuple[Frame, list[tuple[str, float, float]]]:
+    """A simple span of 10 m (pin, roller)."""
+    return simple_span(10.0), [("B", 0.0, 10.0)]
+
+
+def _two_bay_portal() -> tuple[Frame, list[tuple[str, float, float]]]:
+    """Two bays of 6 m on three 4 m columns with fixed feet, the path on
+    the beams: the columns carry end forces only, and their end moments
+    take every proportion as the vehicle crosses (sway and bending of the
+    beams mixed)."""
+    f = Frame()
+    feet = [f.add_node(x, 0.0) for x in (0.0, 6.0, 12.0)]
+    tops = [f.add_node(x, 4.0) for x in (0.0, 6.0, 12.0)]
+    for k in range(3):
+        f.add_member(feet[k], tops[k], SEC, id=f"C{k}")
+        f.add_support(feet[k], "fixed")
+    f.add_member(tops[0], tops[1], SEC, id="B1")
+    f.add_member(tops[1], tops[2], SEC, id="B2")
+    return f, [("B1", 0.0, 6.0), ("B2", 0.0, 6.0)]
+
+
+@pytest.mark.parametrize("frame, direction, step, vehicle, cells, ways", [
+    (_ramp_frame, (0.0, -1.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None, (1, -1)),
+    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), None, (1, -1)),
+    (_ramp_frame, (1.0, -2.0), 0.25, Vehicle((60e3, 40e3), (2.5,)), 40, (1, -1)),  # work in the smallest blocks
+    (_short_middle_span, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3, 30e3), (3.0, 1.25)), None, (1, -1)),
+    (_spans_on_a_spring, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (3.0,)), None, (1, -1)),
+    (_two_bay_portal, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (2.5,)), None, (1, -1)),
+    # stations 3e-9 m (k = 1, 2, 3) past the span's regular samples at 1 m
+    # spacing: within 1e-9 of its length, so they are no samples of their
+    # own and an axle stands between two samples
+    (_span_of_ten, (1.0, -2.0), 1.0 + 3e-9, Vehicle((60e3,)), None, (1,)),
 ])
 def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame, direction, step, vehicle, cells,
-                                                                          monkeypatch):
+                                                                          ways, monkeypatch):
     # The envelope must be the largest and smallest N, V, M over the
     # vehicle's placements.  Cross-check by an independent route: every
     # placement (front axle at k * step, both ways) is put on the frame as
@@ -322,11 +348,13 @@ def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame,
     f, chain = frame()
     g = np.asarray(direction) / np.hypot(*direction)
     ml = MovingLoads(f, path_along_members(f, [c[0] for c in chain]), direction=tuple(direction))
-    env = ml.envelope(vehicle, step=step)
+    env = ml.envelope(vehicle, step=step, directions=ways)
     starts = np.cumsum([0.0] + [abs(b - a) for _, a, b in chain])
     Lp, Lv = starts[-1], float(vehicle.offsets[-1])
-    fronts = [(k * step, 1) for k in range(int((Lp + Lv) / step) + 1)]
-    fronts += [(Lp - k * step, -1) for k in range(int((Lp + Lv) / step) + 1)]
+    n_front = int(np.ceil((Lp + Lv) / step - 1e-9)) + 1
+    fronts = []
+    for d in ways:
+        fronts += [(k * step if d > 0 else Lp - k * step, d) for k in range(n_front)]
     for i, (front, d) in enumerate(fronts):
         for s, P in zip(front - d * vehicle.offsets, vehicle.loads):
             if not 0.0 <= s <= Lp:
@@ -351,7 +379,7 @@ def test_envelope_equals_the_extremes_of_direct_solves_of_every_placement(frame,
     # support reactions: the extremes over the same direct solves
     R = np.array([direct[f"P{i}"].reaction_array() for i in range(len(fronts))])  # (placement, support, 3)
     scale = max(np.abs(R).max(), 1.0)
-    for k, row in enumerate(ml.reaction_envelope(vehicle, step=step)):
+    for k, row in enumerate(ml.reaction_envelope(vehicle, step=step, directions=ways)):
         for ci, comp in enumerate(("fx", "fy", "m")):
             assert row[f"{comp}_max"] == pytest.approx(R[:, k, ci].max(), abs=1e-9 * scale)
             assert row[f"{comp}_min"] == pytest.approx(R[:, k, ci].min(), abs=1e-9 * scale)
@@ -407,3 +435,37 @@ def test_line_envelope_equals_brute_force(seed):
         v, a = best[("M", sg, "right")]
         assert np.array_equal(a, want)
         assert np.array_equal(v, sg * E[np.arange(n_x), want])
+
+
+def test_column_envelope_inside_governed_by_placements_that_govern_neither_end():
+    # The columns of the two-bay portal carry end forces only, so M is a
+    # straight line along each under every placement; inside a column the
+    # extreme comes from placements that give the largest value at neither
+    # end (the envelope of the lines is curved).  Brute force: every
+    # placement solved by solver.solve as point loads, M read at the
+    # column's eleven points.
+    from dxf2frame.solver import PointLoad, solve
+    f, chain = _two_bay_portal()
+    vehicle, step = Vehicle((50e3, 80e3), (2.5,)), 0.125
+    env = MovingLoads(f, path_along_members(f, [c[0] for c in chain])).envelope(vehicle, step=step)
+    Lp = 12.0
+    n_front = int(np.ceil((Lp + 2.5) / step - 1e-9)) + 1
+    fronts = [(k * step, 1) for k in range(n_front)] + [(Lp - k * step, -1) for k in range(n_front)]
+    for i, (front, d) in enumerate(fronts):
+        for s, P in zip(front - d * vehicle.offsets, vehicle.loads):
+            if 0.0 <= s <= Lp:
+                mid, x = ("B1", s) if s < 6.0 else ("B2", s - 6.0)
+                f.add_load(PointLoad(mid, float(x), px=0.0, py=-P, case=f"P{i}"))
+    direct = solve(f, [f"P{i}" for i in range(len(fronts))])
+    inside_only = 0
+    for col in ("C0", "C1", "C2"):
+        e = env[col]
+        M = np.array([[direct[f"P{i}"].members[col].moment(x) for x in e.x] for i in range(len(fronts))])
+        scale = np.abs(M).max()
+        for key, sg in (("M_max", 1), ("M_min", -1)):
+            want = (sg * M).argmax(axis=0)  # the governing placement at each point
+            inside_only += len(set(want[1:-1]) - {want[0], want[-1]})
+            assert np.allclose(e.values[key], M[want, np.arange(len(e.x))], rtol=0, atol=1e-9 * scale)
+            got = [fronts.index((fr, int(dr))) for fr, dr in zip(e.front[key], e.direction[key])]
+            assert np.allclose(M[got, np.arange(len(e.x))], e.values[key], rtol=0, atol=1e-9 * scale)
+    assert inside_only >= 10  # the hard case: many points governed by placements governing no end
