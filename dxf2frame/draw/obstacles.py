@@ -23,6 +23,8 @@ from typing import TYPE_CHECKING, Callable, Iterable, Sequence
 import numpy as np
 import shapely
 
+from .occupancy import Occupancy
+
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
 
@@ -242,7 +244,7 @@ def _extents(polys: list[np.ndarray], boxes: Iterable[Box]) -> Box | None:
 
 
 def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float, *,
-              tree: "shapely.STRtree | None" = None, inside: bool = True) -> tuple[float, float]:
+              tree: "shapely.STRtree | Occupancy | None" = None, inside: bool = True) -> tuple[float, float]:
     """Shift (dx, dy) that moves ``box`` to the nearest place touching none
     of ``obstacles`` (shapely geometries) with ``gap`` around it.
 
@@ -250,7 +252,8 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float, *,
     when none is free, the nearest place just outside the extents (right,
     below, left or above; farther out past obstacles beyond the extents).
     (0, 0) when the box is free where it is.  ``tree``: more obstacles,
-    indexed once by the caller (many boxes placed against one drawing);
+    indexed once by the caller (many boxes placed against one drawing),
+    as an STRtree or an :class:`~dxf2frame.draw.occupancy.Occupancy`;
     ``inside`` False: no search inside the extents (the caller searched
     near the box already), only the places outside them.
     """
@@ -261,8 +264,13 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float, *,
     def free(x0: np.ndarray, y0: np.ndarray) -> np.ndarray:
         ok = np.ones(len(x0), dtype=bool)
         if len(x0):
-            cand = shapely.box(x0 - gap, y0 - gap, x0 + w + gap, y0 + h + gap)
+            lo_x, lo_y, hi_x, hi_y = x0 - gap, y0 - gap, x0 + w + gap, y0 + h + gap
+            cand = None
             for t in trees:
+                if isinstance(t, Occupancy):
+                    ok &= t.free(lo_x, lo_y, hi_x, hi_y)
+                    continue
+                cand = shapely.box(lo_x, lo_y, hi_x, hi_y) if cand is None else cand
                 ok[t.query(cand, predicate="intersects")[0]] = False
         return ok
 
@@ -316,7 +324,8 @@ def keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content: 
     ext = content if obst.extents is None else (
         min(content[0], obst.extents[0]), min(content[1], obst.extents[1]),
         max(content[2], obst.extents[2]), max(content[3], obst.extents[3]))
-    blocked = list(obst.geoms) + ours
+    fixed = Occupancy(list(obst.geoms) + list(ours), gap)    # indexed once for every group
+    blocked: list = []                                      # the groups placed so far
     for ents in groups:
         if not ents:
             continue
@@ -324,7 +333,7 @@ def keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content: 
         if not b.has_data:
             continue
         box = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y)
-        dx, dy = free_spot(box, blocked, ext, gap)
+        dx, dy = free_spot(box, blocked, ext, gap, tree=fixed)
         if dx or dy:
             for e in ents:
                 e.translate(dx, dy, 0.0)

@@ -60,6 +60,7 @@ from .curves import (DIAGRAMS, FrameGeom, frame_geom, chord_tolerance, sample_cu
                              sample_member_by_member, segment_max, straight_chains, thin, zero_crossings)
 from ..errors import SettingsError
 from .obstacles import DrawingObstacles, drawing_obstacles, free_spot, keep_clear
+from .occupancy import Occupancy
 from .labels import (OTHER_SIGN, PRIORITY, SAME_AT_JOINT, Box, LabelPlacer, as_lines, drawing_texts,
                      label_requests, label_font, Label, centre_lift, merge_at_joints, geometries_near, place_labels, Spot, text_width)
 from .legend import draw_legend_and_notes, notes_paragraphs
@@ -518,7 +519,7 @@ def annotate_results(
                                    content=content, keys=keys, font=font,
                                    extra=_schedule_notes(schedule, uf) + probe_notes,
                                    warnings=summary.warnings)
-    placed = [shapely.box(*b) for cell in taken.values() for b in cell]
+    placed = list(shapely.box(*taken_boxes(taken).T))
     keep_clear(groups, obst, list(members) + [shapely.box(*b) for b in boxes] + placed,
                 content, 0.8 * h)
     summary.entities = pen.count
@@ -548,26 +549,33 @@ def _far_spots(obst: DrawingObstacles, ours: list, taken: dict, frame_box: Box, 
     ``ours`` (member lines, outlines, arrows) and of every label placed so
     far (:func:`dxf2frame.draw.obstacles.free_spot`): within widening
     windows around the box up to ``near``, else just outside the drawing's
-    extents.  The drawing's content is indexed once."""
+    extents.  The drawing's content and ``ours`` are indexed once (an
+    :class:`~dxf2frame.draw.occupancy.Occupancy` with cells of ``near``/40,
+    a quarter text height)."""
     ext = frame_box if obst.extents is None else (
         min(frame_box[0], obst.extents[0]), min(frame_box[1], obst.extents[1]),
         max(frame_box[2], obst.extents[2]), max(frame_box[3], obst.extents[3]))
-    fixed = [g for g in list(obst.geoms) + list(ours) if g is not None and not g.is_empty]
-    tree = shapely.STRtree(fixed) if fixed else None
+    tree = Occupancy(list(obst.geoms) + list(ours), near / 40.0)
 
     def far(box: Box) -> tuple[float, float] | None:
+        placed = taken_boxes(taken)
         for r in (0.3 * near, near):                   # widening windows around the box (past the extents too)
             window = (box[0] - r, box[1] - r, box[2] + r, box[3] + r)
-            placed = [shapely.box(*b) for cell in taken.values() for b in cell
-                      if b[0] < window[2] and b[2] > window[0] and b[1] < window[3] and b[3] > window[1]]
-            dx, dy = free_spot(box, placed, window, gap, tree=tree)
+            inside = placed[(placed[:, 0] < window[2]) & (placed[:, 2] > window[0])
+                            & (placed[:, 1] < window[3]) & (placed[:, 3] > window[1])]
+            dx, dy = free_spot(box, list(shapely.box(*inside.T)), window, gap, tree=tree)
             if (window[0] <= box[0] + dx and box[2] + dx <= window[2]
                     and window[1] <= box[1] + dy and box[3] + dy <= window[3]):
                 return dx, dy                         # a free place near
-        placed = [shapely.box(*b) for cell in taken.values() for b in cell]
-        return free_spot(box, placed, ext, gap, tree=tree, inside=False)   # outside the drawing's extents
+        return free_spot(box, list(shapely.box(*placed.T)), ext, gap, tree=tree, inside=False)   # outside the extents
 
     return far
+
+
+def taken_boxes(taken: dict) -> np.ndarray:
+    """The boxes of a placer grid (cell -> boxes; a box is listed in every
+    cell it covers) once each, as a (k, 4) array."""
+    return np.array(list({b for cell in taken.values() for b in cell}), dtype=float).reshape(-1, 4)
 
 
 def _drawing_content(doc, result_layers) -> DrawingObstacles:
