@@ -22,6 +22,7 @@ from typing import TYPE_CHECKING, Callable, Iterable, Sequence
 
 import numpy as np
 import shapely
+from ezdxf import bbox
 
 from .occupancy import Occupancy
 
@@ -36,6 +37,7 @@ _BIG_INSERT = 0.4          # a block reference wider and taller than this fracti
 _MAX_CANDIDATES = 40_000   # positions tried inside the extents for one box
 _FAR = 1e12                # coordinates beyond this [drawing units] are no drawing's content (as in the preview)
 _OUTSIDE_STEPS = 64        # positions tried outward from each side of the extents
+_INVISIBLE = 1             # the flag of an invisible attribute (DXF group 70)
 
 
 @dataclass
@@ -88,8 +90,6 @@ def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
     layers); ``member_layer(name)``: True for the frame's member layers,
     whose lines and polylines are left out (the writer has them).
     """
-    from ezdxf import bbox
-
     cache = bbox.Cache()
     polys: list[np.ndarray] = []
     boxes: list[Box] = []
@@ -105,12 +105,15 @@ def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
             continue
         others.append(e)
     _boxes_of(others, boxes, cache)
-    polys = [p for p in polys if np.all(np.abs(p) < _FAR)]
-    boxes = [b for b in boxes if np.all(np.abs(b) < _FAR)]         # NaN (unmeasured) fails too
-    ext = _extents(polys, boxes)
+    polys = [p for p in polys if np.abs(p).max() < _FAR]
+    measured = _boxes_within_reach(boxes)
+    ext = _extents(polys, measured)
     if ext is not None:
+        # the unmeasured boxes stay in line with their entities here (NaN), dropped after
         boxes = _expand_big_inserts(others, boxes, ext, polys, cache)
-        polys = [p for p in polys if np.all(np.abs(p) < _FAR)]
+        polys = [p for p in polys if np.abs(p).max() < _FAR]
+    else:
+        boxes = measured
     geoms = list(shapely.box(*np.array(boxes, dtype=float).T)) if boxes else []
     if polys:
         idx = np.repeat(np.arange(len(polys)), [len(p) for p in polys])
@@ -119,8 +122,6 @@ def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
 
 
 def _boxes_of(entities: Sequence, boxes: list[Box], cache) -> None:
-    from ezdxf import bbox
-
     blocks: dict[str, Box | None] = {}
     texts: dict[tuple, Box | None] = {}
     for e in entities:
@@ -144,8 +145,6 @@ def _insert_box(e, blocks: dict[str, Box | None], texts: dict[tuple, Box | None]
     content's own (conservative for placement).  None where this does not
     apply (a MINSERT grid, a reference out of the plane, a block that
     cannot be measured): the caller measures the whole reference."""
-    from ezdxf import bbox
-
     try:
         if e.mcount > 1 or tuple(e.dxf.get("extrusion", (0.0, 0.0, 1.0))) != (0.0, 0.0, 1.0):
             return None
@@ -163,8 +162,9 @@ def _insert_box(e, blocks: dict[str, Box | None], texts: dict[tuple, Box | None]
             pts = list(e.matrix44().transform_vertices([(x0, y0), (x1, y0), (x1, y1), (x0, y1)]))
         xs, ys = [p.x for p in pts], [p.y for p in pts]
         for a in e.attribs:
-            if not a.is_invisible and a.dxf.get("text", "").strip():
-                ab = _attrib_box(a, texts)
+            at = a.dxf.all_existing_dxf_attribs()          # one copy, not a lookup per key
+            if not at.get("flags", 0) & _INVISIBLE and str(at.get("text", "")).strip():
+                ab = _attrib_box(a, at, texts)
                 if ab is not None:
                     xs += [ab[0], ab[2]]
                     ys += [ab[1], ab[3]]
@@ -175,25 +175,24 @@ def _insert_box(e, blocks: dict[str, Box | None], texts: dict[tuple, Box | None]
     return (min(xs), min(ys), max(xs), max(ys))
 
 
-def _attrib_box(a, texts: dict[tuple, Box | None]) -> Box | None:
-    """The box of one attribute text.  ezdxf measures each distinct look
-    (text, style, height, width, rotation, alignment) once; the box moves
-    with the point the text hangs from (the alignment point for aligned
-    text, else the insertion point).  A text stretched between two points
-    (aligned, fit), out of the plane or carrying MTEXT is measured alone."""
-    from ezdxf import bbox
-
-    dxf = a.dxf
+def _attrib_box(a, dxf: dict, texts: dict[tuple, Box | None]) -> Box | None:
+    """The box of one attribute text (``dxf``: its DXF attributes as set).
+    ezdxf measures each distinct look (text, style, height, width,
+    rotation, alignment) once; the box moves with the point the text hangs
+    from (the alignment point for aligned text, else the insertion point).
+    A text stretched between two points (aligned, fit), out of the plane or
+    carrying MTEXT is measured alone."""
     halign, valign = dxf.get("halign", 0), dxf.get("valign", 0)
     plain = (halign not in (3, 5) and tuple(dxf.get("extrusion", (0.0, 0.0, 1.0))) == (0.0, 0.0, 1.0)
              and not a.has_embedded_mtext_entity)
     if not plain:
         b = bbox.extents([a], fast=True)
         return (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y) if b.has_data else None
-    hangs = (halign, valign) != (0, 0) and dxf.hasattr("align_point")
-    at = dxf.align_point if hangs else dxf.insert
-    key = (dxf.text, dxf.get("style", ""), dxf.get("height", 0.0), dxf.get("width", 1.0), dxf.get("rotation", 0.0),
-           dxf.get("oblique", 0.0), halign, valign, dxf.get("text_generation_flag", 0), hangs)
+    hangs = (halign, valign) != (0, 0) and "align_point" in dxf
+    at = dxf["align_point"] if hangs else dxf.get("insert", a.dxf.insert)
+    key = (dxf.get("text"), dxf.get("style", ""), dxf.get("height", 0.0), dxf.get("width", 1.0),
+           dxf.get("rotation", 0.0), dxf.get("oblique", 0.0), halign, valign, dxf.get("text_generation_flag", 0),
+           hangs)
     if key not in texts:
         b = bbox.extents([a], fast=True)
         texts[key] = (b.extmin.x - at.x, b.extmin.y - at.y, b.extmax.x - at.x, b.extmax.y - at.y) \
@@ -225,21 +224,30 @@ def _expand_big_inserts(entities: Sequence, boxes: list[Box], ext: Box, polys: l
             else:
                 rest.append(p)
         _boxes_of(rest, out, cache)
-    return [b for b in out if np.all(np.abs(b) < _FAR)]
+    return _boxes_within_reach(out)
 
 
-def _extents(polys: list[np.ndarray], boxes: Iterable[Box]) -> Box | None:
-    lo, hi = [], []
-    for p in polys:
-        lo.append(p.min(0))
-        hi.append(p.max(0))
-    for b in boxes:
-        if np.all(np.isfinite(b)):
-            lo.append(np.array(b[:2]))
-            hi.append(np.array(b[2:]))
-    if not lo:
+def _boxes_within_reach(boxes: list[Box]) -> list[Box]:
+    """The boxes measured (no NaN) and within ``_FAR`` of the origin."""
+    if not boxes:
+        return []
+    b = np.array(boxes, dtype=float).reshape(-1, 4)
+    with np.errstate(invalid="ignore"):
+        keep = np.all(np.abs(b) < _FAR, axis=1)
+    return [boxes[k] for k in np.flatnonzero(keep)]
+
+
+def _extents(polys: list[np.ndarray], boxes: Sequence[Box]) -> Box | None:
+    """(xmin, ymin, xmax, ymax) of the polylines and the measured boxes, or None."""
+    parts = [np.vstack(polys)] if polys else []
+    if len(boxes):
+        b = np.array(boxes, dtype=float).reshape(-1, 4)
+        b = b[np.all(np.isfinite(b), axis=1)]
+        parts += [b[:, :2], b[:, 2:]]
+    if not parts or not sum(len(q) for q in parts):
         return None
-    a, z = np.min(lo, axis=0), np.max(hi, axis=0)
+    xy = np.vstack(parts)
+    a, z = xy.min(0), xy.max(0)
     return (float(a[0]), float(a[1]), float(z[0]), float(z[1]))
 
 
@@ -319,8 +327,6 @@ def keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content: 
     tool drew: member lines, diagram extents, labels) and of the groups
     placed before it; outside the drawing's extents when nothing inside is
     free."""
-    from ezdxf import bbox
-
     ext = content if obst.extents is None else (
         min(content[0], obst.extents[0]), min(content[1], obst.extents[1]),
         max(content[2], obst.extents[2]), max(content[3], obst.extents[3]))
