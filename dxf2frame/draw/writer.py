@@ -56,8 +56,8 @@ from ezdxf.enums import TextEntityAlignment
 
 from ..atomic import atomic_path, same_file
 from ..drawing_file import open_document
-from .curves import (DIAGRAMS, FrameGeom, frame_geom, chord_tolerance, sample_curves, drawn_curves, FlatCurve, has_batch, sample_batch,
-                             sample_member_by_member, segment_max, straight_chains, thin, zero_crossings)
+from .curves import (DIAGRAMS, FrameGeom, frame_geom, chain_polylines, chord_tolerance, sample_curves, drawn_curves, FlatCurve, has_batch, sample_batch,
+                             sample_member_by_member, segment_max, straight_chains, zero_crossings)
 from ..errors import SettingsError
 from .obstacles import DrawingObstacles, drawing_obstacles, free_spot, keep_clear
 from .occupancy import Occupancy
@@ -908,22 +908,9 @@ def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
     moved = base + factor * disp
     tol = chord_tolerance(h, factor * np.maximum.reduceat(mag, bounds[:-1]), geom.size)
     chains = chains if chains is not None else straight_chains(si, ei, geom.t)
-    seq = np.concatenate([np.asarray(c, dtype=int) for c in chains])
-    head = np.zeros(len(seq), dtype=bool)
-    head[np.cumsum([0] + [len(c) for c in chains[:-1]])] = True
-    first = bounds[seq] + ~head                            # a joint is drawn as the previous element's end
-    count = bounds[seq + 1] - first
-    at = np.cumsum(count) - count
-    idx = np.repeat(first - at, count) + np.arange(int(count.sum()))
-    pts = moved[idx]
-    lengths = np.add.reduceat(count, np.flatnonzero(head))
-    ends = np.cumsum(lengths)
-    anchor = np.zeros(len(pts), dtype=bool)
-    anchor[ends - 1] = True
-    anchor[ends - lengths] = True
-    keep = thin(pts, anchor, np.repeat(tol[seq], count))
-    for a, b in zip(ends - lengths, ends):
-        pen.polyline(pts[a:b][keep[a:b]], layer, dashed=True)
+    runs, pts = chain_polylines(moved, bounds, chains, tol)
+    for run in runs:
+        pen.polyline(run, layer, dashed=True)
     summary.deflection_factor = factor
     summary.deflection_result = res.name
     if labels is not None and uf is not None:
