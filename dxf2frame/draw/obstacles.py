@@ -74,12 +74,23 @@ def _linework(e) -> np.ndarray | None:
         s, t = e.dxf.start, e.dxf.end
         return np.array([(s.x, s.y), (t.x, t.y)], dtype=float)
     if t == "LWPOLYLINE":
-        pts = np.array([p[:3] for p in e.get_points("xyb")], dtype=float)
+        pts = _xyb(e)
         if len(pts) < 2 or np.any(pts[:, 2]) or e.dxf.get("const_width", 0):
             return None
         xy = pts[:, :2]
         return np.vstack([xy, xy[:1]]) if e.closed else xy
     return None
+
+
+def _xyb(e) -> np.ndarray:
+    """(k, 3) x, y, bulge of an LWPOLYLINE's vertices, read from its vertex
+    array at once (ezdxf keeps x, y, start width, end width, bulge per
+    vertex); through ``get_points`` where that array is not there."""
+    try:
+        v = np.asarray(e.lwpoints.values, dtype=float).reshape(-1, 5)
+        return v[:, [0, 1, 4]]
+    except Exception:  # noqa: BLE001 - another vertex store: the public call
+        return np.array([p[:3] for p in e.get_points("xyb")], dtype=float).reshape(-1, 3)
 
 
 def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
