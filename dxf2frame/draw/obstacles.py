@@ -323,9 +323,10 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float, *,
         (ex0 - 2 * gap - w - k * (w + gap), np.full_like(k, top)),
         (np.full_like(k, left), ey1 + 2 * gap + k * (h + gap)),
     ]
+    clear = free(np.concatenate([xs for xs, _ys in sides]), np.concatenate([ys for _xs, ys in sides]))
     outside = []
-    for xs, ys in sides:
-        ok = np.flatnonzero(free(xs, ys))
+    for (xs, ys), ok_side in zip(sides, clear.reshape(len(sides), -1)):       # one test for all four sides
+        ok = np.flatnonzero(ok_side)
         j = int(ok[0]) if len(ok) else len(k) - 1
         outside.append((float(xs[j]), float(ys[j])))
     best = min(outside, key=lambda p: np.hypot(p[0] - box[0], p[1] - box[1]))

@@ -64,6 +64,7 @@ class Occupancy:
         self._origin = lo
         self._cell = cell
         self._shape = np.floor((hi - lo) / cell).astype(int) + 1
+        self._nx, self._ny = (int(v) for v in self._shape)
         # rounding of (x - origin) / cell, in cells, with room to spare
         self._eps = _MARGIN + 1e-12 * float(np.max(np.abs(np.r_[lo, hi]))) / cell
         sure_boxes, maybe_boxes, sure_points = self._parts(geoms, b)
@@ -175,18 +176,17 @@ class Occupancy:
 
     def _sum(self, sat: np.ndarray, i0, j0, i1, j1) -> np.ndarray:
         """Touched cells in the inclusive ranges (clipped to the grid; empty ranges count 0)."""
-        nx, ny = (int(s) for s in self._shape)
-        a0 = np.clip(i0, 0, nx).astype(int)
-        b0 = np.clip(j0, 0, ny).astype(int)
-        a1 = np.clip(i1 + 1, 0, nx).astype(int)
-        b1 = np.clip(j1 + 1, 0, ny).astype(int)
-        a1, b1 = np.maximum(a1, a0), np.maximum(b1, b0)
+        nx, ny = self._nx, self._ny
+        a0 = np.minimum(np.maximum(i0, 0), nx).astype(np.intp)
+        b0 = np.minimum(np.maximum(j0, 0), ny).astype(np.intp)
+        a1 = np.maximum(np.minimum(i1 + 1, nx).astype(np.intp), a0)
+        b1 = np.maximum(np.minimum(j1 + 1, ny).astype(np.intp), b0)
         return sat[a1, b1] - sat[a0, b1] - sat[a1, b0] + sat[a0, b0]
 
     def free(self, x0: np.ndarray, y0: np.ndarray, x1: np.ndarray, y1: np.ndarray) -> np.ndarray:
         """Mask of the boxes [x0, x1] x [y0, y1] (arrays of one length) that
         touch no obstacle (closed sets, as shapely's ``intersects``)."""
-        x0, y0, x1, y1 = (np.asarray(q, dtype=float).ravel() for q in np.broadcast_arrays(x0, y0, x1, y1))
+        x0, y0, x1, y1 = (np.ravel(q).astype(float, copy=False) for q in np.broadcast_arrays(x0, y0, x1, y1))
         ok = np.ones(len(x0), dtype=bool)
         if self.tree is None or not len(x0):
             return ok
