@@ -133,7 +133,7 @@ def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
 
 
 def _boxes_of(entities: Sequence, boxes: list[Box], cache) -> None:
-    blocks: dict[str, Box | None] = {}
+    blocks: dict = {}                          # block name -> its content's box; (name, scales, rotation) -> placed box
     texts: dict[tuple, Box | None] = {}
     for e in entities:
         got = _insert_box(e, blocks, texts) if e.dxftype() == "INSERT" else None
@@ -146,20 +146,23 @@ def _boxes_of(entities: Sequence, boxes: list[Box], cache) -> None:
         boxes.append(got if got is not None else (np.nan,) * 4)
 
 
-def _insert_box(e, blocks: dict[str, Box | None], texts: dict[tuple, Box | None]) -> Box | None:
+def _insert_box(e, blocks: dict, texts: dict[tuple, Box | None]) -> Box | None:
     """The box of a plain block reference (one cell, in the drawing's plane):
-    the box of its block's content, measured once per block name
-    (``blocks``), with its four corners placed by the reference's transform,
-    joined with the boxes of its visible non-empty attributes (each
-    measured once per text and look, ``texts``: :func:`_attrib_box`).  A rotated
-    reference gets the box of the turned box, a little larger than its
-    content's own (conservative for placement).  None where this does not
-    apply (a MINSERT grid, a reference out of the plane, a block that
-    cannot be measured): the caller measures the whole reference."""
+    the box of its block's content, measured once per block name, with its
+    four corners placed by the reference's transform (worked out once per
+    block name, scales and rotation, then moved to each insertion point;
+    both kept in ``blocks``), joined with the boxes of its visible
+    non-empty attributes (each measured once per text and look, ``texts``:
+    :func:`_attrib_box`).  A rotated reference gets the box of the turned
+    box, a little larger than its content's own (conservative for
+    placement).  None where this does not apply (a MINSERT grid, a
+    reference out of the plane, a block that cannot be measured): the
+    caller measures the whole reference."""
     try:
-        if e.mcount > 1 or tuple(e.dxf.get("extrusion", (0.0, 0.0, 1.0))) != (0.0, 0.0, 1.0):
+        dxf = e.dxf.all_existing_dxf_attribs()              # one copy, not a lookup per key
+        if e.mcount > 1 or tuple(dxf.get("extrusion", (0.0, 0.0, 1.0))) != (0.0, 0.0, 1.0):
             return None
-        name = e.dxf.get("name", "")
+        name = dxf.get("name", "")
         if name not in blocks:
             blk = e.doc.blocks.get(name) if e.doc is not None else None
             if blk is None:
@@ -167,15 +170,25 @@ def _insert_box(e, blocks: dict[str, Box | None], texts: dict[tuple, Box | None]
             b = bbox.extents((x for x in blk if x.dxftype() != "ATTDEF"), fast=True)
             blocks[name] = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y) if b.has_data else None
         local = blocks[name]
-        pts = []
+        at = dxf.get("insert", (0.0, 0.0, 0.0))
+        xs, ys = [], []
         if local is not None:
-            x0, y0, x1, y1 = local
-            pts = list(e.matrix44().transform_vertices([(x0, y0), (x1, y0), (x1, y1), (x0, y1)]))
-        xs, ys = [p.x for p in pts], [p.y for p in pts]
+            # in the drawing's plane the transform is linear part + insertion point:
+            # the turned and scaled box, relative to the insertion point, is the same
+            # for every reference of one block, scale and rotation
+            look = (name, dxf.get("xscale", 1.0), dxf.get("yscale", 1.0), dxf.get("zscale", 1.0),
+                    dxf.get("rotation", 0.0))
+            if look not in blocks:
+                x0, y0, x1, y1 = local
+                pts = list(e.matrix44().transform_vertices([(x0, y0), (x1, y0), (x1, y1), (x0, y1)]))
+                blocks[look] = (min(p.x for p in pts) - at[0], min(p.y for p in pts) - at[1],
+                                max(p.x for p in pts) - at[0], max(p.y for p in pts) - at[1])
+            r = blocks[look]
+            xs, ys = [r[0] + at[0], r[2] + at[0]], [r[1] + at[1], r[3] + at[1]]
         for a in e.attribs:
-            at = a.dxf.all_existing_dxf_attribs()          # one copy, not a lookup per key
-            if not at.get("flags", 0) & _INVISIBLE and str(at.get("text", "")).strip():
-                ab = _attrib_box(a, at, texts)
+            adxf = a.dxf.all_existing_dxf_attribs()
+            if not adxf.get("flags", 0) & _INVISIBLE and str(adxf.get("text", "")).strip():
+                ab = _attrib_box(a, adxf, texts)
                 if ab is not None:
                     xs += [ab[0], ab[2]]
                     ys += [ab[1], ab[3]]
