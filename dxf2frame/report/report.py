@@ -62,6 +62,7 @@ from __future__ import annotations
 import csv
 import json
 import math
+import re
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping, Sequence
@@ -857,6 +858,9 @@ def write_json(report: Mapping, path: Path | str, csv_path: Path | str | None = 
                 _csv_rows(fc, res)
 
 
+_NEEDS_QUOTES = re.compile('[,"\r\n]').search      # a CSV cell holding one of these is quoted
+
+
 def _csv_text(values: Sequence) -> list[str]:
     """CSV cells of one column as the csv module writes them (excel
     dialect, minimal quoting): None empty, floats by repr, a string quoted
@@ -868,7 +872,7 @@ def _csv_text(values: Sequence) -> list[str]:
         t = cache.get(v) if v is not None else ""
         if t is None:
             s = repr(v) if isinstance(v, float) else str(v)
-            if any(c in s for c in ',"\r\n'):
+            if _NEEDS_QUOTES(s):
                 s = '"' + s.replace('"', '""') + '"'
             t = cache[v] = s
         out.append(t)
