@@ -32,7 +32,7 @@ import shapely
 
 __all__ = ["Occupancy"]
 
-_MAX_CELLS = 4_000_000     # cells of one grid; a wider spread gets larger cells (more exact tests)
+_MAX_CELLS = 1_000_000     # cells of one grid (4 MB a table); a wider spread gets larger cells (more exact tests)
 _MARGIN = 1e-7             # safety margin against rounding [cells], plus a relative part of the coordinates
 
 
@@ -162,14 +162,17 @@ class Occupancy:
         j0 = np.clip(r[:, 1], 0, ny).astype(int)
         i1 = np.clip(r[:, 2] + 1, 0, nx).astype(int)
         j1 = np.clip(r[:, 3] + 1, 0, ny).astype(int)
-        d = np.zeros((nx + 1, ny + 1), dtype=np.int64)          # difference array of the ranges
+        d = np.zeros((nx + 1, ny + 1), dtype=np.int32)          # difference array of the ranges
         np.add.at(d, (i0, j0), 1)
         np.add.at(d, (i1, j0), -1)
         np.add.at(d, (i0, j1), -1)
         np.add.at(d, (i1, j1), 1)
-        count = (d.cumsum(0).cumsum(1) > 0).astype(np.int64)[:nx, :ny]   # cells touched
-        sat = np.zeros((nx + 1, ny + 1), dtype=np.int64)
-        sat[1:, 1:] = count.cumsum(0).cumsum(1)
+        np.cumsum(d, axis=0, out=d)
+        np.cumsum(d, axis=1, out=d)
+        count = (d[:nx, :ny] > 0).astype(np.int32)               # cells touched
+        sat = np.zeros((nx + 1, ny + 1), dtype=np.int32)
+        np.cumsum(count, axis=0, out=count)
+        np.cumsum(count, axis=1, out=sat[1:, 1:])
         return sat
 
     # -- testing ---------------------------------------------------------------
