@@ -56,15 +56,18 @@ def test_same_answer_as_shapely_intersects(seed, cell):
     y0[m // 4: m // 2] = xy[pick[m // 4:], 1] - h[m // 4: m // 2]
     x1 = x0 + rng.uniform(0.0, 4.0, m)
     y1 = y0 + h
-    got = Occupancy(geoms, cell).free(x0, y0, x1, y1)
+    occ = Occupancy(geoms, cell)
+    few = occ.free(x0[:5], y0[:5], x1[:5], y1[:5])                 # a handful: straight to the STRtree
+    got = occ.free(x0, y0, x1, y1)                                 # many: through the grids
     assert np.array_equal(got, _shapely_free(geoms, x0, y0, x1, y1))
+    assert np.array_equal(few, got[:5])
 
 
 @settings(max_examples=60, deadline=None)
 @given(st.lists(st.tuples(st.integers(-8, 8), st.integers(-8, 8), st.integers(0, 4), st.integers(0, 4)),
                 min_size=1, max_size=12),
        st.lists(st.tuples(st.integers(-10, 10), st.integers(-10, 10), st.integers(0, 5), st.integers(0, 5)),
-                min_size=1, max_size=40),
+                min_size=20, max_size=60),
        st.sampled_from([0.25, 0.5, 1.0, 3.0]))
 def test_boxes_and_lines_on_the_grid_lines_themselves(obst, boxes, cell):
     """Integer coordinates with cells of 1/4 to 3 units: obstacles and

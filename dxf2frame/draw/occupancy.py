@@ -21,7 +21,9 @@ are all untouched (maybe) is free; only the few boxes in between (an
 obstacle in the thin band of cells along the box's edge) are tested
 exactly, by the STRtree.  Box and obstacle both count as closed sets, as
 shapely's ``intersects`` does, so the answer equals the STRtree's
-(the grids only decide where the answer is certain).
+(the grids only decide where the answer is certain).  The grids are made
+at the first call with more than a handful of boxes: a few boxes placed
+against a big drawing go straight to the STRtree.
 """
 from __future__ import annotations
 
@@ -33,6 +35,7 @@ import shapely
 __all__ = ["Occupancy"]
 
 _MAX_CELLS = 1_000_000     # cells of one grid (4 MB a table); a wider spread gets larger cells (more exact tests)
+_FEW = 16                  # boxes tested straight by the STRtree, before the grids are made
 _MARGIN = 1e-7             # safety margin against rounding [cells], plus a relative part of the coordinates
 
 
@@ -50,14 +53,20 @@ class Occupancy:
     def __init__(self, obstacles: Sequence, cell: float) -> None:
         geoms = np.array([g for g in obstacles if g is not None and not g.is_empty], dtype=object)
         self.tree = shapely.STRtree(geoms) if len(geoms) else None
+        self._geoms = geoms
+        self._want_cell = float(cell) if cell > 0 else 1.0
         self._sure = self._maybe = None
-        if not len(geoms):
-            return
+        self._built = not len(geoms)           # the grids are made at the first call with many boxes
+
+    def _build(self) -> None:
+        """Make the two grids (see the module docstring)."""
+        self._built = True
+        geoms = self._geoms
         b = shapely.bounds(geoms)
         if not np.all(np.isfinite(b)):
             return                                         # no grid: every box is tested exactly
         lo, hi = b[:, :2].min(0), b[:, 2:].max(0)
-        cell = float(cell) if cell > 0 else 1.0
+        cell = self._want_cell
         span = np.maximum(hi - lo, cell)
         if np.prod(span / cell + 1) > _MAX_CELLS:
             cell = float(np.sqrt(np.prod(span) / _MAX_CELLS)) * 1.01
@@ -162,11 +171,10 @@ class Occupancy:
         j0 = np.clip(r[:, 1], 0, ny).astype(int)
         i1 = np.clip(r[:, 2] + 1, 0, nx).astype(int)
         j1 = np.clip(r[:, 3] + 1, 0, ny).astype(int)
-        d = np.zeros((nx + 1, ny + 1), dtype=np.int32)          # difference array of the ranges
-        np.add.at(d, (i0, j0), 1)
-        np.add.at(d, (i1, j0), -1)
-        np.add.at(d, (i0, j1), -1)
-        np.add.at(d, (i1, j1), 1)
+        # difference array of the ranges: +1 at two corners, -1 at the other two, in one count
+        corners = np.concatenate([i0 * (ny + 1) + j0, i1 * (ny + 1) + j1, i1 * (ny + 1) + j0, i0 * (ny + 1) + j1])
+        signs = np.repeat([1.0, -1.0], 2 * len(i0))
+        d = np.bincount(corners, weights=signs, minlength=(nx + 1) * (ny + 1)).astype(np.int32).reshape(nx + 1, ny + 1)
         np.cumsum(d, axis=0, out=d)
         np.cumsum(d, axis=1, out=d)
         count = (d[:nx, :ny] > 0).astype(np.int32)               # cells touched
@@ -193,6 +201,8 @@ class Occupancy:
         ok = np.ones(len(x0), dtype=bool)
         if self.tree is None or not len(x0):
             return ok
+        if not self._built and len(x0) > _FEW:
+            self._build()
         if self._sure is None:
             undecided = np.arange(len(x0))
         else:
