@@ -271,8 +271,7 @@ def _extents(polys: list[np.ndarray], boxes: Sequence[Box]) -> Box | None:
     if not parts or not sum(len(q) for q in parts):
         return None
     xy = np.vstack(parts)
-    a, z = xy.min(0), xy.max(0)
-    return (float(a[0]), float(a[1]), float(z[0]), float(z[1]))
+    return (float(xy[:, 0].min()), float(xy[:, 1].min()), float(xy[:, 0].max()), float(xy[:, 1].max()))
 
 
 def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float, *,

@@ -65,7 +65,8 @@ class Occupancy:
         b = shapely.bounds(geoms)
         if not np.all(np.isfinite(b)):
             return                                         # no grid: every box is tested exactly
-        lo, hi = b[:, :2].min(0), b[:, 2:].max(0)
+        lo = np.array([b[:, 0].min(), b[:, 1].min()])            # by columns: a tall array reduces slowly along axis 0
+        hi = np.array([b[:, 2].max(), b[:, 3].max()])
         cell = self._want_cell
         span = np.maximum(hi - lo, cell)
         if np.prod(span / cell + 1) > _MAX_CELLS:
