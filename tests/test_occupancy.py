@@ -100,3 +100,21 @@ def test_no_obstacles_every_box_is_free():
     occ = Occupancy([None, shapely.LineString()], 1.0)
     assert Occupancy([], 1.0).free([0.0], [0.0], [1.0], [1.0]).all()
     assert occ.free([0.0, 5.0], [0.0, 5.0], [1.0, 6.0], [1.0, 6.0]).all()
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_free_spot_finds_the_same_place_through_either_index(seed):
+    # the nearest free place for a box, inside the extents and outside them, is the same
+    # whether the obstacles are indexed by shapely's STRtree or by the occupancy grid
+    from dxf2frame.draw.obstacles import free_spot
+
+    rng = np.random.default_rng(100 + seed)
+    geoms = _obstacles(rng, 300)
+    ext = (0.0, 0.0, 20.0, 20.0)
+    for _ in range(20):
+        x, y = rng.uniform(0, 18, 2)
+        box = (x, y, x + rng.uniform(0.5, 3), y + rng.choice([0.5, 1.0]))
+        for inside in (True, False):
+            want = free_spot(box, [], ext, 0.1, tree=shapely.STRtree(geoms), inside=inside)
+            got = free_spot(box, [], ext, 0.1, tree=Occupancy(geoms, 0.2), inside=inside)
+            assert got == want

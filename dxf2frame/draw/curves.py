@@ -34,7 +34,8 @@ at every floor) are drawn as one run: one closed outline per diagram
 (baseline start, the curve along every element of the run, baseline end,
 for an envelope the min curve back), stepping across the member where
 the value jumps at a joint, as a continuous diagram is drawn by hand;
-and one deflected-shape polyline.  Fills stay per element.
+and one deflected-shape polyline (and one buckled-shape polyline,
+:func:`chain_polylines`).  Fills stay per element.
 """
 from __future__ import annotations
 
