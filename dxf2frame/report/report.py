@@ -846,10 +846,12 @@ def write_json(report: Mapping, path: Path | str, csv_path: Path | str | None = 
             atomic_open(csv_path, "w", encoding="utf-8", newline="") as fc:
         csv.writer(fc).writerow(CSV_COLUMNS)
 
+        own: dict = {}                                # the members' own cells, shared by the results
+
         def on_block(table: Table, part: Table) -> None:
             res = owner.get(id(table))
             if res is not None:
-                _csv_rows(fc, res, part)
+                _csv_rows(fc, res, part, own)
 
         for chunk in _json_chunks(report, on_block):
             fh.write(chunk)
@@ -879,16 +881,37 @@ def _csv_text(values: Sequence) -> list[str]:
     return out
 
 
-def _csv_rows(fc: Any, res: Mapping, part: Table | None = None) -> None:
+_OWN_CSV = ("id", "layer", "handle", "length")      # the member's own CSV columns, the same in every result
+
+
+def _own_cells(blk: Table, cache: dict | None) -> list[list[str]]:
+    """CSV cells of a block's own columns (:data:`_OWN_CSV`).  When they
+    come from the rows' heads (not from columns of the table) they are the
+    same for every result whose block holds the same head dicts, so with a
+    ``cache`` (one per write, while the report holds its heads) they are
+    converted once, keyed by the identity of the block's heads."""
+    key = None
+    if cache is not None and not any(k in _OWN_CSV for k, _v in blk.columns):
+        key = tuple(map(id, blk.heads))
+        got = cache.get(key)
+        if got is not None:
+            return got
+    got = [_csv_text(blk.csv_cells(k)) for k in _OWN_CSV]
+    if key is not None:
+        cache[key] = got
+    return got
+
+
+def _csv_rows(fc: Any, res: Mapping, part: Table | None = None, cache: dict | None = None) -> None:
     """Write the CSV rows of one result (a plain list of member dicts or a
     :class:`Table`), or of the block ``part`` of its table, to the text
-    file ``fc`` (opened with ``newline=""``)."""
+    file ``fc`` (opened with ``newline=""``).  ``cache``: see :func:`_own_cells`."""
     members = res.get("members", [])
     if isinstance(members, Table):
         for blk in ([part] if part is not None else members.chunks()):
             n = len(blk)
             cols = [_csv_text([res["name"]]) * n, _csv_text([res["kind"]]) * n]
-            cols += [_csv_text(blk.csv_cells(k)) for k in ("id", "layer", "handle", "length")]
+            cols += _own_cells(blk, cache)
             cols += [blk.csv_cells(k) for k in CSV_COLUMNS[6:]]      # number texts, "" for none
             if n:
                 fc.write("\r\n".join(map(",".join, zip(*cols))) + "\r\n")
@@ -908,5 +931,6 @@ def write_csv(report: Mapping, path: Path | str) -> None:
     """
     with atomic_open(path, "w", encoding="utf-8", newline="") as fh:
         csv.writer(fh).writerow(CSV_COLUMNS)
+        own: dict = {}
         for res in report.get("results", []):
-            _csv_rows(fh, res)
+            _csv_rows(fh, res, cache=own)
