@@ -79,7 +79,7 @@ import numpy as np
 import shapely
 
 from ..numbers import label_value
-from .occupancy import Occupancy
+from .occupancy import Occupancy, present
 from .style import TEXT_STYLES, Pen
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -157,7 +157,7 @@ class LabelPlacer:
 
     def __init__(self, obstacles: Sequence, cell: float,
                  taken: dict[tuple[int, int], list[Box]] | None = None) -> None:
-        geoms = _short_pieces([g for g in obstacles if g is not None and not g.is_empty])
+        geoms = _short_pieces(list(present(obstacles)))
         self._cell = cell if cell > 0 else 1.0
         self._occupancy = Occupancy(geoms, self._cell / 16.0)
         self._grid: dict[tuple[int, int], list[Box]] = {} if taken is None else taken

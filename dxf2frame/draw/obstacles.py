@@ -24,7 +24,7 @@ import numpy as np
 import shapely
 from ezdxf import bbox
 
-from .occupancy import Occupancy
+from .occupancy import Occupancy, present
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
@@ -288,8 +288,8 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float, *,
     ``inside`` False: no search inside the extents (the caller searched
     near the box already), only the places outside them.
     """
-    geoms = [g for g in obstacles if g is not None and not g.is_empty]
-    trees = [t for t in (shapely.STRtree(geoms) if geoms else None, tree) if t is not None]
+    geoms = present(obstacles)
+    trees = [t for t in (shapely.STRtree(geoms) if len(geoms) else None, tree) if t is not None]
     w, h = box[2] - box[0], box[3] - box[1]
 
     def free(x0: np.ndarray, y0: np.ndarray) -> np.ndarray:

@@ -32,11 +32,21 @@ from typing import Sequence
 import numpy as np
 import shapely
 
-__all__ = ["Occupancy"]
+__all__ = ["Occupancy", "present"]
 
 _MAX_CELLS = 1_000_000     # cells of one grid (4 MB a table); a wider spread gets larger cells (more exact tests)
 _FEW = 16                  # boxes tested straight by the STRtree, before the grids are made
 _MARGIN = 1e-7             # safety margin against rounding [cells], plus a relative part of the coordinates
+
+
+def present(geoms: Sequence) -> np.ndarray:
+    """The geometries of ``geoms`` that are neither None nor empty, as an
+    object array (tested all at once, not one property call each)."""
+    arr = np.empty(len(geoms), dtype=object)
+    arr[:] = list(geoms)
+    if not len(arr):
+        return arr
+    return arr[~shapely.is_missing(arr) & ~shapely.is_empty(arr)]
 
 
 class Occupancy:
@@ -51,7 +61,7 @@ class Occupancy:
     """
 
     def __init__(self, obstacles: Sequence, cell: float) -> None:
-        geoms = np.array([g for g in obstacles if g is not None and not g.is_empty], dtype=object)
+        geoms = present(obstacles)
         self.tree = shapely.STRtree(geoms) if len(geoms) else None
         self._geoms = geoms
         self._want_cell = float(cell) if cell > 0 else 1.0
