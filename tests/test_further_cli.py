@@ -94,6 +94,34 @@ def test_cantilever_column_p_delta_tip_moment_amplification(tmp_path, capsys):
     assert abs(base["m"]) == pytest.approx(H * L * exact / 1e3, rel=0.01)   # kN*m
 
 
+def test_buckled_shape_of_a_column_line_is_one_polyline_true_to_the_euler_mode(tmp_path, capsys):
+    # a cantilever column drawn as one polyline of four pieces (four
+    # elements in a straight line): the buckled shape is one dashed
+    # polyline, its sideways offset y(x) = d (1 - cos(pi x / 2L)) along
+    # the height (the cantilever's Euler mode; Timoshenko and Gere, Theory
+    # of Elastic Stability, from memory), the tip at 10 % of the frame's
+    # size; the thinning keeps each drawn vertex within a few thousandths
+    # of the tip movement of it
+    L = 5.0
+    doc = new_drawing(units="m")
+    msp = doc.modelspace()
+    add_polyline(msp, [(0, 0), (0, 1.25), (0, 2.5), (0, 3.75), (0, L)])
+    add_support(msp, "fixed", (0, 0))
+    add_load(msp, "force", (0, L), P="500 kN", CASE="D")
+    rc, _, _ = run(capsys, tmp_path, doc, SECTIONS + ONE_COMBINATION)
+    assert rc == 0
+    out = ezdxf.readfile(tmp_path / "solved" / "frame-results.dxf")
+    shapes = out.modelspace().query('LWPOLYLINE[layer=="RESULT-BUCKLING"]')
+    assert len(shapes) == 1
+    xy = [(float(x), float(y)) for x, y in shapes[0].get_points("xy")]
+    assert len(xy) >= 3
+    assert xy[0] == pytest.approx((0.0, 0.0), abs=1e-9)
+    tip = xy[-1][0]
+    assert abs(tip) > 0
+    for x, y in xy:
+        assert x / tip == pytest.approx(1 - math.cos(math.pi * y / (2 * L)), abs=0.02)
+
+
 def test_fixed_base_portal_with_rigid_beam_alpha_cr(tmp_path, capsys):
     # fixed base, rigid beam: each column fixed-guided, effective length
     # K = 1, Pcr = pi^2 EI / h^2 per column (sway-frame effective-length

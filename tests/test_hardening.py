@@ -596,7 +596,7 @@ def test_a_failure_while_writing_leaves_nothing(tmp_path, capsys, monkeypatch, w
 
         monkeypatch.setattr(writer, "write_result_drawing", broken)
     elif where == "csv":
-        def broken_rows(fc, res, part=None):
+        def broken_rows(fc, res, *_args, **_kw):
             fc.write("D,ca")  # half a row of the CSV (written with the JSON)...
             raise OSError(28, "No space left on device")  # ...then the disk is full
 

@@ -78,3 +78,21 @@ def test_a_grid_of_references_is_measured_whole(cells):
     obst = drawing_obstacles(doc, lambda layer: False)
     got = np.array([g.bounds for g in obst.geoms])
     assert np.any(np.all(np.isclose(got, want, atol=1e-9), axis=1))
+
+
+def test_references_of_one_block_at_other_scales_mirrors_and_points_each_get_their_own_box():
+    # the placed box of a block is worked out once per scale and rotation and moved to
+    # each insertion point: references that differ in any of these must not share it
+    doc = ezdxf.new("R2018")
+    blk = doc.blocks.new("MARK", base_point=(0.5, 0.25))
+    blk.add_line((0, 0), (2, 0))
+    blk.add_line((0, 0), (0, 1))
+    msp = doc.modelspace()
+    refs = [msp.add_blockref("MARK", (x, y), dxfattribs={"xscale": sx, "yscale": sy})
+            for x, y, sx, sy in [(0, 0, 1, 1), (10, 5, 1, 1), (0, 10, -1, 1), (10, 10, 2, -0.5), (20, 0, 1, 1)]]
+    refs[-1].dxf.rotation = 90.0                         # a quarter turn: its box is exact
+    obst = drawing_obstacles(doc, lambda layer: False)
+    got = np.array([g.bounds for g in obst.geoms])
+    for e in refs:
+        want = _ezdxf_box(e)
+        assert np.any(np.all(np.isclose(got, want, atol=1e-9), axis=1)), (e.dxf.insert, want)

@@ -2,7 +2,7 @@
 diagrams, reactions, deflected shape, mechanism), what a drawing shows
 (:mod:`.selection`), the diagrams' curves (:mod:`.curves`), labels
 (:mod:`.labels`), the drawing's own content as obstacles
-(:mod:`.obstacles`), legend and notes (:mod:`.legend`), the layers' style
+(:mod:`.obstacles`; :mod:`.occupancy` tests many boxes against them at once), legend and notes (:mod:`.legend`), the layers' style
 (:mod:`.style`) and the PNG preview (:mod:`.preview`, imported on its own:
 it loads matplotlib).
 """

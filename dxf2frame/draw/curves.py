@@ -34,7 +34,8 @@ at every floor) are drawn as one run: one closed outline per diagram
 (baseline start, the curve along every element of the run, baseline end,
 for an envelope the min curve back), stepping across the member where
 the value jumps at a joint, as a continuous diagram is drawn by hand;
-and one deflected-shape polyline.  Fills stay per element.
+and one deflected-shape polyline (and one buckled-shape polyline,
+:func:`chain_polylines`).  Fills stay per element.
 """
 from __future__ import annotations
 
@@ -405,6 +406,34 @@ def thin(pts: np.ndarray, anchor: np.ndarray, tol: np.ndarray) -> np.ndarray:
         kept = np.flatnonzero(keep)
         free = free[np.repeat(busy, np.diff(np.r_[runs, len(k)])) & ~new]
     return keep
+
+
+def chain_polylines(pts: np.ndarray, bounds: np.ndarray, chains: list[list[int]],
+                    tol: np.ndarray) -> tuple[list[np.ndarray], np.ndarray]:
+    """One thinned polyline per straight chain of elements.
+
+    ``pts`` (k, 2): the points of every element, element-major, element
+    ``i`` owning ``pts[bounds[i]:bounds[i + 1]]`` from its start to its end;
+    the curve must be continuous at a joint (a displaced shape), which is
+    drawn once, as the previous element's end.  ``chains``:
+    :func:`straight_chains`; ``tol``: the chord tolerance of each element
+    (:func:`chord_tolerance`).  Returns (the polylines, every point of them
+    before thinning, in chain order)."""
+    seq = np.concatenate([np.asarray(c, dtype=int) for c in chains])
+    head = np.zeros(len(seq), dtype=bool)
+    head[np.cumsum([0] + [len(c) for c in chains[:-1]])] = True
+    first = bounds[seq] + ~head                            # a joint is drawn as the previous element's end
+    count = bounds[seq + 1] - first
+    at = np.cumsum(count) - count
+    idx = np.repeat(first - at, count) + np.arange(int(count.sum()))
+    run = pts[idx]
+    lengths = np.add.reduceat(count, np.flatnonzero(head))
+    ends = np.cumsum(lengths)
+    anchor = np.zeros(len(run), dtype=bool)
+    anchor[ends - 1] = True
+    anchor[ends - lengths] = True
+    keep = thin(run, anchor, np.repeat(np.asarray(tol, dtype=float)[seq], count))
+    return [run[a:b][keep[a:b]] for a, b in zip(ends - lengths, ends)], run
 
 
 def chord_tolerance(h: float, scale: np.ndarray, size: float) -> np.ndarray:

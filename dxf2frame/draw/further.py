@@ -21,7 +21,7 @@ from ezdxf.enums import TextEntityAlignment
 from .. import CAUTION
 from ..atomic import atomic_path
 from ..settings import DEFAULT_OUTPUT_LAYERS as _SETTINGS_OUTPUT_LAYERS, FURTHER_OUTPUT_LAYER_KEYS
-from .curves import frame_geom
+from .curves import chain_polylines, chord_tolerance, frame_geom, straight_chains
 from .legend import notes_paragraphs
 from .obstacles import DrawingObstacles, drawing_obstacles, keep_clear
 from .style import Pen, clear_result_layers, prepare_layers, result_layer_names
@@ -47,26 +47,35 @@ def further_layer_names(layers: Mapping[str, str] | None = None) -> dict[str, st
 
 
 def _buckled_shape(pen: Pen, model, b, layer: str, size: float, h: float, label: str) -> None:
-    """The buckled shape of ``b`` (a BucklingResult) over the frame."""
-    us = model.unit_scale
+    """The buckled shape of ``b`` (a BucklingResult) over the frame: one
+    dashed polyline per straight run of elements (the shape is continuous
+    at a joint), thinned to the chord tolerance as the deflected shape is
+    (:func:`dxf2frame.draw.curves.chain_polylines`), and ``label`` above
+    its largest movement."""
     frame = model.frame
-    peak = float(np.max(np.hypot(b.member_shape[..., 0], b.member_shape[..., 1]))) if b.member_shape.size else 0.0
+    shape = np.asarray(b.member_shape, dtype=float)
+    n_el = len(frame.members)
+    if not n_el or not shape.size:
+        return
+    mag = np.hypot(shape[..., 0], shape[..., 1])                       # (m, k)
+    peak = float(mag.max())
     if not peak > 0:
         return
     k = _SHAPE_TARGET * size / peak
-    top = None
-    for j, m in enumerate(frame.members):
-        a = np.array([frame.nodes[m.start].x, frame.nodes[m.start].y]) / us
-        e = np.array([frame.nodes[m.end].x, frame.nodes[m.end].y]) / us
-        t = b.member_points[j] / (b.member_points[j][-1] or 1.0)
-        base = a[None, :] + t[:, None] * (e - a)[None, :]
-        moved = base + k * b.member_shape[j]
-        pen.polyline(moved, layer, dashed=True)
-        i = int(np.argmax(np.hypot(*b.member_shape[j].T)))
-        if top is None or np.hypot(*b.member_shape[j][i]) > top[0]:
-            top = (float(np.hypot(*b.member_shape[j][i])), moved[i])
-    if top is not None:
-        pen.text(label, top[1] + np.array([0.0, 1.5 * h]), h, layer)
+    geom = frame_geom(model)
+    along = np.asarray(b.member_points, dtype=float)
+    t = along / np.where(along[:, -1:] > 0, along[:, -1:], 1.0)          # 0..1 along each member
+    base = geom.start[:, None, :] + t[:, :, None] * (geom.end - geom.start)[:, None, :]
+    moved = (base + k * shape).reshape(-1, 2)
+    bounds = np.arange(n_el + 1) * shape.shape[1]
+    si = np.array([m.start for m in frame.members])
+    ei = np.array([m.end for m in frame.members])
+    runs, _pts = chain_polylines(moved, bounds, straight_chains(si, ei, geom.t),
+                                 chord_tolerance(h, k * mag.max(axis=1), size))
+    for run in runs:
+        pen.polyline(run, layer, dashed=True)
+    top = moved[int(np.argmax(mag.ravel()))]
+    pen.text(label, top + np.array([0.0, 1.5 * h]), h, layer)
 
 
 def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,

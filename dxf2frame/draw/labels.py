@@ -79,6 +79,7 @@ import numpy as np
 import shapely
 
 from ..numbers import label_value
+from .occupancy import Occupancy, present
 from .style import TEXT_STYLES, Pen
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -145,8 +146,10 @@ class LabelPlacer:
         result layers, so no two result texts overlap); None: a new one
 
     Placed boxes live in a uniform grid (dict of cells), so each test looks
-    at a handful of neighbours; obstacle tests are STRtree queries, one per
-    batch of candidate boxes (:meth:`free_of_obstacles`).  ``placed`` counts the boxes recorded,
+    at a handful of neighbours; obstacle tests go to an
+    :class:`~dxf2frame.draw.occupancy.Occupancy` of the obstacles (cells of
+    1/16 of ``cell``, about a quarter text height), one call per batch of
+    candidate boxes (:meth:`free_of_obstacles`).  ``placed`` counts the boxes recorded,
     ``forced`` those recorded although they overlap something, ``extent``
     is the bounding box (xmin, ymin, xmax, ymax) of every recorded box (None
     before the first).
@@ -154,9 +157,9 @@ class LabelPlacer:
 
     def __init__(self, obstacles: Sequence, cell: float,
                  taken: dict[tuple[int, int], list[Box]] | None = None) -> None:
-        geoms = _short_pieces([g for g in obstacles if g is not None and not g.is_empty])
-        self._tree = shapely.STRtree(geoms) if len(geoms) else None
+        geoms = _short_pieces(list(present(obstacles)))
         self._cell = cell if cell > 0 else 1.0
+        self._occupancy = Occupancy(geoms, self._cell / 16.0)
         self._grid: dict[tuple[int, int], list[Box]] = {} if taken is None else taken
         self.placed = 0
         self.forced = 0
@@ -172,9 +175,7 @@ class LabelPlacer:
         """True when box ``b`` = (xmin, ymin, xmax, ymax) touches no placed box and no obstacle."""
         if not self.free_of_boxes(b):
             return False
-        if self._tree is not None and len(self._tree.query(shapely.box(*b), predicate="intersects")):
-            return False
-        return True
+        return bool(self._occupancy.free(b[0], b[1], b[2], b[3])[0])
 
     def free_of_boxes(self, b: Box) -> bool:
         """True when box ``b`` overlaps no placed box (obstacles not tested)."""
@@ -186,14 +187,10 @@ class LabelPlacer:
 
     def free_of_obstacles(self, centres: np.ndarray, half_w: "float | np.ndarray", half_h: float) -> np.ndarray:
         """Mask of the boxes centred at ``centres`` (k, 2) that touch no
-        obstacle, in one STRtree query (placed boxes not tested);
-        ``half_w`` one for all or one per box."""
+        obstacle, in one call (placed boxes not tested); ``half_w`` one for
+        all or one per box."""
         c = np.asarray(centres, dtype=float).reshape(-1, 2)
-        ok = np.ones(len(c), dtype=bool)
-        if self._tree is not None and len(c):
-            boxes = shapely.box(c[:, 0] - half_w, c[:, 1] - half_h, c[:, 0] + half_w, c[:, 1] + half_h)
-            ok[self._tree.query(boxes, predicate="intersects")[0]] = False
-        return ok
+        return self._occupancy.free(c[:, 0] - half_w, c[:, 1] - half_h, c[:, 0] + half_w, c[:, 1] + half_h)
 
     def take(self, b: Box) -> None:
         """Record box ``b`` as a placed label (the caller checked it is free)."""

@@ -22,6 +22,9 @@ from typing import TYPE_CHECKING, Callable, Iterable, Sequence
 
 import numpy as np
 import shapely
+from ezdxf import bbox
+
+from .occupancy import Occupancy, present
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
@@ -34,6 +37,7 @@ _BIG_INSERT = 0.4          # a block reference wider and taller than this fracti
 _MAX_CANDIDATES = 40_000   # positions tried inside the extents for one box
 _FAR = 1e12                # coordinates beyond this [drawing units] are no drawing's content (as in the preview)
 _OUTSIDE_STEPS = 64        # positions tried outward from each side of the extents
+_INVISIBLE = 1             # the flag of an invisible attribute (DXF group 70)
 
 
 @dataclass
@@ -70,12 +74,23 @@ def _linework(e) -> np.ndarray | None:
         s, t = e.dxf.start, e.dxf.end
         return np.array([(s.x, s.y), (t.x, t.y)], dtype=float)
     if t == "LWPOLYLINE":
-        pts = np.array([p[:3] for p in e.get_points("xyb")], dtype=float)
+        pts = _xyb(e)
         if len(pts) < 2 or np.any(pts[:, 2]) or e.dxf.get("const_width", 0):
             return None
         xy = pts[:, :2]
         return np.vstack([xy, xy[:1]]) if e.closed else xy
     return None
+
+
+def _xyb(e) -> np.ndarray:
+    """(k, 3) x, y, bulge of an LWPOLYLINE's vertices, read from its vertex
+    array at once (ezdxf keeps x, y, start width, end width, bulge per
+    vertex); through ``get_points`` where that array is not there."""
+    try:
+        v = np.asarray(e.lwpoints.values, dtype=float).reshape(-1, 5)
+        return v[:, [0, 1, 4]]
+    except Exception:  # noqa: BLE001 - another vertex store: the public call
+        return np.array([p[:3] for p in e.get_points("xyb")], dtype=float).reshape(-1, 3)
 
 
 def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
@@ -86,8 +101,6 @@ def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
     layers); ``member_layer(name)``: True for the frame's member layers,
     whose lines and polylines are left out (the writer has them).
     """
-    from ezdxf import bbox
-
     cache = bbox.Cache()
     polys: list[np.ndarray] = []
     boxes: list[Box] = []
@@ -103,12 +116,15 @@ def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
             continue
         others.append(e)
     _boxes_of(others, boxes, cache)
-    polys = [p for p in polys if np.all(np.abs(p) < _FAR)]
-    boxes = [b for b in boxes if np.all(np.abs(b) < _FAR)]         # NaN (unmeasured) fails too
-    ext = _extents(polys, boxes)
+    polys = [p for p in polys if np.abs(p).max() < _FAR]
+    measured = _boxes_within_reach(boxes)
+    ext = _extents(polys, measured)
     if ext is not None:
+        # the unmeasured boxes stay in line with their entities here (NaN), dropped after
         boxes = _expand_big_inserts(others, boxes, ext, polys, cache)
-        polys = [p for p in polys if np.all(np.abs(p) < _FAR)]
+        polys = [p for p in polys if np.abs(p).max() < _FAR]
+    else:
+        boxes = measured
     geoms = list(shapely.box(*np.array(boxes, dtype=float).T)) if boxes else []
     if polys:
         idx = np.repeat(np.arange(len(polys)), [len(p) for p in polys])
@@ -117,9 +133,7 @@ def drawing_obstacles(doc: "Drawing", skip_layer: Callable[[str], bool], *,
 
 
 def _boxes_of(entities: Sequence, boxes: list[Box], cache) -> None:
-    from ezdxf import bbox
-
-    blocks: dict[str, Box | None] = {}
+    blocks: dict = {}                          # block name -> its content's box; (name, scales, rotation) -> placed box
     texts: dict[tuple, Box | None] = {}
     for e in entities:
         got = _insert_box(e, blocks, texts) if e.dxftype() == "INSERT" else None
@@ -132,22 +146,23 @@ def _boxes_of(entities: Sequence, boxes: list[Box], cache) -> None:
         boxes.append(got if got is not None else (np.nan,) * 4)
 
 
-def _insert_box(e, blocks: dict[str, Box | None], texts: dict[tuple, Box | None]) -> Box | None:
+def _insert_box(e, blocks: dict, texts: dict[tuple, Box | None]) -> Box | None:
     """The box of a plain block reference (one cell, in the drawing's plane):
-    the box of its block's content, measured once per block name
-    (``blocks``), with its four corners placed by the reference's transform,
-    joined with the boxes of its visible non-empty attributes (each
-    measured once per text and look, ``texts``: :func:`_attrib_box`).  A rotated
-    reference gets the box of the turned box, a little larger than its
-    content's own (conservative for placement).  None where this does not
-    apply (a MINSERT grid, a reference out of the plane, a block that
-    cannot be measured): the caller measures the whole reference."""
-    from ezdxf import bbox
-
+    the box of its block's content, measured once per block name, with its
+    four corners placed by the reference's transform (worked out once per
+    block name, scales and rotation, then moved to each insertion point;
+    both kept in ``blocks``), joined with the boxes of its visible
+    non-empty attributes (each measured once per text and look, ``texts``:
+    :func:`_attrib_box`).  A rotated reference gets the box of the turned
+    box, a little larger than its content's own (conservative for
+    placement).  None where this does not apply (a MINSERT grid, a
+    reference out of the plane, a block that cannot be measured): the
+    caller measures the whole reference."""
     try:
-        if e.mcount > 1 or tuple(e.dxf.get("extrusion", (0.0, 0.0, 1.0))) != (0.0, 0.0, 1.0):
+        dxf = e.dxf.all_existing_dxf_attribs()              # one copy, not a lookup per key
+        if e.mcount > 1 or tuple(dxf.get("extrusion", (0.0, 0.0, 1.0))) != (0.0, 0.0, 1.0):
             return None
-        name = e.dxf.get("name", "")
+        name = dxf.get("name", "")
         if name not in blocks:
             blk = e.doc.blocks.get(name) if e.doc is not None else None
             if blk is None:
@@ -155,14 +170,25 @@ def _insert_box(e, blocks: dict[str, Box | None], texts: dict[tuple, Box | None]
             b = bbox.extents((x for x in blk if x.dxftype() != "ATTDEF"), fast=True)
             blocks[name] = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y) if b.has_data else None
         local = blocks[name]
-        pts = []
+        at = dxf.get("insert", (0.0, 0.0, 0.0))
+        xs, ys = [], []
         if local is not None:
-            x0, y0, x1, y1 = local
-            pts = list(e.matrix44().transform_vertices([(x0, y0), (x1, y0), (x1, y1), (x0, y1)]))
-        xs, ys = [p.x for p in pts], [p.y for p in pts]
+            # in the drawing's plane the transform is linear part + insertion point:
+            # the turned and scaled box, relative to the insertion point, is the same
+            # for every reference of one block, scale and rotation
+            look = (name, dxf.get("xscale", 1.0), dxf.get("yscale", 1.0), dxf.get("zscale", 1.0),
+                    dxf.get("rotation", 0.0))
+            if look not in blocks:
+                x0, y0, x1, y1 = local
+                pts = list(e.matrix44().transform_vertices([(x0, y0), (x1, y0), (x1, y1), (x0, y1)]))
+                blocks[look] = (min(p.x for p in pts) - at[0], min(p.y for p in pts) - at[1],
+                                max(p.x for p in pts) - at[0], max(p.y for p in pts) - at[1])
+            r = blocks[look]
+            xs, ys = [r[0] + at[0], r[2] + at[0]], [r[1] + at[1], r[3] + at[1]]
         for a in e.attribs:
-            if not a.is_invisible and a.dxf.get("text", "").strip():
-                ab = _attrib_box(a, texts)
+            adxf = a.dxf.all_existing_dxf_attribs()
+            if not adxf.get("flags", 0) & _INVISIBLE and str(adxf.get("text", "")).strip():
+                ab = _attrib_box(a, adxf, texts)
                 if ab is not None:
                     xs += [ab[0], ab[2]]
                     ys += [ab[1], ab[3]]
@@ -173,25 +199,24 @@ def _insert_box(e, blocks: dict[str, Box | None], texts: dict[tuple, Box | None]
     return (min(xs), min(ys), max(xs), max(ys))
 
 
-def _attrib_box(a, texts: dict[tuple, Box | None]) -> Box | None:
-    """The box of one attribute text.  ezdxf measures each distinct look
-    (text, style, height, width, rotation, alignment) once; the box moves
-    with the point the text hangs from (the alignment point for aligned
-    text, else the insertion point).  A text stretched between two points
-    (aligned, fit), out of the plane or carrying MTEXT is measured alone."""
-    from ezdxf import bbox
-
-    dxf = a.dxf
+def _attrib_box(a, dxf: dict, texts: dict[tuple, Box | None]) -> Box | None:
+    """The box of one attribute text (``dxf``: its DXF attributes as set).
+    ezdxf measures each distinct look (text, style, height, width,
+    rotation, alignment) once; the box moves with the point the text hangs
+    from (the alignment point for aligned text, else the insertion point).
+    A text stretched between two points (aligned, fit), out of the plane or
+    carrying MTEXT is measured alone."""
     halign, valign = dxf.get("halign", 0), dxf.get("valign", 0)
     plain = (halign not in (3, 5) and tuple(dxf.get("extrusion", (0.0, 0.0, 1.0))) == (0.0, 0.0, 1.0)
              and not a.has_embedded_mtext_entity)
     if not plain:
         b = bbox.extents([a], fast=True)
         return (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y) if b.has_data else None
-    hangs = (halign, valign) != (0, 0) and dxf.hasattr("align_point")
-    at = dxf.align_point if hangs else dxf.insert
-    key = (dxf.text, dxf.get("style", ""), dxf.get("height", 0.0), dxf.get("width", 1.0), dxf.get("rotation", 0.0),
-           dxf.get("oblique", 0.0), halign, valign, dxf.get("text_generation_flag", 0), hangs)
+    hangs = (halign, valign) != (0, 0) and "align_point" in dxf
+    at = dxf["align_point"] if hangs else dxf.get("insert", a.dxf.insert)
+    key = (dxf.get("text"), dxf.get("style", ""), dxf.get("height", 0.0), dxf.get("width", 1.0),
+           dxf.get("rotation", 0.0), dxf.get("oblique", 0.0), halign, valign, dxf.get("text_generation_flag", 0),
+           hangs)
     if key not in texts:
         b = bbox.extents([a], fast=True)
         texts[key] = (b.extmin.x - at.x, b.extmin.y - at.y, b.extmax.x - at.x, b.extmax.y - at.y) \
@@ -223,26 +248,34 @@ def _expand_big_inserts(entities: Sequence, boxes: list[Box], ext: Box, polys: l
             else:
                 rest.append(p)
         _boxes_of(rest, out, cache)
-    return [b for b in out if np.all(np.abs(b) < _FAR)]
+    return _boxes_within_reach(out)
 
 
-def _extents(polys: list[np.ndarray], boxes: Iterable[Box]) -> Box | None:
-    lo, hi = [], []
-    for p in polys:
-        lo.append(p.min(0))
-        hi.append(p.max(0))
-    for b in boxes:
-        if np.all(np.isfinite(b)):
-            lo.append(np.array(b[:2]))
-            hi.append(np.array(b[2:]))
-    if not lo:
+def _boxes_within_reach(boxes: list[Box]) -> list[Box]:
+    """The boxes measured (no NaN) and within ``_FAR`` of the origin."""
+    if not boxes:
+        return []
+    b = np.array(boxes, dtype=float).reshape(-1, 4)
+    with np.errstate(invalid="ignore"):
+        keep = np.all(np.abs(b) < _FAR, axis=1)
+    return [boxes[k] for k in np.flatnonzero(keep)]
+
+
+def _extents(polys: list[np.ndarray], boxes: Sequence[Box]) -> Box | None:
+    """(xmin, ymin, xmax, ymax) of the polylines and the measured boxes, or None."""
+    parts = [np.vstack(polys)] if polys else []
+    if len(boxes):
+        b = np.array(boxes, dtype=float).reshape(-1, 4)
+        b = b[np.all(np.isfinite(b), axis=1)]
+        parts += [b[:, :2], b[:, 2:]]
+    if not parts or not sum(len(q) for q in parts):
         return None
-    a, z = np.min(lo, axis=0), np.max(hi, axis=0)
-    return (float(a[0]), float(a[1]), float(z[0]), float(z[1]))
+    xy = np.vstack(parts)
+    return (float(xy[:, 0].min()), float(xy[:, 1].min()), float(xy[:, 0].max()), float(xy[:, 1].max()))
 
 
 def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float, *,
-              tree: "shapely.STRtree | None" = None, inside: bool = True) -> tuple[float, float]:
+              tree: "shapely.STRtree | Occupancy | None" = None, inside: bool = True) -> tuple[float, float]:
     """Shift (dx, dy) that moves ``box`` to the nearest place touching none
     of ``obstacles`` (shapely geometries) with ``gap`` around it.
 
@@ -250,19 +283,25 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float, *,
     when none is free, the nearest place just outside the extents (right,
     below, left or above; farther out past obstacles beyond the extents).
     (0, 0) when the box is free where it is.  ``tree``: more obstacles,
-    indexed once by the caller (many boxes placed against one drawing);
+    indexed once by the caller (many boxes placed against one drawing),
+    as an STRtree or an :class:`~dxf2frame.draw.occupancy.Occupancy`;
     ``inside`` False: no search inside the extents (the caller searched
     near the box already), only the places outside them.
     """
-    geoms = [g for g in obstacles if g is not None and not g.is_empty]
-    trees = [t for t in (shapely.STRtree(geoms) if geoms else None, tree) if t is not None]
+    geoms = present(obstacles)
+    trees = [t for t in (shapely.STRtree(geoms) if len(geoms) else None, tree) if t is not None]
     w, h = box[2] - box[0], box[3] - box[1]
 
     def free(x0: np.ndarray, y0: np.ndarray) -> np.ndarray:
         ok = np.ones(len(x0), dtype=bool)
         if len(x0):
-            cand = shapely.box(x0 - gap, y0 - gap, x0 + w + gap, y0 + h + gap)
+            lo_x, lo_y, hi_x, hi_y = x0 - gap, y0 - gap, x0 + w + gap, y0 + h + gap
+            cand = None
             for t in trees:
+                if isinstance(t, Occupancy):
+                    ok &= t.free(lo_x, lo_y, hi_x, hi_y)
+                    continue
+                cand = shapely.box(lo_x, lo_y, hi_x, hi_y) if cand is None else cand
                 ok[t.query(cand, predicate="intersects")[0]] = False
         return ok
 
@@ -296,9 +335,10 @@ def free_spot(box: Box, obstacles: Sequence, extents: Box | None, gap: float, *,
         (ex0 - 2 * gap - w - k * (w + gap), np.full_like(k, top)),
         (np.full_like(k, left), ey1 + 2 * gap + k * (h + gap)),
     ]
+    clear = free(np.concatenate([xs for xs, _ys in sides]), np.concatenate([ys for _xs, ys in sides]))
     outside = []
-    for xs, ys in sides:
-        ok = np.flatnonzero(free(xs, ys))
+    for (xs, ys), ok_side in zip(sides, clear.reshape(len(sides), -1)):       # one test for all four sides
+        ok = np.flatnonzero(ok_side)
         j = int(ok[0]) if len(ok) else len(k) - 1
         outside.append((float(xs[j]), float(ys[j])))
     best = min(outside, key=lambda p: np.hypot(p[0] - box[0], p[1] - box[1]))
@@ -311,12 +351,11 @@ def keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content: 
     tool drew: member lines, diagram extents, labels) and of the groups
     placed before it; outside the drawing's extents when nothing inside is
     free."""
-    from ezdxf import bbox
-
     ext = content if obst.extents is None else (
         min(content[0], obst.extents[0]), min(content[1], obst.extents[1]),
         max(content[2], obst.extents[2]), max(content[3], obst.extents[3]))
-    blocked = list(obst.geoms) + ours
+    fixed = Occupancy(list(obst.geoms) + list(ours), gap)    # indexed once for every group
+    blocked: list = []                                      # the groups placed so far
     for ents in groups:
         if not ents:
             continue
@@ -324,7 +363,7 @@ def keep_clear(groups: list[list], obst: DrawingObstacles, ours: list, content: 
         if not b.has_data:
             continue
         box = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y)
-        dx, dy = free_spot(box, blocked, ext, gap)
+        dx, dy = free_spot(box, blocked, ext, gap, tree=fixed)
         if dx or dy:
             for e in ents:
                 e.translate(dx, dy, 0.0)

@@ -56,10 +56,11 @@ from ezdxf.enums import TextEntityAlignment
 
 from ..atomic import atomic_path, same_file
 from ..drawing_file import open_document
-from .curves import (DIAGRAMS, FrameGeom, frame_geom, chord_tolerance, sample_curves, drawn_curves, FlatCurve, has_batch, sample_batch,
-                             sample_member_by_member, segment_max, straight_chains, thin, zero_crossings)
+from .curves import (DIAGRAMS, FrameGeom, frame_geom, chain_polylines, chord_tolerance, sample_curves, drawn_curves, FlatCurve, has_batch, sample_batch,
+                             sample_member_by_member, segment_max, straight_chains, zero_crossings)
 from ..errors import SettingsError
 from .obstacles import DrawingObstacles, drawing_obstacles, free_spot, keep_clear
+from .occupancy import Occupancy
 from .labels import (OTHER_SIGN, PRIORITY, SAME_AT_JOINT, Box, LabelPlacer, as_lines, drawing_texts,
                      label_requests, label_font, Label, centre_lift, merge_at_joints, geometries_near, place_labels, Spot, text_width)
 from .legend import draw_legend_and_notes, notes_paragraphs
@@ -275,7 +276,8 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[FlatCurve], labe
         pts = base + o[:, None] * geom.n[c.eid]
         flat.append((o, base, pts, drawn_curves(c, along, o, tol, zero)))
         if len(pts):
-            extents.append((*map(float, pts.min(0)), *map(float, pts.max(0))))
+            # by columns: numpy reduces a tall (k, 2) array along axis 0 some fifty times slower
+            extents.append((float(pts[:, 0].min()), float(pts[:, 1].min()), float(pts[:, 0].max()), float(pts[:, 1].max())))
 
     def element_labels(i: int) -> list[Label]:
         cs = []
@@ -502,7 +504,7 @@ def annotate_results(
                 f"drawing: {len(unplaced)} probe marker(s) found no free place on the drawing and are not "
                 f"drawn; their values are in the notes, the report and the console: {'; '.join(unplaced)}")
     if bent is not None and len(bent):
-        boxes.append((*bent.min(0), *bent.max(0)))
+        boxes.append((float(bent[:, 0].min()), float(bent[:, 1].min()), float(bent[:, 0].max()), float(bent[:, 1].max())))
     b = np.array(boxes, dtype=float)
     content = (float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max()))
 
@@ -518,7 +520,7 @@ def annotate_results(
                                    content=content, keys=keys, font=font,
                                    extra=_schedule_notes(schedule, uf) + probe_notes,
                                    warnings=summary.warnings)
-    placed = [shapely.box(*b) for cell in taken.values() for b in cell]
+    placed = list(shapely.box(*taken_boxes(taken).T))
     keep_clear(groups, obst, list(members) + [shapely.box(*b) for b in boxes] + placed,
                 content, 0.8 * h)
     summary.entities = pen.count
@@ -548,26 +550,33 @@ def _far_spots(obst: DrawingObstacles, ours: list, taken: dict, frame_box: Box, 
     ``ours`` (member lines, outlines, arrows) and of every label placed so
     far (:func:`dxf2frame.draw.obstacles.free_spot`): within widening
     windows around the box up to ``near``, else just outside the drawing's
-    extents.  The drawing's content is indexed once."""
+    extents.  The drawing's content and ``ours`` are indexed once (an
+    :class:`~dxf2frame.draw.occupancy.Occupancy` with cells of ``near``/40,
+    a quarter text height)."""
     ext = frame_box if obst.extents is None else (
         min(frame_box[0], obst.extents[0]), min(frame_box[1], obst.extents[1]),
         max(frame_box[2], obst.extents[2]), max(frame_box[3], obst.extents[3]))
-    fixed = [g for g in list(obst.geoms) + list(ours) if g is not None and not g.is_empty]
-    tree = shapely.STRtree(fixed) if fixed else None
+    tree = Occupancy(list(obst.geoms) + list(ours), near / 40.0)
 
     def far(box: Box) -> tuple[float, float] | None:
+        placed = taken_boxes(taken)
         for r in (0.3 * near, near):                   # widening windows around the box (past the extents too)
             window = (box[0] - r, box[1] - r, box[2] + r, box[3] + r)
-            placed = [shapely.box(*b) for cell in taken.values() for b in cell
-                      if b[0] < window[2] and b[2] > window[0] and b[1] < window[3] and b[3] > window[1]]
-            dx, dy = free_spot(box, placed, window, gap, tree=tree)
+            inside = placed[(placed[:, 0] < window[2]) & (placed[:, 2] > window[0])
+                            & (placed[:, 1] < window[3]) & (placed[:, 3] > window[1])]
+            dx, dy = free_spot(box, list(shapely.box(*inside.T)), window, gap, tree=tree)
             if (window[0] <= box[0] + dx and box[2] + dx <= window[2]
                     and window[1] <= box[1] + dy and box[3] + dy <= window[3]):
                 return dx, dy                         # a free place near
-        placed = [shapely.box(*b) for cell in taken.values() for b in cell]
-        return free_spot(box, placed, ext, gap, tree=tree, inside=False)   # outside the drawing's extents
+        return free_spot(box, list(shapely.box(*placed.T)), ext, gap, tree=tree, inside=False)   # outside the extents
 
     return far
+
+
+def taken_boxes(taken: dict) -> np.ndarray:
+    """The boxes of a placer grid (cell -> boxes; a box is listed in every
+    cell it covers) once each, as a (k, 4) array."""
+    return np.array(list({b for cell in taken.values() for b in cell}), dtype=float).reshape(-1, 4)
 
 
 def _drawing_content(doc, result_layers) -> DrawingObstacles:
@@ -900,22 +909,9 @@ def _draw_deflected(pen: Pen, model, geom: FrameGeom, sel: Selection, layer: str
     moved = base + factor * disp
     tol = chord_tolerance(h, factor * np.maximum.reduceat(mag, bounds[:-1]), geom.size)
     chains = chains if chains is not None else straight_chains(si, ei, geom.t)
-    seq = np.concatenate([np.asarray(c, dtype=int) for c in chains])
-    head = np.zeros(len(seq), dtype=bool)
-    head[np.cumsum([0] + [len(c) for c in chains[:-1]])] = True
-    first = bounds[seq] + ~head                            # a joint is drawn as the previous element's end
-    count = bounds[seq + 1] - first
-    at = np.cumsum(count) - count
-    idx = np.repeat(first - at, count) + np.arange(int(count.sum()))
-    pts = moved[idx]
-    lengths = np.add.reduceat(count, np.flatnonzero(head))
-    ends = np.cumsum(lengths)
-    anchor = np.zeros(len(pts), dtype=bool)
-    anchor[ends - 1] = True
-    anchor[ends - lengths] = True
-    keep = thin(pts, anchor, np.repeat(tol[seq], count))
-    for a, b in zip(ends - lengths, ends):
-        pen.polyline(pts[a:b][keep[a:b]], layer, dashed=True)
+    runs, pts = chain_polylines(moved, bounds, chains, tol)
+    for run in runs:
+        pen.polyline(run, layer, dashed=True)
     summary.deflection_factor = factor
     summary.deflection_result = res.name
     if labels is not None and uf is not None:

@@ -62,6 +62,7 @@ from __future__ import annotations
 import csv
 import json
 import math
+import re
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Callable, Iterable, Iterator, Mapping, Sequence
@@ -845,16 +846,21 @@ def write_json(report: Mapping, path: Path | str, csv_path: Path | str | None = 
             atomic_open(csv_path, "w", encoding="utf-8", newline="") as fc:
         csv.writer(fc).writerow(CSV_COLUMNS)
 
+        own: dict = {}                                # the members' own cells, shared by the results
+
         def on_block(table: Table, part: Table) -> None:
             res = owner.get(id(table))
             if res is not None:
-                _csv_rows(fc, res, part)
+                _csv_rows(fc, res, part, own)
 
         for chunk in _json_chunks(report, on_block):
             fh.write(chunk)
         for res in report.get("results", []):        # results written as plain lists
             if not isinstance(res.get("members"), Table):
                 _csv_rows(fc, res)
+
+
+_NEEDS_QUOTES = re.compile('[,"\r\n]').search      # a CSV cell holding one of these is quoted
 
 
 def _csv_text(values: Sequence) -> list[str]:
@@ -868,23 +874,44 @@ def _csv_text(values: Sequence) -> list[str]:
         t = cache.get(v) if v is not None else ""
         if t is None:
             s = repr(v) if isinstance(v, float) else str(v)
-            if any(c in s for c in ',"\r\n'):
+            if _NEEDS_QUOTES(s):
                 s = '"' + s.replace('"', '""') + '"'
             t = cache[v] = s
         out.append(t)
     return out
 
 
-def _csv_rows(fc: Any, res: Mapping, part: Table | None = None) -> None:
+_OWN_CSV = ("id", "layer", "handle", "length")      # the member's own CSV columns, the same in every result
+
+
+def _own_cells(blk: Table, cache: dict | None) -> list[list[str]]:
+    """CSV cells of a block's own columns (:data:`_OWN_CSV`).  When they
+    come from the rows' heads (not from columns of the table) they are the
+    same for every result whose block holds the same head dicts, so with a
+    ``cache`` (one per write, while the report holds its heads) they are
+    converted once, keyed by the identity of the block's heads."""
+    key = None
+    if cache is not None and not any(k in _OWN_CSV for k, _v in blk.columns):
+        key = tuple(map(id, blk.heads))
+        got = cache.get(key)
+        if got is not None:
+            return got
+    got = [_csv_text(blk.csv_cells(k)) for k in _OWN_CSV]
+    if key is not None:
+        cache[key] = got
+    return got
+
+
+def _csv_rows(fc: Any, res: Mapping, part: Table | None = None, cache: dict | None = None) -> None:
     """Write the CSV rows of one result (a plain list of member dicts or a
     :class:`Table`), or of the block ``part`` of its table, to the text
-    file ``fc`` (opened with ``newline=""``)."""
+    file ``fc`` (opened with ``newline=""``).  ``cache``: see :func:`_own_cells`."""
     members = res.get("members", [])
     if isinstance(members, Table):
         for blk in ([part] if part is not None else members.chunks()):
             n = len(blk)
             cols = [_csv_text([res["name"]]) * n, _csv_text([res["kind"]]) * n]
-            cols += [_csv_text(blk.csv_cells(k)) for k in ("id", "layer", "handle", "length")]
+            cols += _own_cells(blk, cache)
             cols += [blk.csv_cells(k) for k in CSV_COLUMNS[6:]]      # number texts, "" for none
             if n:
                 fc.write("\r\n".join(map(",".join, zip(*cols))) + "\r\n")
@@ -904,5 +931,6 @@ def write_csv(report: Mapping, path: Path | str) -> None:
     """
     with atomic_open(path, "w", encoding="utf-8", newline="") as fh:
         csv.writer(fh).writerow(CSV_COLUMNS)
+        own: dict = {}
         for res in report.get("results", []):
-            _csv_rows(fh, res)
+            _csv_rows(fh, res, cache=own)
