@@ -58,14 +58,30 @@ def test_a_full_disk_in_the_child_is_an_oserror_with_its_errno(tmp_path, monkeyp
 
 
 @forking
-def test_other_failures_of_the_child_are_named(tmp_path, monkeypatch):
+def test_other_failures_of_the_child_are_raised_as_they_were(tmp_path, monkeypatch):
     def broken(self, *a, **k):
         raise ValueError("an entity the writer cannot export")
 
     monkeypatch.setattr(ezdxf.document.Drawing, "saveas", broken)
     saver = BackgroundSave(min_entities=0)
     saver(_doc(), tmp_path / "a.dxf")
-    with pytest.raises(BackgroundSaveError, match="ValueError: an entity the writer cannot export"):
+    with pytest.raises(ValueError, match="an entity the writer cannot export"):
+        saver.wait()
+
+
+@forking
+def test_an_exception_that_does_not_pickle_is_named(tmp_path, monkeypatch):
+    class Odd(Exception):
+        def __reduce__(self):
+            raise TypeError("no pickling")
+
+    def broken(self, *a, **k):
+        raise Odd("a lock inside")
+
+    monkeypatch.setattr(ezdxf.document.Drawing, "saveas", broken)
+    saver = BackgroundSave(min_entities=0)
+    saver(_doc(), tmp_path / "a.dxf")
+    with pytest.raises(BackgroundSaveError, match="Odd: a lock inside"):
         saver.wait()
 
 
