@@ -6,6 +6,7 @@ whose status says what happened, so one bad drawing cannot stop a batch.
 """
 from __future__ import annotations
 
+import contextlib
 import gc
 import math
 import time
@@ -22,6 +23,7 @@ from .solver.errors import MissingSectionError, SolverError, UnstableFrameError
 
 from .atomic import same_file
 from .background_save import BackgroundSave
+from .forked import Forked, can_fork, fork_call
 from .drawing_model import DrawingModel
 from .errors import AnalysisError, CannotWriteError, Dxf2FrameError, InputFileError, SettingsError, one_line
 from .read.reader import read_file
@@ -31,6 +33,8 @@ from .staging import OutputSet, writing
 
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
+
+    from .draw.writer import DrawingSummary
 
     from .further import Further
 
@@ -696,12 +700,71 @@ def drawing_scale_options(settings: Settings, model, req: "SolveRequest") -> dic
 # -- second order and moving loads (dxf2frame.further) ------------------------------
 
 
+#: members from which the alpha_cr check runs on the second core while the
+#: result diagrams are drawn (below that it takes less time than the fork)
+STABILITY_FORK_MEMBERS = 1000
+
+
 def _run_further(analysis: Analysis, req: SolveRequest) -> None:
     """The second-order step and the moving loads into ``analysis.further``;
     their warnings join the model's."""
     from .further import run_further
 
     analysis.further = run_further(analysis, req.influence, analysis.model.warnings)
+
+
+def _further_forks(analysis: Analysis, req: SolveRequest) -> bool:
+    """The alpha_cr check runs on the second core while the result diagrams
+    are drawn (:func:`_start_further`, :func:`_join_further`): a large
+    frame whose check is the default alpha_cr alone (no P-Delta results to
+    draw, no ``--strict`` refusal to make before anything is drawn), where
+    a fork is safe (:func:`dxf2frame.forked.can_fork`)."""
+    return (analysis.settings.second_order == "check" and not req.strict and analysis.stable
+            and len(analysis.model.frame.members) >= STABILITY_FORK_MEMBERS and can_fork())
+
+
+def _start_further(analysis: Analysis) -> "Forked":
+    """The alpha_cr check started in a forked child."""
+    from .further import stability_with_warnings
+
+    return fork_call(stability_with_warnings, analysis, what="the alpha_cr check")
+
+
+def _join_further(job: "Forked | None", analysis: Analysis, req: SolveRequest, outcome: FileOutcome) -> None:
+    """Collect a check started by :func:`_start_further` (nothing when it
+    ran in this process or was collected already), then the moving loads;
+    the warnings join the model's and the outcome's."""
+    if job is None or not job.running:
+        return
+    from .further import run_further
+
+    stability, said = job.wait()
+    warnings = analysis.model.warnings
+    warnings += [w for w in said if w not in warnings]
+    analysis.further = run_further(analysis, req.influence, warnings, stability=stability)
+    _gather_warnings(outcome, analysis)
+
+
+def _gather_warnings(outcome: FileOutcome, analysis: Analysis) -> None:
+    """The model's and the determinacy check's warnings, in that order."""
+    model, det = analysis.model, analysis.determinacy
+    outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
+
+
+@contextlib.contextmanager
+def _stopped_at_exit(job: "Forked | None"):
+    """Kill and reap a forked check still running when the block ends (a
+    failure before it was collected)."""
+    try:
+        yield
+    finally:
+        if job is not None and job.running:
+            job.stop()
+
+
+class _LateBuckling(Exception):
+    """The alpha_cr check collected while drawing found a combination that
+    buckles: the result drawing is abandoned for the buckled one."""
 
 
 def _reported(analysis: Analysis) -> list[CaseResult]:
@@ -734,14 +797,18 @@ def _write_buckled(source: Path, out: Path, analysis: Analysis) -> None:
 
 
 def _further_layers(analysis: Analysis, force_u: str):
-    """The writer's ``extra``: buckled shape, vehicle axles, influence lines."""
-    fu = analysis.further
-    if fu is None or (fu.stability is None and fu.moving is None):
-        return None
-    from .draw import annotate_further
+    """The writer's ``extra``: buckled shape, vehicle axles, influence lines
+    (looked up when the writer calls it: a check run on the second core is
+    collected by then)."""
+    def draw(doc, content):
+        fu = analysis.further
+        if fu is None or (fu.stability is None and fu.moving is None):
+            return None
+        from .draw import annotate_further
 
-    return lambda doc, content: annotate_further(doc, analysis.model, fu.stability, fu.moving,
-                                                 layers=analysis.settings.output_layers, content=content)
+        return annotate_further(doc, analysis.model, fu.stability, fu.moving,
+                                layers=analysis.settings.output_layers, content=content)
+    return draw
 
 
 def _add_further(rep: dict, analysis: Analysis, force_u: str, length_u: str, influence_csv: Path | None) -> None:
@@ -832,6 +899,7 @@ class _Run:
     force_unit: str
     length_unit: str
     digest: str | None = None  # content hash for the revision history, taken before reading
+    further_job: "Forked | None" = None  # the alpha_cr check running on the second core, if it does
 
 
 def _prepare(source: Path, req: SolveRequest, outcome: FileOutcome) -> _Run:
@@ -845,8 +913,10 @@ def _prepare(source: Path, req: SolveRequest, outcome: FileOutcome) -> _Run:
     digest = _history_digest(source, req, settings)
     analysis = analyse(source, settings, length_unit=req.length_unit)
     model, det = analysis.model, analysis.determinacy
-    _run_further(analysis, req)
-    outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
+    forks = _further_forks(analysis, req)
+    if not forks:
+        _run_further(analysis, req)
+    _gather_warnings(outcome, analysis)
     if req.strict and outcome.warnings:
         raise Dxf2FrameError(strict_message(outcome.warnings))
     force_u, length_u = req.units or settings.output_units(model.length_unit)
@@ -855,7 +925,50 @@ def _prepare(source: Path, req: SolveRequest, outcome: FileOutcome) -> _Run:
     if req.probes and analysis.results:
         # a probe off every member is bad input: say so before anything is written
         report_mod.locate_points(model, req.probes)
-    return _Run(source, settings, paths, analysis, force_u, length_u, digest)
+    job = _start_further(analysis) if forks else None   # the last step: no refusal can follow
+    return _Run(source, settings, paths, analysis, force_u, length_u, digest, job)
+
+
+def _write_drawing(run: _Run, req: SolveRequest, outcome: FileOutcome, target: Path, show: str,
+                   saver: BackgroundSave) -> "DrawingSummary | None":
+    """The result drawing (or the buckled or mechanism one) into ``target``;
+    returns what the result drawing shows (None for the others).  A check
+    running on the second core is collected before the notes are drawn; if
+    a combination buckles the result drawing is abandoned for the buckled
+    one."""
+    from .draw import writer  # the preview (matplotlib) is imported only when a PNG is asked for
+
+    source, settings, analysis = run.source, run.settings, run.analysis
+    model, det = analysis.model, analysis.determinacy
+    force_u, length_u = run.force_unit, run.length_unit
+    sheet = None                                   # what the result drawing shows (its warnings)
+    if analysis.buckled is not None:
+        _write_buckled(source, target, analysis)
+    elif analysis.stable:
+        drawn_results, drawn_show = _pattern_drawing(analysis, show)
+
+        def before_notes() -> None:
+            # the alpha_cr check ran on the second core while the diagrams were drawn
+            _join_further(run.further_job, analysis, req, outcome)
+            if analysis.buckled is not None:
+                raise _LateBuckling
+
+        try:
+            sheet = writer.write_result_drawing(
+                source, target, model, det, drawn_results, show=drawn_show,
+                layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
+                document=analysis.document, drift=settings.drift_options(),
+                extra=_further_layers(analysis, force_u), saver=saver,
+                before_notes=before_notes if run.further_job is not None else None,
+                **drawing_scale_options(settings, model, req),
+            )
+        except _LateBuckling:
+            analysis.document = None               # annotated in part: the source is read again
+            _write_buckled(source, target, analysis)
+    else:
+        writer.write_mechanism_drawing(source, target, model, det, settings.output_layers,
+                                       document=analysis.document)
+    return sheet
 
 
 def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[list[Path], dict, dict]:
@@ -864,7 +977,6 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
     failure leaves the previous set of outputs complete and unchanged, or
     nothing.  Returns the files committed, the governing values and the
     report."""
-    from .draw import writer  # the preview (matplotlib) is imported only when a PNG is asked for
     from .report import report as report_mod
 
     source, settings, paths, analysis = run.source, run.settings, run.paths, run.analysis
@@ -872,25 +984,13 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
     force_u, length_u = run.force_unit, run.length_unit
     final = paths["drawing"].parent
     what = f"the results of {source.name}"
-    with OutputSet(final, what=what) as out_set, writing(what, final), BackgroundSave() as saver:
+    with OutputSet(final, what=what) as out_set, writing(what, final), BackgroundSave() as saver, \
+            _stopped_at_exit(run.further_job):
         staged = {k: out_set.staged(p.name) for k, p in paths.items()}
         t0 = time.perf_counter()
         show = req.show or settings.combinations_draw
-        sheet = None                                   # what the result drawing shows (its warnings)
-        if analysis.buckled is not None:
-            _write_buckled(source, staged["drawing"], analysis)
-        elif analysis.stable:
-            drawn_results, drawn_show = _pattern_drawing(analysis, show)
-            sheet = writer.write_result_drawing(
-                source, staged["drawing"], model, det, drawn_results, show=drawn_show,
-                layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
-                document=analysis.document, drift=settings.drift_options(),
-                extra=_further_layers(analysis, force_u), saver=saver,
-                **drawing_scale_options(settings, model, req),
-            )
-        else:
-            writer.write_mechanism_drawing(source, staged["drawing"], model, det, settings.output_layers,
-                                           document=analysis.document)
+        sheet = _write_drawing(run, req, outcome, staged["drawing"], show, saver)
+        _join_further(run.further_job, analysis, req, outcome)   # (collected above when drawn)
         analysis.timings["write"] = time.perf_counter() - t0
         # the preview before the report, so that a preview that fails is a
         # warning of the report as well as of the console

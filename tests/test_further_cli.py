@@ -59,7 +59,23 @@ def cantilever_column(P: str, H: str | None = None, L: float = 5.0):
 # -- second order ---------------------------------------------------------------
 
 
-def test_cantilever_column_alpha_cr_is_the_euler_load(tmp_path, capsys):
+@pytest.fixture(params=["here", "second core"])
+def check_where(request, monkeypatch):
+    """The alpha_cr check run in the solving process, or in a forked child
+    while the diagrams are drawn (dxf2frame.pipeline: from
+    STABILITY_FORK_MEMBERS members; 0 here so that these small frames take
+    that path): the outcome must be the same."""
+    if request.param == "second core":
+        import dxf2frame.pipeline as pipeline
+        from dxf2frame.forked import can_fork
+
+        if not can_fork():
+            pytest.skip("needs fork, two CPUs and a single-threaded process")
+        monkeypatch.setattr(pipeline, "STABILITY_FORK_MEMBERS", 0)
+    return request.param
+
+
+def test_cantilever_column_alpha_cr_is_the_euler_load(tmp_path, capsys, check_where):
     # Euler load of a cantilever column: Pcr = pi^2 EI / (4 L^2) (Euler;
     # Timoshenko and Gere, Theory of Elastic Stability, from memory)
     L, P = 5.0, 500e3
@@ -72,6 +88,11 @@ def test_cantilever_column_alpha_cr_is_the_euler_load(tmp_path, capsys):
     assert row["first_order_ok"] is False     # alpha_cr about 3.2 < 10 (common practice)
     assert "10" in so["criterion"] and "EN 1993-1-1" in so["criterion"]
     assert "second-order analysis is needed" in err
+    out = ezdxf.readfile(tmp_path / "solved" / "frame-results.dxf")
+    notes = " ".join(e.text for e in out.modelspace().query('MTEXT[layer=="RESULT-NOTES"]'))
+    assert "second-order analysis is needed" in notes.replace("\\P", " ")
+    assert len(out.modelspace().query('*[layer=="RESULT-BUCKLING"]')) >= 1
+    assert any("second-order analysis is needed" in w for w in report(tmp_path)["warnings"])
 
 
 def test_cantilever_column_p_delta_tip_moment_amplification(tmp_path, capsys):
@@ -122,7 +143,7 @@ def test_buckled_shape_of_a_column_line_is_one_polyline_true_to_the_euler_mode(t
         assert x / tip == pytest.approx(1 - math.cos(math.pi * y / (2 * L)), abs=0.02)
 
 
-def test_fixed_base_portal_with_rigid_beam_alpha_cr(tmp_path, capsys):
+def test_fixed_base_portal_with_rigid_beam_alpha_cr(tmp_path, capsys, check_where):
     # fixed base, rigid beam: each column fixed-guided, effective length
     # K = 1, Pcr = pi^2 EI / h^2 per column (sway-frame effective-length
     # chart with G_top = 0, G_base = 0; from memory)
@@ -143,7 +164,7 @@ def test_fixed_base_portal_with_rigid_beam_alpha_cr(tmp_path, capsys):
     assert alpha * 200e3 == pytest.approx(math.pi**2 * EI / h**2, rel=0.01)
 
 
-def test_combination_over_the_critical_load_is_reported_as_buckling(tmp_path, capsys):
+def test_combination_over_the_critical_load_is_reported_as_buckling(tmp_path, capsys, check_where):
     # 2000 kN exceeds pi^2 EI / (4 L^2) = 1579 kN (Euler, from memory): the
     # combination buckles, exit 3, named; no results, the buckled shape drawn
     rc, _, err = run(capsys, tmp_path, cantilever_column("2000 kN", "2 kN"), SECTIONS + ONE_COMBINATION)
@@ -157,6 +178,8 @@ def test_combination_over_the_critical_load_is_reported_as_buckling(tmp_path, ca
     notes = " ".join(e.text for e in out.modelspace().query('MTEXT[layer=="RESULT-NOTES"]'))
     assert "qualified engineer" in notes and "buckles" in notes
     assert not (tmp_path / "solved" / "frame-results.csv").exists()
+    for layer in ("RESULT-MOMENT", "RESULT-SHEAR", "RESULT-AXIAL"):   # no diagrams of a buckling frame
+        assert not out.modelspace().query(f'*[layer=="{layer}"]')
 
 
 def test_buckling_layer_is_remappable_and_check_can_be_off(tmp_path, capsys):

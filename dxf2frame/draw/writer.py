@@ -395,6 +395,7 @@ def annotate_results(
     text_height: float | None = None,
     scales: Mapping[str, float] | None = None,
     probes: Sequence[tuple[float, float]] = (),
+    before_notes: "Callable[[], None] | None" = None,
 ) -> DrawingSummary:
     """Draw the result layers into an open document (see the module docstring).
 
@@ -408,7 +409,10 @@ def annotate_results(
     {"moment"|"shear"|"axial": SI units per metre on the drawing};
     ``probes``: drawing points marked on the tags layer with N, V, M (of
     the drawn result; for an envelope, of the result with the largest
-    |M| there, keyed).
+    |M| there, keyed).  ``before_notes``: called once the diagrams and
+    their labels are drawn and before the legend and notes, which read the
+    model's warnings then (the pipeline collects work done meanwhile on
+    another core; an exception raised there abandons the drawing).
     """
     # Long by intent: the numbered steps below are the recipe of a result drawing; each is a call,
     # and the working arrays of one diagram are released before the next.
@@ -509,6 +513,8 @@ def annotate_results(
     content = (float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max()))
 
     # 6. legend and notes beside the frame
+    if before_notes is not None:
+        before_notes()
     if schedule_keys:
         used["reactions"] = used.get("reactions", set()) | schedule_keys
     keys = {key: [(k, sel.results[k].name) for k in sorted(ks)] for key, ks in used.items() if ks}
@@ -987,6 +993,7 @@ def write_result_drawing(
     probes: Sequence[tuple[float, float]] = (),
     extra: "Callable[[Drawing, DrawingObstacles | None], object] | None" = None,
     saver: "Callable[[Drawing, Path], None] | None" = None,
+    before_notes: "Callable[[], None] | None" = None,
 ) -> DrawingSummary:
     """Write a copy of ``source`` with the result layers to ``out`` (atomic);
     returns what was drawn (:class:`DrawingSummary`, with its warnings).
@@ -1009,6 +1016,7 @@ def write_result_drawing(
         before it is saved (the second-order and moving-load layers);
         called as ``extra(doc, content)`` with the drawing's own entities
         as obstacles (measured once, by the results' placement)
+    before_notes : see :func:`annotate_results`
     saver : optional: saves the annotated document to ``out`` instead of
         an atomic save here (:class:`dxf2frame.background_save.BackgroundSave`
         saves it on another core; the caller waits for it)
@@ -1023,7 +1031,8 @@ def write_result_drawing(
     doc = document if document is not None else _load_source(source)
     summary = annotate_results(doc, model, det, results, show=show, layers=layers,
                                force_unit=force_unit, length_unit=length_unit, drift=drift,
-                               text_height=text_height, scales=scales, probes=probes)
+                               text_height=text_height, scales=scales, probes=probes,
+                               before_notes=before_notes)
     if extra is not None:
         extra(doc, summary.content)
     if saver is not None:

@@ -24,6 +24,7 @@ __all__ = [
     "SECOND_ORDER_KIND",
     "INFLUENCE_CSV_COLUMNS",
     "run_stability",
+    "stability_with_warnings",
     "run_moving",
     "strength_combinations",
     "second_order_section",
@@ -63,16 +64,25 @@ class Further:
             report["moving"] = moving_section(self.moving, frame, uf)
 
 
-def run_further(analysis, influence=(), warnings: list[str] | None = None) -> Further:
+def stability_with_warnings(analysis) -> tuple[StabilityOutcome, list[str]]:
+    """:func:`run_stability` of an analysis with the warnings it gives (for
+    a call in another process, whose appends would not reach the caller)."""
+    said: list[str] = []
+    return run_stability(analysis, said), said
+
+
+def run_further(analysis, influence=(), warnings: list[str] | None = None,
+                stability: StabilityOutcome | None = None) -> Further:
     """The second-order step and the moving loads of a solved analysis
     (nothing for an unstable frame); ``influence`` are the probe points
     (X, Y) in drawing units; warnings are appended to ``warnings``.  A
-    buckling combination stops before the moving loads."""
+    buckling combination stops before the moving loads.  ``stability``:
+    the second-order step already done (its warnings already given)."""
     out = Further()
     if not analysis.stable:  # reported as unstable (exit 3): nothing more to compute
         return out
     said = warnings if warnings is not None else []
-    out.stability = run_stability(analysis, said)
+    out.stability = stability if stability is not None else run_stability(analysis, said)
     if out.buckled is None:
         s = analysis.settings
         if s.moving_path_layer is not None and not s.moving_vehicles and not influence:
