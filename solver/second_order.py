@@ -158,13 +158,27 @@ class _Prepared:
     fact: object = None  # K of the refined frame factorised (first use), the same for every combination
 
 
-def _prepare(frame: Frame, subdivisions: int | np.ndarray) -> _Prepared:
+def _prepare(frame: Frame, subdivisions: int | np.ndarray, base: _Prepared | None = None) -> _Prepared:
+    """The frame and its refined copy prepared; ``base`` a preparation of
+    the same frame whose drawn model and load vectors are reused.  One
+    piece per member is the drawn model itself."""
     cases = list(frame.cases())
-    model0 = prepare(frame)  # checks geometry, sections, supports
-    cases0 = load_vectors(model0, cases)  # checks loads
-    refined = subdivide(frame, subdivisions)
-    model = prepare(refined.frame)
-    return _Prepared(frame, model0, cases0, refined, model, load_vectors(model, cases),
+    if base is not None:
+        model0, cases0 = base.model0, base.cases0
+    else:
+        model0 = prepare(frame)  # checks geometry, sections, supports
+        cases0 = load_vectors(model0, cases)  # checks loads
+    m = len(frame.members)
+    if np.all(np.asarray(subdivisions) == 1):
+        ends = np.column_stack([model0.si, model0.ei]).ravel()
+        refined = RefinedFrame(frame, 1, len(frame.nodes), np.ones(m, dtype=np.intp),
+                               np.arange(m + 1, dtype=np.intp), ends.astype(np.intp))
+        model, cases_r = model0, cases0
+    else:
+        refined = subdivide(frame, subdivisions)
+        model = prepare(refined.frame)
+        cases_r = load_vectors(model, cases)
+    return _Prepared(frame, model0, cases0, refined, model, cases_r,
                      condensation_map(model.k_full, model.rel_s, model.rel_e))
 
 
@@ -548,7 +562,7 @@ def critical_load_factors(frame: Frame, combinations, *, subdivisions: int = 4, 
             first.append((st, found, mode if rho < 1.0 else None))
         if counts.max() == 1:   # (then every rho < 1: no mode was dropped above)
             return {st.name: _result(st, found, mode, most + 1, raise_if_buckles) for st, found, mode in first}
-        prep = _prepare(frame, counts)
+        prep = _prepare(frame, counts, rough)
     else:
         prep = _prepare(frame, most)
     out = {}
