@@ -43,14 +43,20 @@ def test_child_writes_the_same_drawing(tmp_path):
     assert sorted(p.name for p in tmp_path.iterdir()) == ["a.dxf", "b.dxf"]   # no temporary file left
 
 
-@forking
-def test_a_full_disk_in_the_child_is_an_oserror_with_its_errno(tmp_path, monkeypatch):
-    def full(self, *a, **k):
-        raise OSError(errno.ENOSPC, "No space left on device")
+def _saving_raises(monkeypatch, tmp_path, exc: BaseException) -> BackgroundSave:
+    """A child process started to save, whose ezdxf save raises ``exc``."""
+    def failing(self, *a, **k):
+        raise exc
 
-    monkeypatch.setattr(ezdxf.document.Drawing, "saveas", full)
+    monkeypatch.setattr(ezdxf.document.Drawing, "saveas", failing)
     saver = BackgroundSave(min_entities=0)
     saver(_doc(), tmp_path / "a.dxf")
+    return saver
+
+
+@forking
+def test_a_full_disk_in_the_child_is_an_oserror_with_its_errno(tmp_path, monkeypatch):
+    saver = _saving_raises(monkeypatch, tmp_path, OSError(errno.ENOSPC, "No space left on device"))
     with pytest.raises(OSError) as info:
         saver.wait()
     assert info.value.errno == errno.ENOSPC
@@ -59,29 +65,20 @@ def test_a_full_disk_in_the_child_is_an_oserror_with_its_errno(tmp_path, monkeyp
 
 @forking
 def test_other_failures_of_the_child_are_raised_as_they_were(tmp_path, monkeypatch):
-    def broken(self, *a, **k):
-        raise ValueError("an entity the writer cannot export")
-
-    monkeypatch.setattr(ezdxf.document.Drawing, "saveas", broken)
-    saver = BackgroundSave(min_entities=0)
-    saver(_doc(), tmp_path / "a.dxf")
+    saver = _saving_raises(monkeypatch, tmp_path, ValueError("an entity the writer cannot export"))
     with pytest.raises(ValueError, match="an entity the writer cannot export"):
         saver.wait()
 
 
+class _Unpicklable(Exception):
+    def __reduce__(self):
+        raise TypeError("no pickling")
+
+
 @forking
 def test_an_exception_that_does_not_pickle_is_named(tmp_path, monkeypatch):
-    class Odd(Exception):
-        def __reduce__(self):
-            raise TypeError("no pickling")
-
-    def broken(self, *a, **k):
-        raise Odd("a lock inside")
-
-    monkeypatch.setattr(ezdxf.document.Drawing, "saveas", broken)
-    saver = BackgroundSave(min_entities=0)
-    saver(_doc(), tmp_path / "a.dxf")
-    with pytest.raises(BackgroundSaveError, match="Odd: a lock inside"):
+    saver = _saving_raises(monkeypatch, tmp_path, _Unpicklable("a lock inside"))
+    with pytest.raises(BackgroundSaveError, match="_Unpicklable: a lock inside"):
         saver.wait()
 
 
