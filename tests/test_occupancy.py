@@ -96,6 +96,22 @@ def test_far_from_the_origin_and_a_wide_spread():
         assert np.array_equal(got, _shapely_free(geoms, x0, y0, x1, y1))
 
 
+def test_more_slanted_pieces_than_held_gives_the_same_answer(monkeypatch):
+    """Slanted lines that would be cut into more half-cell pieces than the
+    grid holds at once are covered by their extents only: the boxes near
+    them go to the exact test, the answers stay shapely's."""
+    import dxf2frame.draw.occupancy as occupancy
+
+    monkeypatch.setattr(occupancy, "_MAX_PIECES", 50)
+    rng = np.random.default_rng(11)
+    geoms = _obstacles(rng, 60)
+    m = 2000
+    x0, y0 = rng.uniform(-3, 23, m), rng.uniform(-3, 23, m)
+    x1, y1 = x0 + rng.uniform(0, 3, m), y0 + 1.0
+    got = Occupancy(geoms, 0.05).free(x0, y0, x1, y1)
+    assert np.array_equal(got, _shapely_free(geoms, x0, y0, x1, y1))
+
+
 def test_no_obstacles_every_box_is_free():
     occ = Occupancy([None, shapely.LineString()], 1.0)
     assert Occupancy([], 1.0).free([0.0], [0.0], [1.0], [1.0]).all()

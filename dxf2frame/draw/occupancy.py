@@ -37,6 +37,7 @@ __all__ = ["Occupancy", "present"]
 _MAX_CELLS = 1_000_000     # cells of one grid (4 MB a table); a wider spread gets larger cells (more exact tests)
 _FEW = 16                  # boxes tested straight by the STRtree, before the grids are made
 _MARGIN = 1e-7             # safety margin against rounding [cells], plus a relative part of the coordinates
+_MAX_PIECES = 500_000      # half-cell pieces of slanted segments; beyond, their extents only (memory)
 
 
 def present(geoms: Sequence) -> np.ndarray:
@@ -129,10 +130,15 @@ class Occupancy:
             sure.append(segs[axis])
             maybe.append(segs[axis])
             a, z = a[~axis], z[~axis]
-            if len(a):
+            n = np.maximum(np.ceil(np.hypot(*(z - a).T) / (0.5 * self._cell)).astype(int), 1)
+            if len(a) and n.sum() > _MAX_PIECES:
+                # too many pieces to hold at once (a 20,000-member frame's diagram outlines
+                # in a fine grid: some 200 MB): the segments' extents only, so the boxes near
+                # them are left to the exact test
+                maybe.append(np.column_stack([np.minimum(a, z), np.maximum(a, z)]))
+            elif len(a):
                 # slanted segments: pieces of at most half a cell; their ends lie on the
                 # segment (surely touched cells), their extents cover it (maybe touched)
-                n = np.maximum(np.ceil(np.hypot(*(z - a).T) / (0.5 * self._cell)).astype(int), 1)
                 seg = np.repeat(np.arange(len(a)), n + 1)
                 t = (np.arange(int(n.sum() + len(n))) - np.repeat(np.cumsum(n + 1) - (n + 1), n + 1)) / n[seg]
                 p = a[seg] + (z - a)[seg] * t[:, None]
