@@ -984,8 +984,8 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
     force_u, length_u = run.force_unit, run.length_unit
     final = paths["drawing"].parent
     what = f"the results of {source.name}"
-    with OutputSet(final, what=what) as out_set, writing(what, final), BackgroundSave() as saver, \
-            _stopped_at_exit(run.further_job):
+    with _stopped_at_exit(run.further_job), OutputSet(final, what=what) as out_set, writing(what, final), \
+            BackgroundSave() as saver:
         staged = {k: out_set.staged(p.name) for k, p in paths.items()}
         t0 = time.perf_counter()
         show = req.show or settings.combinations_draw
