@@ -20,6 +20,7 @@ from hypothesis import strategies as st
 
 from dxf2frame.solver import DistributedLoad, Frame, LoadError, NodalLoad, PointLoad, Section, solve
 from dxf2frame.solver.patterns import pattern_envelope, pattern_parts
+from solver_frames import two_bay_portal
 
 SEC = Section(200e9, 5e-3, 8e-5)
 
@@ -183,14 +184,7 @@ def test_two_bay_frame_parts_are_the_beams():
     # two bays, fixed bases; live load on both beams.  Every arrangement is
     # solved on its own (superposition check, independent of the parts).
     def frame(on1, on2):
-        f = Frame()
-        b = [f.add_node(x, 0.0) for x in (0.0, 6.0, 12.0)]
-        t = [f.add_node(x, 4.0) for x in (0.0, 6.0, 12.0)]
-        for i in range(3):
-            f.add_member(b[i], t[i], SEC, id=f"C{i + 1}")
-            f.add_support(b[i], "fixed")
-        f.add_member(t[0], t[1], SEC, id="B1")
-        f.add_member(t[1], t[2], SEC, id="B2")
+        f = two_bay_portal(SEC)
         if on1:
             f.add_load(DistributedLoad("B1", q1=(0, -12e3), case="L"))
         if on2:

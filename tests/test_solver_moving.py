@@ -16,6 +16,7 @@ from dxf2frame.solver import (
     path_along_members,
     path_through_points,
 )
+from solver_frames import two_bay_portal
 
 SEC = Section(E=200e9, A=5e-3, I=8e-5)   # Pa, m^2, m^4
 
@@ -308,15 +309,7 @@ def _two_bay_portal() -> tuple[Frame, list[tuple[str, float, float]]]:
     the beams: the columns carry end forces only, and their end moments
     take every proportion as the vehicle crosses (sway and bending of the
     beams mixed)."""
-    f = Frame()
-    feet = [f.add_node(x, 0.0) for x in (0.0, 6.0, 12.0)]
-    tops = [f.add_node(x, 4.0) for x in (0.0, 6.0, 12.0)]
-    for k in range(3):
-        f.add_member(feet[k], tops[k], SEC, id=f"C{k}")
-        f.add_support(feet[k], "fixed")
-    f.add_member(tops[0], tops[1], SEC, id="B1")
-    f.add_member(tops[1], tops[2], SEC, id="B2")
-    return f, [("B1", 0.0, 6.0), ("B2", 0.0, 6.0)]
+    return two_bay_portal(SEC, first_column=0), [("B1", 0.0, 6.0), ("B2", 0.0, 6.0)]
 
 
 @pytest.mark.parametrize("frame, direction, step, vehicle, cells, ways", [
