@@ -462,3 +462,42 @@ def test_column_envelope_inside_governed_by_placements_that_govern_neither_end()
             got = [fronts.index((fr, int(dr))) for fr, dr in zip(e.front[key], e.direction[key])]
             assert np.allclose(M[got, np.arange(len(e.x))], e.values[key], rtol=0, atol=1e-9 * scale)
     assert inside_only >= 10  # the hard case: many points governed by placements governing no end
+
+
+@pytest.mark.parametrize("loads, spacings", [((60e3, 40e3), (1.3,)), ((60e3, 40e3, 30e3), (0.7, 2.1))])
+def test_a_decimal_step_never_hides_a_shear_extreme(loads, spacings):
+    # with a step of 0.1 m (not a binary fraction) a station can round to
+    # two positions; whichever side of an axle's jump a sample then takes,
+    # the envelope must be at least as extreme as every placement at the
+    # exact decimal positions, both sides of every sample (direct solves
+    # of point loads by the ordinary solver, independent of the envelope)
+    from dxf2frame.solver import PointLoad, solve
+
+    def span():
+        f = Frame()
+        a, b = f.add_node(0.0, 0.0), f.add_node(10.0, 0.0)
+        f.add_member(a, b, SEC, id="S")
+        f.add_support(a, "pin")
+        f.add_support(b, "roller")
+        return f
+
+    env = MovingLoads(span(), path_along_members(span(), ["S"])).envelope(Vehicle(loads, spacings), step=0.1)["S"]
+    offsets = np.concatenate([[0.0], np.cumsum(spacings)])
+    vmax, vmin = np.full(len(env.x), -np.inf), np.full(len(env.x), np.inf)
+    for d in (1, -1):
+        for k in range(int(round((10.0 + offsets[-1]) * 10)) + 1):
+            g = span()
+            where = [k / 10 - o if d == 1 else 10.0 - k / 10 + o for o in offsets]
+            on = [(w, s) for w, s in zip(loads, where) if -1e-12 <= s <= 10.0 + 1e-12]
+            if not on:
+                continue
+            for w, s in on:
+                g.add_load(PointLoad("S", min(max(s, 0.0), 10.0), 0.0, -w, case="D"))
+            r = solve(g)["D"].members["S"]
+            for i, xi in enumerate(env.x):
+                for xx in (max(xi - 1e-7, 0.0), min(xi + 1e-7, 10.0)):
+                    v = r.shear(xx)
+                    vmax[i], vmin[i] = max(vmax[i], v), min(vmin[i], v)
+    tol = 1e-6 * max(loads)
+    assert np.all(env.values["V_max"] >= vmax - tol)
+    assert np.all(env.values["V_min"] <= vmin + tol)
