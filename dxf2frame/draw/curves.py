@@ -67,6 +67,8 @@ CHORD_REL = 0.01          # chord tolerance / the element's largest ordinate
 
 # -- geometry of the frame -----------------------------------------------------
 
+_TEXT_RATIO = 1.0 / 60.0   # default text height / frame size
+
 
 @dataclass
 class FrameGeom:
@@ -79,6 +81,12 @@ class FrameGeom:
     length_m: np.ndarray  # (m,) metres
     bounds: tuple[float, float, float, float]
     size: float
+
+    @property
+    def text_height(self) -> float:
+        """The result texts' default height [drawing units]: 1/60 of the
+        frame's size, to two significant digits."""
+        return float(f"{self.size * _TEXT_RATIO:.2g}")
 
 
 def frame_geom(model: "DrawingModel") -> FrameGeom:

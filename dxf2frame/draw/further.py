@@ -33,7 +33,6 @@ __all__ = ["further_layer_names", "annotate_further", "write_buckling_drawing"]
 
 _SHAPE_TARGET = 0.10    # largest drawn buckling movement / frame size
 _INFLUENCE_TARGET = 0.12  # largest influence ordinate / frame size
-_TEXT_RATIO = 1.0 / 60.0
 
 
 def further_layer_names(layers: Mapping[str, str] | None = None) -> dict[str, str]:
@@ -78,6 +77,16 @@ def _buckled_shape(pen: Pen, model, b, layer: str, size: float, h: float, label:
     pen.text(label, top + np.array([0.0, 1.5 * h]), h, layer)
 
 
+def _fresh_layers(doc: "Drawing", model, *layer_sets: dict[str, str]):
+    """Empty and set up each set of result layers; (frame geometry, its
+    size, the default text height) [drawing units]."""
+    for names in layer_sets:
+        clear_result_layers(doc, names.values())
+        prepare_layers(doc, names)
+    geom = frame_geom(model)
+    return geom, geom.size, geom.text_height
+
+
 def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
                      layers: Mapping[str, str] | None = None,
                      content: DrawingObstacles | None = None) -> list[str]:
@@ -88,11 +97,7 @@ def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
     has them (the first-order writer measures them); only the result
     layers are measured here then."""
     names = further_layer_names(layers)
-    clear_result_layers(doc, names.values())
-    prepare_layers(doc, names)
-    geom = frame_geom(model)
-    size = geom.size
-    h = float(f"{size * _TEXT_RATIO:.2g}")
+    geom, size, h = _fresh_layers(doc, model, names)
     ours = {n.upper() for n in names.values()}
     # the drafter's content and the first-order result layers, before these layers are drawn
     if content is None:
@@ -167,15 +172,8 @@ def write_buckling_drawing(source: Path, out: Path, model, det, stability, *,
     import ezdxf
 
     doc = document if document is not None else ezdxf.readfile(str(source))
-    names = result_layer_names(layers)
-    clear_result_layers(doc, names.values())
-    prepare_layers(doc, names)
-    fnames = further_layer_names(layers)
-    clear_result_layers(doc, fnames.values())
-    prepare_layers(doc, fnames)
-    geom = frame_geom(model)
-    size = geom.size
-    h = float(f"{size * _TEXT_RATIO:.2g}")
+    names, fnames = result_layer_names(layers), further_layer_names(layers)
+    geom, size, h = _fresh_layers(doc, model, names, fnames)
     pen = Pen(doc, size)
     b = stability.buckled
     _buckled_shape(pen, model, b, fnames["buckling"], size, h, f"buckles: {b.name}")

@@ -97,7 +97,6 @@ _ORDINATE_TARGET = 0.115   # largest ordinate / frame size, before rounding the 
 _DUST = 1e-150
 _DEFLECTION_TARGET = 0.05  # largest drawn displacement / frame size
 _MECHANISM_TARGET = 0.10   # largest drawn mechanism movement / frame size
-_TEXT_RATIO = 1.0 / 60.0   # text height / frame size
 _ZERO_LABEL = 5e-4         # |M| below this fraction of the diagram max counts as zero when finding crossings
 _MAX_ZEROS = 2             # moment zero crossings marked per element
 _NICE = (1.0, 1.2, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0, 10.0)
@@ -425,7 +424,7 @@ def annotate_results(
     obst = _drawing_content(doc, names.values())       # the drawing's own, before we add ours
     geom = frame_geom(model)
     size = geom.size
-    h = text_height if text_height and text_height > 0 else float(f"{size * _TEXT_RATIO:.2g}")
+    h = text_height if text_height and text_height > 0 else geom.text_height
     pen = Pen(doc, size)
     summary = DrawingSummary(layers=names, text_height=h, shown=sel.label, content=obst)
     frame = model.frame
@@ -1065,7 +1064,7 @@ def annotate_mechanism(doc: "Drawing", model: "DrawingModel", det,
     prepare_layers(doc, {k: names[k] for k in drawn_here})
     geom = frame_geom(model)
     size = geom.size
-    h = float(f"{size * _TEXT_RATIO:.2g}")
+    h = geom.text_height
     pen = Pen(doc, size)
     frame = model.frame
     layer = names["mechanism"]
