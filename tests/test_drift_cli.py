@@ -41,8 +41,10 @@ builtin = []
 """
 
 
-def _portal(tmp_path, h: float, span: float, push_kn: float, name: str = "portal.dxf"):
-    doc = new_drawing(units="m")
+def _portal_doc(h: float, span: float, push_kn: float, *, units: str = "m", push_at: float | None = None):
+    """A fixed-base portal in drawing units, pushed toward +X at the left
+    column's height ``push_at`` (default: its top)."""
+    doc = new_drawing(units=units)
     msp = doc.modelspace()
     doc.layers.add("FRAME-BEAMS")
     add_member(msp, (0, 0), (0, h))
@@ -50,8 +52,12 @@ def _portal(tmp_path, h: float, span: float, push_kn: float, name: str = "portal
     add_member(msp, (0, h), (span, h), layer="FRAME-BEAMS")
     add_support(msp, "fixed", (0, 0))
     add_support(msp, "fixed", (span, 0))
-    add_load(msp, "force", (0, h), P=f"{push_kn} kN", ANGLE="0", CASE="W")   # acts toward +X
-    return save(doc, tmp_path / name)
+    add_load(msp, "force", (0, h if push_at is None else push_at), P=f"{push_kn} kN", ANGLE="0", CASE="W")
+    return doc
+
+
+def _portal(tmp_path, h: float, span: float, push_kn: float, name: str = "portal.dxf"):
+    return save(_portal_doc(h, span, push_kn), tmp_path / name)
 
 
 def _solve(tmp_path, path, capsys, *extra):
@@ -225,15 +231,7 @@ def test_levels_from_settings(tmp_path, capsys):
 def test_drawing_in_millimetres_levels_in_drawing_units(tmp_path, capsys):
     h, L, H, ib = 4.0, 6.0, 10e3, 1.2e-4
     _settings(tmp_path, _sections(ib) + "[drift]\nlevels = [4000]\n")
-    doc = new_drawing(units="mm")
-    msp = doc.modelspace()
-    doc.layers.add("FRAME-BEAMS")
-    add_member(msp, (0, 0), (0, 4000))
-    add_member(msp, (6000, 0), (6000, 4000))
-    add_member(msp, (0, 4000), (6000, 4000), layer="FRAME-BEAMS")
-    add_support(msp, "fixed", (0, 0))
-    add_support(msp, "fixed", (6000, 0))
-    add_load(msp, "force", (0, 4000), P="10 kN", ANGLE="0", CASE="W")
+    doc = _portal_doc(4000, 6000, 10, units="mm")
     code, rep, text, *_ = _solve(tmp_path, save(doc, tmp_path / "mm.dxf"), capsys, "--units", "kN,mm")
     assert code == 0, text.err
     (st,) = rep["storeys"]
@@ -247,20 +245,13 @@ def test_storey_warnings_give_levels_in_the_drawing_unit(tmp_path, capsys):
     the warning names the level as the drafter drew it (mm here), not in
     the solver's metres."""
     _settings(tmp_path, _sections(1.2e-4))
-    doc = new_drawing(units="mm")
+    doc = _portal_doc(3000, 6000, 10, units="mm", push_at=6000)
     msp = doc.modelspace()
-    doc.layers.add("FRAME-BEAMS")
-    add_member(msp, (0, 0), (0, 3000))
-    add_member(msp, (6000, 0), (6000, 3000))
-    add_member(msp, (0, 3000), (6000, 3000), layer="FRAME-BEAMS")
     add_member(msp, (0, 3000), (0, 6000))
     add_member(msp, (3000, 4500), (3000, 6000))          # a post standing on nothing at the lower level
     add_member(msp, (6000, 3000), (6000, 6000))
     add_member(msp, (0, 6000), (6000, 6000), layer="FRAME-BEAMS")
     add_member(msp, (3000, 4500), (6000, 4500), layer="FRAME-BEAMS")
-    add_support(msp, "fixed", (0, 0))
-    add_support(msp, "fixed", (6000, 0))
-    add_load(msp, "force", (0, 6000), P="10 kN", ANGLE="0", CASE="W")
     code, rep, text, *_ = _solve(tmp_path, save(doc, tmp_path / "mm.dxf"), capsys)
     assert code == 0, text.err
     warned = [w for w in text.err.splitlines() if "does not reach the level" in w]
