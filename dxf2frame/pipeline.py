@@ -477,6 +477,13 @@ def _storey_checks(report: dict) -> dict:
             "deflection_fails": "deflection" in kinds, "drift_fails": "drift" in kinds}
 
 
+def _strength_results(results: list[dict]) -> list[dict]:
+    """The report's strength results: the LRFD combinations, else every
+    combination, else the load cases."""
+    combos = [r for r in results if r.get("kind") == "combination"]
+    return [r for r in combos if r.get("family") == "LRFD"] or combos or results
+
+
 def _governing(report: dict) -> dict[str, float | None]:
     """Largest |M|, |V|, |N| over the strength combinations (LRFD family,
     else every combination, else the cases) and the worst span/deflection
@@ -485,7 +492,7 @@ def _governing(report: dict) -> dict[str, float | None]:
     from a report dict."""
     results = report.get("results", [])
     combos = [r for r in results if r.get("kind") == "combination"]
-    strength = [r for r in combos if r.get("family") == "LRFD"] or combos or results
+    strength = _strength_results(results)
     service = [r for r in combos if r.get("family") == "ASD"] or \
         [r for r in results if r.get("kind") == "case"]
     big: dict[str, float | None] = {"m": None, "v": None, "n": None}
@@ -548,9 +555,7 @@ def _pattern_governing(report: dict, governing: dict) -> None:
     the strength results (as :func:`_governing` picks them)."""
     if not report.get("patterns"):
         return
-    results = report.get("results", [])
-    combos = [r for r in results if r.get("kind") == "combination"]
-    strength = {r["name"] for r in ([r for r in combos if r.get("family") == "LRFD"] or combos or results)}
+    strength = {r["name"] for r in _strength_results(report.get("results", []))}
     for p in report["patterns"]:
         for res in p["results"]:
             if res["name"] not in strength:
@@ -796,7 +801,7 @@ def _write_buckled(source: Path, out: Path, analysis: Analysis) -> None:
                            layers=analysis.settings.output_layers, document=analysis.document)
 
 
-def _further_layers(analysis: Analysis, force_u: str):
+def _further_layers(analysis: Analysis):
     """The writer's ``extra``: buckled shape, vehicle axles, influence lines
     (looked up when the writer calls it: a check run on the second core is
     collected by then)."""
@@ -958,7 +963,7 @@ def _write_drawing(run: _Run, req: SolveRequest, outcome: FileOutcome, target: P
                 source, target, model, det, drawn_results, show=drawn_show,
                 layers=settings.output_layers, force_unit=force_u, length_unit=length_u,
                 document=analysis.document, drift=settings.drift_options(),
-                extra=_further_layers(analysis, force_u), saver=saver,
+                extra=_further_layers(analysis), saver=saver,
                 before_notes=before_notes if run.further_job is not None else None,
                 **drawing_scale_options(settings, model, req),
             )
