@@ -36,10 +36,27 @@ __all__ = [
     "clamped_fixed_end_forces",
     "fixed_end_forces",
     "geometric_stiffness",
+    "hermite_shapes",
+    "hermite_slopes",
 ]
 
 _GAUSS_S = np.array([-math.sqrt(0.6), 0.0, math.sqrt(0.6)])
 _GAUSS_W = np.array([5.0, 8.0, 5.0]) / 9.0
+
+
+def hermite_shapes(xi, L) -> tuple:
+    """The cubic shape functions of the transverse displacement at the
+    fractions ``xi`` of elements of length ``L``: ``v = h1 v_i + h2 th_i +
+    h3 v_j + h4 th_j`` (the rotation ones carry the length)."""
+    return (1 - 3 * xi**2 + 2 * xi**3, L * (xi - 2 * xi**2 + xi**3),
+            3 * xi**2 - 2 * xi**3, L * (-(xi**2) + xi**3))
+
+
+def hermite_slopes(xi, L) -> tuple:
+    """Their slopes d/dx at the fractions ``xi``: ``v' = d1 v_i + d2 th_i +
+    d3 v_j + d4 th_j`` [1/length for d1, d3; dimensionless for d2, d4]."""
+    return ((-6 * xi + 6 * xi**2) / L, 1 - 4 * xi + 3 * xi**2,
+            (6 * xi - 6 * xi**2) / L, -2 * xi + 3 * xi**2)
 
 
 def full_local_stiffness(L: np.ndarray, EA: np.ndarray, EI: np.ndarray) -> np.ndarray:
@@ -118,15 +135,8 @@ def clamped_fixed_end_forces(L: np.ndarray, loads: LoadSet) -> np.ndarray:
     m = len(L)
     out = np.zeros((m, 6))
 
-    def shapes(xi, Lm):
-        h1 = 1 - 3 * xi**2 + 2 * xi**3
-        h2 = Lm * (xi - 2 * xi**2 + xi**3)
-        h3 = 3 * xi**2 - 2 * xi**3
-        h4 = Lm * (-(xi**2) + xi**3)
-        return h1, h2, h3, h4
-
     def add(mem, px, py, xi, Lm):
-        h1, h2, h3, h4 = shapes(xi, Lm)
+        h1, h2, h3, h4 = hermite_shapes(xi, Lm)
         vals = -np.column_stack([(1 - xi) * px, h1 * py, h2 * py, xi * px, h3 * py, h4 * py])
         for col in range(6):
             out[:, col] += np.bincount(mem, weights=vals[:, col], minlength=m)
@@ -139,11 +149,7 @@ def clamped_fixed_end_forces(L: np.ndarray, loads: LoadSet) -> np.ndarray:
     if len(C):
         mem = loads.couple_member
         Lm = L[mem]
-        xi = C[:, 0] / Lm
-        d1 = (-6 * xi + 6 * xi**2) / Lm
-        d2 = 1 - 4 * xi + 3 * xi**2
-        d3 = (6 * xi - 6 * xi**2) / Lm
-        d4 = -2 * xi + 3 * xi**2
+        d1, d2, d3, d4 = hermite_slopes(C[:, 0] / Lm, Lm)
         c = C[:, 1]
         vals = -np.column_stack([0 * c, d1 * c, d2 * c, 0 * c, d3 * c, d4 * c])
         for col in range(6):
@@ -239,14 +245,12 @@ def geometric_stiffness(length, axial, axial_end=None) -> np.ndarray:
     if axial_end is not None:
         P2 = np.broadcast_to(np.asarray(axial_end, dtype=float), L.shape)
         blk = np.zeros((len(L), 4, 4))
-        r = math.sqrt(15.0) / 10.0
-        for xi, w in ((0.5 - r, 5 / 18), (0.5, 8 / 18), (0.5 + r, 5 / 18)):
-            # slopes of the Hermite cubics d/dx = (1/L) d/dxi, rotations times L
-            d = np.column_stack([np.full_like(L, 6 * xi * xi - 6 * xi), L * (1 - 4 * xi + 3 * xi * xi),
-                                 np.full_like(L, 6 * xi - 6 * xi * xi), L * (3 * xi * xi - 2 * xi)])
-            blk += (w * (P + (P2 - P) * xi) / L)[:, None, None] * d[:, :, None] * d[:, None, :]
-        g[:, 1:3, 1:3], g[:, 1:3, 4:6] = blk[:, 0:2, 0:2], blk[:, 0:2, 2:4]
-        g[:, 4:6, 1:3], g[:, 4:6, 4:6] = blk[:, 2:4, 0:2], blk[:, 2:4, 2:4]
+        for s, w in zip(_GAUSS_S, _GAUSS_W):
+            xi = 0.5 + 0.5 * s
+            d = np.column_stack(np.broadcast_arrays(*hermite_slopes(xi, L)))
+            blk += (0.5 * w * L * (P + (P2 - P) * xi))[:, None, None] * d[:, :, None] * d[:, None, :]
+        idx = np.array(v)
+        g[:, idx[:, None], idx] = blk
         return g
     a = P / L
     block = [[6 / 5, L / 10, -6 / 5, L / 10],

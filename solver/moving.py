@@ -55,7 +55,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.sparse as sp
 
-from .element import condense
+from .element import condense, hermite_shapes
 from .errors import LoadError, SolverError
 from .model import Frame
 from .stiffness import FrameModel, displacements, factorise, prepare, support_reactions
@@ -344,10 +344,7 @@ def _unit_fixed_end_forces(model: FrameModel, j: np.ndarray, a: np.ndarray, p: n
     shapes, as :func:`solver.element.clamped_fixed_end_forces`)."""
     Lm = model.L[j]
     xi = a / Lm
-    h1 = 1 - 3 * xi**2 + 2 * xi**3
-    h2 = Lm * (xi - 2 * xi**2 + xi**3)
-    h3 = 3 * xi**2 - 2 * xi**3
-    h4 = Lm * (-(xi**2) + xi**3)
+    h1, h2, h3, h4 = hermite_shapes(xi, Lm)
     px, py = p[:, 0], p[:, 1]
     f0 = -np.column_stack([(1 - xi) * px, h1 * py, h2 * py, xi * px, h3 * py, h4 * py])
     rs, re = model.rel_s[j], model.rel_e[j]

@@ -49,7 +49,7 @@ import scipy.sparse as sp
 from scipy.sparse.linalg import LinearOperator, eigsh
 
 from .combinations import format_combination, parse_combination
-from .element import condensation_map, geometric_stiffness
+from .element import condensation_map, geometric_stiffness, hermite_shapes, hermite_slopes
 from .errors import SolverError, UnstableFrameError
 from .model import Frame
 from .refine import RefinedFrame, subdivide
@@ -349,12 +349,9 @@ def _along(st: _Setup, g: np.ndarray, j: np.ndarray, t: np.ndarray) -> np.ndarra
     d = np.column_stack([c * gi[:, 0] + sn * gi[:, 1], -sn * gi[:, 0] + c * gi[:, 1], gi[:, 2],
                          c * gj[:, 0] + sn * gj[:, 1], -sn * gj[:, 0] + c * gj[:, 1], gj[:, 2]])
     d = np.einsum("mij,mj->mi", st.C[e], d)
-    x2, x3 = x * x, x * x * x
     u = (1.0 - x) * d[:, 0] + x * d[:, 3]
-    v = ((1 - 3 * x2 + 2 * x3) * d[:, 1] + h * (x - 2 * x2 + x3) * d[:, 2]
-         + (3 * x2 - 2 * x3) * d[:, 4] + h * (x3 - x2) * d[:, 5])
-    th = ((6 * x2 - 6 * x) * d[:, 1] + (6 * x - 6 * x2) * d[:, 4]) / h \
-        + (1 - 4 * x + 3 * x2) * d[:, 2] + (3 * x2 - 2 * x) * d[:, 5]
+    v = sum(f * d[:, k] for f, k in zip(hermite_shapes(x, h), (1, 2, 4, 5)))
+    th = sum(f * d[:, k] for f, k in zip(hermite_slopes(x, h), (1, 2, 4, 5)))
     return np.column_stack([c * u - sn * v, sn * u + c * v, th])
 
 
