@@ -968,6 +968,7 @@ def _write_drawing(run: _Run, req: SolveRequest, outcome: FileOutcome, target: P
                 **drawing_scale_options(settings, model, req),
             )
         except _LateBuckling:
+            saver.drop()                           # the result drawing begun early is not saved
             analysis.document = None               # annotated in part: the source is read again
             _write_buckled(source, target, analysis)
     else:

@@ -474,6 +474,8 @@ def test_a_child_that_cannot_save_is_exit_4_and_keeps_the_previous_set(solved_on
         raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
 
     monkeypatch.setattr(ezdxf.document.Drawing, "saveas", full)
+    # the save begun once the diagrams are drawn (dxf2frame.split_export) fails the same way
+    monkeypatch.setattr("dxf2frame.split_export.write_entities", full)
     rc, _, err = run_cli(capsys, "solve", path, "--out", out, "--report", rep / "frame.json")
     assert rc == 4, err
     assert "cannot write the results of frame.dxf" in err and "No space left" in err

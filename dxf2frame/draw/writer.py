@@ -1018,7 +1018,10 @@ def write_result_drawing(
     before_notes : see :func:`annotate_results`
     saver : optional: saves the annotated document to ``out`` instead of
         an atomic save here (:class:`dxf2frame.background_save.BackgroundSave`
-        saves it on another core; the caller waits for it)
+        saves it on another core; the caller waits for it); a saver with a
+        ``begin(doc, out)`` method is told when the diagrams and labels are
+        drawn (from then on only the legend, notes and ``extra`` layers
+        are added), so that it can start writing
 
     Raises
     ------
@@ -1028,10 +1031,17 @@ def write_result_drawing(
     source, out = Path(source), Path(out)
     _check_target(source, out)
     doc = document if document is not None else _load_source(source)
+    begin = getattr(saver, "begin", None)
+    notes_step = before_notes
+    if begin is not None:
+        def notes_step() -> None:
+            begin(doc, out)
+            if before_notes is not None:
+                before_notes()
     summary = annotate_results(doc, model, det, results, show=show, layers=layers,
                                force_unit=force_unit, length_unit=length_unit, drift=drift,
                                text_height=text_height, scales=scales, probes=probes,
-                               before_notes=before_notes)
+                               before_notes=notes_step)
     if extra is not None:
         extra(doc, summary.content)
     if saver is not None:
