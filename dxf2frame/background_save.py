@@ -19,12 +19,13 @@ fork).  Otherwise the drawing is saved at once, in the calling process;
 the files are the same either way.
 
 The save can also start before the drawing is finished
-(:meth:`BackgroundSave.begin`): the child then writes the modelspace
-entities drawn so far while the parent draws the last ones (the legend,
-the notes, the second-order layers, which wait for the alpha_cr check);
-when the parent finishes (calling the saver as usual) it writes the
-small rest of the file, before and after those entities, and the child
-joins the three parts into the saved drawing
+(:meth:`BackgroundSave.begin`): once the source's earlier results are
+removed, a child writes the drafter's modelspace entities while the
+parent draws the diagrams, and a second child the diagrams while the
+parent waits for the alpha_cr check and draws the legend, notes and
+second-order layers; when the parent finishes (calling the saver as
+usual) it writes the small rest of the file, before and after those
+entities, and joins the parts into the saved drawing when it waits
 (:mod:`dxf2frame.split_export`: the same bytes as a whole save).  Should
 the parent have removed or inserted any of the entities already written
 meanwhile, the early start is dropped and the drawing saved whole.
@@ -36,9 +37,9 @@ raised.  The fork itself is :func:`dxf2frame.forked.fork_call`.
 from __future__ import annotations
 
 import contextlib
-import os
+import io
 import shutil
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -63,86 +64,64 @@ def _save(doc: "Drawing", target: Path) -> None:
         doc.saveas(tmp)
 
 
-def _text_file(doc: "Drawing", path: Path):
-    """``path`` opened for DXF text as :meth:`~ezdxf.document.Drawing.saveas` opens it."""
-    return open(path, "wt", encoding=doc.output_encoding, errors="dxfreplace")
-
-
-def _save_ahead(doc: "Drawing", stop: int, target: Path, parts: "_Parts", go: int, go_w: int) -> None:
-    """In the child: write the first ``stop`` modelspace entities, wait for
-    the parent's word on the pipe ``go`` (one byte: head and tail are
-    written; end of file: the save was dropped), then join head, entities
-    and tail into ``target`` (atomically)."""
-    os.close(go_w)                         # the parent's end: its exit alone must end the wait below
-    try:
-        with _text_file(doc, parts.body) as fp:
-            split_export.write_entities(doc, fp, stop)
-        if os.read(go, 1) != b"1":
-            return                         # dropped by the parent: nothing to write
-        with atomic_path(target) as tmp, open(tmp, "wb") as out:
-            for part in (parts.head, parts.body, parts.tail):
-                with open(part, "rb") as fh:
-                    shutil.copyfileobj(fh, out, 1 << 20)
-    finally:
-        parts.remove()
+def _write_piece(doc: "Drawing", start: int, stop: int, path: Path) -> None:
+    """In a child: modelspace entities ``start`` to ``stop`` into ``path``."""
+    with open(path, "wt", encoding=doc.output_encoding, errors="dxfreplace") as fp:
+        split_export.write_entities(doc, fp, start, stop)
 
 
 @dataclass
-class _Parts:
-    """The three temporary files of a save started early, beside its target."""
+class _Early:
+    """A save begun before the drawing is finished (:meth:`BackgroundSave.begin`):
+    children write the modelspace entities drawn so far, one piece each;
+    head and tail are written by the parent once it is finished."""
 
-    head: Path
-    body: Path
-    tail: Path
-
-    @classmethod
-    def beside(cls, target: Path) -> "_Parts":
-        return cls(*(temp_name(target.with_name(f"{target.stem}-{part}{target.suffix}"))
-                     for part in ("head", "body", "tail")))
-
-    def remove(self) -> None:
-        for p in (self.head, self.body, self.tail):
-            with contextlib.suppress(OSError):
-                p.unlink()
-
-
-@dataclass
-class _Ahead:
-    """A save started by :meth:`BackgroundSave.begin`, waiting for the rest of the drawing."""
-
-    job: Forked
     target: Path
-    written: list                          # the modelspace entities the child writes
-    parts: _Parts
-    go: int                                # the pipe's write end: one byte says "head and tail written"
+    written: list = field(default_factory=list)    # the modelspace entities the pieces hold, in order
+    pieces: list[tuple[Forked, Path]] = field(default_factory=list)
+    ends: tuple[bytes, bytes] | None = None       # head and tail, once finished
 
-    def finish(self, doc: "Drawing") -> Forked:
-        """Write head and tail, tell the child to join the parts; the
-        child's job (its result is the saved drawing)."""
-        stop = len(self.written)
-        with _text_file(doc, self.parts.head) as fp:
-            split_export.write_head(doc, fp)
-        with _text_file(doc, self.parts.tail) as fp:
-            split_export.write_tail(doc, fp, stop)
+    def add_piece(self, doc: "Drawing") -> None:
+        """A child writes the entities added since the last piece."""
+        now = split_export.modelspace_entities(doc)
+        start, stop = len(self.written), len(now)
+        if stop == start:
+            return
+        path = temp_name(self.target.with_name(f"{self.target.stem}-part{len(self.pieces) + 1}{self.target.suffix}"))
+        job = fork_call(_write_piece, doc, start, stop, path, what=f"saving {self.target.name}")
+        self.pieces.append((job, path))
+        self.written = now
+
+    def finish(self, doc: "Drawing") -> None:
+        """Head and tail of the finished drawing (in this process)."""
+        enc = doc.output_encoding
+        head, tail = io.StringIO(), io.StringIO()
+        split_export.write_head(doc, head)
+        split_export.write_tail(doc, tail, len(self.written))
+        self.ends = (head.getvalue().encode(enc, errors="dxfreplace"),
+                     tail.getvalue().encode(enc, errors="dxfreplace"))
+
+    def join(self) -> None:
+        """Wait for the pieces; head, pieces and tail into the target (atomically)."""
         try:
-            os.write(self.go, b"1")
-        except BrokenPipeError:
-            pass                           # the child has ended already: waiting for it says why
+            for job, _ in self.pieces:
+                job.wait()
+            head, tail = self.ends
+            with atomic_path(self.target) as tmp, open(tmp, "wb") as out:
+                out.write(head)
+                for _, path in self.pieces:
+                    with open(path, "rb") as fh:
+                        shutil.copyfileobj(fh, out, 1 << 20)
+                out.write(tail)
         finally:
-            self._close()
-        return self.job
-
-    def _close(self) -> None:
-        go, self.go = self.go, -1
-        if go >= 0:
-            with contextlib.suppress(OSError):
-                os.close(go)
+            self.drop()
 
     def drop(self) -> None:
-        """Stop the child, remove its parts."""
-        self._close()
-        self.job.stop()
-        self.parts.remove()
+        """Stop the children still writing, remove their pieces."""
+        for job, path in self.pieces:
+            job.stop()
+            with contextlib.suppress(OSError):
+                path.unlink()
 
 
 class BackgroundSave:
@@ -161,7 +140,7 @@ class BackgroundSave:
         self.min_entities = MIN_ENTITIES if min_entities is None else int(min_entities)
         self.enabled = bool(enabled)
         self._job: Forked | None = None
-        self._ahead: _Ahead | None = None
+        self._early: _Early | None = None
 
     def _pays(self, doc: "Drawing") -> bool:
         return self.enabled and len(doc.entitydb) >= self.min_entities and can_fork()
@@ -171,38 +150,40 @@ class BackgroundSave:
         pays (see the module docstring): until the saver is called with the
         finished drawing, only new modelspace entities may be added to what
         is there now (anything else may change: layers, blocks, paperspace).
-        Nothing happens where it does not pay; the call then saves whole."""
+        Called again for the same target, a child writes the entities added
+        since.  Nothing happens where it does not pay; the call then saves
+        whole."""
         target = Path(target)
-        self.drop()
-        self.wait()                       # one child at a time
-        if not (self._pays(doc) and split_export.splittable(doc)):
+        early = self._early
+        if early is not None and early.target == target and early.ends is None:
+            if split_export.same_start(doc, early.written):
+                early.add_piece(doc)
+            else:
+                self.drop()               # an entity written already is gone: the call saves whole
             return
-        written = split_export.modelspace_entities(doc)
-        parts = _Parts.beside(target)
-        go, go_w = os.pipe()
-        try:
-            job = fork_call(_save_ahead, doc, len(written), target, parts, go, go_w,
-                            what=f"saving {target.name}")
-        finally:
-            os.close(go)
-        self._ahead = _Ahead(job, target, written, parts, go_w)
+        self.drop()
+        self.wait()                       # one save at a time
+        if self._pays(doc) and split_export.splittable(doc):
+            self._early = _Early(target)
+            self._early.add_piece(doc)
 
     def __call__(self, doc: "Drawing", target: Path | str) -> None:
         """Save ``doc`` to ``target`` (atomically): in a child process when
-        it pays, else now; a save begun early (:meth:`begin`) is finished.
-        :meth:`wait` before using the file."""
+        it pays, else now; a save begun early (:meth:`begin`) is finished
+        (the parts are joined when waited for).  :meth:`wait` before using
+        the file."""
         target = Path(target)
-        ahead, self._ahead = self._ahead, None
-        if ahead is not None:
-            if ahead.target == target and split_export.same_start(doc, ahead.written):
-                try:
-                    self._job = ahead.finish(doc)
-                except BaseException:
-                    ahead.drop()
-                    raise
-                return
-            ahead.drop()                  # an entity written early is gone: save whole
-        self.wait()                       # one child at a time
+        early = self._early
+        if early is not None and early.target == target and early.ends is None \
+                and split_export.same_start(doc, early.written):
+            try:
+                early.finish(doc)
+            except BaseException:
+                self.drop()
+                raise
+            return
+        self.drop()                       # begun for another drawing, or an entity written already is gone
+        self.wait()                       # one save at a time
         if not self._pays(doc):
             _save(doc, target)
             return
@@ -210,26 +191,36 @@ class BackgroundSave:
 
     @property
     def running(self) -> bool:
-        """A child process is saving (not yet waited for)."""
-        return (self._job is not None and self._job.running) or self._ahead is not None
+        """A save is under way in a child process (not yet waited for)."""
+        return (self._job is not None and self._job.running) or self._early is not None
 
     def drop(self) -> None:
         """Drop a save begun early and not finished (the drawing it was
-        writing will not be saved): its child is stopped, its parts removed."""
-        ahead, self._ahead = self._ahead, None
-        if ahead is not None:
-            ahead.drop()
+        writing will not be saved): its children are stopped, their pieces
+        removed."""
+        early = self._early
+        if early is not None and early.ends is None:
+            self._early = None
+            early.drop()
 
     def wait(self) -> None:
-        """Wait for the child, if any; raise what it raised."""
+        """Wait for the save, if any; raise what its child raised.  A save
+        begun early is joined into its target here."""
         job, self._job = self._job, None
+        early, self._early = self._early, None
+        if early is not None and early.ends is None:
+            self._early = early           # not finished yet: nothing to wait for
+        elif early is not None:
+            early.join()
         if job is not None:
             job.wait()
 
     def stop(self) -> None:
         """Stop a child still saving (its temporary file is left to the
         caller's staging folder) and reap it."""
-        self.drop()
+        early, self._early = self._early, None
+        if early is not None:
+            early.drop()
         job, self._job = self._job, None
         if job is not None:
             job.stop()

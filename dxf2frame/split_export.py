@@ -7,9 +7,9 @@ layers that come last are a small part of it.  A save that must wait for
 those last entities can still write everything before them while they
 are drawn:
 
-* :func:`write_entities` exports the modelspace entities present *now*
-  (the first ``stop`` of them), exactly as :meth:`ezdxf.document.Drawing.write`
-  exports them;
+* :func:`write_entities` exports modelspace entities present *now* (a
+  slice of them; in pieces as the drawing grows), exactly as
+  :meth:`ezdxf.document.Drawing.write` exports them;
 * once the drawing is finished, :func:`write_head` writes what precedes
   them in the file (HEADER, CLASSES, TABLES, BLOCKS and the start of the
   ENTITIES section) and :func:`write_tail` what follows them (the
@@ -71,12 +71,12 @@ def _writer(doc: "Drawing", fp: TextIO) -> TagWriter:
     return TagWriter(fp, write_handles=True, dxfversion=doc.dxfversion)
 
 
-def write_entities(doc: "Drawing", fp: TextIO, stop: int) -> None:
-    """The first ``stop`` modelspace entities to the text stream ``fp``
-    (pending changes committed first, as a save does)."""
+def write_entities(doc: "Drawing", fp: TextIO, start: int, stop: int) -> None:
+    """Modelspace entities ``start`` to ``stop`` (as a slice) to the text
+    stream ``fp`` (pending changes committed first, as a save does)."""
     doc.commit_pending_changes()
     tw = _writer(doc, fp)
-    for entity in itertools.islice(doc.modelspace().entity_space, stop):
+    for entity in itertools.islice(doc.modelspace().entity_space, start, stop):
         entity.export_dxf(tw)
 
 

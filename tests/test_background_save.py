@@ -167,7 +167,7 @@ def test_a_drawing_written_in_parts_is_the_whole_save(fixed_metadata):
     doc = _office_doc()
     first = split_export.modelspace_entities(doc)
     body = io.StringIO()
-    split_export.write_entities(doc, body, len(first))
+    split_export.write_entities(doc, body, 0, len(first))
     _finish(doc)
     assert split_export.same_start(doc, first)
     head, tail, whole = io.StringIO(), io.StringIO(), io.StringIO()
@@ -190,6 +190,23 @@ def test_a_save_begun_early_writes_the_same_file(tmp_path, fixed_metadata):
     doc.saveas(tmp_path / "b.dxf")
     assert (tmp_path / "a.dxf").read_bytes() == (tmp_path / "b.dxf").read_bytes()
     assert sorted(p.name for p in tmp_path.iterdir()) == ["a.dxf", "b.dxf"]   # no part left
+
+
+@forking
+def test_a_save_begun_in_two_pieces_writes_the_same_file(tmp_path, fixed_metadata):
+    doc = _office_doc()
+    with BackgroundSave(min_entities=0) as saver:
+        saver.begin(doc, tmp_path / "a.dxf")     # the drafter's entities
+        msp = doc.modelspace()
+        for i in range(20):                      # the diagrams
+            msp.add_lwpolyline([(i, 0), (i + 0.5, 1), (i + 1, 0)], dxfattribs={"layer": "RESULT-MOMENT-X"})
+        saver.begin(doc, tmp_path / "a.dxf")     # the diagrams, by a second child
+        _finish(doc)                             # legend and notes: written by this process
+        saver(doc, tmp_path / "a.dxf")
+        saver.wait()
+    doc.saveas(tmp_path / "b.dxf")
+    assert (tmp_path / "a.dxf").read_bytes() == (tmp_path / "b.dxf").read_bytes()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a.dxf", "b.dxf"]
 
 
 @forking
@@ -238,7 +255,7 @@ def test_a_full_disk_while_joining_the_parts_is_an_oserror(tmp_path, monkeypatch
     def full(*a, **k):
         raise OSError(errno.ENOSPC, "No space left on device")
 
-    monkeypatch.setattr(shutil, "copyfileobj", full)          # the child's join of the parts
+    monkeypatch.setattr(shutil, "copyfileobj", full)          # the join of the parts
     doc = _office_doc()
     saver = BackgroundSave(min_entities=0)
     saver.begin(doc, tmp_path / "a.dxf")

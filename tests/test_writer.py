@@ -286,6 +286,19 @@ def test_rerun_on_output_replaces_results(tmp_path):
     assert layer_census(d1)[1] == layer_census(d2)[1]
 
 
+def test_a_rerun_without_second_order_keeps_no_earlier_buckled_shape(tmp_path):
+    # a source holding an earlier result's second-order and moving-load layers: a result
+    # drawn without them must not show the old ones as if they were current
+    src, model, det, results = solved_beam(tmp_path)
+    doc = ezdxf.readfile(src)
+    for layer in ("RESULT-BUCKLING", "RESULT-MOVING", "RESULT-INFLUENCE"):
+        doc.modelspace().add_lwpolyline([(0, 0), (1, 1)], dxfattribs={"layer": layer})
+    doc.saveas(tmp_path / "old-result.dxf")
+    out = write(tmp_path, tmp_path / "old-result.dxf", model, det, results, show="D", name="new.dxf")
+    layers = {e.dxf.layer for e in ezdxf.readfile(out).modelspace()}
+    assert not layers & {"RESULT-BUCKLING", "RESULT-MOVING", "RESULT-INFLUENCE"}
+
+
 def test_settings_rename_result_layers(tmp_path):
     src, model, det, results = solved_beam(tmp_path)
     doc = ezdxf.readfile(write(tmp_path, src, model, det, results, show="D", layers={"moment": "MY-MOMENTS"}))

@@ -67,6 +67,7 @@ from .legend import draw_legend_and_notes, notes_paragraphs
 from ..numbers import label_value
 from ..report.report import UnitFactors, unit_factors
 from .selection import Selection, select_results
+from .further import further_layer_names
 from .style import RESULT_LAYER_STYLES, Pen, clear_result_layers, prepare_layers, result_layer_names
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -395,10 +396,13 @@ def annotate_results(
     scales: Mapping[str, float] | None = None,
     probes: Sequence[tuple[float, float]] = (),
     before_notes: "Callable[[], None] | None" = None,
+    begin_save: "Callable[[], None] | None" = None,
 ) -> DrawingSummary:
     """Draw the result layers into an open document (see the module docstring).
 
-    Removes the previous content of the result layers first.  Values are
+    Removes the previous content of the result layers first (the
+    second-order and moving-load layers' too: a source that holds an
+    earlier result keeps none of it).  Values are
     converted from SI to ``force_unit`` / ``length_unit`` for the text.
     ``layers``: result layer key -> name (the settings' ``[output_layers]``;
     None: the defaults).  ``drift``: storey drift options (``{"limit",
@@ -412,12 +416,17 @@ def annotate_results(
     their labels are drawn and before the legend and notes, which read the
     model's warnings then (the pipeline collects work done meanwhile on
     another core; an exception raised there abandons the drawing).
+    ``begin_save``: called once the previous results are removed; from
+    then on the drawing only gains modelspace entities (a save can start,
+    :meth:`dxf2frame.background_save.BackgroundSave.begin`).
     """
     # Long by intent: the numbered steps below are the recipe of a result drawing; each is a call,
     # and the working arrays of one diagram are released before the next.
     names = result_layer_names(layers)
-    clear_result_layers(doc, names.values())
+    clear_result_layers(doc, [*names.values(), *further_layer_names(layers).values()])
     _drop_layer(doc, names["mechanism"])               # a stable frame has no mechanism: no empty layer
+    if begin_save is not None:
+        begin_save()                                   # only new modelspace entities from here on
     prepare_layers(doc, {k: v for k, v in names.items() if k != "mechanism"})
     sel = select_results(results, show)
     uf = unit_factors(force_unit, length_unit)
@@ -1019,9 +1028,10 @@ def write_result_drawing(
     saver : optional: saves the annotated document to ``out`` instead of
         an atomic save here (:class:`dxf2frame.background_save.BackgroundSave`
         saves it on another core; the caller waits for it); a saver with a
-        ``begin(doc, out)`` method is told when the diagrams and labels are
-        drawn (from then on only the legend, notes and ``extra`` layers
-        are added), so that it can start writing
+        ``begin(doc, out)`` method is told once the previous results are
+        removed (from then on the drawing only gains modelspace entities),
+        so that it can start writing, and again once the diagrams and
+        labels are drawn
 
     Raises
     ------
@@ -1032,16 +1042,19 @@ def write_result_drawing(
     _check_target(source, out)
     doc = document if document is not None else _load_source(source)
     begin = getattr(saver, "begin", None)
-    notes_step = before_notes
+    begin_save, notes_step = None, before_notes
     if begin is not None:
-        def notes_step() -> None:
+        def begin_save() -> None:
             begin(doc, out)
+
+        def notes_step() -> None:
+            begin(doc, out)                        # the diagrams and labels: the save's second piece
             if before_notes is not None:
                 before_notes()
     summary = annotate_results(doc, model, det, results, show=show, layers=layers,
                                force_unit=force_unit, length_unit=length_unit, drift=drift,
                                text_height=text_height, scales=scales, probes=probes,
-                               before_notes=notes_step)
+                               before_notes=notes_step, begin_save=begin_save)
     if extra is not None:
         extra(doc, summary.content)
     if saver is not None:
