@@ -798,7 +798,8 @@ def _write_buckled(source: Path, out: Path, analysis: Analysis) -> None:
     from .draw import write_buckling_drawing
 
     write_buckling_drawing(source, out, analysis.model, analysis.determinacy, analysis.further.stability,
-                           layers=analysis.settings.output_layers, document=analysis.document)
+                           layers=analysis.settings.output_layers, document=analysis.document,
+                           text_height=analysis.settings.text_height_for(analysis.model.unit_scale))
 
 
 def _further_layers(analysis: Analysis):
@@ -812,7 +813,8 @@ def _further_layers(analysis: Analysis):
         from .draw import annotate_further
 
         return annotate_further(doc, analysis.model, fu.stability, fu.moving,
-                                layers=analysis.settings.output_layers, content=content)
+                                layers=analysis.settings.output_layers, content=content,
+                                text_height=analysis.settings.text_height_for(analysis.model.unit_scale))
     return draw
 
 
@@ -1022,7 +1024,8 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
             rep["warnings"] += [w for w in sheet.warnings if w not in rep["warnings"]]
         rep["warnings"] += [w for w in outcome.warnings if w not in rep["warnings"]]
         outcome.warnings += [w for w in rep["warnings"] if w not in outcome.warnings]
-        with_csv = req.csv and analysis.stable and analysis.buckled is None
+        solved = analysis.stable and analysis.buckled is None    # results to tabulate (not a mechanism, none buckles)
+        with_csv = req.csv and solved
         outcome.probe_lines = report_mod.probe_lines(rep)
         report_mod.write_json(rep, staged["report"], staged["csv"] if with_csv else None)
         analysis.timings["report"] = time.perf_counter() - t0
@@ -1031,7 +1034,7 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         written += _write_storey_csvs(rep, staged) if with_csv else []
         written += ["influence"] if "influence" in staged and staged["influence"].exists() else []
         written += ["png"] if drawn else []
-        if req.sheets and analysis.stable and analysis.buckled is None:
+        if req.sheets and solved:
             from .handcheck import sheets as handcheck
 
             sheet_dir = out_set.staged(f"{paths['drawing'].stem}-sheets")
@@ -1040,8 +1043,7 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
             written.append("sheets")
             paths["sheets"] = final / sheet_dir.name
             staged["sheets"] = sheet_dir
-        governing = ({**_governing(rep), **_storey_checks(rep)}
-                     if analysis.stable and analysis.buckled is None else {})
+        governing = {**_governing(rep), **_storey_checks(rep)} if solved else {}
         _pattern_governing(rep, governing)
         saver.wait()                                   # the result drawing, if a child process saved it
         committed = out_set.commit({staged[k]: paths[k] for k in written})

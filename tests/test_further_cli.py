@@ -182,6 +182,24 @@ def test_combination_over_the_critical_load_is_reported_as_buckling(tmp_path, ca
         assert not out.modelspace().query(f'*[layer=="{layer}"]')
 
 
+def test_second_order_texts_follow_the_drawing_text_height(tmp_path, capsys):
+    # [drawing] text_height = "2.5 mm" at plot_scale 1:50 is 0.125 m on a drawing in metres
+    # (plotted height times the scale: a drafter's rule, common practice); the buckled
+    # shape's label, like the first-order texts, is written at that height, and so are the
+    # notes of a frame that buckles
+    drawing = '[drawing]\ntext_height = "2.5 mm"\nplot_scale = 50\n'
+    rc, _, _ = run(capsys, tmp_path / "a", cantilever_column("500 kN", "2 kN"), SECTIONS + ONE_COMBINATION + drawing)
+    assert rc == 0
+    msp = ezdxf.readfile(tmp_path / "a" / "solved" / "frame-results.dxf").modelspace()
+    label = msp.query('TEXT[layer=="RESULT-BUCKLING"]')
+    assert len(label) == 1 and label[0].dxf.height == pytest.approx(0.125)
+    assert {round(t.dxf.height, 9) for t in msp.query('TEXT[layer=="RESULT-MOMENT"]')} == {0.125}
+    rc, _, _ = run(capsys, tmp_path / "b", cantilever_column("2000 kN", "2 kN"), SECTIONS + ONE_COMBINATION + drawing)
+    assert rc == 3
+    msp = ezdxf.readfile(tmp_path / "b" / "solved" / "frame-results.dxf").modelspace()
+    assert {round(t.dxf.char_height, 9) for t in msp.query('MTEXT[layer=="RESULT-NOTES"]')} == {0.125}
+
+
 def test_buckling_layer_is_remappable_and_check_can_be_off(tmp_path, capsys):
     settings = SECTIONS + ONE_COMBINATION + '[output_layers]\nbuckling = "CHK-BUCKLED"\n'
     rc, _, _ = run(capsys, tmp_path / "a", cantilever_column("500 kN", "2 kN"), settings)

@@ -77,27 +77,31 @@ def _buckled_shape(pen: Pen, model, b, layer: str, size: float, h: float, label:
     pen.text(label, top + np.array([0.0, 1.5 * h]), h, layer)
 
 
-def _fresh_layers(doc: "Drawing", model, *layer_sets: dict[str, str]):
+def _fresh_layers(doc: "Drawing", model, *layer_sets: dict[str, str], text_height: float | None = None):
     """Empty and set up each set of result layers; (frame geometry, its
-    size, the default text height) [drawing units]."""
+    size, the text height: ``text_height`` when given, else the frame's
+    default) [drawing units]."""
     for names in layer_sets:
         clear_result_layers(doc, names.values())
         prepare_layers(doc, names)
     geom = frame_geom(model)
-    return geom, geom.size, geom.text_height
+    return geom, geom.size, text_height if text_height and text_height > 0 else geom.text_height
 
 
 def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
                      layers: Mapping[str, str] | None = None,
-                     content: DrawingObstacles | None = None) -> list[str]:
+                     content: DrawingObstacles | None = None,
+                     text_height: float | None = None) -> list[str]:
     """Draw the second-order and moving-load results into ``doc`` (already
     annotated with the first-order results).  Returns legend lines.
 
     ``content``: the drawing's own entities as obstacles when the caller
     has them (the first-order writer measures them); only the result
-    layers are measured here then."""
+    layers are measured here then.  ``text_height`` [drawing units]: as
+    the first-order results' (the settings' ``[drawing]``); None sizes
+    texts to the frame."""
     names = further_layer_names(layers)
-    geom, size, h = _fresh_layers(doc, model, names)
+    geom, size, h = _fresh_layers(doc, model, names, text_height=text_height)
     ours = {n.upper() for n in names.values()}
     # the drafter's content and the first-order result layers, before these layers are drawn
     if content is None:
@@ -165,15 +169,17 @@ def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
 
 
 def write_buckling_drawing(source: Path, out: Path, model, det, stability, *,
-                           layers: Mapping[str, str] | None = None, document: "Drawing | None" = None) -> None:
+                           layers: Mapping[str, str] | None = None, document: "Drawing | None" = None,
+                           text_height: float | None = None) -> None:
     """Write a copy of the drawing marking the buckled shape of the
     combination that buckles (``stability.buckled``): no results, a note
-    naming it, the caution (atomic)."""
+    naming it, the caution (atomic).  ``text_height`` as in
+    :func:`annotate_further`."""
     import ezdxf
 
     doc = document if document is not None else ezdxf.readfile(str(source))
     names, fnames = result_layer_names(layers), further_layer_names(layers)
-    geom, size, h = _fresh_layers(doc, model, names, fnames)
+    geom, size, h = _fresh_layers(doc, model, names, fnames, text_height=text_height)
     pen = Pen(doc, size)
     b = stability.buckled
     _buckled_shape(pen, model, b, fnames["buckling"], size, h, f"buckles: {b.name}")
