@@ -15,7 +15,8 @@ import numpy as np
 import shapely
 
 from ..atomic import atomic_path
-from ..draw import LabelPlacer, DrawingObstacles, drawing_obstacles, free_spot
+from ..draw import LabelPlacer, DrawingObstacles, drawing_obstacles
+from ..draw.obstacles import keep_clear
 from ..errors import InputFileError
 from .data import Comparison, MemberRef, ValueChange
 from ..numbers import cell_value
@@ -274,27 +275,25 @@ def _member_lines(pair, s: float) -> list:
 
 def _keep_schedule_clear(pen: _Marker, schedule: list, obst: DrawingObstacles) -> None:
     """Move the schedule's texts as one group to the nearest place clear of
-    the drawing's own content and of the clouds and tags."""
+    the drawing's own content and of the clouds and tags
+    (:func:`~dxf2frame.draw.obstacles.keep_clear`, as the result drawing's
+    legend and notes are moved)."""
     from ezdxf import bbox
 
     b = bbox.extents(schedule, fast=False)
     if not b.has_data:
         return
-    box = (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y)
-    marks = [e for e in pen.msp.query(f'*[layer=="{pen.layer}"]') if e not in set(schedule)]
+    own = set(schedule)
     ours = []
-    for e in marks:
-        m = bbox.extents([e], fast=True)
-        if m.has_data:
+    for e in pen.msp.query(f'*[layer=="{pen.layer}"]'):
+        m = bbox.extents([e], fast=True) if e not in own else None
+        if m is not None and m.has_data:
             ours.append(shapely.box(m.extmin.x, m.extmin.y, m.extmax.x, m.extmax.y))
-    ext = obst.extents or box
-    for g in ours:
-        x0, y0, x1, y1 = g.bounds
-        ext = (min(ext[0], x0), min(ext[1], y0), max(ext[2], x1), max(ext[3], y1))
-    dx, dy = free_spot(box, list(obst.geoms) + ours, ext, pen.height)
-    if dx or dy:
-        for e in schedule:
-            e.translate(dx, dy, 0.0)
+    content = obst.extents or (b.extmin.x, b.extmin.y, b.extmax.x, b.extmax.y)
+    if ours:
+        x0, y0, x1, y1 = shapely.total_bounds(ours)
+        content = (min(content[0], x0), min(content[1], y0), max(content[2], x1), max(content[3], y1))
+    keep_clear([schedule], obst, ours, content, pen.height)
 
 
 def _save_audited(doc, out_path: Path) -> Path:
