@@ -128,7 +128,7 @@ def _office_doc(dxfversion: str = "R2018"):
         msp.add_line((i, 0), (i, 3), dxfattribs={"layer": "FRAME-COLUMNS"})
     msp.add_lwpolyline([(0, 3), (10, 3), (20, 3.5)], dxfattribs={"layer": "FRAME-BEAMS"})
     msp.add_text("LEVEL 2", dxfattribs={"layer": "NOTES", "height": 0.2}).set_placement((0, 3.2))
-    msp.add_mtext("GENERAL NOTES\\PALL STEEL S355", dxfattribs={"layer": "NOTES", "char_height": 0.2})
+    msp.add_mtext("GENERAL NOTES\\PALL STEEL S355, Ø 150 – 2.5 m², Ω", dxfattribs={"layer": "NOTES", "char_height": 0.2})
     msp.add_linear_dim(base=(0, -1), p1=(0, 0), p2=(10, 0)).render()
     hatch = msp.add_hatch(color=3)
     hatch.paths.add_polyline_path([(0, 0), (1, 0), (1, 1)], is_closed=True)
@@ -145,7 +145,7 @@ def _finish(doc):
     a polyline on it, and a layer of the paperspace title block."""
     doc.layers.add("RESULT-NOTES-LATE")
     msp = doc.modelspace()
-    msp.add_text("a preliminary analysis aid", dxfattribs={"layer": "RESULT-NOTES-LATE"})
+    msp.add_text("a preliminary analysis aid, M in kN·m, Ω", dxfattribs={"layer": "RESULT-NOTES-LATE"})
     msp.add_lwpolyline([(0, 0), (5, 1), (9, 0)], dxfattribs={"layer": "RESULT-NOTES-LATE"})
     doc.paperspace().add_text("REVISION B", dxfattribs={"height": 2.5})
 
@@ -159,12 +159,13 @@ def fixed_metadata():
     ezdxf.options.write_fixed_meta_data_for_testing = was
 
 
-def test_a_drawing_written_in_parts_is_the_whole_save(fixed_metadata):
+@pytest.mark.parametrize("dxfversion", ["R2000", "R2007", "R2018"])
+def test_a_drawing_written_in_parts_is_the_whole_save(fixed_metadata, dxfversion):
     import io
 
     from dxf2frame import split_export
 
-    doc = _office_doc()
+    doc = _office_doc(dxfversion)
     first = split_export.modelspace_entities(doc)
     body = io.StringIO()
     split_export.write_entities(doc, body, 0, len(first))
