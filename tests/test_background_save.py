@@ -180,8 +180,9 @@ def test_a_drawing_written_in_parts_is_the_whole_save(fixed_metadata, dxfversion
 
 
 @forking
-def test_a_save_begun_early_writes_the_same_file(tmp_path, fixed_metadata):
-    doc = _office_doc()
+@pytest.mark.parametrize("dxfversion", ["R2000", "R2018"])
+def test_a_save_begun_early_writes_the_same_file(tmp_path, fixed_metadata, dxfversion):
+    doc = _office_doc(dxfversion)
     with BackgroundSave(min_entities=0) as saver:
         saver.begin(doc, tmp_path / "a.dxf")
         assert saver.running
