@@ -49,7 +49,7 @@ PL/4 = 240 kN*m, at midspan.
 """
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -313,6 +313,29 @@ class InfluenceLine:
         return np.interp(s, self.s, self.values)
 
 
+class _Rows(Mapping):
+    """Read-only mapping of each key of ``arrays`` to the slice ``rows``
+    of its array (one member's part of the envelope's arrays, cut when
+    asked for)."""
+
+    __slots__ = ("_arrays", "_rows")
+
+    def __init__(self, arrays: dict[str, np.ndarray], rows: slice) -> None:
+        self._arrays, self._rows = arrays, rows
+
+    def __getitem__(self, key: str) -> np.ndarray:
+        return self._arrays[key][self._rows]
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._arrays)
+
+    def __len__(self) -> int:
+        return len(self._arrays)
+
+    def __repr__(self) -> str:
+        return repr(dict(self))
+
+
 @dataclass(eq=False)
 class MemberEnvelope:
     """Extremes of N, V, M along one member under a moving vehicle.
@@ -325,9 +348,9 @@ class MemberEnvelope:
 
     member: str
     x: np.ndarray
-    values: dict[str, np.ndarray] = field(default_factory=dict)
-    front: dict[str, np.ndarray] = field(default_factory=dict)
-    direction: dict[str, np.ndarray] = field(default_factory=dict)
+    values: Mapping[str, np.ndarray] = field(default_factory=dict)
+    front: Mapping[str, np.ndarray] = field(default_factory=dict)
+    direction: Mapping[str, np.ndarray] = field(default_factory=dict)
 
     def governing(self, key: str) -> dict:
         """The extreme of ``key`` (e.g. "M_max") over the member: value,
@@ -758,16 +781,12 @@ class MovingLoads:
 
     def _by_member(self, rows, xs, vals, at, fronts, dirs) -> dict[str, MemberEnvelope]:
         """One MemberEnvelope per member; its arrays are slices of one array
-        per key (read-only use)."""
-        out: dict[str, MemberEnvelope] = {}
-        bounds = np.searchsorted(rows, np.arange(len(self.model.ids) + 1))
+        per key, cut when read (read-only use)."""
+        bounds = np.searchsorted(rows, np.arange(len(self.model.ids) + 1)).tolist()
         fr = {key: fronts[at[key]] for key in vals}
         dr = {key: dirs[at[key]] for key in vals}
-        for j, mid in enumerate(self.model.ids):
-            sl = slice(bounds[j], bounds[j + 1])
-            out[mid] = MemberEnvelope(mid, xs[sl], {key: v[sl] for key, v in vals.items()},
-                                      {key: v[sl] for key, v in fr.items()}, {key: v[sl] for key, v in dr.items()})
-        return out
+        return {mid: MemberEnvelope(mid, xs[sl], _Rows(vals, sl), _Rows(fr, sl), _Rows(dr, sl))
+                for mid, sl in zip(self.model.ids, map(slice, bounds[:-1], bounds[1:]))}
 
 
 _COLS = 128  # placements per block of the end-force products
