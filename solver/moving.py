@@ -910,14 +910,18 @@ def _piece_extremes(pl: "_Placements", G: np.ndarray, L: np.ndarray, t: np.ndarr
         k = np.minimum(np.concatenate([kr, kr + 1])[[0, 2, 1, 3]], lp)  # (4, n) ascending
         v = 2 * k / lp - 1
         val = ((cm[3] * v + cm[2]) * v + cm[1]) * v + cm[0]
-        idx = np.arange(len(f_))
         tgt = f_ * r + r_  # ascending: by quantity, then member (then piece)
         seg = np.concatenate([[0], np.flatnonzero(np.diff(tgt)) + 1])
         cnt = np.diff(np.append(seg, len(tgt)))
         tt = tgt[seg]
+        k = k.astype(np.intp)
         for sg in (1, -1):
-            i = (sg * val).argmax(axis=0)  # the first, the earliest placement, of equal values
-            w_, pa = sg * val[i, idx], start[p_] + k[i, idx].astype(np.intp)
+            w = val if sg > 0 else -val
+            w_, kb = w[0], k[0]
+            for c in range(1, 4):  # the first, the earliest placement, of equal values
+                kb = np.where(w[c] > w_, k[c], kb)
+                w_ = np.maximum(w_, w[c])
+            pa = start[p_] + kb
             gmax = np.maximum.reduceat(w_, seg)
             ga = np.minimum.reduceat(np.where(w_ == np.repeat(gmax, cnt), pa, pl.n), seg)
             ev, ea = ext[sg][0].reshape(-1), ext[sg][1].reshape(-1)
