@@ -18,10 +18,12 @@ gives
 * the envelope of N, V, M along every member under a :class:`Vehicle`
   (axle loads and spacings) crossing the path in both directions
   (:meth:`MovingLoads.envelope`), with the governing vehicle position.
-  Every placement's end forces on every member come from one product
-  with the nodal solutions; a member no axle stands on carries end forces
-  only (N, V constant, M linear along it), and only the members the path
-  runs on see the axles' own steps and ramps.
+  Members' end forces under the placements come from products with the
+  nodal solutions; a member no axle stands on carries end forces only (N,
+  V constant, M linear along it), a cubic in the vehicle's position
+  between the placements where an axle crosses a path node, so a few
+  placements of each such stretch decide its extremes; only the members
+  the path runs on see the axles' own steps and ramps.
 
 Units: the frame's (N, m in the DXF pipeline); the unit load is 1 [force].
 The load acts along ``direction`` (global, default (0, -1): downward); an
@@ -688,14 +690,15 @@ class MovingLoads:
         follow by dense products.  A member with no axle on it anywhere
         carries end forces only: N and V are constant along it and M = Vi x
         - Mi; between the placements where an axle crosses a path node its
-        end forces are cubics in the front axle's position, so each
-        extreme is found from a few placements per such piece
-        (:func:`_piece_extremes`).  On a member axles stand on, the placements that put an axle there
-        add the axles' own steps (N, V) and ramps (M) from each axle's
-        position on; the others give straight lines of M, whose extremes
-        are found exactly from a few tangent samples and the lines above
-        the tangents' kinks (:func:`_line_extremes`).  Every value is the
-        sum the former one-column-per-station route gave, to rounding.
+        end forces are cubics in the front axle's position, so each extreme
+        is found from a few placements per such piece
+        (:func:`_piece_extremes`).  On a member axles stand on, the
+        placements that put an axle there add the axles' own steps (N, V)
+        and ramps (M) from each axle's position on; the others give
+        straight lines of M, whose extremes are found exactly from a few
+        tangent samples and the lines above the tangents' kinks
+        (:func:`_line_extremes`).  Every value is the sum the former
+        one-column-per-station route gave, to rounding.
         """
         pl = self._placements(vehicle, float(step), directions)
         st = pl.st
@@ -712,7 +715,8 @@ class MovingLoads:
         on = np.unique(st.member[pl.u])  # members an axle stands on
         free = np.setdiff1d(np.arange(m), on)
         t = np.linspace(0.0, 1.0, max(int(points_per_member), 2))
-        # members without axles in blocks of about a megabyte of work space
+        # members without axles in blocks: a quantity's work array (members x
+        # about two placements per piece, see _piece_extremes) about a megabyte
         blk = max(1, min(int(chunk), _CELLS // max(4 * len(pl.pieces), 1)))
         fe = self._basis().start_forces
         for lo in range(0, len(free), blk):
