@@ -319,6 +319,10 @@ def _two_bay_portal() -> tuple[Frame, list[tuple[str, float, float]]]:
     (_short_middle_span, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3, 30e3), (3.0, 1.25)), None, (1, -1)),
     (_spans_on_a_spring, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (3.0,)), None, (1, -1)),
     (_two_bay_portal, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (2.5,)), None, (1, -1)),
+    # a coarse step: between the placements where an axle crosses a node
+    # some runs are shorter than the piece search reduces (every placement
+    # of them evaluated), the others longer
+    (_two_bay_portal, (1.0, -2.0), 0.375, Vehicle((50e3, 80e3, 20e3), (2.5, 1.0)), None, (1, -1)),
     # stations 3e-9 m (k = 1, 2, 3) past the span's regular samples at 1 m
     # spacing: within 1e-9 of its length, so they are no samples of their
     # own and an axle stands between two samples
