@@ -668,8 +668,11 @@ class MovingLoads:
         k = np.searchsorted(rows, j)
         mine = (k < len(rows)) & (rows[np.minimum(k, len(rows) - 1)] == j)
         if mine.any():
-            np.add.at(F, (k[mine], slice(None), pl.place[mine]),
-                      pl.load[mine, None] * pl.st.f0[pl.u[mine], :3])
+            # the axles' fixed-end forces summed per member and placement, then added
+            at = k[mine] * pl.n + pl.place[mine]
+            w = pl.load[mine, None] * pl.st.f0[pl.u[mine], :3]
+            for c in range(3):
+                F[:, c, :] += np.bincount(at, w[:, c], minlength=F.shape[0] * pl.n).reshape(F.shape[0], pl.n)
         return F
 
     def envelope(self, vehicle: Vehicle, *, step: float, points_per_member: int = 11,
@@ -991,8 +994,8 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
                 if q == "V" or axial:
                     w[Q] = -np.inf
                 i = int(np.argmax(w))
-                for side in ("right", "left"):
-                    _merge(best[(q, sg, side)], slice(i0, i1), w[i], i)
+                for side in ("right", "left"):  # the member's first values: set, not merged
+                    best[(q, sg, side)][0][i0:i1], best[(q, sg, side)][1][i0:i1] = w[i], i
         # the loaded placements, in blocks of samples (about a megabyte per array)
         rows_blk = max(16, _CELLS // max(len(Q), 1))
         for s0 in range(0, n, rows_blk):
