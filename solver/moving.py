@@ -879,7 +879,7 @@ def _piece_extremes(pl: "_Placements", G: np.ndarray, L: np.ndarray, t: np.ndarr
         inv = np.linalg.inv(Bm[:, :, 1:3])  # (pb, 2, 2): (b1, b2) = inv (q12 - B0 q0 - B3 q3)
         W = np.concatenate([-inv @ Bm[:, :, :1], inv, -inv @ Bm[:, :, 3:]], axis=2)  # (pb, 2, 4) on q0..q3
         nodes = np.stack([start, start + k1, start + k2, start + last], axis=1)  # (pb, 4)
-        cols.append(np.einsum("npa,pja->npj", pl.WP[:, nodes], W).reshape(nb, 2 * pb))
+        cols.append(np.einsum("npa,pja->njp", pl.WP[:, nodes], W).reshape(nb, 2 * pb))  # all b1, then all b2
     F = (G.reshape(3 * r, nb) @ np.concatenate(cols, axis=1)).reshape(3, r, -1)
     nf = 2 + len(t)
     xs = [L * tk for tk in t]
@@ -897,7 +897,7 @@ def _piece_extremes(pl: "_Placements", G: np.ndarray, L: np.ndarray, t: np.ndarr
         i1, v1, i2, v2 = _extreme(Q[:, :nD])
         ext[1][0][f], ext[1][1][f], ext[-1][0][f], ext[-1][1][f] = v1, D[i1], -v2, D[i2]
         if pb:
-            b1, b2 = Q[:, nD::2], Q[:, nD + 1::2]  # (r, pb)
+            b1, b2 = Q[:, nD:nD + pb], Q[:, nD + pb:]  # (r, pb)
             rr, pp = np.nonzero((np.maximum(b1, b2) > v1[:, None]) | (np.minimum(b1, b2) < v2[:, None]))
             if len(rr):
                 found.append((np.full(len(rr), f), rr, pp, Q[rr, c0[pp]], b1[rr, pp], b2[rr, pp], Q[rr, c3[pp]]))
@@ -909,7 +909,8 @@ def _piece_extremes(pl: "_Placements", G: np.ndarray, L: np.ndarray, t: np.ndarr
         with np.errstate(divide="ignore", invalid="ignore"):
             disc = B_ * B_ - 4 * A_ * C_
             q = -0.5 * (B_ + np.copysign(np.sqrt(np.maximum(disc, 0.0)), B_))
-            roots = np.sort(np.stack([q / A_, C_ / q]), axis=0)  # nan last
+            r1, r2 = q / A_, C_ / q
+            roots = np.stack([np.fmin(r1, r2), np.fmax(r1, r2)])  # ascending; a nan gives way to the other
         ok = (disc >= 0) & (np.abs(roots) <= 1.0)  # False for nan, inf
         roots = np.where(ok, roots, np.where(ok[::-1], roots[::-1], -1.0))  # a missing root repeats the other
         lp = last[p_]
