@@ -18,10 +18,12 @@ gives
 * the envelope of N, V, M along every member under a :class:`Vehicle`
   (axle loads and spacings) crossing the path in both directions
   (:meth:`MovingLoads.envelope`), with the governing vehicle position.
-  Every placement's end forces on every member come from one product
-  with the nodal solutions; a member no axle stands on carries end forces
-  only (N, V constant, M linear along it), and only the members the path
-  runs on see the axles' own steps and ramps.
+  Members' end forces under the placements come from products with the
+  nodal solutions; a member no axle stands on carries end forces only (N,
+  V constant, M linear along it), a cubic in the vehicle's position
+  between the placements where an axle crosses a path node, so a few
+  placements of each such stretch decide its extremes; only the members
+  the path runs on see the axles' own steps and ramps.
 
 Units: the frame's (N, m in the DXF pipeline); the unit load is 1 [force].
 The load acts along ``direction`` (global, default (0, -1): downward); an
@@ -49,7 +51,7 @@ PL/4 = 240 kN*m, at midspan.
 """
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -313,6 +315,29 @@ class InfluenceLine:
         return np.interp(s, self.s, self.values)
 
 
+class _Rows(Mapping):
+    """Read-only mapping of each key of ``arrays`` to the slice ``rows``
+    of its array (one member's part of the envelope's arrays, cut when
+    asked for)."""
+
+    __slots__ = ("_arrays", "_rows")
+
+    def __init__(self, arrays: dict[str, np.ndarray], rows: slice) -> None:
+        self._arrays, self._rows = arrays, rows
+
+    def __getitem__(self, key: str) -> np.ndarray:
+        return self._arrays[key][self._rows]
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._arrays)
+
+    def __len__(self) -> int:
+        return len(self._arrays)
+
+    def __repr__(self) -> str:
+        return repr(dict(self))
+
+
 @dataclass(eq=False)
 class MemberEnvelope:
     """Extremes of N, V, M along one member under a moving vehicle.
@@ -325,9 +350,9 @@ class MemberEnvelope:
 
     member: str
     x: np.ndarray
-    values: dict[str, np.ndarray] = field(default_factory=dict)
-    front: dict[str, np.ndarray] = field(default_factory=dict)
-    direction: dict[str, np.ndarray] = field(default_factory=dict)
+    values: Mapping[str, np.ndarray] = field(default_factory=dict)
+    front: Mapping[str, np.ndarray] = field(default_factory=dict)
+    direction: Mapping[str, np.ndarray] = field(default_factory=dict)
 
     def governing(self, key: str) -> dict:
         """The extreme of ``key`` (e.g. "M_max") over the member: value,
@@ -394,7 +419,12 @@ class _Placements:
     entry per axle on the path (station index, placement index, axle load
     [force]; axles of one placement at one station summed), sorted by
     the station's member, then placement; ``WP`` (nb, n_place) dense
-    equivalent nodal loads of each placement.
+    equivalent nodal loads of each placement; ``pieces`` (n_pieces + 1,)
+    the bounds of the runs of consecutive placements in one direction with
+    every axle on the same path stretch (or off the path) throughout.
+    Within a piece every member's end forces are a cubic in the front
+    axle's position (the fixed-end forces of a point load are Hermite
+    cubics in its position), hence in the placement's index.
     """
 
     fronts: np.ndarray
@@ -404,6 +434,7 @@ class _Placements:
     place: np.ndarray
     load: np.ndarray
     WP: np.ndarray
+    pieces: np.ndarray
     _windows: list | None = None
 
     @property
@@ -614,8 +645,16 @@ class MovingLoads:
         WP = np.asarray((st.W @ A).toarray())
         Ac = A.tocoo()
         order = np.lexsort((Ac.col, st.member[Ac.row]))
+        # the path stretch of each axle (-1: off the path), as locate() puts it
+        pth = self.path
+        stretch = np.clip(np.searchsorted(pth.s0, s_u, side="right") - 1, 0, len(pth.s0) - 1)
+        sig = np.full(pos.shape, -1, dtype=np.intp)
+        sig[on] = stretch[inv.ravel()]
+        new = np.ones(len(fronts), bool)
+        new[1:] = np.any(sig[1:] != sig[:-1], axis=1) | (dirs[1:] != dirs[:-1])
+        pieces = np.append(np.flatnonzero(new), len(fronts))
         return _Placements(fronts, dirs, st, Ac.row[order].astype(np.intp), Ac.col[order].astype(np.intp),
-                           Ac.data[order], WP)
+                           Ac.data[order], WP, pieces)
 
     def _member_forces(self, pl: _Placements, rows: np.ndarray) -> np.ndarray:
         """(len(rows), 3, n_place) start-end forces Ni, Vi, Mi of members
@@ -629,8 +668,11 @@ class MovingLoads:
         k = np.searchsorted(rows, j)
         mine = (k < len(rows)) & (rows[np.minimum(k, len(rows) - 1)] == j)
         if mine.any():
-            np.add.at(F, (k[mine], slice(None), pl.place[mine]),
-                      pl.load[mine, None] * pl.st.f0[pl.u[mine], :3])
+            # the axles' fixed-end forces summed per member and placement, then added
+            at = k[mine] * pl.n + pl.place[mine]
+            w = pl.load[mine, None] * pl.st.f0[pl.u[mine], :3]
+            for c in range(3):
+                F[:, c, :] += np.bincount(at, w[:, c], minlength=F.shape[0] * pl.n).reshape(F.shape[0], pl.n)
         return F
 
     def envelope(self, vehicle: Vehicle, *, step: float, points_per_member: int = 11,
@@ -647,16 +689,19 @@ class MovingLoads:
         (fewer where a megabyte of work space holds fewer).
 
         How: the unit loads are solved once, at the path's nodes
-        (:meth:`unit_solutions`), and every member's end forces under every
-        placement follow by dense products.  A member with no axle on it
-        anywhere carries end forces only: N and V are constant along it and
-        M = Vi x - Mi, evaluated for every placement at its regular points.
-        On a member axles stand on, the placements that put an axle there
-        add the axles' own steps (N, V) and ramps (M) from each axle's
-        position on; the others give straight lines of M, whose extremes
-        are found exactly from a few tangent samples and the lines above
-        the tangents' kinks (:func:`_line_extremes`).  Every value is the
-        sum the former one-column-per-station route gave, to rounding.
+        (:meth:`unit_solutions`), and members' end forces under placements
+        follow by dense products.  A member with no axle on it anywhere
+        carries end forces only: N and V are constant along it and M = Vi x
+        - Mi; between the placements where an axle crosses a path node its
+        end forces are cubics in the front axle's position, so each extreme
+        is found from a few placements per such piece
+        (:func:`_piece_extremes`).  On a member axles stand on, the
+        placements that put an axle there add the axles' own steps (N, V)
+        and ramps (M) from each axle's position on; the others give
+        straight lines of M, whose extremes are found exactly from a few
+        tangent samples and the lines above the tangents' kinks
+        (:func:`_line_extremes`).  Every value is the sum the former
+        one-column-per-station route gave, to rounding.
         """
         pl = self._placements(vehicle, float(step), directions)
         st = pl.st
@@ -673,16 +718,13 @@ class MovingLoads:
         on = np.unique(st.member[pl.u])  # members an axle stands on
         free = np.setdiff1d(np.arange(m), on)
         t = np.linspace(0.0, 1.0, max(int(points_per_member), 2))
-        # members without axles in blocks of about a megabyte of end forces,
-        # computed into the same buffers
-        blk = max(1, min(int(chunk), _CELLS // max(pl.n, 1)))
-        fe, nb = self._basis().start_forces, pl.WP.shape[0]
-        buf, E = np.empty((3 * blk, pl.n)), np.empty((2, blk, pl.n))
+        # members without axles in blocks: a quantity's work array (members x
+        # about two placements per piece, see _piece_extremes) about a megabyte
+        blk = max(1, min(int(chunk), _CELLS // max(4 * len(pl.pieces), 1)))
+        fe = self._basis().start_forces
         for lo in range(0, len(free), blk):
             r = free[lo:lo + blk]
-            # rows by force, then member: each force's rows are one contiguous block
-            F = pl.product(fe[r].transpose(1, 0, 2).reshape(-1, nb), out=buf[:3 * len(r)]).reshape(3, len(r), pl.n)
-            _free_extremes(F, L[r], t, bounds[r], best, E[:, :len(r)])
+            _piece_extremes(pl, fe[r].transpose(1, 0, 2), L[r], t, bounds[r], best)
         if len(on):
             _loaded_extremes(pl, self._member_forces(pl, on), on, rows, xs, bounds, L, best)
         vals: dict[str, np.ndarray] = {}
@@ -746,16 +788,12 @@ class MovingLoads:
 
     def _by_member(self, rows, xs, vals, at, fronts, dirs) -> dict[str, MemberEnvelope]:
         """One MemberEnvelope per member; its arrays are slices of one array
-        per key (read-only use)."""
-        out: dict[str, MemberEnvelope] = {}
-        bounds = np.searchsorted(rows, np.arange(len(self.model.ids) + 1))
+        per key, cut when read (read-only use)."""
+        bounds = np.searchsorted(rows, np.arange(len(self.model.ids) + 1)).tolist()
         fr = {key: fronts[at[key]] for key in vals}
         dr = {key: dirs[at[key]] for key in vals}
-        for j, mid in enumerate(self.model.ids):
-            sl = slice(bounds[j], bounds[j + 1])
-            out[mid] = MemberEnvelope(mid, xs[sl], {key: v[sl] for key, v in vals.items()},
-                                      {key: v[sl] for key, v in fr.items()}, {key: v[sl] for key, v in dr.items()})
-        return out
+        return {mid: MemberEnvelope(mid, xs[sl], _Rows(vals, sl), _Rows(fr, sl), _Rows(dr, sl))
+                for mid, sl in zip(self.model.ids, map(slice, bounds[:-1], bounds[1:]))}
 
 
 _COLS = 128  # placements per block of the end-force products
@@ -783,47 +821,130 @@ def _extreme(arr: np.ndarray):
     return i1, arr[r, i1], i2, arr[r, i2]
 
 
-def _free_extremes(F: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarray, best: dict,
-                   E: np.ndarray) -> None:
+_PIECE_MIN = 6  # placements a piece needs to be reduced by its cubic (fewer: every one evaluated)
+
+# Bernstein coefficients b0..b3 of a cubic on u in [0, 1] to its monomial
+# coefficients in v = 2u - 1 (rows c0..c3): B_j(u) = C(3, j) u^j (1 - u)^(3-j)
+# with u = (1 + v) / 2, 1 - u = (1 - v) / 2
+_BERN_TO_V = np.array([[1.0, 3.0, 3.0, 1.0],
+                       [-3.0, -3.0, 3.0, 3.0],
+                       [3.0, -3.0, -3.0, 3.0],
+                       [-1.0, 3.0, -3.0, 1.0]]) / 8.0
+
+
+def _piece_extremes(pl: "_Placements", G: np.ndarray, L: np.ndarray, t: np.ndarray, first: np.ndarray,
+                    best: dict) -> None:
     """Extremes over every placement at the samples of members with no
-    axle on them: N and V are constant along such a member and M = Vi x -
+    axle on them: N and V are constant along such a member and M = x Vi -
     Mi linear, at its samples x = L t (indices ``first + k``).
 
-    ``F`` (3, r, n_place) the members' start-end forces, ``L`` (r,), ``t``
-    (k,) equally spaced from 0, ``E`` (2, r, n_place) work space.
+    ``G`` (3, r, nb) the members' start-end forces Ni, Vi, Mi per unit
+    nodal load of the basis, ``L`` (r,), ``t`` (k,) from 0 to 1.
 
-    M at the samples is found as M(0) = -Mi plus k steps of (L dt) Vi, one
-    pass over the placements per sample; the value reported is the
-    governing placement's own x Vi - Mi, as :meth:`UnitLoadSolutions.member_values`
-    gives it (the steps' rounding, some 1e-16 of |Mi| + L |Vi|, decides
-    only between placements that tie to that rounding)."""
-    every = (first[:, None] + np.arange(len(t))).ravel()  # every sample of these members
-    for q, arr, sg in (("N", F[0], -1), ("V", F[1], 1)):
-        i1, v1, i2, v2 = (np.repeat(v, len(t)) for v in _extreme(arr))
-        if sg < 0:  # N = -Ni: its largest value is the smallest Ni
-            i1, v1, i2, v2 = i2, -v2, i1, -v1
-        for side in ("right", "left"):
-            best[(q, 1, side)][0][every], best[(q, 1, side)][1][every] = v1, i1
-            best[(q, -1, side)][0][every], best[(q, -1, side)][1][every] = -v2, i2
-    Vi, Mi = F[1], F[2]
-    rows = np.arange(F.shape[1])
-    run, inc = E
-    np.multiply((L * (t[1] - t[0]))[:, None], Vi, out=inc)
-    for k, tk in enumerate(t):
-        if k == 0:  # M at x = 0 is -Mi: its largest is the smallest Mi
-            i1, i2 = np.argmin(Mi, axis=1), np.argmax(Mi, axis=1)
-        else:
-            if k == 1:
-                np.subtract(inc, Mi, out=run)
-            else:
-                run += inc
-            i1, i2 = np.argmax(run, axis=1), np.argmin(run, axis=1)
-        x = L * tk
-        at = first + k
-        best[("M", 1, "right")][0][at] = x * Vi[rows, i1] - Mi[rows, i1]
-        best[("M", 1, "right")][1][at] = i1
-        best[("M", -1, "right")][0][at] = -(x * Vi[rows, i2] - Mi[rows, i2])
-        best[("M", -1, "right")][1][at] = i2
+    Within a piece of n placements (:class:`_Placements`) each quantity is
+    a cubic in u = k / (n - 1), k the placement's index in the piece.  Its
+    Bernstein coefficients b0..b3 on [0, 1] come from its values at four
+    placements (k = 0, (n-1)//3, 2(n-1)//3, n-1) by the same products
+    with the unit nodal loads; b0 and b3 are the values at the piece's
+    ends.  The largest value over a piece's placements is at an end or at
+    the two placements next to a real root of the cubic's derivative; the
+    cubic lies within the hull of b0..b3.  So the ends (and every
+    placement of the pieces too short to reduce) give a first extreme, and
+    only the pieces whose b1 or b2 passes it are searched at the
+    placements next to their stationary points (the cubic evaluated there
+    by Horner's rule in v = 2u - 1).  Of equal values the first placement
+    governs."""
+    r, nb = G.shape[1], G.shape[2]
+    if r == 0:
+        return
+    b = pl.pieces
+    n = np.diff(b)
+    big = n >= _PIECE_MIN
+    start, last = b[:-1][big], n[big] - 1
+    pb = len(start)
+    ns = n[~big]
+    small = np.repeat(b[:-1][~big] - np.cumsum(ns) + ns, ns) + np.arange(ns.sum())
+    # the placements evaluated exactly, ascending: ends of the reduced
+    # pieces, every placement of the others
+    D = np.sort(np.concatenate([start, start + last, small]))
+    nD = len(D)
+    c0, c3 = np.searchsorted(D, start), np.searchsorted(D, start + last)  # columns of b0, b3
+    cols = [pl.WP[:, D]]
+    if pb:
+        # b1, b2 of each piece from its values at the four nodes: with b0 =
+        # q0 and b3 = q3, q1 and q2 give two equations in b1, b2
+        k1, k2 = last // 3, (2 * last) // 3
+        u = np.stack([k1 / last, k2 / last], axis=1)  # (pb, 2)
+        Bm = np.stack([(1 - u) ** 3, 3 * u * (1 - u) ** 2, 3 * u ** 2 * (1 - u), u ** 3], axis=2)  # (pb, 2, 4)
+        inv = np.linalg.inv(Bm[:, :, 1:3])  # (pb, 2, 2): (b1, b2) = inv (q12 - B0 q0 - B3 q3)
+        W = np.concatenate([-inv @ Bm[:, :, :1], inv, -inv @ Bm[:, :, 3:]], axis=2)  # (pb, 2, 4) on q0..q3
+        nodes = np.stack([start, start + k1, start + k2, start + last], axis=1)  # (pb, 4)
+        cols.append(np.einsum("npa,pja->njp", pl.WP[:, nodes], W).reshape(nb, 2 * pb))  # all b1, then all b2
+    F = (G.reshape(3 * r, nb) @ np.concatenate(cols, axis=1)).reshape(3, r, -1)
+    nf = 2 + len(t)
+    xs = [L * tk for tk in t]
+
+    def quantity(f):
+        """(r, columns) quantity f (N, V, M at t[f - 2]) from F."""
+        return -F[0] if f == 0 else F[1] if f == 1 else xs[f - 2][:, None] * F[1] - F[2]
+
+    # per sign (+1 largest, -1 smallest): per quantity and member the
+    # extreme (sign * value) and its placement
+    ext = {sg: (np.empty((nf, r)), np.empty((nf, r), np.intp)) for sg in (1, -1)}
+    found = []  # pieces to search: (quantity, member, piece, b0..b3)
+    for f in range(nf):
+        Q = quantity(f)
+        i1, v1, i2, v2 = _extreme(Q[:, :nD])
+        ext[1][0][f], ext[1][1][f], ext[-1][0][f], ext[-1][1][f] = v1, D[i1], -v2, D[i2]
+        if pb:
+            b1, b2 = Q[:, nD:nD + pb], Q[:, nD + pb:]  # (r, pb)
+            rr, pp = np.nonzero((np.maximum(b1, b2) > v1[:, None]) | (np.minimum(b1, b2) < v2[:, None]))
+            if len(rr):
+                found.append((np.full(len(rr), f), rr, pp, Q[rr, c0[pp]], b1[rr, pp], b2[rr, pp], Q[rr, c3[pp]]))
+    if found:
+        f_, r_, p_, *bz = (np.concatenate(c) for c in zip(*found))
+        cm = _BERN_TO_V @ np.array(bz)  # (4, n) monomial coefficients in v
+        # real roots of c1 + 2 c2 v + 3 c3 v^2 in [-1, 1], as the integers k next to them
+        A_, B_, C_ = 3 * cm[3], 2 * cm[2], cm[1]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            disc = B_ * B_ - 4 * A_ * C_
+            q = -0.5 * (B_ + np.copysign(np.sqrt(np.maximum(disc, 0.0)), B_))
+            r1, r2 = q / A_, C_ / q
+            roots = np.stack([np.fmin(r1, r2), np.fmax(r1, r2)])  # ascending; a nan gives way to the other
+        ok = (disc >= 0) & (np.abs(roots) <= 1.0)  # False for nan, inf
+        roots = np.where(ok, roots, np.where(ok[::-1], roots[::-1], -1.0))  # a missing root repeats the other
+        lp = last[p_]
+        kr = np.floor((roots + 1) * 0.5 * lp)
+        k = np.minimum(np.concatenate([kr, kr + 1])[[0, 2, 1, 3]], lp)  # (4, n) ascending
+        v = 2 * k / lp - 1
+        val = ((cm[3] * v + cm[2]) * v + cm[1]) * v + cm[0]
+        tgt = f_ * r + r_  # ascending: by quantity, then member (then piece)
+        seg = np.concatenate([[0], np.flatnonzero(np.diff(tgt)) + 1])
+        cnt = np.diff(np.append(seg, len(tgt)))
+        tt = tgt[seg]
+        k = k.astype(np.intp)
+        for sg in (1, -1):
+            w = val if sg > 0 else -val
+            w_, kb = w[0], k[0]
+            for c in range(1, 4):  # the first, the earliest placement, of equal values
+                kb = np.where(w[c] > w_, k[c], kb)
+                w_ = np.maximum(w_, w[c])
+            pa = start[p_] + kb
+            gmax = np.maximum.reduceat(w_, seg)
+            ga = np.minimum.reduceat(np.where(w_ == np.repeat(gmax, cnt), pa, pl.n), seg)
+            ev, ea = ext[sg][0].reshape(-1), ext[sg][1].reshape(-1)
+            better = (gmax > ev[tt]) | ((gmax == ev[tt]) & (ga < ea[tt]))
+            ev[tt[better]], ea[tt[better]] = gmax[better], ga[better]
+    every = (first[:, None] + np.arange(len(t))).ravel()
+    for sg in (1, -1):
+        ev, ea = ext[sg]
+        for f, q in ((0, "N"), (1, "V")):
+            for side in ("right", "left"):
+                best[(q, sg, side)][0][every] = np.repeat(ev[f], len(t))
+                best[(q, sg, side)][1][every] = np.repeat(ea[f], len(t))
+        for kk in range(len(t)):
+            best[("M", sg, "right")][0][first + kk] = ev[2 + kk]
+            best[("M", sg, "right")][1][first + kk] = ea[2 + kk]
 
 
 def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np.ndarray, xs: np.ndarray,
@@ -874,8 +995,8 @@ def _loaded_extremes(pl: "_Placements", Fp: np.ndarray, on: np.ndarray, rows: np
                 if q == "V" or axial:
                     w[Q] = -np.inf
                 i = int(np.argmax(w))
-                for side in ("right", "left"):
-                    _merge(best[(q, sg, side)], slice(i0, i1), w[i], i)
+                for side in ("right", "left"):  # the member's first values: set, not merged
+                    best[(q, sg, side)][0][i0:i1], best[(q, sg, side)][1][i0:i1] = w[i], i
         # the loaded placements, in blocks of samples (about a megabyte per array)
         rows_blk = max(16, _CELLS // max(len(Q), 1))
         for s0 in range(0, n, rows_blk):

@@ -319,6 +319,10 @@ def _two_bay_portal() -> tuple[Frame, list[tuple[str, float, float]]]:
     (_short_middle_span, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3, 30e3), (3.0, 1.25)), None, (1, -1)),
     (_spans_on_a_spring, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (3.0,)), None, (1, -1)),
     (_two_bay_portal, (0.0, -1.0), 0.125, Vehicle((50e3, 80e3), (2.5,)), None, (1, -1)),
+    # a coarse step: between the placements where an axle crosses a node
+    # some runs are shorter than the piece search reduces (every placement
+    # of them evaluated), the others longer
+    (_two_bay_portal, (1.0, -2.0), 0.375, Vehicle((50e3, 80e3, 20e3), (2.5, 1.0)), None, (1, -1)),
     # stations 3e-9 m (k = 1, 2, 3) past the span's regular samples at 1 m
     # spacing: within 1e-9 of its length, so they are no samples of their
     # own and an axle stands between two samples
@@ -501,3 +505,85 @@ def test_a_decimal_step_never_hides_a_shear_extreme(loads, spacings):
     tol = 1e-6 * max(loads)
     assert np.all(env.values["V_max"] >= vmax - tol)
     assert np.all(env.values["V_min"] <= vmin + tol)
+
+
+def test_off_path_extreme_inside_a_piece_equals_direct_solves():
+    # Two equal spans, the path on span 1 only: span 2 carries end forces
+    # alone, and its hogging over the middle support peaks with the axles
+    # well inside the stretch where both stand on span 1 (for one load at
+    # L / sqrt(3), three-moment equation, from memory).  Between the
+    # placements where an axle crosses a path node the envelope is found
+    # from four placements per stretch (its ends and thirds: fronts at
+    # multiples of 1.5 m here) and the placements next to the cubic's
+    # stationary points; the extreme must still be that of every
+    # placement solved directly (solver.solve, point loads, one case per
+    # placement) and the governing placement one of the others.
+    from dxf2frame.solver import PointLoad, solve
+    L, step = 6.0, 0.05
+    vehicle = Vehicle((60e3, 40e3), (1.5,))
+    f = two_spans(L)
+    env = MovingLoads(f, path_along_members(f, ["S1"])).envelope(vehicle, step=step)["S2"]
+    n_front = int(round((L + 1.5) / step)) + 1
+    fronts = [(k * step, 1) for k in range(n_front)] + [(L - k * step, -1) for k in range(n_front)]
+    for i, (front, d) in enumerate(fronts):
+        for s, P in zip(front - d * vehicle.offsets, vehicle.loads):
+            if 0.0 <= s <= L:
+                f.add_load(PointLoad("S1", float(s), px=0.0, py=-P, case=f"P{i}"))
+    direct = solve(f, [f"P{i}" for i in range(len(fronts))])
+    res = [direct[f"P{i}"].members["S2"] for i in range(len(fronts))]
+    for q, name in (("N", "axial"), ("V", "shear"), ("M", "moment")):
+        vals = np.array([[getattr(r, name)(x) for x in env.x] for r in res])  # (placement, sample)
+        scale = max(np.abs(vals).max(), 1.0)
+        for key, red in ((f"{q}_max", np.max), (f"{q}_min", np.min)):
+            assert np.allclose(env.values[key], red(vals, axis=0), rtol=0, atol=1e-9 * scale)
+            i = [fronts.index((round(fr / step) * step, int(dr))) for fr, dr in zip(env.front[key], env.direction[key])]
+            assert np.allclose(vals[i, np.arange(len(env.x))], env.values[key], rtol=0, atol=1e-9 * scale)
+    g = env.governing("M_min")
+    assert g["value"] < 0 and g["x"] == 0.0
+    assert 1.5 < g["front"] < 6.0
+    assert abs(g["front"] / 1.5 - round(g["front"] / 1.5)) > 1e-6  # no placement evaluated as a node
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_piece_extremes_equal_brute_force(seed):
+    # Quantities that are cubics in the placement's index within each piece
+    # (random coefficients, pieces of 1 to 80 placements, many with an
+    # interior maximum or minimum), reduced by the piece search, against
+    # evaluating every placement (numpy brute force).
+    from types import SimpleNamespace
+
+    from dxf2frame.solver.moving import _piece_extremes
+    rng = np.random.default_rng(seed)
+    sizes = rng.integers(1, 80, 30)
+    bounds = np.concatenate([[0], np.cumsum(sizes)])
+    nb, r, t = 5, 40, np.linspace(0.0, 1.0, 11)
+    cols = []
+    for n in sizes:
+        k = np.arange(n) / max(n - 1, 1)
+        # parabolas with their vertex inside the piece, plus a little cubic
+        k0, c = rng.uniform(0.2, 0.8), rng.normal(size=(nb, 3))
+        cols.append(30 * c[:, :1] + 10 * c[:, 1:2] * (k - k0) ** 2 + c[:, 2:] * (k - 0.5) ** 3)
+    WP = np.concatenate(cols, axis=1)
+    pl = SimpleNamespace(pieces=bounds, WP=WP, n=WP.shape[1])
+    G = rng.normal(size=(3, r, nb))
+    L = rng.uniform(1.0, 8.0, r)
+    first = np.arange(r) * len(t)
+    best = {key: (np.full(r * len(t), -np.inf), np.zeros(r * len(t), np.intp))
+            for key in [(q, sg, sd) for q in "NVM" for sg in (1, -1) for sd in ("right", "left")]}
+    _piece_extremes(pl, G, L, t, first, best)
+    F = np.einsum("qrb,bp->qrp", G, WP)
+    want = {"N": np.repeat(-F[0], len(t), axis=0), "V": np.repeat(F[1], len(t), axis=0),
+            "M": (L[:, None] * t[None, :]).reshape(-1, 1) * np.repeat(F[1], len(t), axis=0)
+            - np.repeat(F[2], len(t), axis=0)}  # (sample, placement)
+    interior = 0
+    for q, E in want.items():
+        scale = np.abs(E).max()
+        for sg in (1, -1):
+            v, a = best[(q, sg, "right")]
+            w = sg * E
+            assert np.allclose(v, w.max(axis=1), rtol=0, atol=1e-12 * scale)
+            assert np.allclose(w[np.arange(len(a)), a], v, rtol=0, atol=1e-12 * scale)
+            p = w.argmax(axis=1)
+            inside = (p != bounds[np.searchsorted(bounds, p, side="right") - 1]) & ~np.isin(p + 1, bounds)
+            interior += int(inside.sum())
+    assert interior > 100  # many extremes inside pieces, at no end
