@@ -38,6 +38,7 @@ from __future__ import annotations
 
 import contextlib
 import io
+import os
 import shutil
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -64,8 +65,19 @@ def _save(doc: "Drawing", target: Path) -> None:
         doc.saveas(tmp)
 
 
+#: how much lower the children writing a save begun early run than the
+#: solve (``os.nice``): they have time to spare until the report is
+#: written, while the alpha_cr check and the drawing decide when the solve
+#: ends; on a busy machine the scheduler gives them the rest of the cores
+#: (a 20,000-member frame: 26 s instead of 28 s on two cores)
+SAVE_NICENESS = 5
+
+
 def _write_piece(doc: "Drawing", start: int, stop: int, path: Path) -> None:
-    """In a child: modelspace entities ``start`` to ``stop`` into ``path``."""
+    """In a child: modelspace entities ``start`` to ``stop`` into ``path``
+    (at :data:`SAVE_NICENESS`)."""
+    with contextlib.suppress(OSError, AttributeError):
+        os.nice(SAVE_NICENESS)
     with open(path, "wt", encoding=doc.output_encoding, errors="dxfreplace") as fp:
         split_export.write_entities(doc, fp, start, stop)
 
