@@ -729,7 +729,8 @@ def main(argv: list[str] | None = None) -> int:
                     help="results file (default bench/results.json; --quick writes none unless given)")
     ap.add_argument("--moving", action="store_true",
                     help="only the moving-load figure: a 2,000-station path on a 500-member frame against "
-                         "one solve with 15 results, in process (bench/moving.py)")
+                         "one solve of every case and combination (21 results on the generated frames: D, L, W "
+                         "and the built-in sets), in process (bench/moving.py)")
     a = ap.parse_args(argv)
     if a.moving:
         return _moving_only(a.out)
