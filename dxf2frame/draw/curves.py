@@ -88,6 +88,11 @@ class FrameGeom:
         frame's size, to two significant digits."""
         return float(f"{self.size * _TEXT_RATIO:.2g}")
 
+    def text_height_or(self, given: float | None) -> float:
+        """``given`` when it is a positive height (the settings'
+        ``[drawing]``), else :attr:`text_height` [drawing units]."""
+        return given if given and given > 0 else self.text_height
+
 
 def frame_geom(model: "DrawingModel") -> FrameGeom:
     frame = model.frame

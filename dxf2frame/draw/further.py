@@ -77,15 +77,17 @@ def _buckled_shape(pen: Pen, model, b, layer: str, size: float, h: float, label:
     pen.text(label, top + np.array([0.0, 1.5 * h]), h, layer)
 
 
-def _fresh_layers(doc: "Drawing", model, *layer_sets: dict[str, str], text_height: float | None = None):
-    """Empty and set up each set of result layers; (frame geometry, its
-    size, the text height: ``text_height`` when given, else the frame's
-    default) [drawing units]."""
+def _fresh_layers(doc: "Drawing", model, *layer_sets: dict[str, str], text_height: float | None = None,
+                  clear: bool = True):
+    """Set up each set of result layers, emptied first unless ``clear`` is
+    False; (frame geometry, its size, the text height: ``text_height`` when
+    given, else the frame's default) [drawing units]."""
     for names in layer_sets:
-        clear_result_layers(doc, names.values())
+        if clear:
+            clear_result_layers(doc, names.values())
         prepare_layers(doc, names)
     geom = frame_geom(model)
-    return geom, geom.size, text_height if text_height and text_height > 0 else geom.text_height
+    return geom, geom.size, geom.text_height_or(text_height)
 
 
 def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
@@ -93,7 +95,9 @@ def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
                      content: DrawingObstacles | None = None,
                      text_height: float | None = None) -> list[str]:
     """Draw the second-order and moving-load results into ``doc`` (already
-    annotated with the first-order results).  Returns legend lines.
+    annotated with the first-order results, which emptied these layers
+    too: :func:`dxf2frame.draw.writer.annotate_results`).  Returns legend
+    lines.
 
     ``content``: the drawing's own entities as obstacles when the caller
     has them (the first-order writer measures them); only the result
@@ -101,7 +105,7 @@ def annotate_further(doc: "Drawing", model, stability=None, moving=None, *,
     the first-order results' (the settings' ``[drawing]``); None sizes
     texts to the frame."""
     names = further_layer_names(layers)
-    geom, size, h = _fresh_layers(doc, model, names, text_height=text_height)
+    geom, size, h = _fresh_layers(doc, model, names, text_height=text_height, clear=False)
     ours = {n.upper() for n in names.values()}
     # the drafter's content and the first-order result layers, before these layers are drawn
     if content is None:

@@ -433,7 +433,7 @@ def annotate_results(
     obst = _drawing_content(doc, names.values())       # the drawing's own, before we add ours
     geom = frame_geom(model)
     size = geom.size
-    h = text_height if text_height and text_height > 0 else geom.text_height
+    h = geom.text_height_or(text_height)
     pen = Pen(doc, size)
     summary = DrawingSummary(layers=names, text_height=h, shown=sel.label, content=obst)
     frame = model.frame
