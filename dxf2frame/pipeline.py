@@ -751,9 +751,11 @@ def _join_further(job: "Forked | None", analysis: Analysis, req: SolveRequest, o
 
 
 def _gather_warnings(outcome: FileOutcome, analysis: Analysis) -> None:
-    """The model's and the determinacy check's warnings, in that order."""
-    model, det = analysis.model, analysis.determinacy
-    outcome.warnings = list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
+    """The model's and the determinacy check's warnings, in that order (as
+    the report gives them)."""
+    from .report.report import report_warnings
+
+    outcome.warnings = report_warnings(analysis.model, analysis.determinacy)
 
 
 @contextlib.contextmanager

@@ -89,6 +89,7 @@ __all__ = [
     "element_table",
     "locate_points",
     "assemble_report",
+    "report_warnings",
     "build_report",
     "to_plain",
     "dumps_report",
@@ -668,12 +669,19 @@ def assemble_report(
             "elements": len(frame.members),
         },
         "determinacy": determinacy,
-        "warnings": list(model.warnings) + [w for w in det_warnings if w not in model.warnings],
+        "warnings": report_warnings(model, det),
         "results": out_results,
         "envelopes": envelopes,
     }
     _add_storeys_and_checks(report, model, results, uf, drift)
     return report
+
+
+def report_warnings(model: "DrawingModel", det) -> list[str]:
+    """The warnings of a solve: the model's (reading, guesses, the
+    second-order check), then the determinacy check's that are not among
+    them."""
+    return list(model.warnings) + [w for w in det.warnings if w not in model.warnings]
 
 
 def _add_storeys_and_checks(report: dict, model: "DrawingModel", results: Sequence, uf: UnitFactors,
