@@ -72,7 +72,6 @@ __all__ = [
     "second_order_many",
     "storey_levels",
     "sway_amplification",
-    "axial_forces",
     "axial_ends",
     "chord_shears",
 ]
@@ -200,12 +199,6 @@ def _combos(combinations) -> list[tuple[str, dict]]:
     return [(str(n), f) for n, f in items]
 
 
-def axial_forces(fe: np.ndarray) -> np.ndarray:
-    """(m,) mean axial force of each element from its end forces (m, 6)
-    [force], tension positive: ``(Nj - Ni) / 2``."""
-    return 0.5 * (fe[:, 3] - fe[:, 0])
-
-
 def axial_ends(fe: np.ndarray) -> np.ndarray:
     """(m, 2) axial force at the start and the end of each element from
     its end forces (m, 6) [force], tension positive: ``(-Ni, Nj)``."""
@@ -313,6 +306,10 @@ def _lowest_factors(A: sp.spmatrix, B: sp.spmatrix, fact, modes: int, v0: np.nda
         # the wrong one of close factors; a start near the wanted mode
         # needs one
         k = min(modes + (1 if near else 2), n - 2)
+        # a Krylov space of 18 from a near start converges without a
+        # restart on the benchmark frames (19 solves with K at 5,000 and
+        # 20,000 members; 10 took 18 and 25, a restart throwing work away)
+        ncv = min(n, max(2 * k + 14, 18) if near else max(2 * k + 1, 24))
         # tol 1e-6 from an arbitrary start: load factors to about six
         # digits, far more than the three a report gives (and finer than
         # the discretisation's own error); machine precision (tol=0) costs
@@ -323,10 +320,6 @@ def _lowest_factors(A: sp.spmatrix, B: sp.spmatrix, fact, modes: int, v0: np.nda
         # as at 1e-6, with fewer solves with K); which mode it
         # is, is guarded by the caller (a finer frame's factor never above
         # the coarser one's)
-        # a Krylov space of 18 from a near start converges without a
-        # restart on the benchmark frames (19 solves with K at 5,000 and
-        # 20,000 members; 10 took 18 and 25, a restart throwing work away)
-        ncv = min(n, max(2 * k + 14, 18) if near else max(2 * k + 1, 24))
         mu, phi = eigsh(A, k=k, M=B, Minv=Binv, which="LA", ncv=ncv, tol=1e-4 if near else 1e-6, v0=v0)
     order = np.argsort(-mu)
     return mu[order], phi[:, order]
