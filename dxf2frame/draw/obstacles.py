@@ -29,7 +29,7 @@ from .occupancy import Occupancy, present
 if TYPE_CHECKING:  # pragma: no cover
     from ezdxf.document import Drawing
 
-__all__ = ["DrawingObstacles", "drawing_obstacles", "free_spot", "keep_clear"]
+__all__ = ["DrawingObstacles", "drawing_obstacles", "free_spot", "keep_clear", "points_box"]
 
 Box = tuple[float, float, float, float]
 
@@ -270,7 +270,13 @@ def _extents(polys: list[np.ndarray], boxes: Sequence[Box]) -> Box | None:
         parts += [b[:, :2], b[:, 2:]]
     if not parts or not sum(len(q) for q in parts):
         return None
-    xy = np.vstack(parts)
+    return points_box(np.vstack(parts))
+
+
+def points_box(xy: np.ndarray) -> Box:
+    """The box (xmin, ymin, xmax, ymax) of (k, 2) points, k >= 1; reduced
+    column by column (numpy reduces a tall (k, 2) array along axis 0 some
+    fifty times slower)."""
     return (float(xy[:, 0].min()), float(xy[:, 1].min()), float(xy[:, 0].max()), float(xy[:, 1].max()))
 
 

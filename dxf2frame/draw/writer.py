@@ -59,7 +59,7 @@ from ..drawing_file import open_document
 from .curves import (DIAGRAMS, FrameGeom, frame_geom, chain_polylines, chord_tolerance, sample_curves, drawn_curves, FlatCurve, has_batch, sample_batch,
                              sample_member_by_member, segment_max, straight_chains, zero_crossings)
 from ..errors import SettingsError
-from .obstacles import DrawingObstacles, drawing_obstacles, free_spot, keep_clear
+from .obstacles import DrawingObstacles, drawing_obstacles, free_spot, keep_clear, points_box
 from .occupancy import Occupancy
 from .labels import (OTHER_SIGN, PRIORITY, SAME_AT_JOINT, Box, LabelPlacer, as_lines, drawing_texts,
                      label_requests, label_font, Label, centre_lift, merge_at_joints, geometries_near, place_labels, Spot, text_width)
@@ -276,8 +276,7 @@ def _draw_diagram(ctx: _Ctx, key: str, layer: str, curves: list[FlatCurve], labe
         pts = base + o[:, None] * geom.n[c.eid]
         flat.append((o, base, pts, drawn_curves(c, along, o, tol, zero)))
         if len(pts):
-            # by columns: numpy reduces a tall (k, 2) array along axis 0 some fifty times slower
-            extents.append((float(pts[:, 0].min()), float(pts[:, 1].min()), float(pts[:, 0].max()), float(pts[:, 1].max())))
+            extents.append(points_box(pts))
 
     def element_labels(i: int) -> list[Label]:
         cs = []
@@ -516,7 +515,7 @@ def annotate_results(
                 f"drawing: {len(unplaced)} probe marker(s) found no free place on the drawing and are not "
                 f"drawn; their values are in the notes, the report and the console: {'; '.join(unplaced)}")
     if bent is not None and len(bent):
-        boxes.append((float(bent[:, 0].min()), float(bent[:, 1].min()), float(bent[:, 0].max()), float(bent[:, 1].max())))
+        boxes.append(points_box(bent))
     b = np.array(boxes, dtype=float)
     content = (float(b[:, 0].min()), float(b[:, 1].min()), float(b[:, 2].max()), float(b[:, 3].max()))
 
