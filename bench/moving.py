@@ -8,12 +8,19 @@ drawings as the main benchmark, :mod:`bench.generate`) read once through
 * *one solve*: :func:`dxf2frame.solver.solve` of every load case and the
   combinations of the settings (:func:`dxf2frame.solver.combine`): the
   results counted in ``results`` (21 on the generated frames: D, L, W and
-  the built-in sets' nine LRFD and nine ASD combinations);
+  the built-in sets' nine LRFD and nine ASD combinations); the same with
+  the first twelve combinations only (``solve15_s``: 15 results, the
+  count the issue's target names);
 * *moving*: :class:`dxf2frame.solver.MovingLoads` on a path along the
   roof beam line (the top floor's beams, one chain) with ``stations``
   stations, a two-axle vehicle crossing both ways, the envelope of N, V,
   M along every member (one factorisation, unit loads at the path's nodes
   superposed);
+* *unit solutions*: :class:`dxf2frame.solver.MovingLoads` and
+  :meth:`~dxf2frame.solver.MovingLoads.unit_solutions` at the path's
+  stations: every member's end forces and every reaction per unit load at
+  each of the 2,000 stations (the superposed influence data, before any
+  vehicle; ``unit_s``);
 * *alpha_cr*: the elastic critical load factors of the LRFD combinations
   (the default ``[second_order] analysis = "check"`` of every solve).
 
@@ -59,9 +66,9 @@ def measure_moving(members: int = 500, stations: int = 2000, repeat: int = 3, *,
     frame = an.model.frame
     specs = combination_specs(an.settings, list(frame.cases()))
 
-    def one_solve():
+    def one_solve(which=specs):
         cases = solve(frame)
-        return [combine(cases, f, n, family=fam) for n, f, fam in specs], cases
+        return [combine(cases, f, n, family=fam) for n, f, fam in which], cases
 
     combos, cases = one_solve()
     n_results = len(cases) + len(combos)
@@ -75,16 +82,24 @@ def measure_moving(members: int = 500, stations: int = 2000, repeat: int = 3, *,
     def moving():
         return MovingLoads(frame, path_).envelope(vehicle, step=step)
 
+    def unit():
+        ml = MovingLoads(frame, path_)
+        return ml.unit_solutions(ml.stations(step))
+
     out = {
         "members": len(frame.members),
         "stations": int(round(path_.length / step)) + 1,
         "results": n_results,
         "solve_s": _best(one_solve, repeat),
+        "solve15_s": _best(lambda: one_solve(specs[:12]), repeat),
         "moving_s": _best(moving, repeat),
+        "unit_s": _best(unit, repeat),
         "load_average": list(os.getloadavg()),
         "cpus": os.cpu_count(),
     }
     out["ratio"] = out["moving_s"] / out["solve_s"]
+    out["ratio15"] = out["moving_s"] / out["solve15_s"]
+    out["unit_ratio15"] = out["unit_s"] / out["solve15_s"]
     if alpha_cr:
         lrfd = [(n, f) for n, f, fam in specs if fam == "LRFD"]
         out["alpha_cr_combinations"] = len(lrfd)

@@ -700,7 +700,9 @@ def _moving_only(out: Path | None) -> int:
     res = _spawn(["moving"])
     print(f"moving loads, in process: {res['stations']} stations on {res['members']} members "
           f"{res['moving_s']:.3f} s; one solve with {res['results']} results {res['solve_s']:.4f} s; "
-          f"ratio {res['ratio']:.1f} (target < 2); alpha_cr of {res.get('alpha_cr_combinations', 0)} "
+          f"ratio {res['ratio']:.1f}; against 15 results {res['solve15_s']:.4f} s, ratio {res['ratio15']:.1f} "
+          f"(target < 2); unit-load solutions at the stations {res['unit_s']:.4f} s, "
+          f"{res['unit_ratio15']:.1f} x the 15-result solve; alpha_cr of {res.get('alpha_cr_combinations', 0)} "
           f"combinations {res.get('alpha_cr_s', float('nan')):.3f} s; load average "
           f"{', '.join(f'{v:.2f}' for v in res['load_average'])} on {res['cpus']} cores")
     if out is not None:
