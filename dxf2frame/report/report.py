@@ -464,8 +464,8 @@ def locate_points(
         m = frame.members[i]
         if dist[i] > tolerance:
             raise DrawingError(
-                f"probe ({x:g}, {y:g}) is not on any member; nearest is {m.group} at {dist[i]:.4g} "
-                f"{model.length_unit}",
+                f"probe ({x:g}, {y:g}) is not on any member; the nearest, {m.group}, is {dist[i]:.4g} "
+                f"{model.length_unit} away",
                 hint=f"give a point within {tolerance:.3g} {model.length_unit} of a member centreline",
             )
         out.append((m.id, float(t[i] * math.sqrt(ll[i]) * model.unit_scale)))
