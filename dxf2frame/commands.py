@@ -35,7 +35,7 @@ def run_check(args) -> int:
     from .solver import check
 
     from .pipeline import EXIT_OK, EXIT_UNSTABLE
-    from .read.reader import read_drawing
+    from .read.reader import read_file
     from .settings import load_settings
 
     from .pipeline import add_self_weight_loads, combination_specs
@@ -43,7 +43,7 @@ def run_check(args) -> int:
                                  stiffness_basis)
 
     settings = load_settings(args.settings, args.drawing)
-    model = read_drawing(args.drawing, settings, length_unit=args.length_unit)
+    model, document = read_file(args.drawing, settings, length_unit=args.length_unit)
     add_self_weight_loads(model, settings)
     frame = model.frame
     det = check(frame, unit_scale=model.unit_scale)
@@ -58,6 +58,7 @@ def run_check(args) -> int:
         "none": "not needed for the forces (deflections need sections)" if det.status != "unstable" else "-",
         "equal": "none given: equal relative stiffness (equal EI, axial shortening neglected), no deflections",
     }[basis]
+    moving = _moving_lines(model, document, settings)
     loads_per_case = Counter(ld.case for ld in frame.loads)
     kinds = Counter(s.kind for s in frame.supports)
     _say(
@@ -77,6 +78,7 @@ def run_check(args) -> int:
         *(f"  layer      {t}" for t in section_lines(frame, settings)),
         *(f"self-weight  {t.removeprefix('self-weight: ')}" for t in model.notes if t.startswith("self-weight")),
         _storeys_line(model, settings),
+        *moving,
         "",
         f"determinacy  {det.status}" + (f", degree {det.degree}" if det.status == "indeterminate" else "")
         + (f", {det.mechanisms} mechanism(s)" if det.mechanisms else ""),
@@ -94,6 +96,24 @@ def run_check(args) -> int:
 
         raise Dxf2FrameError(strict_message(warnings))
     return EXIT_UNSTABLE if det.status == "unstable" else EXIT_OK
+
+
+def _moving_lines(model, document, settings) -> list[str]:
+    """``moving       path FRAME-DECK: 2 members, 28 m, step 0.25 m (113
+    stations); vehicles ...`` when the settings give a load path (checked
+    as ``solve`` checks it: a bad path or step raises), else nothing."""
+    if settings.moving_path_layer is None:
+        return []
+    from .further import load_path
+
+    path, kind = load_path(model, document, settings)
+    step = settings.moving_step
+    n = int(path.length / step + 1e-9) + 1
+    n += abs((n - 1) * step - path.length) > 1e-9 * path.length  # the path's end is a station too
+    what = f"{len(set(path.member.tolist()))} member(s)" + (", polyline" if kind == "polyline" else "")
+    vehicles = "; ".join(f"{v.name} ({len(v.loads)} axle(s))" for v in settings.moving_vehicles)
+    return [f"moving       path {settings.moving_path_layer}: {what}, {path.length:.6g} m, step {step:g} m "
+            f"({n:,} stations); vehicles: {vehicles or 'none (influence lines only)'}"]
 
 
 def _storeys_line(model, settings) -> str:

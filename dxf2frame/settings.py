@@ -1030,7 +1030,9 @@ def _second_order_and_moving(data: Mapping[str, Any], path: str) -> dict[str, An
         names.add(name.upper())
         loads = _quantity_list(v.get("axles"), "force", f"{key}.axles", path)
         spacings = _quantity_list(v.get("spacings", []), "length", f"{key}.spacings", path)
-        if not loads or len(spacings) != len(loads) - 1:
+        if not loads:
+            raise SettingsError("a vehicle needs at least one axle load", path=path, key=f"{key}.axles")
+        if len(spacings) != len(loads) - 1:
             raise SettingsError(f"{len(loads)} axle(s) need {max(len(loads) - 1, 0)} spacing(s), got "
                                 f"{len(spacings)}", path=path, key=f"{key}.spacings")
         specs.append(VehicleSpec(name, loads, spacings))

@@ -336,6 +336,44 @@ def test_a_path_without_vehicles_gives_influence_lines_alone(tmp_path, capsys):
     assert "moving" not in rep and any("no vehicle" in w for w in rep["warnings"])
 
 
+def test_a_vehicle_without_axles_is_bad_input(tmp_path, capsys):
+    rc, _, err = run(capsys, tmp_path, deck(), SECTIONS + vehicles("FRAME-DECK", "axles = []\nspacings = []"))
+    assert rc == 2 and "moving.vehicles[0].axles" in err and "at least one axle" in err
+    assert not (tmp_path / "solved").exists()
+
+
+def test_a_step_in_the_wrong_unit_is_refused_before_the_work(tmp_path, capsys):
+    # "0.25 mm" for "0.25 m": 24,001 stations on the 6 m members of the deck;
+    # the work on a member of the path grows as the square of its stations,
+    # so the slip is refused (exit 2, nothing written), by solve and check alike
+    settings = SECTIONS + vehicles("FRAME-DECK", 'axles = ["1 kN"]').replace('"0.25 m"', '"0.25 mm"')
+    rc, _, err = run(capsys, tmp_path, deck(), settings)
+    assert rc == 2 and "moving.step" in err and "24,001 stations" in err and "0.25 mm" in err
+    assert not (tmp_path / "solved").exists()
+    capsys.readouterr()
+    assert main(["check", str(tmp_path / "frame.dxf")]) == 2
+    assert "24,001 stations" in capsys.readouterr().err
+    assert "a step of at least 0.00121 m" in err   # 6 m / 4,999 = 0.0012002 m, rounded up
+    # within the limit: 4,801 stations on each member, solved
+    settings = SECTIONS + vehicles("FRAME-DECK", 'axles = ["1 kN"]').replace('"0.25 m"', '"1.25 mm"')
+    rc, _, err = run(capsys, tmp_path / "b", deck(), settings)
+    assert rc == 0, err
+
+
+def test_check_names_the_load_path_as_solve_reads_it(tmp_path, capsys):
+    run(capsys, tmp_path, deck(), SECTIONS + vehicles("FRAME-DECK", 'name = "cart"\naxles = ["1 kN", "2 kN"]\n'
+                                                                     'spacings = ["1 m"]'))
+    capsys.readouterr()
+    assert main(["check", str(tmp_path / "frame.dxf")]) == 0
+    line = [t for t in capsys.readouterr().out.splitlines() if t.startswith("moving")]
+    # 12 m at 0.25 m: stations 0, 0.25, ..., 12
+    assert line == ["moving       path FRAME-DECK: 2 member(s), 12 m, step 0.25 m (49 stations); "
+                    "vehicles: cart (2 axle(s))"]
+    (tmp_path / "dxf2frame.toml").write_text(SECTIONS + vehicles("FRAME-DEK", 'axles = ["1 kN"]'), encoding="utf-8")
+    assert main(["check", str(tmp_path / "frame.dxf")]) == 2
+    assert "no member on the path layer 'FRAME-DEK'" in capsys.readouterr().err
+
+
 def test_path_layer_that_is_not_a_chain_names_the_member(tmp_path, capsys):
     doc = deck()
     add_member(doc.modelspace(), (6, 0), (6, 3), layer="FRAME-DECK")   # a branch

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .moving import MovingOutcome, ProbeInfluence, VehicleOutcome, run_moving
+from .moving import MovingOutcome, ProbeInfluence, VehicleOutcome, load_path, run_moving
 from .report import INFLUENCE_CSV_COLUMNS, moving_section, second_order_section, write_influence_csv
 from .stability import SECOND_ORDER_KIND, StabilityOutcome, run_stability, strength_combinations
 
@@ -25,6 +25,7 @@ __all__ = [
     "INFLUENCE_CSV_COLUMNS",
     "run_stability",
     "stability_with_warnings",
+    "load_path",
     "run_moving",
     "strength_combinations",
     "second_order_section",

@@ -17,6 +17,7 @@ CSV convert.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 import networkx as nx
@@ -27,7 +28,7 @@ from ..solver import InfluenceLine, LoadPath, MemberEnvelope, MovingLoads, Vehic
     path_through_points
 from ..solver.errors import LoadError, MissingSectionError, SolverError
 
-__all__ = ["MovingOutcome", "VehicleOutcome", "ProbeInfluence", "run_moving"]
+__all__ = ["MovingOutcome", "VehicleOutcome", "ProbeInfluence", "load_path", "run_moving"]
 
 
 @dataclass
@@ -178,6 +179,51 @@ def _influence(ml: MovingLoads, model, probes, step: float) -> list[ProbeInfluen
     return out
 
 
+MAX_STATIONS_PER_MEMBER = 5000
+"""Most stations one member of the path may carry.  Every axle position on
+a member of the path is a point of its envelope, so the work there grows
+as the square of its stations: about a second at 2,000 on one member,
+ten minutes at 56,000 (a step given in mm for m)."""
+
+
+def _round_up(v: float, digits: int = 3) -> float:
+    """``v`` > 0 rounded up to ``digits`` significant digits."""
+    q = 10.0 ** (math.floor(math.log10(v)) - digits + 1)
+    return math.ceil(v / q - 1e-9) * q
+
+
+def _check_station_count(frame, path: LoadPath, step: float) -> None:
+    """SettingsError when ``step`` [m] puts more than
+    MAX_STATIONS_PER_MEMBER stations on one member of ``path``."""
+    stretch = np.abs(path.a1 - path.a0)
+    i = int(np.argmax(stretch))
+    n = int(np.floor(stretch[i] / step + 1e-9)) + 1
+    if n > MAX_STATIONS_PER_MEMBER:
+        mb = frame.members[int(path.member[i])]
+        raise SettingsError(
+            f"step {step:g} m puts {n:,} stations on member {mb.group} ({stretch[i]:g} m of the path); at most "
+            f"{MAX_STATIONS_PER_MEMBER:,} per member are analysed, a step of at least "
+            f"{_round_up(stretch[i] / (MAX_STATIONS_PER_MEMBER - 1)):g} m here; check the step's unit (e.g. '0.25 m', "
+            f"not '0.25 mm')", key="moving.step")
+
+
+def load_path(model, document, settings) -> tuple[LoadPath, str]:
+    """The load path of ``settings`` (``[moving] path_layer``, which must be
+    given) and its kind ("members" or "polyline"), with the step checked
+    against it; used by ``check`` and ``solve`` alike.
+
+    Raises SettingsError / DrawingError for a path that is not one chain of
+    members or a polyline along them, a step not shorter than the path, or
+    one that puts more than MAX_STATIONS_PER_MEMBER stations on a member.
+    """
+    path, kind = _path(model, document, settings.moving_path_layer, settings)
+    if not settings.moving_step < path.length:
+        raise SettingsError(f"step {settings.moving_step:g} m is not shorter than the path ({path.length:g} m)",
+                            key="moving.step")
+    _check_station_count(model.frame, path, settings.moving_step)
+    return path, kind
+
+
 def run_moving(analysis, probes) -> MovingOutcome | None:
     """Moving loads and influence lines of a solved
     :class:`~dxf2frame.pipeline.Analysis`; ``probes`` are the
@@ -197,10 +243,7 @@ def run_moving(analysis, probes) -> MovingOutcome | None:
         return None
     model = analysis.model
     layer = s.moving_path_layer
-    path, kind = _path(model, analysis.document, layer, s)
-    if not s.moving_step < path.length:
-        raise SettingsError(f"step {s.moving_step:g} m is not shorter than the path ({path.length:g} m)",
-                            key="moving.step")
+    path, kind = load_path(model, analysis.document, s)
     try:
         ml = MovingLoads(model.frame, path, determinate=analysis.determinacy.status == "determinate")
         vehicles = [_vehicle(ml, spec, s.moving_step) for spec in s.moving_vehicles]
