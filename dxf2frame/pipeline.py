@@ -504,6 +504,13 @@ def _governing(report: dict) -> dict[str, float | None]:
             if len(both):
                 v = float(both.max())
                 big[key] = v if big[key] is None else max(big[key], v)
+    # round-off (an axial force of 1e-16 kN in a beam with vertical loads)
+    # is no governing value: below 1e-9 of the larger of max |V| and max |N|
+    # (for M: of that force times one length unit) it reads 0
+    noise = 1e-9 * max((v for v in (big["v"], big["n"]) if v is not None), default=0.0)
+    for key in ("m", "v", "n"):
+        if big[key] is not None and big[key] <= noise:
+            big[key] = 0.0
     ratio = None
     for r in service:
         d = r["members"].numbers("deflection_ratio")

@@ -318,6 +318,26 @@ def test_snap_tolerance_from_settings(tmp_path):
     assert len(model.frame.nodes) == 3  # hand count: gap closed
 
 
+def test_a_load_taken_at_a_joint_from_afar_and_a_large_snap_are_warnings(tmp_path):
+    # A snap of 1500 mm (a slip for 1.5 mm) takes a force drawn 1 m inside a
+    # 6 m span to the pin: the frame solved is not the one drawn, so both
+    # the move and the snap's size are warnings naming what they touch.
+    doc, msp, line = simple_beam("mm", 6000.0)
+    force = add_load(msp, "force", (1000, 0), P="10 kN", ANGLE="-90", CASE="D")
+    model = read(doc, tmp_path)  # default snap: the force loads the span
+    assert [ld.a for ld in loads_of(model, PointLoad)] == [pytest.approx(1.0)]
+    assert not [w for w in model.warnings if "snap" in w]
+    model = read(doc, tmp_path, Settings.from_dict({"geometry": {"snap": "1500 mm"}}))
+    assert len(loads_of(model, NodalLoad)) == 1 and not loads_of(model, PointLoad)
+    moved = [w for w in model.warnings if "applied at the joint" in w]
+    assert len(moved) == 1 and f"#{force.dxf.handle}" in moved[0] and "1000 mm" in moved[0]
+    large = [w for w in model.warnings if w.startswith("[geometry] snap = 1500 mm")]
+    assert len(large) == 1 and f"handle {line.dxf.handle}" in large[0] and "25 %" in large[0]
+    # a snap of a few mm on the same beam: neither
+    model = read(doc, tmp_path, Settings.from_dict({"geometry": {"snap": "5 mm"}}))
+    assert not [w for w in model.warnings if "snap" in w]
+
+
 def test_t_junction_splits_the_through_member(tmp_path):
     doc = new_drawing("m")
     msp = doc.modelspace()

@@ -742,6 +742,29 @@ def _check_every_part_supported(frame: Frame, support_at: dict[int, SupportSpec]
             )
 
 
+#: a load taken at a joint from farther than this fraction of the shortest
+#: member there is a warning: it moves the load by a length that matters
+MOVED_TO_JOINT = 0.01
+
+
+def _note_moved_to_joint(spec, nid: int, at: _Locator, ends_at: dict[int, list[tuple[int, str]]],
+                         warnings: list[str]) -> None:
+    """Warn when load ``spec`` is applied at joint ``nid`` from farther than
+    MOVED_TO_JOINT of the shortest member there (a snap tolerance set large
+    moves loads silently otherwise)."""
+    node = at.node_xy[nid]
+    d = float(np.hypot(spec.at[0] - node[0], spec.at[1] - node[1]))
+    shortest = min((at.lengths[at.frame.members[mi].id][0] for mi, _ in ends_at.get(nid, [])), default=0.0)
+    if shortest > 0 and d > MOVED_TO_JOINT * shortest:
+        kind = {ForceSpec: "force", CoupleSpec: "couple", UdlSpec: "UDL"}.get(type(spec), "load")
+        u = at.units
+        warnings.append(
+            f"{kind} #{spec.handle} on layer '{spec.layer}' is {u.fmt(d)} from the joint at "
+            f"({node[0] / u.scale:.6g}, {node[1] / u.scale:.6g}) and is applied at the joint, being within the "
+            f"snap tolerance ({u.fmt(at.tol)}); if it loads the span, move it onto the member or lower "
+            f"[geometry] snap")
+
+
 def _add_loads(frame: Frame, loads: Sequence[LoadSpec], at: _Locator, ends_at: dict[int, list[tuple[int, str]]],
                warnings: list[str]) -> None:
     """9. Loads: on a node a nodal load, inside a span a member load; a UDL
@@ -752,6 +775,8 @@ def _add_loads(frame: Frame, loads: Sequence[LoadSpec], at: _Locator, ends_at: d
     near_node, near_members = at.near(np.array([ld.at for ld in loads], dtype=float).reshape(-1, 2))
     for li, spec in enumerate(loads):
         nid, cands = near_node[li], near_members[li]
+        if nid is not None:
+            _note_moved_to_joint(spec, nid, at, ends_at, warnings)
         if isinstance(spec, ForceSpec):
             if nid is not None:
                 frame.add_load(NodalLoad(nid, spec.fx, spec.fy, 0.0, case=spec.case, handle=spec.handle))

@@ -294,6 +294,8 @@ def read_document(
         unjoined_layers=settings.unjoined_layers,
     )
     ctx.warnings.extend(result.warnings)
+    if snap_m is not None and snap_m > 0:
+        ctx.warnings.extend(_large_snap(result.frame, snap_m, unit, scale))
     _check_precision(result.frame, unit, scale)
     check_section_keys(result.frame, settings)
     default_case = default_case_warning(ctx.default_case)
@@ -316,6 +318,28 @@ def read_document(
         crossings_separate=result.crossings_separate,
         near_misses=misses,
     )
+
+
+#: a snap tolerance given in the settings above this fraction of the
+#: shortest member is a warning (most often a unit slip: 5 m for 5 mm)
+LARGE_SNAP = 0.05
+
+
+def _large_snap(frame, snap_m: float, unit: str, scale: float) -> list[str]:
+    """A warning when the settings' snap tolerance ``snap_m`` [m] exceeds
+    LARGE_SNAP of the shortest member: end points, supports and loads that
+    close together are merged, so the model may not be the one drawn."""
+    if not frame.members:
+        return []
+    lengths = [frame.geometry(m)[0] for m in frame.members]
+    i = min(range(len(lengths)), key=lengths.__getitem__)
+    if snap_m <= LARGE_SNAP * lengths[i]:
+        return []
+    m = frame.members[i]
+    return [f"[geometry] snap = {snap_m / scale:.6g} {unit} is {100 * snap_m / lengths[i]:.0f} % of the shortest "
+            f"member, {m.group} (handle {m.handle}, layer {m.layer}, {lengths[i] / scale:.6g} {unit}): end points, "
+            f"supports and loads closer than that are merged or taken at a joint, which may not be the frame "
+            f"drawn; check the snap's unit (a few mm is common practice)"]
 
 
 def _snap_metres(settings: Settings, unit: str, scale: float) -> float | None:
