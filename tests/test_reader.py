@@ -336,6 +336,17 @@ def test_a_load_taken_at_a_joint_from_afar_and_a_large_snap_are_warnings(tmp_pat
     # a snap of a few mm on the same beam: neither
     model = read(doc, tmp_path, Settings.from_dict({"geometry": {"snap": "5 mm"}}))
     assert not [w for w in model.warnings if "snap" in w]
+    # a support drawn 800 mm inside the span goes to the beam's end likewise
+    doc = new_drawing("mm")
+    msp = doc.modelspace()
+    add_member(msp, (0, 0), (6000, 0))
+    pin = add_support(msp, "pin", (800, 0))
+    add_support(msp, "roller", (6000, 0))
+    model = read(doc, tmp_path)  # default snap: the pin splits the beam, 800 mm of cantilever
+    assert len(model.frame.members) == 2 and not [w for w in model.warnings if "snap" in w]
+    model = read(doc, tmp_path, Settings.from_dict({"geometry": {"snap": "1500 mm"}}))
+    moved = [w for w in model.warnings if "stands at the joint" in w]
+    assert len(moved) == 1 and f"#{pin.dxf.handle}" in moved[0] and "800 mm" in moved[0]
 
 
 def test_t_junction_splits_the_through_member(tmp_path):

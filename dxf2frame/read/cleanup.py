@@ -371,6 +371,8 @@ def build_frame(
     at = _Locator(frame, tol, units)
     support_at = _add_supports(frame, supports, sn.sup_lab, node_of, at, warnings)
     ends_at = _member_ends(frame)
+    for nid, spec in support_at.items():
+        _note_moved_to_joint(spec, nid, at, ends_at, warnings)
     _add_hinges(frame, connections, sn.con_lab, node_of, ends_at, at, warnings)
     _check_every_part_supported(frame, support_at)
     _add_loads(frame, loads, at, ends_at, warnings)
@@ -749,19 +751,23 @@ MOVED_TO_JOINT = 0.01
 
 def _note_moved_to_joint(spec, nid: int, at: _Locator, ends_at: dict[int, list[tuple[int, str]]],
                          warnings: list[str]) -> None:
-    """Warn when load ``spec`` is applied at joint ``nid`` from farther than
-    MOVED_TO_JOINT of the shortest member there (a snap tolerance set large
-    moves loads silently otherwise)."""
+    """Warn when symbol ``spec`` (a load or a support) is put at joint
+    ``nid`` from farther than MOVED_TO_JOINT of the shortest member there (a
+    snap tolerance set large moves symbols silently otherwise)."""
     node = at.node_xy[nid]
     d = float(np.hypot(spec.at[0] - node[0], spec.at[1] - node[1]))
     shortest = min((at.lengths[at.frame.members[mi].id][0] for mi, _ in ends_at.get(nid, [])), default=0.0)
     if shortest > 0 and d > MOVED_TO_JOINT * shortest:
-        kind = {ForceSpec: "force", CoupleSpec: "couple", UdlSpec: "UDL"}.get(type(spec), "load")
+        if isinstance(spec, SupportSpec):
+            kind, does, meant = f"{spec.kind} support", "stands", "stands inside the span"
+        else:
+            kind = {ForceSpec: "force", CoupleSpec: "couple", UdlSpec: "UDL"}.get(type(spec), "load")
+            does, meant = "is applied", "loads the span"
         u = at.units
         warnings.append(
             f"{kind} #{spec.handle} on layer '{spec.layer}' is {u.fmt(d)} from the joint at "
-            f"({node[0] / u.scale:.6g}, {node[1] / u.scale:.6g}) and is applied at the joint, being within the "
-            f"snap tolerance ({u.fmt(at.tol)}); if it loads the span, move it onto the member or lower "
+            f"({node[0] / u.scale:.6g}, {node[1] / u.scale:.6g}) and {does} at the joint, being within the "
+            f"snap tolerance ({u.fmt(at.tol)}); if it {meant}, move it onto the member or lower "
             f"[geometry] snap")
 
 
