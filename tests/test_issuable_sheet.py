@@ -418,7 +418,7 @@ def test_probe_off_member_names_the_distance_unit(tmp_path, capsys):
     (tmp_path / "dxf2frame.toml").write_text(SETTINGS)
     src = beam(tmp_path / "beam.dxf", span=6000.0, insunits=4, scale=200.0)
     assert main(["solve", str(src), "--out", str(tmp_path / "o" / "b.dxf"), "--no-png", "--probe", "3000,500"]) == 2
-    assert "at 500 mm" in capsys.readouterr().err
+    assert "is 500 mm away" in capsys.readouterr().err
 
 
 @pytest.mark.parametrize("unit, least", [("mm", 500.0), ("m", 0.5), ("ft", 1.5)])

@@ -121,6 +121,30 @@ def test_section_keyed_by_an_unused_layer_is_bad_input(tmp_path, capsys):
     assert "FRAME-BEAMS: default section" in out and 'FRAME-COLUMNS: own section [sections."FRAME-COLUMNS"]' in out
 
 
+@pytest.mark.parametrize("slip, said", [
+    ('I = "8e7 mm**4"', 'I = "8e7 m**4"'),
+    ('A = "5000 mm**2"', 'A = "5000 m**2"'),
+    ('E = "200 GPa"', 'E = "200 MPa"'),
+])
+def test_a_section_in_the_wrong_unit_is_said(tmp_path, capsys, slip, said):
+    # r = sqrt(I/A) by hand: I in m**4 gives sqrt(8e7 / 5e-3) = 1.26e5 m,
+    # longer than the 8 m span (a rigid beam); A in m**2 gives sqrt(8e-5 /
+    # 5000) = 1.26e-4 m, L/r = 63,000 where frame members stay within a few
+    # hundred (common practice); E in MPa is 0.2 GPa, below timber's 10 GPa
+    # (common practice).  Said by check and solve alike; solved as given.
+    path = _beam(tmp_path, SECTIONS.replace(slip, said), {"W": "10 kN/m", "CASE": "D"})
+    said_lines = ("check the units of I and A", "check E's unit")
+    for cmd in (("check", path), ("solve", path, "--out", tmp_path / "o", "--no-png")):
+        rc, out, err = _run(capsys, *cmd)
+        hits = [t for t in (out + err).splitlines() if "[sections.default]" in t and t.endswith(said_lines)]
+        assert rc == 0 and len(hits) == 1, out + err
+    # the section as given in SECTIONS (r = 0.126 m, L/r = 63): nothing said
+    (tmp_path / "ok").mkdir()
+    path = _beam(tmp_path / "ok", SECTIONS, {"W": "10 kN/m", "CASE": "D"})
+    rc, out, err = _run(capsys, "check", path)
+    assert rc == 0 and not [t for t in (out + err).splitlines() if t.endswith(said_lines)]
+
+
 def _gap_frame(tmp_path: Path, gap_mm: float) -> tuple[Path, str, str]:
     """Portal in mm: the beam stops ``gap_mm`` short of the right column."""
     doc = new_drawing("mm")

@@ -122,7 +122,7 @@ from .dispatch import ENTITY_DATA_ERRORS, HANDLERS
 from ..errors import MAX_ECHO, DrawingError, GeometryError, InputFileError, shorten
 from .context import ReadContext, Source, decode_surrogates
 from ..settings import Settings, load_settings
-from .sketch_checks import check_section_keys, default_case_warning, near_misses
+from .sketch_checks import check_section_keys, default_case_warning, near_misses, section_warnings
 from ..units import INSUNITS, INSUNITS_OTHER, length_unit_scale, normalise_length_unit, parse_quantity
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -298,6 +298,7 @@ def read_document(
         ctx.warnings.extend(_large_snap(result.frame, snap_m, unit, scale))
     _check_precision(result.frame, unit, scale)
     check_section_keys(result.frame, settings)
+    ctx.warnings.extend(section_warnings(result.frame, settings, (unit, scale)))
     default_case = default_case_warning(ctx.default_case)
     if default_case:
         ctx.warnings.append(default_case)

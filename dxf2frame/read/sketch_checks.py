@@ -9,6 +9,9 @@ same functions here, so the two commands agree on every drawing.
 * :func:`check_section_keys`: a section keyed by a layer no member uses is
   an error (a typo must not fall back to the default section silently).
 * :func:`section_lines`: which section each member layer got (for check).
+* :func:`section_warnings`: a section whose E, or whose radius of gyration
+  against the members' lengths, lies far outside any structural member (a
+  unit slip: I in m**4 for mm**4).
 * :func:`combination_problems`: an unknown case in a combination formula is
   an error; a case that enters no combination is a warning.
 * :func:`near_misses`: a free member end close to another member or a
@@ -36,6 +39,7 @@ __all__ = [
     "default_case_warning",
     "check_section_keys",
     "section_lines",
+    "section_warnings",
     "combination_problems",
     "absent_case_notes",
     "near_misses",
@@ -87,6 +91,51 @@ def check_section_keys(frame: Frame, settings: Settings) -> None:
             + _suggest(key, used),
             path=str(settings.source or ""), key=f"sections.{key}",
         )
+
+
+#: E of structural materials [Pa]: timber about 10 GPa, concrete 30, steel
+#: 200 (common practice); outside these bounds E is taken as a unit slip
+E_PLAUSIBLE = (1e9, 1e12)
+#: slenderness L / r of the longest member beyond which a section is taken as
+#: a unit slip (frame members stay within a few hundred: common practice)
+SLENDERNESS_PLAUSIBLE = 10_000.0
+
+
+def section_warnings(frame: Frame, settings: Settings, unit: tuple[str, float] = ("m", 1.0)) -> list[str]:
+    """Warnings for each member layer whose section is far outside any
+    structural member: E outside :data:`E_PLAUSIBLE`, a radius of gyration
+    r = sqrt(I/A) longer than the layer's longest member, or a slenderness
+    L/r beyond :data:`SLENDERNESS_PLAUSIBLE`.  Such a section is almost
+    always a unit slip in the settings (I in m**4 for mm**4 makes a beam
+    rigid and moves the moments elsewhere without a sign); the frame is
+    solved as given.  ``unit``: the drawing's length unit and its size in m,
+    for the lengths in the messages."""
+    name, scale = unit
+    layers: dict[str, list] = {}
+    for m in frame.members:
+        if m.section is not None:
+            layers.setdefault(m.layer.upper(), []).append(m)
+    out = []
+    for layer in sorted(layers):
+        ms = layers[layer]
+        key = f'[sections."{layer}"]' if layer in settings.sections else "[sections.default]"
+        sec = ms[0].section
+        longest = max(ms, key=lambda m: frame.geometry(m)[0])
+        L = frame.geometry(longest)[0]
+        r = float(np.sqrt(sec.I / sec.A))
+        where = f"layer {layer} ({key})"
+        if not E_PLAUSIBLE[0] <= sec.E <= E_PLAUSIBLE[1]:
+            out.append(f"{where}: E = {sec.E / 1e9:.4g} GPa lies outside 1-1000 GPa, where structural materials "
+                       f"lie (timber about 10 GPa, concrete 30, steel 200: common practice); check E's unit")
+        if r > L:
+            out.append(f"{where}: the radius of gyration sqrt(I/A) = {r / scale:.4g} {name} is longer than the "
+                       f"layer's longest member ({longest.group}, handle {longest.handle}, {L / scale:.6g} {name}); "
+                       f"check the units of I and A")
+        elif L / r > SLENDERNESS_PLAUSIBLE:
+            out.append(f"{where}: the slenderness L/r of its longest member ({longest.group}, handle "
+                       f"{longest.handle}) is {L / r:.3g} (r = sqrt(I/A) = {r / scale:.4g} {name}), far beyond "
+                       f"any frame member (a few hundred: common practice); check the units of I and A")
+    return out
 
 
 def section_lines(frame: Frame, settings: Settings) -> list[str]:
