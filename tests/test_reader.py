@@ -247,6 +247,26 @@ def test_force_direction(tmp_path, rotation, xscale, yscale, angle, expected):
     assert pl.axes == "global"
 
 
+@pytest.mark.parametrize("angle, said", [("-1.5708", -90), ("3.1416", 180), ("0.7854", 45), ("-90", None),
+                                         ("2", None), ("-1.5708 rad", None), ("12.5", None)])
+def test_an_angle_written_in_radians_is_said(tmp_path, angle, said):
+    # ANGLE is read in degrees: -1.5708 is a force 1.57 degrees below +X,
+    # though it is -pi/2 (-90 degrees) to four decimals; said, naming the
+    # block.  A whole number, a unit, or no round angle in radians: silent.
+    doc, msp, line = simple_beam()
+    force = add_load(msp, "force", (2, 0), P="10 kN", ANGLE=angle)
+    model = read(doc, tmp_path)
+    hits = [w for w in model.warnings if "in radians" in w]
+    if said is None:
+        assert not hits
+    else:
+        assert len(hits) == 1 and f"#{force.dxf.handle}" in hits[0] and f"write {said} (degrees)" in hits[0]
+        (pl,) = loads_of(model, PointLoad)
+        # read as written, in degrees (cos, sin of the angle by hand)
+        rad = math.radians(float(angle))
+        assert (pl.px, pl.py) == pytest.approx((10e3 * math.cos(rad), 10e3 * math.sin(rad)))
+
+
 def test_attdef_defaults_fill_missing_attribs(tmp_path):
     doc = ezdxf.new("R2018", setup=False)
     doc.header["$INSUNITS"] = 6

@@ -128,10 +128,29 @@ def _symbol_force(ctx: ReadContext, e, kind: str, src: Source) -> None:
         raise _missing("FORCE", "P", src, ctx)
     ang = ctx.quantity(attrs, "ANGLE", "angle", src)
     if ang is not None:
+        _note_radians(attrs.get("ANGLE", ""), ctx, src)
         dx, dy = math.cos(ang), math.sin(ang)
     else:
         dx, dy = arrow.x, arrow.y
     ctx.loads.append(ForceSpec(at, P * dx, P * dy, _case(attrs, ctx, src), src.handle, src.layer))
+
+
+def _note_radians(text: str, ctx: ReadContext, src: Source) -> None:
+    """Warn when a bare ANGLE (read in degrees) is a round angle in radians
+    (-1.5708 for -pi/2): a force almost along X instead of down is no model
+    a drafter means, yet it solves without complaint."""
+    try:
+        v = float(text.strip())
+    except ValueError:
+        return  # a unit given: read as written
+    k = v / (math.pi / 12)  # multiples of 15 degrees
+    if v == round(v) or abs(v) > 2 * math.pi + 1e-3 or round(k) == 0 or abs(k - round(k)) > 2e-3:
+        return
+    deg = round(k) * 15
+    ctx.warnings.append(
+        f"force #{src.handle} on layer '{src.layer}': {ctx.settings.attr('ANGLE')}={text.strip()} is read in "
+        f"degrees (nearly along X), yet it is {deg} degrees in radians; write {deg} (degrees) or "
+        f"'{text.strip()} rad' to say which is meant")
 
 
 def _symbol_couple(ctx: ReadContext, e, kind: str, src: Source) -> None:
