@@ -263,6 +263,11 @@ def storeys_of(model: DrawingModel, settings: Settings):
     return st
 
 
+#: densities of building materials [kg/m**3] (timber about 500, concrete
+#: 2400, steel 7850, lead 11,340: common practice); outside, a unit slip
+DENSITY_PLAUSIBLE = (100.0, 25_000.0)
+
+
 def add_self_weight_loads(model: DrawingModel, settings: Settings) -> None:
     """With ``[self_weight] case`` set: a gravity load rho*g*A along every
     member (``solver.add_self_weight``), in that case (mapped through
@@ -284,6 +289,14 @@ def add_self_weight_loads(model: DrawingModel, settings: Settings) -> None:
             raise SettingsError(f"[self_weight] needs a density for layer {m.layer} (member {m.group}, handle "
                                 f"{m.handle}): give density = \"7850 kg/m**3\" or material = \"steel\" in its "
                                 "section or in [sections.default]", key="self_weight.case")
+    for layer in sorted({m.layer.upper() for m in frame.members}):
+        rho = settings.density_for(layer)
+        if not DENSITY_PLAUSIBLE[0] <= rho <= DENSITY_PLAUSIBLE[1]:
+            key = f'[sections."{layer}"]' if layer in settings.section_density else "[sections.default]"
+            model.warnings.append(
+                f"self-weight: layer {layer} ({key}) has a density of {rho:.5g} kg/m**3, outside "
+                f"{DENSITY_PLAUSIBLE[0]:g}-{DENSITY_PLAUSIBLE[1]:g} kg/m**3 where building materials lie "
+                f"(timber about 500, concrete 2400, steel 7850: common practice); check its unit")
     case = settings.case_name(case)
     loads = add_self_weight(frame, lambda m: settings.density_for(m.layer), case)
     length = {m.id: frame.geometry(m)[0] for m in frame.members}

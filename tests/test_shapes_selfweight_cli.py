@@ -105,6 +105,22 @@ def test_self_weight_of_a_simple_beam(tmp_path, capsys):
     assert "self-weight" in out.out and f"{q * L:.4g} kN" in out.out
 
 
+@pytest.mark.parametrize("density, said", [("7850 kg/m**3", False), ("7850 t/m**3", True), ("7.85 kg/m**3", True),
+                                           ("490 lb/ft**3", False)])
+def test_a_density_in_the_wrong_unit_is_said(tmp_path, capsys, density, said):
+    # steel is 7850 kg/m^3 = 490 lb/ft^3 (AISC Manual, from memory); 7850 t/m^3
+    # is a thousand times that and 7.85 kg/m^3 a thousandth: both said, by
+    # check and solve, and solved as given
+    path = _beam(tmp_path, f'[sections.default]\nE = "200 GPa"\nshape = "I 310x165x6x10"\ndensity = "{density}"\n'
+                           '[self_weight]\ncase = "D"\n[combinations]\nbuiltin = []\n')
+    code, rep, text = _solve(tmp_path, path, capsys)
+    assert code == 0, text.err
+    hits = [w for w in rep["warnings"] if "density" in w and "check its unit" in w]
+    assert len(hits) == int(said)
+    code, out = _check(path, capsys)
+    assert ("check its unit" in out.out) == said
+
+
 def test_self_weight_of_an_inclined_member(tmp_path, capsys):
     span, rise = 4.0, 3.0                              # a 3-4-5 member, 5 m long
     path = _beam(tmp_path, '[sections.default]\nE = "200 GPa"\nA = "4000 mm**2"\nI = "1e7 mm**4"\n'
