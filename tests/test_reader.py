@@ -267,6 +267,19 @@ def test_an_angle_written_in_radians_is_said(tmp_path, angle, said):
         assert (pl.px, pl.py) == pytest.approx((10e3 * math.cos(rad), 10e3 * math.sin(rad)))
 
 
+def test_a_load_block_pasted_twice_in_place_is_said(tmp_path):
+    doc, msp, line = simple_beam()
+    a = add_load(msp, "force", (2, 0), P="10 kN", CASE="D")
+    b = add_load(msp, "force", (2, 0), P="10 kN", CASE="D")   # the same block pasted in place
+    add_load(msp, "force", (2, 0), P="10 kN", CASE="L")       # another case at the point: a load of its own
+    add_load(msp, "force", (2, 0), P="4 kN", CASE="D")        # another value: a load of its own
+    model = read(doc, tmp_path)
+    forces = sorted((ld.case, round(-ld.py)) for ld in loads_of(model, PointLoad))
+    assert forces == [("D", 4000), ("D", 10000), ("D", 10000), ("L", 10000)]   # N; applied as drawn
+    said = [w for w in model.warnings if "repeats" in w]
+    assert len(said) == 1 and f"#{b.dxf.handle}" in said[0] and f"#{a.dxf.handle}" in said[0]
+
+
 def test_attdef_defaults_fill_missing_attribs(tmp_path):
     doc = ezdxf.new("R2018", setup=False)
     doc.header["$INSUNITS"] = 6
@@ -367,6 +380,22 @@ def test_a_load_taken_at_a_joint_from_afar_and_a_large_snap_are_warnings(tmp_pat
     model = read(doc, tmp_path, Settings.from_dict({"geometry": {"snap": "1500 mm"}}))
     moved = [w for w in model.warnings if "stands at the joint" in w]
     assert len(moved) == 1 and f"#{pin.dxf.handle}" in moved[0] and "800 mm" in moved[0]
+
+
+@pytest.mark.parametrize("header, span, said", [("m", 6000.0, "in mm: 6 m"), ("mm", 240.0, "in in: 6.096 m"),
+                                               ("m", 6.0, None), ("mm", 6000.0, None), ("ft", 20.0, None)])
+def test_a_frame_of_no_building_size_is_said(tmp_path, header, span, said):
+    # A 6 m beam drawn in mm in a drawing whose header says m is a 6 km beam;
+    # 240 (inches) in a header of mm is a 0.24 m one: both said, with what
+    # the frame would measure in the other units (6000 mm = 6 m; 240 in =
+    # 240 x 0.0254 m = 6.096 m, the inch exact by definition).
+    doc, msp, line = simple_beam(header, span)
+    model = read(doc, tmp_path)
+    hits = [w for w in model.warnings if "than any building frame" in w]
+    if said is None:
+        assert not hits
+    else:
+        assert len(hits) == 1 and said in hits[0] and "--length-unit" in hits[0]
 
 
 def test_t_junction_splits_the_through_member(tmp_path):

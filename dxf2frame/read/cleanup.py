@@ -375,7 +375,7 @@ def build_frame(
         _note_moved_to_joint(spec, nid, at, ends_at, warnings)
     _add_hinges(frame, connections, sn.con_lab, node_of, ends_at, at, warnings)
     _check_every_part_supported(frame, support_at)
-    _add_loads(frame, loads, at, ends_at, warnings)
+    _add_loads(frame, _note_twin_loads(loads, warnings), at, ends_at, warnings)
     xy = at.node_xy
     ext = (float(xy[:, 0].min()), float(xy[:, 1].min()), float(xy[:, 0].max()), float(xy[:, 1].max()))
     return CleanResult(frame, warnings, ext, len(np.unique(sn.cross_lab)), crossings_separate)
@@ -742,6 +742,24 @@ def _check_every_part_supported(frame: Frame, support_at: dict[int, SupportSpec]
                 layer=first.layer,
                 hint="add a support block on layer SUPPORTS, or connect the part to the rest of the frame",
             )
+
+
+def _note_twin_loads(loads: Sequence[LoadSpec], warnings: list[str]) -> Sequence[LoadSpec]:
+    """Warn of each load with an exact twin before it (same kind, point,
+    case and values: most often a block pasted twice in place), naming both
+    handles.  Both are applied, as drawn (loads stacked at a point add up);
+    the warning says the load counts twice."""
+    seen: dict[tuple, LoadSpec] = {}
+    for spec in loads:
+        key = (type(spec), round(spec.at[0], 9), round(spec.at[1], 9),
+               *(v for f, v in vars(spec).items() if f not in ("at", "handle", "layer")))
+        first = seen.setdefault(key, spec)
+        if first is not spec:
+            kind = {ForceSpec: "force", CoupleSpec: "couple", UdlSpec: "UDL"}.get(type(spec), "load")
+            warnings.append(f"{kind} #{spec.handle} on layer '{spec.layer}' repeats #{first.handle} (same point, "
+                            f"case and values): both are applied, twice the load; if one is a copy pasted in "
+                            f"place, delete it")
+    return loads
 
 
 #: a load taken at a joint from farther than this fraction of the shortest

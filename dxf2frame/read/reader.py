@@ -294,11 +294,9 @@ def read_document(
         unjoined_layers=settings.unjoined_layers,
     )
     ctx.warnings.extend(result.warnings)
-    if snap_m is not None and snap_m > 0:
-        ctx.warnings.extend(_large_snap(result.frame, snap_m, unit, scale))
     _check_precision(result.frame, unit, scale)
     check_section_keys(result.frame, settings)
-    ctx.warnings.extend(section_warnings(result.frame, settings, (unit, scale)))
+    ctx.warnings.extend(_slips(result, settings, snap_m, unit, scale, doc))
     default_case = default_case_warning(ctx.default_case)
     if default_case:
         ctx.warnings.append(default_case)
@@ -319,6 +317,44 @@ def read_document(
         crossings_separate=result.crossings_separate,
         near_misses=misses,
     )
+
+
+def _slips(result, settings: Settings, snap_m: float | None, unit: str, scale: float, doc) -> list[str]:
+    """Warnings for values that read fine but are far outside any building
+    frame, most often a unit slip: the frame's size in the drawing's unit,
+    a large snap tolerance, implausible sections."""
+    out = _implausible_size(result.extents, unit, scale, doc)
+    if snap_m is not None and snap_m > 0:
+        out += _large_snap(result.frame, snap_m, unit, scale)
+    return out + section_warnings(result.frame, settings, (unit, scale))
+
+
+#: the largest side [m] of a frame's extents outside which the drawing's
+#: length unit is taken as wrong (a frame of buildings or footbridges:
+#: common practice)
+PLAUSIBLE_SIZE_M = (0.5, 1000.0)
+
+
+def _implausible_size(extents, unit: str, scale: float, doc) -> list[str]:
+    """A warning when the frame, read in ``unit``, is smaller than half a
+    metre or larger than a kilometre across: a drawing in mm whose header
+    says m is solved as a frame 1000 times too large without it."""
+    x0, y0, x1, y1 = extents
+    size = max(x1 - x0, y1 - y0)
+    lo, hi = PLAUSIBLE_SIZE_M
+    if size <= 0 or lo <= size <= hi:
+        return []
+    try:
+        code = int(doc.header.get("$INSUNITS", 0) or 0)
+    except (TypeError, ValueError):
+        code = 0
+    alts = [f"{u}: {size / scale * length_unit_scale(u):.4g} m" for u in ("mm", "cm", "m", "in", "ft")
+            if u != unit and lo <= size / scale * length_unit_scale(u) <= hi]
+    fix = "pass --length-unit" if INSUNITS.get(code) == unit else "give [units] length or pass --length-unit"
+    return [f"the frame is {size:.4g} m across read in {unit} ($INSUNITS = {code}), "
+            f"{'larger' if size > hi else 'smaller'} than any building frame ({lo:g} m to {hi / 1000:g} km: common "
+            f"practice); if the drawing is in another unit, {fix}"
+            + (f" (in {'; in '.join(alts)})" if alts else "")]
 
 
 #: a snap tolerance given in the settings above this fraction of the
