@@ -102,6 +102,7 @@ touch pint.
 from __future__ import annotations
 
 import math
+import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -483,6 +484,24 @@ def _number(v: Any, key: str, path: str, *, positive: bool = True, allow_zero: b
     return float(v)
 
 
+def _ratio_limit(v: Any, key: str, path: str, letter: str) -> float:
+    """The n of a limit span / n (``letter`` "L") or height / n ("h"): a
+    number of at least 1, or the text ``"L/360"``.  A number below 1 is
+    the ratio itself (0.00278 for L/360), which would pass every member: it
+    is refused with the n it stands for."""
+    if isinstance(v, str):
+        m = re.fullmatch(rf"\s*{letter}\s*/\s*([0-9]*\.?[0-9]+)\s*", v, flags=re.IGNORECASE)
+        if not m:
+            raise SettingsError(f"must be n of {letter}/n, as a number (360) or as \"{letter}/360\", got {v!r}",
+                                path=path, key=key)
+        v = float(m.group(1))
+    n = _number(v, key, path)
+    if n < 1:
+        raise SettingsError(f"is n of {letter}/n, at least 1; {n:g} looks like the ratio itself, {letter}/"
+                            f"{1 / n:.4g}: write {1 / n:.4g} (or \"{letter}/{1 / n:.4g}\")", path=path, key=key)
+    return n
+
+
 def _is_bare_number(text: str) -> bool:
     try:
         float(text)
@@ -756,13 +775,13 @@ def _read_deflection(data: Mapping[str, Any], path: str) -> dict[str, Any]:
     de = _table(data, "deflection", path)
     _check_keys(de, {"limit", "layers"}, "deflection", path)
     if "limit" in de:
-        kw["deflection_limit"] = _number(de["limit"], "deflection.limit", path)
+        kw["deflection_limit"] = _ratio_limit(de["limit"], "deflection.limit", path, "L")
     if "layers" in de:
         dl = de["layers"]
         if not isinstance(dl, Mapping):
             raise SettingsError("must be a table of layer = limit", path=path, key="deflection.layers")
         kw["deflection_layers"] = _ro(
-            {str(k).upper(): _number(v, f"deflection.layers.{k}", path) for k, v in dl.items()}
+            {str(k).upper(): _ratio_limit(v, f"deflection.layers.{k}", path, "L") for k, v in dl.items()}
         )
     return kw
 
@@ -917,7 +936,7 @@ def _drift_settings(data: Mapping[str, Any], path: str, kw: dict[str, Any]) -> N
     dr = _table(data, "drift", path)
     _check_keys(dr, {"limit", "measure", "levels"}, "drift", path)
     if "limit" in dr:
-        kw["drift_limit"] = _number(dr["limit"], "drift.limit", path)
+        kw["drift_limit"] = _ratio_limit(dr["limit"], "drift.limit", path, "h")
     if "measure" in dr:
         kw["drift_measure"] = _choice(dr["measure"], DRIFT_MEASURES, "drift.measure", path)
     if "levels" in dr:

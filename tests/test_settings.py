@@ -176,6 +176,11 @@ def test_unknown_keys_are_errors(tmp_path, text, key):
         ({"sections": {"FRAME-X": {"E": "200 GPa"}}}, "sections.FRAME-X"),
         ({"combinations": {"builtin": ["LRFD", "EC0"]}}, "combinations.builtin"),
         ({"deflection": {"limit": 0}}, "deflection.limit"),
+        ({"deflection": {"limit": 1 / 360}}, "deflection.limit"),   # the ratio, not its n
+        ({"deflection": {"layers": {"FRAME-BEAMS": 0.004}}}, "deflection.layers.FRAME-BEAMS"),
+        ({"drift": {"limit": 0.0025}}, "drift.limit"),
+        ({"drift": {"limit": "1/400"}}, "drift.limit"),
+        ({"deflection": {"limit": "h/360"}}, "deflection.limit"),
         ({"blocks": {"pin": "ROLLER"}}, "blocks"),
         ({"output_layers": {"moment": "FRAME-M"}}, "output_layers.moment"),
     ],
@@ -184,6 +189,15 @@ def test_invalid_values(data, key):
     with pytest.raises(SettingsError) as exc:
         Settings.from_dict(data, "x.toml")
     assert exc.value.key == key
+
+
+def test_limits_as_l_over_n_and_the_ratio_refused_with_its_n():
+    s = Settings.from_dict({"deflection": {"limit": "L/360", "layers": {"FRAME-BEAMS": "l / 480"}},
+                            "drift": {"limit": "h/300"}})
+    assert (s.deflection_limit, s.deflection_limit_for("FRAME-BEAMS"), s.drift_limit) == (360, 480, 300)
+    with pytest.raises(SettingsError) as exc:
+        Settings.from_dict({"deflection": {"limit": 0.0025}}, "x.toml")
+    assert "L/400" in str(exc.value)   # 1 / 0.0025 = 400
 
 
 def test_layer_section_inherits_default_values():
