@@ -792,7 +792,19 @@ def _read_compare(data: Mapping[str, Any], path: str) -> dict[str, Any]:
     cp = _table(data, "compare", path)
     _check_keys(cp, {"threshold"}, "compare", path)
     if "threshold" in cp:
-        kw["compare_threshold"] = _number(cp["threshold"], "compare.threshold", path, allow_zero=True)
+        t = cp["threshold"]
+        if isinstance(t, str) and t.strip().endswith("%"):
+            try:
+                t = float(t.strip()[:-1]) / 100.0
+            except ValueError:
+                raise SettingsError(f"must be a fraction (0.05) or a percentage (\"5 %\"), got {cp['threshold']!r}",
+                                    path=path, key="compare.threshold") from None
+        t = _number(t, "compare.threshold", path, allow_zero=True)
+        if t >= 1:
+            raise SettingsError(f"is a fraction of the old value (0.05 flags changes over 5 %); {t:g} would flag "
+                                f"only changes over {100 * t:g} %: write {t / 100:g} or \"{t:g} %\" if {t:g} % is meant",
+                                path=path, key="compare.threshold")
+        kw["compare_threshold"] = t
     return kw
 
 

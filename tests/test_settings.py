@@ -179,6 +179,8 @@ def test_unknown_keys_are_errors(tmp_path, text, key):
         ({"deflection": {"limit": 1 / 360}}, "deflection.limit"),   # the ratio, not its n
         ({"deflection": {"layers": {"FRAME-BEAMS": 0.004}}}, "deflection.layers.FRAME-BEAMS"),
         ({"drift": {"limit": 0.0025}}, "drift.limit"),
+        ({"compare": {"threshold": 5}}, "compare.threshold"),      # 5 % written as 5
+        ({"compare": {"threshold": "five %"}}, "compare.threshold"),
         ({"drift": {"limit": "1/400"}}, "drift.limit"),
         ({"deflection": {"limit": "h/360"}}, "deflection.limit"),
         ({"blocks": {"pin": "ROLLER"}}, "blocks"),
@@ -189,6 +191,14 @@ def test_invalid_values(data, key):
     with pytest.raises(SettingsError) as exc:
         Settings.from_dict(data, "x.toml")
     assert exc.value.key == key
+
+
+def test_compare_threshold_as_a_fraction_or_a_percentage():
+    assert Settings.from_dict({"compare": {"threshold": "5 %"}}).compare_threshold == pytest.approx(0.05)
+    assert Settings.from_dict({"compare": {"threshold": 0.1}}).compare_threshold == 0.1
+    with pytest.raises(SettingsError) as exc:
+        Settings.from_dict({"compare": {"threshold": 5}}, "x.toml")
+    assert "0.05" in str(exc.value) and '"5 %"' in str(exc.value)
 
 
 def test_limits_as_l_over_n_and_the_ratio_refused_with_its_n():
