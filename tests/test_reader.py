@@ -398,6 +398,23 @@ def test_a_frame_of_no_building_size_is_said(tmp_path, header, span, said):
         assert len(hits) == 1 and said in hits[0] and "--length-unit" in hits[0]
 
 
+def test_lines_on_a_layer_named_like_the_frame_layer_are_said(tmp_path):
+    # FRAME_BRACES and "Frame Braces" are no member layers (FRAME, FRAME-*):
+    # their braces are left out of the frame, which then sways, so each
+    # layer is a warning naming a handle; a layer of another name is not.
+    doc, msp, line = simple_beam()
+    b1 = add_member(msp, (0, 0), (3, 2), layer="FRAME_BRACES")
+    add_member(msp, (3, 2), (6, 0), layer="FRAME_BRACES")
+    b3 = add_member(msp, (0, 1), (6, 1), layer="Frame Braces")
+    add_member(msp, (0, -1), (6, -1), layer="GRID")
+    model = read(doc, tmp_path)
+    assert len(model.frame.members) == 1   # the beam alone, as the layers say
+    said = [w for w in model.warnings if "not read as members" in w]
+    assert len(said) == 2
+    assert "'FRAME_BRACES' holds 2 line(s)" in said[0] and f"#{b1.dxf.handle}" in said[0] and "FRAME-BRACES" in said[0]
+    assert "'Frame Braces' holds 1 line(s)" in said[1] and f"#{b3.dxf.handle}" in said[1]
+
+
 def test_t_junction_splits_the_through_member(tmp_path):
     doc = new_drawing("m")
     msp = doc.modelspace()

@@ -67,6 +67,9 @@ class ReadContext:
     hinges: int = 0
     n_loads: int = 0
     default_case: list[str] = field(default_factory=list)  # handles of loads without CASE
+    # layer -> (lines, first handle) of linework on layers named like the
+    # frame layer but not matching it (FRAME_BRACES): not read, said
+    lookalikes: dict[str, tuple[int, str]] = field(default_factory=dict)
     _attdefs: dict[str, dict[str, str]] = field(default_factory=dict)
     _reads_memo: dict[tuple[str, str], bool] = field(default_factory=dict)
     _decoded: set[str] = field(default_factory=set)
@@ -78,6 +81,25 @@ class ReadContext:
             if u == self.settings.layers[role].upper():
                 return role
         return None
+
+    def note_off_frame(self, src: Source) -> None:
+        """Linework on a layer that is no frame layer: remembered when the
+        layer is named like one (``FRAME_BRACES``, ``Frame Braces``,
+        ``FRAMES``), whose lines a drafter meant as members."""
+        frame = self.settings.layers["frame"].upper()
+        if re.sub(r"[\s_.]+", "-", src.layer.strip().upper()).startswith(frame):
+            n, first = self.lookalikes.get(src.layer, (0, src.handle))
+            self.lookalikes[src.layer] = (n + 1, first)
+
+    def lookalike_warnings(self) -> list[str]:
+        """One warning per layer of :meth:`note_off_frame`."""
+        frame = self.settings.layers["frame"]
+        return [f"layer '{layer}' holds {n} line(s) or curve(s) (e.g. #{first}) that are not read as members: "
+                f"member layers "
+                f"are {frame} and {frame}-*; rename it (e.g. "
+                f"{frame}-{re.sub(r'[^A-Z0-9]+', '-', layer.upper()[len(frame):]).strip('-') or 'MEMBERS'}) "
+                f"if its lines are members"
+                for layer, (n, first) in sorted(self.lookalikes.items())]
 
     def add_polyline(self, pts: list[tuple[float, float, float]], src: Source) -> None:
         """Add consecutive segments through WCS points (drawing units), numbered

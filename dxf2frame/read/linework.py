@@ -77,6 +77,7 @@ def _bulged_ocs_points(ctx: ReadContext, verts: list[tuple[float, float, float]]
 
 def handle_line(ctx: ReadContext, e, src: Source) -> None:
     if not ctx.settings.is_frame_layer(src.layer):
+        ctx.note_off_frame(src)
         return
     ctx.check_extrusion(e, src)
     a, b = Vec3(e.dxf.start), Vec3(e.dxf.end)
@@ -85,6 +86,7 @@ def handle_line(ctx: ReadContext, e, src: Source) -> None:
 
 def handle_lwpolyline(ctx: ReadContext, e, src: Source) -> None:
     if not ctx.settings.is_frame_layer(src.layer):
+        ctx.note_off_frame(src)
         return
     ctx.check_extrusion(e, src)
     elev = float(e.dxf.get("elevation", 0.0))
@@ -97,6 +99,7 @@ def handle_lwpolyline(ctx: ReadContext, e, src: Source) -> None:
 
 def handle_polyline(ctx: ReadContext, e, src: Source) -> None:
     if not ctx.settings.is_frame_layer(src.layer):
+        ctx.note_off_frame(src)
         return
     if e.is_poly_face_mesh or e.is_polygon_mesh:
         raise UnsupportedEntityError(
@@ -127,6 +130,7 @@ def handle_polyline(ctx: ReadContext, e, src: Source) -> None:
 
 def handle_curve(ctx: ReadContext, e, src: Source) -> None:
     if not ctx.settings.is_frame_layer(src.layer):
+        ctx.note_off_frame(src)
         return
     t = e.dxftype()
     n = ctx.settings.arc_segments
@@ -148,6 +152,7 @@ def handle_curve(ctx: ReadContext, e, src: Source) -> None:
 
 def handle_solid3d(ctx: ReadContext, e, src: Source) -> None:
     if not ctx.settings.is_frame_layer(src.layer):
+        ctx.note_off_frame(src)
         return
     raise UnsupportedEntityError(
         f"{e.dxftype()} is a 3D entity, not a member centreline",

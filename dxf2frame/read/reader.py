@@ -277,6 +277,7 @@ def read_document(
     ctx = ReadContext(doc, settings, unit, scale, max(0.5e-3, snap_m or 0.0) / scale,
                       _default_units(settings.force_unit, unit), warnings=warnings)
     _read_entities(ctx, doc, settings)
+    ctx.warnings.extend(ctx.lookalike_warnings())
     if not ctx.segments:
         raise GeometryError(
             f"no members found on layer '{settings.layers['frame']}' or '{settings.layers['frame']}-*'",
