@@ -76,6 +76,15 @@ def test_office_case_name_warns_until_mapped(tmp_path, capsys):
     assert _lrfd_moment(rep) == pytest.approx((1.2 * wd + 1.6 * wl) * SPAN**2 / 8, rel=1e-6)
 
 
+@pytest.mark.parametrize("written, meant", [("LR", "Lr"), ("l", "L")])
+def test_a_standard_case_in_the_wrong_letter_case_names_the_case_meant(tmp_path, capsys, written, meant):
+    path = _beam(tmp_path, SECTIONS, {"W": "5 kN/m", "CASE": "D"}, {"W": "4 kN/m", "CASE": written})
+    rc, out, _ = _run(capsys, "check", path)
+    said = [t for t in out.splitlines() if f"load case '{written}' enters no load combination" in t]
+    assert rc == 0 and len(said) == 1
+    assert f"standard case '{meant}' only in letter case" in said[0] and f"CASE={meant}" in said[0]
+
+
 def test_loads_without_case_are_counted_in_one_warning(tmp_path, capsys):
     path = _beam(tmp_path, SECTIONS, {"W": "5 kN/m", "CASE": ""}, {"W": "2 kN/m", "CASE": " "},
                  {"W": "1 kN/m", "CASE": "D"})

@@ -189,8 +189,16 @@ def combination_problems(settings: Settings, present: Sequence[str], specs) -> l
     for c in present:
         if c in used:
             continue
-        hint = (f"map it onto a standard case letter in [cases] (e.g. {c} = \"L\") or name it in "
-                "[combinations] extra" if c not in STANDARD_CASES else "add a combination with it under [combinations]")
+        like = [k for k in STANDARD_CASES if k.upper() == c.strip().upper()]
+        if c in STANDARD_CASES:
+            hint = "add a combination with it under [combinations]"
+        elif like:   # 'LR' for 'Lr', 'l' for 'L', 'D ' for 'D': case names are exact
+            hint = (f"it differs from the standard case {like[0]!r} only in letter case or spaces, and case names "
+                    f"are exact: write CASE={like[0]} on its loads, or map it in [cases] ({c.strip()} = "
+                    f"\"{like[0]}\")")
+        else:
+            hint = (f"map it onto a standard case letter in [cases] (e.g. {c} = \"L\") or name it in "
+                    "[combinations] extra")
         out.append(f"load case {c!r} enters no load combination: it is solved on its own but left out of every "
                    f"combination and envelope; {hint}")
     return out
