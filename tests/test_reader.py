@@ -415,6 +415,24 @@ def test_lines_on_a_layer_named_like_the_frame_layer_are_said(tmp_path):
     assert "'Frame Braces' holds 1 line(s)" in said[1] and f"#{b3.dxf.handle}" in said[1]
 
 
+@pytest.mark.parametrize("settle, said", [("-25", True), ("-25 mm", False), ("-0.4 m", True), ("-0.2 m", False)])
+def test_a_settlement_of_a_size_no_support_settles_is_said(tmp_path, settle, said):
+    # a bare -25 in a drawing in m is 25 m, not 25 mm; said when a support
+    # settles by more than 5 % of the shortest member at it (6 m: 0.3 m)
+    doc = new_drawing("m")
+    msp = doc.modelspace()
+    add_member(msp, (0, 0), (6, 0))
+    add_member(msp, (6, 0), (12, 0))
+    add_support(msp, "pin", (0, 0))
+    mid = add_support(msp, "roller", (6, 0), SETTLE_Y=settle)
+    add_support(msp, "roller", (12, 0))
+    model = read(doc, tmp_path)
+    (st,) = loads_of(model, Settlement)
+    assert st.dy == pytest.approx(float(settle.split()[0]) * (1e-3 if "mm" in settle else 1.0))  # read as written
+    hits = [w for w in model.warnings if "settles by" in w]
+    assert len(hits) == int(said) and (not said or f"#{mid.dxf.handle}" in hits[0])
+
+
 def test_t_junction_splits_the_through_member(tmp_path):
     doc = new_drawing("m")
     msp = doc.modelspace()

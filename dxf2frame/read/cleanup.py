@@ -373,6 +373,7 @@ def build_frame(
     ends_at = _member_ends(frame)
     for nid, spec in support_at.items():
         _note_moved_to_joint(spec, nid, at, ends_at, warnings)
+        _note_large_settlement(spec, nid, at, ends_at, warnings)
     _add_hinges(frame, connections, sn.con_lab, node_of, ends_at, at, warnings)
     _check_every_part_supported(frame, support_at)
     _add_loads(frame, _note_twin_loads(loads, warnings), at, ends_at, warnings)
@@ -787,6 +788,29 @@ def _note_moved_to_joint(spec, nid: int, at: _Locator, ends_at: dict[int, list[t
             f"({node[0] / u.scale:.6g}, {node[1] / u.scale:.6g}) and {does} at the joint, being within the "
             f"snap tolerance ({u.fmt(at.tol)}); if it {meant}, move it onto the member or lower "
             f"[geometry] snap")
+
+
+#: a settlement over this fraction of the shortest member at its support
+#: is a warning (a bare number is in the drawing's unit: 25 in an m drawing)
+LARGE_SETTLEMENT = 0.05
+
+
+def _note_large_settlement(spec: SupportSpec, nid: int, at: _Locator, ends_at: dict[int, list[tuple[int, str]]],
+                           warnings: list[str]) -> None:
+    """Warn when support ``spec`` settles by more than LARGE_SETTLEMENT of
+    the shortest member at its joint: settlements are millimetres to a few
+    centimetres, and such a one is most often a bare number read in the
+    drawing's unit (-25 meaning mm in a drawing in m)."""
+    if spec.settle is None:
+        return
+    move = float(np.hypot(spec.settle[0], spec.settle[1]))
+    shortest = min((at.lengths[at.frame.members[mi].id][0] for mi, _ in ends_at.get(nid, [])), default=0.0)
+    if shortest > 0 and move > LARGE_SETTLEMENT * shortest:
+        u = at.units
+        warnings.append(
+            f"{spec.kind} support #{spec.handle} on layer '{spec.layer}' settles by {u.fmt(move)}, "
+            f"{100 * move / shortest:.0f} % of the shortest member at it ({u.fmt(shortest)}); a bare SETTLE_X / "
+            f"SETTLE_Y is in the drawing's unit ({u.name}): give the unit ('-25 mm') if another is meant")
 
 
 def _add_loads(frame: Frame, loads: Sequence[LoadSpec], at: _Locator, ends_at: dict[int, list[tuple[int, str]]],
