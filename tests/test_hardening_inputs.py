@@ -125,8 +125,9 @@ def test_unicode_minus_and_comma_from_the_command_line(tmp_path, capsys):
     warned = [w for w in report["warnings"] if "en dash" in w]
     assert len(warned) == 1 and f"#{down.dxf.handle}" in warned[0], report["warnings"]
     # nothing about the minus sign of the load written with U+2212 (the two
-    # -20 kN blocks at one point are said to repeat each other: both applied)
-    assert not any(f"#{up.dxf.handle}" in w for w in report["warnings"] if "repeats" not in w)
+    # -20 kN blocks at one point are said to repeat each other, both applied,
+    # and to act upward in case D)
+    assert not any(f"#{up.dxf.handle}" in w for w in report["warnings"] if "repeats" not in w and "upward" not in w)
     assert [w for w in report["warnings"] if "repeats" in w and f"#{up.dxf.handle}" in w]
     assert "en dash" in err
 

@@ -85,6 +85,20 @@ def test_a_standard_case_in_the_wrong_letter_case_names_the_case_meant(tmp_path,
     assert f"standard case '{meant}' only in letter case" in said[0] and f"CASE={meant}" in said[0]
 
 
+def test_gravity_loads_that_act_upward_are_said_per_case(tmp_path, capsys):
+    # W = -5 kN/m along gravity in case D is a dead load lifting the beam: a
+    # minus sign written for +Y up; said once per case naming the blocks.
+    # Wind may lift (W = -2 kN/m in case W): not said.
+    path = _beam(tmp_path, SECTIONS, {"W": "-5 kN/m", "CASE": "D"}, {"W": "-3 kN/m", "CASE": "D"},
+                 {"W": "-2 kN/m", "CASE": "W"}, {"W": "4 kN/m", "CASE": "L"})
+    rc, out, _ = _run(capsys, "check", path)
+    said = [t for t in out.splitlines() if "act upward" in t]
+    assert rc == 0 and len(said) == 1 and "2 load(s) of case D act upward" in said[0]
+    path = _beam(tmp_path, SECTIONS, {"W": "5 kN/m", "CASE": "D"}, {"W": "-2 kN/m", "CASE": "W"})
+    rc, out, _ = _run(capsys, "check", path)
+    assert rc == 0 and "act upward" not in out
+
+
 def test_loads_without_case_are_counted_in_one_warning(tmp_path, capsys):
     path = _beam(tmp_path, SECTIONS, {"W": "5 kN/m", "CASE": ""}, {"W": "2 kN/m", "CASE": " "},
                  {"W": "1 kN/m", "CASE": "D"})

@@ -122,7 +122,8 @@ from .dispatch import ENTITY_DATA_ERRORS, HANDLERS
 from ..errors import MAX_ECHO, DrawingError, GeometryError, InputFileError, shorten
 from .context import ReadContext, Source, decode_surrogates
 from ..settings import Settings, load_settings
-from .sketch_checks import check_section_keys, default_case_warning, near_misses, section_warnings
+from .sketch_checks import (check_section_keys, default_case_warning, near_misses, section_warnings,
+                            upward_gravity_loads)
 from ..units import INSUNITS, INSUNITS_OTHER, length_unit_scale, normalise_length_unit, parse_quantity
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -278,6 +279,7 @@ def read_document(
                       _default_units(settings.force_unit, unit), warnings=warnings)
     _read_entities(ctx, doc, settings)
     ctx.warnings.extend(ctx.lookalike_warnings())
+    ctx.warnings.extend(upward_gravity_loads(ctx.loads))
     if not ctx.segments:
         raise GeometryError(
             f"no members found on layer '{settings.layers['frame']}' or '{settings.layers['frame']}-*'",

@@ -9,6 +9,8 @@ same functions here, so the two commands agree on every drawing.
 * :func:`check_section_keys`: a section keyed by a layer no member uses is
   an error (a typo must not fall back to the default section silently).
 * :func:`section_lines`: which section each member layer got (for check).
+* :func:`upward_gravity_loads`: a force or UDL in a gravity case (D, L,
+  Lr, S, R) that acts upward (a sign written for +Y up).
 * :func:`section_warnings`: a section whose E, or whose radius of gyration
   against the members' lengths, lies far outside any structural member (a
   unit slip: I in m**4 for mm**4).
@@ -40,6 +42,7 @@ __all__ = [
     "check_section_keys",
     "section_lines",
     "section_warnings",
+    "upward_gravity_loads",
     "combination_problems",
     "absent_case_notes",
     "near_misses",
@@ -135,6 +138,42 @@ def section_warnings(frame: Frame, settings: Settings, unit: tuple[str, float] =
             out.append(f"{where}: the slenderness L/r of its longest member ({longest.group}, handle "
                        f"{longest.handle}) is {L / r:.3g} (r = sqrt(I/A) = {r / scale:.4g} {name}), far beyond "
                        f"any frame member (a few hundred: common practice); check the units of I and A")
+    return out
+
+
+#: the standard cases whose loads act down (dead, live, roof live, snow,
+#: rain); wind and earthquake may lift
+GRAVITY_CASES = ("D", "L", "Lr", "S", "R")
+
+
+def upward_gravity_loads(loads: Sequence) -> list[str]:
+    """One warning per gravity case (:data:`GRAVITY_CASES`) holding forces
+    or UDLs that act upward: a force whose upward component is its larger
+    one, a UDL along gravity with a negative intensity or along +Y with a
+    positive one.  Most often a sign written for +Y up where the blocks
+    take gravity as positive; the loads are applied as written.
+    ``loads``: the reader's load specs (:mod:`dxf2frame.read.cleanup`)."""
+    from .cleanup import ForceSpec, UdlSpec
+
+    up: dict[str, list[str]] = {}
+    for ld in loads:
+        if ld.case not in GRAVITY_CASES:
+            continue
+        if isinstance(ld, ForceSpec):
+            lifts = ld.fy > 0 and ld.fy >= abs(ld.fx)
+        elif isinstance(ld, UdlSpec):
+            w = ld.w1 + ld.w2
+            lifts = (ld.direction == "GRAVITY" and w < 0) or (ld.direction == "Y" and w > 0)
+        else:
+            continue
+        if lifts:
+            up.setdefault(ld.case, []).append(ld.handle)
+    out = []
+    for case, handles in sorted(up.items()):
+        shown = ", ".join(f"#{h}" for h in handles[:6]) + (f" and {len(handles) - 6} more" if len(handles) > 6 else "")
+        out.append(f"{len(handles)} load(s) of case {case} act upward ({shown}), though {case} loads act down "
+                   f"unless something lifts: the blocks take gravity as positive (P along the arrow, W along DIR = "
+                   f"GRAVITY), so a minus sign written for +Y up reverses a load; applied as written")
     return out
 
 
