@@ -1007,6 +1007,7 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
     failure leaves the previous set of outputs complete and unchanged, or
     nothing.  Returns the files committed, the governing values and the
     report."""
+    from .draw.selection import missing_family
     from .report import report as report_mod
 
     source, settings, paths, analysis = run.source, run.settings, run.paths, run.analysis
@@ -1019,6 +1020,9 @@ def _write_outputs(run: _Run, req: SolveRequest, outcome: FileOutcome) -> tuple[
         staged = {k: out_set.staged(p.name) for k, p in paths.items()}
         t0 = time.perf_counter()
         show = req.show or settings.combinations_draw
+        missing = missing_family(_reported(analysis), show)
+        if missing and missing not in model.warnings:
+            model.warnings.append(missing)
         sheet = _write_drawing(run, req, outcome, staged["drawing"], show, saver)
         _join_further(run.further_job, analysis, req, outcome)   # (collected above when drawn)
         analysis.timings["write"] = time.perf_counter() - t0

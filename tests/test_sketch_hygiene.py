@@ -99,6 +99,36 @@ def test_gravity_loads_that_act_upward_are_said_per_case(tmp_path, capsys):
     assert rc == 0 and "act upward" not in out
 
 
+def test_a_combination_naming_a_case_twice_is_said(tmp_path, capsys):
+    # 1.2D + 1.6L + 1.6L: the terms add up to 1.2D + 3.2L (arithmetic), most
+    # often a typo; said by check and solve, computed as read
+    path = _beam(tmp_path, SECTIONS + '[combinations]\nbuiltin = []\nextra = ["1.2D+1.6L+1.6L", "1.2D+1.6L"]\n',
+                 {"W": "5 kN/m", "CASE": "D"}, {"W": "4 kN/m", "CASE": "L"})
+    rc, out, _ = _run(capsys, "check", path)
+    said = [t for t in out.splitlines() if "more than one term" in t]
+    assert rc == 0 and len(said) == 1 and "'1.2D+3.2L'" in said[0]
+    rc, _, err = _run(capsys, "solve", path, "--out", tmp_path / "o", "--no-png")
+    assert rc == 0 and "more than one term" in err
+    rep = json.loads((tmp_path / "o" / "beam-results.json").read_text())
+    m = {r["name"]: max(x["m_max"] for x in r["members"]) for r in rep["results"]}
+    # simple beam, uniform load: M = w l**2 / 8 (AISC beam diagrams, from memory)
+    assert m["1.2D+3.2L"] == pytest.approx((1.2 * 5 + 3.2 * 4) * SPAN**2 / 8, rel=1e-6)
+
+
+def test_an_envelope_of_a_family_no_combination_has_is_said(tmp_path, capsys):
+    path = _beam(tmp_path, SECTIONS + '[combinations]\ndraw = "envelope:LRDF"\n', {"W": "5 kN/m", "CASE": "D"})
+    rc, _, err = _run(capsys, "solve", path, "--out", tmp_path / "o", "--no-png")
+    assert rc == 0 and "no combination is of family 'LRDF'" in err and "did you mean envelope:LRFD" in err
+    rep = json.loads((tmp_path / "o" / "beam-results.json").read_text())
+    assert any("'LRDF'" in w for w in rep["warnings"])
+    # the default envelope:LRFD of a drawing with only its own combinations: nothing said
+    (tmp_path / "b").mkdir()
+    path = _beam(tmp_path / "b", SECTIONS + '[combinations]\nbuiltin = []\nextra = ["1.5D"]\n',
+                 {"W": "5 kN/m", "CASE": "D"})
+    rc, _, err = _run(capsys, "solve", path, "--out", tmp_path / "b" / "o", "--no-png")
+    assert rc == 0 and "family" not in err
+
+
 def test_loads_without_case_are_counted_in_one_warning(tmp_path, capsys):
     path = _beam(tmp_path, SECTIONS, {"W": "5 kN/m", "CASE": ""}, {"W": "2 kN/m", "CASE": " "},
                  {"W": "1 kN/m", "CASE": "D"})

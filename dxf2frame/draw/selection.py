@@ -9,7 +9,7 @@ from typing import Sequence
 
 from ..errors import SettingsError
 
-__all__ = ["Selection", "select_results"]
+__all__ = ["Selection", "select_results", "missing_family"]
 
 
 # -- which results to draw -----------------------------------------------------
@@ -32,6 +32,29 @@ class Selection:
 
 def _squash(name: str) -> str:
     return "".join(name.split()).lower()
+
+
+def missing_family(results: Sequence, show: str | None) -> str | None:
+    """A warning when ``show`` asks for the envelope of a family of
+    combinations none of ``results`` belongs to (``envelope:LRDF``): the
+    drawing then falls back to every combination, which was not asked for.
+    Nothing for the default ``envelope:LRFD`` (a drawing with only its own
+    combinations, no built-in set, draws them all as documented)."""
+    import difflib
+
+    show = (show or "envelope:LRFD").strip()
+    fam = show.partition(":")[2].strip() if show.lower().startswith("envelope") else ""
+    if fam.upper() == "LRFD":
+        return None
+    combos = [r for r in results if r.kind == "combination"]
+    families = sorted({r.family for r in combos if r.family})
+    if not fam or fam.lower() == "all" or not combos or not families \
+            or any(f.lower() == fam.lower() for f in families):
+        return None
+    close = difflib.get_close_matches(fam.upper(), [f.upper() for f in families], n=1)
+    like = f"; did you mean envelope:{families[[f.upper() for f in families].index(close[0])]}?" if close else ""
+    return (f"the drawing shows {show!r}, but no combination is of family {fam!r} (families: "
+            f"{', '.join(families)}): the envelope of every combination is drawn instead{like}")
 
 
 def select_results(results: Sequence, show: str | None) -> Selection:

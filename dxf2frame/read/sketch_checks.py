@@ -224,7 +224,7 @@ def combination_problems(settings: Settings, present: Sequence[str], specs) -> l
     if not settings.combinations_builtin and not settings.combinations_extra:
         return []
     used = {c for _, factors, _ in specs for c in factors}
-    out = []
+    out = _repeated_terms(settings.combinations_extra)
     for c in present:
         if c in used:
             continue
@@ -240,6 +240,28 @@ def combination_problems(settings: Settings, present: Sequence[str], specs) -> l
                     "[combinations] extra")
         out.append(f"load case {c!r} enters no load combination: it is solved on its own but left out of every "
                    f"combination and envelope; {hint}")
+    return out
+
+
+def _repeated_terms(formulas: Sequence[str]) -> list[str]:
+    """A warning for each combination of the settings that names a case in
+    two terms (``1.2D+1.6L+1.6L``): the terms add up, which a typo makes
+    silently."""
+    import re
+
+    from dxf2frame.solver.combinations import format_combination, parse_combination
+
+    out = []
+    for text in formulas:
+        names = re.findall(r"[A-Za-z][A-Za-z0-9_]*", str(text))
+        twice = sorted({n for n in names if names.count(n) > 1})
+        if twice:
+            try:
+                read = format_combination(parse_combination(str(text)))
+            except ValueError:
+                continue
+            out.append(f"combination {text!r} names {', '.join(twice)} in more than one term: the terms add up, "
+                       f"so it is read as {read!r}; write each case once if that is not meant")
     return out
 
 
