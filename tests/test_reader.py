@@ -280,6 +280,24 @@ def test_a_load_block_pasted_twice_in_place_is_said(tmp_path):
     assert len(said) == 1 and f"#{b.dxf.handle}" in said[0] and f"#{a.dxf.handle}" in said[0]
 
 
+@pytest.mark.parametrize("case, basis, said", [("S", "", True), ("Lr", "", True), ("S", "PROJECTED", False),
+                                              ("S", "LENGTH", False), ("D", "", False)])
+def test_a_roof_load_on_a_slope_without_basis_is_said(tmp_path, case, basis, said):
+    # snow, roof live and rain loads are given per horizontal projection
+    # (ASCE/SEI 7, from memory); on a rafter at 1:2 (cos = 2/sqrt(5) = 0.894)
+    # per length gives 12 % more load, so a UDL of those cases that does not
+    # say its BASIS is said; dead load is per length; BASIS given: silent
+    doc = new_drawing("m")
+    msp = doc.modelspace()
+    add_member(msp, (0, 0), (6, 3))
+    add_support(msp, "pin", (0, 0))
+    add_support(msp, "roller", (6, 3))
+    udl = add_load(msp, "udl", (3, 1.5), W="2 kN/m", CASE=case, BASIS=basis)
+    model = read(doc, tmp_path)
+    hits = [w for w in model.warnings if "give no BASIS" in w]
+    assert len(hits) == int(said) and (not said or f"#{udl.dxf.handle}" in hits[0])
+
+
 def test_attdef_defaults_fill_missing_attribs(tmp_path):
     doc = ezdxf.new("R2018", setup=False)
     doc.header["$INSUNITS"] = 6

@@ -179,6 +179,7 @@ class UdlSpec:
         local -y, X and Y along +X, +Y)
     start, end : FROM and TO [m] from the piece's start (None: piece ends)
     projected : True when w is per unit horizontal projection
+    basis_given : False when the block gave no BASIS (per length taken)
     """
 
     at: Point
@@ -191,6 +192,7 @@ class UdlSpec:
     case: str = "D"
     handle: str = ""
     layer: str = ""
+    basis_given: bool = True
 
 
 LoadSpec = Union[ForceSpec, CoupleSpec, UdlSpec]
@@ -763,6 +765,13 @@ def _note_twin_loads(loads: Sequence[LoadSpec], warnings: list[str]) -> Sequence
     return loads
 
 
+#: cases whose loads are given per horizontal projection on a roof (roof
+#: live, snow, rain: ASCE/SEI 7, from memory), and the cosine of a member's
+#: slope below which per length and per projection differ by over 1 %
+PROJECTED_CASES = ("Lr", "S", "R")
+SLOPED = 0.99
+
+
 #: a load taken at a joint from farther than this fraction of the shortest
 #: member there is a warning: it moves the load by a length that matters
 MOVED_TO_JOINT = 0.01
@@ -821,6 +830,7 @@ def _add_loads(frame: Frame, loads: Sequence[LoadSpec], at: _Locator, ends_at: d
     for mi, m in enumerate(frame.members):
         groups[m.group].append(mi)
     near_node, near_members = at.near(np.array([ld.at for ld in loads], dtype=float).reshape(-1, 2))
+    sloped: dict[str, list[str]] = {}   # case -> UDLs per length on sloped members, BASIS not given
     for li, spec in enumerate(loads):
         nid, cands = near_node[li], near_members[li]
         if nid is not None:
@@ -858,8 +868,17 @@ def _add_loads(frame: Frame, loads: Sequence[LoadSpec], at: _Locator, ends_at: d
             else:
                 group = frame.members[at.member_under("UDL", spec, cands, warnings)].group
             _add_udl(frame, spec, groups[group], group, at.lengths, at.tol, at.units)
+            if not spec.basis_given and not spec.projected and spec.case in PROJECTED_CASES \
+                    and abs(at.lengths[frame.members[groups[group][0]].id][1]) < SLOPED:
+                sloped.setdefault(spec.case, []).append(spec.handle)
         else:  # pragma: no cover - programming error
             raise TypeError(f"unknown load spec {spec!r}")
+    for case, handles in sorted(sloped.items()):
+        shown = ", ".join(f"#{h}" for h in handles[:6]) + (f" and {len(handles) - 6} more" if len(handles) > 6 else "")
+        warnings.append(f"{len(handles)} UDL(s) of case {case} on sloped members give no BASIS ({shown}) and are "
+                        f"read per member length; {case} loads are usually given per horizontal projection "
+                        f"(ASCE/SEI 7 roof live, snow and rain loads, from memory): write BASIS=PROJECTED if so, "
+                        f"or BASIS=LENGTH to say per length is meant")
 
 
 def _joined_crossings(

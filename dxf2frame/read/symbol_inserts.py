@@ -205,7 +205,8 @@ def _symbol_udl(ctx: ReadContext, e, kind: str, src: Source) -> None:
     direction = _choice(attrs, "DIR", ("GRAVITY", "X", "Y", "NORMAL"), "GRAVITY", src, ctx)
     basis = _choice(attrs, "BASIS", ("LENGTH", "PROJECTED"), "LENGTH", src, ctx)
     ctx.loads.append(
-        UdlSpec(at, w1, w2, start, end, direction, basis == "PROJECTED", _case(attrs, ctx, src), src.handle, src.layer)
+        UdlSpec(at, w1, w2, start, end, direction, basis == "PROJECTED", _case(attrs, ctx, src), src.handle, src.layer,
+                basis_given="BASIS" in attrs)
     )
 
 
