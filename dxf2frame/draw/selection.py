@@ -51,8 +51,9 @@ def missing_family(results: Sequence, show: str | None) -> str | None:
     if not fam or fam.lower() == "all" or not combos or not families \
             or any(f.lower() == fam.lower() for f in families):
         return None
-    close = difflib.get_close_matches(fam.upper(), [f.upper() for f in families], n=1)
-    like = f"; did you mean envelope:{families[[f.upper() for f in families].index(close[0])]}?" if close else ""
+    by_upper = {f.upper(): f for f in families}
+    close = difflib.get_close_matches(fam.upper(), list(by_upper), n=1)
+    like = f"; did you mean envelope:{by_upper[close[0]]}?" if close else ""
     return (f"the drawing shows {show!r}, but no combination is of family {fam!r} (families: "
             f"{', '.join(families)}): the envelope of every combination is drawn instead{like}")
 

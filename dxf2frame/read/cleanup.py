@@ -747,6 +747,15 @@ def _check_every_part_supported(frame: Frame, support_at: dict[int, SupportSpec]
             )
 
 
+#: the name of each kind of load symbol in messages
+_LOAD_KIND = {ForceSpec: "force", CoupleSpec: "couple", UdlSpec: "UDL"}
+
+
+def _shortest_at(nid: int, at: _Locator, ends_at: dict[int, list[tuple[int, str]]]) -> float:
+    """Length of the shortest member ending at joint ``nid`` (0 when none)."""
+    return min((at.lengths[at.frame.members[mi].id][0] for mi, _ in ends_at.get(nid, [])), default=0.0)
+
+
 def _note_twin_loads(loads: Sequence[LoadSpec], warnings: list[str]) -> Sequence[LoadSpec]:
     """Warn of each load with an exact twin before it (same kind, point,
     case and values: most often a block pasted twice in place), naming both
@@ -758,8 +767,7 @@ def _note_twin_loads(loads: Sequence[LoadSpec], warnings: list[str]) -> Sequence
                *(v for f, v in vars(spec).items() if f not in ("at", "handle", "layer")))
         first = seen.setdefault(key, spec)
         if first is not spec:
-            kind = {ForceSpec: "force", CoupleSpec: "couple", UdlSpec: "UDL"}.get(type(spec), "load")
-            warnings.append(f"{kind} #{spec.handle} on layer '{spec.layer}' repeats #{first.handle} (same point, "
+            warnings.append(f"{_LOAD_KIND[type(spec)]} #{spec.handle} on layer '{spec.layer}' repeats #{first.handle} (same point, "
                             f"case and values): both are applied, twice the load; if one is a copy pasted in "
                             f"place, delete it")
     return loads
@@ -784,13 +792,12 @@ def _note_moved_to_joint(spec, nid: int, at: _Locator, ends_at: dict[int, list[t
     snap tolerance set large moves symbols silently otherwise)."""
     node = at.node_xy[nid]
     d = float(np.hypot(spec.at[0] - node[0], spec.at[1] - node[1]))
-    shortest = min((at.lengths[at.frame.members[mi].id][0] for mi, _ in ends_at.get(nid, [])), default=0.0)
+    shortest = _shortest_at(nid, at, ends_at)
     if shortest > 0 and d > MOVED_TO_JOINT * shortest:
         if isinstance(spec, SupportSpec):
             kind, does, meant = f"{spec.kind} support", "stands", "stands inside the span"
         else:
-            kind = {ForceSpec: "force", CoupleSpec: "couple", UdlSpec: "UDL"}.get(type(spec), "load")
-            does, meant = "is applied", "loads the span"
+            kind, does, meant = _LOAD_KIND[type(spec)], "is applied", "loads the span"
         u = at.units
         warnings.append(
             f"{kind} #{spec.handle} on layer '{spec.layer}' is {u.fmt(d)} from the joint at "
@@ -813,7 +820,7 @@ def _note_large_settlement(spec: SupportSpec, nid: int, at: _Locator, ends_at: d
     if spec.settle is None:
         return
     move = float(np.hypot(spec.settle[0], spec.settle[1]))
-    shortest = min((at.lengths[at.frame.members[mi].id][0] for mi, _ in ends_at.get(nid, [])), default=0.0)
+    shortest = _shortest_at(nid, at, ends_at)
     if shortest > 0 and move > LARGE_SETTLEMENT * shortest:
         u = at.units
         warnings.append(
@@ -874,8 +881,8 @@ def _add_loads(frame: Frame, loads: Sequence[LoadSpec], at: _Locator, ends_at: d
         else:  # pragma: no cover - programming error
             raise TypeError(f"unknown load spec {spec!r}")
     for case, handles in sorted(sloped.items()):
-        shown = ", ".join(f"#{h}" for h in handles[:6]) + (f" and {len(handles) - 6} more" if len(handles) > 6 else "")
-        warnings.append(f"{len(handles)} UDL(s) of case {case} on sloped members give no BASIS ({shown}) and are "
+        warnings.append(f"{len(handles)} UDL(s) of case {case} on sloped members give no BASIS "
+                        f"({_handles_text(handles)}) and are "
                         f"read per member length; {case} loads are usually given per horizontal projection "
                         f"(ASCE/SEI 7 roof live, snow and rain loads, from memory): write BASIS=PROJECTED if so, "
                         f"or BASIS=LENGTH to say per length is meant")

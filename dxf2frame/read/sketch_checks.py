@@ -27,6 +27,7 @@ Units: the frame is in SI (m); messages give lengths in drawing units.
 from __future__ import annotations
 
 import difflib
+import re
 from typing import Iterable, Sequence
 
 import numpy as np
@@ -170,8 +171,7 @@ def upward_gravity_loads(loads: Sequence) -> list[str]:
             up.setdefault(ld.case, []).append(ld.handle)
     out = []
     for case, handles in sorted(up.items()):
-        shown = ", ".join(f"#{h}" for h in handles[:6]) + (f" and {len(handles) - 6} more" if len(handles) > 6 else "")
-        out.append(f"{len(handles)} load(s) of case {case} act upward ({shown}), though {case} loads act down "
+        out.append(f"{len(handles)} load(s) of case {case} act upward ({_handles(handles)}), though {case} loads act down "
                    f"unless something lifts: the blocks take gravity as positive (P along the arrow, W along DIR = "
                    f"GRAVITY), so a minus sign written for +Y up reverses a load; applied as written")
     return out
@@ -247,8 +247,6 @@ def _repeated_terms(formulas: Sequence[str]) -> list[str]:
     """A warning for each combination of the settings that names a case in
     two terms (``1.2D+1.6L+1.6L``): the terms add up, which a typo makes
     silently."""
-    import re
-
     from dxf2frame.solver.combinations import format_combination, parse_combination
 
     out = []
