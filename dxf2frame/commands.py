@@ -105,11 +105,11 @@ def _moving_lines(model, document, settings) -> list[str]:
     if settings.moving_path_layer is None:
         return []
     from .further import load_path
+    from .solver import station_grid
 
     path, kind = load_path(model, document, settings)
     step = settings.moving_step
-    n = int(path.length / step + 1e-9) + 1
-    n += abs((n - 1) * step - path.length) > 1e-9 * path.length  # the path's end is a station too
+    n = len(station_grid(path.length, step))
     what = f"{len(set(path.member.tolist()))} member(s)" + (", polyline" if kind == "polyline" else "")
     vehicles = "; ".join(f"{v.name} ({len(v.loads)} axle(s))" for v in settings.moving_vehicles)
     return [f"moving       path {settings.moving_path_layer}: {what}, {path.length:.6g} m, step {step:g} m "

@@ -72,6 +72,7 @@ __all__ = [
     "path_along_members",
     "path_through_points",
     "locate_point",
+    "station_grid",
 ]
 
 
@@ -104,6 +105,16 @@ class LoadPath:
         a = self.a0[i] + np.sign(self.a1[i] - self.a0[i]) * t
         lo, hi = np.minimum(self.a0[i], self.a1[i]), np.maximum(self.a0[i], self.a1[i])
         return self.member[i], np.clip(a, lo, hi)
+
+
+def station_grid(length: float, step: float) -> np.ndarray:
+    """Stations 0, step, 2*step, ... along ``length``, its end included
+    (one more station where ``step`` does not divide it) [length]."""
+    if not (step > 0):
+        raise ValueError("step must be positive")
+    n = int(np.floor(length / step + 1e-9))
+    s = np.arange(n + 1) * float(step)
+    return s if abs(s[-1] - length) <= 1e-9 * length else np.append(s, length)
 
 
 def _path(pieces: list[tuple[int, float, float]]) -> LoadPath:
@@ -498,12 +509,8 @@ class MovingLoads:
 
     def stations(self, step: float) -> np.ndarray:
         """Path coordinates 0, step, 2*step, ... up to and including the
-        path's end [length]."""
-        if not (step > 0):
-            raise ValueError("step must be positive")
-        n = int(np.floor(self.path.length / step + 1e-9))
-        s = np.arange(n + 1) * float(step)
-        return s if abs(s[-1] - self.path.length) <= 1e-9 * self.path.length else np.append(s, self.path.length)
+        path's end [length] (:func:`station_grid` of the path's length)."""
+        return station_grid(self.path.length, step)
 
     def _basis(self) -> _NodalBasis:
         """Unit nodal loads on every active dof (free or restrained) of the

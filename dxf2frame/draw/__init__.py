@@ -18,7 +18,7 @@ from .style import (
 )
 from .selection import Selection, select_results
 from .labels import LabelPlacer
-from .obstacles import DrawingObstacles, drawing_obstacles, free_spot
+from .obstacles import DrawingObstacles, drawing_obstacles, free_spot, keep_clear
 from .further import further_layer_names, annotate_further, write_buckling_drawing
 from .writer import (
     DrawingSummary,
@@ -46,6 +46,7 @@ __all__ = [
     "DrawingObstacles",
     "drawing_obstacles",
     "free_spot",
+    "keep_clear",
     "DrawingSummary",
     "annotate_results",
     "annotate_mechanism",

@@ -25,7 +25,7 @@ import numpy as np
 
 from ..errors import AnalysisError, DrawingError, SettingsError
 from ..solver import InfluenceLine, LoadPath, MemberEnvelope, MovingLoads, Vehicle, path_along_members, \
-    path_through_points
+    path_through_points, station_grid
 from ..solver.errors import LoadError, MissingSectionError, SolverError
 
 __all__ = ["MovingOutcome", "VehicleOutcome", "ProbeInfluence", "load_path", "run_moving"]
@@ -197,7 +197,7 @@ def _check_station_count(frame, path: LoadPath, step: float) -> None:
     MAX_STATIONS_PER_MEMBER stations on one member of ``path``."""
     stretch = np.abs(path.a1 - path.a0)
     i = int(np.argmax(stretch))
-    n = int(np.floor(stretch[i] / step + 1e-9)) + 1
+    n = len(station_grid(float(stretch[i]), step))
     if n > MAX_STATIONS_PER_MEMBER:
         mb = frame.members[int(path.member[i])]
         raise SettingsError(

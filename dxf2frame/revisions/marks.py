@@ -15,8 +15,7 @@ import numpy as np
 import shapely
 
 from ..atomic import atomic_path
-from ..draw import LabelPlacer, DrawingObstacles, drawing_obstacles
-from ..draw.obstacles import keep_clear
+from ..draw import LabelPlacer, DrawingObstacles, drawing_obstacles, keep_clear
 from ..errors import InputFileError
 from .data import Comparison, MemberRef, ValueChange
 from ..numbers import cell_value
